@@ -1,0 +1,930 @@
+//! Throughput and peak memory of `neap reduce` on one large soundings file, against a baseline
+//! that only copies the same file through the `csv` crate.
+//!
+//! ```text
+//! cargo build --release --bin neap
+//! cargo bench --bench reduce_throughput                       # 5 000 000 soundings, 3 runs
+//! cargo bench --bench reduce_throughput -- --soundings 20000000 --runs 3
+//! ```
+//!
+//! What it does:
+//!
+//! 1. Generates (once, cached in `<target>/bench-data/n<N>/`) `soundings.csv`: N rows in the
+//!    layout of `zoning-demo/soundings/launch-a.csv` (`time,easting,northing,depth_m,line`, UTM
+//!    24S metres, RFC 3339 UTC times). Row `i` takes the position, depth and line of launch-a row
+//!    `i mod 53811` and moves the position by a deterministic offset of at most ±0.5 m on each
+//!    axis; times run evenly from 2026-06-14T07:00Z to 17:00Z. Beside it, `project.toml`: the
+//!    demo project with absolute paths to the demo's gauges and zoning and a single `[[soundings]]`
+//!    group (the launch-a group's layout keys) naming the big file.
+//! 2. Runs, `--runs` times each and alternating, two child processes on that file:
+//!    * **baseline**: this executable again (`--baseline-child IN OUT`), single-threaded: a
+//!      `csv::Reader` with a reused `ByteRecord` (`read_byte_record`), the depth, easting and
+//!      northing parsed as `f64`, every record written back with three float columns appended
+//!      (depth, depth + 1, depth − 1, formatted with `ryu`) through a `csv::Writer` over a
+//!      256 KiB `BufWriter`;
+//!    * **neap**: `<target>/release/neap reduce <project> --out <dir> --no-progress`.
+//!
+//!    For each child: wall time (spawn to exit) and, from `wait4` on that child's pid, its own
+//!    peak resident set (`ru_maxrss`) and CPU time. Outputs are checked (header + one line per
+//!    sounding), then deleted before the next run.
+//! 3. Prints medians, throughput and peak memory, the machine, and a Markdown table that is also
+//!    written to `<target>/bench-data/results-n<N>.md`.
+//!
+//! The neap binary is not built here: build it first with `cargo build --release --bin neap`.
+
+use std::fs::{self, File};
+use std::hint::black_box;
+use std::io::{BufRead, BufReader, BufWriter, Read, Write};
+use std::path::{Path, PathBuf};
+use std::process::{Command, ExitCode, Stdio};
+use std::time::{Instant, SystemTime};
+
+/// Default number of soundings in the generated file.
+const DEFAULT_SOUNDINGS: u64 = 5_000_000;
+/// Default number of runs of each side.
+const DEFAULT_RUNS: usize = 3;
+/// Buffer size of the baseline's reader and writer, and of the line counter.
+const IO_BUFFER_BYTES: usize = 256 * 1024;
+/// Start of the generated soundings' times: 2026-06-14T07:00:00Z, seconds since 1970-01-01.
+/// (20618 days from 1970-01-01 to 2026-06-14, times 86400, plus 7 h.)
+const FIRST_TIME_S: u64 = 20_618 * 86_400 + 7 * 3_600;
+/// Span of the generated soundings' times: 07:00Z to 17:00Z.
+const TIME_SPAN_MS: u64 = 10 * 3_600 * 1_000;
+/// Largest offset added to each coordinate of a generated position, metres.
+const MAX_POSITION_OFFSET_M: f64 = 0.5;
+/// Bump when the generated file's content changes, so that stale caches are not reused.
+const GENERATOR_VERSION: u32 = 1;
+/// Memory target for neap, MiB (whatever the file size).
+const NEAP_PEAK_RSS_TARGET_MIB: f64 = 50.0;
+
+const USAGE: &str = "usage: cargo bench --bench reduce_throughput [-- --soundings N] [--runs K]";
+
+fn main() -> ExitCode {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    match args.first().map(String::as_str) {
+        Some("--baseline-child") if args.len() == 3 => {
+            return exit_on_error(baseline_child(Path::new(&args[1]), Path::new(&args[2])));
+        }
+        Some("--generate-child") if args.len() == 3 => {
+            let n = match parse_count(&args[1]) {
+                Some(n) => n,
+                None => return exit_on_error(Err(format!("bad soundings count '{}'", args[1]))),
+            };
+            return exit_on_error(generate_child(n, Path::new(&args[2])));
+        }
+        _ => {}
+    }
+    let mut soundings = DEFAULT_SOUNDINGS;
+    let mut runs = DEFAULT_RUNS;
+    let mut it = args.iter();
+    while let Some(a) = it.next() {
+        match a.as_str() {
+            // cargo bench passes --bench to harness = false targets.
+            "--bench" => {}
+            "--soundings" => match it.next().and_then(|v| parse_count(v)) {
+                Some(n) if n > 0 => soundings = n,
+                _ => return usage_error("--soundings needs a positive whole number"),
+            },
+            "--runs" => match it.next().and_then(|v| parse_count(v)) {
+                Some(k) if k > 0 => runs = k as usize,
+                _ => return usage_error("--runs needs a positive whole number"),
+            },
+            "-h" | "--help" => {
+                println!("{USAGE}");
+                return ExitCode::SUCCESS;
+            }
+            other => return usage_error(&format!("unknown argument '{other}'")),
+        }
+    }
+    exit_on_error(bench(soundings, runs))
+}
+
+fn usage_error(msg: &str) -> ExitCode {
+    eprintln!("reduce_throughput: {msg}\n{USAGE}");
+    ExitCode::from(2)
+}
+
+fn exit_on_error(r: Result<(), String>) -> ExitCode {
+    match r {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("reduce_throughput: FAILED: {e}");
+            ExitCode::FAILURE
+        }
+    }
+}
+
+/// Parses a count written with or without `_` separators (`5_000_000`).
+fn parse_count(s: &str) -> Option<u64> {
+    s.replace('_', "").parse().ok()
+}
+
+// ------------------------------------------------------------------------------------------------
+// Locations
+
+struct Paths {
+    /// `<target>/release/neap`.
+    neap: PathBuf,
+    /// `<target>/bench-data`.
+    data_root: PathBuf,
+    /// The bundled demo folder.
+    demo: PathBuf,
+}
+
+fn locate() -> Result<Paths, String> {
+    let exe = std::env::current_exe().map_err(|e| format!("cannot find this executable: {e}"))?;
+    // cargo puts bench executables in <target>/<profile dir>/deps/.
+    let target = exe
+        .parent()
+        .filter(|d| d.file_name().is_some_and(|n| n == "deps"))
+        .and_then(Path::parent)
+        .and_then(Path::parent)
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
+    let neap = target.join("release").join("neap");
+    if !neap.is_file() {
+        return Err(format!(
+            "{} does not exist: build it first with `cargo build --release --bin neap` \
+             (this benchmark builds nothing itself)",
+            neap.display()
+        ));
+    }
+    Ok(Paths {
+        neap,
+        data_root: target.join("bench-data"),
+        demo: Path::new(env!("CARGO_MANIFEST_DIR")).join("zoning-demo"),
+    })
+}
+
+/// Warns when a source file is newer than the neap binary (the binary may be stale).
+fn warn_if_stale(neap: &Path) {
+    let Ok(built) = fs::metadata(neap).and_then(|m| m.modified()) else {
+        return;
+    };
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("src");
+    let mut newest: Option<(SystemTime, PathBuf)> = None;
+    let mut stack = vec![src];
+    while let Some(dir) = stack.pop() {
+        let Ok(rd) = fs::read_dir(&dir) else { continue };
+        for e in rd.flatten() {
+            let p = e.path();
+            if p.is_dir() {
+                stack.push(p);
+            } else if let Ok(t) = e.metadata().and_then(|m| m.modified()) {
+                if newest.as_ref().map_or(true, |(n, _)| t > *n) {
+                    newest = Some((t, p));
+                }
+            }
+        }
+    }
+    if let Some((t, p)) = newest {
+        if t > built {
+            eprintln!(
+                "reduce_throughput: warning: {} is newer than {}; run `cargo build --release \
+                 --bin neap` to measure the current code",
+                p.display(),
+                neap.display()
+            );
+        }
+    }
+}
+
+// ------------------------------------------------------------------------------------------------
+// Test data
+
+/// Deterministic 64-bit mix of `x` (SplitMix64 finaliser).
+fn mix64(mut x: u64) -> u64 {
+    x = x.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    x = (x ^ (x >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    x = (x ^ (x >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    x ^ (x >> 31)
+}
+
+/// A deterministic offset in [−MAX_POSITION_OFFSET_M, +MAX_POSITION_OFFSET_M) metres.
+fn offset_m(key: u64) -> f64 {
+    let unit = (mix64(key) >> 11) as f64 / (1u64 << 53) as f64;
+    (2.0 * unit - 1.0) * MAX_POSITION_OFFSET_M
+}
+
+/// One row of launch-a as the generator reuses it.
+struct SourceRow {
+    easting_m: f64,
+    northing_m: f64,
+    /// The depth field as written (kept verbatim).
+    depth: String,
+    line: String,
+}
+
+/// Reads launch-a: its header line and its rows.
+fn read_launch_a(path: &Path) -> Result<(String, Vec<SourceRow>), String> {
+    let f = File::open(path).map_err(|e| format!("{}: {e}", path.display()))?;
+    let mut lines = BufReader::new(f).lines();
+    let header = lines
+        .next()
+        .ok_or_else(|| format!("{}: empty", path.display()))?
+        .map_err(|e| format!("{}: {e}", path.display()))?;
+    let cols: Vec<&str> = header.split(',').collect();
+    if cols != ["time", "easting", "northing", "depth_m", "line"] {
+        return Err(format!(
+            "{}: expected the header time,easting,northing,depth_m,line, found {header}",
+            path.display()
+        ));
+    }
+    let mut rows = Vec::new();
+    for (i, l) in lines.enumerate() {
+        let l = l.map_err(|e| format!("{}: {e}", path.display()))?;
+        if l.trim().is_empty() {
+            continue;
+        }
+        let f: Vec<&str> = l.split(',').collect();
+        let bad = || format!("{}:{}: unexpected row '{l}'", path.display(), i + 2);
+        if f.len() != 5 {
+            return Err(bad());
+        }
+        rows.push(SourceRow {
+            easting_m: f[1].parse().map_err(|_| bad())?,
+            northing_m: f[2].parse().map_err(|_| bad())?,
+            depth: f[3].to_string(),
+            line: f[4].to_string(),
+        });
+    }
+    if rows.is_empty() {
+        return Err(format!("{}: no rows", path.display()));
+    }
+    Ok((header, rows))
+}
+
+fn push_2(out: &mut Vec<u8>, v: u64) {
+    out.push(b'0' + (v / 10 % 10) as u8);
+    out.push(b'0' + (v % 10) as u8);
+}
+
+/// Appends `2026-06-14THH:MM:SS.mmmZ` for `t_ms` milliseconds since 1970-01-01 (the date part
+/// assumes 2026-06-14, which every generated time falls on).
+fn push_time(out: &mut Vec<u8>, t_ms: u64) {
+    let day_s = t_ms / 1000 % 86_400;
+    out.extend_from_slice(b"2026-06-14T");
+    push_2(out, day_s / 3600);
+    out.push(b':');
+    push_2(out, day_s / 60 % 60);
+    out.push(b':');
+    push_2(out, day_s % 60);
+    out.push(b'.');
+    let ms = t_ms % 1000;
+    out.push(b'0' + (ms / 100) as u8);
+    push_2(out, ms);
+    out.push(b'Z');
+}
+
+/// Appends `v` rounded to centimetres with two decimals (`v` ≥ 0).
+fn push_cm(out: &mut Vec<u8>, v: f64) {
+    let cm = (v * 100.0).round() as u64;
+    out.extend_from_slice((cm / 100).to_string().as_bytes());
+    out.push(b'.');
+    push_2(out, cm % 100);
+}
+
+/// Hidden mode: writes the N-row soundings file to `path` (through a temporary, renamed at the
+/// end so that an interrupted generation never looks complete).
+fn generate_child(n: u64, path: &Path) -> Result<(), String> {
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("zoning-demo");
+    let (header, rows) = read_launch_a(&demo.join("soundings/launch-a.csv"))?;
+    let tmp = path.with_extension("csv.partial");
+    let file = File::create(&tmp).map_err(|e| format!("{}: {e}", tmp.display()))?;
+    let mut w = BufWriter::with_capacity(1 << 20, file);
+    let mut line = Vec::with_capacity(128);
+    let io = |e: std::io::Error| format!("{}: {e}", tmp.display());
+    w.write_all(header.as_bytes()).map_err(io)?;
+    w.write_all(b"\n").map_err(io)?;
+    for i in 0..n {
+        let src = &rows[(i % rows.len() as u64) as usize];
+        line.clear();
+        push_time(&mut line, FIRST_TIME_S * 1000 + i * TIME_SPAN_MS / n);
+        line.push(b',');
+        push_cm(&mut line, src.easting_m + offset_m(2 * i));
+        line.push(b',');
+        push_cm(&mut line, src.northing_m + offset_m(2 * i + 1));
+        line.push(b',');
+        line.extend_from_slice(src.depth.as_bytes());
+        line.push(b',');
+        line.extend_from_slice(src.line.as_bytes());
+        line.push(b'\n');
+        w.write_all(&line).map_err(io)?;
+    }
+    w.flush().map_err(io)?;
+    drop(w);
+    fs::rename(&tmp, path).map_err(|e| format!("{}: {e}", path.display()))
+}
+
+/// Writes the benchmark's project file: the demo's, with absolute paths and one soundings group
+/// (the launch-a group's layout) naming `csv`.
+fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<(), String> {
+    let demo_project = demo.join("project.toml");
+    let text = fs::read_to_string(&demo_project)
+        .map_err(|e| format!("{}: {e}", demo_project.display()))?;
+    let mut doc: toml::Table = text
+        .parse()
+        .map_err(|e| format!("{}: {e}", demo_project.display()))?;
+    let abs = |rel: &toml::Value| -> Result<toml::Value, String> {
+        let s = rel
+            .as_str()
+            .ok_or_else(|| format!("{}: expected a path string", demo_project.display()))?;
+        let p = demo.join(s);
+        let p = p
+            .canonicalize()
+            .map_err(|e| format!("{}: {e}", p.display()))?;
+        Ok(toml::Value::String(p.to_string_lossy().into_owned()))
+    };
+    let zoning = doc.get("zoning").ok_or("the demo project has no zoning")?;
+    let zoning = abs(zoning)?;
+    doc.insert("zoning".into(), zoning);
+    doc.insert(
+        "name".into(),
+        toml::Value::String(format!("neap throughput benchmark, {n} soundings")),
+    );
+    let gauges = doc
+        .get_mut("gauge")
+        .and_then(toml::Value::as_array_mut)
+        .ok_or("the demo project has no [[gauge]]")?;
+    for g in gauges.iter_mut() {
+        let g = g.as_table_mut().ok_or("a [[gauge]] is not a table")?;
+        let record = abs(g.get("record").ok_or("a [[gauge]] has no record")?)?;
+        g.insert("record".into(), record);
+    }
+    let launch_a = doc
+        .get("soundings")
+        .and_then(toml::Value::as_array)
+        .and_then(|groups| {
+            groups.iter().find(|g| {
+                g.get("files")
+                    .and_then(toml::Value::as_array)
+                    .is_some_and(|f| {
+                        f.iter()
+                            .any(|v| v.as_str() == Some("soundings/launch-a.csv"))
+                    })
+            })
+        })
+        .cloned()
+        .ok_or("the demo project has no [[soundings]] group for soundings/launch-a.csv")?;
+    let mut group = launch_a
+        .as_table()
+        .cloned()
+        .ok_or("the launch-a [[soundings]] group is not a table")?;
+    group.insert(
+        "files".into(),
+        toml::Value::Array(vec![toml::Value::String(
+            csv.to_string_lossy().into_owned(),
+        )]),
+    );
+    doc.insert(
+        "soundings".into(),
+        toml::Value::Array(vec![toml::Value::Table(group)]),
+    );
+    let mut output = toml::Table::new();
+    output.insert("dir".into(), toml::Value::String("out".into()));
+    doc.insert("output".into(), toml::Value::Table(output));
+    let body = toml::to_string(&doc).map_err(|e| format!("cannot write the project: {e}"))?;
+    let text = format!(
+        "# Written by benches/reduce_throughput.rs from {}: the demo's gauges and zoning, one\n\
+         # soundings group with the launch-a layout naming the generated {n}-row file.\n\n{body}",
+        demo_project.display()
+    );
+    if fs::read_to_string(out).ok().as_deref() != Some(text.as_str()) {
+        fs::write(out, text).map_err(|e| format!("{}: {e}", out.display()))?;
+    }
+    Ok(())
+}
+
+// ------------------------------------------------------------------------------------------------
+// Baseline
+
+fn parse_f64(field: &[u8]) -> f64 {
+    std::str::from_utf8(field)
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(f64::NAN)
+}
+
+/// Hidden mode: the baseline. Reads `input` with the csv crate, parses depth, easting and
+/// northing, and writes every record with three float columns appended to `output`.
+fn baseline_child(input: &Path, output: &Path) -> Result<(), String> {
+    let err = |e: csv::Error| e.to_string();
+    let mut rdr = csv::ReaderBuilder::new()
+        .buffer_capacity(IO_BUFFER_BYTES)
+        .from_path(input)
+        .map_err(err)?;
+    let header = rdr.byte_headers().map_err(err)?.clone();
+    let col = |name: &str| -> Result<usize, String> {
+        header
+            .iter()
+            .position(|h| h == name.as_bytes())
+            .ok_or_else(|| format!("{}: no column '{name}'", input.display()))
+    };
+    let (depth_col, easting_col, northing_col) =
+        (col("depth_m")?, col("easting")?, col("northing")?);
+    let file = File::create(output).map_err(|e| format!("{}: {e}", output.display()))?;
+    let mut wtr = csv::Writer::from_writer(BufWriter::with_capacity(IO_BUFFER_BYTES, file));
+    let mut out_header = header.clone();
+    for name in ["depth_m_copy", "depth_plus_1_m", "depth_minus_1_m"] {
+        out_header.push_field(name.as_bytes());
+    }
+    wtr.write_byte_record(&out_header).map_err(err)?;
+    let mut rec = csv::ByteRecord::new();
+    let mut fmt = ryu::Buffer::new();
+    while rdr.read_byte_record(&mut rec).map_err(err)? {
+        let depth_m = parse_f64(&rec[depth_col]);
+        let easting_m = parse_f64(&rec[easting_col]);
+        let northing_m = parse_f64(&rec[northing_col]);
+        black_box((easting_m, northing_m));
+        for field in rec.iter() {
+            wtr.write_field(field).map_err(err)?;
+        }
+        wtr.write_field(fmt.format(depth_m)).map_err(err)?;
+        wtr.write_field(fmt.format(depth_m + 1.0)).map_err(err)?;
+        wtr.write_field(fmt.format(depth_m - 1.0)).map_err(err)?;
+        wtr.write_record(None::<&[u8]>).map_err(err)?;
+    }
+    wtr.flush()
+        .map_err(|e| format!("{}: {e}", output.display()))
+}
+
+// ------------------------------------------------------------------------------------------------
+// Measuring a child
+
+/// What one child process took.
+#[derive(Debug, Clone, Copy)]
+struct Measured {
+    wall_s: f64,
+    /// User + system CPU time of the child, seconds.
+    cpu_s: f64,
+    /// The child's own peak resident set, KiB (`ru_maxrss` from `wait4`).
+    peak_rss_kib: i64,
+    /// Exit status, or `None` when killed by a signal.
+    exit_code: Option<i32>,
+    /// CPU time used on the whole machine during the run by everything but the child, seconds
+    /// (from /proc/stat; a disturbance indicator).
+    other_cpu_s: f64,
+}
+
+/// Busy CPU time of the whole machine so far, seconds (from /proc/stat).
+fn machine_busy_s() -> f64 {
+    let Ok(stat) = fs::read_to_string("/proc/stat") else {
+        return f64::NAN;
+    };
+    let Some(cpu) = stat.lines().next() else {
+        return f64::NAN;
+    };
+    let v: Vec<u64> = cpu
+        .split_whitespace()
+        .skip(1)
+        .filter_map(|x| x.parse().ok())
+        .collect();
+    if v.len() < 5 {
+        return f64::NAN;
+    }
+    // user nice system idle iowait irq softirq steal (guest times are inside user/nice).
+    let busy: u64 = v.iter().take(8).sum::<u64>() - v[3] - v[4];
+    // SAFETY: sysconf has no preconditions.
+    let ticks_per_s = unsafe { libc::sysconf(libc::_SC_CLK_TCK) } as f64;
+    busy as f64 / ticks_per_s
+}
+
+/// Runs `cmd` with stdout and stderr to `log`, waits for it with `wait4` on its pid, and returns
+/// its wall time, CPU time and peak resident set.
+fn run_measured(cmd: &mut Command, log: &Path) -> Result<Measured, String> {
+    let log_file = File::create(log).map_err(|e| format!("{}: {e}", log.display()))?;
+    let log_err = log_file
+        .try_clone()
+        .map_err(|e| format!("{}: {e}", log.display()))?;
+    cmd.stdin(Stdio::null())
+        .stdout(Stdio::from(log_file))
+        .stderr(Stdio::from(log_err));
+    let busy_before_s = machine_busy_s();
+    let start = Instant::now();
+    let child = cmd
+        .spawn()
+        .map_err(|e| format!("cannot start {:?}: {e}", cmd.get_program()))?;
+    let pid = child.id() as libc::pid_t;
+    let mut status: libc::c_int = 0;
+    // SAFETY: rusage is plain old data; all-zero is a valid value.
+    let mut usage: libc::rusage = unsafe { std::mem::zeroed() };
+    loop {
+        // SAFETY: pid is our own child, not yet reaped (std's Child is never waited on here);
+        // status and usage point to live locals.
+        let r = unsafe { libc::wait4(pid, &mut status, 0, &mut usage) };
+        if r == pid {
+            break;
+        }
+        let e = std::io::Error::last_os_error();
+        if e.kind() != std::io::ErrorKind::Interrupted {
+            return Err(format!("wait4 on pid {pid}: {e}"));
+        }
+    }
+    let wall_s = start.elapsed().as_secs_f64();
+    let busy_after_s = machine_busy_s();
+    drop(child);
+    let tv = |t: libc::timeval| t.tv_sec as f64 + t.tv_usec as f64 * 1e-6;
+    let cpu_s = tv(usage.ru_utime) + tv(usage.ru_stime);
+    let exit_code = if libc::WIFEXITED(status) {
+        Some(libc::WEXITSTATUS(status))
+    } else {
+        None
+    };
+    if exit_code.is_none() && libc::WIFSIGNALED(status) {
+        eprintln!(
+            "reduce_throughput: {:?} was killed by signal {}",
+            cmd.get_program(),
+            libc::WTERMSIG(status)
+        );
+    }
+    Ok(Measured {
+        wall_s,
+        cpu_s,
+        peak_rss_kib: usage.ru_maxrss as i64,
+        exit_code,
+        other_cpu_s: (busy_after_s - busy_before_s - cpu_s).max(0.0),
+    })
+}
+
+/// Lines in a file: line ends, plus one for a last line without an end.
+fn count_lines(path: &Path) -> Result<u64, String> {
+    let mut f = File::open(path).map_err(|e| format!("{}: {e}", path.display()))?;
+    let mut buf = vec![0u8; IO_BUFFER_BYTES];
+    let mut n = 0u64;
+    let mut last = b'\n';
+    loop {
+        let k = match f.read(&mut buf) {
+            Ok(0) => break,
+            Ok(k) => k,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(e) => return Err(format!("{}: {e}", path.display())),
+        };
+        n += buf[..k].iter().filter(|&&c| c == b'\n').count() as u64;
+        last = buf[k - 1];
+    }
+    Ok(if last == b'\n' { n } else { n + 1 })
+}
+
+fn tail(path: &Path, max_lines: usize) -> String {
+    let text = fs::read_to_string(path).unwrap_or_default();
+    let lines: Vec<&str> = text.lines().collect();
+    lines[lines.len().saturating_sub(max_lines)..].join("\n")
+}
+
+fn file_mib(path: &Path) -> f64 {
+    fs::metadata(path)
+        .map(|m| m.len() as f64)
+        .unwrap_or(f64::NAN)
+        / (1024.0 * 1024.0)
+}
+
+fn remove_if_present(p: &Path) -> Result<(), String> {
+    let r = if p.is_dir() {
+        fs::remove_dir_all(p)
+    } else {
+        fs::remove_file(p)
+    };
+    match r {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+        Err(e) => Err(format!("cannot delete {}: {e}", p.display())),
+    }
+}
+
+// ------------------------------------------------------------------------------------------------
+// The machine
+
+struct Machine {
+    cpu_model: String,
+    logical_cpus: usize,
+    memory_gib: f64,
+    kernel: String,
+}
+
+fn machine() -> Machine {
+    let cpuinfo = fs::read_to_string("/proc/cpuinfo").unwrap_or_default();
+    let cpu_model = cpuinfo
+        .lines()
+        .find(|l| l.starts_with("model name"))
+        .and_then(|l| l.split_once(':'))
+        .map(|(_, v)| v.trim().to_string())
+        .unwrap_or_else(|| "unknown".into());
+    let meminfo = fs::read_to_string("/proc/meminfo").unwrap_or_default();
+    let mem_kib: f64 = meminfo
+        .lines()
+        .find(|l| l.starts_with("MemTotal:"))
+        .and_then(|l| l.split_whitespace().nth(1))
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(f64::NAN);
+    Machine {
+        cpu_model,
+        logical_cpus: std::thread::available_parallelism()
+            .map(|n| n.get())
+            .unwrap_or(0),
+        memory_gib: mem_kib / (1024.0 * 1024.0),
+        kernel: fs::read_to_string("/proc/sys/kernel/osrelease")
+            .map(|s| s.trim().to_string())
+            .unwrap_or_default(),
+    }
+}
+
+fn load_average() -> String {
+    fs::read_to_string("/proc/loadavg")
+        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
+        .unwrap_or_default()
+}
+
+fn utc_now_label() -> String {
+    let s = SystemTime::now()
+        .duration_since(SystemTime::UNIX_EPOCH)
+        .map(|d| d.as_secs())
+        .unwrap_or(0);
+    let (days, rem) = (s / 86_400, s % 86_400);
+    // Civil date from days since 1970-01-01 (proleptic Gregorian calendar).
+    let z = days as i64 + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    let y = yoe + era * 400 + i64::from(m <= 2);
+    format!(
+        "{y:04}-{m:02}-{d:02} {:02}:{:02} UTC",
+        rem / 3600,
+        rem / 60 % 60
+    )
+}
+
+// ------------------------------------------------------------------------------------------------
+// The benchmark
+
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        (v[n / 2 - 1] + v[n / 2]) / 2.0
+    }
+}
+
+fn mib(kib: i64) -> f64 {
+    kib as f64 / 1024.0
+}
+
+/// Reads neap's run summary: rows per status.
+fn neap_status_counts(summary: &Path) -> String {
+    let Ok(text) = fs::read_to_string(summary) else {
+        return "(no reduce-summary.json)".into();
+    };
+    let Ok(v) = serde_json::from_str::<serde_json::Value>(&text) else {
+        return "(unreadable reduce-summary.json)".into();
+    };
+    v.get("rows_by_status")
+        .and_then(|r| r.as_array())
+        .map(|a| {
+            a.iter()
+                .filter_map(|p| Some(format!("{} {}", p.get(0)?.as_str()?, p.get(1)?.as_u64()?)))
+                .collect::<Vec<_>>()
+                .join(", ")
+        })
+        .unwrap_or_else(|| "(no rows_by_status)".into())
+}
+
+fn bench(n: u64, runs: usize) -> Result<(), String> {
+    let paths = locate()?;
+    warn_if_stale(&paths.neap);
+    let this_exe = std::env::current_exe().map_err(|e| e.to_string())?;
+    let dir = paths.data_root.join(format!("n{n}"));
+    fs::create_dir_all(&dir).map_err(|e| format!("{}: {e}", dir.display()))?;
+    let dir = dir
+        .canonicalize()
+        .map_err(|e| format!("{}: {e}", dir.display()))?;
+    let csv = dir.join(format!("soundings-v{GENERATOR_VERSION}.csv"));
+    let project = dir.join("project.toml");
+
+    if !csv.is_file() {
+        eprintln!(
+            "reduce_throughput: generating {} ({n} soundings)…",
+            csv.display()
+        );
+        let t = Instant::now();
+        let status = Command::new(&this_exe)
+            .arg("--generate-child")
+            .arg(n.to_string())
+            .arg(&csv)
+            .status()
+            .map_err(|e| format!("cannot start the generator: {e}"))?;
+        if !status.success() {
+            return Err(format!("generating {} failed ({status})", csv.display()));
+        }
+        eprintln!(
+            "reduce_throughput: generated in {:.1} s",
+            t.elapsed().as_secs_f64()
+        );
+    }
+    write_project(&paths.demo, &csv, n, &project)?;
+    let input_lines = count_lines(&csv)?;
+    if input_lines != n + 1 {
+        return Err(format!(
+            "{} has {input_lines} lines, expected {} (header + {n}): delete it to regenerate",
+            csv.display(),
+            n + 1
+        ));
+    }
+    let input_mib = file_mib(&csv);
+
+    let neap_out = dir.join("out-neap");
+    let neap_csv = neap_out.join(
+        csv.file_stem()
+            .map(|s| format!("{}.reduced.csv", s.to_string_lossy()))
+            .unwrap_or_default(),
+    );
+    let base_out = dir.join("out-baseline.csv");
+    let neap_log = dir.join("neap.log");
+    let base_log = dir.join("baseline.log");
+    remove_if_present(&neap_out)?;
+    remove_if_present(&base_out)?;
+
+    let m = machine();
+    let load_before = load_average();
+    // Peak RSS that a trivial child reports when started from this process: the floor that any
+    // child's ru_maxrss includes.
+    let floor = run_measured(&mut Command::new("true"), &dir.join("true.log"))?;
+
+    println!("neap reduce throughput: {n} soundings, {runs} run(s) of each side");
+    println!("  input     {} ({input_mib:.0} MiB)", csv.display());
+    println!("  project   {}", project.display());
+    println!("  neap      {}", paths.neap.display());
+    println!(
+        "  machine   {} | {} logical CPUs | {:.1} GiB RAM | Linux {}",
+        m.cpu_model, m.logical_cpus, m.memory_gib, m.kernel
+    );
+    println!("  load avg  {load_before} (before)");
+    println!(
+        "  spawn floor: `true` started the same way reports {:.1} MiB peak RSS",
+        mib(floor.peak_rss_kib)
+    );
+    println!();
+    println!(
+        "  {:<9} {:>3} {:>9} {:>9} {:>10} {:>10} {:>10} {:>5}",
+        "side", "run", "wall s", "CPU s", "peak MiB", "out MiB", "other CPU", "exit"
+    );
+
+    let mut base_runs: Vec<Measured> = Vec::new();
+    let mut neap_runs: Vec<Measured> = Vec::new();
+    let mut base_fsync_s: Vec<f64> = Vec::new();
+    let mut out_mib = (f64::NAN, f64::NAN);
+    let mut statuses = String::new();
+    for run in 1..=runs {
+        // Baseline.
+        let mut cmd = Command::new(&this_exe);
+        cmd.arg("--baseline-child").arg(&csv).arg(&base_out);
+        let b = run_measured(&mut cmd, &base_log)?;
+        if b.exit_code != Some(0) {
+            return Err(format!(
+                "the baseline failed (exit {:?}); its log {}:\n{}",
+                b.exit_code,
+                base_log.display(),
+                tail(&base_log, 20)
+            ));
+        }
+        // Time to make the baseline's output durable (neap syncs its output before renaming
+        // it, inside its measured time; the baseline does not). Informational only.
+        let t = Instant::now();
+        File::open(&base_out)
+            .and_then(|f| f.sync_all())
+            .map_err(|e| format!("{}: {e}", base_out.display()))?;
+        base_fsync_s.push(t.elapsed().as_secs_f64());
+        let lines = count_lines(&base_out)?;
+        if lines != n + 1 {
+            return Err(format!(
+                "the baseline wrote {lines} lines to {}, expected {}",
+                base_out.display(),
+                n + 1
+            ));
+        }
+        out_mib.0 = file_mib(&base_out);
+        println!(
+            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>10.2} {:>5}",
+            "baseline",
+            run,
+            b.wall_s,
+            b.cpu_s,
+            mib(b.peak_rss_kib),
+            out_mib.0,
+            b.other_cpu_s,
+            0
+        );
+        base_runs.push(b);
+        remove_if_present(&base_out)?;
+
+        // neap.
+        let mut cmd = Command::new(&paths.neap);
+        cmd.arg("reduce")
+            .arg(&project)
+            .arg("--out")
+            .arg(&neap_out)
+            .arg("--no-progress");
+        let r = run_measured(&mut cmd, &neap_log)?;
+        // 0: all reduced; 1: some rows not reduced (expected: the demo's gauge gap and the
+        // overshooting line); anything else means neap could not run.
+        if !matches!(r.exit_code, Some(0) | Some(1)) {
+            return Err(format!(
+                "neap failed (exit {:?}); its log {}:\n{}",
+                r.exit_code,
+                neap_log.display(),
+                tail(&neap_log, 30)
+            ));
+        }
+        let lines = count_lines(&neap_csv)
+            .map_err(|e| format!("neap's output is missing or unreadable: {e}"))?;
+        if lines != n + 1 {
+            return Err(format!(
+                "neap wrote {lines} lines to {}, expected {} (header + one per sounding)",
+                neap_csv.display(),
+                n + 1
+            ));
+        }
+        out_mib.1 = file_mib(&neap_csv);
+        statuses = neap_status_counts(&neap_out.join("reduce-summary.json"));
+        println!(
+            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>10.2} {:>5}",
+            "neap",
+            run,
+            r.wall_s,
+            r.cpu_s,
+            mib(r.peak_rss_kib),
+            out_mib.1,
+            r.other_cpu_s,
+            r.exit_code.unwrap_or(-1)
+        );
+        neap_runs.push(r);
+        remove_if_present(&neap_out)?;
+    }
+    let load_after = load_average();
+
+    let summary = |v: &[Measured]| {
+        (
+            median(v.iter().map(|m| m.wall_s).collect()),
+            median(v.iter().map(|m| m.cpu_s).collect()),
+            v.iter().map(|m| m.peak_rss_kib).max().unwrap_or(0),
+        )
+    };
+    let (b_wall_s, b_cpu_s, b_rss_kib) = summary(&base_runs);
+    let (n_wall_s, n_cpu_s, n_rss_kib) = summary(&neap_runs);
+    let fsync_s = median(base_fsync_s);
+    let ratio = b_wall_s / n_wall_s;
+    let rate = |wall_s: f64| n as f64 / wall_s;
+
+    let mut md = String::new();
+    md.push_str(&format!(
+        "{n} soundings ({input_mib:.0} MiB of CSV), {runs} run(s) of each side, {}.\n\
+         Machine: {}, {} logical CPUs, {:.1} GiB RAM, Linux {}. Load average before/after: \
+         {load_before} / {load_after}.\n\n",
+        utc_now_label(),
+        m.cpu_model,
+        m.logical_cpus,
+        m.memory_gib,
+        m.kernel
+    ));
+    md.push_str(
+        "| side | median wall time (s) | soundings per second | median CPU time (s) \
+         | peak RSS (MiB, max of runs) | output (MiB) |\n|---|---:|---:|---:|---:|---:|\n",
+    );
+    md.push_str(&format!(
+        "| baseline (csv crate, 1 thread) | {b_wall_s:.2} | {:.0} | {b_cpu_s:.2} | {:.1} | {:.0} |\n",
+        rate(b_wall_s),
+        mib(b_rss_kib),
+        out_mib.0
+    ));
+    md.push_str(&format!(
+        "| neap reduce | {n_wall_s:.2} | {:.0} | {n_cpu_s:.2} | {:.1} | {:.0} |\n\n",
+        rate(n_wall_s),
+        mib(n_rss_kib),
+        out_mib.1
+    ));
+    md.push_str(&format!(
+        "neap / baseline throughput: **{ratio:.2}×** (target ≥ 1: {}). neap peak RSS \
+         {:.1} MiB (target < {NEAP_PEAK_RSS_TARGET_MIB:.0} MiB: {}).\n\
+         Baseline output fsync, not in the baseline's time: median {fsync_s:.2} s (neap's time \
+         includes syncing its own output). A trivial child started the same way reports \
+         {:.1} MiB peak RSS.\nneap statuses: {statuses}.\n",
+        if ratio >= 1.0 { "met" } else { "NOT met" },
+        mib(n_rss_kib),
+        if mib(n_rss_kib) < NEAP_PEAK_RSS_TARGET_MIB {
+            "met"
+        } else {
+            "NOT met"
+        },
+        mib(floor.peak_rss_kib)
+    ));
+    let md_path = paths.data_root.join(format!("results-n{n}.md"));
+    fs::write(&md_path, &md).map_err(|e| format!("{}: {e}", md_path.display()))?;
+    println!();
+    println!("{md}");
+    println!("(also written to {})", md_path.display());
+    Ok(())
+}

@@ -1,0 +1,269 @@
+//! Command-line interface: clap structs hold only what the user typed; each command builds its
+//! run configuration, calls the library and maps the outcome to an exit status
+//! (0 ok, 1 some soundings not reduced or checks failed, 2 could not run).
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use clap::{Parser, Subcommand};
+
+use neap::compute::reduce::SoundingStatus;
+use neap::io::error::Finding;
+use neap::io::project::Project;
+use neap::run::check::check_project;
+use neap::run::load::load;
+use neap::run::reduce::{reduce_project, ReduceOptions, RunSummary};
+use neap::{CAUTION, EXIT_CANNOT_RUN, EXIT_INCOMPLETE, EXIT_OK};
+
+/// Reduce hydrographic soundings to chart datum with tidal zoning.
+#[derive(Debug, Parser)]
+#[command(name = "neap", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Reduce every sounding of a project to chart datum.
+    Reduce {
+        /// The project file (TOML).
+        project: PathBuf,
+        /// Output folder (default: the project's `[output] dir`).
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Worker threads (default: all cores).
+        #[arg(long)]
+        threads: Option<usize>,
+        /// Never show a progress bar.
+        #[arg(long)]
+        no_progress: bool,
+    },
+    /// Read everything a reduction would and report problems, without reducing.
+    Check {
+        /// The project file (TOML).
+        project: PathBuf,
+        /// Print the findings as JSON on stdout.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Reduce the bundled demo survey and say where the results are.
+    Demo {
+        /// The demo folder (default: ./zoning-demo, else the one in the source tree).
+        #[arg(long)]
+        dir: Option<PathBuf>,
+    },
+}
+
+/// Runs the command line; returns the exit status.
+pub fn main() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() {
+                EXIT_CANNOT_RUN
+            } else {
+                EXIT_OK
+            };
+            let _ = e.print();
+            return code;
+        }
+    };
+    match cli.command {
+        Command::Reduce {
+            project,
+            out,
+            threads,
+            no_progress,
+        } => {
+            if let Some(n) = threads {
+                if n == 0 {
+                    eprintln!("neap: --threads must be at least 1");
+                    return EXIT_CANNOT_RUN;
+                }
+                let _ = rayon::ThreadPoolBuilder::new()
+                    .num_threads(n)
+                    .build_global();
+            }
+            cmd_reduce(&project, out, !no_progress).unwrap_or_else(report_failure)
+        }
+        Command::Check { project, json } => cmd_check(&project, json),
+        Command::Demo { dir } => cmd_demo(dir),
+    }
+}
+
+fn report_failure(e: anyhow::Error) -> i32 {
+    eprintln!("neap: {e:#}");
+    EXIT_CANNOT_RUN
+}
+
+fn print_findings(findings: &[Finding]) {
+    let mut err = std::io::stderr().lock();
+    for f in findings {
+        let _ = writeln!(err, "{f}");
+    }
+}
+
+fn cmd_reduce(project_path: &Path, out: Option<PathBuf>, progress: bool) -> anyhow::Result<i32> {
+    let (summary, _) = match run_reduce(project_path, out, progress)? {
+        Ok(s) => s,
+        Err(code) => return Ok(code),
+    };
+    Ok(
+        if summary.count(SoundingStatus::Reduced) == summary.rows() {
+            EXIT_OK
+        } else {
+            EXIT_INCOMPLETE
+        },
+    )
+}
+
+/// Loads and reduces; prints the summary. `Err(code)` when the inputs could not be loaded.
+fn run_reduce(
+    project_path: &Path,
+    out: Option<PathBuf>,
+    progress: bool,
+) -> anyhow::Result<Result<(RunSummary, PathBuf), i32>> {
+    let project = Project::load(project_path)?;
+    let out_dir = out.unwrap_or_else(|| project.spec.output.dir.clone());
+    let name = project.spec.name.clone();
+    let loaded = match load(project) {
+        Ok(l) => l,
+        Err(findings) => {
+            print_findings(&findings);
+            eprintln!(
+                "neap: cannot reduce: fix the errors above (`neap check` lists every problem)"
+            );
+            return Ok(Err(EXIT_CANNOT_RUN));
+        }
+    };
+    let summary = reduce_project(
+        &loaded,
+        &ReduceOptions {
+            out_dir: out_dir.clone(),
+            progress,
+        },
+    )?;
+    let json = serde_json::to_vec_pretty(&summary)?;
+    let summary_path = out_dir.join("reduce-summary.json");
+    neap::io::atomic::write_atomic(&summary_path, &json)?;
+    print_summary(&name, &summary, &summary_path);
+    Ok(Ok((summary, out_dir)))
+}
+
+fn print_summary(name: &str, s: &RunSummary, summary_path: &Path) {
+    let mut e = std::io::stderr().lock();
+    let _ = writeln!(e, "neap reduce: {name}");
+    for f in &s.files {
+        let _ = writeln!(
+            e,
+            "  {} -> {} ({} rows{})",
+            f.input.display(),
+            f.output.display(),
+            f.rows(),
+            if f.blank_lines > 0 {
+                format!(", {} blank lines skipped", f.blank_lines)
+            } else {
+                String::new()
+            }
+        );
+    }
+    let _ = writeln!(e, "  {:<16} {:>10}", "status", "soundings");
+    for (st, n) in &s.rows_by_status {
+        let _ = writeln!(e, "  {st:<16} {n:>10}");
+    }
+    let _ = writeln!(
+        e,
+        "  {:<8} {:<10} {:<22} {:>10} {:>14}",
+        "zone", "formula", "gauges", "reduced", "no_gauge_data"
+    );
+    for z in &s.zones {
+        let _ = writeln!(
+            e,
+            "  {:<8} {:<10} {:<22} {:>10} {:>14}",
+            z.zone,
+            z.mean_level_form,
+            z.gauges.join("+"),
+            z.reduced,
+            z.no_gauge_data
+        );
+    }
+    for f in &s.files {
+        for ex in &f.examples {
+            let _ = writeln!(
+                e,
+                "  {}:{}: {}: {}",
+                f.input.display(),
+                ex.line,
+                ex.status,
+                ex.detail
+            );
+        }
+    }
+    if s.stale_partials_removed > 0 {
+        let _ = writeln!(
+            e,
+            "  removed {} temporary file(s) left by an interrupted run",
+            s.stale_partials_removed
+        );
+    }
+    let _ = writeln!(e, "  summary: {}", summary_path.display());
+    let _ = writeln!(e, "{CAUTION}");
+}
+
+fn cmd_check(project: &Path, json: bool) -> i32 {
+    let report = check_project(project);
+    if json {
+        match serde_json::to_string_pretty(&report) {
+            Ok(s) => {
+                let _ = writeln!(std::io::stdout().lock(), "{s}");
+            }
+            Err(e) => {
+                eprintln!("neap: {e}");
+                return EXIT_CANNOT_RUN;
+            }
+        }
+    } else {
+        print_findings(&report.findings);
+        let span = report
+            .sounding_span
+            .as_ref()
+            .map(|(a, b)| format!(", {a} to {b}"))
+            .unwrap_or_default();
+        eprintln!(
+            "neap check: {} error(s), {} warning(s); {} sounding rows read{span}",
+            report.errors(),
+            report.warnings(),
+            report.sounding_rows
+        );
+    }
+    if report.errors() > 0 {
+        EXIT_INCOMPLETE
+    } else {
+        EXIT_OK
+    }
+}
+
+fn cmd_demo(dir: Option<PathBuf>) -> i32 {
+    let dir = dir.unwrap_or_else(|| {
+        let here = PathBuf::from("zoning-demo");
+        if here.join("project.toml").exists() {
+            here
+        } else {
+            Path::new(env!("CARGO_MANIFEST_DIR")).join("zoning-demo")
+        }
+    });
+    let project = dir.join("project.toml");
+    if !project.exists() {
+        eprintln!("neap demo: no demo project at {}", project.display());
+        return EXIT_CANNOT_RUN;
+    }
+    match run_reduce(&project, None, true) {
+        Ok(Ok((_, out_dir))) => {
+            println!("Demo survey reduced. Results in {}/", out_dir.display());
+            EXIT_OK
+        }
+        Ok(Err(code)) => code,
+        Err(e) => report_failure(e),
+    }
+}

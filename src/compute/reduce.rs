@@ -1,0 +1,174 @@
+//! Reduction of one sounding to chart datum, and the spatial tide models behind it.
+//!
+//! Owns: the [`TideModel`] trait (a spatial tide method is a value: discrete zoning now, smooth
+//! fields later), the [`DiscreteZoning`] model, [`SoundingStatus`] and [`reduce_depth`].
+//!
+//! Reduced depth = observed depth − tide. Depths positive down, tide positive up; a negative
+//! reduced depth is a drying height and is kept.
+
+use super::locate::ZoneLocator;
+use super::series::TimeInterpolation;
+use super::zoning::{FeedState, Gauge, NoZoneTide, Zone};
+
+/// What became of one input row. Every row of every input gets exactly one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum SoundingStatus {
+    /// Reduced to chart datum.
+    Reduced,
+    /// The position is outside every zone of the zoning.
+    OutsideZoning,
+    /// The zone's gauge(s) have no level at the (shifted) time: before or after the record, or
+    /// inside a gap longer than the gauge's maximum gap.
+    NoGaugeData,
+    /// The row could not be read: a field is missing, not a number, not finite, or a time is
+    /// malformed or has no UTC offset.
+    BadInput,
+}
+
+impl SoundingStatus {
+    /// All statuses, in report order.
+    pub const ALL: [SoundingStatus; 4] = [
+        SoundingStatus::Reduced,
+        SoundingStatus::OutsideZoning,
+        SoundingStatus::NoGaugeData,
+        SoundingStatus::BadInput,
+    ];
+
+    /// The word written in the `status` column.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            SoundingStatus::Reduced => "reduced",
+            SoundingStatus::OutsideZoning => "outside_zoning",
+            SoundingStatus::NoGaugeData => "no_gauge_data",
+            SoundingStatus::BadInput => "bad_input",
+        }
+    }
+
+    /// Index into [`SoundingStatus::ALL`].
+    pub fn index(self) -> usize {
+        self as usize
+    }
+}
+
+/// The tide a model found at a place and time.
+#[derive(Debug, Clone, PartialEq)]
+pub enum TideOutcome {
+    /// Tide above chart datum in a zone.
+    Tide {
+        /// Zone index.
+        zone: usize,
+        /// Tide above chart datum, metres, positive up.
+        tide_m: f64,
+    },
+    /// The place is outside the model's area.
+    Outside,
+    /// The place is in a zone but a gauge has no level at the needed time.
+    NoData {
+        /// Zone index.
+        zone: usize,
+        /// Details.
+        why: NoZoneTide,
+    },
+}
+
+/// A spatial tide model: tide above chart datum at any place and time of its area.
+pub trait TideModel: Sync {
+    /// Tide at `(x, y)` (in the plane the model was built for) and UTC time `t_s`.
+    ///
+    /// `states` receives the gauge states used (scratch space reused across calls).
+    fn tide_at(&self, x: f64, y: f64, t_s: f64, states: &mut Vec<FeedState>) -> TideOutcome;
+}
+
+/// Discrete tidal zoning: polygons, each with its correctors.
+#[derive(Debug)]
+pub struct DiscreteZoning<'a> {
+    /// Zones in file order (index = locator index).
+    pub zones: &'a [Zone],
+    /// Gauges referenced by the zones' feeds.
+    pub gauges: &'a [Gauge],
+    /// Polygons of the zones, in the soundings' plane.
+    pub locator: &'a ZoneLocator,
+    /// Time interpolation method for the gauge records.
+    pub interp: &'a dyn TimeInterpolation,
+}
+
+impl TideModel for DiscreteZoning<'_> {
+    fn tide_at(&self, x: f64, y: f64, t_s: f64, states: &mut Vec<FeedState>) -> TideOutcome {
+        let Some(zone) = self.locator.locate(x, y) else {
+            return TideOutcome::Outside;
+        };
+        match self.zones[zone].tide_at(self.gauges, self.interp, t_s, states) {
+            Ok(tide_m) => TideOutcome::Tide { zone, tide_m },
+            Err(why) => TideOutcome::NoData { zone, why },
+        }
+    }
+}
+
+/// Reduced depth below chart datum from an observed depth below the water surface.
+///
+/// # Units
+/// Metres. `observed_depth_m` positive down, `tide_m` positive up (above chart datum); the result
+/// is positive down, negative for a drying height.
+#[inline]
+pub fn reduce_depth(observed_depth_m: f64, tide_m: f64) -> f64 {
+    observed_depth_m - tide_m
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::compute::series::{LevelSeries, Linear};
+    use crate::compute::zoning::{GaugeFeed, MeanLevelForm};
+    use geo::{polygon, MultiPolygon};
+
+    #[test]
+    fn drying_heights_are_kept_negative() {
+        assert_eq!(reduce_depth(0.4, 1.1), 0.4 - 1.1);
+        assert!(reduce_depth(0.4, 1.1) < 0.0);
+    }
+
+    #[test]
+    fn model_gives_each_outcome() {
+        let gauges = vec![Gauge {
+            id: "A".into(),
+            series: LevelSeries {
+                times_s: vec![0.0, 600.0],
+                heights_m: vec![1.0, 2.0],
+                max_gap_s: 1800.0,
+            },
+            mean_level_above_datum_m: 1.5,
+        }];
+        let zones = vec![Zone {
+            id: "Z".into(),
+            feeds: vec![GaugeFeed {
+                gauge: 0,
+                weight: 1.0,
+                time_corrector_min: 0.0,
+                range_ratio: 1.0,
+            }],
+            mean_level: MeanLevelForm::Scaled,
+        }];
+        let loc = ZoneLocator::new(vec![MultiPolygon(vec![polygon![
+            (x: 0.0, y: 0.0), (x: 1.0, y: 0.0), (x: 1.0, y: 1.0), (x: 0.0, y: 0.0)
+        ]])]);
+        let m = DiscreteZoning {
+            zones: &zones,
+            gauges: &gauges,
+            locator: &loc,
+            interp: &Linear,
+        };
+        let mut st = Vec::new();
+        assert_eq!(
+            m.tide_at(0.9, 0.1, 300.0, &mut st),
+            TideOutcome::Tide {
+                zone: 0,
+                tide_m: 1.5
+            }
+        );
+        assert_eq!(m.tide_at(0.1, 0.9, 300.0, &mut st), TideOutcome::Outside);
+        assert!(matches!(
+            m.tide_at(0.9, 0.1, 900.0, &mut st),
+            TideOutcome::NoData { zone: 0, .. }
+        ));
+    }
+}

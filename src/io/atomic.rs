@@ -1,0 +1,139 @@
+//! Output files that appear only when complete.
+//!
+//! An [`AtomicFile`] writes to `.<name>.neap-partial` beside the target and renames it onto the
+//! target on [`AtomicFile::commit`]. Dropped without commit (an error, a panic), it removes the
+//! temporary. A run killed outright leaves only the clearly named temporary, which
+//! [`remove_stale_partials`] deletes at the start of the next run.
+
+use std::fs::File;
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use super::error::IoError;
+
+/// Suffix of temporary output files.
+pub const PARTIAL_SUFFIX: &str = ".neap-partial";
+
+/// A file being written under a temporary name.
+pub struct AtomicFile {
+    target: PathBuf,
+    temp: PathBuf,
+    writer: Option<BufWriter<File>>,
+}
+
+impl AtomicFile {
+    /// Creates the temporary file for `target`. Refuses to write over any of `inputs`.
+    pub fn create(target: &Path, inputs: &[&Path]) -> Result<Self, IoError> {
+        if let Ok(t) = target.canonicalize() {
+            for i in inputs {
+                if i.canonicalize().map(|c| c == t).unwrap_or(false) {
+                    return Err(IoError::file(
+                        target,
+                        std::io::Error::other("refusing to overwrite an input file"),
+                    ));
+                }
+            }
+        }
+        let name = target
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "output".into());
+        let temp = target.with_file_name(format!(".{name}{PARTIAL_SUFFIX}"));
+        let f = File::create(&temp).map_err(|e| IoError::file(&temp, e))?;
+        Ok(AtomicFile {
+            target: target.to_path_buf(),
+            temp,
+            writer: Some(BufWriter::with_capacity(256 * 1024, f)),
+        })
+    }
+
+    /// The final path.
+    pub fn target(&self) -> &Path {
+        &self.target
+    }
+
+    /// Writes bytes.
+    pub fn write_all(&mut self, bytes: &[u8]) -> Result<(), IoError> {
+        self.writer
+            .as_mut()
+            .expect("writer present until commit")
+            .write_all(bytes)
+            .map_err(|e| IoError::file(&self.temp, e))
+    }
+
+    /// Flushes, syncs and renames onto the target.
+    pub fn commit(mut self) -> Result<PathBuf, IoError> {
+        let w = self.writer.take().expect("writer present until commit");
+        let f = w
+            .into_inner()
+            .map_err(|e| IoError::file(&self.temp, e.into_error()))?;
+        f.sync_all().map_err(|e| IoError::file(&self.temp, e))?;
+        drop(f);
+        std::fs::rename(&self.temp, &self.target).map_err(|e| IoError::file(&self.target, e))?;
+        Ok(self.target.clone())
+    }
+}
+
+impl Drop for AtomicFile {
+    fn drop(&mut self) {
+        if self.writer.is_some() {
+            self.writer = None;
+            let _ = std::fs::remove_file(&self.temp);
+        }
+    }
+}
+
+/// Writes a whole file atomically.
+pub fn write_atomic(target: &Path, bytes: &[u8]) -> Result<PathBuf, IoError> {
+    let mut f = AtomicFile::create(target, &[])?;
+    f.write_all(bytes)?;
+    f.commit()
+}
+
+/// Deletes temporaries left in `dir` by an interrupted run. Returns how many.
+pub fn remove_stale_partials(dir: &Path) -> usize {
+    let Ok(rd) = std::fs::read_dir(dir) else {
+        return 0;
+    };
+    rd.filter_map(Result::ok)
+        .filter(|e| {
+            let n = e.file_name();
+            let n = n.to_string_lossy();
+            n.starts_with('.') && n.ends_with(PARTIAL_SUFFIX)
+        })
+        .filter(|e| std::fs::remove_file(e.path()).is_ok())
+        .count()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn appears_only_on_commit_and_cleans_up_otherwise() {
+        let d = tempfile::tempdir().unwrap();
+        let target = d.path().join("out.csv");
+        let mut f = AtomicFile::create(&target, &[]).unwrap();
+        f.write_all(b"a,b\n").unwrap();
+        assert!(!target.exists());
+        assert!(d.path().join(".out.csv.neap-partial").exists());
+        f.commit().unwrap();
+        assert_eq!(std::fs::read(&target).unwrap(), b"a,b\n");
+        let mut g = AtomicFile::create(&d.path().join("x.csv"), &[]).unwrap();
+        g.write_all(b"half").unwrap();
+        drop(g);
+        assert!(!d.path().join("x.csv").exists());
+        assert!(!d.path().join(".x.csv.neap-partial").exists());
+        std::fs::write(d.path().join(".y.csv.neap-partial"), b"stale").unwrap();
+        assert_eq!(remove_stale_partials(d.path()), 1);
+    }
+
+    #[test]
+    fn refuses_to_overwrite_an_input() {
+        let d = tempfile::tempdir().unwrap();
+        let input = d.path().join("in.csv");
+        std::fs::write(&input, b"x").unwrap();
+        assert!(AtomicFile::create(&input, &[&input]).is_err());
+        assert_eq!(std::fs::read(&input).unwrap(), b"x");
+    }
+}

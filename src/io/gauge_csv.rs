@@ -1,0 +1,262 @@
+//! Reading a gauge's water-level record (CSV with a header line).
+//!
+//! Times: RFC 3339 / ISO 8601 with `Z` or an offset; naive times only with a configured offset.
+//! Heights: in the gauge's declared unit, converted to metres and then to height above chart datum
+//! with the gauge's `zero_above_datum_m`. Empty heights, heights listed in `null_values`, and rows
+//! whose quality flag is not a good flag are skipped and counted, never invented.
+
+use std::path::Path;
+
+use chrono::FixedOffset;
+
+use super::error::{IoError, Position};
+use super::project::GaugeSpec;
+use super::timefmt::{parse_time, TimeFormat};
+use crate::compute::series::LevelSeries;
+
+/// A gauge record as read.
+#[derive(Debug, Clone)]
+pub struct GaugeRecord {
+    /// Usable samples as heights above chart datum, metres, with the gauge's maximum gap.
+    pub series: LevelSeries,
+    /// 1-based line of each usable sample in the file.
+    pub lines: Vec<u64>,
+    /// Rows skipped because the height was empty or a null value.
+    pub skipped_null: usize,
+    /// Rows skipped because their quality flag was not good.
+    pub skipped_flagged: usize,
+    /// Times that do not increase: (line, message). The series keeps only increasing samples.
+    pub order_problems: Vec<(u64, String)>,
+}
+
+fn column(headers: &csv::StringRecord, name: &str, path: &Path) -> Result<usize, IoError> {
+    headers
+        .iter()
+        .position(|h| h.trim() == name)
+        .ok_or_else(|| {
+            IoError::content(
+                Position::file(path).line(1).field(name),
+                format!(
+                    "no such column in the header (columns: {})",
+                    headers.iter().collect::<Vec<_>>().join(", ")
+                ),
+            )
+        })
+}
+
+/// Reads a gauge record file for `spec`.
+pub fn read_gauge_record(
+    spec: &GaugeSpec,
+    naive_offset: Option<FixedOffset>,
+) -> Result<GaugeRecord, IoError> {
+    let file = std::fs::File::open(&spec.record).map_err(|e| IoError::file(&spec.record, e))?;
+    parse_gauge_record(
+        std::io::BufReader::new(file),
+        &spec.record,
+        spec,
+        naive_offset,
+    )
+}
+
+/// Parses a gauge record from a reader, as if read from `path`.
+pub fn parse_gauge_record<R: std::io::Read>(
+    reader: R,
+    path: &Path,
+    spec: &GaugeSpec,
+    naive_offset: Option<FixedOffset>,
+) -> Result<GaugeRecord, IoError> {
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .flexible(true)
+        .trim(csv::Trim::All)
+        .from_reader(reader);
+    let headers = rdr.headers().map_err(|e| csv_error(e, path))?.clone();
+    if headers.is_empty() || (headers.len() == 1 && headers[0].is_empty()) {
+        return Err(IoError::content(
+            Position::file(path),
+            "the file is empty: expected a header line",
+        ));
+    }
+    let i_time = column(&headers, &spec.time_column, path)?;
+    let i_height = column(&headers, &spec.height_column, path)?;
+    let i_flag = match &spec.flag_column {
+        Some(f) => Some(column(&headers, f, path)?),
+        None => None,
+    };
+    let scale = spec.units.metres_per_unit();
+    let mut out = GaugeRecord {
+        series: LevelSeries {
+            times_s: Vec::new(),
+            heights_m: Vec::new(),
+            max_gap_s: spec.max_gap_min * 60.0,
+        },
+        lines: Vec::new(),
+        skipped_null: 0,
+        skipped_flagged: 0,
+        order_problems: Vec::new(),
+    };
+    let mut rec = csv::StringRecord::new();
+    loop {
+        match rdr.read_record(&mut rec) {
+            Ok(false) => break,
+            Ok(true) => {}
+            Err(e) => return Err(csv_error(e, path)),
+        }
+        let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        let at = |field: &str| Position::file(path).line(line).field(field.to_string());
+        let get = |i: usize, name: &str| {
+            rec.get(i).ok_or_else(|| {
+                IoError::content(
+                    at(name),
+                    format!("missing: the row has {} fields", rec.len()),
+                )
+            })
+        };
+        let t_txt = get(i_time, &spec.time_column)?;
+        let t = parse_time(t_txt, TimeFormat::Iso8601, naive_offset)
+            .map_err(|m| IoError::content(at(&spec.time_column), m))?;
+        if let Some(fi) = i_flag {
+            let flag = get(fi, spec.flag_column.as_deref().unwrap_or(""))?;
+            if !spec.good_flags.iter().any(|g| g == flag) {
+                out.skipped_flagged += 1;
+                continue;
+            }
+        }
+        let h_txt = get(i_height, &spec.height_column)?;
+        if h_txt.is_empty() || spec.null_values.iter().any(|n| n == h_txt) {
+            out.skipped_null += 1;
+            continue;
+        }
+        let h: f64 = h_txt.parse().map_err(|_| {
+            IoError::content(
+                at(&spec.height_column),
+                format!("expected a number, found '{h_txt}'"),
+            )
+        })?;
+        if !h.is_finite() {
+            return Err(IoError::content(
+                at(&spec.height_column),
+                format!("expected a finite number, found '{h_txt}'"),
+            ));
+        }
+        if let Some(&prev) = out.series.times_s.last() {
+            if t <= prev {
+                let what = if t == prev {
+                    "duplicated"
+                } else {
+                    "earlier than the previous sample"
+                };
+                out.order_problems.push((
+                    line,
+                    format!("time '{t_txt}' is {what} (field '{}')", spec.time_column),
+                ));
+                continue;
+            }
+        }
+        out.series.times_s.push(t);
+        out.series
+            .heights_m
+            .push(h * scale + spec.zero_above_datum_m);
+        out.lines.push(line);
+    }
+    Ok(out)
+}
+
+/// Converts a csv error into a positioned error.
+pub fn csv_error(e: csv::Error, path: &Path) -> IoError {
+    let line = e.position().map(|p| p.line());
+    let mut at = Position::file(path);
+    at.line = line;
+    match e.kind() {
+        csv::ErrorKind::Io(_) => IoError::content(at, format!("read failed: {e}")),
+        csv::ErrorKind::Utf8 { .. } => IoError::content(at, "the line is not valid UTF-8 text"),
+        _ => IoError::content(at, e.to_string()),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::io::project::HeightUnit;
+    use std::path::PathBuf;
+
+    fn spec() -> GaugeSpec {
+        GaugeSpec {
+            id: "g".into(),
+            name: None,
+            lon: 0.0,
+            lat: 0.0,
+            record: PathBuf::from("g.csv"),
+            units: HeightUnit::Metre,
+            zero_above_datum_m: -1.5,
+            mean_level_above_datum_m: 2.0,
+            max_gap_min: 30.0,
+            time_column: "time".into(),
+            height_column: "height".into(),
+            flag_column: Some("qc".into()),
+            good_flags: vec!["0".into()],
+            null_values: vec!["-99".into()],
+            naive_time_utc_offset: None,
+        }
+    }
+
+    #[test]
+    fn converts_to_chart_datum_and_counts_skips() {
+        let text = "time,height,qc\n\
+            2026-06-14T00:00:00Z,3.50,0\n\
+            2026-06-14T00:06:00Z,,0\n\
+            2026-06-14T00:12:00Z,-99,0\n\
+            2026-06-14T00:18:00Z,3.70,4\n\
+            2026-06-14T01:24:00+01:00,3.80,0\n";
+        let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap();
+        assert_eq!(r.series.heights_m, vec![2.0, 3.80 - 1.5]);
+        assert_eq!(r.series.times_s[1] - r.series.times_s[0], 24.0 * 60.0);
+        assert_eq!(r.lines, vec![2, 6]);
+        assert_eq!((r.skipped_null, r.skipped_flagged), (2, 1));
+    }
+
+    #[test]
+    fn feet_are_converted() {
+        let mut s = spec();
+        s.units = HeightUnit::Foot;
+        s.zero_above_datum_m = 0.0;
+        let text = "time,height,qc\n2026-06-14T00:00:00Z,10,0\n";
+        let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &s, None).unwrap();
+        assert!((r.series.heights_m[0] - 3.048).abs() < 1e-12);
+    }
+
+    #[test]
+    fn errors_name_line_and_field() {
+        let text = "time,height,qc\n2026-06-14T00:00:00Z,3.5,0\n2026-06-14T00:06:00Z,abc,0\n";
+        let e = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "g.csv:3: field 'height': expected a number, found 'abc'"
+        );
+        let text = "time,level\n";
+        let e = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap_err();
+        assert!(
+            e.to_string()
+                .starts_with("g.csv:1: field 'height': no such column"),
+            "{e}"
+        );
+        let text = "time,height,qc\n2026-06-14T00:00:00,3.5,0\n";
+        let e = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap_err();
+        assert!(e.to_string().contains("no UTC offset"), "{e}");
+    }
+
+    #[test]
+    fn out_of_order_times_are_reported_not_used() {
+        let text = "time,height,qc\n\
+            2026-06-14T00:06:00Z,3.5,0\n\
+            2026-06-14T00:06:00Z,3.6,0\n\
+            2026-06-14T00:00:00Z,3.6,0\n\
+            2026-06-14T00:12:00Z,3.7,0\n";
+        let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap();
+        assert_eq!(r.series.times_s.len(), 2);
+        assert_eq!(r.order_problems.len(), 2);
+        assert_eq!(r.order_problems[0].0, 3);
+        assert!(r.order_problems[0].1.contains("duplicated"));
+        assert!(r.order_problems[1].1.contains("earlier"));
+    }
+}

@@ -1,0 +1,20 @@
+//! The I/O layer: files in, plain data out, and back. Only this layer knows about files, text
+//! formats, time zones and PROJ.
+//!
+//! * [`project`] — the project file (TOML).
+//! * [`gauge_csv`] — gauge water-level records.
+//! * [`zoning_geojson`] — zonings in GeoJSON.
+//! * [`soundings`] — sounding files, streamed in chunks of lines.
+//! * [`timefmt`] — time parsing to UTC seconds.
+//! * [`crs`] — coordinate transformations (PROJ).
+//! * [`atomic`] — output files written to a temporary name and renamed on success.
+//! * [`error`] — the positioned error type and validation findings.
+
+pub mod atomic;
+pub mod crs;
+pub mod error;
+pub mod gauge_csv;
+pub mod project;
+pub mod soundings;
+pub mod timefmt;
+pub mod zoning_geojson;

@@ -1,0 +1,401 @@
+//! The project file (TOML): what a run reads and how. Paths are relative to the project file.
+//!
+//! The annotated reference is `docs/project-file.md`; the demo's `zoning-demo/project.toml` is a
+//! complete example. Unknown keys are errors, so a misspelt key is never silently ignored.
+
+use std::path::{Path, PathBuf};
+
+use chrono::FixedOffset;
+use serde::Deserialize;
+
+use super::error::{IoError, Position};
+use super::timefmt::{parse_offset, TimeFormat};
+
+/// The project file as written.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProjectFile {
+    /// A name for reports.
+    pub name: String,
+    /// The zoning, GeoJSON (RFC 7946: WGS 84 longitude/latitude).
+    pub zoning: PathBuf,
+    /// How to read times written without a UTC offset, e.g. `"+01:00"`. Absent: such times are
+    /// errors.
+    #[serde(default)]
+    pub naive_time_utc_offset: Option<String>,
+    /// Output options.
+    #[serde(default)]
+    pub output: OutputSpec,
+    /// The tide gauges.
+    #[serde(rename = "gauge", default)]
+    pub gauges: Vec<GaugeSpec>,
+    /// Groups of sounding files sharing one layout.
+    #[serde(rename = "soundings", default)]
+    pub soundings: Vec<SoundingsSpec>,
+}
+
+/// Where and how results are written.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OutputSpec {
+    /// Output directory, relative to the project file (created when missing).
+    #[serde(default = "default_out_dir")]
+    pub dir: PathBuf,
+}
+
+impl Default for OutputSpec {
+    fn default() -> Self {
+        OutputSpec {
+            dir: default_out_dir(),
+        }
+    }
+}
+
+fn default_out_dir() -> PathBuf {
+    PathBuf::from("out")
+}
+
+/// Units of a gauge record's heights.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
+pub enum HeightUnit {
+    /// Metres.
+    #[serde(rename = "m")]
+    Metre,
+    /// International foot, 0.3048 m exactly.
+    #[serde(rename = "ft")]
+    Foot,
+    /// US survey foot, 1200/3937 m.
+    #[serde(rename = "us_ft")]
+    UsSurveyFoot,
+}
+
+impl HeightUnit {
+    /// Metres per unit.
+    ///
+    /// # References
+    /// International foot 0.3048 m (1959 agreement); US survey foot 1200/3937 m.
+    pub fn metres_per_unit(self) -> f64 {
+        match self {
+            HeightUnit::Metre => 1.0,
+            HeightUnit::Foot => 0.3048,
+            HeightUnit::UsSurveyFoot => 1200.0 / 3937.0,
+        }
+    }
+}
+
+/// One tide gauge.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GaugeSpec {
+    /// Identifier used by the zoning.
+    pub id: String,
+    /// A name for reports.
+    #[serde(default)]
+    pub name: Option<String>,
+    /// Longitude, degrees east (WGS 84).
+    pub lon: f64,
+    /// Latitude, degrees north (WGS 84).
+    pub lat: f64,
+    /// The water-level record (CSV).
+    pub record: PathBuf,
+    /// Units of the record's heights.
+    pub units: HeightUnit,
+    /// Height of the gauge zero above chart datum, metres (negative when the zero is below chart
+    /// datum). Level above chart datum = reading (in metres) + this.
+    pub zero_above_datum_m: f64,
+    /// Mean water level at the gauge above chart datum `M_g`, metres.
+    pub mean_level_above_datum_m: f64,
+    /// Longest gap between samples that interpolation may bridge, minutes.
+    #[serde(default = "default_max_gap_min")]
+    pub max_gap_min: f64,
+    /// Name of the time column.
+    #[serde(default = "default_time_column")]
+    pub time_column: String,
+    /// Name of the height column.
+    #[serde(default = "default_height_column")]
+    pub height_column: String,
+    /// Optional quality-flag column; rows whose flag is not in `good_flags` are skipped and
+    /// counted.
+    #[serde(default)]
+    pub flag_column: Option<String>,
+    /// Flag values that mark a usable sample.
+    #[serde(default = "default_good_flags")]
+    pub good_flags: Vec<String>,
+    /// Height values meaning "no reading" (an empty field always does).
+    #[serde(default)]
+    pub null_values: Vec<String>,
+    /// Offset for naive times in this record; defaults to the project's.
+    #[serde(default)]
+    pub naive_time_utc_offset: Option<String>,
+}
+
+fn default_max_gap_min() -> f64 {
+    30.0
+}
+fn default_time_column() -> String {
+    "time".into()
+}
+fn default_height_column() -> String {
+    "height".into()
+}
+fn default_good_flags() -> Vec<String> {
+    vec!["0".into(), "good".into()]
+}
+
+/// Field separator of a soundings file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Delimiter {
+    /// `,`
+    Comma,
+    /// `;`
+    Semicolon,
+    /// A tab.
+    Tab,
+    /// Runs of spaces or tabs.
+    Whitespace,
+}
+
+/// Sign convention of a depth column.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DepthSign {
+    /// Depths positive down (the usual).
+    PositiveDown,
+    /// Heights positive up (depths written negative): negated on reading.
+    PositiveUp,
+}
+
+/// Which columns hold what. Each value is a header name, or `#N` for the N-th column (1-based).
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ColumnMap {
+    /// Time of the sounding.
+    pub time: String,
+    /// Easting, or longitude in degrees, in the group's CRS.
+    pub x: String,
+    /// Northing, or latitude in degrees, in the group's CRS.
+    pub y: String,
+    /// Observed depth below the water surface, metres.
+    pub depth: String,
+    /// Survey line identifier (optional).
+    #[serde(default)]
+    pub line: Option<String>,
+    /// Per-sounding standard uncertainty of the depth, metres (optional).
+    #[serde(default)]
+    pub u_depth: Option<String>,
+}
+
+/// A group of sounding files with one layout.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SoundingsSpec {
+    /// The files.
+    pub files: Vec<PathBuf>,
+    /// CRS of the positions, e.g. `"EPSG:32629"` or `"EPSG:4326"` (x = longitude, y = latitude).
+    pub crs: String,
+    /// Field separator.
+    #[serde(default = "default_delimiter")]
+    pub delimiter: Delimiter,
+    /// Whether the first line is a header.
+    #[serde(default = "default_true")]
+    pub header: bool,
+    /// How times are written.
+    #[serde(default = "default_time_format")]
+    pub time_format: TimeFormat,
+    /// Depth sign convention.
+    #[serde(default = "default_depth_sign")]
+    pub depth_sign: DepthSign,
+    /// Column mapping.
+    pub columns: ColumnMap,
+}
+
+fn default_delimiter() -> Delimiter {
+    Delimiter::Comma
+}
+fn default_true() -> bool {
+    true
+}
+fn default_time_format() -> TimeFormat {
+    TimeFormat::Iso8601
+}
+fn default_depth_sign() -> DepthSign {
+    DepthSign::PositiveDown
+}
+
+/// A project file read and checked, with paths resolved against its folder.
+#[derive(Debug, Clone)]
+pub struct Project {
+    /// The project file's path.
+    pub path: PathBuf,
+    /// Its folder.
+    pub dir: PathBuf,
+    /// The content, paths resolved.
+    pub spec: ProjectFile,
+    /// Parsed project-wide naive-time offset.
+    pub naive_offset: Option<FixedOffset>,
+}
+
+impl Project {
+    /// Reads and checks a project file.
+    pub fn load(path: &Path) -> Result<Project, IoError> {
+        let text = std::fs::read_to_string(path).map_err(|e| IoError::file(path, e))?;
+        Self::from_str_at(&text, path)
+    }
+
+    /// Parses project text as if read from `path`.
+    pub fn from_str_at(text: &str, path: &Path) -> Result<Project, IoError> {
+        let mut spec: ProjectFile = toml::from_str(text).map_err(|e| {
+            let line = e
+                .span()
+                .map(|s| text[..s.start.min(text.len())].matches('\n').count() as u64 + 1);
+            let mut at = Position::file(path);
+            at.line = line;
+            IoError::content(at, e.message().to_string())
+        })?;
+        let dir = path
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_else(|| PathBuf::from("."));
+        let dir = if dir.as_os_str().is_empty() {
+            PathBuf::from(".")
+        } else {
+            dir
+        };
+        let at = |field: &str| Position::file(path).field(field.to_string());
+        let naive_offset = match &spec.naive_time_utc_offset {
+            Some(s) => Some(
+                parse_offset(s).map_err(|m| IoError::content(at("naive_time_utc_offset"), m))?,
+            ),
+            None => None,
+        };
+        if spec.gauges.is_empty() {
+            return Err(IoError::content(
+                at("gauge"),
+                "the project names no gauge ([[gauge]] tables)",
+            ));
+        }
+        let mut seen = std::collections::HashSet::new();
+        for (i, g) in spec.gauges.iter().enumerate() {
+            let f = |k: &str| at(&format!("gauge[{i}].{k}"));
+            if !seen.insert(g.id.clone()) {
+                return Err(IoError::content(
+                    f("id"),
+                    format!("gauge id '{}' is used twice", g.id),
+                ));
+            }
+            for (k, v) in [
+                ("zero_above_datum_m", g.zero_above_datum_m),
+                ("mean_level_above_datum_m", g.mean_level_above_datum_m),
+                ("lon", g.lon),
+                ("lat", g.lat),
+            ] {
+                if !v.is_finite() {
+                    return Err(IoError::content(f(k), "expected a finite number"));
+                }
+            }
+            if !(g.max_gap_min.is_finite() && g.max_gap_min > 0.0) {
+                return Err(IoError::content(
+                    f("max_gap_min"),
+                    format!(
+                        "expected a positive number of minutes, found {}",
+                        g.max_gap_min
+                    ),
+                ));
+            }
+            if let Some(o) = &g.naive_time_utc_offset {
+                parse_offset(o).map_err(|m| IoError::content(f("naive_time_utc_offset"), m))?;
+            }
+        }
+        for (i, s) in spec.soundings.iter().enumerate() {
+            if s.files.is_empty() {
+                return Err(IoError::content(
+                    at(&format!("soundings[{i}].files")),
+                    "expected at least one file",
+                ));
+            }
+        }
+        spec.zoning = dir.join(&spec.zoning);
+        spec.output.dir = dir.join(&spec.output.dir);
+        for g in &mut spec.gauges {
+            g.record = dir.join(&g.record);
+        }
+        for s in &mut spec.soundings {
+            for f in &mut s.files {
+                *f = dir.join(&*f);
+            }
+        }
+        Ok(Project {
+            path: path.to_path_buf(),
+            dir,
+            spec,
+            naive_offset,
+        })
+    }
+
+    /// The naive-time offset for a gauge (its own, else the project's).
+    pub fn gauge_naive_offset(&self, g: &GaugeSpec) -> Option<FixedOffset> {
+        g.naive_time_utc_offset
+            .as_deref()
+            .and_then(|s| parse_offset(s).ok())
+            .or(self.naive_offset)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const MINIMAL: &str = r#"
+name = "t"
+zoning = "z.geojson"
+[[gauge]]
+id = "a"
+lon = 1.0
+lat = 50.0
+record = "a.csv"
+units = "m"
+zero_above_datum_m = -1.2
+mean_level_above_datum_m = 2.0
+[[soundings]]
+files = ["s.csv"]
+crs = "EPSG:4326"
+columns = { time = "time", x = "lon", y = "lat", depth = "depth" }
+"#;
+
+    #[test]
+    fn paths_are_relative_to_the_project_file() {
+        let p = Project::from_str_at(MINIMAL, Path::new("/data/day1/project.toml")).unwrap();
+        assert_eq!(p.spec.zoning, PathBuf::from("/data/day1/z.geojson"));
+        assert_eq!(p.spec.gauges[0].record, PathBuf::from("/data/day1/a.csv"));
+        assert_eq!(
+            p.spec.soundings[0].files[0],
+            PathBuf::from("/data/day1/s.csv")
+        );
+        assert_eq!(p.spec.output.dir, PathBuf::from("/data/day1/out"));
+        assert_eq!(p.spec.gauges[0].max_gap_min, 30.0);
+    }
+
+    #[test]
+    fn unknown_key_is_an_error_with_its_line() {
+        let text = MINIMAL.replace("units = \"m\"", "units = \"m\"\nzero_offset = 1.0");
+        let e = Project::from_str_at(&text, Path::new("p.toml")).unwrap_err();
+        let msg = e.to_string();
+        assert!(msg.starts_with("p.toml:10"), "{msg}");
+        assert!(msg.contains("zero_offset"), "{msg}");
+    }
+
+    #[test]
+    fn bad_units_and_offset_are_named() {
+        let text = MINIMAL.replace("units = \"m\"", "units = \"yards\"");
+        let msg = Project::from_str_at(&text, Path::new("p.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(msg.contains("yards"), "{msg}");
+        let text = format!("naive_time_utc_offset = \"1h\"\n{MINIMAL}");
+        let msg = Project::from_str_at(&text, Path::new("p.toml"))
+            .unwrap_err()
+            .to_string();
+        assert!(msg.contains("naive_time_utc_offset"), "{msg}");
+    }
+}

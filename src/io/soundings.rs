@@ -1,0 +1,605 @@
+//! Reading soundings as a stream of line chunks, and parsing one line.
+//!
+//! A soundings file is CSV (comma, semicolon or tab) or whitespace-delimited text, one sounding
+//! per line, with or without a header. The column mapping comes from the project file; a column is
+//! named by its header text or as `#N` (1-based). A UTF-8 byte-order mark is ignored and CRLF line
+//! ends are accepted. A quoted field may contain the delimiter but not a line break.
+//!
+//! Files are read in chunks of whole lines ([`ChunkReader`]) so that chunks can be parsed in
+//! parallel and no file is ever held in memory whole.
+
+use std::io::Read;
+use std::path::Path;
+
+use chrono::FixedOffset;
+
+use super::error::{IoError, Position};
+use super::project::{Delimiter, DepthSign, SoundingsSpec};
+use super::timefmt::{parse_time, TimeFormat};
+
+/// Bytes per chunk handed to a worker (a chunk is cut at the last line end before this size).
+pub const CHUNK_BYTES: usize = 256 * 1024;
+
+/// A run of whole lines from a file.
+#[derive(Debug, Default)]
+pub struct Chunk {
+    /// 1-based line number of the first line in `data`.
+    pub first_line: u64,
+    /// The bytes, ending with a line end (except possibly at the end of the file).
+    pub data: Vec<u8>,
+}
+
+/// Reads a file as chunks of whole lines.
+pub struct ChunkReader<R: Read> {
+    inner: R,
+    carry: Vec<u8>,
+    next_line: u64,
+    eof: bool,
+    started: bool,
+}
+
+impl<R: Read> ChunkReader<R> {
+    /// Wraps a reader; line numbering starts at `first_line`.
+    pub fn new(inner: R, first_line: u64) -> Self {
+        ChunkReader {
+            inner,
+            carry: Vec::new(),
+            next_line: first_line,
+            eof: false,
+            started: false,
+        }
+    }
+
+    /// The next chunk, or `None` at the end. `buf` is reused for the data.
+    pub fn next_chunk(&mut self, mut buf: Vec<u8>) -> std::io::Result<Option<Chunk>> {
+        buf.clear();
+        buf.append(&mut self.carry);
+        while !self.eof && buf.len() < CHUNK_BYTES {
+            let start = buf.len();
+            buf.resize(start + CHUNK_BYTES, 0);
+            let n = loop {
+                match self.inner.read(&mut buf[start..]) {
+                    Ok(n) => break n,
+                    Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+                    Err(e) => return Err(e),
+                }
+            };
+            buf.truncate(start + n);
+            if n == 0 {
+                self.eof = true;
+            }
+        }
+        if !self.started {
+            self.started = true;
+            if buf.starts_with(b"\xEF\xBB\xBF") {
+                buf.drain(..3);
+            }
+        }
+        if buf.is_empty() {
+            return Ok(None);
+        }
+        if !self.eof {
+            // Cut after the last line end; keep the rest for the next chunk. A single line longer
+            // than the buffer grows the buffer until its end is found.
+            match memchr_last(b'\n', &buf) {
+                Some(i) => {
+                    self.carry.extend_from_slice(&buf[i + 1..]);
+                    buf.truncate(i + 1);
+                }
+                None => {
+                    self.carry = std::mem::take(&mut buf);
+                    return self.next_chunk_growing();
+                }
+            }
+        }
+        let first_line = self.next_line;
+        self.next_line += count_lines(&buf);
+        Ok(Some(Chunk {
+            first_line,
+            data: buf,
+        }))
+    }
+
+    fn next_chunk_growing(&mut self) -> std::io::Result<Option<Chunk>> {
+        let mut buf = std::mem::take(&mut self.carry);
+        loop {
+            let start = buf.len();
+            buf.resize(start + CHUNK_BYTES, 0);
+            let n = self.inner.read(&mut buf[start..])?;
+            buf.truncate(start + n);
+            if n == 0 {
+                self.eof = true;
+                break;
+            }
+            if let Some(i) = memchr_last(b'\n', &buf[start..]) {
+                let cut = start + i + 1;
+                self.carry.extend_from_slice(&buf[cut..]);
+                buf.truncate(cut);
+                break;
+            }
+        }
+        let first_line = self.next_line;
+        self.next_line += count_lines(&buf);
+        Ok(Some(Chunk {
+            first_line,
+            data: buf,
+        }))
+    }
+}
+
+fn memchr_last(b: u8, s: &[u8]) -> Option<usize> {
+    s.iter().rposition(|&c| c == b)
+}
+
+fn count_lines(s: &[u8]) -> u64 {
+    let n = s.iter().filter(|&&c| c == b'\n').count() as u64;
+    if s.last().is_some_and(|&c| c != b'\n') {
+        n + 1
+    } else {
+        n
+    }
+}
+
+/// Iterates over the lines of a chunk with their numbers, without line ends (`\n` or `\r\n`).
+pub fn lines_of(chunk: &Chunk) -> impl Iterator<Item = (u64, &[u8])> {
+    let data: &[u8] = if chunk.data.last() == Some(&b'\n') {
+        &chunk.data[..chunk.data.len() - 1]
+    } else {
+        &chunk.data
+    };
+    let empty = data.is_empty() && chunk.data.is_empty();
+    data.split(|&c| c == b'\n')
+        .filter(move |_| !empty)
+        .enumerate()
+        .map(move |(i, l)| {
+            let l = l.strip_suffix(b"\r").unwrap_or(l);
+            (chunk.first_line + i as u64, l)
+        })
+}
+
+/// The fields of one line.
+#[derive(Debug, Default)]
+pub struct Fields {
+    ranges: Vec<(usize, usize)>,
+    quoted: Option<csv::StringRecord>,
+}
+
+impl Fields {
+    /// Splits `line` by `delim` into this buffer.
+    pub fn split(&mut self, line: &str, delim: Delimiter) {
+        self.ranges.clear();
+        self.quoted = None;
+        let sep = match delim {
+            Delimiter::Whitespace => {
+                let base = line.as_ptr() as usize;
+                for f in line.split_ascii_whitespace() {
+                    let s = f.as_ptr() as usize - base;
+                    self.ranges.push((s, s + f.len()));
+                }
+                return;
+            }
+            Delimiter::Comma => b',',
+            Delimiter::Semicolon => b';',
+            Delimiter::Tab => b'\t',
+        };
+        if line.as_bytes().contains(&b'"') {
+            let mut rdr = csv::ReaderBuilder::new()
+                .has_headers(false)
+                .delimiter(sep)
+                .flexible(true)
+                .from_reader(line.as_bytes());
+            let mut rec = csv::StringRecord::new();
+            if rdr.read_record(&mut rec).unwrap_or(false) {
+                self.quoted = Some(rec);
+                return;
+            }
+        }
+        let mut start = 0;
+        for (i, &c) in line.as_bytes().iter().enumerate() {
+            if c == sep {
+                self.ranges.push((start, i));
+                start = i + 1;
+            }
+        }
+        self.ranges.push((start, line.len()));
+    }
+
+    /// Number of fields.
+    pub fn len(&self) -> usize {
+        match &self.quoted {
+            Some(r) => r.len(),
+            None => self.ranges.len(),
+        }
+    }
+
+    /// Whether the line had no field.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Field `i` (trimmed), when present.
+    pub fn get<'a>(&'a self, line: &'a str, i: usize) -> Option<&'a str> {
+        match &self.quoted {
+            Some(r) => r.get(i).map(str::trim),
+            None => self.ranges.get(i).map(|&(s, e)| line[s..e].trim()),
+        }
+    }
+}
+
+/// A sounding's values as parsed from its line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SoundingValues<'a> {
+    /// UTC seconds.
+    pub t_s: f64,
+    /// Easting or longitude, in the group's CRS.
+    pub x: f64,
+    /// Northing or latitude, in the group's CRS.
+    pub y: f64,
+    /// Observed depth below the water surface, metres, positive down.
+    pub depth_m: f64,
+    /// Survey line identifier ("" when the file has none).
+    pub line_id: &'a str,
+    /// Per-sounding standard uncertainty of the depth, metres.
+    pub u_depth_m: Option<f64>,
+}
+
+/// Why a line is not a sounding: the field (column name) and what was wrong.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RowProblem {
+    /// Column name.
+    pub field: String,
+    /// What was expected and found.
+    pub message: String,
+}
+
+/// A soundings group's layout resolved against a file's header.
+#[derive(Debug, Clone)]
+pub struct SoundingLayout {
+    /// Field separator.
+    pub delimiter: Delimiter,
+    /// Whether line 1 is a header.
+    pub has_header: bool,
+    /// Column names (from the header, or `col1..colN`).
+    pub column_names: Vec<String>,
+    time: usize,
+    x: usize,
+    y: usize,
+    depth: usize,
+    line: Option<usize>,
+    u_depth: Option<usize>,
+    time_format: TimeFormat,
+    depth_sign: DepthSign,
+    naive_offset: Option<FixedOffset>,
+}
+
+impl SoundingLayout {
+    /// Resolves the column mapping of `spec` against the file's first line.
+    pub fn resolve(
+        spec: &SoundingsSpec,
+        first_line: Option<&str>,
+        naive_offset: Option<FixedOffset>,
+        path: &Path,
+    ) -> Result<Self, IoError> {
+        let first_line = first_line
+            .ok_or_else(|| IoError::content(Position::file(path), "the file is empty"))?;
+        let mut f = Fields::default();
+        f.split(first_line, spec.delimiter);
+        let names: Vec<String> = if spec.header {
+            (0..f.len())
+                .map(|i| f.get(first_line, i).unwrap_or("").to_string())
+                .collect()
+        } else {
+            (1..=f.len()).map(|i| format!("col{i}")).collect()
+        };
+        if spec.header && (names.len() < 2) {
+            let hint = if spec.delimiter != Delimiter::Whitespace
+                && first_line.contains([';', '\t', ' '])
+            {
+                " — is the delimiter right?"
+            } else {
+                ""
+            };
+            return Err(IoError::content(
+                Position::file(path).line(1),
+                format!(
+                    "the header has {} column(s) when split by {:?}{hint}",
+                    names.len(),
+                    spec.delimiter
+                ),
+            ));
+        }
+        let find = |key: &str, want: &str| -> Result<usize, IoError> {
+            if let Some(n) = want.strip_prefix('#') {
+                let i: usize = n.parse().map_err(|_| {
+                    IoError::content(
+                        Position::file(path).field(format!("columns.{key}")),
+                        format!("expected #N with N a column number, found '{want}'"),
+                    )
+                })?;
+                if i == 0 || i > names.len() {
+                    return Err(IoError::content(
+                        Position::file(path).line(1).field(want),
+                        format!(
+                            "column {i} does not exist: the file has {} columns",
+                            names.len()
+                        ),
+                    ));
+                }
+                return Ok(i - 1);
+            }
+            names.iter().position(|h| h == want).ok_or_else(|| {
+                IoError::content(
+                    Position::file(path).line(1).field(want),
+                    format!(
+                        "no such column for '{key}' in the header (columns: {})",
+                        names.join(", ")
+                    ),
+                )
+            })
+        };
+        let c = &spec.columns;
+        Ok(SoundingLayout {
+            delimiter: spec.delimiter,
+            has_header: spec.header,
+            time: find("time", &c.time)?,
+            x: find("x", &c.x)?,
+            y: find("y", &c.y)?,
+            depth: find("depth", &c.depth)?,
+            line: c.line.as_deref().map(|l| find("line", l)).transpose()?,
+            u_depth: c
+                .u_depth
+                .as_deref()
+                .map(|l| find("u_depth", l))
+                .transpose()?,
+            time_format: spec.time_format,
+            depth_sign: spec.depth_sign,
+            naive_offset,
+            column_names: names,
+        })
+    }
+
+    /// Whether the file has a per-sounding depth uncertainty column.
+    pub fn has_u_depth(&self) -> bool {
+        self.u_depth.is_some()
+    }
+
+    /// Parses one data line already split into `fields`.
+    pub fn parse<'a>(
+        &'a self,
+        line: &'a str,
+        fields: &'a Fields,
+    ) -> Result<SoundingValues<'a>, RowProblem> {
+        let get = |i: usize| -> Result<&'a str, RowProblem> {
+            fields.get(line, i).ok_or_else(|| RowProblem {
+                field: self.column_names[i].clone(),
+                message: format!(
+                    "missing: the row has {} fields, the header {}",
+                    fields.len(),
+                    self.column_names.len()
+                ),
+            })
+        };
+        let number = |i: usize, what: &str| -> Result<f64, RowProblem> {
+            let s = get(i)?;
+            let v: f64 = s.parse().map_err(|_| RowProblem {
+                field: self.column_names[i].clone(),
+                message: format!("expected {what}, found '{s}'"),
+            })?;
+            if v.is_finite() {
+                Ok(v)
+            } else {
+                Err(RowProblem {
+                    field: self.column_names[i].clone(),
+                    message: format!("expected {what} (finite), found '{s}'"),
+                })
+            }
+        };
+        let t_s =
+            parse_time(get(self.time)?, self.time_format, self.naive_offset).map_err(|m| {
+                RowProblem {
+                    field: self.column_names[self.time].clone(),
+                    message: m,
+                }
+            })?;
+        let x = number(self.x, "a coordinate")?;
+        let y = number(self.y, "a coordinate")?;
+        let mut depth_m = number(self.depth, "a depth in metres")?;
+        if self.depth_sign == DepthSign::PositiveUp {
+            depth_m = -depth_m;
+        }
+        let line_id = match self.line {
+            Some(i) => get(i)?,
+            None => "",
+        };
+        let u_depth_m = match self.u_depth {
+            Some(i) => {
+                let u = number(i, "a standard uncertainty in metres")?;
+                if u < 0.0 {
+                    return Err(RowProblem {
+                        field: self.column_names[i].clone(),
+                        message: format!("a standard uncertainty cannot be negative, found {u}"),
+                    });
+                }
+                Some(u)
+            }
+            None => None,
+        };
+        Ok(SoundingValues {
+            t_s,
+            x,
+            y,
+            depth_m,
+            line_id,
+            u_depth_m,
+        })
+    }
+}
+
+/// Appends one field to a CSV line, quoting it when needed.
+pub fn push_csv_field(out: &mut Vec<u8>, field: &str) {
+    if field
+        .bytes()
+        .any(|c| matches!(c, b',' | b'"' | b'\n' | b'\r'))
+    {
+        out.push(b'"');
+        for c in field.bytes() {
+            if c == b'"' {
+                out.push(b'"');
+            }
+            out.push(c);
+        }
+        out.push(b'"');
+    } else {
+        out.extend_from_slice(field.as_bytes());
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::io::project::ColumnMap;
+    use std::path::PathBuf;
+
+    fn spec(delim: Delimiter) -> SoundingsSpec {
+        SoundingsSpec {
+            files: vec![PathBuf::from("s.csv")],
+            crs: "EPSG:4326".into(),
+            delimiter: delim,
+            header: true,
+            time_format: TimeFormat::Iso8601,
+            depth_sign: DepthSign::PositiveDown,
+            columns: ColumnMap {
+                time: "time".into(),
+                x: "lon".into(),
+                y: "lat".into(),
+                depth: "depth".into(),
+                line: Some("line".into()),
+                u_depth: None,
+            },
+        }
+    }
+
+    #[test]
+    fn chunks_are_whole_lines_and_numbered() {
+        let mut text = Vec::from(&b"\xEF\xBB\xBFh\r\n"[..]);
+        for i in 0..100_000 {
+            text.extend_from_slice(format!("{i},x\r\n").as_bytes());
+        }
+        text.extend_from_slice(b"last"); // no final line end
+        let mut r = ChunkReader::new(&text[..], 1);
+        let mut all = Vec::new();
+        while let Some(c) = r.next_chunk(Vec::new()).unwrap() {
+            assert!(c.data.ends_with(b"\n") || c.data.ends_with(b"last"));
+            for (n, l) in lines_of(&c) {
+                all.push((n, String::from_utf8(l.to_vec()).unwrap()));
+            }
+        }
+        assert_eq!(all.len(), 100_002);
+        assert_eq!(all[0], (1, "h".to_string()));
+        assert_eq!(all[5], (6, "4,x".to_string()));
+        assert_eq!(all[100_001], (100_002, "last".to_string()));
+    }
+
+    #[test]
+    fn a_line_longer_than_a_chunk_is_kept_whole() {
+        let long = "9".repeat(3 * CHUNK_BYTES);
+        let text = format!("a\n{long}\nb\n");
+        let mut r = ChunkReader::new(text.as_bytes(), 1);
+        let mut lines = Vec::new();
+        while let Some(c) = r.next_chunk(Vec::new()).unwrap() {
+            for (n, l) in lines_of(&c) {
+                lines.push((n, l.len()));
+            }
+        }
+        assert_eq!(lines, vec![(1, 1), (2, 3 * CHUNK_BYTES), (3, 1)]);
+    }
+
+    #[test]
+    fn parses_csv_and_whitespace_rows() {
+        let p = Path::new("s.csv");
+        let lay = SoundingLayout::resolve(
+            &spec(Delimiter::Comma),
+            Some("time,lon,lat,depth,line"),
+            None,
+            p,
+        )
+        .unwrap();
+        let mut f = Fields::default();
+        let line = "2026-06-14T09:30:00Z,-36.1,-47.5,12.34,\"A,1\"";
+        f.split(line, Delimiter::Comma);
+        let v = lay.parse(line, &f).unwrap();
+        assert_eq!(
+            (v.x, v.y, v.depth_m, v.line_id),
+            (-36.1, -47.5, 12.34, "A,1")
+        );
+        let mut sp = spec(Delimiter::Whitespace);
+        sp.depth_sign = DepthSign::PositiveUp;
+        let lay = SoundingLayout::resolve(&sp, Some("time  lon lat\tdepth line"), None, p).unwrap();
+        let line = "2026-06-14T09:30:00Z  -36.1 -47.5\t-12.5  L7";
+        f.split(line, Delimiter::Whitespace);
+        let v = lay.parse(line, &f).unwrap();
+        assert_eq!((v.depth_m, v.line_id), (12.5, "L7"));
+    }
+
+    #[test]
+    fn row_problems_name_the_field() {
+        let p = Path::new("s.csv");
+        let lay = SoundingLayout::resolve(
+            &spec(Delimiter::Comma),
+            Some("time,lon,lat,depth,line"),
+            None,
+            p,
+        )
+        .unwrap();
+        let mut f = Fields::default();
+        for (line, field, frag) in [
+            ("2026-06-14T09:30:00Z,-36.1,-47.5,NaN,L", "depth", "finite"),
+            (
+                "2026-06-14T09:30:00Z,-36.1,-47.5,1e999,L",
+                "depth",
+                "finite",
+            ),
+            ("2026-06-14T09:30:00Z,-36.1,-47.5", "depth", "missing"),
+            (
+                "2026-06-14T09:30:00,-36.1,-47.5,3,L",
+                "time",
+                "no UTC offset",
+            ),
+            (
+                "2026-06-14T09:30:00Z,abc,-47.5,3,L",
+                "lon",
+                "expected a coordinate",
+            ),
+        ] {
+            f.split(line, Delimiter::Comma);
+            let e = lay.parse(line, &f).unwrap_err();
+            assert_eq!(e.field, field, "{line}");
+            assert!(e.message.contains(frag), "{line}: {}", e.message);
+        }
+    }
+
+    #[test]
+    fn missing_column_and_wrong_delimiter_are_reported() {
+        let p = Path::new("s.csv");
+        let e = SoundingLayout::resolve(
+            &spec(Delimiter::Comma),
+            Some("time,lon,lat,dep,line"),
+            None,
+            p,
+        )
+        .unwrap_err();
+        assert!(
+            e.to_string()
+                .starts_with("s.csv:1: field 'depth': no such column"),
+            "{e}"
+        );
+        let e = SoundingLayout::resolve(
+            &spec(Delimiter::Comma),
+            Some("time;lon;lat;depth;line"),
+            None,
+            p,
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("delimiter"), "{e}");
+    }
+}

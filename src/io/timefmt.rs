@@ -1,0 +1,179 @@
+//! Reading times. Only this layer knows about UTC offsets and time zones: everything it returns
+//! is UTC seconds since 1970-01-01T00:00:00Z as `f64`.
+//!
+//! Accepted forms:
+//! * RFC 3339 / ISO 8601 with an offset: `2026-06-14T09:30:00Z`, `2026-06-14T10:30:00.25+01:00`
+//!   (a space may stand for the `T`);
+//! * the same without offset (`2026-06-14T09:30:00`), only when the caller supplies the offset to
+//!   read it with (the project's `naive_time_utc_offset`); never guessed;
+//! * Unix seconds (`1781429400.25`) where a column is declared so.
+
+use chrono::{DateTime, FixedOffset, NaiveDateTime};
+
+/// How a time column is written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Deserialize, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TimeFormat {
+    /// ISO 8601 / RFC 3339 text.
+    Iso8601,
+    /// Seconds since 1970-01-01T00:00:00Z.
+    UnixS,
+}
+
+/// Parses a UTC offset written `+01:00`, `-03:30`, `+0100`, `Z` or `UTC`.
+pub fn parse_offset(s: &str) -> Result<FixedOffset, String> {
+    let t = s.trim();
+    if t.eq_ignore_ascii_case("z") || t.eq_ignore_ascii_case("utc") {
+        return Ok(FixedOffset::east_opt(0).expect("zero offset"));
+    }
+    let (sign, rest) = match t.as_bytes().first() {
+        Some(b'+') => (1, &t[1..]),
+        Some(b'-') => (-1, &t[1..]),
+        _ => {
+            return Err(format!(
+                "expected a UTC offset like +01:00 or -03:30, found '{s}'"
+            ))
+        }
+    };
+    let digits: String = rest.chars().filter(|c| *c != ':').collect();
+    if digits.len() != 4 || !digits.chars().all(|c| c.is_ascii_digit()) {
+        return Err(format!(
+            "expected a UTC offset like +01:00 or -03:30, found '{s}'"
+        ));
+    }
+    let h: i32 = digits[..2]
+        .parse()
+        .map_err(|_| format!("bad hours in '{s}'"))?;
+    let m: i32 = digits[2..]
+        .parse()
+        .map_err(|_| format!("bad minutes in '{s}'"))?;
+    if h > 18 || m > 59 {
+        return Err(format!("UTC offset out of range: '{s}'"));
+    }
+    FixedOffset::east_opt(sign * (h * 3600 + m * 60))
+        .ok_or_else(|| format!("UTC offset out of range: '{s}'"))
+}
+
+fn to_seconds(dt: DateTime<FixedOffset>) -> f64 {
+    dt.timestamp() as f64 + dt.timestamp_subsec_nanos() as f64 * 1e-9
+}
+
+/// Parses one time field to UTC seconds.
+///
+/// `naive_offset` is the offset to apply to a time written without one; `None` makes such a time
+/// an error.
+pub fn parse_time(
+    field: &str,
+    format: TimeFormat,
+    naive_offset: Option<FixedOffset>,
+) -> Result<f64, String> {
+    let s = field.trim();
+    match format {
+        TimeFormat::UnixS => {
+            let v: f64 = s
+                .parse()
+                .map_err(|_| format!("expected Unix seconds, found '{s}'"))?;
+            if !v.is_finite() {
+                return Err(format!("expected finite Unix seconds, found '{s}'"));
+            }
+            Ok(v)
+        }
+        TimeFormat::Iso8601 => parse_iso(s, naive_offset),
+    }
+}
+
+fn parse_iso(s: &str, naive_offset: Option<FixedOffset>) -> Result<f64, String> {
+    if s.is_empty() {
+        return Err("expected an ISO 8601 time, found an empty field".into());
+    }
+    if let Ok(dt) = DateTime::parse_from_rfc3339(s) {
+        return Ok(to_seconds(dt));
+    }
+    // A space instead of T, or an offset without a colon.
+    let normal: String = s.replacen(' ', "T", 1);
+    if let Ok(dt) = DateTime::parse_from_rfc3339(&normal) {
+        return Ok(to_seconds(dt));
+    }
+    if let Ok(dt) = DateTime::parse_from_str(&normal, "%Y-%m-%dT%H:%M:%S%.f%z") {
+        return Ok(to_seconds(dt));
+    }
+    let naive = NaiveDateTime::parse_from_str(&normal, "%Y-%m-%dT%H:%M:%S%.f")
+        .or_else(|_| NaiveDateTime::parse_from_str(&normal, "%Y-%m-%dT%H:%M"))
+        .map_err(|_| format!("expected an ISO 8601 time like 2026-06-14T09:30:00Z, found '{s}'"))?;
+    let Some(off) = naive_offset else {
+        return Err(format!(
+            "time '{s}' has no UTC offset and none is configured (set naive_time_utc_offset)"
+        ));
+    };
+    let dt = naive
+        .and_local_timezone(off)
+        .single()
+        .ok_or_else(|| format!("time '{s}' cannot be placed at offset {off}"))?;
+    Ok(to_seconds(dt))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // 2026-06-14T09:30:00Z = 1781429400 s (20618 days × 86400 + 34200; 20618 days from
+    // 1970-01-01 to 2026-06-14 counted with 14 leap days 1972..2024).
+    const T0: f64 = 1_781_429_400.0;
+
+    #[test]
+    fn offsets_and_forms() {
+        let z = Some(FixedOffset::east_opt(0).unwrap());
+        assert_eq!(
+            parse_time("2026-06-14T09:30:00Z", TimeFormat::Iso8601, None),
+            Ok(T0)
+        );
+        assert_eq!(
+            parse_time("2026-06-14 09:30:00Z", TimeFormat::Iso8601, None),
+            Ok(T0)
+        );
+        assert_eq!(
+            parse_time("2026-06-14T10:30:00+01:00", TimeFormat::Iso8601, None),
+            Ok(T0)
+        );
+        assert_eq!(
+            parse_time("2026-06-14T10:30:00+0100", TimeFormat::Iso8601, None),
+            Ok(T0)
+        );
+        assert_eq!(
+            parse_time("2026-06-14T09:30:00.25Z", TimeFormat::Iso8601, None),
+            Ok(T0 + 0.25)
+        );
+        assert_eq!(
+            parse_time("2026-06-14T09:30:00", TimeFormat::Iso8601, z),
+            Ok(T0)
+        );
+        let plus2 = Some(parse_offset("+02:00").unwrap());
+        assert_eq!(
+            parse_time("2026-06-14T11:30:00", TimeFormat::Iso8601, plus2),
+            Ok(T0)
+        );
+        assert_eq!(parse_time("1781429400", TimeFormat::UnixS, None), Ok(T0));
+    }
+
+    #[test]
+    fn naive_time_without_configured_offset_is_an_error() {
+        let e = parse_time("2026-06-14T09:30:00", TimeFormat::Iso8601, None).unwrap_err();
+        assert!(e.contains("no UTC offset"), "{e}");
+    }
+
+    #[test]
+    fn malformed_times_are_errors() {
+        for bad in [
+            "",
+            "yesterday",
+            "2026-13-01T00:00:00Z",
+            "2026-06-14T25:00:00Z",
+        ] {
+            assert!(parse_time(bad, TimeFormat::Iso8601, None).is_err(), "{bad}");
+        }
+        assert!(parse_time("NaN", TimeFormat::UnixS, None).is_err());
+        assert!(parse_offset("1:00").is_err());
+        assert!(parse_offset("+25:00").is_err());
+        assert_eq!(parse_offset("-03:30").unwrap().local_minus_utc(), -12600);
+    }
+}

@@ -1,0 +1,372 @@
+//! Reading a zoning from GeoJSON (RFC 7946: WGS 84, `[longitude, latitude]`).
+//!
+//! Each feature is one zone: a Polygon or MultiPolygon with these properties (names are neap's):
+//!
+//! | property | meaning |
+//! |---|---|
+//! | `zone` | zone identifier (text, unique) |
+//! | `gauge` | reference gauge id, for a zone fed by one gauge |
+//! | `time_corrector_min` | time corrector Δt, minutes, positive: tide arrives later than at the gauge |
+//! | `range_ratio` | range ratio R (zone range / gauge range) |
+//! | `feeds` | instead of the three above: a list of `{gauge, weight, time_corrector_min, range_ratio}` for a zone fed by several gauges (weights sum to 1) |
+//! | `mean_level_above_datum_m` | optional zone mean level above chart datum `M_z`; present: zone-mean form, absent: scaled form |
+//!
+//! Problems are reported as `file: field 'features[i].properties.name'` with the zone id.
+
+use std::path::Path;
+
+use geo::{MultiPolygon, Polygon};
+use serde_json::{Map, Value};
+
+use super::error::{IoError, Position};
+
+/// One gauge's correctors for a zone, as written (gauge by id).
+#[derive(Debug, Clone, PartialEq)]
+pub struct FeedSpec {
+    /// Gauge id.
+    pub gauge: String,
+    /// Weight in the zone.
+    pub weight: f64,
+    /// Time corrector, minutes.
+    pub time_corrector_min: f64,
+    /// Range ratio.
+    pub range_ratio: f64,
+}
+
+/// One zone as written.
+#[derive(Debug, Clone)]
+pub struct ZoneSpec {
+    /// Zone id.
+    pub id: String,
+    /// 0-based feature index in the file.
+    pub feature_index: usize,
+    /// Polygon, WGS 84 longitude/latitude.
+    pub polygon_lonlat: MultiPolygon<f64>,
+    /// Feeding gauges.
+    pub feeds: Vec<FeedSpec>,
+    /// Zone mean level above chart datum, metres, when given.
+    pub mean_level_above_datum_m: Option<f64>,
+    /// Rings that were not closed in the file (first position ≠ last): feature-relative
+    /// descriptions, for validation.
+    pub unclosed_rings: Vec<String>,
+}
+
+/// A zoning as written.
+#[derive(Debug, Clone)]
+pub struct ZoningSpec {
+    /// Zones in file order.
+    pub zones: Vec<ZoneSpec>,
+}
+
+fn num(
+    props: &Map<String, Value>,
+    key: &str,
+    at: &dyn Fn(&str) -> Position,
+) -> Result<f64, IoError> {
+    match props.get(key) {
+        Some(Value::Number(n)) => n
+            .as_f64()
+            .filter(|v| v.is_finite())
+            .ok_or_else(|| IoError::content(at(key), "expected a finite number")),
+        Some(other) => Err(IoError::content(
+            at(key),
+            format!("expected a number, found {other}"),
+        )),
+        None => Err(IoError::content(at(key), "missing")),
+    }
+}
+
+fn text(
+    props: &Map<String, Value>,
+    key: &str,
+    at: &dyn Fn(&str) -> Position,
+) -> Result<String, IoError> {
+    match props.get(key) {
+        Some(Value::String(s)) if !s.trim().is_empty() => Ok(s.clone()),
+        Some(other) => Err(IoError::content(
+            at(key),
+            format!("expected a non-empty text, found {other}"),
+        )),
+        None => Err(IoError::content(at(key), "missing")),
+    }
+}
+
+/// Reads a zoning file.
+pub fn read_zoning(path: &Path) -> Result<ZoningSpec, IoError> {
+    let bytes = std::fs::read(path).map_err(|e| IoError::file(path, e))?;
+    parse_zoning(&bytes, path)
+}
+
+/// Parses zoning bytes as if read from `path`.
+pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
+    let root: Value = serde_json::from_slice(bytes).map_err(|e| {
+        IoError::content(
+            Position::file(path).line(e.line() as u64),
+            format!("not valid JSON: {e}"),
+        )
+    })?;
+    let features = match root.get("features") {
+        Some(Value::Array(a))
+            if root.get("type") == Some(&Value::String("FeatureCollection".into())) =>
+        {
+            a
+        }
+        _ => {
+            return Err(IoError::content(
+                Position::file(path),
+                "expected a GeoJSON FeatureCollection with a 'features' list",
+            ))
+        }
+    };
+    let mut zones = Vec::with_capacity(features.len());
+    let mut ids = std::collections::HashMap::new();
+    for (i, f) in features.iter().enumerate() {
+        let pos = |k: &str| Position::file(path).field(format!("features[{i}].{k}"));
+        let props = match f.get("properties") {
+            Some(Value::Object(m)) => m,
+            _ => {
+                return Err(IoError::content(
+                    pos("properties"),
+                    "expected an object of zone properties",
+                ))
+            }
+        };
+        let id = text(props, "zone", &|k| pos(&format!("properties.{k}")))?;
+        let at = |k: &str| pos(&format!("properties.{k}")).clone();
+        let at_named = |k: &str| {
+            let mut p = at(k);
+            p.field = p.field.map(|f| format!("{f} (zone '{id}')"));
+            p
+        };
+        if let Some(prev) = ids.insert(id.clone(), i) {
+            return Err(IoError::content(
+                at("zone"),
+                format!("zone id '{id}' is used by features {prev} and {i}"),
+            ));
+        }
+        let feeds = match props.get("feeds") {
+            Some(Value::Array(list)) => {
+                if props.contains_key("gauge") {
+                    return Err(IoError::content(
+                        at_named("gauge"),
+                        "give either 'gauge' with its correctors or 'feeds', not both",
+                    ));
+                }
+                if list.is_empty() {
+                    return Err(IoError::content(
+                        at_named("feeds"),
+                        "expected at least one feed",
+                    ));
+                }
+                let mut out = Vec::new();
+                for (k, item) in list.iter().enumerate() {
+                    let Value::Object(m) = item else {
+                        return Err(IoError::content(
+                            at_named(&format!("feeds[{k}]")),
+                            "expected an object {gauge, weight, time_corrector_min, range_ratio}",
+                        ));
+                    };
+                    let fat = |key: &str| at_named(&format!("feeds[{k}].{key}"));
+                    out.push(FeedSpec {
+                        gauge: text(m, "gauge", &fat)?,
+                        weight: num(m, "weight", &fat)?,
+                        time_corrector_min: num(m, "time_corrector_min", &fat)?,
+                        range_ratio: num(m, "range_ratio", &fat)?,
+                    });
+                }
+                out
+            }
+            Some(_) => return Err(IoError::content(at_named("feeds"), "expected a list")),
+            None => vec![FeedSpec {
+                gauge: text(props, "gauge", &at_named)?,
+                weight: 1.0,
+                time_corrector_min: num(props, "time_corrector_min", &at_named)?,
+                range_ratio: num(props, "range_ratio", &at_named)?,
+            }],
+        };
+        for (k, fd) in feeds.iter().enumerate() {
+            if fd.range_ratio.is_nan() || fd.range_ratio <= 0.0 {
+                return Err(IoError::content(
+                    at_named(if props.contains_key("feeds") {
+                        "feeds"
+                    } else {
+                        "range_ratio"
+                    }),
+                    format!(
+                        "range ratio must be positive, found {} (feed {k})",
+                        fd.range_ratio
+                    ),
+                ));
+            }
+            if fd.weight < 0.0 {
+                return Err(IoError::content(
+                    at_named("feeds"),
+                    format!(
+                        "weight must not be negative, found {} (feed {k})",
+                        fd.weight
+                    ),
+                ));
+            }
+        }
+        let mean_level_above_datum_m = match props.get("mean_level_above_datum_m") {
+            None | Some(Value::Null) => None,
+            Some(_) => Some(num(props, "mean_level_above_datum_m", &at_named)?),
+        };
+        let geom = f.get("geometry").ok_or_else(|| {
+            IoError::content(pos("geometry"), format!("zone '{id}' has no geometry"))
+        })?;
+        let (polygon_lonlat, unclosed_rings) = geometry(geom)
+            .map_err(|m| IoError::content(pos("geometry"), format!("zone '{id}': {m}")))?;
+        zones.push(ZoneSpec {
+            id,
+            feature_index: i,
+            polygon_lonlat,
+            feeds,
+            mean_level_above_datum_m,
+            unclosed_rings,
+        });
+    }
+    if zones.is_empty() {
+        return Err(IoError::content(
+            Position::file(path),
+            "the zoning holds no zone",
+        ));
+    }
+    Ok(ZoningSpec { zones })
+}
+
+fn ring(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<geo::LineString<f64>, String> {
+    let Value::Array(pts) = v else {
+        return Err(format!("{what}: expected a list of positions"));
+    };
+    let mut coords = Vec::with_capacity(pts.len());
+    for (k, p) in pts.iter().enumerate() {
+        let xy = p
+            .as_array()
+            .filter(|a| a.len() >= 2)
+            .ok_or_else(|| format!("{what}: position {k} is not [longitude, latitude]"))?;
+        let x = xy[0].as_f64().filter(|v| v.is_finite());
+        let y = xy[1].as_f64().filter(|v| v.is_finite());
+        let (Some(x), Some(y)) = (x, y) else {
+            return Err(format!("{what}: position {k} is not two finite numbers"));
+        };
+        if !(-180.0..=180.0).contains(&x) || !(-90.0..=90.0).contains(&y) {
+            return Err(format!(
+                "{what}: position {k} [{x}, {y}] is not a longitude/latitude (GeoJSON is [lon, lat] in degrees)"
+            ));
+        }
+        coords.push(geo::Coord { x, y });
+    }
+    if coords.len() < 3 {
+        return Err(format!(
+            "{what}: a ring needs at least 3 positions, found {}",
+            coords.len()
+        ));
+    }
+    if coords.first() != coords.last() {
+        unclosed.push(what.to_string());
+    }
+    Ok(geo::LineString::new(coords))
+}
+
+fn polygon(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<Polygon<f64>, String> {
+    let Value::Array(rings) = v else {
+        return Err(format!("{what}: expected a list of rings"));
+    };
+    if rings.is_empty() {
+        return Err(format!("{what}: polygon has no ring"));
+    }
+    let ext = ring(&rings[0], &format!("{what} exterior ring"), unclosed)?;
+    let holes = rings[1..]
+        .iter()
+        .enumerate()
+        .map(|(k, r)| ring(r, &format!("{what} hole {k}"), unclosed))
+        .collect::<Result<Vec<_>, _>>()?;
+    Ok(Polygon::new(ext, holes))
+}
+
+fn geometry(g: &Value) -> Result<(MultiPolygon<f64>, Vec<String>), String> {
+    let mut unclosed = Vec::new();
+    let kind = g.get("type").and_then(Value::as_str).unwrap_or("");
+    let coords = g.get("coordinates").ok_or("geometry has no coordinates")?;
+    let mp = match kind {
+        "Polygon" => MultiPolygon(vec![polygon(coords, "polygon", &mut unclosed)?]),
+        "MultiPolygon" => {
+            let Value::Array(parts) = coords else {
+                return Err("expected a list of polygons".into());
+            };
+            MultiPolygon(
+                parts
+                    .iter()
+                    .enumerate()
+                    .map(|(k, p)| polygon(p, &format!("polygon {k}"), &mut unclosed))
+                    .collect::<Result<_, _>>()?,
+            )
+        }
+        other => {
+            return Err(format!(
+                "expected a Polygon or MultiPolygon geometry, found '{other}'"
+            ))
+        }
+    };
+    Ok((mp, unclosed))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse(s: &str) -> Result<ZoningSpec, IoError> {
+        parse_zoning(s.as_bytes(), Path::new("z.geojson"))
+    }
+
+    const ONE: &str = r#"{"type":"FeatureCollection","features":[
+      {"type":"Feature","properties":{"zone":"A","gauge":"g1","time_corrector_min":12,"range_ratio":1.05},
+       "geometry":{"type":"Polygon","coordinates":[[[0,0],[1,0],[1,1],[0,0]]]}},
+      {"type":"Feature","properties":{"zone":"B","mean_level_above_datum_m":2.1,
+        "feeds":[{"gauge":"g1","weight":0.7,"time_corrector_min":5,"range_ratio":1.0},
+                 {"gauge":"g2","weight":0.3,"time_corrector_min":-3,"range_ratio":0.9}]},
+       "geometry":{"type":"MultiPolygon","coordinates":[[[[1,0],[2,0],[2,1],[1,0]]]]}}]}"#;
+
+    #[test]
+    fn reads_single_and_multi_gauge_zones() {
+        let z = parse(ONE).unwrap();
+        assert_eq!(z.zones.len(), 2);
+        assert_eq!(z.zones[0].feeds[0].time_corrector_min, 12.0);
+        assert_eq!(z.zones[0].mean_level_above_datum_m, None);
+        assert_eq!(z.zones[1].feeds.len(), 2);
+        assert_eq!(z.zones[1].feeds[1].gauge, "g2");
+        assert_eq!(z.zones[1].mean_level_above_datum_m, Some(2.1));
+        assert!(z.zones[0].unclosed_rings.is_empty());
+    }
+
+    #[test]
+    fn errors_name_the_feature_and_property() {
+        let e = parse(&ONE.replace("\"range_ratio\":1.05", "\"range_ratio\":\"big\"")).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "z.geojson: field 'features[0].properties.range_ratio (zone 'A')': expected a number, found \"big\""
+        );
+        let e = parse(&ONE.replace(
+            "[[[0,0],[1,0],[1,1],[0,0]]]",
+            "[[[50,0],[1,0],[1,100],[50,0]]]",
+        ))
+        .unwrap_err();
+        assert!(e.to_string().contains("not a longitude/latitude"), "{e}");
+        let e = parse("{\"type\":\"FeatureCollection\",\n\"features\":[}").unwrap_err();
+        assert!(
+            e.to_string().starts_with("z.geojson:2: not valid JSON"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn unclosed_rings_are_recorded() {
+        let z = parse(&ONE.replace("[[[0,0],[1,0],[1,1],[0,0]]]", "[[[0,0],[1,0],[1,1],[0,1]]]"))
+            .unwrap();
+        assert_eq!(
+            z.zones[0].unclosed_rings,
+            vec!["polygon exterior ring".to_string()]
+        );
+    }
+}

@@ -1,0 +1,7 @@
+//! The `neap` command: parses options and hands off to the library's `run` layer.
+
+mod cli;
+
+fn main() {
+    std::process::exit(cli::main());
+}

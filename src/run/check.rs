@@ -1,0 +1,385 @@
+//! `neap check`: reads everything a reduction would and reports problems before any reduction,
+//! each with file, line and field where there is one.
+//!
+//! Errors (the run would be wrong or impossible): unreadable or malformed files, unknown gauges in
+//! zones, weights not summing to 1, unclosed rings, overlapping zones (with the overlap area),
+//! unknown CRS codes, gauge records out of time order or not spanning the soundings' times, rows
+//! that cannot be read. Warnings: soundings outside every zone and the uncovered area, gauge gaps
+//! longer than the maximum gap inside the survey period, skipped gauge samples.
+
+use std::fs::File;
+
+use geo::orient::Direction;
+use geo::{
+    BooleanOps, BoundingRect, ConvexHull, Coord, GeodesicArea, Intersects, MultiPoint,
+    MultiPolygon, Orient, Point, Polygon,
+};
+use serde::Serialize;
+
+use super::load::{load, locator_for_crs};
+use crate::compute::utc_label;
+use crate::io::crs::Transformer;
+use crate::io::error::{Finding, Position, Severity};
+use crate::io::project::Project;
+use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
+
+/// Overlaps smaller than this are reported as warnings (rounding slivers), larger as errors.
+pub const OVERLAP_ERROR_M2: f64 = 1.0;
+
+/// Most row problems listed per file (the rest are counted).
+const ROW_PROBLEMS_LISTED: usize = 20;
+
+/// The outcome of a check.
+#[derive(Debug, Clone, Serialize)]
+pub struct CheckReport {
+    /// Everything found, errors first.
+    pub findings: Vec<Finding>,
+    /// Sounding rows read.
+    pub sounding_rows: u64,
+    /// First and last sounding time, ISO 8601 UTC.
+    pub sounding_span: Option<(String, String)>,
+}
+
+impl CheckReport {
+    /// Number of errors.
+    pub fn errors(&self) -> usize {
+        self.findings
+            .iter()
+            .filter(|f| f.severity == Severity::Error)
+            .count()
+    }
+    /// Number of warnings.
+    pub fn warnings(&self) -> usize {
+        self.findings
+            .iter()
+            .filter(|f| f.severity == Severity::Warning)
+            .count()
+    }
+}
+
+/// Checks a project file and everything it names.
+pub fn check_project(project_path: &std::path::Path) -> CheckReport {
+    let mut report = CheckReport {
+        findings: Vec::new(),
+        sounding_rows: 0,
+        sounding_span: None,
+    };
+    let project = match Project::load(project_path) {
+        Ok(p) => p,
+        Err(e) => {
+            report.findings.push(e.into());
+            return report;
+        }
+    };
+    let loaded = match load(project.clone()) {
+        Ok(l) => Some(l),
+        Err(f) => {
+            report.findings.extend(f);
+            None
+        }
+    };
+    // CRS codes.
+    let mut crs_ok = vec![true; project.spec.soundings.len()];
+    for (i, g) in project.spec.soundings.iter().enumerate() {
+        if let Err(m) = crate::io::crs::check_crs(&g.crs) {
+            crs_ok[i] = false;
+            report.findings.push(Finding::error(
+                Position::file(&project.path).field(format!("soundings[{i}].crs")),
+                m,
+            ));
+        }
+    }
+    let Some(loaded) = loaded else {
+        finish(&mut report);
+        return report;
+    };
+    // Overlapping zones.
+    let zones = &loaded.zoning.zones;
+    for i in 0..zones.len() {
+        for j in i + 1..zones.len() {
+            let (a, b) = (&zones[i].polygon_lonlat, &zones[j].polygon_lonlat);
+            let (Some(ra), Some(rb)) = (a.bounding_rect(), b.bounding_rect()) else {
+                continue;
+            };
+            if !ra.intersects(&rb) {
+                continue;
+            }
+            let inter = a.intersection(b);
+            let area = geodesic_area_m2(&inter);
+            if area > 0.0 {
+                let at = Position::file(&project.spec.zoning)
+                    .field(format!("features[{}]", zones[j].feature_index));
+                let msg = format!(
+                    "zones '{}' and '{}' overlap by {area:.0} m² (points in the overlap go to '{}', the first in the file)",
+                    zones[i].id, zones[j].id, zones[i].id
+                );
+                report.findings.push(if area >= OVERLAP_ERROR_M2 {
+                    Finding::error(at, msg)
+                } else {
+                    Finding::warning(at, msg)
+                });
+            }
+        }
+    }
+    // Gauge skips.
+    for (g, r) in project.spec.gauges.iter().zip(&loaded.records) {
+        if r.skipped_null + r.skipped_flagged > 0 {
+            report.findings.push(Finding::warning(
+                Position::file(&g.record),
+                format!(
+                    "{} sample(s) with no height and {} flagged sample(s) skipped",
+                    r.skipped_null, r.skipped_flagged
+                ),
+            ));
+        }
+    }
+    // Soundings pass.
+    let zoning_union: MultiPolygon<f64> = zones
+        .iter()
+        .fold(MultiPolygon(vec![]), |acc, z| acc.union(&z.polygon_lonlat));
+    let mut t_range: Option<(f64, f64)> = None;
+    for (gi, group) in project.spec.soundings.iter().enumerate() {
+        if !crs_ok[gi] {
+            continue;
+        }
+        let locator = match locator_for_crs(&loaded.zoning, &group.crs) {
+            Ok(l) => l,
+            Err(m) => {
+                report.findings.push(Finding::error(
+                    Position::file(&project.path).field(format!("soundings[{gi}].crs")),
+                    m,
+                ));
+                continue;
+            }
+        };
+        for path in &group.files {
+            let file = match File::open(path) {
+                Ok(f) => f,
+                Err(e) => {
+                    report
+                        .findings
+                        .push(Finding::error(path.display(), e.to_string()));
+                    continue;
+                }
+            };
+            let mut reader = ChunkReader::new(file, 1);
+            let mut layout: Option<SoundingLayout> = None;
+            let mut fields = Fields::default();
+            let mut problems = 0usize;
+            let mut outside = 0u64;
+            let mut first_outside = None;
+            let mut hull_pts: Vec<Point<f64>> = Vec::new();
+            loop {
+                let chunk = match reader.next_chunk(Vec::new()) {
+                    Ok(Some(c)) => c,
+                    Ok(None) => break,
+                    Err(e) => {
+                        report
+                            .findings
+                            .push(Finding::error(path.display(), e.to_string()));
+                        break;
+                    }
+                };
+                for (n, raw) in lines_of(&chunk) {
+                    if layout.is_none() {
+                        let text = String::from_utf8_lossy(raw);
+                        match SoundingLayout::resolve(
+                            group,
+                            Some(&text),
+                            project.naive_offset,
+                            path,
+                        ) {
+                            Ok(l) => layout = Some(l),
+                            Err(e) => {
+                                report.findings.push(e.into());
+                                break;
+                            }
+                        }
+                        if group.header {
+                            continue;
+                        }
+                    }
+                    let lay = layout.as_ref().expect("layout set above");
+                    if raw.iter().all(u8::is_ascii_whitespace) {
+                        continue;
+                    }
+                    report.sounding_rows += 1;
+                    let Ok(line) = std::str::from_utf8(raw) else {
+                        problems += 1;
+                        if problems <= ROW_PROBLEMS_LISTED {
+                            report.findings.push(Finding::error(
+                                Position::file(path).line(n),
+                                "the line is not valid UTF-8 text",
+                            ));
+                        }
+                        continue;
+                    };
+                    fields.split(line, lay.delimiter);
+                    match lay.parse(line, &fields) {
+                        Err(p) => {
+                            problems += 1;
+                            if problems <= ROW_PROBLEMS_LISTED {
+                                report.findings.push(Finding::error(
+                                    Position::file(path).line(n).field(p.field),
+                                    p.message,
+                                ));
+                            }
+                        }
+                        Ok(v) => {
+                            t_range = Some(match t_range {
+                                None => (v.t_s, v.t_s),
+                                Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
+                            });
+                            if locator.locate(v.x, v.y).is_none() {
+                                outside += 1;
+                                first_outside.get_or_insert(n);
+                            }
+                            hull_pts.push(Point::new(v.x, v.y));
+                            if hull_pts.len() >= 200_000 {
+                                let h = MultiPoint(std::mem::take(&mut hull_pts)).convex_hull();
+                                hull_pts.extend(h.exterior().points());
+                            }
+                        }
+                    }
+                }
+                if layout.is_none() {
+                    break;
+                }
+            }
+            if problems > ROW_PROBLEMS_LISTED {
+                report.findings.push(Finding::error(
+                    path.display(),
+                    format!("{} more unreadable rows", problems - ROW_PROBLEMS_LISTED),
+                ));
+            }
+            if outside > 0 {
+                report.findings.push(Finding::warning(
+                    Position::file(path).line(first_outside.unwrap_or(0)),
+                    format!("{outside} sounding(s) lie outside every zone (first on this line)"),
+                ));
+            }
+            if hull_pts.len() >= 3 {
+                let hull = MultiPoint(hull_pts).convex_hull();
+                if let Some(area) = uncovered_area_m2(&hull, &group.crs, &zoning_union) {
+                    if area > 1.0 {
+                        report.findings.push(Finding::warning(
+                            path.display(),
+                            format!(
+                                "{area:.0} m² of the soundings' extent (convex hull) is covered by no zone"
+                            ),
+                        ));
+                    }
+                }
+            }
+        }
+    }
+    if let Some((t0, t1)) = t_range {
+        report.sounding_span = Some((utc_label(t0), utc_label(t1)));
+        check_gauge_spans(&loaded, t0, t1, &mut report.findings);
+    }
+    finish(&mut report);
+    report
+}
+
+fn uncovered_area_m2(
+    hull: &Polygon<f64>,
+    crs: &str,
+    zoning_union: &MultiPolygon<f64>,
+) -> Option<f64> {
+    let t = Transformer::new(crs, "EPSG:4326").ok()?;
+    let pts = hull
+        .exterior()
+        .0
+        .iter()
+        .map(|c| t.convert(c.x, c.y).map(|(x, y)| Coord { x, y }))
+        .collect::<Result<Vec<_>, _>>()
+        .ok()?;
+    let hull_ll = MultiPolygon(vec![Polygon::new(pts.into(), vec![])]);
+    Some(geodesic_area_m2(&hull_ll.difference(zoning_union)))
+}
+
+/// Geodesic area of a lon/lat multipolygon, m², whatever the winding of its rings (rings are
+/// oriented counter-clockwise first: the geodesic area of a clockwise ring is the rest of the
+/// globe).
+///
+/// # References
+/// Karney (2013), *Algorithms for geodesics*, through geo's `GeodesicArea`.
+pub fn geodesic_area_m2(mp: &MultiPolygon<f64>) -> f64 {
+    mp.0.iter()
+        .map(|p| p.orient(Direction::Default).geodesic_area_unsigned())
+        .sum()
+}
+
+fn check_gauge_spans(loaded: &super::load::Loaded, t0: f64, t1: f64, out: &mut Vec<Finding>) {
+    for (gi, g) in loaded.gauges.iter().enumerate() {
+        let spec = &loaded.project.spec.gauges[gi];
+        // The times each gauge must cover: the survey span shifted by each feeding zone's Δt.
+        let mut need: Option<(f64, f64)> = None;
+        for z in &loaded.zones {
+            for f in z.feeds.iter().filter(|f| f.gauge == gi) {
+                let dt = f.time_corrector_min * 60.0;
+                need = Some(match need {
+                    None => (t0 - dt, t1 - dt),
+                    Some((a, b)) => (a.min(t0 - dt), b.max(t1 - dt)),
+                });
+            }
+        }
+        let Some((a, b)) = need else {
+            out.push(Finding::warning(
+                Position::file(&loaded.project.path).field(format!("gauge '{}'", g.id)),
+                "no zone uses this gauge",
+            ));
+            continue;
+        };
+        let s = &g.series;
+        let at = Position::file(&spec.record);
+        match (s.times_s.first(), s.times_s.last()) {
+            (Some(&first), Some(&last)) => {
+                if first > a {
+                    out.push(Finding::error(
+                        at.clone(),
+                        format!(
+                            "the record starts at {}, but the soundings need gauge '{}' from {}",
+                            utc_label(first),
+                            g.id,
+                            utc_label(a)
+                        ),
+                    ));
+                }
+                if last < b {
+                    out.push(Finding::error(
+                        at.clone(),
+                        format!(
+                            "the record ends at {}, but the soundings need gauge '{}' until {}",
+                            utc_label(last),
+                            g.id,
+                            utc_label(b)
+                        ),
+                    ));
+                }
+            }
+            _ => continue,
+        }
+        let rec = &loaded.records[gi];
+        let mut gaps = 0;
+        for k in 1..s.times_s.len() {
+            let (p, q) = (s.times_s[k - 1], s.times_s[k]);
+            if q - p > s.max_gap_s && q > a && p < b {
+                gaps += 1;
+                if gaps <= 5 {
+                    out.push(Finding::warning(
+                        at.clone().line(rec.lines[k]),
+                        format!(
+                            "gap of {:.0} min from {} to {} inside the survey period (longer than max_gap_min = {}): soundings then have no tide",
+                            (q - p) / 60.0, utc_label(p), utc_label(q), spec.max_gap_min
+                        ),
+                    ));
+                }
+            }
+        }
+    }
+}
+
+fn finish(report: &mut CheckReport) {
+    report.findings.sort_by_key(|f| f.severity);
+}

@@ -1,0 +1,177 @@
+//! Loading a project's inputs into the core's plain data: gauges, zones, locators.
+
+use std::collections::HashMap;
+
+use crate::compute::locate::ZoneLocator;
+use crate::compute::series::{Linear, TimeInterpolation};
+use crate::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
+use crate::io::crs::Transformer;
+use crate::io::error::{Finding, IoError, Position};
+use crate::io::gauge_csv::{read_gauge_record, GaugeRecord};
+use crate::io::project::Project;
+use crate::io::zoning_geojson::{read_zoning, ZoningSpec};
+
+/// Everything a reduction needs, loaded and checked.
+#[derive(Debug)]
+pub struct Loaded {
+    /// The project.
+    pub project: Project,
+    /// Gauge records as read (for counts and lines).
+    pub records: Vec<GaugeRecord>,
+    /// Gauges for the core, in project order.
+    pub gauges: Vec<Gauge>,
+    /// The zoning as written.
+    pub zoning: ZoningSpec,
+    /// Zones for the core, in file order.
+    pub zones: Vec<Zone>,
+    /// Time interpolation method.
+    pub interp: Box<dyn TimeInterpolation>,
+}
+
+/// Reads gauges and zoning. Problems that make a reduction impossible are errors.
+pub fn load(project: Project) -> Result<Loaded, Vec<Finding>> {
+    let mut findings = Vec::new();
+    let mut records = Vec::new();
+    for g in &project.spec.gauges {
+        match read_gauge_record(g, project.gauge_naive_offset(g)) {
+            Ok(r) => {
+                for (line, msg) in r.order_problems.iter().take(20) {
+                    findings.push(Finding::error(
+                        Position::file(&g.record).line(*line).field(&g.time_column),
+                        msg.clone(),
+                    ));
+                }
+                if r.order_problems.len() > 20 {
+                    findings.push(Finding::error(
+                        Position::file(&g.record),
+                        format!("{} more times out of order", r.order_problems.len() - 20),
+                    ));
+                }
+                if r.series.times_s.is_empty() {
+                    findings.push(Finding::error(
+                        Position::file(&g.record),
+                        "the record holds no usable sample",
+                    ));
+                }
+                records.push(r);
+            }
+            Err(e) => findings.push(e.into()),
+        }
+    }
+    let zoning = match read_zoning(&project.spec.zoning) {
+        Ok(z) => z,
+        Err(e) => {
+            findings.push(e.into());
+            return Err(findings);
+        }
+    };
+    let index: HashMap<&str, usize> = project
+        .spec
+        .gauges
+        .iter()
+        .enumerate()
+        .map(|(i, g)| (g.id.as_str(), i))
+        .collect();
+    let mut zones = Vec::new();
+    for z in &zoning.zones {
+        let at = Position::file(&project.spec.zoning)
+            .field(format!("features[{}].properties", z.feature_index));
+        for ring in &z.unclosed_rings {
+            findings.push(Finding::error(
+                at.clone(),
+                format!(
+                    "zone '{}': {ring} is not closed (first and last positions differ)",
+                    z.id
+                ),
+            ));
+        }
+        let mut feeds = Vec::new();
+        for f in &z.feeds {
+            match index.get(f.gauge.as_str()) {
+                Some(&gi) => feeds.push(GaugeFeed {
+                    gauge: gi,
+                    weight: f.weight,
+                    time_corrector_min: f.time_corrector_min,
+                    range_ratio: f.range_ratio,
+                }),
+                None => findings.push(Finding::error(
+                    at.clone(),
+                    format!(
+                        "zone '{}' names gauge '{}', which the project does not define (gauges: {})",
+                        z.id,
+                        f.gauge,
+                        project
+                            .spec
+                            .gauges
+                            .iter()
+                            .map(|g| g.id.as_str())
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    ),
+                )),
+            }
+        }
+        let zone = Zone {
+            id: z.id.clone(),
+            feeds,
+            mean_level: match z.mean_level_above_datum_m {
+                Some(m) => MeanLevelForm::ZoneMean {
+                    zone_mean_level_above_datum_m: m,
+                },
+                None => MeanLevelForm::Scaled,
+            },
+        };
+        let w: f64 = z.feeds.iter().map(|f| f.weight).sum();
+        if (w - 1.0).abs() > 1e-6 && !zone.feeds.is_empty() {
+            findings.push(Finding::error(
+                at.clone(),
+                format!("zone '{}': gauge weights sum to {w}, not 1", z.id),
+            ));
+        }
+        zones.push(zone);
+    }
+    if findings
+        .iter()
+        .any(|f| f.severity == crate::io::error::Severity::Error)
+    {
+        return Err(findings);
+    }
+    let gauges = project
+        .spec
+        .gauges
+        .iter()
+        .zip(&records)
+        .map(|(g, r)| Gauge {
+            id: g.id.clone(),
+            series: r.series.clone(),
+            mean_level_above_datum_m: g.mean_level_above_datum_m,
+        })
+        .collect();
+    Ok(Loaded {
+        project,
+        records,
+        gauges,
+        zoning,
+        zones,
+        interp: Box::new(Linear),
+    })
+}
+
+/// Builds the zone locator for one CRS (the zoning transformed into it).
+pub fn locator_for_crs(zoning: &ZoningSpec, crs: &str) -> Result<ZoneLocator, String> {
+    let t = Transformer::new("EPSG:4326", crs)?;
+    let polys = zoning
+        .zones
+        .iter()
+        .map(|z| {
+            t.polygon_from_lonlat(&z.polygon_lonlat)
+                .map_err(|e| format!("zone '{}': {e}", z.id))
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    Ok(ZoneLocator::new(polys))
+}
+
+/// Turns an I/O error into findings (helper for callers collecting findings).
+pub fn finding(e: IoError) -> Finding {
+    e.into()
+}

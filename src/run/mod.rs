@@ -1,0 +1,11 @@
+//! Runs: the glue between the I/O layer and the core for each command (load a project, stream
+//! the soundings through the model, validate). No argument parsing and no printing here: the CLI
+//! does that.
+//!
+//! * [`load`] — project inputs into core data.
+//! * [`reduce`] — the streaming, parallel reduction.
+//! * [`check`] — validation before a reduction.
+
+pub mod check;
+pub mod load;
+pub mod reduce;

@@ -1,0 +1,538 @@
+//! The reduction run: every sounding file of a project streamed through the tide model, in
+//! parallel, into `<name>.reduced.csv` files in the output folder.
+//!
+//! Files are read in chunks of whole lines; a batch of chunks is processed in parallel (rayon)
+//! and written in input order, so memory stays bounded whatever the file's size and row order is
+//! preserved. Every input line other than the header and blank lines becomes one output row with
+//! a status.
+
+use std::fs::File;
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use super::load::{locator_for_crs, Loaded};
+use crate::compute::fixed::push_fixed;
+use crate::compute::reduce::{
+    reduce_depth, DiscreteZoning, SoundingStatus, TideModel, TideOutcome,
+};
+use crate::compute::zoning::FeedState;
+use crate::io::atomic::{remove_stale_partials, AtomicFile};
+use crate::io::error::{IoError, Position};
+use crate::io::project::{Delimiter, SoundingsSpec};
+use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
+
+/// Columns neap appends to every input row, in order.
+pub const APPENDED_COLUMNS: [&str; 5] = [
+    "zone",
+    "tide_m",
+    "reduced_depth_m",
+    "status",
+    "status_detail",
+];
+
+/// Decimals written for metres (0.1 mm).
+pub const METRE_DECIMALS: u32 = 4;
+
+/// Chunks processed per parallel batch, per worker thread.
+const CHUNKS_PER_THREAD: usize = 3;
+
+/// How to run.
+#[derive(Debug, Clone)]
+pub struct ReduceOptions {
+    /// Output folder (created when missing).
+    pub out_dir: PathBuf,
+    /// Show a progress bar when stderr is a terminal.
+    pub progress: bool,
+}
+
+/// One example of a row that was not reduced.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct RowExample {
+    /// 1-based line in the input file.
+    pub line: u64,
+    /// Status word.
+    pub status: &'static str,
+    /// Why.
+    pub detail: String,
+}
+
+/// Counts for one input file.
+#[derive(Debug, Clone, Serialize)]
+pub struct FileSummary {
+    /// Input file.
+    pub input: PathBuf,
+    /// Output file.
+    pub output: PathBuf,
+    /// Rows per status, in [`SoundingStatus::ALL`] order.
+    pub rows_by_status: Vec<(&'static str, u64)>,
+    /// Blank lines (not rows; not written).
+    pub blank_lines: u64,
+    /// The first few rows of each status other than `reduced`.
+    pub examples: Vec<RowExample>,
+    /// Rows per zone and status: `[zone][status]`.
+    #[serde(skip)]
+    pub per_zone: Vec<[u64; 4]>,
+    /// Smallest and largest sounding time seen, UTC seconds.
+    #[serde(skip)]
+    pub time_range_s: Option<(f64, f64)>,
+}
+
+impl FileSummary {
+    /// Total rows written.
+    pub fn rows(&self) -> u64 {
+        self.rows_by_status.iter().map(|(_, n)| n).sum()
+    }
+}
+
+/// Per-zone totals for the run summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct ZoneSummary {
+    /// Zone id.
+    pub zone: String,
+    /// `zone_mean` or `scaled` (which zoning formula was used).
+    pub mean_level_form: &'static str,
+    /// Gauge ids feeding the zone.
+    pub gauges: Vec<String>,
+    /// Soundings reduced in the zone.
+    pub reduced: u64,
+    /// Soundings in the zone without gauge data.
+    pub no_gauge_data: u64,
+}
+
+/// What a run did.
+#[derive(Debug, Clone, Serialize)]
+pub struct RunSummary {
+    /// neap version.
+    pub neap_version: &'static str,
+    /// Project file.
+    pub project: PathBuf,
+    /// Time interpolation method.
+    pub interpolation: &'static str,
+    /// Rows per status over all files.
+    pub rows_by_status: Vec<(&'static str, u64)>,
+    /// Per file.
+    pub files: Vec<FileSummary>,
+    /// Per zone.
+    pub zones: Vec<ZoneSummary>,
+    /// Temporaries of an earlier interrupted run that were removed.
+    pub stale_partials_removed: usize,
+}
+
+impl RunSummary {
+    /// Rows with a status.
+    pub fn count(&self, s: SoundingStatus) -> u64 {
+        self.rows_by_status[s.index()].1
+    }
+    /// All rows.
+    pub fn rows(&self) -> u64 {
+        self.rows_by_status.iter().map(|(_, n)| n).sum()
+    }
+}
+
+struct FileCtx<'a> {
+    layout: SoundingLayout,
+    zone_ids: Vec<&'a str>,
+    gauge_ids: Vec<&'a str>,
+}
+
+#[derive(Default)]
+struct ChunkOut {
+    bytes: Vec<u8>,
+    counts: [u64; 4],
+    per_zone: Vec<[u64; 4]>,
+    examples: Vec<RowExample>,
+    blank: u64,
+    t_min: f64,
+    t_max: f64,
+}
+
+const EXAMPLES_PER_STATUS: usize = 5;
+
+/// Output file name for an input file: `<stem>.reduced.csv`.
+pub fn output_name(input: &Path) -> String {
+    let stem = input
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "soundings".into());
+    format!("{stem}.reduced.csv")
+}
+
+/// Reduces every soundings file of a loaded project.
+pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummary, IoError> {
+    std::fs::create_dir_all(&opts.out_dir).map_err(|e| IoError::file(&opts.out_dir, e))?;
+    let stale = remove_stale_partials(&opts.out_dir);
+    let mut jobs: Vec<(usize, &SoundingsSpec, &PathBuf, PathBuf)> = Vec::new();
+    let mut seen = std::collections::HashMap::new();
+    for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
+        for f in &group.files {
+            let out = opts.out_dir.join(output_name(f));
+            if let Some(prev) = seen.insert(out.clone(), f.clone()) {
+                return Err(IoError::content(
+                    Position::file(f),
+                    format!(
+                        "would write the same output {} as {}: rename one input",
+                        out.display(),
+                        Path::new(&prev).display()
+                    ),
+                ));
+            }
+            jobs.push((gi, group, f, out));
+        }
+    }
+    let mut locators = Vec::new();
+    for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
+        let loc = locator_for_crs(&loaded.zoning, &group.crs).map_err(|m| {
+            IoError::content(
+                Position::file(&loaded.project.path).field(format!("soundings[{gi}].crs")),
+                m,
+            )
+        })?;
+        locators.push(loc);
+    }
+    let total_bytes: u64 = jobs
+        .iter()
+        .map(|(_, _, f, _)| std::fs::metadata(f).map(|m| m.len()).unwrap_or(0))
+        .sum();
+    let bar = if opts.progress && std::io::stderr().is_terminal() && total_bytes > 8 << 20 {
+        let b = indicatif::ProgressBar::new(total_bytes);
+        b.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{bar:40} {bytes}/{total_bytes} {bytes_per_sec} eta {eta}",
+            )
+            .expect("valid template"),
+        );
+        Some(b)
+    } else {
+        None
+    };
+    let inputs: Vec<&Path> = loaded
+        .project
+        .spec
+        .soundings
+        .iter()
+        .flat_map(|g| g.files.iter().map(PathBuf::as_path))
+        .chain(std::iter::once(loaded.project.path.as_path()))
+        .chain(
+            loaded
+                .project
+                .spec
+                .gauges
+                .iter()
+                .map(|g| g.record.as_path()),
+        )
+        .chain(std::iter::once(loaded.project.spec.zoning.as_path()))
+        .collect();
+    let files: Vec<FileSummary> = jobs
+        .par_iter()
+        .map(|(gi, group, input, out)| {
+            let model = DiscreteZoning {
+                zones: &loaded.zones,
+                gauges: &loaded.gauges,
+                locator: &locators[*gi],
+                interp: loaded.interp.as_ref(),
+            };
+            reduce_file(loaded, group, input, out, &model, &inputs, bar.as_ref())
+        })
+        .collect::<Result<_, _>>()?;
+    if let Some(b) = bar {
+        b.finish_and_clear();
+    }
+    let mut totals = [0u64; 4];
+    let mut per_zone = vec![[0u64; 4]; loaded.zones.len()];
+    for f in &files {
+        for (t, (_, n)) in totals.iter_mut().zip(&f.rows_by_status) {
+            *t += n;
+        }
+        for (acc, c) in per_zone.iter_mut().zip(&f.per_zone) {
+            add_counts(acc, c);
+        }
+    }
+    let zones = loaded
+        .zones
+        .iter()
+        .zip(&per_zone)
+        .map(|(z, c)| ZoneSummary {
+            zone: z.id.clone(),
+            mean_level_form: z.mean_level.label(),
+            gauges: z
+                .feeds
+                .iter()
+                .map(|f| loaded.gauges[f.gauge].id.clone())
+                .collect(),
+            reduced: c[SoundingStatus::Reduced.index()],
+            no_gauge_data: c[SoundingStatus::NoGaugeData.index()],
+        })
+        .collect();
+    Ok(RunSummary {
+        neap_version: env!("CARGO_PKG_VERSION"),
+        project: loaded.project.path.clone(),
+        interpolation: loaded.interp.name(),
+        rows_by_status: SoundingStatus::ALL
+            .iter()
+            .map(|s| (s.as_str(), totals[s.index()]))
+            .collect(),
+        files,
+        zones,
+        stale_partials_removed: stale,
+    })
+}
+
+fn reduce_file(
+    loaded: &Loaded,
+    group: &SoundingsSpec,
+    input: &Path,
+    out: &Path,
+    model: &dyn TideModel,
+    inputs: &[&Path],
+    bar: Option<&indicatif::ProgressBar>,
+) -> Result<FileSummary, IoError> {
+    let file = File::open(input).map_err(|e| IoError::file(input, e))?;
+    let mut reader = ChunkReader::new(file, 1);
+    let first = reader
+        .next_chunk(Vec::new())
+        .map_err(|e| IoError::file(input, e))?;
+    let Some(mut first) = first else {
+        return Err(IoError::content(Position::file(input), "the file is empty"));
+    };
+    let first_line_text: Option<String> = lines_of(&first)
+        .next()
+        .map(|(_, l)| String::from_utf8_lossy(l).into_owned());
+    let layout = SoundingLayout::resolve(
+        group,
+        first_line_text.as_deref(),
+        loaded.project.naive_offset,
+        input,
+    )?;
+    let ctx = FileCtx {
+        layout,
+        zone_ids: loaded.zones.iter().map(|z| z.id.as_str()).collect(),
+        gauge_ids: loaded.gauges.iter().map(|g| g.id.as_str()).collect(),
+    };
+    let mut sink = AtomicFile::create(out, inputs)?;
+    let mut header = Vec::new();
+    for (i, name) in ctx.layout.column_names.iter().enumerate() {
+        if i > 0 {
+            header.push(b',');
+        }
+        push_csv_field(&mut header, name);
+    }
+    for c in APPENDED_COLUMNS {
+        header.push(b',');
+        header.extend_from_slice(c.as_bytes());
+    }
+    header.push(b'\n');
+    sink.write_all(&header)?;
+    if group.header {
+        // Drop the header line from the first chunk.
+        let cut = first
+            .data
+            .iter()
+            .position(|&c| c == b'\n')
+            .map(|i| i + 1)
+            .unwrap_or(first.data.len());
+        first.data.drain(..cut);
+        first.first_line += 1;
+    }
+    let mut summary = FileSummary {
+        input: input.to_path_buf(),
+        output: out.to_path_buf(),
+        rows_by_status: Vec::new(),
+        blank_lines: 0,
+        examples: Vec::new(),
+        per_zone: vec![[0; 4]; loaded.zones.len()],
+        time_range_s: None,
+    };
+    let mut counts = [0u64; 4];
+    let batch = CHUNKS_PER_THREAD * rayon::current_num_threads().max(1);
+    let mut pending = vec![first];
+    let mut spare: Vec<Vec<u8>> = Vec::new();
+    let mut done = false;
+    while !done || !pending.is_empty() {
+        while !done && pending.len() < batch {
+            match reader
+                .next_chunk(spare.pop().unwrap_or_default())
+                .map_err(|e| IoError::file(input, e))?
+            {
+                Some(c) => pending.push(c),
+                None => done = true,
+            }
+        }
+        let outs: Vec<ChunkOut> = pending
+            .par_iter()
+            .map(|c| process_chunk(c, &ctx, model))
+            .collect();
+        for (c, o) in pending.drain(..).zip(outs) {
+            sink.write_all(&o.bytes)?;
+            if let Some(b) = bar {
+                b.inc(c.data.len() as u64);
+            }
+            spare.push(c.data);
+            add_counts(&mut counts, &o.counts);
+            for (acc, zc) in summary.per_zone.iter_mut().zip(&o.per_zone) {
+                add_counts(acc, zc);
+            }
+            summary.blank_lines += o.blank;
+            for ex in o.examples {
+                let same = summary
+                    .examples
+                    .iter()
+                    .filter(|e| e.status == ex.status)
+                    .count();
+                if same < EXAMPLES_PER_STATUS {
+                    summary.examples.push(ex);
+                }
+            }
+            if o.t_min <= o.t_max {
+                summary.time_range_s = Some(match summary.time_range_s {
+                    None => (o.t_min, o.t_max),
+                    Some((a, b)) => (a.min(o.t_min), b.max(o.t_max)),
+                });
+            }
+        }
+    }
+    sink.commit()?;
+    summary.rows_by_status = SoundingStatus::ALL
+        .iter()
+        .map(|s| (s.as_str(), counts[s.index()]))
+        .collect();
+    Ok(summary)
+}
+
+fn add_counts(acc: &mut [u64; 4], add: &[u64; 4]) {
+    for (a, b) in acc.iter_mut().zip(add) {
+        *a += b;
+    }
+}
+
+fn write_input_fields(out: &mut Vec<u8>, line: &str, fields: &Fields, ctx: &FileCtx, n: usize) {
+    let fast = ctx.layout.delimiter == Delimiter::Comma && fields.len() == n && !line.contains('"');
+    if fast {
+        out.extend_from_slice(line.as_bytes());
+        return;
+    }
+    for i in 0..n {
+        if i > 0 {
+            out.push(b',');
+        }
+        if let Some(f) = fields.get(line, i) {
+            push_csv_field(out, f);
+        }
+    }
+}
+
+fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOut {
+    let n_cols = ctx.layout.column_names.len();
+    let mut o = ChunkOut {
+        bytes: Vec::with_capacity(chunk.data.len() * 3 / 2 + 1024),
+        per_zone: vec![[0; 4]; ctx.zone_ids.len()],
+        t_min: f64::INFINITY,
+        t_max: f64::NEG_INFINITY,
+        ..Default::default()
+    };
+    let mut fields = Fields::default();
+    let mut states: Vec<FeedState> = Vec::with_capacity(4);
+    let mut detail = String::new();
+    for (line_no, raw) in lines_of(chunk) {
+        if raw.iter().all(|c| c.is_ascii_whitespace()) {
+            o.blank += 1;
+            continue;
+        }
+        detail.clear();
+        let owned;
+        let (line, utf8_ok) = match std::str::from_utf8(raw) {
+            Ok(s) => (s, true),
+            Err(_) => {
+                owned = String::from_utf8_lossy(raw).into_owned();
+                (owned.as_str(), false)
+            }
+        };
+        fields.split(line, ctx.layout.delimiter);
+        write_input_fields(&mut o.bytes, line, &fields, ctx, n_cols);
+        let mut zone: Option<usize> = None;
+        let mut tide = None;
+        let status = if !utf8_ok {
+            detail.push_str("the line is not valid UTF-8 text");
+            SoundingStatus::BadInput
+        } else {
+            match ctx.layout.parse(line, &fields) {
+                Err(p) => {
+                    detail.push_str("field '");
+                    detail.push_str(&p.field);
+                    detail.push_str("': ");
+                    detail.push_str(&p.message);
+                    SoundingStatus::BadInput
+                }
+                Ok(v) => {
+                    o.t_min = o.t_min.min(v.t_s);
+                    o.t_max = o.t_max.max(v.t_s);
+                    match model.tide_at(v.x, v.y, v.t_s, &mut states) {
+                        TideOutcome::Tide { zone: z, tide_m } => {
+                            zone = Some(z);
+                            tide = Some((tide_m, reduce_depth(v.depth_m, tide_m)));
+                            SoundingStatus::Reduced
+                        }
+                        TideOutcome::Outside => {
+                            detail.push_str("position is outside every zone");
+                            SoundingStatus::OutsideZoning
+                        }
+                        TideOutcome::NoData { zone: z, why } => {
+                            zone = Some(z);
+                            use std::fmt::Write;
+                            let _ = write!(
+                                detail,
+                                "gauge '{}' has no level at {}: {}",
+                                ctx.gauge_ids[why.gauge],
+                                crate::compute::utc_label(why.at_s),
+                                why.why
+                            );
+                            SoundingStatus::NoGaugeData
+                        }
+                    }
+                }
+            }
+        };
+        if fields.len() > n_cols {
+            if !detail.is_empty() {
+                detail.push_str("; ");
+            }
+            use std::fmt::Write;
+            let _ = write!(
+                detail,
+                "row has {} fields, header {}: extra fields not copied",
+                fields.len(),
+                n_cols
+            );
+        }
+        let b = &mut o.bytes;
+        b.push(b',');
+        if let Some(z) = zone {
+            push_csv_field(b, ctx.zone_ids[z]);
+            o.per_zone[z][status.index()] += 1;
+        }
+        b.push(b',');
+        if let Some((t, d)) = tide {
+            push_fixed(b, t, METRE_DECIMALS);
+            b.push(b',');
+            push_fixed(b, d, METRE_DECIMALS);
+        } else {
+            b.push(b',');
+        }
+        b.push(b',');
+        b.extend_from_slice(status.as_str().as_bytes());
+        b.push(b',');
+        push_csv_field(b, &detail);
+        b.push(b'\n');
+        o.counts[status.index()] += 1;
+        if status != SoundingStatus::Reduced && o.examples.len() < 4 * EXAMPLES_PER_STATUS {
+            o.examples.push(RowExample {
+                line: line_no,
+                status: status.as_str(),
+                detail: detail.clone(),
+            });
+        }
+    }
+    o
+}

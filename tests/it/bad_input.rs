@@ -1,0 +1,155 @@
+//! Every status is reachable, and every row is accounted for, with hand-made input.
+
+use super::{neap, read_csv, stderr, MiniProject};
+
+const SOUNDINGS: &str = "time,lon,lat,depth,line
+2026-06-14T01:00:00Z,10.005,50.005,10.0,L1
+2026-06-14T01:00:00Z,10.015,50.005,10.0,L1
+2026-06-14T01:00:00Z,10.030,50.005,10.0,L1
+2026-06-14T02:30:00Z,10.005,50.005,10.0,L2
+2026-06-14T05:00:00Z,10.005,50.005,10.0,L2
+2026-06-14T01:00:00Z,10.005,50.005,abc,L3
+2026-06-14T01:00:00,10.005,50.005,10.0,L3
+2026-06-14T01:00:00Z,10.005,50.005,0.5,L3
+2026-06-14T01:00:00Z,10.005
+
+2026-06-14T01:00:00Z,10.01,50.005,10.0,L4
+";
+
+#[test]
+fn each_status_is_reached_with_its_reason() {
+    let p = MiniProject::new(SOUNDINGS);
+    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(
+        out.status.code(),
+        Some(1),
+        "some soundings not reduced: {}",
+        stderr(&out)
+    );
+    let (header, rows) = read_csv(&p.path("out/s.reduced.csv"));
+    assert_eq!(
+        header,
+        [
+            "time",
+            "lon",
+            "lat",
+            "depth",
+            "line",
+            "zone",
+            "tide_m",
+            "reduced_depth_m",
+            "status",
+            "status_detail"
+        ]
+    );
+    // 11 data lines, one blank: 10 rows, in input order.
+    assert_eq!(rows.len(), 10);
+    let col = |r: usize, c: &str| rows[r][header.iter().position(|h| h == c).unwrap()].clone();
+    // Row 1: Z1, Δt 0, R 1, scaled form: tide = gauge level at 01:00 = 2.0 + 0.060 = 2.060 m;
+    // reduced 10.0 − 2.06 = 7.94 m.
+    assert_eq!(
+        (col(0, "zone"), col(0, "tide_m"), col(0, "reduced_depth_m")),
+        ("Z1".into(), "2.0600".into(), "7.9400".into())
+    );
+    assert_eq!(col(0, "status"), "reduced");
+    // Row 2: Z2, Δt +6 min → level at 00:54 = 2.054 m; zone-mean form 1.5 + 0.5 (2.054 − 2.1)
+    // = 1.477 m; reduced 8.523 m.
+    assert_eq!(
+        (col(1, "zone"), col(1, "tide_m"), col(1, "reduced_depth_m")),
+        ("Z2".into(), "1.4770".into(), "8.5230".into())
+    );
+    assert_eq!(col(2, "status"), "outside_zoning");
+    assert_eq!(col(2, "zone"), "");
+    assert_eq!(col(2, "tide_m"), "");
+    assert_eq!(col(3, "status"), "no_gauge_data");
+    assert_eq!(col(3, "zone"), "Z1");
+    assert!(
+        col(3, "status_detail").contains("inside a 60.0 min gap starting at 2026-06-14T02:00:00Z"),
+        "{}",
+        col(3, "status_detail")
+    );
+    assert_eq!(col(4, "status"), "no_gauge_data");
+    assert!(
+        col(4, "status_detail").contains("60.0 min after the record ends"),
+        "{}",
+        col(4, "status_detail")
+    );
+    assert_eq!(col(5, "status"), "bad_input");
+    assert_eq!(
+        col(5, "status_detail"),
+        "field 'depth': expected a depth in metres, found 'abc'"
+    );
+    assert_eq!(col(6, "status"), "bad_input");
+    assert!(col(6, "status_detail")
+        .starts_with("field 'time': time '2026-06-14T01:00:00' has no UTC offset"));
+    // Drying height kept negative: 0.5 − 2.06 = −1.56 m.
+    assert_eq!(col(7, "reduced_depth_m"), "-1.5600");
+    assert_eq!(col(8, "status"), "bad_input");
+    assert_eq!(
+        col(8, "status_detail"),
+        "field 'lat': missing: the row has 2 fields, the header 5"
+    );
+    // On the shared edge lon 10.01: the first zone in the file.
+    assert_eq!(col(9, "zone"), "Z1");
+    let err = stderr(&out);
+    for (status, n) in [
+        ("reduced", 4),
+        ("outside_zoning", 1),
+        ("no_gauge_data", 2),
+        ("bad_input", 3),
+    ] {
+        let line = err
+            .lines()
+            .find(|l| l.trim_start().starts_with(status))
+            .unwrap_or_else(|| panic!("{err}"));
+        assert!(line.trim_end().ends_with(&format!(" {n}")), "{line}");
+    }
+    assert!(err.contains("1 blank lines skipped"), "{err}");
+    assert!(err.contains("qualified hydrographic review"), "{err}");
+}
+
+#[test]
+fn all_reduced_exits_zero() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+}
+
+#[test]
+fn unusable_inputs_stop_the_run_with_file_line_and_field() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    p.write(
+        "g1.csv",
+        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,x\n",
+    );
+    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = stderr(&out);
+    assert!(
+        err.contains("g1.csv:3: field 'height': expected a number, found 'x'"),
+        "{err}"
+    );
+    assert!(!p.path("out/s.reduced.csv").exists());
+
+    let p =
+        MiniProject::new("time;lon;lat;depth;line\n2026-06-14T01:00:00Z;10.005;50.005;10.0;L1\n");
+    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = stderr(&out);
+    assert!(
+        err.contains(
+            "s.csv:1: the header has 1 column(s) when split by Comma — is the delimiter right?"
+        ),
+        "{err}"
+    );
+    assert!(
+        !p.path("out/s.reduced.csv").exists(),
+        "no half-written output"
+    );
+    assert!(
+        !p.path("out/.s.reduced.csv.neap-partial").exists(),
+        "temporary removed"
+    );
+}

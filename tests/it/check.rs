@@ -1,0 +1,135 @@
+//! `neap check` reports each problem with file, line and field, and fails only on errors.
+
+use super::{neap, stderr, MiniProject, MINI_PROJECT, MINI_ZONING};
+
+const GOOD: &str = "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n2026-06-14T01:10:00Z,10.015,50.005,10.0,L1\n";
+
+fn check(p: &MiniProject) -> (Option<i32>, String) {
+    let out = neap(&["check", &p.project()]);
+    (out.status.code(), stderr(&out))
+}
+
+#[test]
+fn a_clean_project_passes() {
+    let p = MiniProject::new(GOOD);
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(0), "{err}");
+    assert!(err.contains("0 error(s)"), "{err}");
+    assert!(
+        err.contains("2 sounding rows read, 2026-06-14T01:00:00Z to 2026-06-14T01:10:00Z"),
+        "{err}"
+    );
+}
+
+#[test]
+fn unknown_gauge_and_bad_weights() {
+    let p = MiniProject::new(GOOD);
+    p.write("zoning.geojson", &MINI_ZONING.replace(
+        r#""gauge":"g1","time_corrector_min":6,"range_ratio":0.5"#,
+        r#""feeds":[{"gauge":"g1","weight":0.5,"time_corrector_min":6,"range_ratio":0.5},{"gauge":"g9","weight":0.4,"time_corrector_min":0,"range_ratio":1}]"#,
+    ));
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1), "{err}");
+    assert!(err.contains("zoning.geojson: field 'features[1].properties': zone 'Z2' names gauge 'g9', which the project does not define (gauges: g1)"), "{err}");
+    assert!(
+        err.contains("zone 'Z2': gauge weights sum to 0.9, not 1"),
+        "{err}"
+    );
+}
+
+#[test]
+fn overlapping_zones_give_the_pair_and_area() {
+    let p = MiniProject::new(GOOD);
+    // Z2 moved 0.001° west: a 0.001° × 0.01° strip at 50° N overlaps Z1.
+    p.write(
+        "zoning.geojson",
+        &MINI_ZONING.replace(
+            "[[[10.01,50.0],[10.02,50.0],[10.02,50.01],[10.01,50.01],[10.01,50.0]]]",
+            "[[[10.009,50.0],[10.02,50.0],[10.02,50.01],[10.009,50.01],[10.009,50.0]]]",
+        ),
+    );
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1), "{err}");
+    let line = err
+        .lines()
+        .find(|l| l.contains("overlap by"))
+        .unwrap_or_else(|| panic!("{err}"));
+    // Geodesic area of the strip: 0.001° of longitude at 50.005° N ≈ 71.6 m (111 320 m ×
+    // cos 50.005° × 0.001, spherical approximation, common practice) times 0.01° of latitude
+    // ≈ 1 112 m: ≈ 79 600 m². Accept ±1 %.
+    let area: f64 = line
+        .split("overlap by ")
+        .nth(1)
+        .unwrap()
+        .split(' ')
+        .next()
+        .unwrap()
+        .parse()
+        .unwrap();
+    assert!((area - 79_600.0).abs() < 800.0, "{line}");
+    assert!(line.contains("zones 'Z1' and 'Z2'"), "{line}");
+}
+
+#[test]
+fn uncovered_soundings_and_gauge_span_and_gaps() {
+    let p = MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n2026-06-14T02:30:00Z,10.03,50.02,10.0,L1\n2026-06-14T04:30:00Z,10.005,50.015,10.0,L1\n");
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1), "{err}");
+    assert!(
+        err.contains("s.csv:3: 2 sounding(s) lie outside every zone (first on this line)"),
+        "{err}"
+    );
+    assert!(
+        err.contains("m² of the soundings' extent (convex hull) is covered by no zone"),
+        "{err}"
+    );
+    assert!(err.contains("g1.csv: the record ends at 2026-06-14T04:00:00Z, but the soundings need gauge 'g1' until 2026-06-14T04:30:00Z"), "{err}");
+    assert!(
+        err.contains("g1.csv:23: gap of 60 min from 2026-06-14T02:00:00Z to 2026-06-14T03:00:00Z"),
+        "{err}"
+    );
+}
+
+#[test]
+fn gauge_times_out_of_order_and_nan_heights() {
+    let p = MiniProject::new(GOOD);
+    p.write("g1.csv", "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,1.1\n2026-06-14T00:06:00Z,1.1\n2026-06-14T00:03:00Z,1.1\n");
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1));
+    assert!(
+        err.contains("g1.csv:4: field 'time': time '2026-06-14T00:06:00Z' is duplicated"),
+        "{err}"
+    );
+    assert!(err.contains("g1.csv:5: field 'time': time '2026-06-14T00:03:00Z' is earlier than the previous sample"), "{err}");
+    p.write(
+        "g1.csv",
+        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,NaN\n",
+    );
+    let (_, err) = check(&p);
+    assert!(
+        err.contains("g1.csv:3: field 'height': expected a finite number, found 'NaN'"),
+        "{err}"
+    );
+}
+
+#[test]
+fn unknown_epsg_and_bad_rows() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,deep,L1\n");
+    p.write(
+        "project.toml",
+        &MINI_PROJECT.replace("EPSG:4326", "EPSG:4327777"),
+    );
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1));
+    assert!(
+        err.contains("project.toml: field 'soundings[0].crs': unknown CRS 'EPSG:4327777'"),
+        "{err}"
+    );
+    p.write("project.toml", MINI_PROJECT);
+    let (_, err) = check(&p);
+    assert!(
+        err.contains("s.csv:2: field 'depth': expected a depth in metres, found 'deep'"),
+        "{err}"
+    );
+}

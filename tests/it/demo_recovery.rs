@@ -1,0 +1,99 @@
+//! End to end: reduce the bundled demo survey and recover the generator's true seabed.
+//!
+//! Error budget for the bounds (values from zoning-demo/truth/generator.json, written by the
+//! generator that made the data):
+//! * sounding noise σ_s = 0.05 m and rounding of depths to 0.01 m (σ = 0.01/√12 ≈ 0.003 m);
+//! * gauge noise σ_g = 0.01 m (interpolation between two noisy samples keeps it ≤ 0.01 m);
+//! * zoning error: the zones' single Δt and R cannot follow the true field's small M4 overtide
+//!   (up to 0.06 m at the head), its cross-axis lag (1 min/km) and the rounding of Δt to 1 min
+//!   and R to 0.01. Measured here directly against the true tide: bounded at RMS 0.04 m.
+//!
+//! Depth error RMS ≤ √(0.05² + 0.003² + 0.04²) ≈ 0.064 m → bound 0.07 m (sampling slack);
+//! 95th percentile of |error| ≤ 1.96 × 0.064 ≈ 0.126 m → bound 0.135 m; mean |bias| ≤ 0.015 m.
+
+use super::{neap, read_csv, repo, stderr};
+
+struct Errors {
+    n: usize,
+    depth_rms: f64,
+    depth_p95: f64,
+    depth_mean: f64,
+    tide_rms: f64,
+}
+
+fn compare(reduced: &std::path::Path, truth: &std::path::Path) -> (Errors, usize) {
+    let (h, rows) = read_csv(reduced);
+    let (th, truth_rows) = read_csv(truth);
+    assert_eq!(rows.len(), truth_rows.len(), "one output row per input row");
+    let c = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let tc = |n: &str| th.iter().position(|x| x == n).unwrap();
+    let (mut de, mut te) = (Vec::new(), Vec::new());
+    let mut not_reduced = 0;
+    for (r, t) in rows.iter().zip(&truth_rows) {
+        if r[c("status")] != "reduced" {
+            not_reduced += 1;
+            continue;
+        }
+        let d: f64 = r[c("reduced_depth_m")].parse().unwrap();
+        let tide: f64 = r[c("tide_m")].parse().unwrap();
+        de.push(d - t[tc("true_depth_below_datum_m")].parse::<f64>().unwrap());
+        te.push(tide - t[tc("true_tide_m")].parse::<f64>().unwrap());
+    }
+    let rms = |v: &[f64]| (v.iter().map(|x| x * x).sum::<f64>() / v.len() as f64).sqrt();
+    let mut abs: Vec<f64> = de.iter().map(|x| x.abs()).collect();
+    abs.sort_by(f64::total_cmp);
+    (
+        Errors {
+            n: de.len(),
+            depth_rms: rms(&de),
+            depth_p95: abs[(0.95 * abs.len() as f64) as usize],
+            depth_mean: de.iter().sum::<f64>() / de.len() as f64,
+            tide_rms: rms(&te),
+        },
+        not_reduced,
+    )
+}
+
+#[test]
+fn demo_survey_recovers_the_true_seabed() {
+    let out_dir = tempfile::tempdir().unwrap();
+    let out = neap(&[
+        "reduce",
+        repo().join("zoning-demo/project.toml").to_str().unwrap(),
+        "--out",
+        out_dir.path().to_str().unwrap(),
+        "--no-progress",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(1),
+        "the demo has rows that cannot be reduced: {}",
+        stderr(&out)
+    );
+    let gen: serde_json::Value = serde_json::from_slice(
+        &std::fs::read(repo().join("zoning-demo/truth/generator.json")).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(gen["sounding_noise_sd_m"].as_f64(), Some(0.05));
+    assert_eq!(gen["gauge_noise_sd_m"].as_f64(), Some(0.01));
+    for (name, input) in [("launch-a", "launch-a.csv"), ("launch-b", "launch-b.txt")] {
+        let (e, not_reduced) = compare(
+            &out_dir.path().join(format!("{name}.reduced.csv")),
+            &repo().join(format!("zoning-demo/truth/{name}.csv")),
+        );
+        let meta = &gen["files"][format!("soundings/{input}")];
+        let expected_not_reduced = meta["outside_zoning"].as_u64().unwrap()
+            + meta["in_pendrath_gap"].as_u64().unwrap()
+            + meta["corrupt_rows"].as_array().unwrap().len() as u64;
+        assert_eq!(not_reduced as u64, expected_not_reduced, "{name}");
+        eprintln!(
+            "{name}: {} reduced; depth error RMS {:.4} m, P95 {:.4} m, mean {:+.4} m; tide error RMS {:.4} m",
+            e.n, e.depth_rms, e.depth_p95, e.depth_mean, e.tide_rms
+        );
+        assert!(e.n > 40_000, "{name}: {}", e.n);
+        assert!(e.tide_rms < 0.04, "{name}: tide RMS {}", e.tide_rms);
+        assert!(e.depth_rms < 0.07, "{name}: RMS {}", e.depth_rms);
+        assert!(e.depth_p95 < 0.135, "{name}: P95 {}", e.depth_p95);
+        assert!(e.depth_mean.abs() < 0.015, "{name}: mean {}", e.depth_mean);
+    }
+}
