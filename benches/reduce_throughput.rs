@@ -56,6 +56,9 @@ const MAX_POSITION_OFFSET_M: f64 = 0.5;
 const GENERATOR_VERSION: u32 = 1;
 /// Memory target for neap, MiB (whatever the file size).
 const NEAP_PEAK_RSS_TARGET_MIB: f64 = 50.0;
+/// A run is flagged as disturbed when other processes used more than this many CPU seconds per
+/// second of its wall time.
+const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
 
 const USAGE: &str = "usage: cargo bench --bench reduce_throughput [-- --soundings N] [--runs K]";
 
@@ -466,6 +469,13 @@ struct Measured {
     other_cpu_s: f64,
 }
 
+impl Measured {
+    /// Whether other processes used a noticeable share of the machine during the run.
+    fn disturbed(&self) -> bool {
+        self.other_cpu_s > DISTURBED_OTHER_CPU_PER_WALL * self.wall_s
+    }
+}
+
 /// Busy CPU time of the whole machine so far, seconds (from /proc/stat).
 fn machine_busy_s() -> f64 {
     let Ok(stat) = fs::read_to_string("/proc/stat") else {
@@ -769,8 +779,8 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
     );
     println!();
     println!(
-        "  {:<9} {:>3} {:>9} {:>9} {:>10} {:>10} {:>10} {:>5}",
-        "side", "run", "wall s", "CPU s", "peak MiB", "out MiB", "other CPU", "exit"
+        "  {:<9} {:>3} {:>9} {:>9} {:>10} {:>10} {:>11} {:>5}",
+        "side", "run", "wall s", "CPU s", "peak MiB", "out MiB", "other CPU s", "exit"
     );
 
     let mut base_runs: Vec<Measured> = Vec::new();
@@ -808,7 +818,7 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
         }
         out_mib.0 = file_mib(&base_out);
         println!(
-            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>10.2} {:>5}",
+            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>11.2} {:>5}{}",
             "baseline",
             run,
             b.wall_s,
@@ -816,7 +826,8 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
             mib(b.peak_rss_kib),
             out_mib.0,
             b.other_cpu_s,
-            0
+            0,
+            if b.disturbed() { "  DISTURBED" } else { "" }
         );
         base_runs.push(b);
         remove_if_present(&base_out)?;
@@ -851,7 +862,7 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
         out_mib.1 = file_mib(&neap_csv);
         statuses = neap_status_counts(&neap_out.join("reduce-summary.json"));
         println!(
-            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>10.2} {:>5}",
+            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>11.2} {:>5}{}",
             "neap",
             run,
             r.wall_s,
@@ -859,7 +870,8 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
             mib(r.peak_rss_kib),
             out_mib.1,
             r.other_cpu_s,
-            r.exit_code.unwrap_or(-1)
+            r.exit_code.unwrap_or(-1),
+            if r.disturbed() { "  DISTURBED" } else { "" }
         );
         neap_runs.push(r);
         remove_if_present(&neap_out)?;
@@ -921,6 +933,29 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
         },
         mib(floor.peak_rss_kib)
     ));
+    let disturbed = base_runs.iter().chain(&neap_runs).filter(|r| r.disturbed()).count();
+    md.push_str(&format!(
+        "Runs disturbed by other processes (they used more than {DISTURBED_OTHER_CPU_PER_WALL} \
+         CPU-s per wall-s): {disturbed} of {}.\n",
+        2 * runs
+    ));
+    md.push_str("\nPer run (wall s / CPU s / peak RSS MiB / other processes' CPU s):\n\n");
+    for (i, (b, r)) in base_runs.iter().zip(&neap_runs).enumerate() {
+        md.push_str(&format!(
+            "- run {}: baseline {:.2} / {:.2} / {:.1} / {:.2}{}; neap {:.2} / {:.2} / {:.1} / {:.2}{}\n",
+            i + 1,
+            b.wall_s,
+            b.cpu_s,
+            mib(b.peak_rss_kib),
+            b.other_cpu_s,
+            if b.disturbed() { " (disturbed)" } else { "" },
+            r.wall_s,
+            r.cpu_s,
+            mib(r.peak_rss_kib),
+            r.other_cpu_s,
+            if r.disturbed() { " (disturbed)" } else { "" },
+        ));
+    }
     let md_path = paths.data_root.join(format!("results-n{n}.md"));
     fs::write(&md_path, &md).map_err(|e| format!("{}: {e}", md_path.display()))?;
     println!();

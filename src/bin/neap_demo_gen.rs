@@ -981,6 +981,12 @@ readings N(0, {sd_g:.2} m), rounded to 0.001 m. Each zone's correctors come from
 its centroid (time corrector rounded to 1 min, range ratio to 0.01), so the zoning is good but not
 exact: fed by error-free gauges it differs from the true tide by {rms:.3} m rms and at most
 {max:.3} m over the soundings inside the zoning.
+
+## Running it
+
+`neap check zoning-demo/project.toml` lists the faults above; `neap reduce
+zoning-demo/project.toml` reduces the survey into `zoning-demo/out/`. The `run` script here builds
+neap and does the same through `neap demo`.
 "#,
         day = SURVEY_DAY,
         min = MIN_LOGGED_DEPTH_M,

@@ -4,12 +4,14 @@
 //! * [`zoning`] — discrete tidal zones: time correctors, range ratios, several gauges per zone.
 //! * [`locate`] — which zone holds a point (spatial index, edge rule).
 //! * [`reduce`] — one sounding to chart datum, with its status.
+//! * [`uncertainty`] — GUM propagation of the tide and sounding uncertainty; S-44 orders.
 //! * [`fixed`] — fast fixed-decimal formatting of metres for the output writers.
 
 pub mod fixed;
 pub mod locate;
 pub mod reduce;
 pub mod series;
+pub mod uncertainty;
 pub mod zoning;
 
 /// Formats UTC seconds as an ISO 8601 label (`2026-06-14T09:30:00Z`) for messages.
