@@ -319,13 +319,14 @@ fn generate_child(n: u64, path: &Path) -> Result<(), String> {
     fs::rename(&tmp, path).map_err(|e| format!("{}: {e}", path.display()))
 }
 
-/// Writes the benchmark's project file: the demo's, with absolute paths and one soundings group
-/// (the launch-a group's layout) naming `csv`.
-fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<(), String> {
+/// Writes the benchmark's project file: the demo's zoning and gauge tables with absolute paths,
+/// and one soundings group (the launch-a group's layout keys) naming `csv`. Other top-level keys
+/// of the demo project are not carried over; their names are returned.
+fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<Vec<String>, String> {
     let demo_project = demo.join("project.toml");
     let text = fs::read_to_string(&demo_project)
         .map_err(|e| format!("{}: {e}", demo_project.display()))?;
-    let mut doc: toml::Table = text
+    let demo_doc: toml::Table = text
         .parse()
         .map_err(|e| format!("{}: {e}", demo_project.display()))?;
     let abs = |rel: &toml::Value| -> Result<toml::Value, String> {
@@ -338,23 +339,27 @@ fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<(), Stri
             .map_err(|e| format!("{}: {e}", p.display()))?;
         Ok(toml::Value::String(p.to_string_lossy().into_owned()))
     };
-    let zoning = doc.get("zoning").ok_or("the demo project has no zoning")?;
-    let zoning = abs(zoning)?;
-    doc.insert("zoning".into(), zoning);
+    let mut doc = toml::Table::new();
     doc.insert(
         "name".into(),
         toml::Value::String(format!("neap throughput benchmark, {n} soundings")),
     );
-    let gauges = doc
-        .get_mut("gauge")
-        .and_then(toml::Value::as_array_mut)
+    let zoning = demo_doc
+        .get("zoning")
+        .ok_or("the demo project has no zoning")?;
+    doc.insert("zoning".into(), abs(zoning)?);
+    let mut gauges = demo_doc
+        .get("gauge")
+        .and_then(toml::Value::as_array)
+        .cloned()
         .ok_or("the demo project has no [[gauge]]")?;
     for g in gauges.iter_mut() {
         let g = g.as_table_mut().ok_or("a [[gauge]] is not a table")?;
         let record = abs(g.get("record").ok_or("a [[gauge]] has no record")?)?;
         g.insert("record".into(), record);
     }
-    let launch_a = doc
+    doc.insert("gauge".into(), toml::Value::Array(gauges));
+    let launch_a = demo_doc
         .get("soundings")
         .and_then(toml::Value::as_array)
         .and_then(|groups| {
@@ -388,14 +393,24 @@ fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<(), Stri
     doc.insert("output".into(), toml::Value::Table(output));
     let body = toml::to_string(&doc).map_err(|e| format!("cannot write the project: {e}"))?;
     let text = format!(
-        "# Written by benches/reduce_throughput.rs from {}: the demo's gauges and zoning, one\n\
-         # soundings group with the launch-a layout naming the generated {n}-row file.\n\n{body}",
+        "# Written by benches/reduce_throughput.rs from\n# {}:\n\
+         # the demo's gauges and zoning, and one soundings group with the launch-a layout naming\n\
+         # the generated {n}-row file.\n\n{body}",
         demo_project.display()
     );
     if fs::read_to_string(out).ok().as_deref() != Some(text.as_str()) {
         fs::write(out, text).map_err(|e| format!("{}: {e}", out.display()))?;
     }
-    Ok(())
+    Ok(demo_doc
+        .keys()
+        .filter(|k| {
+            !matches!(
+                k.as_str(),
+                "name" | "zoning" | "gauge" | "soundings" | "output"
+            )
+        })
+        .cloned()
+        .collect())
 }
 
 // ------------------------------------------------------------------------------------------------
@@ -638,14 +653,30 @@ fn machine() -> Machine {
     }
 }
 
+/// `neap --version` and when the binary was built (its modification time).
+fn neap_build(neap: &Path) -> String {
+    let version = Command::new(neap)
+        .arg("--version")
+        .output()
+        .ok()
+        .map(|o| String::from_utf8_lossy(&o.stdout).trim().to_string())
+        .unwrap_or_default();
+    let built = fs::metadata(neap)
+        .and_then(|m| m.modified())
+        .map(utc_label)
+        .unwrap_or_default();
+    format!("{version}, built {built}")
+}
+
 fn load_average() -> String {
     fs::read_to_string("/proc/loadavg")
         .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
         .unwrap_or_default()
 }
 
-fn utc_now_label() -> String {
-    let s = SystemTime::now()
+/// `YYYY-MM-DD HH:MM UTC` for a time.
+fn utc_label(t: SystemTime) -> String {
+    let s = t
         .duration_since(SystemTime::UNIX_EPOCH)
         .map(|d| d.as_secs())
         .unwrap_or(0);
@@ -684,7 +715,7 @@ fn mib(kib: i64) -> f64 {
     kib as f64 / 1024.0
 }
 
-/// Reads neap's run summary: rows per status.
+/// Reads neap's run summary: rows per status (an object `{status: n}` or pairs `[status, n]`).
 fn neap_status_counts(summary: &Path) -> String {
     let Ok(text) = fs::read_to_string(summary) else {
         return "(no reduce-summary.json)".into();
@@ -692,15 +723,25 @@ fn neap_status_counts(summary: &Path) -> String {
     let Ok(v) = serde_json::from_str::<serde_json::Value>(&text) else {
         return "(unreadable reduce-summary.json)".into();
     };
-    v.get("rows_by_status")
-        .and_then(|r| r.as_array())
-        .map(|a| {
-            a.iter()
-                .filter_map(|p| Some(format!("{} {}", p.get(0)?.as_str()?, p.get(1)?.as_u64()?)))
-                .collect::<Vec<_>>()
-                .join(", ")
-        })
-        .unwrap_or_else(|| "(no rows_by_status)".into())
+    let pairs: Vec<(String, u64)> = match v.get("rows_by_status") {
+        Some(serde_json::Value::Object(m)) => m
+            .iter()
+            .filter_map(|(k, n)| Some((k.clone(), n.as_u64()?)))
+            .collect(),
+        Some(serde_json::Value::Array(a)) => a
+            .iter()
+            .filter_map(|p| Some((p.get(0)?.as_str()?.to_string(), p.get(1)?.as_u64()?)))
+            .collect(),
+        _ => Vec::new(),
+    };
+    if pairs.is_empty() {
+        return "(no rows_by_status in reduce-summary.json)".into();
+    }
+    pairs
+        .iter()
+        .map(|(k, n)| format!("{k} {n}"))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 fn bench(n: u64, runs: usize) -> Result<(), String> {
@@ -735,7 +776,7 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
             t.elapsed().as_secs_f64()
         );
     }
-    write_project(&paths.demo, &csv, n, &project)?;
+    let not_carried = write_project(&paths.demo, &csv, n, &project)?;
     let input_lines = count_lines(&csv)?;
     if input_lines != n + 1 {
         return Err(format!(
@@ -767,7 +808,17 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
     println!("neap reduce throughput: {n} soundings, {runs} run(s) of each side");
     println!("  input     {} ({input_mib:.0} MiB)", csv.display());
     println!("  project   {}", project.display());
-    println!("  neap      {}", paths.neap.display());
+    if !not_carried.is_empty() {
+        println!(
+            "            (demo project keys not carried over: {})",
+            not_carried.join(", ")
+        );
+    }
+    println!(
+        "  neap      {} ({})",
+        paths.neap.display(),
+        neap_build(&paths.neap)
+    );
     println!(
         "  machine   {} | {} logical CPUs | {:.1} GiB RAM | Linux {}",
         m.cpu_model, m.logical_cpus, m.memory_gib, m.kernel
@@ -894,9 +945,11 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
     let mut md = String::new();
     md.push_str(&format!(
         "{n} soundings ({input_mib:.0} MiB of CSV), {runs} run(s) of each side, {}.\n\
+         neap: {}.\n\
          Machine: {}, {} logical CPUs, {:.1} GiB RAM, Linux {}. Load average before/after: \
          {load_before} / {load_after}.\n\n",
-        utc_now_label(),
+        utc_label(SystemTime::now()),
+        neap_build(&paths.neap),
         m.cpu_model,
         m.logical_cpus,
         m.memory_gib,
@@ -933,7 +986,11 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
         },
         mib(floor.peak_rss_kib)
     ));
-    let disturbed = base_runs.iter().chain(&neap_runs).filter(|r| r.disturbed()).count();
+    let disturbed = base_runs
+        .iter()
+        .chain(&neap_runs)
+        .filter(|r| r.disturbed())
+        .count();
     md.push_str(&format!(
         "Runs disturbed by other processes (they used more than {DISTURBED_OTHER_CPU_PER_WALL} \
          CPU-s per wall-s): {disturbed} of {}.\n",

@@ -558,6 +558,19 @@ fn zoning_geojson(zones: &[Zone], to_geo: &Proj) -> Result<String> {
         if let Some(m) = z.mean_level_above_datum_m {
             props.insert("mean_level_above_datum_m".into(), json!(m));
         }
+        // Standard uncertainties of the zone's correctors (demo values): smaller where the zone
+        // holds its gauge. VW7 gives none, to show the project's defaults being used.
+        if z.id != "VW7" {
+            let holds_gauge = z.mean_level_above_datum_m.is_none();
+            let (u_dt, u_r, u_zone) = if holds_gauge {
+                (3, 0.02, 0.05)
+            } else {
+                (6, 0.03, 0.08)
+            };
+            props.insert("u_time_corrector_min".into(), json!(u_dt));
+            props.insert("u_range_ratio".into(), json!(u_r));
+            props.insert("u_zone_m".into(), json!(u_zone));
+        }
         features.push(json!({
             "type": "Feature",
             "properties": props,
@@ -859,6 +872,9 @@ dir = "out"
 #                             zone-mean form of the zoning).
 #   max_gap_min               longest gap between samples that interpolation may bridge; soundings
 #                             whose (time-corrected) time falls in a longer gap get no tide.
+#   u_gauge_m                 standard uncertainty (1 sigma) of the level: sensor + interpolation.
+#   u_datum_m                 standard uncertainty (1 sigma) of chart datum carried by the gauge
+#                             (levelling, datum determination, transfer).
 "#,
     );
     let notes = [
@@ -874,12 +890,15 @@ dir = "out"
             s,
             "\n{note}\n[[gauge]]\nid = \"{}\"\nname = \"{}\"\nlon = {lon:.6}\nlat = {lat:.6}\n\
              record = \"gauges/{}.csv\"\nunits = \"m\"\nzero_above_datum_m = {:.2}\n\
-             mean_level_above_datum_m = {:.2}\nmax_gap_min = 30\n",
+             mean_level_above_datum_m = {:.2}\nmax_gap_min = 30\n\
+             u_gauge_m = {:.3}\nu_datum_m = {:.2}\n",
             g.id,
             g.name,
             g.id,
             g.zero_above_datum_m,
-            g.mean_level_written_m()
+            g.mean_level_written_m(),
+            if g.step_min == 1 { 0.012 } else { 0.015 },
+            0.03 + 0.01 * (g.zero_above_datum_m > 0.0) as u8 as f64,
         )
         .unwrap();
     }
@@ -905,6 +924,30 @@ crs = "EPSG:4326"
 delimiter = "whitespace"
 time_format = "unix_s"
 columns = { time = "unix_s", x = "lon", y = "lat", depth = "depth", line = "line" }
+
+# ---------------------------------------------------------------------------------------------
+# Uncertainty (GUM, standard uncertainties = 1 sigma) and the survey order the soundings are
+# judged against (IHO S-44 Edition 6.1.0: exclusive, special, 1a, 1b, 2, or a custom order).
+# Every number here is a DEMO VALUE chosen to look typical: a real survey takes them from its
+# specification. Zones give their own corrector uncertainties in the zoning (u_time_corrector_min,
+# u_range_ratio, u_zone_m); zone VW7 gives none and so uses the defaults below.
+[uncertainty]
+order = "special"
+acceptance_share = 0.95
+# Sounding uncertainty model, standard: u = sqrt(a^2 + (b * depth)^2)
+sounding_a_m = 0.05
+sounding_b = 0.003
+default_u_gauge_m = 0.015
+default_u_datum_m = 0.04
+default_u_time_corrector_min = 10
+default_u_range_ratio = 0.03
+default_u_zone_m = 0.10
+
+# A user-defined order, judged beside the built-in ones (allowed U95 = sqrt(a^2 + (b d)^2)).
+[[uncertainty.custom_order]]
+name = "harbour-dredged"
+a_m = 0.20
+b = 0.005
 "##,
     );
     s

@@ -10,8 +10,10 @@ use clap::{Parser, Subcommand};
 use neap::compute::reduce::SoundingStatus;
 use neap::io::error::Finding;
 use neap::io::project::Project;
+use neap::io::report_html::render_html;
 use neap::run::check::check_project;
 use neap::run::load::load;
+use neap::run::qa_report::build_qa_report;
 use neap::run::reduce::{reduce_project, ReduceOptions, RunSummary};
 use neap::{CAUTION, EXIT_CANNOT_RUN, EXIT_INCOMPLETE, EXIT_OK};
 
@@ -38,6 +40,14 @@ enum Command {
         /// Never show a progress bar.
         #[arg(long)]
         no_progress: bool,
+        /// Survey order to judge against (overrides the project's `[uncertainty] order`):
+        /// exclusive, special, 1a, 1b, 2 or a custom order's name.
+        #[arg(long)]
+        order: Option<String>,
+        /// Do not compute uncertainty (no uncertainty columns, no QA report) even when the
+        /// project has an `[uncertainty]` section.
+        #[arg(long)]
+        no_uncertainty: bool,
     },
     /// Read everything a reduction would and report problems, without reducing.
     Check {
@@ -75,6 +85,8 @@ pub fn main() -> i32 {
             out,
             threads,
             no_progress,
+            order,
+            no_uncertainty,
         } => {
             if let Some(n) = threads {
                 if n == 0 {
@@ -85,7 +97,14 @@ pub fn main() -> i32 {
                     .num_threads(n)
                     .build_global();
             }
-            cmd_reduce(&project, out, !no_progress).unwrap_or_else(report_failure)
+            cmd_reduce(
+                &project,
+                out,
+                !no_progress,
+                order.as_deref(),
+                no_uncertainty,
+            )
+            .unwrap_or_else(report_failure)
         }
         Command::Check { project, json } => cmd_check(&project, json),
         Command::Demo { dir } => cmd_demo(dir),
@@ -104,8 +123,14 @@ fn print_findings(findings: &[Finding]) {
     }
 }
 
-fn cmd_reduce(project_path: &Path, out: Option<PathBuf>, progress: bool) -> anyhow::Result<i32> {
-    let (summary, _) = match run_reduce(project_path, out, progress)? {
+fn cmd_reduce(
+    project_path: &Path,
+    out: Option<PathBuf>,
+    progress: bool,
+    order: Option<&str>,
+    no_uncertainty: bool,
+) -> anyhow::Result<i32> {
+    let (summary, _) = match run_reduce(project_path, out, progress, order, no_uncertainty)? {
         Ok(s) => s,
         Err(code) => return Ok(code),
     };
@@ -123,12 +148,19 @@ fn run_reduce(
     project_path: &Path,
     out: Option<PathBuf>,
     progress: bool,
+    order: Option<&str>,
+    no_uncertainty: bool,
 ) -> anyhow::Result<Result<(RunSummary, PathBuf), i32>> {
     let project = Project::load(project_path)?;
     let out_dir = out.unwrap_or_else(|| project.spec.output.dir.clone());
     let name = project.spec.name.clone();
-    let loaded = match load(project) {
-        Ok(l) => l,
+    let loaded = match load(project, order) {
+        Ok(mut l) => {
+            if no_uncertainty {
+                l.uncertainty = None;
+            }
+            l
+        }
         Err(findings) => {
             print_findings(&findings);
             eprintln!(
@@ -147,11 +179,35 @@ fn run_reduce(
     let json = serde_json::to_vec_pretty(&summary)?;
     let summary_path = out_dir.join("reduce-summary.json");
     neap::io::atomic::write_atomic(&summary_path, &json)?;
-    print_summary(&name, &summary, &summary_path);
+    let verdict = match build_qa_report(&loaded, &summary) {
+        Some(report) => {
+            let json_path = out_dir.join("qa-report.json");
+            let html_path = out_dir.join("qa-report.html");
+            neap::io::atomic::write_atomic(&json_path, &serde_json::to_vec_pretty(&report)?)?;
+            neap::io::atomic::write_atomic(&html_path, render_html(&report).as_bytes())?;
+            Some(format!(
+                "  order {}: {:.1} % of {} reduced soundings within the allowed TVU (acceptance {:.0} %): {}; strictest order met: {}; dominant component: {}\n  QA report: {} and {}",
+                report.chosen_order.name,
+                100.0 * report.survey.share_within_chosen,
+                report.survey.soundings,
+                100.0 * report.acceptance_share,
+                if report.survey.meets_chosen { "MET" } else { "NOT MET" },
+                report.achieved_order.as_deref().unwrap_or("none"),
+                report.dominant_component,
+                html_path.display(),
+                json_path.display()
+            ))
+        }
+        None => Some(
+            "  uncertainty: not computed (no [uncertainty] section in the project, or --no-uncertainty)"
+                .into(),
+        ),
+    };
+    print_summary(&name, &summary, &summary_path, verdict.as_deref());
     Ok(Ok((summary, out_dir)))
 }
 
-fn print_summary(name: &str, s: &RunSummary, summary_path: &Path) {
+fn print_summary(name: &str, s: &RunSummary, summary_path: &Path, verdict: Option<&str>) {
     let mut e = std::io::stderr().lock();
     let _ = writeln!(e, "neap reduce: {name}");
     for f in &s.files {
@@ -169,7 +225,7 @@ fn print_summary(name: &str, s: &RunSummary, summary_path: &Path) {
         );
     }
     let _ = writeln!(e, "  {:<16} {:>10}", "status", "soundings");
-    for (st, n) in &s.rows_by_status {
+    for (st, n) in s.rows_by_status.iter() {
         let _ = writeln!(e, "  {st:<16} {n:>10}");
     }
     let _ = writeln!(
@@ -189,7 +245,13 @@ fn print_summary(name: &str, s: &RunSummary, summary_path: &Path) {
         );
     }
     for f in &s.files {
+        let mut shown = std::collections::HashMap::new();
         for ex in &f.examples {
+            let k = shown.entry(ex.status).or_insert(0);
+            *k += 1;
+            if *k > 2 {
+                continue;
+            }
             let _ = writeln!(
                 e,
                 "  {}:{}: {}: {}",
@@ -208,6 +270,9 @@ fn print_summary(name: &str, s: &RunSummary, summary_path: &Path) {
         );
     }
     let _ = writeln!(e, "  summary: {}", summary_path.display());
+    if let Some(v) = verdict {
+        let _ = writeln!(e, "{v}");
+    }
     let _ = writeln!(e, "{CAUTION}");
 }
 
@@ -258,7 +323,7 @@ fn cmd_demo(dir: Option<PathBuf>) -> i32 {
         eprintln!("neap demo: no demo project at {}", project.display());
         return EXIT_CANNOT_RUN;
     }
-    match run_reduce(&project, None, true) {
+    match run_reduce(&project, None, true, None, false) {
         Ok(Ok((_, out_dir))) => {
             println!("Demo survey reduced. Results in {}/", out_dir.display());
             EXIT_OK

@@ -5,10 +5,12 @@
 //! * [`locate`] — which zone holds a point (spatial index, edge rule).
 //! * [`reduce`] — one sounding to chart datum, with its status.
 //! * [`uncertainty`] — GUM propagation of the tide and sounding uncertainty; S-44 orders.
+//! * [`qa`] — per-order shares, budgets and histograms for the QA report.
 //! * [`fixed`] — fast fixed-decimal formatting of metres for the output writers.
 
 pub mod fixed;
 pub mod locate;
+pub mod qa;
 pub mod reduce;
 pub mod series;
 pub mod uncertainty;

@@ -50,6 +50,45 @@ impl SoundingStatus {
     }
 }
 
+/// Rows per status, serialised as an object `{"reduced": n, "outside_zoning": n, …}` in status
+/// order.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct StatusCounts(pub [u64; 4]);
+
+impl StatusCounts {
+    /// Rows with a status.
+    pub fn get(&self, s: SoundingStatus) -> u64 {
+        self.0[s.index()]
+    }
+    /// All rows.
+    pub fn total(&self) -> u64 {
+        self.0.iter().sum()
+    }
+    /// (status word, rows) in status order.
+    pub fn iter(&self) -> impl Iterator<Item = (&'static str, u64)> + '_ {
+        SoundingStatus::ALL
+            .iter()
+            .map(|s| (s.as_str(), self.0[s.index()]))
+    }
+    /// Adds another count.
+    pub fn add(&mut self, o: &StatusCounts) {
+        for (a, b) in self.0.iter_mut().zip(o.0) {
+            *a += b;
+        }
+    }
+}
+
+impl serde::Serialize for StatusCounts {
+    fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = ser.serialize_map(Some(4))?;
+        for (k, v) in self.iter() {
+            m.serialize_entry(k, &v)?;
+        }
+        m.end()
+    }
+}
+
 /// The tide a model found at a place and time.
 #[derive(Debug, Clone, PartialEq)]
 pub enum TideOutcome {

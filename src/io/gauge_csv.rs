@@ -197,6 +197,8 @@ mod tests {
             good_flags: vec!["0".into()],
             null_values: vec!["-99".into()],
             naive_time_utc_offset: None,
+            u_gauge_m: None,
+            u_datum_m: None,
         }
     }
 

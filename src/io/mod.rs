@@ -7,6 +7,7 @@
 //! * [`soundings`] — sounding files, streamed in chunks of lines.
 //! * [`timefmt`] — time parsing to UTC seconds.
 //! * [`crs`] — coordinate transformations (PROJ).
+//! * [`report_html`] — the QA report page (HTML + SVG).
 //! * [`atomic`] — output files written to a temporary name and renamed on success.
 //! * [`error`] — the positioned error type and validation findings.
 
@@ -15,6 +16,7 @@ pub mod crs;
 pub mod error;
 pub mod gauge_csv;
 pub mod project;
+pub mod report_html;
 pub mod soundings;
 pub mod timefmt;
 pub mod zoning_geojson;

@@ -32,6 +32,91 @@ pub struct ProjectFile {
     /// Groups of sounding files sharing one layout.
     #[serde(rename = "soundings", default)]
     pub soundings: Vec<SoundingsSpec>,
+    /// Uncertainty inputs and the survey order; absent: no uncertainty is computed.
+    #[serde(default)]
+    pub uncertainty: Option<UncertaintySpec>,
+}
+
+/// Uncertainty inputs (all standard uncertainties, 1σ) and the survey order to judge against.
+///
+/// The `default_*` values apply to gauges and zones that do not give their own. Their built-in
+/// defaults are **demo values** (typical magnitudes, not authority-approved numbers): replace them
+/// with the values of your survey specification.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct UncertaintySpec {
+    /// Survey order judged per sounding: `exclusive`, `special`, `1a`, `1b`, `2` (IHO S-44
+    /// Edition 6.1.0) or the name of a `custom_order`.
+    #[serde(default = "default_order")]
+    pub order: String,
+    /// Share of soundings that must be within an order's limit for the survey to meet it.
+    #[serde(default = "default_acceptance")]
+    pub acceptance_share: f64,
+    /// Sounding uncertainty model `u = sqrt(a² + (b·d)²)`: `a`, metres (standard). Used when the
+    /// soundings have no `u_depth` column.
+    #[serde(default = "default_sounding_a")]
+    pub sounding_a_m: f64,
+    /// Sounding uncertainty model: `b` (standard, dimensionless).
+    #[serde(default = "default_sounding_b")]
+    pub sounding_b: f64,
+    /// Gauge sensor + interpolation standard uncertainty, metres (demo default 0.015).
+    #[serde(default = "default_u_gauge")]
+    pub default_u_gauge_m: f64,
+    /// Chart-datum standard uncertainty carried by a gauge, metres (demo default 0.04).
+    #[serde(default = "default_u_datum")]
+    pub default_u_datum_m: f64,
+    /// Time corrector standard uncertainty, minutes (demo default 10).
+    #[serde(default = "default_u_dt")]
+    pub default_u_time_corrector_min: f64,
+    /// Range ratio standard uncertainty (demo default 0.03).
+    #[serde(default = "default_u_r")]
+    pub default_u_range_ratio: f64,
+    /// Spatial (zone) standard uncertainty, metres (demo default 0.10).
+    #[serde(default = "default_u_zone")]
+    pub default_u_zone_m: f64,
+    /// User-defined orders.
+    #[serde(default, rename = "custom_order")]
+    pub custom_orders: Vec<CustomOrderSpec>,
+}
+
+/// A user-defined survey order: allowed TVU at 95 % `sqrt(a² + (b·d)²)`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CustomOrderSpec {
+    /// Name.
+    pub name: String,
+    /// `a`, metres (95 %).
+    pub a_m: f64,
+    /// `b` (95 %).
+    pub b: f64,
+}
+
+fn default_order() -> String {
+    "1a".into()
+}
+fn default_acceptance() -> f64 {
+    0.95
+}
+fn default_sounding_a() -> f64 {
+    0.05
+}
+fn default_sounding_b() -> f64 {
+    0.005
+}
+fn default_u_gauge() -> f64 {
+    0.015
+}
+fn default_u_datum() -> f64 {
+    0.04
+}
+fn default_u_dt() -> f64 {
+    10.0
+}
+fn default_u_r() -> f64 {
+    0.03
+}
+fn default_u_zone() -> f64 {
+    0.10
 }
 
 /// Where and how results are written.
@@ -127,6 +212,14 @@ pub struct GaugeSpec {
     /// Offset for naive times in this record; defaults to the project's.
     #[serde(default)]
     pub naive_time_utc_offset: Option<String>,
+    /// Sensor + interpolation standard uncertainty of the level, metres (default: the
+    /// project's `[uncertainty] default_u_gauge_m`).
+    #[serde(default)]
+    pub u_gauge_m: Option<f64>,
+    /// Standard uncertainty of chart datum as carried by this gauge, metres (default: the
+    /// project's `[uncertainty] default_u_datum_m`).
+    #[serde(default)]
+    pub u_datum_m: Option<f64>,
 }
 
 fn default_max_gap_min() -> f64 {
@@ -305,6 +398,54 @@ impl Project {
             }
             if let Some(o) = &g.naive_time_utc_offset {
                 parse_offset(o).map_err(|m| IoError::content(f("naive_time_utc_offset"), m))?;
+            }
+        }
+        if let Some(u) = &spec.uncertainty {
+            let f = |k: &str| at(&format!("uncertainty.{k}"));
+            for (k, v) in [
+                ("sounding_a_m", u.sounding_a_m),
+                ("sounding_b", u.sounding_b),
+                ("default_u_gauge_m", u.default_u_gauge_m),
+                ("default_u_datum_m", u.default_u_datum_m),
+                (
+                    "default_u_time_corrector_min",
+                    u.default_u_time_corrector_min,
+                ),
+                ("default_u_range_ratio", u.default_u_range_ratio),
+                ("default_u_zone_m", u.default_u_zone_m),
+            ] {
+                if !(v.is_finite() && v >= 0.0) {
+                    return Err(IoError::content(
+                        f(k),
+                        format!("expected a standard uncertainty ≥ 0, found {v}"),
+                    ));
+                }
+            }
+            if !(u.acceptance_share > 0.0 && u.acceptance_share <= 1.0) {
+                return Err(IoError::content(
+                    f("acceptance_share"),
+                    format!("expected a share in (0, 1], found {}", u.acceptance_share),
+                ));
+            }
+            for (i, c) in u.custom_orders.iter().enumerate() {
+                if !(c.a_m.is_finite() && c.a_m > 0.0 && c.b.is_finite() && c.b >= 0.0) {
+                    return Err(IoError::content(
+                        f(&format!("custom_order[{i}]")),
+                        "expected a_m > 0 and b ≥ 0 (metres, 95 %)",
+                    ));
+                }
+            }
+        }
+        for (i, g) in spec.gauges.iter().enumerate() {
+            for (k, v) in [("u_gauge_m", g.u_gauge_m), ("u_datum_m", g.u_datum_m)] {
+                if let Some(v) = v {
+                    if !(v.is_finite() && v >= 0.0) {
+                        return Err(IoError::content(
+                            at(&format!("gauge[{i}].{k}")),
+                            format!("expected a standard uncertainty ≥ 0, found {v}"),
+                        ));
+                    }
+                }
             }
         }
         for (i, s) in spec.soundings.iter().enumerate() {

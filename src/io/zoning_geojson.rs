@@ -10,6 +10,9 @@
 //! | `range_ratio` | range ratio R (zone range / gauge range) |
 //! | `feeds` | instead of the three above: a list of `{gauge, weight, time_corrector_min, range_ratio}` for a zone fed by several gauges (weights sum to 1) |
 //! | `mean_level_above_datum_m` | optional zone mean level above chart datum `M_z`; present: zone-mean form, absent: scaled form |
+//! | `u_time_corrector_min` | optional standard uncertainty of the time corrector(s), minutes |
+//! | `u_range_ratio` | optional standard uncertainty of the range ratio(s) |
+//! | `u_zone_m` | optional spatial standard uncertainty the zoning does not capture, metres |
 //!
 //! Problems are reported as `file: field 'features[i].properties.name'` with the zone id.
 
@@ -46,6 +49,12 @@ pub struct ZoneSpec {
     pub feeds: Vec<FeedSpec>,
     /// Zone mean level above chart datum, metres, when given.
     pub mean_level_above_datum_m: Option<f64>,
+    /// Standard uncertainty of the time corrector(s), minutes, when given.
+    pub u_time_corrector_min: Option<f64>,
+    /// Standard uncertainty of the range ratio(s), when given.
+    pub u_range_ratio: Option<f64>,
+    /// Spatial standard uncertainty, metres, when given.
+    pub u_zone_m: Option<f64>,
     /// Rings that were not closed in the file (first position ≠ last): feature-relative
     /// descriptions, for validation.
     pub unclosed_rings: Vec<String>,
@@ -212,6 +221,24 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
             None | Some(Value::Null) => None,
             Some(_) => Some(num(props, "mean_level_above_datum_m", &at_named)?),
         };
+        let opt_u = |k: &str| -> Result<Option<f64>, IoError> {
+            match props.get(k) {
+                None | Some(Value::Null) => Ok(None),
+                Some(_) => {
+                    let v = num(props, k, &at_named)?;
+                    if v < 0.0 {
+                        return Err(IoError::content(
+                            at_named(k),
+                            format!("a standard uncertainty cannot be negative, found {v}"),
+                        ));
+                    }
+                    Ok(Some(v))
+                }
+            }
+        };
+        let u_time_corrector_min = opt_u("u_time_corrector_min")?;
+        let u_range_ratio = opt_u("u_range_ratio")?;
+        let u_zone_m = opt_u("u_zone_m")?;
         let geom = f.get("geometry").ok_or_else(|| {
             IoError::content(pos("geometry"), format!("zone '{id}' has no geometry"))
         })?;
@@ -223,6 +250,9 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
             polygon_lonlat,
             feeds,
             mean_level_above_datum_m,
+            u_time_corrector_min,
+            u_range_ratio,
+            u_zone_m,
             unclosed_rings,
         });
     }

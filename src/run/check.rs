@@ -71,7 +71,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             return report;
         }
     };
-    let loaded = match load(project.clone()) {
+    let loaded = match load(project.clone(), None) {
         Ok(l) => Some(l),
         Err(f) => {
             report.findings.extend(f);

@@ -4,6 +4,9 @@ use std::collections::HashMap;
 
 use crate::compute::locate::ZoneLocator;
 use crate::compute::series::{Linear, TimeInterpolation};
+use crate::compute::uncertainty::{
+    s44_orders, GaugeUncertainty, SoundingUncertaintyModel, SurveyOrder, ZoneUncertainty,
+};
 use crate::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
 use crate::io::crs::Transformer;
 use crate::io::error::{Finding, IoError, Position};
@@ -26,10 +29,33 @@ pub struct Loaded {
     pub zones: Vec<Zone>,
     /// Time interpolation method.
     pub interp: Box<dyn TimeInterpolation>,
+    /// Uncertainty inputs, when the project has an `[uncertainty]` section.
+    pub uncertainty: Option<UncertaintyConfig>,
+}
+
+/// Uncertainty inputs resolved for every gauge and zone.
+#[derive(Debug, Clone)]
+pub struct UncertaintyConfig {
+    /// Per gauge, project order.
+    pub gauge_u: Vec<GaugeUncertainty>,
+    /// Per zone, file order.
+    pub zone_u: Vec<ZoneUncertainty>,
+    /// Sounding uncertainty model (used when a file has no `u_depth` column).
+    pub sounding_model: SoundingUncertaintyModel,
+    /// Orders assessed: the S-44 ones, then the custom ones.
+    pub orders: Vec<SurveyOrder>,
+    /// How many of `orders` are built in.
+    pub n_builtin: usize,
+    /// Index of the chosen order.
+    pub chosen: usize,
+    /// Acceptance share.
+    pub acceptance_share: f64,
+    /// Inputs that fell back to the project's defaults: `"gauge orlick: u_gauge_m"`, ….
+    pub defaulted: Vec<String>,
 }
 
 /// Reads gauges and zoning. Problems that make a reduction impossible are errors.
-pub fn load(project: Project) -> Result<Loaded, Vec<Finding>> {
+pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Vec<Finding>> {
     let mut findings = Vec::new();
     let mut records = Vec::new();
     for g in &project.spec.gauges {
@@ -136,6 +162,95 @@ pub fn load(project: Project) -> Result<Loaded, Vec<Finding>> {
     {
         return Err(findings);
     }
+    let uncertainty = match &project.spec.uncertainty {
+        None => None,
+        Some(u) => {
+            let mut defaulted = Vec::new();
+            let gauge_u = project
+                .spec
+                .gauges
+                .iter()
+                .map(|g| {
+                    let mut pick = |v: Option<f64>, d: f64, k: &str| {
+                        v.unwrap_or_else(|| {
+                            defaulted.push(format!("gauge {}: {k}", g.id));
+                            d
+                        })
+                    };
+                    GaugeUncertainty {
+                        u_gauge_m: pick(g.u_gauge_m, u.default_u_gauge_m, "u_gauge_m"),
+                        u_datum_m: pick(g.u_datum_m, u.default_u_datum_m, "u_datum_m"),
+                    }
+                })
+                .collect();
+            let zone_u = zoning
+                .zones
+                .iter()
+                .map(|z| {
+                    let mut pick = |v: Option<f64>, d: f64, k: &str| {
+                        v.unwrap_or_else(|| {
+                            defaulted.push(format!("zone {}: {k}", z.id));
+                            d
+                        })
+                    };
+                    ZoneUncertainty {
+                        u_time_corrector_min: pick(
+                            z.u_time_corrector_min,
+                            u.default_u_time_corrector_min,
+                            "u_time_corrector_min",
+                        ),
+                        u_range_ratio: pick(
+                            z.u_range_ratio,
+                            u.default_u_range_ratio,
+                            "u_range_ratio",
+                        ),
+                        u_zone_m: pick(z.u_zone_m, u.default_u_zone_m, "u_zone_m"),
+                    }
+                })
+                .collect();
+            let mut orders = s44_orders();
+            let n_builtin = orders.len();
+            for c in &u.custom_orders {
+                orders.push(SurveyOrder {
+                    name: c.name.clone(),
+                    a_m: c.a_m,
+                    b: c.b,
+                    thu_max95: "not set".into(),
+                });
+            }
+            let want = order_override.unwrap_or(&u.order);
+            let Some(chosen) = orders
+                .iter()
+                .position(|o| o.name.eq_ignore_ascii_case(want))
+            else {
+                findings.push(Finding::error(
+                    Position::file(&project.path).field("uncertainty.order"),
+                    format!(
+                        "unknown survey order '{want}' (known: {})",
+                        orders
+                            .iter()
+                            .map(|o| o.name.as_str())
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    ),
+                ));
+                return Err(findings);
+            };
+            Some(UncertaintyConfig {
+                gauge_u,
+                zone_u,
+                sounding_model: SoundingUncertaintyModel {
+                    a_m: u.sounding_a_m,
+                    b: u.sounding_b,
+                },
+                orders,
+                n_builtin,
+                chosen,
+                acceptance_share: u.acceptance_share,
+                defaulted,
+            })
+        }
+    };
     let gauges = project
         .spec
         .gauges
@@ -154,6 +269,7 @@ pub fn load(project: Project) -> Result<Loaded, Vec<Finding>> {
         zoning,
         zones,
         interp: Box::new(Linear),
+        uncertainty,
     })
 }
 

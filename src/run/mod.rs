@@ -5,7 +5,9 @@
 //! * [`load`] — project inputs into core data.
 //! * [`reduce`] — the streaming, parallel reduction.
 //! * [`check`] — validation before a reduction.
+//! * [`qa_report`] — the QA report of a reduction (survey orders, budgets, tide bands).
 
 pub mod check;
 pub mod load;
+pub mod qa_report;
 pub mod reduce;

@@ -15,9 +15,11 @@ use serde::Serialize;
 
 use super::load::{locator_for_crs, Loaded};
 use crate::compute::fixed::push_fixed;
+use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
-    reduce_depth, DiscreteZoning, SoundingStatus, TideModel, TideOutcome,
+    reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel, TideOutcome,
 };
+use crate::compute::uncertainty::{tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
@@ -31,6 +33,23 @@ pub const APPENDED_COLUMNS: [&str; 5] = [
     "reduced_depth_m",
     "status",
     "status_detail",
+];
+
+/// Columns appended after [`APPENDED_COLUMNS`] when uncertainty is computed, in order. All are
+/// standard uncertainties (1σ) except `u95_tvu_m` and `allowed_u95_tvu_m` (95 %);
+/// `within_order` is `yes` or `no` for the chosen order.
+pub const UNCERTAINTY_COLUMNS: [&str; 11] = [
+    "u_tide_gauge_m",
+    "u_tide_datum_m",
+    "u_tide_range_m",
+    "u_tide_timing_m",
+    "u_tide_zone_m",
+    "u_tide_m",
+    "u_sounding_m",
+    "u_tvu_m",
+    "u95_tvu_m",
+    "allowed_u95_tvu_m",
+    "within_order",
 ];
 
 /// Decimals written for metres (0.1 mm).
@@ -67,7 +86,7 @@ pub struct FileSummary {
     /// Output file.
     pub output: PathBuf,
     /// Rows per status, in [`SoundingStatus::ALL`] order.
-    pub rows_by_status: Vec<(&'static str, u64)>,
+    pub rows_by_status: StatusCounts,
     /// Blank lines (not rows; not written).
     pub blank_lines: u64,
     /// The first few rows of each status other than `reduced`.
@@ -78,12 +97,15 @@ pub struct FileSummary {
     /// Smallest and largest sounding time seen, UTC seconds.
     #[serde(skip)]
     pub time_range_s: Option<(f64, f64)>,
+    /// QA counts, when uncertainty was computed.
+    #[serde(skip)]
+    pub qa: Option<QaAccumulator>,
 }
 
 impl FileSummary {
     /// Total rows written.
     pub fn rows(&self) -> u64 {
-        self.rows_by_status.iter().map(|(_, n)| n).sum()
+        self.rows_by_status.total()
     }
 }
 
@@ -112,23 +134,29 @@ pub struct RunSummary {
     /// Time interpolation method.
     pub interpolation: &'static str,
     /// Rows per status over all files.
-    pub rows_by_status: Vec<(&'static str, u64)>,
+    pub rows_by_status: StatusCounts,
     /// Per file.
     pub files: Vec<FileSummary>,
     /// Per zone.
     pub zones: Vec<ZoneSummary>,
     /// Temporaries of an earlier interrupted run that were removed.
     pub stale_partials_removed: usize,
+    /// QA counts, when uncertainty was computed.
+    #[serde(skip)]
+    pub qa: Option<QaAccumulator>,
+    /// First and last reduced-sounding time over all files, UTC seconds.
+    #[serde(skip)]
+    pub time_range_s: Option<(f64, f64)>,
 }
 
 impl RunSummary {
     /// Rows with a status.
     pub fn count(&self, s: SoundingStatus) -> u64 {
-        self.rows_by_status[s.index()].1
+        self.rows_by_status.get(s)
     }
     /// All rows.
     pub fn rows(&self) -> u64 {
-        self.rows_by_status.iter().map(|(_, n)| n).sum()
+        self.rows_by_status.total()
     }
 }
 
@@ -136,6 +164,9 @@ struct FileCtx<'a> {
     layout: SoundingLayout,
     zone_ids: Vec<&'a str>,
     gauge_ids: Vec<&'a str>,
+    loaded: &'a Loaded,
+    group: usize,
+    map_stride: u64,
 }
 
 #[derive(Default)]
@@ -147,9 +178,13 @@ struct ChunkOut {
     blank: u64,
     t_min: f64,
     t_max: f64,
+    qa: Option<QaAccumulator>,
 }
 
 const EXAMPLES_PER_STATUS: usize = 5;
+
+/// About how many soundings per file are kept for the QA map.
+const MAP_SAMPLES_PER_FILE: u64 = 6000;
 
 /// Output file name for an input file: `<stem>.reduced.csv`.
 pub fn output_name(input: &Path) -> String {
@@ -225,7 +260,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         )
         .chain(std::iter::once(loaded.project.spec.zoning.as_path()))
         .collect();
-    let files: Vec<FileSummary> = jobs
+    let mut files: Vec<FileSummary> = jobs
         .par_iter()
         .map(|(gi, group, input, out)| {
             let model = DiscreteZoning {
@@ -234,7 +269,16 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 locator: &locators[*gi],
                 interp: loaded.interp.as_ref(),
             };
-            reduce_file(loaded, group, input, out, &model, &inputs, bar.as_ref())
+            reduce_file(
+                loaded,
+                *gi,
+                group,
+                input,
+                out,
+                &model,
+                &inputs,
+                bar.as_ref(),
+            )
         })
         .collect::<Result<_, _>>()?;
     if let Some(b) = bar {
@@ -242,10 +286,22 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
     }
     let mut totals = [0u64; 4];
     let mut per_zone = vec![[0u64; 4]; loaded.zones.len()];
-    for f in &files {
-        for (t, (_, n)) in totals.iter_mut().zip(&f.rows_by_status) {
-            *t += n;
+    let mut qa: Option<QaAccumulator> = None;
+    let mut time_range_s: Option<(f64, f64)> = None;
+    for f in &mut files {
+        if let Some(q) = f.qa.take() {
+            match &mut qa {
+                None => qa = Some(q),
+                Some(acc) => acc.merge(q),
+            }
         }
+        if let Some((a, b)) = f.time_range_s {
+            time_range_s = Some(match time_range_s {
+                None => (a, b),
+                Some((x, y)) => (x.min(a), y.max(b)),
+            });
+        }
+        add_counts(&mut totals, &f.rows_by_status.0);
         for (acc, c) in per_zone.iter_mut().zip(&f.per_zone) {
             add_counts(acc, c);
         }
@@ -270,18 +326,19 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         neap_version: env!("CARGO_PKG_VERSION"),
         project: loaded.project.path.clone(),
         interpolation: loaded.interp.name(),
-        rows_by_status: SoundingStatus::ALL
-            .iter()
-            .map(|s| (s.as_str(), totals[s.index()]))
-            .collect(),
+        rows_by_status: StatusCounts(totals),
         files,
         zones,
         stale_partials_removed: stale,
+        qa,
+        time_range_s,
     })
 }
 
+#[allow(clippy::too_many_arguments)]
 fn reduce_file(
     loaded: &Loaded,
+    group_index: usize,
     group: &SoundingsSpec,
     input: &Path,
     out: &Path,
@@ -306,10 +363,15 @@ fn reduce_file(
         loaded.project.naive_offset,
         input,
     )?;
+    // Keep about MAP_SAMPLES_PER_FILE soundings for the QA map (rows estimated at 60 bytes).
+    let est_rows = std::fs::metadata(input).map(|m| m.len() / 60).unwrap_or(0);
     let ctx = FileCtx {
         layout,
         zone_ids: loaded.zones.iter().map(|z| z.id.as_str()).collect(),
         gauge_ids: loaded.gauges.iter().map(|g| g.id.as_str()).collect(),
+        loaded,
+        group: group_index,
+        map_stride: (est_rows / MAP_SAMPLES_PER_FILE).max(1),
     };
     let mut sink = AtomicFile::create(out, inputs)?;
     let mut header = Vec::new();
@@ -322,6 +384,12 @@ fn reduce_file(
     for c in APPENDED_COLUMNS {
         header.push(b',');
         header.extend_from_slice(c.as_bytes());
+    }
+    if loaded.uncertainty.is_some() {
+        for c in UNCERTAINTY_COLUMNS {
+            header.push(b',');
+            header.extend_from_slice(c.as_bytes());
+        }
     }
     header.push(b'\n');
     sink.write_all(&header)?;
@@ -339,11 +407,12 @@ fn reduce_file(
     let mut summary = FileSummary {
         input: input.to_path_buf(),
         output: out.to_path_buf(),
-        rows_by_status: Vec::new(),
+        rows_by_status: StatusCounts::default(),
         blank_lines: 0,
         examples: Vec::new(),
         per_zone: vec![[0; 4]; loaded.zones.len()],
         time_range_s: None,
+        qa: None,
     };
     let mut counts = [0u64; 4];
     let batch = CHUNKS_PER_THREAD * rayon::current_num_threads().max(1);
@@ -385,6 +454,12 @@ fn reduce_file(
                     summary.examples.push(ex);
                 }
             }
+            if let Some(q) = o.qa {
+                match &mut summary.qa {
+                    None => summary.qa = Some(q),
+                    Some(acc) => acc.merge(q),
+                }
+            }
             if o.t_min <= o.t_max {
                 summary.time_range_s = Some(match summary.time_range_s {
                     None => (o.t_min, o.t_max),
@@ -394,10 +469,7 @@ fn reduce_file(
         }
     }
     sink.commit()?;
-    summary.rows_by_status = SoundingStatus::ALL
-        .iter()
-        .map(|s| (s.as_str(), counts[s.index()]))
-        .collect();
+    summary.rows_by_status = StatusCounts(counts);
     Ok(summary)
 }
 
@@ -432,6 +504,15 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOu
         t_max: f64::NEG_INFINITY,
         ..Default::default()
     };
+    let unc = ctx.loaded.uncertainty.as_ref();
+    if let Some(u) = unc {
+        o.qa = Some(QaAccumulator::new(
+            u.orders.len(),
+            u.chosen,
+            ctx.zone_ids.len(),
+        ));
+    }
+    let mut ratios: Vec<f64> = Vec::with_capacity(unc.map_or(0, |u| u.orders.len()));
     let mut fields = Fields::default();
     let mut states: Vec<FeedState> = Vec::with_capacity(4);
     let mut detail = String::new();
@@ -453,6 +534,7 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOu
         write_input_fields(&mut o.bytes, line, &fields, ctx, n_cols);
         let mut zone: Option<usize> = None;
         let mut tide = None;
+        let mut unc_cols: Option<([f64; 10], bool)> = None;
         let status = if !utf8_ok {
             detail.push_str("the line is not valid UTF-8 text");
             SoundingStatus::BadInput
@@ -471,7 +553,51 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOu
                     match model.tide_at(v.x, v.y, v.t_s, &mut states) {
                         TideOutcome::Tide { zone: z, tide_m } => {
                             zone = Some(z);
-                            tide = Some((tide_m, reduce_depth(v.depth_m, tide_m)));
+                            let reduced = reduce_depth(v.depth_m, tide_m);
+                            tide = Some((tide_m, reduced));
+                            if let Some(u) = unc {
+                                let l = ctx.loaded;
+                                let b = tide_budget(
+                                    &l.zones[z],
+                                    &l.gauges,
+                                    &u.gauge_u,
+                                    &u.zone_u[z],
+                                    l.interp.as_ref(),
+                                    v.t_s,
+                                    &states,
+                                );
+                                let comps = b.components_m();
+                                let u_tide = b.u_tide_m();
+                                let u_snd = v
+                                    .u_depth_m
+                                    .unwrap_or_else(|| u.sounding_model.u_m(v.depth_m));
+                                let u_tvu = u_tvu_m(u_snd, u_tide);
+                                let u95 = K95 * u_tvu;
+                                ratios.clear();
+                                ratios
+                                    .extend(u.orders.iter().map(|o| u95 / o.tvu_max95_m(reduced)));
+                                let allowed = u.orders[u.chosen].tvu_max95_m(reduced);
+                                let bv = b.variances_m2;
+                                let var = [u_snd * u_snd, bv[0], bv[1], bv[2], bv[3], bv[4]];
+                                if let Some(q) = o.qa.as_mut() {
+                                    q.add(z, v.line_id, &ratios, &var);
+                                    if line_no % ctx.map_stride == 0 {
+                                        q.samples.push(MapSample {
+                                            group: ctx.group,
+                                            x: v.x,
+                                            y: v.y,
+                                            ratio: ratios[u.chosen],
+                                        });
+                                    }
+                                }
+                                unc_cols = Some((
+                                    [
+                                        comps[0], comps[1], comps[2], comps[3], comps[4], u_tide,
+                                        u_snd, u_tvu, u95, allowed,
+                                    ],
+                                    u95 <= allowed,
+                                ));
+                            }
                             SoundingStatus::Reduced
                         }
                         TideOutcome::Outside => {
@@ -524,6 +650,18 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOu
         b.extend_from_slice(status.as_str().as_bytes());
         b.push(b',');
         push_csv_field(b, &detail);
+        if unc.is_some() {
+            match unc_cols {
+                Some((vals, within)) => {
+                    for x in vals {
+                        b.push(b',');
+                        push_fixed(b, x, METRE_DECIMALS);
+                    }
+                    b.extend_from_slice(if within { b",yes" } else { b",no" });
+                }
+                None => b.extend_from_slice(b",,,,,,,,,,,"),
+            }
+        }
         b.push(b'\n');
         o.counts[status.index()] += 1;
         if status != SoundingStatus::Reduced && o.examples.len() < 4 * EXAMPLES_PER_STATUS {

@@ -5,6 +5,7 @@ mod check;
 mod crs_reference;
 mod demo_recovery;
 mod outputs;
+mod qa_report;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

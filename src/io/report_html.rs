@@ -1,0 +1,674 @@
+//! The QA report as one self-contained HTML page (inline CSS and SVG; no script, no network).
+//!
+//! Four plots, drawn here as SVG: a map of the zones with the soundings coloured by U95/allowed,
+//! each zone's tide with its 95 % band over the survey period, the uncertainty budget as stacked
+//! bars per zone, and a histogram of U95/allowed. Tables give the per-order shares, the zones and
+//! lines that fail, and the uncertainty inputs (naming those that fell back to demo defaults).
+
+use std::fmt::Write;
+
+use crate::compute::qa::BUDGET_COMPONENTS;
+use crate::run::qa_report::QaReport;
+
+/// Colours of the budget components, in [`BUDGET_COMPONENTS`] order.
+const COMPONENT_COLOURS: [&str; 6] = [
+    "#3b6ea5", "#8fb8de", "#e0892f", "#c8463d", "#3c9d8f", "#8c5fa8",
+];
+/// Zone line colours (cycled).
+const ZONE_COLOURS: [&str; 8] = [
+    "#1f5f8b", "#c0392b", "#2e8b57", "#8e44ad", "#d4a017", "#16a0a0", "#7f5539", "#d35400",
+];
+
+/// Colour for a U95/allowed ratio.
+pub fn ratio_colour(r: f64) -> &'static str {
+    match r {
+        r if r <= 0.5 => "#1b7f4c",
+        r if r <= 0.8 => "#7fbf4d",
+        r if r <= 1.0 => "#e9c46a",
+        r if r <= 1.5 => "#ee7d3b",
+        _ => "#c0262d",
+    }
+}
+
+fn esc(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}
+
+fn pct(x: f64) -> String {
+    format!("{:.1} %", 100.0 * x)
+}
+
+/// "Nice" tick positions covering `[lo, hi]`.
+fn ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
+    if hi.partial_cmp(&lo) != Some(std::cmp::Ordering::Greater) {
+        return vec![lo];
+    }
+    let raw = (hi - lo) / n as f64;
+    let mag = 10f64.powf(raw.log10().floor());
+    let step = [1.0, 2.0, 2.5, 5.0, 10.0]
+        .iter()
+        .map(|m| m * mag)
+        .find(|s| *s >= raw)
+        .unwrap_or(10.0 * mag);
+    let mut t = (lo / step).ceil() * step;
+    let mut out = Vec::new();
+    while t <= hi + 1e-9 * step {
+        out.push(t);
+        t += step;
+    }
+    out
+}
+
+fn fmt_tick(v: f64, step_hint: f64) -> String {
+    let d = if step_hint >= 1.0 {
+        0
+    } else {
+        (-step_hint.log10()).ceil() as usize
+    };
+    format!("{v:.d$}")
+}
+
+fn map_svg(r: &QaReport, out: &mut String) {
+    let (w, h, m) = (720.0, 520.0, 56.0);
+    let mut lon = (f64::INFINITY, f64::NEG_INFINITY);
+    let mut lat = (f64::INFINITY, f64::NEG_INFINITY);
+    for (_, mp) in &r.zone_polygons {
+        for p in &mp.0 {
+            for c in p.exterior().0.iter() {
+                lon = (lon.0.min(c.x), lon.1.max(c.x));
+                lat = (lat.0.min(c.y), lat.1.max(c.y));
+            }
+        }
+    }
+    for p in &r.map_points {
+        lon = (lon.0.min(p.lon), lon.1.max(p.lon));
+        lat = (lat.0.min(p.lat), lat.1.max(p.lat));
+    }
+    if !lon.0.is_finite() {
+        return;
+    }
+    let k = ((lat.0 + lat.1) / 2.0).to_radians().cos().max(0.01);
+    let sx = (w - 2.0 * m) / ((lon.1 - lon.0) * k).max(1e-12);
+    let sy = (h - 2.0 * m) / (lat.1 - lat.0).max(1e-12);
+    let s = sx.min(sy);
+    let x = |v: f64| m + (v - lon.0) * k * s;
+    let y = |v: f64| h - m - (v - lat.0) * s;
+    let _ = write!(
+        out,
+        r#"<svg class="plot" viewBox="0 0 {w} {h}" role="img" aria-labelledby="map-title"><title id="map-title">Map of zones and soundings coloured by U95/allowed</title>"#
+    );
+    let _ = write!(
+        out,
+        r##"<rect x="0" y="0" width="{w}" height="{h}" fill="#f4f8fb"/>"##
+    );
+    let mut labels = Vec::new();
+    for (i, (id, mp)) in r.zone_polygons.iter().enumerate() {
+        let mut cx = (0.0, 0.0, 0.0);
+        for p in &mp.0 {
+            let mut d = String::new();
+            for (j, c) in p.exterior().0.iter().enumerate() {
+                let _ = write!(
+                    d,
+                    "{}{:.1},{:.1} ",
+                    if j == 0 { "M" } else { "L" },
+                    x(c.x),
+                    y(c.y)
+                );
+                cx = (cx.0 + c.x, cx.1 + c.y, cx.2 + 1.0);
+            }
+            let _ = write!(
+                out,
+                r##"<path d="{d}Z" fill="{}" fill-opacity="0.08" stroke="#34495e" stroke-width="1.2"/>"##,
+                ZONE_COLOURS[i % ZONE_COLOURS.len()]
+            );
+        }
+        if cx.2 > 0.0 {
+            labels.push((x(cx.0 / cx.2), y(cx.1 / cx.2), esc(id)));
+        }
+    }
+    for p in &r.map_points {
+        let _ = write!(
+            out,
+            r#"<circle cx="{:.1}" cy="{:.1}" r="1.6" fill="{}"/>"#,
+            x(p.lon),
+            y(p.lat),
+            ratio_colour(p.ratio)
+        );
+    }
+    for (lx, ly, id) in labels {
+        let _ = write!(
+            out,
+            r#"<text x="{lx:.1}" y="{ly:.1}" class="zlabel">{id}</text>"#
+        );
+    }
+    // Axes in degrees.
+    let lt = ticks(lon.0, lon.1, 5);
+    let step_lon = if lt.len() > 1 { lt[1] - lt[0] } else { 1.0 };
+    for t in &lt {
+        let _ = write!(
+            out,
+            r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4}</text>"##,
+            x(*t),
+            h - m,
+            h - m + 5.0,
+            h - m + 18.0,
+            fmt_tick(*t, step_lon)
+        );
+    }
+    let la = ticks(lat.0, lat.1, 5);
+    let step_lat = if la.len() > 1 { la[1] - la[0] } else { 1.0 };
+    for t in &la {
+        let _ = write!(
+            out,
+            r##"<line x1="{0}" y1="{1:.1}" x2="{2}" y2="{1:.1}" stroke="#555"/><text x="{3}" y="{1:.1}" class="tick" text-anchor="end" dy="4">{4}</text>"##,
+            m - 5.0,
+            y(*t),
+            m,
+            m - 8.0,
+            fmt_tick(*t, step_lat)
+        );
+    }
+    let _ = write!(
+        out,
+        r#"<text x="{}" y="{}" class="axis" text-anchor="middle">Longitude (degrees east, WGS 84)</text>"#,
+        w / 2.0,
+        h - 12.0
+    );
+    let _ = write!(
+        out,
+        r#"<text x="14" y="{}" class="axis" text-anchor="middle" transform="rotate(-90 14 {})">Latitude (degrees north)</text>"#,
+        h / 2.0,
+        h / 2.0
+    );
+    // Legend.
+    let items = [
+        ("≤ 0.5", 0.4),
+        ("0.5–0.8", 0.7),
+        ("0.8–1.0", 0.9),
+        ("1.0–1.5", 1.2),
+        ("> 1.5", 2.0),
+    ];
+    let _ = write!(
+        out,
+        r#"<text x="{}" y="20" class="tick">U95 / allowed ({})</text>"#,
+        w - 190.0,
+        esc(&r.chosen_order.name)
+    );
+    for (i, (label, v)) in items.iter().enumerate() {
+        let yy = 32.0 + 16.0 * i as f64;
+        let _ = write!(
+            out,
+            r#"<circle cx="{}" cy="{yy}" r="5" fill="{}"/><text x="{}" y="{}" class="tick">{label}</text>"#,
+            w - 180.0,
+            ratio_colour(*v),
+            w - 168.0,
+            yy + 4.0
+        );
+    }
+    out.push_str("</svg>");
+}
+
+fn tide_svg(r: &QaReport, out: &mut String) {
+    let (w, h, ml, mr, mt, mb) = (720.0, 380.0, 60.0, 120.0, 20.0, 50.0);
+    let t0 = r
+        .tide_series
+        .iter()
+        .filter_map(|s| s.times_s.first())
+        .cloned()
+        .fold(f64::INFINITY, f64::min);
+    let t1 = r
+        .tide_series
+        .iter()
+        .filter_map(|s| s.times_s.last())
+        .cloned()
+        .fold(f64::NEG_INFINITY, f64::max);
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    for s in &r.tide_series {
+        for (t, u) in s.tide_m.iter().zip(&s.u95_tide_m) {
+            if let (Some(t), Some(u)) = (t, u) {
+                lo = lo.min(t - u);
+                hi = hi.max(t + u);
+            }
+        }
+    }
+    if t1.partial_cmp(&t0) != Some(std::cmp::Ordering::Greater) || !lo.is_finite() {
+        return;
+    }
+    let (lo, hi) = (lo - 0.1, hi + 0.1);
+    let hours = (t1 - t0) / 3600.0;
+    let x = |t: f64| ml + (t - t0) / 3600.0 / hours * (w - ml - mr);
+    let y = |v: f64| mt + (hi - v) / (hi - lo) * (h - mt - mb);
+    let _ = write!(
+        out,
+        r#"<svg class="plot" viewBox="0 0 {w} {h}" role="img" aria-labelledby="tide-title"><title id="tide-title">Tide above chart datum per zone with its 95 % band</title>"#
+    );
+    let yt = ticks(lo, hi, 6);
+    let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };
+    for v in &yt {
+        let _ = write!(
+            out,
+            r##"<line x1="{ml}" y1="{0:.1}" x2="{1}" y2="{0:.1}" stroke="#e3e8ee"/><text x="{2}" y="{0:.1}" dy="4" class="tick" text-anchor="end">{3}</text>"##,
+            y(*v),
+            w - mr,
+            ml - 6.0,
+            fmt_tick(*v, ys)
+        );
+    }
+    let start_label = r
+        .tide_series
+        .first()
+        .and_then(|s| s.times_utc.first())
+        .cloned()
+        .unwrap_or_default();
+    for hr in ticks(0.0, hours, 8) {
+        let xx = x(t0 + hr * 3600.0);
+        let _ = write!(
+            out,
+            r##"<line x1="{xx:.1}" y1="{0}" x2="{xx:.1}" y2="{1}" stroke="#555"/><text x="{xx:.1}" y="{2}" class="tick" text-anchor="middle">{3}</text>"##,
+            h - mb,
+            h - mb + 5.0,
+            h - mb + 18.0,
+            fmt_tick(hr, 1.0)
+        );
+    }
+    let _ = write!(
+        out,
+        r#"<text x="{}" y="{}" class="axis" text-anchor="middle">Hours after {} (UTC)</text>"#,
+        (ml + w - mr) / 2.0,
+        h - 10.0,
+        esc(&start_label)
+    );
+    let _ = write!(
+        out,
+        r#"<text x="16" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 16 {0})">Tide above chart datum (m)</text>"#,
+        (mt + h - mb) / 2.0
+    );
+    for (i, s) in r.tide_series.iter().enumerate() {
+        let col = ZONE_COLOURS[i % ZONE_COLOURS.len()];
+        // Band and line, split where there is no data.
+        let mut runs: Vec<Vec<(f64, f64, f64)>> = vec![Vec::new()];
+        for ((t, v), u) in s.times_s.iter().zip(&s.tide_m).zip(&s.u95_tide_m) {
+            match (v, u) {
+                (Some(v), Some(u)) => runs.last_mut().expect("one run").push((*t, *v, *u)),
+                _ => {
+                    if !runs.last().expect("one run").is_empty() {
+                        runs.push(Vec::new());
+                    }
+                }
+            }
+        }
+        for run in runs.iter().filter(|r| r.len() > 1) {
+            let mut band = String::new();
+            for (j, (t, v, u)) in run.iter().enumerate() {
+                let _ = write!(
+                    band,
+                    "{}{:.1},{:.1} ",
+                    if j == 0 { "M" } else { "L" },
+                    x(*t),
+                    y(v + u)
+                );
+            }
+            for (t, v, u) in run.iter().rev() {
+                let _ = write!(band, "L{:.1},{:.1} ", x(*t), y(v - u));
+            }
+            let _ = write!(
+                out,
+                r#"<path d="{band}Z" fill="{col}" fill-opacity="0.12" stroke="none"/>"#
+            );
+            let mut line = String::new();
+            for (j, (t, v, _)) in run.iter().enumerate() {
+                let _ = write!(
+                    line,
+                    "{}{:.1},{:.1} ",
+                    if j == 0 { "M" } else { "L" },
+                    x(*t),
+                    y(*v)
+                );
+            }
+            let _ = write!(
+                out,
+                r#"<path d="{line}" fill="none" stroke="{col}" stroke-width="1.6"/>"#
+            );
+        }
+        let yy = mt + 14.0 + 16.0 * i as f64;
+        let _ = write!(
+            out,
+            r#"<line x1="{0}" y1="{yy}" x2="{1}" y2="{yy}" stroke="{col}" stroke-width="3"/><text x="{2}" y="{3}" class="tick">{4}</text>"#,
+            w - mr + 12.0,
+            w - mr + 32.0,
+            w - mr + 38.0,
+            yy + 4.0,
+            esc(&s.zone)
+        );
+    }
+    let yb = mt + 30.0 + 16.0 * r.tide_series.len() as f64;
+    let _ = write!(
+        out,
+        r#"<text x="{0}" y="{yb}" class="tick">shaded band:</text><text x="{0}" y="{1}" class="tick">tide ± U95</text><text x="{0}" y="{2}" class="tick">(k = 1.96)</text>"#,
+        w - mr + 12.0,
+        yb + 14.0,
+        yb + 28.0
+    );
+    out.push_str("</svg>");
+}
+
+fn budget_svg(r: &QaReport, out: &mut String) {
+    let rows: Vec<(&str, Vec<f64>)> = std::iter::once(&r.survey)
+        .chain(r.zones.iter())
+        .filter_map(|g| {
+            g.budget.as_ref().filter(|b| b.soundings > 0).map(|b| {
+                (
+                    g.id.as_str(),
+                    b.components.iter().map(|c| c.mean_share).collect(),
+                )
+            })
+        })
+        .collect();
+    let (w, ml, mr, bar, gap) = (720.0, 80.0, 30.0, 22.0, 10.0);
+    let h = 70.0 + rows.len() as f64 * (bar + gap) + 40.0;
+    let x = |s: f64| ml + s * (w - ml - mr);
+    let _ = write!(
+        out,
+        r#"<svg class="plot" viewBox="0 0 {w} {h}" role="img" aria-labelledby="budget-title"><title id="budget-title">Mean share of each component of u_tvu squared, per zone</title>"#
+    );
+    for (i, (id, shares)) in rows.iter().enumerate() {
+        let yy = 20.0 + i as f64 * (bar + gap);
+        let mut acc = 0.0;
+        for (k, s) in shares.iter().enumerate() {
+            let _ = write!(
+                out,
+                r#"<rect x="{:.1}" y="{yy}" width="{:.1}" height="{bar}" fill="{}"><title>{}: {}</title></rect>"#,
+                x(acc),
+                s * (w - ml - mr),
+                COMPONENT_COLOURS[k],
+                BUDGET_COMPONENTS[k],
+                pct(*s)
+            );
+            acc += s;
+        }
+        let _ = write!(
+            out,
+            r#"<text x="{}" y="{}" class="tick" text-anchor="end">{}</text>"#,
+            ml - 6.0,
+            yy + bar / 2.0 + 4.0,
+            esc(id)
+        );
+    }
+    let base = 20.0 + rows.len() as f64 * (bar + gap);
+    for t in [0.0, 0.25, 0.5, 0.75, 1.0] {
+        let _ = write!(
+            out,
+            r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4:.0}</text>"##,
+            x(t),
+            base,
+            base + 5.0,
+            base + 18.0,
+            100.0 * t
+        );
+    }
+    let _ = write!(
+        out,
+        r#"<text x="{}" y="{}" class="axis" text-anchor="middle">Mean share of u_tvu² (%)</text>"#,
+        (ml + w - mr) / 2.0,
+        base + 34.0
+    );
+    for (k, name) in BUDGET_COMPONENTS.iter().enumerate() {
+        let xx = ml + k as f64 * 100.0;
+        let _ = write!(
+            out,
+            r#"<rect x="{xx}" y="{}" width="12" height="12" fill="{}"/><text x="{}" y="{}" class="tick">{name}</text>"#,
+            base + 44.0,
+            COMPONENT_COLOURS[k],
+            xx + 16.0,
+            base + 54.0
+        );
+    }
+    out.push_str("</svg>");
+}
+
+fn histogram_svg(r: &QaReport, out: &mut String) {
+    let (w, h, ml, mr, mt, mb) = (720.0, 300.0, 70.0, 20.0, 20.0, 50.0);
+    let c = &r.ratio_histogram.counts;
+    let bw = r.ratio_histogram.bin_width;
+    let max = c.iter().cloned().max().unwrap_or(0).max(1) as f64;
+    let xmax = c.len() as f64 * bw;
+    let x = |v: f64| ml + v / xmax * (w - ml - mr);
+    let y = |n: f64| mt + (1.0 - n / max) * (h - mt - mb);
+    let _ = write!(
+        out,
+        r#"<svg class="plot" viewBox="0 0 {w} {h}" role="img" aria-labelledby="hist-title"><title id="hist-title">Histogram of U95 TVU over allowed TVU</title>"#
+    );
+    for (i, n) in c.iter().enumerate() {
+        if *n == 0 {
+            continue;
+        }
+        let r0 = i as f64 * bw;
+        let _ = write!(
+            out,
+            r#"<rect x="{:.1}" y="{:.1}" width="{:.1}" height="{:.1}" fill="{}"><title>{:.2}–{:.2}: {n}</title></rect>"#,
+            x(r0),
+            y(*n as f64),
+            (x(r0 + bw) - x(r0) - 0.5).max(0.5),
+            h - mb - y(*n as f64),
+            ratio_colour(r0 + bw / 2.0),
+            r0,
+            r0 + bw
+        );
+    }
+    let _ = write!(
+        out,
+        r##"<line x1="{0:.1}" y1="{mt}" x2="{0:.1}" y2="{1}" stroke="#222" stroke-dasharray="5 4"/><text x="{2:.1}" y="{3}" class="tick">limit</text>"##,
+        x(1.0),
+        h - mb,
+        x(1.0) + 4.0,
+        mt + 10.0
+    );
+    for t in ticks(0.0, xmax, 6) {
+        let _ = write!(
+            out,
+            r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4:.1}</text>"##,
+            x(t),
+            h - mb,
+            h - mb + 5.0,
+            h - mb + 18.0,
+            t
+        );
+    }
+    let yt = ticks(0.0, max, 4);
+    for t in &yt {
+        let _ = write!(
+            out,
+            r##"<text x="{}" y="{:.1}" dy="4" class="tick" text-anchor="end">{:.0}</text>"##,
+            ml - 6.0,
+            y(*t),
+            t
+        );
+    }
+    let _ = write!(
+        out,
+        r#"<text x="{}" y="{}" class="axis" text-anchor="middle">U95 TVU / allowed TVU for order {} (last bin: ≥ {:.1})</text>"#,
+        (ml + w - mr) / 2.0,
+        h - 10.0,
+        esc(&r.chosen_order.name),
+        xmax - bw
+    );
+    let _ = write!(
+        out,
+        r#"<text x="16" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 16 {0})">Soundings</text>"#,
+        (mt + h - mb) / 2.0
+    );
+    out.push_str("</svg>");
+}
+
+/// Renders the report as one HTML page.
+pub fn render_html(r: &QaReport) -> String {
+    let mut o = String::with_capacity(256 * 1024);
+    let achieved = r
+        .achieved_order
+        .as_deref()
+        .unwrap_or("none of the built-in orders");
+    let _ = write!(
+        o,
+        r#"<!DOCTYPE html>
+<html lang="en"><head><meta charset="utf-8"><title>QA report — {name}</title>
+<style>
+body {{ font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; margin: 0; color: #1d2a36; background: #fff; }}
+header {{ background: #12324d; color: #fff; padding: 18px 28px; }}
+header h1 {{ margin: 0 0 4px; font-size: 22px; }}
+main {{ padding: 8px 28px 40px; max-width: 1100px; }}
+.verdict {{ font-size: 18px; padding: 12px 16px; border-left: 6px solid #2e8b57; background: #eef7f1; margin: 16px 0; }}
+.verdict.fail {{ border-color: #c0262d; background: #fbeeee; }}
+.caution {{ font-size: 13px; background: #fff7e0; border: 1px solid #e9c46a; padding: 8px 12px; }}
+table {{ border-collapse: collapse; margin: 8px 0 18px; font-size: 13px; }}
+th, td {{ border-bottom: 1px solid #dde3ea; padding: 4px 10px; text-align: right; }}
+th:first-child, td:first-child {{ text-align: left; }}
+th {{ background: #f0f4f8; }}
+td.no {{ color: #c0262d; font-weight: bold; }} td.yes {{ color: #1b7f4c; }}
+svg.plot {{ width: 100%; max-width: 760px; height: auto; display: block; margin: 6px 0 18px; background: #fff; }}
+svg .tick {{ font-size: 11px; fill: #2c3e50; }} svg .axis {{ font-size: 12px; fill: #1d2a36; }}
+svg .zlabel {{ font-size: 13px; font-weight: bold; fill: #12324d; text-anchor: middle; paint-order: stroke; stroke: #fff; stroke-width: 4px; stroke-linejoin: round; }}
+h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; font-size: 18px; }}
+</style></head><body>
+<header><h1>Reduction QA report</h1><div>{name} · neap {ver} · report layout {schema}</div></header>
+<main>
+<p class="caution">{caution}</p>
+"#,
+        name = esc(&r.project_name),
+        ver = r.neap_version,
+        schema = r.schema,
+        caution = esc(r.caution)
+    );
+    let fail = !r.survey.meets_chosen;
+    let _ = write!(
+        o,
+        r#"<div class="verdict{}">Chosen order <b>{}</b>: {} of {} reduced soundings within the allowed TVU (acceptance {}) — <b>{}</b>. Strictest order met: <b>{}</b>. Dominant component of u_tvu²: <b>{}</b>.</div>"#,
+        if fail { " fail" } else { "" },
+        esc(&r.chosen_order.name),
+        pct(r.survey.share_within_chosen),
+        r.survey.soundings,
+        pct(r.acceptance_share),
+        if fail { "not met" } else { "met" },
+        esc(achieved),
+        esc(&r.dominant_component)
+    );
+    o.push_str("<table><tr><th>status</th><th>soundings</th></tr>");
+    for (s, n) in r.rows_by_status.iter() {
+        let _ = write!(o, "<tr><td>{s}</td><td>{n}</td></tr>");
+    }
+    o.push_str("</table>");
+    o.push_str("<h2>Survey orders</h2><table><tr><th>order</th><th>a (m, 95 %)</th><th>b (95 %)</th><th>THU (95 %)</th><th>share within</th><th>met</th></tr>");
+    for (ord, sh) in r.orders.iter().zip(&r.survey.orders) {
+        let _ = write!(
+            o,
+            r#"<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class="{}">{}</td></tr>"#,
+            esc(&ord.name),
+            ord.a_m,
+            ord.b,
+            esc(&ord.thu_max95),
+            pct(sh.share_within),
+            if sh.met { "yes" } else { "no" },
+            if sh.met { "yes" } else { "no" }
+        );
+    }
+    o.push_str("</table><p>Allowed TVU at 95 %: sqrt(a² + (b·d)²) with d the reduced depth (0 for drying heights), IHO S-44 Edition 6.1.0 Table 1. Orders 1a and 1b share their TVU limit and differ in feature detection and coverage.</p>");
+    o.push_str("<h2>Map: soundings coloured by U95 / allowed</h2>");
+    map_svg(r, &mut o);
+    o.push_str("<h2>Tide per zone and its 95 % band</h2>");
+    tide_svg(r, &mut o);
+    o.push_str("<h2>Uncertainty budget per zone</h2>");
+    budget_svg(r, &mut o);
+    o.push_str("<table><tr><th>zone</th><th>soundings</th>");
+    for c in BUDGET_COMPONENTS {
+        let _ = write!(o, "<th>{c} mean / P95</th>");
+    }
+    o.push_str("<th>dominant</th></tr>");
+    for g in std::iter::once(&r.survey).chain(r.zones.iter()) {
+        if let Some(b) = &g.budget {
+            let _ = write!(o, "<tr><td>{}</td><td>{}</td>", esc(&g.id), b.soundings);
+            for c in &b.components {
+                let _ = write!(o, "<td>{} / {}</td>", pct(c.mean_share), pct(c.p95_share));
+            }
+            let _ = write!(o, "<td>{}</td></tr>", b.dominant_component);
+        }
+    }
+    o.push_str("</table>");
+    o.push_str("<h2>U95 / allowed</h2>");
+    histogram_svg(r, &mut o);
+    o.push_str("<h2>Zones</h2><table><tr><th>zone</th><th>soundings</th><th>within chosen</th><th>P95 of U95/allowed</th><th>strictest order met</th><th>meets chosen</th></tr>");
+    for g in &r.zones {
+        let yn = if g.meets_chosen { "yes" } else { "no" };
+        let _ = write!(
+            o,
+            r#"<tr><td>{}</td><td>{}</td><td>{}</td><td>{:.2}</td><td>{}</td><td class="{yn}">{yn}</td></tr>"#,
+            esc(&g.id),
+            g.soundings,
+            pct(g.share_within_chosen),
+            g.p95_ratio_chosen,
+            g.strictest_order_met.as_deref().unwrap_or("none")
+        );
+    }
+    o.push_str("</table>");
+    let _ = write!(
+        o,
+        "<h2>Zones and lines that fail order {}</h2>",
+        esc(&r.chosen_order.name)
+    );
+    if r.failing_zones.is_empty() && r.failing_lines.is_empty() {
+        o.push_str("<p>None.</p>");
+    } else {
+        o.push_str("<table><tr><th>zone / line</th><th>soundings</th><th>within</th><th>short of acceptance by</th><th>P95 of U95/allowed</th></tr>");
+        for f in r
+            .failing_zones
+            .iter()
+            .map(|f| ("zone", f))
+            .chain(r.failing_lines.iter().map(|f| ("line", f)))
+        {
+            let _ = write!(
+                o,
+                "<tr><td>{} {}</td><td>{}</td><td>{}</td><td>{}</td><td>{:.2}</td></tr>",
+                f.0,
+                esc(&f.1.id),
+                f.1.soundings,
+                pct(f.1.share_within),
+                pct(f.1.shortfall),
+                f.1.p95_ratio
+            );
+        }
+        o.push_str("</table>");
+    }
+    o.push_str("<h2>Uncertainty inputs (standard, 1σ)</h2><table><tr><th>gauge</th><th>u_gauge (m)</th><th>u_datum (m)</th></tr>");
+    for g in &r.inputs.gauges {
+        let _ = write!(
+            o,
+            "<tr><td>{}</td><td>{:.3}</td><td>{:.3}</td></tr>",
+            esc(&g.gauge),
+            g.u_gauge_m,
+            g.u_datum_m
+        );
+    }
+    o.push_str("</table><table><tr><th>zone</th><th>u_time_corrector (min)</th><th>u_range_ratio</th><th>u_zone (m)</th></tr>");
+    for z in &r.inputs.zones {
+        let _ = write!(
+            o,
+            "<tr><td>{}</td><td>{:.1}</td><td>{:.3}</td><td>{:.3}</td></tr>",
+            esc(&z.zone),
+            z.u_time_corrector_min,
+            z.u_range_ratio,
+            z.u_zone_m
+        );
+    }
+    let _ = write!(
+        o,
+        "</table><p>Sounding model (where no per-sounding column): u = sqrt({}² + ({}·d)²) m.</p>",
+        r.inputs.sounding_a_m, r.inputs.sounding_b
+    );
+    if !r.inputs.defaulted.is_empty() {
+        let _ = write!(o, "<p><b>Using the project's default values (demo values unless the project sets them):</b> {}.</p>", esc(&r.inputs.defaulted.join("; ")));
+    }
+    o.push_str("<p>Tide uncertainty by first-order GUM propagation (JCGM 100:2008) through the zoning model; 95 % expansion with k = 1.96.</p></main></body></html>\n");
+    o
+}

@@ -1,0 +1,194 @@
+//! The QA report of the demo survey: schema-valid JSON, consistent per-sounding columns,
+//! budgets whose shares sum to 1, and an HTML page with its four plots and no outside resources.
+
+use super::{neap, read_csv, repo, stderr};
+
+fn reduce_demo(extra: &[&str]) -> (tempfile::TempDir, String) {
+    let out = tempfile::tempdir().unwrap();
+    let mut args = vec![
+        "reduce",
+        repo()
+            .join("zoning-demo/project.toml")
+            .to_str()
+            .unwrap()
+            .to_string()
+            .leak() as &str,
+        "--out",
+        out.path().to_str().unwrap().to_string().leak(),
+        "--no-progress",
+    ];
+    args.extend_from_slice(extra);
+    let o = neap(&args);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    (out, stderr(&o))
+}
+
+#[test]
+fn json_report_is_schema_valid_and_consistent() {
+    let (out, err) = reduce_demo(&[]);
+    let report: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let schema: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(repo().join("docs/qa-report.schema.json")).unwrap())
+            .unwrap();
+    let validator = jsonschema::validator_for(&schema).unwrap();
+    let errors: Vec<String> = validator
+        .iter_errors(&report)
+        .map(|e| format!("{} at {}", e, e.instance_path))
+        .collect();
+    assert!(errors.is_empty(), "{errors:#?}");
+    // The schema itself can fail: a report missing a field is rejected.
+    let mut broken = report.clone();
+    broken.as_object_mut().unwrap().remove("survey");
+    assert!(!validator.is_valid(&broken));
+
+    // Budget shares sum to 1 overall and per zone.
+    for g in std::iter::once(&report["survey"]).chain(report["zones"].as_array().unwrap()) {
+        let total: f64 = g["budget"]["components"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|c| c["mean_share"].as_f64().unwrap())
+            .sum();
+        assert!((total - 1.0).abs() < 1e-9, "{}: {total}", g["id"]);
+    }
+    let reduced = report["rows_by_status"]["reduced"].as_u64().unwrap();
+    assert_eq!(report["survey"]["soundings"].as_u64(), Some(reduced));
+    let zone_sum: u64 = report["zones"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|z| z["soundings"].as_u64().unwrap())
+        .sum();
+    assert_eq!(zone_sum, reduced);
+    // The demo's verdict, as the README shows it.
+    assert_eq!(report["chosen_order"]["name"], "special");
+    assert_eq!(report["achieved_order"], "1a");
+    let dominant = report["dominant_component"].as_str().unwrap();
+    assert!(
+        err.contains(&format!(
+            "strictest order met: 1a; dominant component: {dominant}"
+        )),
+        "{err}"
+    );
+    assert!(
+        err.contains("order special: ") && err.contains("NOT MET"),
+        "{err}"
+    );
+    assert!(!report["failing_zones"].as_array().unwrap().is_empty());
+}
+
+#[test]
+fn per_sounding_columns_follow_their_formulas() {
+    let (out, _) = reduce_demo(&[]);
+    let (h, rows) = read_csv(&out.path().join("launch-a.reduced.csv"));
+    let c = |n: &str| {
+        h.iter()
+            .position(|x| x == n)
+            .unwrap_or_else(|| panic!("no column {n}"))
+    };
+    let f = |r: &Vec<String>, n: &str| r[c(n)].parse::<f64>().unwrap();
+    let mut checked = 0;
+    for r in rows.iter().filter(|r| r[c("status")] == "reduced") {
+        let comps: f64 = [
+            "u_tide_gauge_m",
+            "u_tide_datum_m",
+            "u_tide_range_m",
+            "u_tide_timing_m",
+            "u_tide_zone_m",
+        ]
+        .iter()
+        .map(|n| f(r, n).powi(2))
+        .sum();
+        // Columns are rounded to 0.1 mm: allow 3e-4 m.
+        assert!((comps.sqrt() - f(r, "u_tide_m")).abs() < 3e-4);
+        let tvu = f(r, "u_sounding_m").hypot(f(r, "u_tide_m"));
+        assert!((tvu - f(r, "u_tvu_m")).abs() < 3e-4);
+        assert!((1.96 * f(r, "u_tvu_m") - f(r, "u95_tvu_m")).abs() < 3e-4);
+        // Special order (S-44 6.1.0): a = 0.25 m, b = 0.0075; d = reduced depth, 0 when drying.
+        let d = f(r, "reduced_depth_m").max(0.0);
+        assert!((0.25f64.hypot(0.0075 * d) - f(r, "allowed_u95_tvu_m")).abs() < 2e-4);
+        // Sounding model of the demo project: sqrt(0.05² + (0.003 · observed depth)²).
+        assert!((0.05f64.hypot(0.003 * f(r, "depth_m")) - f(r, "u_sounding_m")).abs() < 2e-4);
+        let within = r[c("within_order")] == "yes";
+        let margin = f(r, "allowed_u95_tvu_m") - f(r, "u95_tvu_m");
+        if margin.abs() > 2e-4 {
+            assert_eq!(within, margin > 0.0);
+        }
+        checked += 1;
+    }
+    assert!(checked > 40_000);
+    for r in rows.iter().filter(|r| r[c("status")] != "reduced") {
+        assert_eq!(r[c("u_tvu_m")], "");
+        assert_eq!(r[c("within_order")], "");
+    }
+}
+
+#[test]
+fn html_report_has_its_plots_and_no_outside_resources() {
+    let (out, _) = reduce_demo(&["--order", "1a"]);
+    let html = std::fs::read_to_string(out.path().join("qa-report.html")).unwrap();
+    let doc = scraper::Html::parse_document(&html);
+    let sel = |s: &str| scraper::Selector::parse(s).unwrap();
+    let titles: Vec<String> = doc
+        .select(&sel("svg.plot > title"))
+        .map(|t| t.text().collect())
+        .collect();
+    assert_eq!(titles.len(), 4, "{titles:?}");
+    for want in [
+        "Map of zones",
+        "Tide above chart datum",
+        "share of each component",
+        "Histogram of U95",
+    ] {
+        assert!(
+            titles.iter().any(|t| t.contains(want)),
+            "missing plot '{want}': {titles:?}"
+        );
+    }
+    let svgs: Vec<_> = doc.select(&sel("svg.plot")).collect();
+    assert!(svgs[0].select(&sel("circle")).count() > 1000, "map points");
+    assert_eq!(
+        svgs[0].select(&sel("path")).count(),
+        7,
+        "one outline per zone"
+    );
+    assert!(
+        svgs[1].select(&sel("path")).count() >= 14,
+        "a band and a line per zone"
+    );
+    assert!(
+        svgs[2].select(&sel("rect")).count() >= 8 * 6,
+        "stacked bars"
+    );
+    assert!(svgs[3].select(&sel("rect")).count() > 5, "histogram bars");
+    let axis_text: String = doc
+        .select(&sel("svg text.axis"))
+        .flat_map(|t| t.text())
+        .collect();
+    for unit in ["(degrees east", "(m)", "(%)", "Soundings", "(UTC)"] {
+        assert!(
+            axis_text.contains(unit),
+            "axis label with unit {unit}: {axis_text}"
+        );
+    }
+    assert!(html.contains("qualified hydrographic review"));
+    assert!(html.contains("Chosen order <b>1a</b>"));
+    for attr in ["src", "href"] {
+        let with_attr: Vec<_> = doc
+            .select(&sel(&format!("[{attr}]")))
+            .map(|e| format!("{:?}", e.value()))
+            .collect();
+        assert!(with_attr.is_empty(), "outside resources: {with_attr:?}");
+    }
+    assert!(!html.contains("<script"));
+}
+
+#[test]
+fn without_uncertainty_there_are_no_uncertainty_columns_and_no_report() {
+    let (out, err) = reduce_demo(&["--no-uncertainty"]);
+    let (h, _) = read_csv(&out.path().join("launch-b.reduced.csv"));
+    assert_eq!(h.last().map(String::as_str), Some("status_detail"));
+    assert!(!out.path().join("qa-report.json").exists());
+    assert!(err.contains("uncertainty: not computed"), "{err}");
+}
