@@ -159,9 +159,9 @@ pub struct QaAccumulator {
     pub n_orders: usize,
     /// Index of the chosen order.
     pub chosen: usize,
-    /// The whole survey.
+    /// The whole survey (filled by [`QaAccumulator::settle`]).
     pub overall: GroupQa,
-    /// Budget shares over the whole survey.
+    /// Budget shares over the whole survey (filled by [`QaAccumulator::settle`]).
     pub overall_budget: BudgetQa,
     /// Per zone (index = zone index).
     pub zones: Vec<(GroupQa, BudgetQa)>,
@@ -169,6 +169,9 @@ pub struct QaAccumulator {
     pub lines: BTreeMap<String, GroupQa>,
     /// A thinned sample of soundings for the map.
     pub samples: Vec<MapSample>,
+    /// The last line added and its counts, kept out of the map while soundings of one line
+    /// follow each other (they usually do).
+    current_line: Option<(String, GroupQa)>,
 }
 
 impl QaAccumulator {
@@ -182,7 +185,33 @@ impl QaAccumulator {
             zones: vec![(GroupQa::new(n_orders), BudgetQa::default()); n_zones],
             lines: BTreeMap::new(),
             samples: Vec::new(),
+            current_line: None,
         }
+    }
+
+    fn park_current_line(&mut self) {
+        if let Some((k, g)) = self.current_line.take() {
+            match self.lines.get_mut(&k) {
+                Some(a) => a.merge(&g),
+                None => {
+                    self.lines.insert(k, g);
+                }
+            }
+        }
+    }
+
+    /// Folds the pending line counts into `lines` and sums the zones into the survey totals
+    /// (every sounding lies in exactly one zone); call before reading `overall` or `lines`.
+    pub fn settle(&mut self) {
+        self.park_current_line();
+        let mut overall = GroupQa::new(self.n_orders);
+        let mut budget = BudgetQa::default();
+        for (g, b) in &self.zones {
+            overall.merge(g);
+            budget.merge(b);
+        }
+        self.overall = overall;
+        self.overall_budget = budget;
     }
 
     /// Adds one reduced sounding: its zone, line, per-order U95/allowed ratios and the
@@ -199,21 +228,19 @@ impl QaAccumulator {
             }
             g.ratio_hist[bin] += 1;
         };
-        bump(&mut self.overall);
         bump(&mut self.zones[zone].0);
         if !self.lines.contains_key(line) {
             self.lines
                 .insert(line.to_string(), GroupQa::new(self.n_orders));
         }
         bump(self.lines.get_mut(line).expect("inserted above"));
-        self.overall_budget.add(var_m2);
         self.zones[zone].1.add(var_m2);
     }
 
     /// Merges another accumulator into this one (samples appended in order).
-    pub fn merge(&mut self, o: QaAccumulator) {
-        self.overall.merge(&o.overall);
-        self.overall_budget.merge(&o.overall_budget);
+    pub fn merge(&mut self, mut o: QaAccumulator) {
+        self.park_current_line();
+        o.park_current_line();
         for (a, b) in self.zones.iter_mut().zip(&o.zones) {
             a.0.merge(&b.0);
             a.1.merge(&b.1);
@@ -363,6 +390,7 @@ mod tests {
                 &[1.0, 0.0, 0.0, 0.0, 0.0, 0.0],
             );
         }
+        acc.settle();
         let s = summarise_group(
             "survey",
             &acc.overall,
@@ -402,6 +430,7 @@ mod tests {
             if i < 20 { &mut a } else { &mut b }.add(i % 2, &format!("L{}", i % 3), &[r; 5], &v);
         }
         a.merge(b);
+        one.settle();
         let s1 = summarise_group(
             "x",
             &one.zones[1].0,

@@ -24,6 +24,9 @@ pub struct LevelAt {
     /// Rate of change of the level, metres per second (used by the timing term of the
     /// uncertainty budget).
     pub rate_m_per_s: f64,
+    /// Index `i` of the samples bracketing the instant (`times_s[i] <= t <= times_s[i+1]`), so
+    /// that a series on the same times can be interpolated without a second search.
+    pub bracket: usize,
 }
 
 /// Why a series has no level at an instant.
@@ -93,8 +96,23 @@ impl LevelSeries {
     /// Index `i` such that `times_s[i] <= t_s < times_s[i+1]`, with the record's ends handled by
     /// the caller. Requires at least two samples and `times_s[0] <= t_s <= last`.
     fn bracket(&self, t_s: f64) -> usize {
+        let n = self.times_s.len();
+        // Records are nearly regular: guess from the mean spacing, then step to the bracket; fall
+        // back to a binary search when the guess is far off.
+        let (t0, tn) = (self.times_s[0], self.times_s[n - 1]);
+        let guess = (((t_s - t0) / (tn - t0)) * (n - 1) as f64) as usize;
+        let mut i = guess.min(n - 2);
+        for _ in 0..4 {
+            if self.times_s[i] > t_s && i > 0 {
+                i -= 1;
+            } else if self.times_s[i + 1] <= t_s && i + 2 < n {
+                i += 1;
+            } else {
+                return i;
+            }
+        }
         let i = self.times_s.partition_point(|&x| x <= t_s);
-        i.saturating_sub(1).min(self.times_s.len() - 2)
+        i.saturating_sub(1).min(n - 2)
     }
 
     /// Checks record ends and the gap rule; returns the bracketing index when usable.
@@ -127,6 +145,19 @@ impl LevelSeries {
     }
 }
 
+impl LevelSeries {
+    /// Linear interpolation of this series at `t_s` between samples `i` and `i + 1` (a bracket
+    /// found on another series with the same times).
+    pub fn linear_in_bracket(&self, i: usize, t_s: f64) -> f64 {
+        if self.times_s.len() < 2 {
+            return self.heights_m.first().copied().unwrap_or(0.0);
+        }
+        let (t0, t1) = (self.times_s[i], self.times_s[i + 1]);
+        let (h0, h1) = (self.heights_m[i], self.heights_m[i + 1]);
+        h0 + (h1 - h0) * (t_s - t0) / (t1 - t0)
+    }
+}
+
 impl TimeInterpolation for Linear {
     fn level_at(&self, series: &LevelSeries, t_s: f64) -> Result<LevelAt, NoLevel> {
         let i = series.usable_bracket(t_s)?;
@@ -134,6 +165,7 @@ impl TimeInterpolation for Linear {
             return Ok(LevelAt {
                 height_m: series.heights_m[0],
                 rate_m_per_s: 0.0,
+                bracket: 0,
             });
         }
         let (t0, t1) = (series.times_s[i], series.times_s[i + 1]);
@@ -142,6 +174,7 @@ impl TimeInterpolation for Linear {
         Ok(LevelAt {
             height_m: h0 + rate * (t_s - t0),
             rate_m_per_s: rate,
+            bracket: i,
         })
     }
 
@@ -185,6 +218,25 @@ mod tests {
             other => panic!("expected a gap, got {other:?}"),
         }
         assert_relative_eq!(Linear.level_at(&s, 720.0).unwrap().height_m, 1.3);
+    }
+
+    #[test]
+    fn bracket_search_handles_irregular_records() {
+        // Samples crowded at the start, then sparse: the guess from mean spacing is far off.
+        let mut times: Vec<f64> = (0..100).map(|i| i as f64).collect();
+        times.extend((1..20).map(|i| 100.0 + i as f64 * 1000.0));
+        let s = LevelSeries {
+            heights_m: times.clone(),
+            times_s: times.clone(),
+            max_gap_s: 1e9,
+        };
+        for k in 0..times.len() - 1 {
+            for frac in [0.0, 0.3, 0.999] {
+                let t = times[k] + frac * (times[k + 1] - times[k]);
+                assert_eq!(s.usable_bracket(t).unwrap(), k, "t = {t}");
+                assert!((Linear.level_at(&s, t).unwrap().height_m - t).abs() < 1e-9);
+            }
+        }
     }
 
     #[test]

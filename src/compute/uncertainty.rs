@@ -100,7 +100,34 @@ pub fn robust_rate_m_per_s(
     fallback
 }
 
-/// Tide uncertainty budget of `zone` at UTC `t_s`, given the feed states its tide used.
+/// Each gauge's rate of change at its own samples ([`robust_rate_m_per_s`]), as a series that
+/// interpolates to the rate at any time: computed once per gauge so the hot loop needs no extra
+/// interpolation. Heights of the returned series are rates in m/s.
+pub fn rate_series(gauge: &Gauge, interp: &dyn TimeInterpolation) -> super::series::LevelSeries {
+    let s = &gauge.series;
+    let rates = s
+        .times_s
+        .iter()
+        .enumerate()
+        .map(|(i, &t)| {
+            let fallback = if s.times_s.len() < 2 {
+                0.0
+            } else {
+                let j = i.min(s.times_s.len() - 2);
+                (s.heights_m[j + 1] - s.heights_m[j]) / (s.times_s[j + 1] - s.times_s[j])
+            };
+            robust_rate_m_per_s(gauge, interp, t, fallback)
+        })
+        .collect();
+    super::series::LevelSeries {
+        times_s: s.times_s.clone(),
+        heights_m: rates,
+        max_gap_s: s.max_gap_s,
+    }
+}
+
+/// Tide uncertainty budget of `zone` at UTC `t_s`, given the feed states its tide used and each
+/// gauge's [`rate_series`].
 ///
 /// # Units
 /// Inputs as in [`GaugeUncertainty`] and [`ZoneUncertainty`]; variances in m².
@@ -109,7 +136,7 @@ pub fn tide_budget(
     gauges: &[Gauge],
     gauge_u: &[GaugeUncertainty],
     zone_u: &ZoneUncertainty,
-    interp: &dyn TimeInterpolation,
+    rates: &[super::series::LevelSeries],
     t_s: f64,
     states: &[FeedState],
 ) -> TideBudget {
@@ -124,7 +151,12 @@ pub fn tide_budget(
             MeanLevelForm::Scaled => st.level.height_m,
         };
         let shifted = t_s - feed.time_corrector_min * 60.0;
-        let rate = robust_rate_m_per_s(g, interp, shifted, st.level.rate_m_per_s);
+        let rs = &rates[feed.gauge];
+        let rate = if rs.times_s.len() == g.series.times_s.len() {
+            rs.linear_in_bracket(st.level.bracket, shifted)
+        } else {
+            st.level.rate_m_per_s
+        };
         v[0] += (wr * gu.u_gauge_m).powi(2);
         v[1] += (feed.weight * gu.u_datum_m).powi(2);
         v[2] += (feed.weight * r * zone_u.u_range_ratio).powi(2);
@@ -146,7 +178,7 @@ pub struct SoundingUncertaintyModel {
 impl SoundingUncertaintyModel {
     /// `u = sqrt(a² + (b·d)²)`, metres, for observed depth `d` (metres, positive down).
     pub fn u_m(&self, depth_m: f64) -> f64 {
-        self.a_m.hypot(self.b * depth_m)
+        (self.a_m * self.a_m + (self.b * depth_m).powi(2)).sqrt()
     }
 }
 
@@ -177,7 +209,7 @@ impl SurveyOrder {
     /// ```
     pub fn tvu_max95_m(&self, reduced_depth_m: f64) -> f64 {
         let d = reduced_depth_m.max(0.0);
-        self.a_m.hypot(self.b * d)
+        (self.a_m * self.a_m + (self.b * d).powi(2)).sqrt()
     }
 }
 
@@ -212,7 +244,7 @@ pub fn s44_order(name: &str) -> Option<SurveyOrder> {
 
 /// Total vertical uncertainty: `u_tvu = sqrt(u_sounding² + u_tide²)`, metres (standard).
 pub fn u_tvu_m(u_sounding_m: f64, u_tide_m: f64) -> f64 {
-    u_sounding_m.hypot(u_tide_m)
+    (u_sounding_m * u_sounding_m + u_tide_m * u_tide_m).sqrt()
 }
 
 #[cfg(test)]
@@ -247,6 +279,10 @@ mod tests {
         );
         // Drying heights use d = 0.
         assert_eq!(s44_order("special").unwrap().tvu_max95_m(-1.2), 0.25);
+    }
+
+    fn rates(g: &[Gauge]) -> Vec<LevelSeries> {
+        g.iter().map(|g| rate_series(g, &Linear)).collect()
     }
 
     /// A gauge with h(t) = M + A cos(ω t), sampled every minute over a day.
@@ -317,7 +353,7 @@ mod tests {
         let t = period_s / 4.0;
         let mut st = Vec::new();
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let b = tide_budget(&zone, &g, &gu, &zu, &Linear, t, &st);
+        let b = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st);
         let c = b.components_m();
         assert_relative_eq!(c[0], 0.024, epsilon = 1e-12);
         assert_relative_eq!(c[1], 0.04, epsilon = 1e-12);
@@ -329,12 +365,12 @@ mod tests {
         // At high water (t = 0 + one period): g − M = 1.5, ġ = 0: range = 1.5 × 0.03 = 0.045 m.
         let t = period_s;
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &Linear, t, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
         assert_relative_eq!(c[2], 0.045, max_relative = 1e-3);
         // Scaled form: the range term is driven by g itself: 4.0 × 0.03 = 0.12 m.
         let scaled = one_feed_zone(0.0, 1.2, MeanLevelForm::Scaled);
         scaled.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&scaled, &g, &gu, &zu, &Linear, t, &st).components_m();
+        let c = tide_budget(&scaled, &g, &gu, &zu, &rates(&g), t, &st).components_m();
         assert_relative_eq!(c[2], 0.12, max_relative = 1e-3);
     }
 
@@ -362,13 +398,13 @@ mod tests {
         // Mid-tide at the gauge's corrected time: t − 20 min = T/4.
         let t_mid = period_s / 4.0 + 1200.0;
         zone.tide_at(&g, &Linear, t_mid, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &Linear, t_mid, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t_mid, &st).components_m();
         let max = c.iter().cloned().fold(0.0, f64::max);
         assert_eq!(c[3], max, "timing dominates at mid-tide: {c:?}");
         // High water at the corrected time: t − 20 min = T.
         let t_hw = period_s + 1200.0;
         zone.tide_at(&g, &Linear, t_hw, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &Linear, t_hw, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t_hw, &st).components_m();
         assert!(c[3] < 1e-3, "timing vanishes at high water: {c:?}");
     }
 
@@ -440,7 +476,7 @@ mod tests {
             for t in [3.0 * 3600.0, 7.5 * 3600.0, 10.2 * 3600.0] {
                 let mut st = Vec::new();
                 zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-                let gum = tide_budget(zone, &g, &gu, &zu, &Linear, t, &st).u_tide_m();
+                let gum = tide_budget(zone, &g, &gu, &zu, &rates(&g), t, &st).u_tide_m();
                 let draws = 200_000;
                 let (mut sum, mut sum2) = (0.0, 0.0);
                 for _ in 0..draws {

@@ -19,7 +19,12 @@ pub struct AtomicFile {
     target: PathBuf,
     temp: PathBuf,
     writer: Option<BufWriter<File>>,
+    unsynced: usize,
 }
+
+/// Written bytes are handed to the disk every this many bytes, so that the final sync before the
+/// rename is short and the flushing overlaps with the work.
+const SYNC_EVERY_BYTES: usize = 64 << 20;
 
 impl AtomicFile {
     /// Creates the temporary file for `target`. Refuses to write over any of `inputs`.
@@ -44,6 +49,7 @@ impl AtomicFile {
             target: target.to_path_buf(),
             temp,
             writer: Some(BufWriter::with_capacity(256 * 1024, f)),
+            unsynced: 0,
         })
     }
 
@@ -54,11 +60,18 @@ impl AtomicFile {
 
     /// Writes bytes.
     pub fn write_all(&mut self, bytes: &[u8]) -> Result<(), IoError> {
-        self.writer
-            .as_mut()
-            .expect("writer present until commit")
-            .write_all(bytes)
-            .map_err(|e| IoError::file(&self.temp, e))
+        let w = self.writer.as_mut().expect("writer present until commit");
+        w.write_all(bytes)
+            .map_err(|e| IoError::file(&self.temp, e))?;
+        self.unsynced += bytes.len();
+        if self.unsynced >= SYNC_EVERY_BYTES {
+            self.unsynced = 0;
+            w.flush().map_err(|e| IoError::file(&self.temp, e))?;
+            w.get_ref()
+                .sync_data()
+                .map_err(|e| IoError::file(&self.temp, e))?;
+        }
+        Ok(())
     }
 
     /// Flushes, syncs and renames onto the target.

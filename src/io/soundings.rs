@@ -128,11 +128,11 @@ impl<R: Read> ChunkReader<R> {
 }
 
 fn memchr_last(b: u8, s: &[u8]) -> Option<usize> {
-    s.iter().rposition(|&c| c == b)
+    memchr::memrchr(b, s)
 }
 
 fn count_lines(s: &[u8]) -> u64 {
-    let n = s.iter().filter(|&&c| c == b'\n').count() as u64;
+    let n = memchr::memchr_iter(b'\n', s).count() as u64;
     if s.last().is_some_and(|&c| c != b'\n') {
         n + 1
     } else {
@@ -147,14 +147,28 @@ pub fn lines_of(chunk: &Chunk) -> impl Iterator<Item = (u64, &[u8])> {
     } else {
         &chunk.data
     };
-    let empty = data.is_empty() && chunk.data.is_empty();
-    data.split(|&c| c == b'\n')
-        .filter(move |_| !empty)
-        .enumerate()
-        .map(move |(i, l)| {
-            let l = l.strip_suffix(b"\r").unwrap_or(l);
-            (chunk.first_line + i as u64, l)
-        })
+    let mut start = 0usize;
+    let mut line = chunk.first_line;
+    let mut ends = memchr::memchr_iter(b'\n', data);
+    let mut finished = chunk.data.is_empty();
+    std::iter::from_fn(move || {
+        if finished {
+            return None;
+        }
+        let end = match ends.next() {
+            Some(e) => e,
+            None => {
+                finished = true;
+                data.len()
+            }
+        };
+        let l = &data[start..end];
+        let l = l.strip_suffix(b"\r").unwrap_or(l);
+        let item = (line, l);
+        start = end + 1;
+        line += 1;
+        Some(item)
+    })
 }
 
 /// The fields of one line.
@@ -220,8 +234,8 @@ impl Fields {
     /// Field `i` (trimmed), when present.
     pub fn get<'a>(&'a self, line: &'a str, i: usize) -> Option<&'a str> {
         match &self.quoted {
-            Some(r) => r.get(i).map(str::trim),
-            None => self.ranges.get(i).map(|&(s, e)| line[s..e].trim()),
+            Some(r) => r.get(i).map(str::trim_ascii),
+            None => self.ranges.get(i).map(|&(s, e)| line[s..e].trim_ascii()),
         }
     }
 }

@@ -52,6 +52,8 @@ pub struct UncertaintyConfig {
     pub acceptance_share: f64,
     /// Inputs that fell back to the project's defaults: `"gauge orlick: u_gauge_m"`, ….
     pub defaulted: Vec<String>,
+    /// Each gauge's rate of change as a series (for the timing term).
+    pub gauge_rates: Vec<crate::compute::series::LevelSeries>,
 }
 
 /// Reads gauges and zoning. Problems that make a reduction impossible are errors.
@@ -248,10 +250,11 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 chosen,
                 acceptance_share: u.acceptance_share,
                 defaulted,
+                gauge_rates: Vec::new(),
             })
         }
     };
-    let gauges = project
+    let gauges: Vec<Gauge> = project
         .spec
         .gauges
         .iter()
@@ -262,6 +265,13 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             mean_level_above_datum_m: g.mean_level_above_datum_m,
         })
         .collect();
+    let mut uncertainty = uncertainty;
+    if let Some(u) = uncertainty.as_mut() {
+        u.gauge_rates = gauges
+            .iter()
+            .map(|g| crate::compute::uncertainty::rate_series(g, &Linear))
+            .collect();
+    }
     Ok(Loaded {
         project,
         records,

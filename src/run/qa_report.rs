@@ -169,7 +169,9 @@ fn failing(g: &GroupSummary) -> Option<Failing> {
 /// Builds the QA report; `None` when the run computed no uncertainty.
 pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
     let u = loaded.uncertainty.as_ref()?;
-    let qa = run.qa.as_ref()?;
+    let mut qa = run.qa.clone()?;
+    qa.settle();
+    let qa = &qa;
     let acc = u.acceptance_share;
     let sum = |id: &str, g, b| summarise_group(id, g, b, &u.orders, u.n_builtin, u.chosen, acc);
     let survey = sum("survey", &qa.overall, Some(&qa.overall_budget));
@@ -295,7 +297,7 @@ pub fn tide_series(loaded: &Loaded, t0: f64, t1: f64) -> Vec<ZoneTideSeries> {
                             &loaded.gauges,
                             &u.gauge_u,
                             &u.zone_u[zi],
-                            loaded.interp.as_ref(),
+                            &u.gauge_rates,
                             t,
                             &states,
                         );

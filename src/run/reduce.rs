@@ -52,8 +52,11 @@ pub const UNCERTAINTY_COLUMNS: [&str; 11] = [
     "within_order",
 ];
 
-/// Decimals written for metres (0.1 mm).
+/// Decimals written for tide and depths in metres (0.1 mm).
 pub const METRE_DECIMALS: u32 = 4;
+
+/// Decimals written for uncertainties in metres (1 mm).
+pub const UNCERTAINTY_DECIMALS: u32 = 3;
 
 /// Chunks processed per parallel batch, per worker thread.
 const CHUNKS_PER_THREAD: usize = 3;
@@ -416,58 +419,118 @@ fn reduce_file(
     };
     let mut counts = [0u64; 4];
     let batch = CHUNKS_PER_THREAD * rayon::current_num_threads().max(1);
-    let mut pending = vec![first];
-    let mut spare: Vec<Vec<u8>> = Vec::new();
-    let mut done = false;
-    while !done || !pending.is_empty() {
-        while !done && pending.len() < batch {
-            match reader
-                .next_chunk(spare.pop().unwrap_or_default())
-                .map_err(|e| IoError::file(input, e))?
-            {
-                Some(c) => pending.push(c),
-                None => done = true,
+    // Three stages overlap: a reader thread cuts chunks, the rayon pool processes a batch of
+    // chunks, a writer thread writes the previous batch's output. Channels are bounded, so memory
+    // stays bounded whatever the file's size.
+    let (chunk_tx, chunk_rx) = std::sync::mpsc::sync_channel::<std::io::Result<Chunk>>(batch);
+    let (out_tx, out_rx) = std::sync::mpsc::sync_channel::<Vec<u8>>(batch);
+    let (used_tx, used_rx) = std::sync::mpsc::channel::<Vec<u8>>();
+    let (spare_tx, spare_rx) = std::sync::mpsc::channel::<Vec<u8>>();
+    let written: Result<AtomicFile, IoError> = std::thread::scope(|scope| {
+        scope.spawn(move || {
+            if chunk_tx.send(Ok(first)).is_err() {
+                return;
             }
-        }
-        let outs: Vec<ChunkOut> = pending
-            .par_iter()
-            .map(|c| process_chunk(c, &ctx, model))
-            .collect();
-        for (c, o) in pending.drain(..).zip(outs) {
-            sink.write_all(&o.bytes)?;
-            if let Some(b) = bar {
-                b.inc(c.data.len() as u64);
-            }
-            spare.push(c.data);
-            add_counts(&mut counts, &o.counts);
-            for (acc, zc) in summary.per_zone.iter_mut().zip(&o.per_zone) {
-                add_counts(acc, zc);
-            }
-            summary.blank_lines += o.blank;
-            for ex in o.examples {
-                let same = summary
-                    .examples
-                    .iter()
-                    .filter(|e| e.status == ex.status)
-                    .count();
-                if same < EXAMPLES_PER_STATUS {
-                    summary.examples.push(ex);
+            loop {
+                let buf = spare_rx.try_recv().unwrap_or_default();
+                match reader.next_chunk(buf) {
+                    Ok(Some(c)) => {
+                        if chunk_tx.send(Ok(c)).is_err() {
+                            return;
+                        }
+                    }
+                    Ok(None) => return,
+                    Err(e) => {
+                        let _ = chunk_tx.send(Err(e));
+                        return;
+                    }
                 }
             }
-            if let Some(q) = o.qa {
-                match &mut summary.qa {
-                    None => summary.qa = Some(q),
-                    Some(acc) => acc.merge(q),
+        });
+        let writer = scope.spawn(move || -> Result<AtomicFile, IoError> {
+            for bytes in out_rx {
+                sink.write_all(&bytes)?;
+                let _ = used_tx.send(bytes);
+            }
+            Ok(sink)
+        });
+        let mut pending: Vec<Chunk> = Vec::with_capacity(batch);
+        let mut done = false;
+        let mut read_error = None;
+        while !done {
+            while pending.len() < batch {
+                match chunk_rx.recv() {
+                    Ok(Ok(c)) => pending.push(c),
+                    Ok(Err(e)) => {
+                        read_error = Some(IoError::file(input, e));
+                        done = true;
+                        break;
+                    }
+                    Err(_) => {
+                        done = true;
+                        break;
+                    }
                 }
             }
-            if o.t_min <= o.t_max {
-                summary.time_range_s = Some(match summary.time_range_s {
-                    None => (o.t_min, o.t_max),
-                    Some((a, b)) => (a.min(o.t_min), b.max(o.t_max)),
-                });
+            if read_error.is_some() {
+                break;
+            }
+            let buffers: Vec<Vec<u8>> = (0..pending.len())
+                .map(|_| used_rx.try_recv().unwrap_or_default())
+                .collect();
+            let outs: Vec<ChunkOut> = pending
+                .par_iter()
+                .zip(buffers)
+                .map(|(c, buf)| process_chunk(c, &ctx, model, buf))
+                .collect();
+            for (c, o) in pending.drain(..).zip(outs) {
+                if out_tx.send(o.bytes).is_err() {
+                    // The writer stopped on an error: it is reported below.
+                    done = true;
+                    break;
+                }
+                if let Some(b) = bar {
+                    b.inc(c.data.len() as u64);
+                }
+                let _ = spare_tx.send(c.data);
+                add_counts(&mut counts, &o.counts);
+                for (acc, zc) in summary.per_zone.iter_mut().zip(&o.per_zone) {
+                    add_counts(acc, zc);
+                }
+                summary.blank_lines += o.blank;
+                for ex in o.examples {
+                    let same = summary
+                        .examples
+                        .iter()
+                        .filter(|e| e.status == ex.status)
+                        .count();
+                    if same < EXAMPLES_PER_STATUS {
+                        summary.examples.push(ex);
+                    }
+                }
+                if let Some(q) = o.qa {
+                    match &mut summary.qa {
+                        None => summary.qa = Some(q),
+                        Some(acc) => acc.merge(q),
+                    }
+                }
+                if o.t_min <= o.t_max {
+                    summary.time_range_s = Some(match summary.time_range_s {
+                        None => (o.t_min, o.t_max),
+                        Some((a, b)) => (a.min(o.t_min), b.max(o.t_max)),
+                    });
+                }
             }
         }
-    }
+        drop(out_tx);
+        drop(chunk_rx);
+        let sink = writer.join().expect("writer thread does not panic")?;
+        match read_error {
+            Some(e) => Err(e),
+            None => Ok(sink),
+        }
+    });
+    let sink = written?;
     sink.commit()?;
     summary.rows_by_status = StatusCounts(counts);
     Ok(summary)
@@ -495,10 +558,22 @@ fn write_input_fields(out: &mut Vec<u8>, line: &str, fields: &Fields, ctx: &File
     }
 }
 
-fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOut {
+fn process_chunk(
+    chunk: &Chunk,
+    ctx: &FileCtx,
+    model: &dyn TideModel,
+    mut bytes: Vec<u8>,
+) -> ChunkOut {
     let n_cols = ctx.layout.column_names.len();
+    bytes.clear();
+    let factor = if ctx.loaded.uncertainty.is_some() {
+        3
+    } else {
+        2
+    };
+    bytes.reserve(chunk.data.len() * factor + 1024);
     let mut o = ChunkOut {
-        bytes: Vec::with_capacity(chunk.data.len() * 3 / 2 + 1024),
+        bytes,
         per_zone: vec![[0; 4]; ctx.zone_ids.len()],
         t_min: f64::INFINITY,
         t_max: f64::NEG_INFINITY,
@@ -562,7 +637,7 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOu
                                     &l.gauges,
                                     &u.gauge_u,
                                     &u.zone_u[z],
-                                    l.interp.as_ref(),
+                                    &u.gauge_rates,
                                     v.t_s,
                                     &states,
                                 );
@@ -655,7 +730,7 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel) -> ChunkOu
                 Some((vals, within)) => {
                     for x in vals {
                         b.push(b',');
-                        push_fixed(b, x, METRE_DECIMALS);
+                        push_fixed(b, x, UNCERTAINTY_DECIMALS);
                     }
                     b.extend_from_slice(if within { b",yes" } else { b",no" });
                 }

@@ -100,19 +100,19 @@ fn per_sounding_columns_follow_their_formulas() {
         .iter()
         .map(|n| f(r, n).powi(2))
         .sum();
-        // Columns are rounded to 0.1 mm: allow 3e-4 m.
-        assert!((comps.sqrt() - f(r, "u_tide_m")).abs() < 3e-4);
+        // Uncertainty columns are rounded to 1 mm: allow for the rounding of each.
+        assert!((comps.sqrt() - f(r, "u_tide_m")).abs() < 1.6e-3);
         let tvu = f(r, "u_sounding_m").hypot(f(r, "u_tide_m"));
-        assert!((tvu - f(r, "u_tvu_m")).abs() < 3e-4);
-        assert!((1.96 * f(r, "u_tvu_m") - f(r, "u95_tvu_m")).abs() < 3e-4);
+        assert!((tvu - f(r, "u_tvu_m")).abs() < 1.6e-3);
+        assert!((1.96 * f(r, "u_tvu_m") - f(r, "u95_tvu_m")).abs() < 1.6e-3);
         // Special order (S-44 6.1.0): a = 0.25 m, b = 0.0075; d = reduced depth, 0 when drying.
         let d = f(r, "reduced_depth_m").max(0.0);
-        assert!((0.25f64.hypot(0.0075 * d) - f(r, "allowed_u95_tvu_m")).abs() < 2e-4);
+        assert!((0.25f64.hypot(0.0075 * d) - f(r, "allowed_u95_tvu_m")).abs() < 6e-4);
         // Sounding model of the demo project: sqrt(0.05² + (0.003 · observed depth)²).
-        assert!((0.05f64.hypot(0.003 * f(r, "depth_m")) - f(r, "u_sounding_m")).abs() < 2e-4);
+        assert!((0.05f64.hypot(0.003 * f(r, "depth_m")) - f(r, "u_sounding_m")).abs() < 6e-4);
         let within = r[c("within_order")] == "yes";
         let margin = f(r, "allowed_u95_tvu_m") - f(r, "u95_tvu_m");
-        if margin.abs() > 2e-4 {
+        if margin.abs() > 1.1e-3 {
             assert_eq!(within, margin > 0.0);
         }
         checked += 1;
