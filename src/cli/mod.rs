@@ -57,6 +57,41 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Write tide-correction files (per zone on a regular step; per sounding with
+    /// --per-sounding), each with a JSON provenance sidecar.
+    Correctors {
+        /// The project file (TOML).
+        project: PathBuf,
+        /// Output folder (default: the project's `[output] dir`).
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Time step of the per-zone file, minutes.
+        #[arg(long, default_value_t = 1.0)]
+        step_min: f64,
+        /// Start of the span, ISO 8601 with offset (default: first sounding, floored to the step).
+        #[arg(long)]
+        from: Option<String>,
+        /// End of the span, ISO 8601 with offset (default: last sounding, ceiled to the step).
+        #[arg(long)]
+        to: Option<String>,
+        /// Also write one corrector row per sounding (`<stem>.correctors.csv`).
+        #[arg(long)]
+        per_sounding: bool,
+    },
+    /// Reduce soundings with tide from a correction file written by `neap correctors`.
+    Apply {
+        /// The correction file (per zone or per sounding).
+        corrections: PathBuf,
+        /// Soundings files to reduce (default: all of the project's); each must belong to a
+        /// `[[soundings]]` group of the project, which gives its layout.
+        soundings: Vec<PathBuf>,
+        /// The project file: soundings layouts and zoning.
+        #[arg(long)]
+        project: PathBuf,
+        /// Output folder (default: the project's `[output] dir`).
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
     /// Reduce the bundled demo survey and say where the results are.
     Demo {
         /// The demo folder (default: ./zoning-demo, else the one in the source tree).
@@ -107,6 +142,21 @@ pub fn main() -> i32 {
             .unwrap_or_else(report_failure)
         }
         Command::Check { project, json } => cmd_check(&project, json),
+        Command::Correctors {
+            project,
+            out,
+            step_min,
+            from,
+            to,
+            per_sounding,
+        } => cmd_correctors(&project, out, step_min, from, to, per_sounding)
+            .unwrap_or_else(report_failure),
+        Command::Apply {
+            corrections,
+            soundings,
+            project,
+            out,
+        } => cmd_apply(&corrections, soundings, &project, out).unwrap_or_else(report_failure),
         Command::Demo { dir } => cmd_demo(dir),
     }
 }
@@ -174,6 +224,8 @@ fn run_reduce(
         &ReduceOptions {
             out_dir: out_dir.clone(),
             progress,
+            kind: neap::run::reduce::RunKind::Reduce,
+            only_files: None,
         },
     )?;
     let json = serde_json::to_vec_pretty(&summary)?;
@@ -274,6 +326,109 @@ fn print_summary(name: &str, s: &RunSummary, summary_path: &Path, verdict: Optio
         let _ = writeln!(e, "{v}");
     }
     let _ = writeln!(e, "{CAUTION}");
+}
+
+fn load_or_print(project_path: &Path) -> anyhow::Result<Result<neap::run::load::Loaded, i32>> {
+    let project = Project::load(project_path)?;
+    match load(project, None) {
+        Ok(l) => Ok(Ok(l)),
+        Err(findings) => {
+            print_findings(&findings);
+            eprintln!("neap: cannot run: fix the errors above (`neap check` lists every problem)");
+            Ok(Err(EXIT_CANNOT_RUN))
+        }
+    }
+}
+
+fn parse_utc_arg(s: Option<String>, what: &str) -> anyhow::Result<Option<f64>> {
+    s.map(|s| {
+        neap::io::timefmt::parse_time(&s, neap::io::timefmt::TimeFormat::Iso8601, None)
+            .map_err(|m| anyhow::anyhow!("--{what}: {m}"))
+    })
+    .transpose()
+}
+
+fn cmd_correctors(
+    project_path: &Path,
+    out: Option<PathBuf>,
+    step_min: f64,
+    from: Option<String>,
+    to: Option<String>,
+    per_sounding: bool,
+) -> anyhow::Result<i32> {
+    let from_s = parse_utc_arg(from, "from")?;
+    let to_s = parse_utc_arg(to, "to")?;
+    let loaded = match load_or_print(project_path)? {
+        Ok(l) => l,
+        Err(code) => return Ok(code),
+    };
+    let out_dir = out.unwrap_or_else(|| loaded.project.spec.output.dir.clone());
+    let outcome = neap::run::correctors::write_correctors(
+        &loaded,
+        &neap::run::correctors::CorrectorsOptions {
+            out_dir,
+            step_min,
+            from_s,
+            to_s,
+            per_sounding,
+        },
+    )?;
+    let mut e = std::io::stderr().lock();
+    let _ = writeln!(
+        e,
+        "neap correctors: {} zones, {} to {}, every {step_min} min",
+        loaded.zones.len(),
+        neap::compute::utc_label(outcome.span_s.0),
+        neap::compute::utc_label(outcome.span_s.1)
+    );
+    for (s, n) in &outcome.zone_rows_by_status {
+        let _ = writeln!(e, "  {s:<14} {n:>8} zone-times");
+    }
+    if loaded.uncertainty.is_none() {
+        let _ = writeln!(
+            e,
+            "  u_tide_m left empty: the project has no [uncertainty] section"
+        );
+    }
+    for w in &outcome.written {
+        let _ = writeln!(e, "  wrote {}", w.display());
+    }
+    let _ = writeln!(e, "{CAUTION}");
+    Ok(EXIT_OK)
+}
+
+fn cmd_apply(
+    corrections: &Path,
+    soundings: Vec<PathBuf>,
+    project_path: &Path,
+    out: Option<PathBuf>,
+) -> anyhow::Result<i32> {
+    let loaded = match load_or_print(project_path)? {
+        Ok(l) => l,
+        Err(code) => return Ok(code),
+    };
+    let out_dir = out.unwrap_or_else(|| loaded.project.spec.output.dir.clone());
+    let summary =
+        neap::run::correctors::apply_corrections(&loaded, corrections, soundings, out_dir.clone())?;
+    let summary_path = out_dir.join("apply-summary.json");
+    neap::io::atomic::write_atomic(&summary_path, &serde_json::to_vec_pretty(&summary)?)?;
+    print_summary(
+        &format!(
+            "{} (tide from {})",
+            loaded.project.spec.name,
+            corrections.display()
+        ),
+        &summary,
+        &summary_path,
+        None,
+    );
+    Ok(
+        if summary.count(SoundingStatus::Reduced) == summary.rows() {
+            EXIT_OK
+        } else {
+            EXIT_INCOMPLETE
+        },
+    )
 }
 
 fn cmd_check(project: &Path, json: bool) -> i32 {

@@ -6,8 +6,10 @@
 //! * [`reduce`] — one sounding to chart datum, with its status.
 //! * [`uncertainty`] — GUM propagation of the tide and sounding uncertainty; S-44 orders.
 //! * [`qa`] — per-order shares, budgets and histograms for the QA report.
+//! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`fixed`] — fast fixed-decimal formatting of metres for the output writers.
 
+pub mod correctors;
 pub mod fixed;
 pub mod locate;
 pub mod qa;

@@ -108,14 +108,29 @@ pub enum TideOutcome {
         /// Details.
         why: NoZoneTide,
     },
+    /// A correction-based model has no tide for the sounding.
+    NoCorrection {
+        /// Zone index, when known.
+        zone: Option<usize>,
+        /// Why.
+        why: &'static str,
+    },
 }
 
 /// A spatial tide model: tide above chart datum at any place and time of its area.
 pub trait TideModel: Sync {
-    /// Tide at `(x, y)` (in the plane the model was built for) and UTC time `t_s`.
+    /// Tide at `(x, y)` (in the plane the model was built for) and UTC time `t_s`, for a
+    /// sounding of survey line `line` (used by models keyed by sounding).
     ///
     /// `states` receives the gauge states used (scratch space reused across calls).
-    fn tide_at(&self, x: f64, y: f64, t_s: f64, states: &mut Vec<FeedState>) -> TideOutcome;
+    fn tide_at(
+        &self,
+        x: f64,
+        y: f64,
+        t_s: f64,
+        line: &str,
+        states: &mut Vec<FeedState>,
+    ) -> TideOutcome;
 }
 
 /// Discrete tidal zoning: polygons, each with its correctors.
@@ -132,7 +147,14 @@ pub struct DiscreteZoning<'a> {
 }
 
 impl TideModel for DiscreteZoning<'_> {
-    fn tide_at(&self, x: f64, y: f64, t_s: f64, states: &mut Vec<FeedState>) -> TideOutcome {
+    fn tide_at(
+        &self,
+        x: f64,
+        y: f64,
+        t_s: f64,
+        _line: &str,
+        states: &mut Vec<FeedState>,
+    ) -> TideOutcome {
         let Some(zone) = self.locator.locate(x, y) else {
             return TideOutcome::Outside;
         };
@@ -198,15 +220,18 @@ mod tests {
         };
         let mut st = Vec::new();
         assert_eq!(
-            m.tide_at(0.9, 0.1, 300.0, &mut st),
+            m.tide_at(0.9, 0.1, 300.0, "", &mut st),
             TideOutcome::Tide {
                 zone: 0,
                 tide_m: 1.5
             }
         );
-        assert_eq!(m.tide_at(0.1, 0.9, 300.0, &mut st), TideOutcome::Outside);
+        assert_eq!(
+            m.tide_at(0.1, 0.9, 300.0, "", &mut st),
+            TideOutcome::Outside
+        );
         assert!(matches!(
-            m.tide_at(0.9, 0.1, 900.0, &mut st),
+            m.tide_at(0.9, 0.1, 900.0, "", &mut st),
             TideOutcome::NoData { zone: 0, .. }
         ));
     }

@@ -6,12 +6,14 @@
 //! * [`zoning_geojson`] — zonings in GeoJSON.
 //! * [`soundings`] — sounding files, streamed in chunks of lines.
 //! * [`timefmt`] — time parsing to UTC seconds.
+//! * [`correctors_file`] — tide-correction files (per zone, per sounding) and their sidecar.
 //! * [`crs`] — coordinate transformations (PROJ).
 //! * [`report_html`] — the QA report page (HTML + SVG).
 //! * [`atomic`] — output files written to a temporary name and renamed on success.
 //! * [`error`] — the positioned error type and validation findings.
 
 pub mod atomic;
+pub mod correctors_file;
 pub mod crs;
 pub mod error;
 pub mod gauge_csv;

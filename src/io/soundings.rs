@@ -372,6 +372,11 @@ impl SoundingLayout {
         })
     }
 
+    /// Index of the survey-line column, when mapped.
+    pub fn line_column(&self) -> Option<usize> {
+        self.line
+    }
+
     /// Whether the file has a per-sounding depth uncertainty column.
     pub fn has_u_depth(&self) -> bool {
         self.u_depth.is_some()

@@ -5,9 +5,11 @@
 //! * [`load`] — project inputs into core data.
 //! * [`reduce`] — the streaming, parallel reduction.
 //! * [`check`] — validation before a reduction.
+//! * [`correctors`] — tide-correction files with provenance, and applying them.
 //! * [`qa_report`] — the QA report of a reduction (survey orders, budgets, tide bands).
 
 pub mod check;
+pub mod correctors;
 pub mod load;
 pub mod qa_report;
 pub mod reduce;

@@ -63,12 +63,58 @@ const CHUNKS_PER_THREAD: usize = 3;
 
 /// How to run.
 #[derive(Debug, Clone)]
-pub struct ReduceOptions {
+pub struct ReduceOptions<'a> {
     /// Output folder (created when missing).
     pub out_dir: PathBuf,
     /// Show a progress bar when stderr is a terminal.
     pub progress: bool,
+    /// What to compute and write.
+    pub kind: RunKind<'a>,
+    /// Only these soundings files (of the project's groups); all when `None`.
+    pub only_files: Option<Vec<PathBuf>>,
 }
+
+/// What a streaming run computes and writes.
+#[derive(Debug, Clone, Copy)]
+pub enum RunKind<'a> {
+    /// Reduce with the zoning: `<stem>.reduced.csv`.
+    Reduce,
+    /// Per-sounding tide correctors with the zoning: `<stem>.correctors.csv`.
+    SoundingCorrectors,
+    /// Reduce with tide from a correction file: `<stem>.applied.csv`.
+    Apply(ApplyModel<'a>),
+}
+
+/// The tide source of an apply run.
+#[derive(Debug, Clone, Copy)]
+pub enum ApplyModel<'a> {
+    /// Per-zone corrector series, by zone index.
+    Zones(&'a [Vec<crate::compute::correctors::Corrector>]),
+    /// Per-sounding corrections.
+    Soundings(&'a crate::compute::correctors::SoundingTableModel),
+}
+
+impl RunKind<'_> {
+    fn suffix(&self) -> &'static str {
+        match self {
+            RunKind::Reduce => "reduced",
+            RunKind::SoundingCorrectors => "correctors",
+            RunKind::Apply(_) => "applied",
+        }
+    }
+}
+
+/// Columns of a per-sounding corrector file, in order.
+pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
+    "line",
+    "time_utc",
+    "source_file",
+    "source_line",
+    "zone",
+    "tide_above_chart_datum_m",
+    "u_tide_m",
+    "status",
+];
 
 /// One example of a row that was not reduced.
 #[derive(Debug, Clone, Serialize, PartialEq)]
@@ -164,6 +210,10 @@ impl RunSummary {
 }
 
 struct FileCtx<'a> {
+    kind: RunKind<'a>,
+    source_name: String,
+    /// Uncertainty config when this run computes it.
+    unc: Option<&'a super::load::UncertaintyConfig>,
     layout: SoundingLayout,
     zone_ids: Vec<&'a str>,
     gauge_ids: Vec<&'a str>,
@@ -189,24 +239,49 @@ const EXAMPLES_PER_STATUS: usize = 5;
 /// About how many soundings per file are kept for the QA map.
 const MAP_SAMPLES_PER_FILE: u64 = 6000;
 
-/// Output file name for an input file: `<stem>.reduced.csv`.
-pub fn output_name(input: &Path) -> String {
+/// Output file name for an input file: `<stem>.reduced.csv` (or `.correctors.csv`,
+/// `.applied.csv`).
+pub fn output_name(input: &Path, suffix: &str) -> String {
     let stem = input
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_else(|| "soundings".into());
-    format!("{stem}.reduced.csv")
+    format!("{stem}.{suffix}.csv")
 }
 
 /// Reduces every soundings file of a loaded project.
 pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummary, IoError> {
+    if let Some(only) = &opts.only_files {
+        for o in only {
+            let known = loaded
+                .project
+                .spec
+                .soundings
+                .iter()
+                .any(|g| g.files.iter().any(|f| same_file(o, f)));
+            if !known {
+                return Err(IoError::content(
+                    Position::file(o),
+                    format!(
+                        "not a soundings file of project {} (its layout comes from a [[soundings]] group)",
+                        loaded.project.path.display()
+                    ),
+                ));
+            }
+        }
+    }
     std::fs::create_dir_all(&opts.out_dir).map_err(|e| IoError::file(&opts.out_dir, e))?;
     let stale = remove_stale_partials(&opts.out_dir);
     let mut jobs: Vec<(usize, &SoundingsSpec, &PathBuf, PathBuf)> = Vec::new();
     let mut seen = std::collections::HashMap::new();
     for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
         for f in &group.files {
-            let out = opts.out_dir.join(output_name(f));
+            if let Some(only) = &opts.only_files {
+                if !only.iter().any(|o| same_file(o, f)) {
+                    continue;
+                }
+            }
+            let out = opts.out_dir.join(output_name(f, opts.kind.suffix()));
             if let Some(prev) = seen.insert(out.clone(), f.clone()) {
                 return Err(IoError::content(
                     Position::file(f),
@@ -266,19 +341,32 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
     let mut files: Vec<FileSummary> = jobs
         .par_iter()
         .map(|(gi, group, input, out)| {
-            let model = DiscreteZoning {
+            let zoning = DiscreteZoning {
                 zones: &loaded.zones,
                 gauges: &loaded.gauges,
                 locator: &locators[*gi],
                 interp: loaded.interp.as_ref(),
             };
+            let series_model;
+            let model: &dyn TideModel = match opts.kind {
+                RunKind::Reduce | RunKind::SoundingCorrectors => &zoning,
+                RunKind::Apply(ApplyModel::Zones(series)) => {
+                    series_model = crate::compute::correctors::ZoneSeriesModel {
+                        locator: &locators[*gi],
+                        series,
+                    };
+                    &series_model
+                }
+                RunKind::Apply(ApplyModel::Soundings(table)) => table,
+            };
             reduce_file(
                 loaded,
+                opts.kind,
                 *gi,
                 group,
                 input,
                 out,
-                &model,
+                model,
                 &inputs,
                 bar.as_ref(),
             )
@@ -338,9 +426,18 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
     })
 }
 
+/// Whether two paths name the same file.
+pub fn same_file(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => a == b,
+    }
+}
+
 #[allow(clippy::too_many_arguments)]
 fn reduce_file(
     loaded: &Loaded,
+    kind: RunKind,
     group_index: usize,
     group: &SoundingsSpec,
     input: &Path,
@@ -369,6 +466,15 @@ fn reduce_file(
     // Keep about MAP_SAMPLES_PER_FILE soundings for the QA map (rows estimated at 60 bytes).
     let est_rows = std::fs::metadata(input).map(|m| m.len() / 60).unwrap_or(0);
     let ctx = FileCtx {
+        kind,
+        source_name: input
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default(),
+        unc: match kind {
+            RunKind::Apply(_) => None,
+            _ => loaded.uncertainty.as_ref(),
+        },
         layout,
         zone_ids: loaded.zones.iter().map(|z| z.id.as_str()).collect(),
         gauge_ids: loaded.gauges.iter().map(|g| g.id.as_str()).collect(),
@@ -378,20 +484,24 @@ fn reduce_file(
     };
     let mut sink = AtomicFile::create(out, inputs)?;
     let mut header = Vec::new();
-    for (i, name) in ctx.layout.column_names.iter().enumerate() {
-        if i > 0 {
-            header.push(b',');
+    if let RunKind::SoundingCorrectors = kind {
+        header.extend_from_slice(SOUNDING_CORRECTOR_COLUMNS.join(",").as_bytes());
+    } else {
+        for (i, name) in ctx.layout.column_names.iter().enumerate() {
+            if i > 0 {
+                header.push(b',');
+            }
+            push_csv_field(&mut header, name);
         }
-        push_csv_field(&mut header, name);
-    }
-    for c in APPENDED_COLUMNS {
-        header.push(b',');
-        header.extend_from_slice(c.as_bytes());
-    }
-    if loaded.uncertainty.is_some() {
-        for c in UNCERTAINTY_COLUMNS {
+        for c in APPENDED_COLUMNS {
             header.push(b',');
             header.extend_from_slice(c.as_bytes());
+        }
+        if ctx.unc.is_some() {
+            for c in UNCERTAINTY_COLUMNS {
+                header.push(b',');
+                header.extend_from_slice(c.as_bytes());
+            }
         }
     }
     header.push(b'\n');
@@ -536,6 +646,67 @@ fn reduce_file(
     Ok(summary)
 }
 
+#[allow(clippy::too_many_arguments)]
+fn write_corrector_row(
+    b: &mut Vec<u8>,
+    ctx: &FileCtx,
+    line_no: u64,
+    fields: &Fields,
+    line: &str,
+    key: Option<(f64, String)>,
+    zone: Option<usize>,
+    tide: Option<(f64, f64)>,
+    unc_cols: Option<([f64; 10], bool)>,
+    status: SoundingStatus,
+) {
+    use std::io::Write;
+    // line, time: parsed when the row could be read, else the raw fields (or empty).
+    match &key {
+        Some((t, l)) => {
+            push_csv_field(b, l);
+            b.push(b',');
+            b.extend_from_slice(utc_label_micros(*t).as_bytes());
+        }
+        None => {
+            let raw_line = ctx
+                .layout
+                .line_column()
+                .and_then(|i| fields.get(line, i))
+                .unwrap_or("");
+            push_csv_field(b, raw_line);
+            b.push(b',');
+        }
+    }
+    b.push(b',');
+    push_csv_field(b, &ctx.source_name);
+    let _ = write!(b, ",{line_no},");
+    if let Some(z) = zone {
+        push_csv_field(b, ctx.zone_ids[z]);
+    }
+    b.push(b',');
+    if let Some((t, _)) = tide {
+        // Shortest text that reads back to the same number: applying the file gives exactly
+        // the direct reduction.
+        let _ = write!(b, "{t}");
+    }
+    b.push(b',');
+    if let Some((vals, _)) = unc_cols {
+        push_fixed(b, vals[5], UNCERTAINTY_DECIMALS);
+    }
+    b.push(b',');
+    b.extend_from_slice(status.as_str().as_bytes());
+    b.push(b'\n');
+}
+
+/// ISO 8601 UTC with microseconds, as written in per-sounding corrector files.
+pub fn utc_label_micros(t_s: f64) -> String {
+    let micros = (t_s * 1e6).round() as i64;
+    match chrono::DateTime::from_timestamp_micros(micros) {
+        Some(dt) => dt.format("%Y-%m-%dT%H:%M:%S%.6fZ").to_string(),
+        None => format!("{t_s}"),
+    }
+}
+
 fn add_counts(acc: &mut [u64; 4], add: &[u64; 4]) {
     for (a, b) in acc.iter_mut().zip(add) {
         *a += b;
@@ -579,8 +750,9 @@ fn process_chunk(
         t_max: f64::NEG_INFINITY,
         ..Default::default()
     };
-    let unc = ctx.loaded.uncertainty.as_ref();
-    if let Some(u) = unc {
+    let unc = ctx.unc;
+    let corrector_rows = matches!(ctx.kind, RunKind::SoundingCorrectors);
+    if let (Some(u), false) = (unc, corrector_rows) {
         o.qa = Some(QaAccumulator::new(
             u.orders.len(),
             u.chosen,
@@ -606,7 +778,10 @@ fn process_chunk(
             }
         };
         fields.split(line, ctx.layout.delimiter);
-        write_input_fields(&mut o.bytes, line, &fields, ctx, n_cols);
+        if !corrector_rows {
+            write_input_fields(&mut o.bytes, line, &fields, ctx, n_cols);
+        }
+        let mut key: Option<(f64, String)> = None;
         let mut zone: Option<usize> = None;
         let mut tide = None;
         let mut unc_cols: Option<([f64; 10], bool)> = None;
@@ -625,7 +800,10 @@ fn process_chunk(
                 Ok(v) => {
                     o.t_min = o.t_min.min(v.t_s);
                     o.t_max = o.t_max.max(v.t_s);
-                    match model.tide_at(v.x, v.y, v.t_s, &mut states) {
+                    if corrector_rows {
+                        key = Some((v.t_s, v.line_id.to_string()));
+                    }
+                    match model.tide_at(v.x, v.y, v.t_s, v.line_id, &mut states) {
                         TideOutcome::Tide { zone: z, tide_m } => {
                             zone = Some(z);
                             let reduced = reduce_depth(v.depth_m, tide_m);
@@ -679,6 +857,11 @@ fn process_chunk(
                             detail.push_str("position is outside every zone");
                             SoundingStatus::OutsideZoning
                         }
+                        TideOutcome::NoCorrection { zone: z, why } => {
+                            zone = z;
+                            detail.push_str(why);
+                            SoundingStatus::NoGaugeData
+                        }
                         TideOutcome::NoData { zone: z, why } => {
                             zone = Some(z);
                             use std::fmt::Write;
@@ -706,6 +889,32 @@ fn process_chunk(
                 fields.len(),
                 n_cols
             );
+        }
+        if corrector_rows {
+            write_corrector_row(
+                &mut o.bytes,
+                ctx,
+                line_no,
+                &fields,
+                line,
+                key,
+                zone,
+                tide,
+                unc_cols,
+                status,
+            );
+            if let Some(z) = zone {
+                o.per_zone[z][status.index()] += 1;
+            }
+            o.counts[status.index()] += 1;
+            if status != SoundingStatus::Reduced && o.examples.len() < 4 * EXAMPLES_PER_STATUS {
+                o.examples.push(RowExample {
+                    line: line_no,
+                    status: status.as_str(),
+                    detail: detail.clone(),
+                });
+            }
+            continue;
         }
         let b = &mut o.bytes;
         b.push(b',');

@@ -2,6 +2,7 @@
 
 mod bad_input;
 mod check;
+mod correctors;
 mod crs_reference;
 mod demo_recovery;
 mod outputs;

@@ -1,0 +1,289 @@
+//! Tide correctors: a zone's water level on a regular time grid (for pipelines that apply tide
+//! themselves), and tide models that read correctors back.
+//!
+//! Owns: [`CorrectorStatus`], [`zone_correctors`] (a zone's tide and standard uncertainty on a
+//! grid, each time with its status), [`ZoneSeriesModel`] (tide from per-zone corrector series,
+//! linear in time) and [`SoundingTableModel`] (tide looked up per sounding by line and time).
+
+use std::collections::HashMap;
+
+use super::locate::ZoneLocator;
+use super::reduce::{TideModel, TideOutcome};
+use super::series::{LevelSeries, TimeInterpolation};
+use super::uncertainty::{tide_budget, GaugeUncertainty, ZoneUncertainty};
+use super::zoning::{FeedState, Gauge, Zone};
+
+/// How a corrector value was obtained.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CorrectorStatus {
+    /// Every feeding gauge has a sample exactly at its corrected time.
+    Observed,
+    /// At least one feeding gauge was interpolated between samples (within its maximum gap).
+    Interpolated,
+    /// Filled from a prediction across a gap (not produced yet: neap does not fill gaps).
+    GapFilled,
+    /// No value: a feeding gauge has no level at the corrected time.
+    Missing,
+}
+
+impl CorrectorStatus {
+    /// The word written in files.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            CorrectorStatus::Observed => "observed",
+            CorrectorStatus::Interpolated => "interpolated",
+            CorrectorStatus::GapFilled => "gap_filled",
+            CorrectorStatus::Missing => "missing",
+        }
+    }
+    /// Parses the word.
+    pub fn parse(s: &str) -> Option<Self> {
+        Some(match s {
+            "observed" => CorrectorStatus::Observed,
+            "interpolated" => CorrectorStatus::Interpolated,
+            "gap_filled" => CorrectorStatus::GapFilled,
+            "missing" => CorrectorStatus::Missing,
+            _ => return None,
+        })
+    }
+}
+
+/// One corrector value.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Corrector {
+    /// UTC seconds.
+    pub t_s: f64,
+    /// Tide above chart datum, metres (`None` when missing).
+    pub tide_m: Option<f64>,
+    /// Standard uncertainty of the tide, metres (`None` when missing or not computed).
+    pub u_tide_m: Option<f64>,
+    /// How it was obtained.
+    pub status: CorrectorStatus,
+}
+
+/// Uncertainty inputs for [`zone_correctors`].
+#[derive(Debug, Clone, Copy)]
+pub struct CorrectorUncertainty<'a> {
+    /// Per gauge.
+    pub gauge_u: &'a [GaugeUncertainty],
+    /// The zone's.
+    pub zone_u: &'a ZoneUncertainty,
+    /// Each gauge's rate series.
+    pub rates: &'a [LevelSeries],
+}
+
+/// A zone's tide on the grid `t0, t0 + step, …` (n values).
+pub fn zone_correctors(
+    zone: &Zone,
+    gauges: &[Gauge],
+    interp: &dyn TimeInterpolation,
+    unc: Option<CorrectorUncertainty>,
+    t0_s: f64,
+    step_s: f64,
+    n: usize,
+) -> Vec<Corrector> {
+    let mut states: Vec<FeedState> = Vec::new();
+    (0..n)
+        .map(|k| {
+            let t = t0_s + k as f64 * step_s;
+            match zone.tide_at(gauges, interp, t, &mut states) {
+                Err(_) => Corrector {
+                    t_s: t,
+                    tide_m: None,
+                    u_tide_m: None,
+                    status: CorrectorStatus::Missing,
+                },
+                Ok(tide) => {
+                    let observed = zone.feeds.iter().zip(&states).all(|(f, st)| {
+                        let shifted = t - f.time_corrector_min * 60.0;
+                        let s = &gauges[f.gauge].series;
+                        let i = st.level.bracket;
+                        s.times_s.get(i) == Some(&shifted) || s.times_s.get(i + 1) == Some(&shifted)
+                    });
+                    let u = unc.map(|u| {
+                        tide_budget(zone, gauges, u.gauge_u, u.zone_u, u.rates, t, &states)
+                            .u_tide_m()
+                    });
+                    Corrector {
+                        t_s: t,
+                        tide_m: Some(tide),
+                        u_tide_m: u,
+                        status: if observed {
+                            CorrectorStatus::Observed
+                        } else {
+                            CorrectorStatus::Interpolated
+                        },
+                    }
+                }
+            }
+        })
+        .collect()
+}
+
+/// Linear interpolation in a zone's corrector series (sorted by time). Between two values the
+/// tide is interpolated; next to a missing value, or outside the series, there is none.
+pub fn interpolate_correctors(series: &[Corrector], t_s: f64) -> Option<f64> {
+    let i = series.partition_point(|c| c.t_s <= t_s);
+    if i == 0 {
+        return None;
+    }
+    let a = &series[i - 1];
+    if a.t_s == t_s {
+        return a.tide_m;
+    }
+    let b = series.get(i)?;
+    let (ta, tb) = (a.tide_m?, b.tide_m?);
+    Some(ta + (tb - ta) * (t_s - a.t_s) / (b.t_s - a.t_s))
+}
+
+/// Tide from per-zone corrector series: the zone from the locator, the tide interpolated in time.
+#[derive(Debug)]
+pub struct ZoneSeriesModel<'a> {
+    /// Zone polygons (index = zone index).
+    pub locator: &'a ZoneLocator,
+    /// Corrector series per zone index (empty when the file has none for the zone).
+    pub series: &'a [Vec<Corrector>],
+}
+
+impl TideModel for ZoneSeriesModel<'_> {
+    fn tide_at(
+        &self,
+        x: f64,
+        y: f64,
+        t_s: f64,
+        _line: &str,
+        _s: &mut Vec<FeedState>,
+    ) -> TideOutcome {
+        let Some(zone) = self.locator.locate(x, y) else {
+            return TideOutcome::Outside;
+        };
+        match interpolate_correctors(&self.series[zone], t_s) {
+            Some(tide_m) => TideOutcome::Tide { zone, tide_m },
+            None => TideOutcome::NoCorrection {
+                zone: Some(zone),
+                why: "the correction file has no value for this zone at this time",
+            },
+        }
+    }
+}
+
+/// What a per-sounding correction row says.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SoundingCorrection {
+    /// A tide for the sounding, in a zone.
+    Tide {
+        /// Zone index.
+        zone: usize,
+        /// Tide above chart datum, metres.
+        tide_m: f64,
+    },
+    /// The sounding was outside every zone.
+    Outside,
+    /// No tide (no gauge data, or the row was bad).
+    None {
+        /// Zone index, when known.
+        zone: Option<usize>,
+    },
+}
+
+/// Key of a per-sounding correction: survey line and time in whole microseconds.
+pub fn sounding_key(line: &str, t_s: f64) -> (String, i64) {
+    (line.to_string(), (t_s * 1e6).round() as i64)
+}
+
+/// Tide looked up per sounding by its survey line and time.
+#[derive(Debug, Default)]
+pub struct SoundingTableModel {
+    /// Corrections by key.
+    pub table: HashMap<(String, i64), SoundingCorrection>,
+}
+
+impl TideModel for SoundingTableModel {
+    fn tide_at(
+        &self,
+        _x: f64,
+        _y: f64,
+        t_s: f64,
+        line: &str,
+        _s: &mut Vec<FeedState>,
+    ) -> TideOutcome {
+        match self.table.get(&sounding_key(line, t_s)) {
+            Some(SoundingCorrection::Tide { zone, tide_m }) => TideOutcome::Tide {
+                zone: *zone,
+                tide_m: *tide_m,
+            },
+            Some(SoundingCorrection::Outside) => TideOutcome::Outside,
+            Some(SoundingCorrection::None { zone }) => TideOutcome::NoCorrection {
+                zone: *zone,
+                why: "the correction file gives no tide for this sounding",
+            },
+            None => TideOutcome::NoCorrection {
+                zone: None,
+                why: "the correction file has no row for this line and time",
+            },
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::compute::series::Linear;
+    use crate::compute::zoning::{GaugeFeed, MeanLevelForm};
+
+    fn gauge() -> Gauge {
+        Gauge {
+            id: "g".into(),
+            series: LevelSeries {
+                times_s: vec![0.0, 360.0, 720.0, 4320.0, 4680.0],
+                heights_m: vec![1.0, 1.6, 1.3, 2.0, 2.1],
+                max_gap_s: 1800.0,
+            },
+            mean_level_above_datum_m: 1.5,
+        }
+    }
+
+    fn zone(dt_min: f64) -> Zone {
+        Zone {
+            id: "Z".into(),
+            feeds: vec![GaugeFeed {
+                gauge: 0,
+                weight: 1.0,
+                time_corrector_min: dt_min,
+                range_ratio: 1.0,
+            }],
+            mean_level: MeanLevelForm::Scaled,
+        }
+    }
+
+    #[test]
+    fn statuses_on_the_grid_and_missing_never_invented() {
+        let g = vec![gauge()];
+        let c = zone_correctors(&zone(0.0), &g, &Linear, None, 0.0, 60.0, 80);
+        assert_eq!(c[0].status, CorrectorStatus::Observed);
+        assert_eq!(c[6].status, CorrectorStatus::Observed);
+        assert_eq!(c[3].status, CorrectorStatus::Interpolated);
+        assert!((c[3].tide_m.unwrap() - 1.3).abs() < 1e-12);
+        // 720 s … 4320 s is a 60-min gap: minutes 13 … 71 are missing, with no value.
+        for (k, x) in c.iter().enumerate().take(72).skip(13) {
+            assert_eq!(x.status, CorrectorStatus::Missing, "minute {k}");
+            assert_eq!(x.tide_m, None);
+        }
+        assert_eq!(c[72].status, CorrectorStatus::Observed);
+        // After the record ends: missing.
+        assert_eq!(c[79].status, CorrectorStatus::Missing);
+        // A 30-s time corrector: no grid time lands on a sample.
+        let c = zone_correctors(&zone(0.5), &g, &Linear, None, 60.0, 60.0, 5);
+        assert!(c.iter().all(|x| x.status == CorrectorStatus::Interpolated));
+    }
+
+    #[test]
+    fn interpolation_between_correctors_stops_at_missing_values() {
+        let g = vec![gauge()];
+        let c = zone_correctors(&zone(0.0), &g, &Linear, None, 0.0, 60.0, 80);
+        assert!((interpolate_correctors(&c, 90.0).unwrap() - 1.15).abs() < 1e-12);
+        assert_eq!(interpolate_correctors(&c, 750.0), None);
+        assert_eq!(interpolate_correctors(&c, -1.0), None);
+        assert_eq!(interpolate_correctors(&c, 720.0), Some(1.3));
+    }
+}

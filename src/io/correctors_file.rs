@@ -1,0 +1,205 @@
+//! Tide-correction files: per-zone series on a regular time step, per-sounding rows, and the
+//! JSON provenance sidecar written beside each.
+//!
+//! Per-zone file (`correctors-zones.csv`), one row per zone and time:
+//! `zone,time_utc,tide_above_chart_datum_m,u_tide_m,status`.
+//! Per-sounding file (`<stem>.correctors.csv`), one row per sounding:
+//! `line,time_utc,source_file,source_line,zone,tide_above_chart_datum_m,u_tide_m,status`.
+//! Times are ISO 8601 UTC; tide is water level above chart datum in metres, positive up,
+//! written as the shortest decimal that reads back to the same number; `u_tide_m` is its standard
+//! uncertainty (1σ, empty when not computed); `status` is `observed`, `interpolated`,
+//! `gap_filled` or `missing` (per zone) or the sounding's status (per sounding). A missing value
+//! leaves the tide empty: nothing is invented.
+
+use std::collections::HashMap;
+use std::io::Read;
+use std::path::Path;
+
+use sha2::{Digest, Sha256};
+
+use super::error::{IoError, Position};
+use super::timefmt::{parse_time, TimeFormat};
+use crate::compute::correctors::{sounding_key, Corrector, CorrectorStatus, SoundingCorrection};
+
+/// Columns of the per-zone file.
+pub const ZONE_CORRECTOR_COLUMNS: [&str; 5] = [
+    "zone",
+    "time_utc",
+    "tide_above_chart_datum_m",
+    "u_tide_m",
+    "status",
+];
+
+/// Identifier of the correction-file layout (in the sidecar).
+pub const CORRECTORS_FORMAT: &str = "neap-tide-correctors/1";
+
+/// SHA-256 of a file, lowercase hex.
+pub fn sha256_file(path: &Path) -> Result<String, IoError> {
+    let mut f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
+    let mut h = Sha256::new();
+    let mut buf = vec![0u8; 1 << 16];
+    loop {
+        let n = f.read(&mut buf).map_err(|e| IoError::file(path, e))?;
+        if n == 0 {
+            break;
+        }
+        h.update(&buf[..n]);
+    }
+    Ok(h.finalize().iter().map(|b| format!("{b:02x}")).collect())
+}
+
+/// Writes the per-zone rows for one zone into `out`.
+pub fn push_zone_rows(out: &mut String, zone: &str, rows: &[Corrector]) {
+    use std::fmt::Write;
+    for c in rows {
+        let _ = write!(out, "{zone},{},", crate::compute::utc_label(c.t_s));
+        if let Some(t) = c.tide_m {
+            let _ = write!(out, "{t}");
+        }
+        out.push(',');
+        if let Some(u) = c.u_tide_m {
+            let _ = write!(out, "{u:.4}");
+        }
+        out.push(',');
+        out.push_str(c.status.as_str());
+        out.push('\n');
+    }
+}
+
+/// A per-sounding row as read: zone id, tide (m), status word.
+pub type SoundingRow = (Option<String>, Option<f64>, String);
+
+/// Per-sounding rows keyed by (line, time in µs).
+pub type SoundingRows = HashMap<(String, i64), SoundingRow>;
+
+/// A correction file as read.
+#[derive(Debug)]
+pub enum CorrectionFile {
+    /// Per-zone series, by zone id, sorted by time.
+    Zones(HashMap<String, Vec<Corrector>>),
+    /// Per-sounding corrections by (line, time in µs); zone by id.
+    Soundings(SoundingRows),
+}
+
+fn header_is(h: &csv::StringRecord, cols: &[&str]) -> bool {
+    h.len() == cols.len() && h.iter().zip(cols).all(|(a, b)| a == *b)
+}
+
+/// Reads a correction file of either kind (told apart by its header line).
+pub fn read_correction_file(path: &Path) -> Result<CorrectionFile, IoError> {
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .from_path(path)
+        .map_err(|e| super::gauge_csv::csv_error(e, path))?;
+    let h = rdr
+        .headers()
+        .map_err(|e| super::gauge_csv::csv_error(e, path))?
+        .clone();
+    let per_sounding = crate::run::reduce::SOUNDING_CORRECTOR_COLUMNS;
+    let zones = header_is(&h, &ZONE_CORRECTOR_COLUMNS);
+    if !zones && !header_is(&h, &per_sounding) {
+        return Err(IoError::content(
+            Position::file(path).line(1),
+            format!(
+                "not a tide-correction file: expected the header '{}' or '{}'",
+                ZONE_CORRECTOR_COLUMNS.join(","),
+                per_sounding.join(",")
+            ),
+        ));
+    }
+    let mut by_zone: HashMap<String, Vec<Corrector>> = HashMap::new();
+    let mut by_sounding = HashMap::new();
+    let mut rec = csv::StringRecord::new();
+    loop {
+        match rdr.read_record(&mut rec) {
+            Ok(false) => break,
+            Ok(true) => {}
+            Err(e) => return Err(super::gauge_csv::csv_error(e, path)),
+        }
+        let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        let at = |f: &str| Position::file(path).line(line).field(f.to_string());
+        let opt_num = |i: usize, name: &str| -> Result<Option<f64>, IoError> {
+            let s = rec.get(i).unwrap_or("");
+            if s.is_empty() {
+                return Ok(None);
+            }
+            s.parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+                .map(Some)
+                .ok_or_else(|| {
+                    IoError::content(
+                        at(name),
+                        format!("expected a number in metres, found '{s}'"),
+                    )
+                })
+        };
+        if zones {
+            let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
+                .map_err(|m| IoError::content(at("time_utc"), m))?;
+            let status = CorrectorStatus::parse(&rec[4]).ok_or_else(|| {
+                IoError::content(
+                    at("status"),
+                    format!(
+                        "expected observed, interpolated, gap_filled or missing, found '{}'",
+                        &rec[4]
+                    ),
+                )
+            })?;
+            let tide = opt_num(2, "tide_above_chart_datum_m")?;
+            if tide.is_none() != (status == CorrectorStatus::Missing) {
+                return Err(IoError::content(
+                    at("tide_above_chart_datum_m"),
+                    "a tide must be given exactly when the status is not 'missing'",
+                ));
+            }
+            let series = by_zone.entry(rec[0].to_string()).or_default();
+            if series.last().is_some_and(|c: &Corrector| c.t_s >= t) {
+                return Err(IoError::content(
+                    at("time_utc"),
+                    "times of a zone must increase",
+                ));
+            }
+            series.push(Corrector {
+                t_s: t,
+                tide_m: tide,
+                u_tide_m: opt_num(3, "u_tide_m")?,
+                status,
+            });
+        } else {
+            if rec[1].is_empty() {
+                // A row that could not be read has no time to key it by (status bad_input).
+                continue;
+            }
+            let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
+                .map_err(|m| IoError::content(at("time_utc"), m))?;
+            let zone = (!rec[4].is_empty()).then(|| rec[4].to_string());
+            let tide = opt_num(5, "tide_above_chart_datum_m")?;
+            by_sounding.insert(sounding_key(&rec[0], t), (zone, tide, rec[7].to_string()));
+        }
+    }
+    Ok(if zones {
+        CorrectionFile::Zones(by_zone)
+    } else {
+        CorrectionFile::Soundings(by_sounding)
+    })
+}
+
+/// Turns per-sounding rows into model entries, zone ids resolved against `zone_ids`.
+pub fn sounding_corrections(
+    rows: SoundingRows,
+    zone_ids: &[&str],
+) -> HashMap<(String, i64), SoundingCorrection> {
+    let index: HashMap<&str, usize> = zone_ids.iter().enumerate().map(|(i, z)| (*z, i)).collect();
+    rows.into_iter()
+        .map(|(k, (zone, tide, status))| {
+            let z = zone.as_deref().and_then(|z| index.get(z).copied());
+            let v = match (z, tide) {
+                (Some(zone), Some(tide_m)) => SoundingCorrection::Tide { zone, tide_m },
+                _ if status == "outside_zoning" => SoundingCorrection::Outside,
+                _ => SoundingCorrection::None { zone: z },
+            };
+            (k, v)
+        })
+        .collect()
+}

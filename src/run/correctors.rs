@@ -1,0 +1,427 @@
+//! `neap correctors` and `neap apply`: tide-correction files for processing pipelines, with
+//! provenance, and reduction from such a file (which proves the format by use).
+
+use std::path::{Path, PathBuf};
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use super::load::Loaded;
+use super::reduce::{reduce_project, ApplyModel, ReduceOptions, RunKind, RunSummary};
+use crate::compute::correctors::{
+    zone_correctors, Corrector, CorrectorUncertainty, SoundingTableModel,
+};
+use crate::io::atomic::write_atomic;
+use crate::io::correctors_file::{
+    push_zone_rows, read_correction_file, sha256_file, sounding_corrections, CorrectionFile,
+    CORRECTORS_FORMAT, ZONE_CORRECTOR_COLUMNS,
+};
+use crate::io::error::{IoError, Position};
+use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
+
+/// Name of the per-zone corrector file.
+pub const ZONE_FILE: &str = "correctors-zones.csv";
+
+/// Options of a corrector run.
+#[derive(Debug, Clone)]
+pub struct CorrectorsOptions {
+    /// Output folder.
+    pub out_dir: PathBuf,
+    /// Time step, minutes.
+    pub step_min: f64,
+    /// Start of the span, UTC seconds (default: the soundings' first time, floored to the step).
+    pub from_s: Option<f64>,
+    /// End of the span, UTC seconds (default: the soundings' last time, ceiled to the step).
+    pub to_s: Option<f64>,
+    /// Also write per-sounding corrector files.
+    pub per_sounding: bool,
+}
+
+/// One input file in the provenance.
+#[derive(Debug, Clone, Serialize)]
+pub struct InputHash {
+    /// What the file is.
+    pub role: String,
+    /// Path as used.
+    pub path: String,
+    /// SHA-256, hex.
+    pub sha256: String,
+}
+
+/// The JSON sidecar of a correction file.
+#[derive(Debug, Clone, Serialize)]
+pub struct Provenance {
+    /// Layout identifier.
+    pub format: &'static str,
+    /// `per_zone` or `per_sounding`.
+    pub kind: &'static str,
+    /// The correction file this describes.
+    pub file: String,
+    /// neap version.
+    pub neap_version: &'static str,
+    /// Creation time, ISO 8601 UTC.
+    pub created_utc: String,
+    /// Project file.
+    pub project_file: String,
+    /// Every input with its SHA-256.
+    pub inputs: Vec<InputHash>,
+    /// Zoning mode and parameters.
+    pub zoning: serde_json::Value,
+    /// Each gauge's datum relation.
+    pub gauges: Vec<serde_json::Value>,
+    /// Time step, minutes (per-zone files).
+    pub step_min: Option<f64>,
+    /// Span of the file, ISO 8601 UTC (per-zone files).
+    pub span_utc: Option<(String, String)>,
+    /// Column meanings.
+    pub columns: Vec<(String, String)>,
+    /// The caution that goes with every result.
+    pub caution: &'static str,
+}
+
+/// What a corrector run wrote.
+#[derive(Debug, Clone)]
+pub struct CorrectorsOutcome {
+    /// Files written (CSV and sidecars).
+    pub written: Vec<PathBuf>,
+    /// Rows per status in the per-zone file.
+    pub zone_rows_by_status: Vec<(&'static str, usize)>,
+    /// The span, UTC seconds.
+    pub span_s: (f64, f64),
+    /// The per-sounding run, when asked.
+    pub soundings: Option<RunSummary>,
+}
+
+/// First and last sounding time over the project's files (rows that cannot be read are
+/// skipped here; the reduction reports them).
+pub fn soundings_time_range(loaded: &Loaded) -> Result<Option<(f64, f64)>, IoError> {
+    let mut range: Option<(f64, f64)> = None;
+    for group in &loaded.project.spec.soundings {
+        for path in &group.files {
+            let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
+            let mut r = ChunkReader::new(f, 1);
+            let mut layout: Option<SoundingLayout> = None;
+            let mut fields = Fields::default();
+            while let Some(c) = r
+                .next_chunk(Vec::new())
+                .map_err(|e| IoError::file(path, e))?
+            {
+                for (_, raw) in lines_of(&c) {
+                    let Ok(line) = std::str::from_utf8(raw) else {
+                        continue;
+                    };
+                    if layout.is_none() {
+                        layout = Some(SoundingLayout::resolve(
+                            group,
+                            Some(line),
+                            loaded.project.naive_offset,
+                            path,
+                        )?);
+                        if group.header {
+                            continue;
+                        }
+                    }
+                    let lay = layout.as_ref().expect("set above");
+                    fields.split(line, lay.delimiter);
+                    if let Ok(v) = lay.parse(line, &fields) {
+                        range = Some(match range {
+                            None => (v.t_s, v.t_s),
+                            Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
+                        });
+                    }
+                }
+            }
+        }
+    }
+    Ok(range)
+}
+
+fn provenance(
+    loaded: &Loaded,
+    kind: &'static str,
+    file: &Path,
+    extra_inputs: &[&Path],
+) -> Result<Provenance, IoError> {
+    let p = &loaded.project;
+    let mut inputs = vec![
+        InputHash {
+            role: "project".into(),
+            path: p.path.display().to_string(),
+            sha256: sha256_file(&p.path)?,
+        },
+        InputHash {
+            role: "zoning".into(),
+            path: p.spec.zoning.display().to_string(),
+            sha256: sha256_file(&p.spec.zoning)?,
+        },
+    ];
+    for g in &p.spec.gauges {
+        inputs.push(InputHash {
+            role: format!("gauge record '{}'", g.id),
+            path: g.record.display().to_string(),
+            sha256: sha256_file(&g.record)?,
+        });
+    }
+    for f in extra_inputs {
+        inputs.push(InputHash {
+            role: "soundings".into(),
+            path: f.display().to_string(),
+            sha256: sha256_file(f)?,
+        });
+    }
+    let zones: Vec<serde_json::Value> = loaded
+        .zones
+        .iter()
+        .map(|z| {
+            serde_json::json!({
+                "zone": z.id,
+                "mean_level_form": z.mean_level.label(),
+                "zone_mean_level_above_datum_m": match z.mean_level {
+                    crate::compute::zoning::MeanLevelForm::ZoneMean { zone_mean_level_above_datum_m } => Some(zone_mean_level_above_datum_m),
+                    _ => None,
+                },
+                "feeds": z.feeds.iter().map(|f| serde_json::json!({
+                    "gauge": loaded.gauges[f.gauge].id,
+                    "weight": f.weight,
+                    "time_corrector_min": f.time_corrector_min,
+                    "range_ratio": f.range_ratio,
+                })).collect::<Vec<_>>(),
+            })
+        })
+        .collect();
+    Ok(Provenance {
+        format: CORRECTORS_FORMAT,
+        kind,
+        file: file
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default(),
+        neap_version: env!("CARGO_PKG_VERSION"),
+        created_utc: chrono::Utc::now().format("%Y-%m-%dT%H:%M:%SZ").to_string(),
+        project_file: p.path.display().to_string(),
+        inputs,
+        zoning: serde_json::json!({
+            "mode": "discrete_zones",
+            "time_interpolation": loaded.interp.name(),
+            "zones": zones,
+        }),
+        gauges: p
+            .spec
+            .gauges
+            .iter()
+            .map(|g| {
+                serde_json::json!({
+                    "gauge": g.id,
+                    "units": g.units,
+                    "zero_above_datum_m": g.zero_above_datum_m,
+                    "mean_level_above_datum_m": g.mean_level_above_datum_m,
+                    "max_gap_min": g.max_gap_min,
+                    "level_above_chart_datum": "reading converted to metres + zero_above_datum_m",
+                })
+            })
+            .collect(),
+        step_min: None,
+        span_utc: None,
+        columns: Vec::new(),
+        caution: crate::CAUTION,
+    })
+}
+
+fn write_sidecar(csv_path: &Path, prov: &Provenance) -> Result<PathBuf, IoError> {
+    let mut name = csv_path
+        .file_name()
+        .map(|n| n.to_os_string())
+        .unwrap_or_default();
+    name.push(".json");
+    let path = csv_path.with_file_name(name);
+    let bytes = serde_json::to_vec_pretty(prov)
+        .map_err(|e| IoError::content(Position::file(&path), e.to_string()))?;
+    write_atomic(&path, &bytes)
+}
+
+/// Writes the per-zone corrector file (and per-sounding files when asked), each with its sidecar.
+pub fn write_correctors(
+    loaded: &Loaded,
+    opts: &CorrectorsOptions,
+) -> Result<CorrectorsOutcome, IoError> {
+    if !(opts.step_min.is_finite() && opts.step_min > 0.0) {
+        return Err(IoError::content(
+            Position::file(&loaded.project.path).field("--step-min"),
+            "the step must be a positive number of minutes",
+        ));
+    }
+    let step_s = (opts.step_min * 60.0 * 1000.0).round() / 1000.0;
+    let (from, to) = match (opts.from_s, opts.to_s) {
+        (Some(a), Some(b)) => (a, b),
+        (a, b) => {
+            let r = soundings_time_range(loaded)?.ok_or_else(|| {
+                IoError::content(
+                    Position::file(&loaded.project.path),
+                    "no readable sounding gives a survey period: give --from and --to",
+                )
+            })?;
+            (
+                a.unwrap_or((r.0 / step_s).floor() * step_s),
+                b.unwrap_or((r.1 / step_s).ceil() * step_s),
+            )
+        }
+    };
+    if to < from {
+        return Err(IoError::content(
+            Position::file(&loaded.project.path).field("--to"),
+            "the span ends before it starts",
+        ));
+    }
+    let n = ((to - from) / step_s).floor() as usize + 1;
+    std::fs::create_dir_all(&opts.out_dir).map_err(|e| IoError::file(&opts.out_dir, e))?;
+    let unc = loaded.uncertainty.as_ref();
+    let per_zone: Vec<Vec<Corrector>> = loaded
+        .zones
+        .par_iter()
+        .enumerate()
+        .map(|(zi, z)| {
+            let u = unc.map(|u| CorrectorUncertainty {
+                gauge_u: &u.gauge_u,
+                zone_u: &u.zone_u[zi],
+                rates: &u.gauge_rates,
+            });
+            zone_correctors(
+                z,
+                &loaded.gauges,
+                loaded.interp.as_ref(),
+                u,
+                from,
+                step_s,
+                n,
+            )
+        })
+        .collect();
+    let mut text = String::with_capacity(n * loaded.zones.len() * 48 + 128);
+    text.push_str(&ZONE_CORRECTOR_COLUMNS.join(","));
+    text.push('\n');
+    let mut counts = [0usize; 4];
+    for (z, rows) in loaded.zones.iter().zip(&per_zone) {
+        push_zone_rows(&mut text, &z.id, rows);
+        for r in rows {
+            counts[r.status as usize] += 1;
+        }
+    }
+    let zone_path = opts.out_dir.join(ZONE_FILE);
+    let mut written = vec![write_atomic(&zone_path, text.as_bytes())?];
+    let mut prov = provenance(loaded, "per_zone", &zone_path, &[])?;
+    prov.step_min = Some(opts.step_min);
+    prov.span_utc = Some((
+        crate::compute::utc_label(from),
+        crate::compute::utc_label(from + (n - 1) as f64 * step_s),
+    ));
+    prov.columns = column_meanings(&ZONE_CORRECTOR_COLUMNS);
+    written.push(write_sidecar(&zone_path, &prov)?);
+    let soundings = if opts.per_sounding {
+        let run = reduce_project(
+            loaded,
+            &ReduceOptions {
+                out_dir: opts.out_dir.clone(),
+                progress: false,
+                kind: RunKind::SoundingCorrectors,
+                only_files: None,
+            },
+        )?;
+        for f in &run.files {
+            let mut prov = provenance(loaded, "per_sounding", &f.output, &[f.input.as_path()])?;
+            prov.columns = column_meanings(&crate::run::reduce::SOUNDING_CORRECTOR_COLUMNS);
+            written.push(f.output.clone());
+            written.push(write_sidecar(&f.output, &prov)?);
+        }
+        Some(run)
+    } else {
+        None
+    };
+    use crate::compute::correctors::CorrectorStatus as S;
+    Ok(CorrectorsOutcome {
+        written,
+        zone_rows_by_status: [S::Observed, S::Interpolated, S::GapFilled, S::Missing]
+            .iter()
+            .map(|s| (s.as_str(), counts[*s as usize]))
+            .collect(),
+        span_s: (from, from + (n - 1) as f64 * step_s),
+        soundings,
+    })
+}
+
+fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
+    cols.iter()
+        .map(|c| {
+            let m = match *c {
+                "zone" => "zone id of the zoning",
+                "time_utc" => "ISO 8601 time, UTC",
+                "tide_above_chart_datum_m" => "water level above chart datum, metres, positive up; empty when missing",
+                "u_tide_m" => "standard uncertainty (1 sigma) of the tide, metres; empty when not computed",
+                "status" => "observed | interpolated | gap_filled | missing (per zone); the sounding's status (per sounding)",
+                "line" => "survey line of the sounding",
+                "source_file" => "soundings file the row comes from",
+                "source_line" => "1-based line of the sounding in its file",
+                _ => "",
+            };
+            (c.to_string(), m.to_string())
+        })
+        .collect()
+}
+
+/// Reduces soundings with tide from a correction file (per zone: interpolated in time within
+/// the sounding's zone; per sounding: looked up by line and time).
+pub fn apply_corrections(
+    loaded: &Loaded,
+    corrections: &Path,
+    soundings: Vec<PathBuf>,
+    out_dir: PathBuf,
+) -> Result<RunSummary, IoError> {
+    let file = read_correction_file(corrections)?;
+    let zone_ids: Vec<&str> = loaded.zones.iter().map(|z| z.id.as_str()).collect();
+    let only = if soundings.is_empty() {
+        None
+    } else {
+        Some(soundings)
+    };
+    match file {
+        CorrectionFile::Zones(map) => {
+            for id in map.keys() {
+                if !zone_ids.contains(&id.as_str()) {
+                    return Err(IoError::content(
+                        Position::file(corrections).field("zone"),
+                        format!(
+                            "zone '{id}' is not in the project's zoning {}",
+                            loaded.project.spec.zoning.display()
+                        ),
+                    ));
+                }
+            }
+            let series: Vec<Vec<Corrector>> = zone_ids
+                .iter()
+                .map(|z| map.get(*z).cloned().unwrap_or_default())
+                .collect();
+            reduce_project(
+                loaded,
+                &ReduceOptions {
+                    out_dir,
+                    progress: false,
+                    kind: RunKind::Apply(ApplyModel::Zones(&series)),
+                    only_files: only,
+                },
+            )
+        }
+        CorrectionFile::Soundings(rows) => {
+            let model = SoundingTableModel {
+                table: sounding_corrections(rows, &zone_ids),
+            };
+            reduce_project(
+                loaded,
+                &ReduceOptions {
+                    out_dir,
+                    progress: false,
+                    kind: RunKind::Apply(ApplyModel::Soundings(&model)),
+                    only_files: only,
+                },
+            )
+        }
+    }
+}

@@ -1,0 +1,218 @@
+//! Tide-correction files: round trip through `correctors` and `apply`, provenance hashes,
+//! missing spans.
+
+use super::{neap, read_csv, repo, stderr, MiniProject};
+
+fn demo() -> String {
+    repo()
+        .join("zoning-demo/project.toml")
+        .to_string_lossy()
+        .into_owned()
+}
+
+fn column(path: &std::path::Path, name: &str) -> Vec<String> {
+    let (h, rows) = read_csv(path);
+    let c = h
+        .iter()
+        .position(|x| x == name)
+        .unwrap_or_else(|| panic!("no column {name}"));
+    rows.into_iter().map(|r| r[c].clone()).collect()
+}
+
+#[test]
+fn round_trip_through_correction_files() {
+    let d = tempfile::tempdir().unwrap();
+    let p = |s: &str| d.path().join(s).to_string_lossy().into_owned();
+    let o = neap(&[
+        "reduce",
+        &demo(),
+        "--out",
+        &p("direct"),
+        "--no-progress",
+        "--no-uncertainty",
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let o = neap(&["correctors", &demo(), "--out", &p("corr"), "--per-sounding"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = neap(&[
+        "apply",
+        &p("corr/correctors-zones.csv"),
+        "--project",
+        &demo(),
+        "--out",
+        &p("zones"),
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    for (name, _) in [("launch-a", 0), ("launch-b", 1)] {
+        let direct = d.path().join(format!("direct/{name}.reduced.csv"));
+        let via = d.path().join(format!("zones/{name}.applied.csv"));
+        assert_eq!(
+            column(&direct, "status"),
+            column(&via, "status"),
+            "{name}: same statuses"
+        );
+        // Per-zone file at a 1-min step, interpolated linearly: the tide between grid times
+        // differs from the direct one by the curvature between them (well under 1 mm here)
+        // plus the 0.1-mm rounding of the written depths.
+        let worst = column(&direct, "reduced_depth_m")
+            .iter()
+            .zip(column(&via, "reduced_depth_m"))
+            .filter(|(a, b)| !a.is_empty() && !b.is_empty())
+            .map(|(a, b)| (a.parse::<f64>().unwrap() - b.parse::<f64>().unwrap()).abs())
+            .fold(0.0, f64::max);
+        eprintln!("{name}: worst difference direct vs per-zone file {worst:.5} m");
+        assert!(worst <= 0.001, "{name}: {worst}");
+        // Per-sounding file: identical reduced depths, tides and statuses.
+        let o = neap(&[
+            "apply",
+            &p(&format!("corr/{name}.correctors.csv")),
+            repo()
+                .join(format!(
+                    "zoning-demo/soundings/{}",
+                    if name == "launch-a" {
+                        "launch-a.csv"
+                    } else {
+                        "launch-b.txt"
+                    }
+                ))
+                .to_str()
+                .unwrap(),
+            "--project",
+            &demo(),
+            "--out",
+            &p("sound"),
+        ]);
+        assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+        let via = d.path().join(format!("sound/{name}.applied.csv"));
+        for c in ["reduced_depth_m", "tide_m", "status", "zone"] {
+            assert_eq!(column(&direct, c), column(&via, c), "{name}: column {c}");
+        }
+    }
+}
+
+#[test]
+fn sidecar_hashes_every_input_and_changes_with_it() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let run = |out: &str| {
+        let o = neap(&[
+            "correctors",
+            &p.project(),
+            "--out",
+            &p.path(out).to_string_lossy(),
+        ]);
+        assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+        let v: serde_json::Value = serde_json::from_slice(
+            &std::fs::read(p.path(out).join("correctors-zones.csv.json")).unwrap(),
+        )
+        .unwrap();
+        v
+    };
+    let a = run("a");
+    assert_eq!(a["format"], "neap-tide-correctors/1");
+    assert_eq!(a["kind"], "per_zone");
+    let roles: Vec<&str> = a["inputs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|i| i["role"].as_str().unwrap())
+        .collect();
+    assert_eq!(roles, ["project", "zoning", "gauge record 'g1'"]);
+    assert_eq!(a["gauges"][0]["zero_above_datum_m"], 1.0);
+    assert_eq!(
+        a["zoning"]["zones"][1]["feeds"][0]["time_corrector_min"],
+        6.0
+    );
+    assert!(a["created_utc"].as_str().unwrap().ends_with('Z'));
+    // The hash of the gauge record equals an independent SHA-256 (FIPS 180-4) of the file:
+    // checked against the standard's "abc" example first.
+    let abc = p.path("abc.txt");
+    std::fs::write(&abc, b"abc").unwrap();
+    assert_eq!(
+        neap::io::correctors_file::sha256_file(&abc).unwrap(),
+        "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+    );
+    // Change one reading: only the gauge record's hash changes.
+    let g = std::fs::read_to_string(p.path("g1.csv"))
+        .unwrap()
+        .replacen("1.000", "1.001", 1);
+    p.write("g1.csv", &g);
+    let b = run("b");
+    let h =
+        |v: &serde_json::Value, i: usize| v["inputs"][i]["sha256"].as_str().unwrap().to_string();
+    assert_eq!(h(&a, 0), h(&b, 0));
+    assert_eq!(h(&a, 1), h(&b, 1));
+    assert_ne!(h(&a, 2), h(&b, 2));
+    assert_eq!(h(&a, 2).len(), 64);
+}
+
+#[test]
+fn a_span_without_gauge_data_gives_missing_rows_never_values() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    // The gauge runs 00:00-04:00 with a gap 02:00-03:00; ask for 23:50 the day before to 04:10.
+    let o = neap(&[
+        "correctors",
+        &p.project(),
+        "--out",
+        &p.path("c").to_string_lossy(),
+        "--from",
+        "2026-06-13T23:50:00Z",
+        "--to",
+        "2026-06-14T04:10:00Z",
+        "--step-min",
+        "5",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let (h, rows) = read_csv(&p.path("c/correctors-zones.csv"));
+    assert_eq!(
+        h,
+        [
+            "zone",
+            "time_utc",
+            "tide_above_chart_datum_m",
+            "u_tide_m",
+            "status"
+        ]
+    );
+    let z1: Vec<_> = rows.iter().filter(|r| r[0] == "Z1").collect();
+    assert_eq!(z1.len(), 53, "23:50 to 04:10 every 5 min: 260 min / 5 + 1");
+    for r in &z1 {
+        let t = &r[1];
+        let missing = t.as_str() < "2026-06-14T00:00:00Z"
+            || (t.as_str() > "2026-06-14T02:00:00Z" && t.as_str() < "2026-06-14T03:00:00Z")
+            || t.as_str() > "2026-06-14T04:00:00Z";
+        if missing {
+            assert_eq!((r[2].as_str(), r[4].as_str()), ("", "missing"), "{r:?}");
+        } else {
+            assert!(!r[2].is_empty() && r[4] != "missing", "{r:?}");
+        }
+    }
+    // Z1 at 00:30 is a gauge sample (Δt 0): observed, 2.0 + 0.030 = 2.03 m.
+    let r = z1.iter().find(|r| r[1] == "2026-06-14T00:30:00Z").unwrap();
+    assert!((r[2].parse::<f64>().unwrap() - 2.03).abs() < 1e-12, "{r:?}");
+    assert_eq!(r[4], "observed");
+    // Z1 at 00:10 lies between samples 00:06 and 00:12: interpolated.
+    let r = z1.iter().find(|r| r[1] == "2026-06-14T00:10:00Z").unwrap();
+    assert_eq!(r[4], "interpolated");
+    assert!(stderr(&o).contains("u_tide_m left empty"));
+}
+
+#[test]
+fn a_file_that_is_not_a_correction_file_is_refused_with_its_header() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let o = neap(&[
+        "apply",
+        &p.path("s.csv").to_string_lossy(),
+        "--project",
+        &p.project(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o)
+            .contains("s.csv:1: not a tide-correction file: expected the header 'zone,time_utc,"),
+        "{}",
+        stderr(&o)
+    );
+}
