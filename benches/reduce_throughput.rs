@@ -9,13 +9,14 @@
 //!
 //! What it does:
 //!
-//! 1. Generates (once, cached in `<target>/bench-data/n<N>/`) `soundings.csv`: N rows in the
+//! 1. Generates (once, cached in `<target>/bench-data/n<N>/`) `soundings-v1.csv`: N rows in the
 //!    layout of `zoning-demo/soundings/launch-a.csv` (`time,easting,northing,depth_m,line`, UTM
 //!    24S metres, RFC 3339 UTC times). Row `i` takes the position, depth and line of launch-a row
 //!    `i mod 53811` and moves the position by a deterministic offset of at most ±0.5 m on each
 //!    axis; times run evenly from 2026-06-14T07:00Z to 17:00Z. Beside it, `project.toml`: the
-//!    demo project with absolute paths to the demo's gauges and zoning and a single `[[soundings]]`
-//!    group (the launch-a group's layout keys) naming the big file.
+//!    demo's zoning and gauge tables (absolute paths) and a single `[[soundings]]` group (the
+//!    launch-a group's layout keys) naming the big file. Other top-level tables of the demo
+//!    project (such as `[uncertainty]`) are left out and named in the output.
 //! 2. Runs, `--runs` times each and alternating, two child processes on that file:
 //!    * **baseline**: this executable again (`--baseline-child IN OUT`), single-threaded: a
 //!      `csv::Reader` with a reused `ByteRecord` (`read_byte_record`), the depth, easting and
@@ -24,9 +25,11 @@
 //!      256 KiB `BufWriter`;
 //!    * **neap**: `<target>/release/neap reduce <project> --out <dir> --no-progress`.
 //!
-//!    For each child: wall time (spawn to exit) and, from `wait4` on that child's pid, its own
-//!    peak resident set (`ru_maxrss`) and CPU time. Outputs are checked (header + one line per
-//!    sounding), then deleted before the next run.
+//!    Before each child it waits (at most `--wait-idle` seconds, default 120; 0 to skip) until
+//!    the machine has been idle for 3 s. For each child: wall time (spawn to exit) and, from
+//!    `wait4` on that child's pid, its own peak resident set (`ru_maxrss`) and CPU time; and the
+//!    CPU time other processes used meanwhile (from /proc/stat), which flags a disturbed run.
+//!    Outputs are checked (header + one line per sounding), then deleted before the next run.
 //! 3. Prints medians, throughput and peak memory, the machine, and a Markdown table that is also
 //!    written to `<target>/bench-data/results-n<N>.md`.
 //!
@@ -43,6 +46,12 @@ use std::time::{Instant, SystemTime};
 const DEFAULT_SOUNDINGS: u64 = 5_000_000;
 /// Default number of runs of each side.
 const DEFAULT_RUNS: usize = 3;
+/// Default longest wait for an idle machine before each run, seconds.
+const DEFAULT_WAIT_IDLE_S: u64 = 120;
+/// The machine counts as idle after this many consecutive seconds in which all processes
+/// together used less than `IDLE_BUSY_CPU_PER_S` CPU seconds per second.
+const IDLE_STREAK_S: u32 = 3;
+const IDLE_BUSY_CPU_PER_S: f64 = 0.05;
 /// Buffer size of the baseline's reader and writer, and of the line counter.
 const IO_BUFFER_BYTES: usize = 256 * 1024;
 /// Start of the generated soundings' times: 2026-06-14T07:00:00Z, seconds since 1970-01-01.
@@ -60,7 +69,8 @@ const NEAP_PEAK_RSS_TARGET_MIB: f64 = 50.0;
 /// second of its wall time.
 const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
 
-const USAGE: &str = "usage: cargo bench --bench reduce_throughput [-- --soundings N] [--runs K]";
+const USAGE: &str = "usage: cargo bench --bench reduce_throughput \
+    [-- [--soundings N] [--runs K] [--wait-idle SECONDS]]";
 
 fn main() -> ExitCode {
     let args: Vec<String> = std::env::args().skip(1).collect();
@@ -79,6 +89,7 @@ fn main() -> ExitCode {
     }
     let mut soundings = DEFAULT_SOUNDINGS;
     let mut runs = DEFAULT_RUNS;
+    let mut wait_idle_s = DEFAULT_WAIT_IDLE_S;
     let mut it = args.iter();
     while let Some(a) = it.next() {
         match a.as_str() {
@@ -92,6 +103,10 @@ fn main() -> ExitCode {
                 Some(k) if k > 0 => runs = k as usize,
                 _ => return usage_error("--runs needs a positive whole number"),
             },
+            "--wait-idle" => match it.next().and_then(|v| parse_count(v)) {
+                Some(w) => wait_idle_s = w,
+                None => return usage_error("--wait-idle needs a whole number of seconds"),
+            },
             "-h" | "--help" => {
                 println!("{USAGE}");
                 return ExitCode::SUCCESS;
@@ -99,7 +114,7 @@ fn main() -> ExitCode {
             other => return usage_error(&format!("unknown argument '{other}'")),
         }
     }
-    exit_on_error(bench(soundings, runs))
+    exit_on_error(bench(soundings, runs, wait_idle_s))
 }
 
 fn usage_error(msg: &str) -> ExitCode {
@@ -514,6 +529,35 @@ fn machine_busy_s() -> f64 {
     busy as f64 / ticks_per_s
 }
 
+/// Waits until the machine has been idle for `IDLE_STREAK_S` seconds, at most `max_s` seconds.
+/// Returns whether it became idle.
+fn wait_for_idle(max_s: u64) -> bool {
+    if max_s == 0 {
+        return true;
+    }
+    let start = Instant::now();
+    let mut streak = 0;
+    let mut told = false;
+    while start.elapsed().as_secs() < max_s {
+        let before_s = machine_busy_s();
+        std::thread::sleep(std::time::Duration::from_secs(1));
+        if machine_busy_s() - before_s < IDLE_BUSY_CPU_PER_S {
+            streak += 1;
+            if streak >= IDLE_STREAK_S {
+                return true;
+            }
+        } else {
+            streak = 0;
+            if !told {
+                eprintln!("reduce_throughput: waiting for other processes to go idle…");
+                told = true;
+            }
+        }
+    }
+    eprintln!("reduce_throughput: the machine is still busy after {max_s} s; running anyway");
+    false
+}
+
 /// Runs `cmd` with stdout and stderr to `log`, waits for it with `wait4` on its pid, and returns
 /// its wall time, CPU time and peak resident set.
 fn run_measured(cmd: &mut Command, log: &Path) -> Result<Measured, String> {
@@ -744,7 +788,7 @@ fn neap_status_counts(summary: &Path) -> String {
         .join(", ")
 }
 
-fn bench(n: u64, runs: usize) -> Result<(), String> {
+fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
     let paths = locate()?;
     warn_if_stale(&paths.neap);
     let this_exe = std::env::current_exe().map_err(|e| e.to_string())?;
@@ -841,6 +885,7 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
     let mut statuses = String::new();
     for run in 1..=runs {
         // Baseline.
+        wait_for_idle(wait_idle_s);
         let mut cmd = Command::new(&this_exe);
         cmd.arg("--baseline-child").arg(&csv).arg(&base_out);
         let b = run_measured(&mut cmd, &base_log)?;
@@ -884,6 +929,7 @@ fn bench(n: u64, runs: usize) -> Result<(), String> {
         remove_if_present(&base_out)?;
 
         // neap.
+        wait_for_idle(wait_idle_s);
         let mut cmd = Command::new(&paths.neap);
         cmd.arg("reduce")
             .arg(&project)

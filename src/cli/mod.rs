@@ -208,6 +208,11 @@ fn run_reduce(
         Ok(mut l) => {
             if no_uncertainty {
                 l.uncertainty = None;
+            } else if order.is_some() && l.uncertainty.is_none() {
+                eprintln!(
+                    "neap: --order needs an [uncertainty] section in the project (see docs/project-file.md)"
+                );
+                return Ok(Err(EXIT_CANNOT_RUN));
             }
             l
         }
@@ -250,10 +255,16 @@ fn run_reduce(
                 json_path.display()
             ))
         }
-        None => Some(
-            "  uncertainty: not computed (no [uncertainty] section in the project, or --no-uncertainty)"
-                .into(),
-        ),
+        None => {
+            // A report left by an earlier run would not describe this one.
+            for stale in ["qa-report.json", "qa-report.html"] {
+                let _ = std::fs::remove_file(out_dir.join(stale));
+            }
+            Some(
+                "  uncertainty: not computed (no [uncertainty] section in the project, or --no-uncertainty)"
+                    .into(),
+            )
+        }
     };
     print_summary(&name, &summary, &summary_path, verdict.as_deref());
     Ok(Ok((summary, out_dir)))

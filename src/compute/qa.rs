@@ -111,6 +111,7 @@ impl BudgetQa {
             .collect();
         let dominant = components
             .iter()
+            .filter(|_| self.n > 0)
             .max_by(|a, b| a.mean_share.total_cmp(&b.mean_share))
             .map(|c| c.component)
             .unwrap_or("none");
@@ -372,6 +373,11 @@ mod tests {
         let total: f64 = s.components.iter().map(|c| c.mean_share).sum();
         assert!((total - 1.0).abs() < 1e-12, "{total}");
         assert_eq!(s.dominant_component, "timing");
+    }
+
+    #[test]
+    fn an_empty_group_has_no_dominant_component() {
+        assert_eq!(BudgetQa::default().summary().dominant_component, "none");
     }
 
     #[test]

@@ -192,3 +192,40 @@ fn without_uncertainty_there_are_no_uncertainty_columns_and_no_report() {
     assert!(!out.path().join("qa-report.json").exists());
     assert!(err.contains("uncertainty: not computed"), "{err}");
 }
+
+#[test]
+fn a_rerun_without_uncertainty_removes_the_stale_report() {
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().to_str().unwrap();
+    let project = repo().join("zoning-demo/project.toml");
+    let p = project.to_str().unwrap();
+    assert_eq!(
+        neap(&["reduce", p, "--out", o, "--no-progress"])
+            .status
+            .code(),
+        Some(1)
+    );
+    assert!(out.path().join("qa-report.html").exists());
+    assert_eq!(
+        neap(&["reduce", p, "--out", o, "--no-progress", "--no-uncertainty"])
+            .status
+            .code(),
+        Some(1)
+    );
+    assert!(!out.path().join("qa-report.html").exists());
+    assert!(!out.path().join("qa-report.json").exists());
+}
+
+#[test]
+fn an_order_without_uncertainty_inputs_is_refused() {
+    let p = super::MiniProject::new(
+        "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n",
+    );
+    let o = neap(&["reduce", &p.project(), "--order", "1a", "--no-progress"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("--order needs an [uncertainty] section"),
+        "{}",
+        stderr(&o)
+    );
+}
