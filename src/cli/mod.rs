@@ -224,6 +224,7 @@ fn run_reduce(
             return Ok(Err(EXIT_CANNOT_RUN));
         }
     };
+    print_findings(&loaded.warnings);
     let summary = reduce_project(
         &loaded,
         &ReduceOptions {

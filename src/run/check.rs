@@ -89,6 +89,9 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             ));
         }
     }
+    if let Some(l) = &loaded {
+        report.findings.extend(l.warnings.iter().cloned());
+    }
     let Some(loaded) = loaded else {
         finish(&mut report);
         return report;

@@ -31,6 +31,8 @@ pub struct Loaded {
     pub interp: Box<dyn TimeInterpolation>,
     /// Uncertainty inputs, when the project has an `[uncertainty]` section.
     pub uncertainty: Option<UncertaintyConfig>,
+    /// Problems found while loading that do not stop a run.
+    pub warnings: Vec<Finding>,
 }
 
 /// Uncertainty inputs resolved for every gauge and zone.
@@ -74,6 +76,9 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                         Position::file(&g.record),
                         format!("{} more times out of order", r.order_problems.len() - 20),
                     ));
+                }
+                if let Some(f) = plausibility(g, &r) {
+                    findings.push(f);
                 }
                 if r.series.times_s.is_empty() {
                     findings.push(Finding::error(
@@ -280,7 +285,51 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         zones,
         interp: Box::new(Linear),
         uncertainty,
+        warnings: findings,
     })
+}
+
+/// Checks a record's mean level against the gauge's stated mean level above chart datum.
+///
+/// A record whose mean lies far from the stated mean (more than 0.5 m and more than a quarter of
+/// its range: a day's mean lies within a few decimetres of mean sea level, common practice) is a
+/// warning; when reading the heights as international feet would fit the stated mean three times
+/// better, the record is taken to be in feet without saying so, and that is an error.
+pub fn plausibility(g: &crate::io::project::GaugeSpec, r: &GaugeRecord) -> Option<Finding> {
+    let h = &r.series.heights_m;
+    if h.len() < 10 {
+        return None;
+    }
+    let mean = h.iter().sum::<f64>() / h.len() as f64;
+    let (lo, hi) = h
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+            (a.min(*x), b.max(*x))
+        });
+    let off = (mean - g.mean_level_above_datum_m).abs();
+    if off <= 0.5_f64.max(0.25 * (hi - lo)) {
+        return None;
+    }
+    let at = Position::file(&g.record).field(g.height_column.clone());
+    // The readings in the declared unit, re-read as feet.
+    let reading_mean = (mean - g.zero_above_datum_m) / g.units.metres_per_unit();
+    let as_feet = reading_mean * 0.3048 + g.zero_above_datum_m;
+    let off_feet = (as_feet - g.mean_level_above_datum_m).abs();
+    let msg = format!(
+        "the record's mean level is {mean:.2} m above chart datum, but gauge '{}' states mean_level_above_datum_m = {:.2} m",
+        g.id, g.mean_level_above_datum_m
+    );
+    if g.units != crate::io::project::HeightUnit::Foot && off_feet * 3.0 < off {
+        Some(Finding::error(
+            at,
+            format!("{msg}; read as feet it would be {as_feet:.2} m: are the heights in feet? (set units = \"ft\")"),
+        ))
+    } else {
+        Some(Finding::warning(
+            at,
+            format!("{msg}: check units, zero_above_datum_m and the stated mean"),
+        ))
+    }
 }
 
 /// Builds the zone locator for one CRS (the zoning transformed into it).

@@ -855,6 +855,15 @@ fn process_chunk(
                         }
                         TideOutcome::Outside => {
                             detail.push_str("position is outside every zone");
+                            // A common mistake: x and y (longitude and latitude) swapped.
+                            if let TideOutcome::Tide { zone: z, .. }
+                            | TideOutcome::NoData { zone: z, .. } =
+                                model.tide_at(v.y, v.x, v.t_s, v.line_id, &mut states)
+                            {
+                                detail.push_str(" (with x and y swapped it would be in zone '");
+                                detail.push_str(ctx.zone_ids[z]);
+                                detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
+                            }
                             SoundingStatus::OutsideZoning
                         }
                         TideOutcome::NoCorrection { zone: z, why } => {

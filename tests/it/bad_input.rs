@@ -153,3 +153,41 @@ fn unusable_inputs_stop_the_run_with_file_line_and_field() {
         "temporary removed"
     );
 }
+
+#[test]
+fn a_gauge_record_in_feet_without_saying_so_is_caught() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    // Readings of about 1.1 m written in feet (÷ 0.3048 ≈ 3.6): the record's mean level above
+    // chart datum comes out near 4.6 m against the stated 2.1 m; read as feet it is 2.1 m.
+    let mut g = String::from("time,height\n");
+    for m in (0..=240).step_by(6) {
+        g.push_str(&format!(
+            "2026-06-14T{:02}:{:02}:00Z,{:.3}\n",
+            m / 60,
+            m % 60,
+            (1.0 + 0.001 * m as f64) / 0.3048
+        ));
+    }
+    p.write("g1.csv", &g);
+    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(
+        err.contains("g1.csv: field 'height': the record's mean level is 4.6"),
+        "{err}"
+    );
+    assert!(err.contains("read as feet it would be 2.1"), "{err}");
+    assert!(err.contains("set units = \"ft\""), "{err}");
+}
+
+#[test]
+fn swapped_longitude_and_latitude_are_named() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,50.005,10.005,10.0,L1\n");
+    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(1));
+    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
+    let d = &rows[0][h.iter().position(|c| c == "status_detail").unwrap()];
+    assert_eq!(d, "position is outside every zone (with x and y swapped it would be in zone 'Z1': check the column mapping, x = longitude or easting, y = latitude or northing)");
+}
