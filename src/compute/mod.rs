@@ -20,16 +20,13 @@ pub mod zoning;
 
 /// Formats UTC seconds as an ISO 8601 label (`2026-06-14T09:30:00Z`) for messages.
 pub fn utc_label(t_s: f64) -> String {
-    let whole = t_s.floor();
-    let nanos = ((t_s - whole) * 1e9).round().min(999_999_999.0) as u32;
-    match chrono::DateTime::from_timestamp(whole as i64, nanos) {
-        Some(dt) => {
-            if nanos == 0 {
-                dt.format("%Y-%m-%dT%H:%M:%SZ").to_string()
-            } else {
-                dt.format("%Y-%m-%dT%H:%M:%S%.3fZ").to_string()
-            }
-        }
+    let ms = (t_s * 1000.0).round();
+    if !ms.is_finite() || ms.abs() > 8.0e15 {
+        return format!("{t_s} s since 1970");
+    }
+    match chrono::DateTime::from_timestamp_millis(ms as i64) {
+        Some(dt) if (ms as i64) % 1000 == 0 => dt.format("%Y-%m-%dT%H:%M:%SZ").to_string(),
+        Some(dt) => dt.format("%Y-%m-%dT%H:%M:%S%.3fZ").to_string(),
         None => format!("{t_s} s since 1970"),
     }
 }

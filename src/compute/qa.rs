@@ -54,11 +54,15 @@ impl GroupQa {
     }
 }
 
+/// Shares are summed as integers in units of 1e-9, so totals do not depend on the order in which
+/// soundings (chunks, files, threads) are added.
+const SHARE_UNITS: f64 = 1e9;
+
 /// Budget shares for one group.
 #[derive(Debug, Clone)]
 pub struct BudgetQa {
     n: u64,
-    share_sum: [f64; 6],
+    share_sum: [u64; 6],
     share_hist: [[u64; SHARE_BINS]; 6],
 }
 
@@ -66,7 +70,7 @@ impl Default for BudgetQa {
     fn default() -> Self {
         BudgetQa {
             n: 0,
-            share_sum: [0.0; 6],
+            share_sum: [0; 6],
             share_hist: [[0; SHARE_BINS]; 6],
         }
     }
@@ -81,7 +85,7 @@ impl BudgetQa {
         self.n += 1;
         for (k, v) in var_m2.iter().enumerate() {
             let s = v / total;
-            self.share_sum[k] += s;
+            self.share_sum[k] += (s * SHARE_UNITS).round() as u64;
             let b = ((s * SHARE_BINS as f64) as usize).min(SHARE_BINS - 1);
             self.share_hist[k][b] += 1;
         }
@@ -102,7 +106,7 @@ impl BudgetQa {
             .map(|(k, name)| ComponentShare {
                 component: name,
                 mean_share: if self.n > 0 {
-                    self.share_sum[k] / self.n as f64
+                    self.share_sum[k] as f64 / SHARE_UNITS / self.n as f64
                 } else {
                     0.0
                 },
@@ -371,7 +375,8 @@ mod tests {
         b.add(&[0.0025, 0.0004, 0.0016, 0.0009, 0.0, 0.0025]);
         let s = b.summary();
         let total: f64 = s.components.iter().map(|c| c.mean_share).sum();
-        assert!((total - 1.0).abs() < 1e-12, "{total}");
+        // Shares are summed in units of 1e-9: six roundings of at most 0.5e-9 each.
+        assert!((total - 1.0).abs() < 3.1e-9, "{total}");
         assert_eq!(s.dominant_component, "timing");
     }
 

@@ -172,7 +172,11 @@ impl TimeInterpolation for Linear {
         let (h0, h1) = (series.heights_m[i], series.heights_m[i + 1]);
         let rate = (h1 - h0) / (t1 - t0);
         Ok(LevelAt {
-            height_m: h0 + rate * (t_s - t0),
+            height_m: if t_s == t1 {
+                h1
+            } else {
+                h0 + rate * (t_s - t0)
+            },
             rate_m_per_s: rate,
             bracket: i,
         })
@@ -256,5 +260,47 @@ mod tests {
             max_gap_s: 60.0,
         };
         assert_eq!(Linear.level_at(&empty, 0.0), Err(NoLevel::EmptyRecord));
+    }
+}
+
+#[cfg(test)]
+mod properties {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn series_strategy() -> impl Strategy<Value = LevelSeries> {
+        prop::collection::vec((1.0f64..900.0, -3.0f64..8.0), 2..60).prop_map(|steps| {
+            let mut t = 0.0;
+            let mut times = Vec::new();
+            let mut heights = Vec::new();
+            for (dt, h) in steps {
+                t += dt;
+                times.push(t);
+                heights.push(h);
+            }
+            LevelSeries {
+                times_s: times,
+                heights_m: heights,
+                max_gap_s: 600.0,
+            }
+        })
+    }
+
+    proptest! {
+        /// Linear interpolation stays within the two bracketing samples, and returns each
+        /// sample's reading at its own time.
+        #[test]
+        fn linear_stays_within_the_bracketing_samples(s in series_strategy(), frac in 0.0f64..1.0) {
+            let t = s.times_s[0] + frac * (s.times_s[s.times_s.len() - 1] - s.times_s[0]);
+            if let Ok(at) = Linear.level_at(&s, t) {
+                let i = at.bracket;
+                let (a, b) = (s.heights_m[i], s.heights_m[i + 1]);
+                prop_assert!(at.height_m >= a.min(b) - 1e-12 && at.height_m <= a.max(b) + 1e-12);
+                prop_assert!(s.times_s[i] <= t && t <= s.times_s[i + 1]);
+            }
+            for (k, &tk) in s.times_s.iter().enumerate() {
+                prop_assert_eq!(Linear.level_at(&s, tk).unwrap().height_m, s.heights_m[k]);
+            }
+        }
     }
 }

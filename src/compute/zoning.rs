@@ -289,3 +289,52 @@ mod tests {
         assert!(matches!(err.why, NoLevel::BeforeRecord { .. }));
     }
 }
+
+#[cfg(test)]
+mod properties {
+    use super::*;
+    use crate::compute::reduce::reduce_depth;
+    use crate::compute::series::Linear;
+    use proptest::prelude::*;
+
+    proptest! {
+        /// A zone with Δt = 0 and R = 1 (either form, with M_z = M_g) gives the gauge's own level.
+        #[test]
+        fn unit_correctors_give_the_gauge_level(
+            heights in prop::collection::vec(-2.0f64..9.0, 2..40),
+            mean in 0.0f64..5.0,
+            frac in 0.0f64..1.0,
+            zone_mean_form in any::<bool>(),
+        ) {
+            let n = heights.len();
+            let g = vec![Gauge {
+                id: "g".into(),
+                series: LevelSeries {
+                    times_s: (0..n).map(|i| i as f64 * 360.0).collect(),
+                    heights_m: heights,
+                    max_gap_s: 1800.0,
+                },
+                mean_level_above_datum_m: mean,
+            }];
+            let z = Zone {
+                id: "z".into(),
+                feeds: vec![GaugeFeed { gauge: 0, weight: 1.0, time_corrector_min: 0.0, range_ratio: 1.0 }],
+                mean_level: if zone_mean_form {
+                    MeanLevelForm::ZoneMean { zone_mean_level_above_datum_m: mean }
+                } else {
+                    MeanLevelForm::Scaled
+                },
+            };
+            let t = frac * (n - 1) as f64 * 360.0;
+            let want = Linear.level_at(&g[0].series, t).unwrap().height_m;
+            let got = z.tide_at(&g, &Linear, t, &mut Vec::new()).unwrap();
+            prop_assert!((got - want).abs() < 1e-9, "{} vs {}", got, want);
+        }
+
+        /// Adding the tide back to a reduced depth gives the observed depth.
+        #[test]
+        fn tide_added_back_gives_the_observed_depth(depth in -5.0f64..500.0, tide in -3.0f64..12.0) {
+            prop_assert!((reduce_depth(depth, tide) + tide - depth).abs() <= 1e-12 * (1.0 + depth.abs()));
+        }
+    }
+}

@@ -177,3 +177,28 @@ mod tests {
         assert_eq!(parse_offset("-03:30").unwrap().local_minus_utc(), -12600);
     }
 }
+
+#[cfg(test)]
+mod properties {
+    use super::*;
+    use proptest::prelude::*;
+
+    proptest! {
+        /// A time written by neap (ISO 8601 UTC, millisecond precision) reads back to the same
+        /// instant, and so does the same instant written with any fixed offset.
+        #[test]
+        fn written_times_read_back(ms in 0i64..4_102_444_800_000, off_min in -720i32..=840) {
+            let t = ms as f64 / 1000.0;
+            let text = crate::compute::utc_label(t);
+            let back = parse_time(&text, TimeFormat::Iso8601, None).unwrap();
+            prop_assert!((back - t).abs() < 5e-4, "{} -> {} -> {}", t, text, back);
+            let off = FixedOffset::east_opt(off_min * 60).unwrap();
+            let local = chrono::DateTime::from_timestamp_millis(ms).unwrap().with_timezone(&off);
+            let text = local.format("%Y-%m-%dT%H:%M:%S%.3f%:z").to_string();
+            let back = parse_time(&text, TimeFormat::Iso8601, None).unwrap();
+            prop_assert!((back - t).abs() < 5e-4, "{}", text);
+            let naive = local.format("%Y-%m-%dT%H:%M:%S%.3f").to_string();
+            prop_assert!((parse_time(&naive, TimeFormat::Iso8601, Some(off)).unwrap() - t).abs() < 5e-4);
+        }
+    }
+}

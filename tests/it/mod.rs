@@ -6,6 +6,7 @@ mod correctors;
 mod crs_reference;
 mod demo_recovery;
 mod outputs;
+mod properties;
 mod qa_report;
 
 use std::path::{Path, PathBuf};

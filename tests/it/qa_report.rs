@@ -50,7 +50,7 @@ fn json_report_is_schema_valid_and_consistent() {
             .iter()
             .map(|c| c["mean_share"].as_f64().unwrap())
             .sum();
-        assert!((total - 1.0).abs() < 1e-9, "{}: {total}", g["id"]);
+        assert!((total - 1.0).abs() < 3.1e-9, "{}: {total}", g["id"]); // 1e-9 units, six roundings
     }
     let reduced = report["rows_by_status"]["reduced"].as_u64().unwrap();
     assert_eq!(report["survey"]["soundings"].as_u64(), Some(reduced));
