@@ -23,9 +23,10 @@
 //!      northing parsed as `f64`, every record written back with three float columns appended
 //!      (depth, depth + 1, depth − 1, formatted with `ryu`) through a `csv::Writer` over a
 //!      256 KiB `BufWriter`;
-//!    * **neap**: `<target>/release/neap reduce <project> --out <dir> --no-progress`.
+//!    * **neap**: `<target>/release/neap reduce <project> --out <dir> --no-progress`, run from a
+//!      copy taken at the start (a rebuild during the benchmark cannot mix two builds).
 //!
-//!    Before each child it waits (at most `--wait-idle` seconds, default 120; 0 to skip) until
+//!    Before each child it waits (at most `--wait-idle` seconds, default 60; 0 to skip) until
 //!    the machine has been idle for 3 s. For each child: wall time (spawn to exit) and, from
 //!    `wait4` on that child's pid, its own peak resident set (`ru_maxrss`) and CPU time; and the
 //!    CPU time other processes used meanwhile (from /proc/stat), which flags a disturbed run.
@@ -47,7 +48,7 @@ const DEFAULT_SOUNDINGS: u64 = 5_000_000;
 /// Default number of runs of each side.
 const DEFAULT_RUNS: usize = 3;
 /// Default longest wait for an idle machine before each run, seconds.
-const DEFAULT_WAIT_IDLE_S: u64 = 120;
+const DEFAULT_WAIT_IDLE_S: u64 = 60;
 /// The machine counts as idle after this many consecutive seconds in which all processes
 /// together used less than `IDLE_BUSY_CPU_PER_S` CPU seconds per second.
 const IDLE_STREAK_S: u32 = 3;
@@ -698,17 +699,14 @@ fn machine() -> Machine {
 }
 
 /// `neap --version` and when the binary was built (its modification time).
-fn neap_build(neap: &Path) -> String {
+fn neap_build(neap: &Path, built_at: Option<SystemTime>) -> String {
     let version = Command::new(neap)
         .arg("--version")
         .output()
         .ok()
         .map(|o| String::from_utf8_lossy(&o.stdout).trim().to_string())
         .unwrap_or_default();
-    let built = fs::metadata(neap)
-        .and_then(|m| m.modified())
-        .map(utc_label)
-        .unwrap_or_default();
+    let built = built_at.map(utc_label).unwrap_or_default();
     format!("{version}, built {built}")
 }
 
@@ -843,6 +841,25 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
     remove_if_present(&neap_out)?;
     remove_if_present(&base_out)?;
 
+    // Run a copy, so that a rebuild of target/release/neap during the benchmark (cargo by
+    // another user of the target folder) cannot mix two builds in one result.
+    let neap_copy = dir.join("neap-under-test");
+    let modified = |p: &Path| fs::metadata(p).and_then(|m| m.modified()).ok();
+    let built_at = modified(&paths.neap);
+    fs::copy(&paths.neap, &neap_copy).map_err(|e| {
+        format!(
+            "cannot copy {} to {}: {e}",
+            paths.neap.display(),
+            neap_copy.display()
+        )
+    })?;
+    if modified(&paths.neap) != built_at {
+        return Err(format!(
+            "{} changed while it was being copied (a build is running?): run again",
+            paths.neap.display()
+        ));
+    }
+    let built = neap_build(&neap_copy, built_at);
     let m = machine();
     let load_before = load_average();
     // Peak RSS that a trivial child reports when started from this process: the floor that any
@@ -858,11 +875,8 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
             not_carried.join(", ")
         );
     }
-    println!(
-        "  neap      {} ({})",
-        paths.neap.display(),
-        neap_build(&paths.neap)
-    );
+    println!("  neap      {} ({})", paths.neap.display(), built);
+    println!("            run from a copy: {}", neap_copy.display());
     println!(
         "  machine   {} | {} logical CPUs | {:.1} GiB RAM | Linux {}",
         m.cpu_model, m.logical_cpus, m.memory_gib, m.kernel
@@ -930,7 +944,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
 
         // neap.
         wait_for_idle(wait_idle_s);
-        let mut cmd = Command::new(&paths.neap);
+        let mut cmd = Command::new(&neap_copy);
         cmd.arg("reduce")
             .arg(&project)
             .arg("--out")
@@ -995,7 +1009,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
          Machine: {}, {} logical CPUs, {:.1} GiB RAM, Linux {}. Load average before/after: \
          {load_before} / {load_after}.\n\n",
         utc_label(SystemTime::now()),
-        neap_build(&paths.neap),
+        built,
         m.cpu_model,
         m.logical_cpus,
         m.memory_gib,

@@ -326,6 +326,11 @@ fn print_summary(name: &str, s: &RunSummary, summary_path: &Path, verdict: Optio
             );
         }
     }
+    for f in &s.files {
+        if let Some(w) = f.sign_warning() {
+            let _ = writeln!(e, "warning: {w}");
+        }
+    }
     if s.stale_partials_removed > 0 {
         let _ = writeln!(
             e,

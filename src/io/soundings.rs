@@ -257,6 +257,20 @@ pub struct SoundingValues<'a> {
     pub u_depth_m: Option<f64>,
 }
 
+/// Deepest plausible depth, metres: the deepest ocean trench is about 11 km deep (common
+/// knowledge), so anything beyond 12 km is a broken value.
+pub const MAX_PLAUSIBLE_DEPTH_M: f64 = 12_000.0;
+
+/// A field value as quoted in a message: at most 40 characters.
+pub fn clip(s: &str) -> String {
+    if s.chars().count() <= 40 {
+        s.to_string()
+    } else {
+        let head: String = s.chars().take(40).collect();
+        format!("{head}… ({} bytes)", s.len())
+    }
+}
+
 /// Why a line is not a sounding: the field (column name) and what was wrong.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RowProblem {
@@ -402,29 +416,41 @@ impl SoundingLayout {
             let s = get(i)?;
             let v: f64 = s.parse().map_err(|_| RowProblem {
                 field: self.column_names[i].clone(),
-                message: format!("expected {what}, found '{s}'"),
+                message: format!("expected {what}, found '{}'", clip(s)),
             })?;
             if v.is_finite() {
                 Ok(v)
             } else {
                 Err(RowProblem {
                     field: self.column_names[i].clone(),
-                    message: format!("expected {what} (finite), found '{s}'"),
+                    message: format!("expected {what} (finite), found '{}'", clip(s)),
                 })
             }
         };
+        let t_txt = get(self.time)?;
         let t_s =
-            parse_time(get(self.time)?, self.time_format, self.naive_offset).map_err(|m| {
-                RowProblem {
-                    field: self.column_names[self.time].clone(),
-                    message: m,
-                }
+            parse_time(t_txt, self.time_format, self.naive_offset).map_err(|m| RowProblem {
+                field: self.column_names[self.time].clone(),
+                message: if t_txt.len() > 60 {
+                    format!("expected a time, found '{}'", clip(t_txt))
+                } else {
+                    m
+                },
             })?;
         let x = number(self.x, "a coordinate")?;
         let y = number(self.y, "a coordinate")?;
         let mut depth_m = number(self.depth, "a depth in metres")?;
         if self.depth_sign == DepthSign::PositiveUp {
             depth_m = -depth_m;
+        }
+        if depth_m.abs() > MAX_PLAUSIBLE_DEPTH_M {
+            return Err(RowProblem {
+                field: self.column_names[self.depth].clone(),
+                message: format!(
+                    "'{}' is not a plausible depth in metres (beyond ±{MAX_PLAUSIBLE_DEPTH_M} m)",
+                    clip(get(self.depth)?)
+                ),
+            });
         }
         let line_id = match self.line {
             Some(i) => get(i)?,

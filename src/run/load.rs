@@ -109,6 +109,9 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     for z in &zoning.zones {
         let at = Position::file(&project.spec.zoning)
             .field(format!("features[{}].properties", z.feature_index));
+        if let Some(m) = self_intersection(&z.polygon_lonlat) {
+            findings.push(Finding::error(at.clone(), format!("zone '{}': {m}", z.id)));
+        }
         for ring in &z.unclosed_rings {
             findings.push(Finding::error(
                 at.clone(),
@@ -287,6 +290,59 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         uncertainty,
         warnings: findings,
     })
+}
+
+/// Finds a ring of the polygon that crosses itself (or another ring), naming where.
+pub fn self_intersection(mp: &geo::MultiPolygon<f64>) -> Option<String> {
+    use geo::line_intersection::{line_intersection, LineIntersection};
+    for p in &mp.0 {
+        let rings: Vec<&geo::LineString<f64>> =
+            std::iter::once(p.exterior()).chain(p.interiors()).collect();
+        let segs: Vec<(usize, usize, geo::Line<f64>)> = rings
+            .iter()
+            .enumerate()
+            .flat_map(|(r, ls)| ls.lines().enumerate().map(move |(k, l)| (r, k, l)))
+            .collect();
+        let len = |r: usize| rings[r].0.len().saturating_sub(1);
+        for i in 0..segs.len() {
+            for j in i + 1..segs.len() {
+                let (ri, ki, a) = segs[i];
+                let (rj, kj, b) = segs[j];
+                if ri == rj {
+                    let n = len(ri);
+                    // Neighbouring edges share a vertex; that is not a crossing.
+                    if kj == ki + 1 || (ki == 0 && kj + 1 == n) {
+                        continue;
+                    }
+                }
+                match line_intersection(a, b) {
+                    Some(LineIntersection::SinglePoint { intersection, .. }) => {
+                        let what = if ri == rj {
+                            "crosses itself"
+                        } else {
+                            "touches or crosses another ring"
+                        };
+                        return Some(format!(
+                            "a polygon ring {what} near [{:.6}, {:.6}] (edges {} and {})",
+                            intersection.x,
+                            intersection.y,
+                            ki + 1,
+                            kj + 1
+                        ));
+                    }
+                    Some(LineIntersection::Collinear { .. }) => {
+                        return Some(format!(
+                            "a polygon ring runs back over itself (edges {} and {})",
+                            ki + 1,
+                            kj + 1
+                        ));
+                    }
+                    None => {}
+                }
+            }
+        }
+    }
+    None
 }
 
 /// Checks a record's mean level against the gauge's stated mean level above chart datum.

@@ -138,6 +138,10 @@ pub struct FileSummary {
     pub rows_by_status: StatusCounts,
     /// Blank lines (not rows; not written).
     pub blank_lines: u64,
+    /// Rows read as soundings (time, position and depth all valid).
+    pub parsed_rows: u64,
+    /// Of those, rows whose observed depth is negative (above the water surface).
+    pub negative_depths: u64,
     /// The first few rows of each status other than `reduced`.
     pub examples: Vec<RowExample>,
     /// Rows per zone and status: `[zone][status]`.
@@ -152,6 +156,18 @@ pub struct FileSummary {
 }
 
 impl FileSummary {
+    /// A warning when most observed depths are negative: the sign convention is likely wrong.
+    pub fn sign_warning(&self) -> Option<String> {
+        (self.parsed_rows > 0 && self.negative_depths * 2 > self.parsed_rows).then(|| {
+            format!(
+                "{}: {} of {} observed depths are negative (above the water surface): is depth_sign right? (positive_down expects depths positive down)",
+                self.input.display(),
+                self.negative_depths,
+                self.parsed_rows
+            )
+        })
+    }
+
     /// Total rows written.
     pub fn rows(&self) -> u64 {
         self.rows_by_status.total()
@@ -229,6 +245,8 @@ struct ChunkOut {
     per_zone: Vec<[u64; 4]>,
     examples: Vec<RowExample>,
     blank: u64,
+    parsed: u64,
+    negative: u64,
     t_min: f64,
     t_max: f64,
     qa: Option<QaAccumulator>,
@@ -522,6 +540,8 @@ fn reduce_file(
         output: out.to_path_buf(),
         rows_by_status: StatusCounts::default(),
         blank_lines: 0,
+        parsed_rows: 0,
+        negative_depths: 0,
         examples: Vec::new(),
         per_zone: vec![[0; 4]; loaded.zones.len()],
         time_range_s: None,
@@ -608,6 +628,8 @@ fn reduce_file(
                     add_counts(acc, zc);
                 }
                 summary.blank_lines += o.blank;
+                summary.parsed_rows += o.parsed;
+                summary.negative_depths += o.negative;
                 for ex in o.examples {
                     let same = summary
                         .examples
@@ -798,6 +820,10 @@ fn process_chunk(
                     SoundingStatus::BadInput
                 }
                 Ok(v) => {
+                    o.parsed += 1;
+                    if v.depth_m < 0.0 {
+                        o.negative += 1;
+                    }
                     o.t_min = o.t_min.min(v.t_s);
                     o.t_max = o.t_max.max(v.t_s);
                     if corrector_rows {

@@ -1,6 +1,7 @@
 //! Integration test modules and shared helpers.
 
 mod bad_input;
+mod bad_input_suite;
 mod check;
 mod correctors;
 mod crs_reference;

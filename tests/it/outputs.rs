@@ -53,3 +53,68 @@ fn output_folder_equal_to_input_folder_never_overwrites_inputs() {
     );
     assert_eq!(std::fs::read_to_string(p.path("s.reduced.csv")).unwrap(), S);
 }
+
+#[test]
+fn a_killed_run_leaves_no_output_only_a_temporary_that_the_next_run_removes() {
+    // About a million soundings, so that a kill lands while the output is being written.
+    let mut s = String::from("time,lon,lat,depth,line\n");
+    for i in 0..1_000_000u32 {
+        let m = 60 + (i / 10_000) % 60;
+        s.push_str(&format!(
+            "2026-06-14T{:02}:{:02}:00Z,10.00{},50.005,{}.5,L{}\n",
+            m / 60,
+            m % 60,
+            1 + i % 8,
+            5 + i % 20,
+            i / 5000
+        ));
+    }
+    let p = MiniProject::new(&s);
+    let out = p.path("out/s.reduced.csv");
+    let clean = {
+        let o = neap(&["reduce", &p.project(), "--no-progress", "--no-uncertainty"]);
+        assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+        std::fs::read(&out).unwrap()
+    };
+    std::fs::remove_dir_all(p.path("out")).unwrap();
+    let mut saw_partial = false;
+    for delay_ms in [30u64, 120, 250, 400] {
+        let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_neap"))
+            .args(["reduce", &p.project(), "--no-progress", "--no-uncertainty"])
+            .stderr(std::process::Stdio::null())
+            .spawn()
+            .unwrap();
+        std::thread::sleep(std::time::Duration::from_millis(delay_ms));
+        let _ = child.kill(); // SIGKILL: no chance to clean up
+        let _ = child.wait();
+        if out.exists() {
+            // The rename happened before the kill: the file must then be complete.
+            assert_eq!(
+                std::fs::read(&out).unwrap(),
+                clean,
+                "an output at the final path is always whole"
+            );
+            std::fs::remove_file(&out).unwrap();
+        }
+        saw_partial |= p.path("out/.s.reduced.csv.neap-partial").exists();
+    }
+    assert!(saw_partial, "at least one kill landed mid-run");
+    let o = neap(&["reduce", &p.project(), "--no-progress", "--no-uncertainty"]);
+    assert!(
+        stderr(&o).contains("removed 1 temporary file(s) left by an interrupted run"),
+        "{}",
+        stderr(&o)
+    );
+    assert_eq!(
+        std::fs::read(&out).unwrap(),
+        clean,
+        "the rerun is byte-identical"
+    );
+    let leftovers: Vec<_> = std::fs::read_dir(p.path("out"))
+        .unwrap()
+        .filter_map(Result::ok)
+        .map(|e| e.file_name())
+        .filter(|n| n.to_string_lossy().ends_with(".neap-partial"))
+        .collect();
+    assert!(leftovers.is_empty(), "{leftovers:?}");
+}
