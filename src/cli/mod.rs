@@ -407,6 +407,9 @@ fn cmd_correctors(
             "  u_tide_m left empty: the project has no [uncertainty] section"
         );
     }
+    for w in &outcome.warnings {
+        let _ = writeln!(e, "warning: {w}");
+    }
     for w in &outcome.written {
         let _ = writeln!(e, "  wrote {}", w.display());
     }

@@ -30,6 +30,18 @@ pub const ZONE_CORRECTOR_COLUMNS: [&str; 5] = [
     "status",
 ];
 
+/// Columns of a per-sounding corrector file, in order.
+pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
+    "line",
+    "time_utc",
+    "source_file",
+    "source_line",
+    "zone",
+    "tide_above_chart_datum_m",
+    "u_tide_m",
+    "status",
+];
+
 /// Identifier of the correction-file layout (in the sidecar).
 pub const CORRECTORS_FORMAT: &str = "neap-tide-correctors/1";
 
@@ -95,7 +107,7 @@ pub fn read_correction_file(path: &Path) -> Result<CorrectionFile, IoError> {
         .headers()
         .map_err(|e| super::gauge_csv::csv_error(e, path))?
         .clone();
-    let per_sounding = crate::run::reduce::SOUNDING_CORRECTOR_COLUMNS;
+    let per_sounding = SOUNDING_CORRECTOR_COLUMNS;
     let zones = header_is(&h, &ZONE_CORRECTOR_COLUMNS);
     if !zones && !header_is(&h, &per_sounding) {
         return Err(IoError::content(
@@ -175,7 +187,20 @@ pub fn read_correction_file(path: &Path) -> Result<CorrectionFile, IoError> {
                 .map_err(|m| IoError::content(at("time_utc"), m))?;
             let zone = (!rec[4].is_empty()).then(|| rec[4].to_string());
             let tide = opt_num(5, "tide_above_chart_datum_m")?;
-            by_sounding.insert(sounding_key(&rec[0], t), (zone, tide, rec[7].to_string()));
+            let row = (zone, tide, rec[7].to_string());
+            if let Some(prev) = by_sounding.insert(sounding_key(&rec[0], t), row.clone()) {
+                if prev != row {
+                    // Soundings sharing line and time (e.g. the beams of one multibeam ping) with
+                    // different tides cannot be told apart by the key.
+                    return Err(IoError::content(
+                        at("time_utc"),
+                        format!(
+                            "another row has the same line '{}' and time but a different zone or tide: per-sounding correction files need a unique line and time per sounding (use the per-zone file instead)",
+                            &rec[0]
+                        ),
+                    ));
+                }
+            }
         }
     }
     Ok(if zones {

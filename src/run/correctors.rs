@@ -90,6 +90,8 @@ pub struct CorrectorsOutcome {
     pub span_s: (f64, f64),
     /// The per-sounding run, when asked.
     pub soundings: Option<RunSummary>,
+    /// Things the user should know (e.g. a step longer than a gauge's maximum gap).
+    pub warnings: Vec<String>,
 }
 
 /// First and last sounding time over the project's files (rows that cannot be read are
@@ -336,8 +338,18 @@ pub fn write_correctors(
     } else {
         None
     };
+    let mut warnings = Vec::new();
+    for g in &loaded.project.spec.gauges {
+        if opts.step_min > g.max_gap_min {
+            warnings.push(format!(
+                "the step ({} min) is longer than gauge '{}''s max_gap_min ({} min): interpolating this file between its times can bridge gaps that a direct reduction refuses; use a step no longer than {} min",
+                opts.step_min, g.id, g.max_gap_min, g.max_gap_min
+            ));
+        }
+    }
     use crate::compute::correctors::CorrectorStatus as S;
     Ok(CorrectorsOutcome {
+        warnings,
         written,
         zone_rows_by_status: [S::Observed, S::Interpolated, S::GapFilled, S::Missing]
             .iter()

@@ -104,17 +104,7 @@ impl RunKind<'_> {
     }
 }
 
-/// Columns of a per-sounding corrector file, in order.
-pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
-    "line",
-    "time_utc",
-    "source_file",
-    "source_line",
-    "zone",
-    "tide_above_chart_datum_m",
-    "u_tide_m",
-    "status",
-];
+pub use crate::io::correctors_file::SOUNDING_CORRECTOR_COLUMNS;
 
 /// One example of a row that was not reduced.
 #[derive(Debug, Clone, Serialize, PartialEq)]

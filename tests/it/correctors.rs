@@ -216,3 +216,45 @@ fn a_file_that_is_not_a_correction_file_is_refused_with_its_header() {
         stderr(&o)
     );
 }
+
+#[test]
+fn a_step_longer_than_a_gauge_gap_limit_is_warned_about() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let o = neap(&[
+        "correctors",
+        &p.project(),
+        "--out",
+        &p.path("c").to_string_lossy(),
+        "--step-min",
+        "45",
+    ]);
+    assert_eq!(o.status.code(), Some(0));
+    assert!(
+        stderr(&o).contains(
+            "warning: the step (45 min) is longer than gauge 'g1''s max_gap_min (30 min)"
+        ),
+        "{}",
+        stderr(&o)
+    );
+}
+
+#[test]
+fn per_sounding_rows_sharing_line_and_time_are_refused() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    p.write(
+        "c.csv",
+        "line,time_utc,source_file,source_line,zone,tide_above_chart_datum_m,u_tide_m,status\n\
+         L1,2026-06-14T01:00:00.000000Z,s.csv,2,Z1,2.06,,reduced\n\
+         L1,2026-06-14T01:00:00.000000Z,s.csv,3,Z2,1.47,,reduced\n",
+    );
+    let o = neap(&[
+        "apply",
+        &p.path("c.csv").to_string_lossy(),
+        "--project",
+        &p.project(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("c.csv:3: field 'time_utc': another row has the same line 'L1' and time but a different zone or tide"), "{}", stderr(&o));
+}
