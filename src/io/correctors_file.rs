@@ -99,10 +99,15 @@ fn header_is(h: &csv::StringRecord, cols: &[&str]) -> bool {
 
 /// Reads a correction file of either kind (told apart by its header line).
 pub fn read_correction_file(path: &Path) -> Result<CorrectionFile, IoError> {
+    let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
+    parse_correction_file(std::io::BufReader::new(f), path)
+}
+
+/// Parses a correction file from a reader, as if read from `path`.
+pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<CorrectionFile, IoError> {
     let mut rdr = csv::ReaderBuilder::new()
         .has_headers(true)
-        .from_path(path)
-        .map_err(|e| super::gauge_csv::csv_error(e, path))?;
+        .from_reader(reader);
     let h = rdr
         .headers()
         .map_err(|e| super::gauge_csv::csv_error(e, path))?

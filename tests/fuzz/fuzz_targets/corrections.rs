@@ -1,0 +1,7 @@
+//! Fuzz target: the tide-correction file reader (per zone and per sounding).
+#![no_main]
+use libfuzzer_sys::fuzz_target;
+
+fuzz_target!(|data: &[u8]| {
+    let _ = neap::io::correctors_file::parse_correction_file(data, std::path::Path::new("c.csv"));
+});
