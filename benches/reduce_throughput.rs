@@ -49,6 +49,8 @@ const DEFAULT_SOUNDINGS: u64 = 5_000_000;
 const DEFAULT_RUNS: usize = 3;
 /// Default longest wait for an idle machine before each run, seconds.
 const DEFAULT_WAIT_IDLE_S: u64 = 60;
+/// Default number of times a disturbed run is discarded and run again.
+const DEFAULT_RETRIES: u64 = 2;
 /// The machine counts as idle after this many consecutive seconds in which all processes
 /// together used less than `IDLE_BUSY_CPU_PER_S` CPU seconds per second.
 const IDLE_STREAK_S: u32 = 3;
@@ -71,7 +73,7 @@ const NEAP_PEAK_RSS_TARGET_MIB: f64 = 50.0;
 const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
 
 const USAGE: &str = "usage: cargo bench --bench reduce_throughput \
-    [-- [--soundings N] [--runs K] [--wait-idle SECONDS]]";
+    [-- [--soundings N] [--runs K] [--wait-idle SECONDS] [--retries R]]";
 
 fn main() -> ExitCode {
     let args: Vec<String> = std::env::args().skip(1).collect();
@@ -91,6 +93,7 @@ fn main() -> ExitCode {
     let mut soundings = DEFAULT_SOUNDINGS;
     let mut runs = DEFAULT_RUNS;
     let mut wait_idle_s = DEFAULT_WAIT_IDLE_S;
+    let mut retries = DEFAULT_RETRIES;
     let mut it = args.iter();
     while let Some(a) = it.next() {
         match a.as_str() {
@@ -108,6 +111,10 @@ fn main() -> ExitCode {
                 Some(w) => wait_idle_s = w,
                 None => return usage_error("--wait-idle needs a whole number of seconds"),
             },
+            "--retries" => match it.next().and_then(|v| parse_count(v)) {
+                Some(r) => retries = r,
+                None => return usage_error("--retries needs a whole number"),
+            },
             "-h" | "--help" => {
                 println!("{USAGE}");
                 return ExitCode::SUCCESS;
@@ -115,7 +122,7 @@ fn main() -> ExitCode {
             other => return usage_error(&format!("unknown argument '{other}'")),
         }
     }
-    exit_on_error(bench(soundings, runs, wait_idle_s))
+    exit_on_error(bench(soundings, runs, wait_idle_s, retries))
 }
 
 fn usage_error(msg: &str) -> ExitCode {
@@ -786,7 +793,89 @@ fn neap_status_counts(summary: &Path) -> String {
         .join(", ")
 }
 
-fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
+/// One baseline run: the measurement, the time to fsync its output afterwards (not part of the
+/// measurement), and the output's size in MiB. The output is checked, then deleted.
+fn run_baseline_once(
+    this_exe: &Path,
+    csv: &Path,
+    base_out: &Path,
+    base_log: &Path,
+    n: u64,
+) -> Result<(Measured, f64, f64), String> {
+    let mut cmd = Command::new(this_exe);
+    cmd.arg("--baseline-child").arg(csv).arg(base_out);
+    let b = run_measured(&mut cmd, base_log)?;
+    if b.exit_code != Some(0) {
+        return Err(format!(
+            "the baseline failed (exit {:?}); its log {}:\n{}",
+            b.exit_code,
+            base_log.display(),
+            tail(base_log, 20)
+        ));
+    }
+    // Time to make the baseline's output durable (neap syncs its output before renaming it,
+    // inside its measured time; the baseline does not). Informational only.
+    let t = Instant::now();
+    File::open(base_out)
+        .and_then(|f| f.sync_all())
+        .map_err(|e| format!("{}: {e}", base_out.display()))?;
+    let fsync_s = t.elapsed().as_secs_f64();
+    let lines = count_lines(base_out)?;
+    if lines != n + 1 {
+        return Err(format!(
+            "the baseline wrote {lines} lines to {}, expected {}",
+            base_out.display(),
+            n + 1
+        ));
+    }
+    let size_mib = file_mib(base_out);
+    remove_if_present(base_out)?;
+    Ok((b, fsync_s, size_mib))
+}
+
+/// One neap run: the measurement, the output's size in MiB and neap's status counts. The output
+/// is checked (header + one line per sounding), then deleted.
+fn run_neap_once(
+    neap: &Path,
+    project: &Path,
+    neap_out: &Path,
+    neap_csv: &Path,
+    neap_log: &Path,
+    n: u64,
+) -> Result<(Measured, f64, String), String> {
+    let mut cmd = Command::new(neap);
+    cmd.arg("reduce")
+        .arg(project)
+        .arg("--out")
+        .arg(neap_out)
+        .arg("--no-progress");
+    let r = run_measured(&mut cmd, neap_log)?;
+    // 0: all reduced; 1: some rows not reduced (expected: the demo's gauge gap and the
+    // overshooting line); anything else means neap could not run.
+    if !matches!(r.exit_code, Some(0) | Some(1)) {
+        return Err(format!(
+            "neap failed (exit {:?}); its log {}:\n{}",
+            r.exit_code,
+            neap_log.display(),
+            tail(neap_log, 30)
+        ));
+    }
+    let lines = count_lines(neap_csv)
+        .map_err(|e| format!("neap's output is missing or unreadable: {e}"))?;
+    if lines != n + 1 {
+        return Err(format!(
+            "neap wrote {lines} lines to {}, expected {} (header + one per sounding)",
+            neap_csv.display(),
+            n + 1
+        ));
+    }
+    let size_mib = file_mib(neap_csv);
+    let statuses = neap_status_counts(&neap_out.join("reduce-summary.json"));
+    remove_if_present(neap_out)?;
+    Ok((r, size_mib, statuses))
+}
+
+fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), String> {
     let paths = locate()?;
     warn_if_stale(&paths.neap);
     let this_exe = std::env::current_exe().map_err(|e| e.to_string())?;
@@ -897,95 +986,59 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
     let mut base_fsync_s: Vec<f64> = Vec::new();
     let mut out_mib = (f64::NAN, f64::NAN);
     let mut statuses = String::new();
+    let mut discarded = 0usize;
     for run in 1..=runs {
-        // Baseline.
-        wait_for_idle(wait_idle_s);
-        let mut cmd = Command::new(&this_exe);
-        cmd.arg("--baseline-child").arg(&csv).arg(&base_out);
-        let b = run_measured(&mut cmd, &base_log)?;
-        if b.exit_code != Some(0) {
-            return Err(format!(
-                "the baseline failed (exit {:?}); its log {}:\n{}",
-                b.exit_code,
-                base_log.display(),
-                tail(&base_log, 20)
-            ));
+        for side in ["baseline", "neap"] {
+            let mut attempt = 0;
+            loop {
+                attempt += 1;
+                wait_for_idle(wait_idle_s);
+                let m = if side == "baseline" {
+                    let (m, fsync_s, size_mib) =
+                        run_baseline_once(&this_exe, &csv, &base_out, &base_log, n)?;
+                    base_fsync_s.push(fsync_s);
+                    out_mib.0 = size_mib;
+                    m
+                } else {
+                    let (m, size_mib, st) =
+                        run_neap_once(&neap_copy, &project, &neap_out, &neap_csv, &neap_log, n)?;
+                    out_mib.1 = size_mib;
+                    statuses = st;
+                    m
+                };
+                let again = m.disturbed() && attempt <= retries;
+                println!(
+                    "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>11.2} {:>5}{}",
+                    side,
+                    run,
+                    m.wall_s,
+                    m.cpu_s,
+                    mib(m.peak_rss_kib),
+                    if side == "baseline" {
+                        out_mib.0
+                    } else {
+                        out_mib.1
+                    },
+                    m.other_cpu_s,
+                    m.exit_code.unwrap_or(-1),
+                    match (m.disturbed(), again) {
+                        (false, _) => "",
+                        (true, true) => "  DISTURBED: discarded, again",
+                        (true, false) => "  DISTURBED",
+                    }
+                );
+                if again {
+                    discarded += 1;
+                    continue;
+                }
+                if side == "baseline" {
+                    base_runs.push(m);
+                } else {
+                    neap_runs.push(m);
+                }
+                break;
+            }
         }
-        // Time to make the baseline's output durable (neap syncs its output before renaming
-        // it, inside its measured time; the baseline does not). Informational only.
-        let t = Instant::now();
-        File::open(&base_out)
-            .and_then(|f| f.sync_all())
-            .map_err(|e| format!("{}: {e}", base_out.display()))?;
-        base_fsync_s.push(t.elapsed().as_secs_f64());
-        let lines = count_lines(&base_out)?;
-        if lines != n + 1 {
-            return Err(format!(
-                "the baseline wrote {lines} lines to {}, expected {}",
-                base_out.display(),
-                n + 1
-            ));
-        }
-        out_mib.0 = file_mib(&base_out);
-        println!(
-            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>11.2} {:>5}{}",
-            "baseline",
-            run,
-            b.wall_s,
-            b.cpu_s,
-            mib(b.peak_rss_kib),
-            out_mib.0,
-            b.other_cpu_s,
-            0,
-            if b.disturbed() { "  DISTURBED" } else { "" }
-        );
-        base_runs.push(b);
-        remove_if_present(&base_out)?;
-
-        // neap.
-        wait_for_idle(wait_idle_s);
-        let mut cmd = Command::new(&neap_copy);
-        cmd.arg("reduce")
-            .arg(&project)
-            .arg("--out")
-            .arg(&neap_out)
-            .arg("--no-progress");
-        let r = run_measured(&mut cmd, &neap_log)?;
-        // 0: all reduced; 1: some rows not reduced (expected: the demo's gauge gap and the
-        // overshooting line); anything else means neap could not run.
-        if !matches!(r.exit_code, Some(0) | Some(1)) {
-            return Err(format!(
-                "neap failed (exit {:?}); its log {}:\n{}",
-                r.exit_code,
-                neap_log.display(),
-                tail(&neap_log, 30)
-            ));
-        }
-        let lines = count_lines(&neap_csv)
-            .map_err(|e| format!("neap's output is missing or unreadable: {e}"))?;
-        if lines != n + 1 {
-            return Err(format!(
-                "neap wrote {lines} lines to {}, expected {} (header + one per sounding)",
-                neap_csv.display(),
-                n + 1
-            ));
-        }
-        out_mib.1 = file_mib(&neap_csv);
-        statuses = neap_status_counts(&neap_out.join("reduce-summary.json"));
-        println!(
-            "  {:<9} {:>3} {:>9.2} {:>9.2} {:>10.1} {:>10.0} {:>11.2} {:>5}{}",
-            "neap",
-            run,
-            r.wall_s,
-            r.cpu_s,
-            mib(r.peak_rss_kib),
-            out_mib.1,
-            r.other_cpu_s,
-            r.exit_code.unwrap_or(-1),
-            if r.disturbed() { "  DISTURBED" } else { "" }
-        );
-        neap_runs.push(r);
-        remove_if_present(&neap_out)?;
     }
     let load_after = load_average();
 
@@ -1053,7 +1106,8 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64) -> Result<(), String> {
         .count();
     md.push_str(&format!(
         "Runs disturbed by other processes (they used more than {DISTURBED_OTHER_CPU_PER_WALL} \
-         CPU-s per wall-s): {disturbed} of {}.\n",
+         CPU-s per wall-s): {disturbed} of the {} kept; {discarded} disturbed run(s) discarded \
+         and run again.\n",
         2 * runs
     ));
     md.push_str("\nPer run (wall s / CPU s / peak RSS MiB / other processes' CPU s):\n\n");

@@ -658,6 +658,48 @@ fn reduce_file(
     Ok(summary)
 }
 
+/// Appends zone, tide, reduced depth, status, detail (and the uncertainty columns when this run
+/// computes them) to a reduced-output row, and ends the row.
+fn write_reduced_tail(
+    b: &mut Vec<u8>,
+    ctx: &FileCtx,
+    zone: Option<usize>,
+    tide: Option<(f64, f64)>,
+    status: SoundingStatus,
+    detail: &str,
+    unc_cols: Option<([f64; 10], bool)>,
+) {
+    b.push(b',');
+    if let Some(z) = zone {
+        push_csv_field(b, ctx.zone_ids[z]);
+    }
+    b.push(b',');
+    if let Some((t, d)) = tide {
+        push_fixed(b, t, METRE_DECIMALS);
+        b.push(b',');
+        push_fixed(b, d, METRE_DECIMALS);
+    } else {
+        b.push(b',');
+    }
+    b.push(b',');
+    b.extend_from_slice(status.as_str().as_bytes());
+    b.push(b',');
+    push_csv_field(b, detail);
+    if ctx.unc.is_some() {
+        match unc_cols {
+            Some((vals, within)) => {
+                for x in vals {
+                    b.push(b',');
+                    push_fixed(b, x, UNCERTAINTY_DECIMALS);
+                }
+                b.extend_from_slice(if within { b",yes" } else { b",no" });
+            }
+            None => b.extend_from_slice(b",,,,,,,,,,,"),
+        }
+    }
+    b.push(b'\n');
+}
+
 #[allow(clippy::too_many_arguments)]
 fn write_corrector_row(
     b: &mut Vec<u8>,
@@ -928,50 +970,12 @@ fn process_chunk(
                 unc_cols,
                 status,
             );
-            if let Some(z) = zone {
-                o.per_zone[z][status.index()] += 1;
-            }
-            o.counts[status.index()] += 1;
-            if status != SoundingStatus::Reduced && o.examples.len() < 4 * EXAMPLES_PER_STATUS {
-                o.examples.push(RowExample {
-                    line: line_no,
-                    status: status.as_str(),
-                    detail: detail.clone(),
-                });
-            }
-            continue;
+        } else {
+            write_reduced_tail(&mut o.bytes, ctx, zone, tide, status, &detail, unc_cols);
         }
-        let b = &mut o.bytes;
-        b.push(b',');
         if let Some(z) = zone {
-            push_csv_field(b, ctx.zone_ids[z]);
             o.per_zone[z][status.index()] += 1;
         }
-        b.push(b',');
-        if let Some((t, d)) = tide {
-            push_fixed(b, t, METRE_DECIMALS);
-            b.push(b',');
-            push_fixed(b, d, METRE_DECIMALS);
-        } else {
-            b.push(b',');
-        }
-        b.push(b',');
-        b.extend_from_slice(status.as_str().as_bytes());
-        b.push(b',');
-        push_csv_field(b, &detail);
-        if unc.is_some() {
-            match unc_cols {
-                Some((vals, within)) => {
-                    for x in vals {
-                        b.push(b',');
-                        push_fixed(b, x, UNCERTAINTY_DECIMALS);
-                    }
-                    b.extend_from_slice(if within { b",yes" } else { b",no" });
-                }
-                None => b.extend_from_slice(b",,,,,,,,,,,"),
-            }
-        }
-        b.push(b'\n');
         o.counts[status.index()] += 1;
         if status != SoundingStatus::Reduced && o.examples.len() < 4 * EXAMPLES_PER_STATUS {
             o.examples.push(RowExample {
