@@ -77,6 +77,10 @@ enum Command {
         /// Also write one corrector row per sounding (`<stem>.correctors.csv`).
         #[arg(long)]
         per_sounding: bool,
+        /// Also write a regular-step series per survey line (`correctors-lines.csv`): the tide
+        /// in the zone where the launch was at each time.
+        #[arg(long)]
+        per_line: bool,
     },
     /// Reduce soundings with tide from a correction file written by `neap correctors`.
     Apply {
@@ -149,7 +153,8 @@ pub fn main() -> i32 {
             from,
             to,
             per_sounding,
-        } => cmd_correctors(&project, out, step_min, from, to, per_sounding)
+            per_line,
+        } => cmd_correctors(&project, out, step_min, from, to, per_sounding, per_line)
             .unwrap_or_else(report_failure),
         Command::Apply {
             corrections,
@@ -372,6 +377,7 @@ fn cmd_correctors(
     from: Option<String>,
     to: Option<String>,
     per_sounding: bool,
+    per_line: bool,
 ) -> anyhow::Result<i32> {
     let from_s = parse_utc_arg(from, "from")?;
     let to_s = parse_utc_arg(to, "to")?;
@@ -388,6 +394,7 @@ fn cmd_correctors(
             from_s,
             to_s,
             per_sounding,
+            per_line,
         },
     )?;
     let mut e = std::io::stderr().lock();

@@ -85,39 +85,56 @@ pub fn zone_correctors(
     let mut states: Vec<FeedState> = Vec::new();
     (0..n)
         .map(|k| {
-            let t = t0_s + k as f64 * step_s;
-            match zone.tide_at(gauges, interp, t, &mut states) {
-                Err(_) => Corrector {
-                    t_s: t,
-                    tide_m: None,
-                    u_tide_m: None,
-                    status: CorrectorStatus::Missing,
-                },
-                Ok(tide) => {
-                    let observed = zone.feeds.iter().zip(&states).all(|(f, st)| {
-                        let shifted = t - f.time_corrector_min * 60.0;
-                        let s = &gauges[f.gauge].series;
-                        let i = st.level.bracket;
-                        s.times_s.get(i) == Some(&shifted) || s.times_s.get(i + 1) == Some(&shifted)
-                    });
-                    let u = unc.map(|u| {
-                        tide_budget(zone, gauges, u.gauge_u, u.zone_u, u.rates, t, &states)
-                            .u_tide_m()
-                    });
-                    Corrector {
-                        t_s: t,
-                        tide_m: Some(tide),
-                        u_tide_m: u,
-                        status: if observed {
-                            CorrectorStatus::Observed
-                        } else {
-                            CorrectorStatus::Interpolated
-                        },
-                    }
-                }
-            }
+            zone_corrector_at(
+                zone,
+                gauges,
+                interp,
+                unc,
+                t0_s + k as f64 * step_s,
+                &mut states,
+            )
         })
         .collect()
+}
+
+/// A zone's tide at one UTC time, with its status (and standard uncertainty when asked).
+pub fn zone_corrector_at(
+    zone: &Zone,
+    gauges: &[Gauge],
+    interp: &dyn TimeInterpolation,
+    unc: Option<CorrectorUncertainty>,
+    t: f64,
+    states: &mut Vec<FeedState>,
+) -> Corrector {
+    match zone.tide_at(gauges, interp, t, states) {
+        Err(_) => Corrector {
+            t_s: t,
+            tide_m: None,
+            u_tide_m: None,
+            status: CorrectorStatus::Missing,
+        },
+        Ok(tide) => {
+            let observed = zone.feeds.iter().zip(states.iter()).all(|(f, st)| {
+                let shifted = t - f.time_corrector_min * 60.0;
+                let s = &gauges[f.gauge].series;
+                let i = st.level.bracket;
+                s.times_s.get(i) == Some(&shifted) || s.times_s.get(i + 1) == Some(&shifted)
+            });
+            let u = unc.map(|u| {
+                tide_budget(zone, gauges, u.gauge_u, u.zone_u, u.rates, t, states).u_tide_m()
+            });
+            Corrector {
+                t_s: t,
+                tide_m: Some(tide),
+                u_tide_m: u,
+                status: if observed {
+                    CorrectorStatus::Observed
+                } else {
+                    CorrectorStatus::Interpolated
+                },
+            }
+        }
+    }
 }
 
 /// Linear interpolation in a zone's corrector series (sorted by time). Between two values the
@@ -162,6 +179,47 @@ impl TideModel for ZoneSeriesModel<'_> {
             None => TideOutcome::NoCorrection {
                 zone: Some(zone),
                 why: "the correction file has no value for this zone at this time",
+            },
+        }
+    }
+}
+
+/// Tide from per-survey-line corrector series: looked up by the sounding's line and
+/// interpolated in time along it; the zone is the one of the nearest corrector time.
+#[derive(Debug, Default)]
+pub struct LineSeriesModel {
+    /// Per line: correctors sorted by time, each with its zone index.
+    pub lines: HashMap<String, (Vec<Corrector>, Vec<Option<usize>>)>,
+}
+
+impl TideModel for LineSeriesModel {
+    fn tide_at(
+        &self,
+        _x: f64,
+        _y: f64,
+        t_s: f64,
+        line: &str,
+        _s: &mut Vec<FeedState>,
+    ) -> TideOutcome {
+        let Some((series, zones)) = self.lines.get(line) else {
+            return TideOutcome::NoCorrection {
+                zone: None,
+                why: "the correction file has no series for this survey line",
+            };
+        };
+        let i = series.partition_point(|c| c.t_s <= t_s);
+        let nearest = match (i.checked_sub(1), series.get(i)) {
+            (Some(a), Some(b)) if (t_s - series[a].t_s) > (b.t_s - t_s) => Some(i),
+            (Some(a), _) => Some(a),
+            (None, Some(_)) => Some(i),
+            (None, None) => None,
+        };
+        let zone = nearest.and_then(|k| zones[k]);
+        match (interpolate_correctors(series, t_s), zone) {
+            (Some(tide_m), Some(zone)) => TideOutcome::Tide { zone, tide_m },
+            _ => TideOutcome::NoCorrection {
+                zone,
+                why: "the correction file has no value for this line at this time",
             },
         }
     }

@@ -42,6 +42,16 @@ pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
     "status",
 ];
 
+/// Columns of a per-line corrector file, in order.
+pub const LINE_CORRECTOR_COLUMNS: [&str; 6] = [
+    "line",
+    "time_utc",
+    "zone",
+    "tide_above_chart_datum_m",
+    "u_tide_m",
+    "status",
+];
+
 /// Identifier of the correction-file layout (in the sidecar).
 pub const CORRECTORS_FORMAT: &str = "neap-tide-correctors/1";
 
@@ -91,6 +101,8 @@ pub enum CorrectionFile {
     Zones(HashMap<String, Vec<Corrector>>),
     /// Per-sounding corrections by (line, time in µs); zone by id.
     Soundings(SoundingRows),
+    /// Per-line series, by line id, sorted by time, each with its zone id.
+    Lines(HashMap<String, Vec<(Corrector, Option<String>)>>),
 }
 
 fn header_is(h: &csv::StringRecord, cols: &[&str]) -> bool {
@@ -114,12 +126,17 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
         .clone();
     let per_sounding = SOUNDING_CORRECTOR_COLUMNS;
     let zones = header_is(&h, &ZONE_CORRECTOR_COLUMNS);
+    let lines = header_is(&h, &LINE_CORRECTOR_COLUMNS);
+    if lines {
+        return parse_line_rows(rdr, path);
+    }
     if !zones && !header_is(&h, &per_sounding) {
         return Err(IoError::content(
             Position::file(path).line(1),
             format!(
-                "not a tide-correction file: expected the header '{}' or '{}'",
+                "not a tide-correction file: expected the header '{}', '{}' or '{}'",
                 ZONE_CORRECTOR_COLUMNS.join(","),
+                LINE_CORRECTOR_COLUMNS.join(","),
                 per_sounding.join(",")
             ),
         ));
@@ -213,6 +230,75 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
     } else {
         CorrectionFile::Soundings(by_sounding)
     })
+}
+
+fn parse_line_rows<R: Read>(
+    mut rdr: csv::Reader<R>,
+    path: &Path,
+) -> Result<CorrectionFile, IoError> {
+    let mut out: HashMap<String, Vec<(Corrector, Option<String>)>> = HashMap::new();
+    let mut rec = csv::StringRecord::new();
+    loop {
+        match rdr.read_record(&mut rec) {
+            Ok(false) => break,
+            Ok(true) => {}
+            Err(e) => return Err(super::gauge_csv::csv_error(e, path)),
+        }
+        let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        let at = |f: &str| Position::file(path).line(line).field(f.to_string());
+        let num = |i: usize, name: &str| -> Result<Option<f64>, IoError> {
+            let s = rec.get(i).unwrap_or("");
+            if s.is_empty() {
+                return Ok(None);
+            }
+            s.parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+                .map(Some)
+                .ok_or_else(|| {
+                    IoError::content(
+                        at(name),
+                        format!("expected a number in metres, found '{s}'"),
+                    )
+                })
+        };
+        let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
+            .map_err(|m| IoError::content(at("time_utc"), m))?;
+        let status = CorrectorStatus::parse(&rec[5]).ok_or_else(|| {
+            IoError::content(
+                at("status"),
+                format!(
+                    "expected observed, interpolated, gap_filled or missing, found '{}'",
+                    &rec[5]
+                ),
+            )
+        })?;
+        let tide = num(3, "tide_above_chart_datum_m")?;
+        if tide.is_none() != (status == CorrectorStatus::Missing) {
+            return Err(IoError::content(
+                at("tide_above_chart_datum_m"),
+                "a tide must be given exactly when the status is not 'missing'",
+            ));
+        }
+        let series = out.entry(rec[0].to_string()).or_default();
+        if series.last().is_some_and(|(c, _)| c.t_s >= t) {
+            return Err(IoError::content(
+                at("time_utc"),
+                "times of a line must increase",
+            ));
+        }
+        let zone = (!rec[2].is_empty()).then(|| rec[2].to_string());
+        series.push((
+            Corrector {
+                t_s: t,
+                tide_m: tide,
+                u_tide_m: num(4, "u_tide_m")?,
+                status,
+            },
+            zone,
+        ));
+    }
+    Ok(CorrectionFile::Lines(out))
 }
 
 /// Turns per-sounding rows into model entries, zone ids resolved against `zone_ids`.

@@ -480,6 +480,17 @@ impl SoundingLayout {
     }
 }
 
+/// Appends one field to a CSV line held in a `String`, quoting it when needed.
+pub fn push_csv_field_string(out: &mut String, field: &str) {
+    if field.contains([',', '"', '\n', '\r']) {
+        out.push('"');
+        out.push_str(&field.replace('"', "\"\""));
+        out.push('"');
+    } else {
+        out.push_str(field);
+    }
+}
+
 /// Appends one field to a CSV line, quoting it when needed.
 pub fn push_csv_field(out: &mut Vec<u8>, field: &str) {
     if field

@@ -9,18 +9,140 @@ use serde::Serialize;
 use super::load::Loaded;
 use super::reduce::{reduce_project, ApplyModel, ReduceOptions, RunKind, RunSummary};
 use crate::compute::correctors::{
-    zone_correctors, Corrector, CorrectorUncertainty, SoundingTableModel,
+    zone_corrector_at, zone_correctors, Corrector, CorrectorUncertainty, LineSeriesModel,
+    SoundingTableModel,
 };
 use crate::io::atomic::write_atomic;
 use crate::io::correctors_file::{
     push_zone_rows, read_correction_file, sha256_file, sounding_corrections, CorrectionFile,
-    CORRECTORS_FORMAT, ZONE_CORRECTOR_COLUMNS,
+    CORRECTORS_FORMAT, LINE_CORRECTOR_COLUMNS, ZONE_CORRECTOR_COLUMNS,
 };
 use crate::io::error::{IoError, Position};
 use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
 
 /// Name of the per-zone corrector file.
 pub const ZONE_FILE: &str = "correctors-zones.csv";
+
+/// Name of the per-line corrector file.
+pub const LINE_FILE: &str = "correctors-lines.csv";
+
+/// A line's regular-step grid time takes the zone of the sounding nearest in time, if one lies
+/// within this many seconds (else the time is `missing`).
+pub const LINE_NEAREST_SOUNDING_S: f64 = 300.0;
+
+/// The per-line corrector file's text: for each survey line, on the step grid over the line's
+/// own time span, the tide in the zone where the launch was (the zone of the sounding nearest in
+/// time). Returns the text and the number of lines.
+pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), IoError> {
+    use std::collections::BTreeMap;
+    // Per line: per grid bin, the first sounding's (time, zone).
+    let mut lines: BTreeMap<String, BTreeMap<i64, (f64, Option<usize>)>> = BTreeMap::new();
+    for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
+        let locator = super::load::locator_for_crs(&loaded.zoning, &group.crs).map_err(|m| {
+            IoError::content(
+                Position::file(&loaded.project.path).field(format!("soundings[{gi}].crs")),
+                m,
+            )
+        })?;
+        for path in &group.files {
+            let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
+            let mut r = ChunkReader::new(f, 1);
+            let mut layout: Option<SoundingLayout> = None;
+            let mut fields = Fields::default();
+            while let Some(c) = r
+                .next_chunk(Vec::new())
+                .map_err(|e| IoError::file(path, e))?
+            {
+                for (_, raw) in lines_of(&c) {
+                    let Ok(line) = std::str::from_utf8(raw) else {
+                        continue;
+                    };
+                    if layout.is_none() {
+                        layout = Some(SoundingLayout::resolve(
+                            group,
+                            Some(line),
+                            loaded.project.naive_offset,
+                            path,
+                        )?);
+                        if group.header {
+                            continue;
+                        }
+                    }
+                    let lay = layout.as_ref().expect("set above");
+                    fields.split(line, lay.delimiter);
+                    if let Ok(v) = lay.parse(line, &fields) {
+                        let bin = (v.t_s / step_s).round() as i64;
+                        lines
+                            .entry(v.line_id.to_string())
+                            .or_default()
+                            .entry(bin)
+                            .or_insert((v.t_s, locator.locate(v.x, v.y)));
+                    }
+                }
+            }
+        }
+    }
+    let unc = loaded.uncertainty.as_ref();
+    let mut text = LINE_CORRECTOR_COLUMNS.join(",");
+    text.push('\n');
+    let mut states = Vec::new();
+    for (line, bins) in &lines {
+        let (Some((&b0, _)), Some((&b1, _))) = (bins.first_key_value(), bins.last_key_value())
+        else {
+            continue;
+        };
+        for b in b0..=b1 {
+            let t = b as f64 * step_s;
+            // The sounding nearest in time among this bin and its neighbours.
+            let near = (b - 1..=b + 1)
+                .filter_map(|k| bins.get(&k))
+                .min_by(|x, y| (x.0 - t).abs().total_cmp(&(y.0 - t).abs()))
+                .filter(|(ts, _)| (ts - t).abs() <= LINE_NEAREST_SOUNDING_S);
+            let zone = near.and_then(|(_, z)| *z);
+            let c = match zone {
+                Some(z) => {
+                    let u = unc.map(|u| CorrectorUncertainty {
+                        gauge_u: &u.gauge_u,
+                        zone_u: &u.zone_u[z],
+                        rates: &u.gauge_rates,
+                    });
+                    zone_corrector_at(
+                        &loaded.zones[z],
+                        &loaded.gauges,
+                        loaded.interp.as_ref(),
+                        u,
+                        t,
+                        &mut states,
+                    )
+                }
+                None => Corrector {
+                    t_s: t,
+                    tide_m: None,
+                    u_tide_m: None,
+                    status: crate::compute::correctors::CorrectorStatus::Missing,
+                },
+            };
+            use std::fmt::Write;
+            crate::io::soundings::push_csv_field_string(&mut text, line);
+            let _ = write!(text, ",{},", crate::compute::utc_label(t));
+            if let Some(z) = zone {
+                text.push_str(&loaded.zones[z].id);
+            }
+            text.push(',');
+            if let Some(v) = c.tide_m {
+                let _ = write!(text, "{v}");
+            }
+            text.push(',');
+            if let Some(u) = c.u_tide_m {
+                let _ = write!(text, "{u:.4}");
+            }
+            text.push(',');
+            text.push_str(c.status.as_str());
+            text.push('\n');
+        }
+    }
+    Ok((text, lines.len()))
+}
 
 /// Options of a corrector run.
 #[derive(Debug, Clone)]
@@ -35,6 +157,8 @@ pub struct CorrectorsOptions {
     pub to_s: Option<f64>,
     /// Also write per-sounding corrector files.
     pub per_sounding: bool,
+    /// Also write a per-survey-line corrector file.
+    pub per_line: bool,
 }
 
 /// One input file in the provenance.
@@ -318,6 +442,22 @@ pub fn write_correctors(
     ));
     prov.columns = column_meanings(&ZONE_CORRECTOR_COLUMNS);
     written.push(write_sidecar(&zone_path, &prov)?);
+    if opts.per_line {
+        let path = opts.out_dir.join(LINE_FILE);
+        let (text, _) = line_correctors(loaded, step_s)?;
+        written.push(write_atomic(&path, text.as_bytes())?);
+        let files: Vec<&Path> = loaded
+            .project
+            .spec
+            .soundings
+            .iter()
+            .flat_map(|g| g.files.iter().map(PathBuf::as_path))
+            .collect();
+        let mut prov = provenance(loaded, "per_line", &path, &files)?;
+        prov.step_min = Some(opts.step_min);
+        prov.columns = column_meanings(&LINE_CORRECTOR_COLUMNS);
+        written.push(write_sidecar(&path, &prov)?);
+    }
     let soundings = if opts.per_sounding {
         let run = reduce_project(
             loaded,
@@ -369,7 +509,7 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
                 "tide_above_chart_datum_m" => "water level above chart datum, metres, positive up; empty when missing",
                 "u_tide_m" => "standard uncertainty (1 sigma) of the tide, metres; empty when not computed",
                 "status" => "observed | interpolated | gap_filled | missing (per zone); the sounding's status (per sounding)",
-                "line" => "survey line of the sounding",
+                "line" => "survey line",
                 "source_file" => "soundings file the row comes from",
                 "source_line" => "1-based line of the sounding in its file",
                 _ => "",
@@ -417,6 +557,41 @@ pub fn apply_corrections(
                     out_dir,
                     progress: false,
                     kind: RunKind::Apply(ApplyModel::Zones(&series)),
+                    only_files: only,
+                },
+            )
+        }
+        CorrectionFile::Lines(map) => {
+            let index: std::collections::HashMap<&str, usize> =
+                zone_ids.iter().enumerate().map(|(i, z)| (*z, i)).collect();
+            let mut model = LineSeriesModel::default();
+            for (line, rows) in map {
+                let mut series = Vec::with_capacity(rows.len());
+                let mut zones = Vec::with_capacity(rows.len());
+                for (c, z) in rows {
+                    let zi = match z {
+                        Some(id) => Some(*index.get(id.as_str()).ok_or_else(|| {
+                            IoError::content(
+                                Position::file(corrections).field("zone"),
+                                format!(
+                                    "zone '{id}' is not in the project's zoning {}",
+                                    loaded.project.spec.zoning.display()
+                                ),
+                            )
+                        })?),
+                        None => None,
+                    };
+                    series.push(c);
+                    zones.push(zi);
+                }
+                model.lines.insert(line, (series, zones));
+            }
+            reduce_project(
+                loaded,
+                &ReduceOptions {
+                    out_dir,
+                    progress: false,
+                    kind: RunKind::Apply(ApplyModel::Lines(&model)),
                     only_files: only,
                 },
             )

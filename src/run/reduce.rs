@@ -92,6 +92,8 @@ pub enum ApplyModel<'a> {
     Zones(&'a [Vec<crate::compute::correctors::Corrector>]),
     /// Per-sounding corrections.
     Soundings(&'a crate::compute::correctors::SoundingTableModel),
+    /// Per-line series.
+    Lines(&'a crate::compute::correctors::LineSeriesModel),
 }
 
 impl RunKind<'_> {
@@ -366,6 +368,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                     &series_model
                 }
                 RunKind::Apply(ApplyModel::Soundings(table)) => table,
+                RunKind::Apply(ApplyModel::Lines(lines)) => lines,
             };
             reduce_file(
                 loaded,

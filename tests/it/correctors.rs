@@ -258,3 +258,80 @@ fn per_sounding_rows_sharing_line_and_time_are_refused() {
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("c.csv:3: field 'time_utc': another row has the same line 'L1' and time but a different zone or tide"), "{}", stderr(&o));
 }
+
+#[test]
+fn per_line_series_round_trip() {
+    let d = tempfile::tempdir().unwrap();
+    let p = |s: &str| d.path().join(s).to_string_lossy().into_owned();
+    assert_eq!(
+        neap(&[
+            "reduce",
+            &demo(),
+            "--out",
+            &p("direct"),
+            "--no-progress",
+            "--no-uncertainty"
+        ])
+        .status
+        .code(),
+        Some(1)
+    );
+    let o = neap(&["correctors", &demo(), "--out", &p("corr"), "--per-line"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let side: serde_json::Value = serde_json::from_slice(
+        &std::fs::read(d.path().join("corr/correctors-lines.csv.json")).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(side["kind"], "per_line");
+    assert_eq!(
+        side["inputs"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|i| i["role"] == "soundings")
+            .count(),
+        2
+    );
+    let (h, rows) = read_csv(&d.path().join("corr/correctors-lines.csv"));
+    assert_eq!(
+        h,
+        [
+            "line",
+            "time_utc",
+            "zone",
+            "tide_above_chart_datum_m",
+            "u_tide_m",
+            "status"
+        ]
+    );
+    assert!(rows.iter().any(|r| r[0] == "A-001") && rows.iter().any(|r| r[0] == "B-001"));
+    let o = neap(&[
+        "apply",
+        &p("corr/correctors-lines.csv"),
+        "--project",
+        &demo(),
+        "--out",
+        &p("lines"),
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    for name in ["launch-a", "launch-b"] {
+        let direct = d.path().join(format!("direct/{name}.reduced.csv"));
+        let via = d.path().join(format!("lines/{name}.applied.csv"));
+        let (a, b) = (
+            column(&direct, "reduced_depth_m"),
+            column(&via, "reduced_depth_m"),
+        );
+        let (za, zb) = (column(&direct, "zone"), column(&via, "zone"));
+        let mut compared = 0;
+        for k in 0..a.len() {
+            if a[k].is_empty() || b[k].is_empty() {
+                continue;
+            }
+            compared += 1;
+            assert_eq!(za[k], zb[k], "{name} row {k}: same zone");
+            let diff = (a[k].parse::<f64>().unwrap() - b[k].parse::<f64>().unwrap()).abs();
+            assert!(diff <= 0.001, "{name} row {k}: {diff}");
+        }
+        assert!(compared > 40_000, "{name}: {compared}");
+    }
+}
