@@ -793,6 +793,22 @@ fn neap_status_counts(summary: &Path) -> String {
         .join(", ")
 }
 
+/// Takes an exclusive lock on `dir` (released when the returned file is dropped or the process
+/// ends), so that two benchmarks of the same size never share the data and output folder.
+fn lock_dir(dir: &Path) -> Result<File, String> {
+    use std::os::fd::AsRawFd;
+    let path = dir.join(".lock");
+    let f = File::create(&path).map_err(|e| format!("{}: {e}", path.display()))?;
+    // SAFETY: flock on a file descriptor we own; no memory is passed.
+    if unsafe { libc::flock(f.as_raw_fd(), libc::LOCK_EX | libc::LOCK_NB) } != 0 {
+        return Err(format!(
+            "another reduce_throughput run is using {}: wait for it to finish",
+            dir.display()
+        ));
+    }
+    Ok(f)
+}
+
 /// One baseline run: the measurement, the time to fsync its output afterwards (not part of the
 /// measurement), and the output's size in MiB. The output is checked, then deleted.
 fn run_baseline_once(
@@ -878,12 +894,19 @@ fn run_neap_once(
 fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), String> {
     let paths = locate()?;
     warn_if_stale(&paths.neap);
-    let this_exe = std::env::current_exe().map_err(|e| e.to_string())?;
+    // The children are this executable again. /proc/self/exe still names it when cargo has
+    // replaced the file meanwhile (a rebuild during the benchmark).
+    let this_exe = if Path::new("/proc/self/exe").exists() {
+        PathBuf::from("/proc/self/exe")
+    } else {
+        std::env::current_exe().map_err(|e| e.to_string())?
+    };
     let dir = paths.data_root.join(format!("n{n}"));
     fs::create_dir_all(&dir).map_err(|e| format!("{}: {e}", dir.display()))?;
     let dir = dir
         .canonicalize()
         .map_err(|e| format!("{}: {e}", dir.display()))?;
+    let _lock = lock_dir(&dir)?;
     let csv = dir.join(format!("soundings-v{GENERATOR_VERSION}.csv"));
     let project = dir.join("project.toml");
 
