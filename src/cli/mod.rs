@@ -272,13 +272,19 @@ fn run_reduce(
             )
         }
     };
-    print_summary(&name, &summary, &summary_path, verdict.as_deref());
+    print_summary("reduce", &name, &summary, &summary_path, verdict.as_deref());
     Ok(Ok((summary, out_dir)))
 }
 
-fn print_summary(name: &str, s: &RunSummary, summary_path: &Path, verdict: Option<&str>) {
+fn print_summary(
+    command: &str,
+    name: &str,
+    s: &RunSummary,
+    summary_path: &Path,
+    verdict: Option<&str>,
+) {
     let mut e = std::io::stderr().lock();
-    let _ = writeln!(e, "neap reduce: {name}");
+    let _ = writeln!(e, "neap {command}: {name}");
     for f in &s.files {
         let _ = writeln!(
             e,
@@ -439,7 +445,11 @@ fn cmd_apply(
         neap::run::correctors::apply_corrections(&loaded, corrections, soundings, out_dir.clone())?;
     let summary_path = out_dir.join("apply-summary.json");
     neap::io::atomic::write_atomic(&summary_path, &serde_json::to_vec_pretty(&summary)?)?;
+    for w in neap::run::correctors::provenance_mismatches(&loaded, corrections) {
+        eprintln!("warning: {w}");
+    }
     print_summary(
+        "apply",
         &format!(
             "{} (tide from {})",
             loaded.project.spec.name,

@@ -519,6 +519,59 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
         .collect()
 }
 
+/// Compares the sidecar of a correction file (`<file>.json`, when present) with the project's
+/// current inputs: one message per input whose SHA-256 differs or that the project no longer has.
+/// A file without sidecar gives one message saying its provenance cannot be checked.
+pub fn provenance_mismatches(loaded: &Loaded, corrections: &Path) -> Vec<String> {
+    let mut name = corrections
+        .file_name()
+        .map(|n| n.to_os_string())
+        .unwrap_or_default();
+    name.push(".json");
+    let sidecar = corrections.with_file_name(name);
+    let Ok(bytes) = std::fs::read(&sidecar) else {
+        return vec![format!(
+            "{} has no sidecar {}: its provenance cannot be checked against this project",
+            corrections.display(),
+            sidecar.display()
+        )];
+    };
+    let Ok(v) = serde_json::from_slice::<serde_json::Value>(&bytes) else {
+        return vec![format!("{}: not valid JSON", sidecar.display())];
+    };
+    let p = &loaded.project;
+    let mut current: Vec<(String, &Path)> = vec![
+        ("project".into(), p.path.as_path()),
+        ("zoning".into(), p.spec.zoning.as_path()),
+    ];
+    for g in &p.spec.gauges {
+        current.push((format!("gauge record '{}'", g.id), g.record.as_path()));
+    }
+    let mut out = Vec::new();
+    for input in v["inputs"].as_array().into_iter().flatten() {
+        let (Some(role), Some(hash)) = (input["role"].as_str(), input["sha256"].as_str()) else {
+            continue;
+        };
+        if role == "soundings" || role == "project" {
+            // Soundings may legitimately be applied file by file; the project file may differ
+            // in output options only. Both are reported by the data they lead to.
+            continue;
+        }
+        match current.iter().find(|(r, _)| r == role) {
+            None => out.push(format!("the correction file was made with a {role} that this project does not have")),
+            Some((_, path)) => match sha256_file(path) {
+                Ok(h) if h == hash => {}
+                Ok(_) => out.push(format!(
+                    "the correction file was made from a different {role} than {} (SHA-256 differs): re-run `neap correctors`",
+                    path.display()
+                )),
+                Err(e) => out.push(e.to_string()),
+            },
+        }
+    }
+    out
+}
+
 /// Reduces soundings with tide from a correction file (per zone: interpolated in time within
 /// the sounding's zone; per sounding: looked up by line and time).
 pub fn apply_corrections(

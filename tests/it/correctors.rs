@@ -335,3 +335,39 @@ fn per_line_series_round_trip() {
         assert!(compared > 40_000, "{name}: {compared}");
     }
 }
+
+#[test]
+fn apply_warns_when_the_inputs_changed_since_the_correction_file_was_made() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let c = p.path("c").to_string_lossy().into_owned();
+    assert_eq!(
+        neap(&["correctors", &p.project(), "--out", &c])
+            .status
+            .code(),
+        Some(0)
+    );
+    let file = p
+        .path("c/correctors-zones.csv")
+        .to_string_lossy()
+        .into_owned();
+    let o = neap(&["apply", &file, "--project", &p.project()]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(!stderr(&o).contains("warning:"), "{}", stderr(&o));
+    assert!(stderr(&o).starts_with("neap apply: "), "{}", stderr(&o));
+    let g = std::fs::read_to_string(p.path("g1.csv"))
+        .unwrap()
+        .replacen("1.000", "1.001", 1);
+    p.write("g1.csv", &g);
+    let o = neap(&["apply", &file, "--project", &p.project()]);
+    assert!(
+        stderr(&o).contains(
+            "warning: the correction file was made from a different gauge record 'g1' than"
+        ),
+        "{}",
+        stderr(&o)
+    );
+    std::fs::remove_file(p.path("c/correctors-zones.csv.json")).unwrap();
+    let o = neap(&["apply", &file, "--project", &p.project()]);
+    assert!(stderr(&o).contains("has no sidecar"), "{}", stderr(&o));
+}
