@@ -57,8 +57,8 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Write tide-correction files (per zone on a regular step; per sounding with
-    /// --per-sounding), each with a JSON provenance sidecar.
+    /// Write tide-correction files (per zone on a regular step; per survey line with
+    /// --per-line; per sounding with --per-sounding), each with a JSON provenance sidecar.
     Correctors {
         /// The project file (TOML).
         project: PathBuf,
