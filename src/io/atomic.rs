@@ -20,10 +20,12 @@ pub struct AtomicFile {
     temp: PathBuf,
     writer: Option<BufWriter<File>>,
     unsynced: usize,
+    /// The background sync of what was written so far, if one is running.
+    syncing: Option<std::thread::JoinHandle<std::io::Result<()>>>,
 }
 
-/// Written bytes are handed to the disk every this many bytes, so that the final sync before the
-/// rename is short and the flushing overlaps with the work.
+/// Written bytes are handed to the disk every this many bytes, on a background thread, so that
+/// the final sync before the rename is short and the flushing overlaps with the work.
 const SYNC_EVERY_BYTES: usize = 64 << 20;
 
 impl AtomicFile {
@@ -50,6 +52,7 @@ impl AtomicFile {
             temp,
             writer: Some(BufWriter::with_capacity(256 * 1024, f)),
             unsynced: 0,
+            syncing: None,
         })
     }
 
@@ -67,8 +70,23 @@ impl AtomicFile {
         if self.unsynced >= SYNC_EVERY_BYTES {
             self.unsynced = 0;
             w.flush().map_err(|e| IoError::file(&self.temp, e))?;
-            w.get_ref()
-                .sync_data()
+            // One background sync at a time: wait for the previous one (normally long done),
+            // then hand the file's written pages to the disk without blocking the writer.
+            self.wait_for_sync()?;
+            let w = self.writer.as_ref().expect("writer present until commit");
+            let f = w
+                .get_ref()
+                .try_clone()
+                .map_err(|e| IoError::file(&self.temp, e))?;
+            self.syncing = Some(std::thread::spawn(move || f.sync_data()));
+        }
+        Ok(())
+    }
+
+    fn wait_for_sync(&mut self) -> Result<(), IoError> {
+        if let Some(h) = self.syncing.take() {
+            h.join()
+                .unwrap_or_else(|_| Err(std::io::Error::other("sync thread panicked")))
                 .map_err(|e| IoError::file(&self.temp, e))?;
         }
         Ok(())
@@ -76,6 +94,7 @@ impl AtomicFile {
 
     /// Flushes, syncs and renames onto the target.
     pub fn commit(mut self) -> Result<PathBuf, IoError> {
+        self.wait_for_sync()?;
         let w = self.writer.take().expect("writer present until commit");
         let f = w
             .into_inner()
