@@ -152,22 +152,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
         }
         let line = rec.position().map(|p| p.line()).unwrap_or(0);
         let at = |f: &str| Position::file(path).line(line).field(f.to_string());
-        let opt_num = |i: usize, name: &str| -> Result<Option<f64>, IoError> {
-            let s = rec.get(i).unwrap_or("");
-            if s.is_empty() {
-                return Ok(None);
-            }
-            s.parse::<f64>()
-                .ok()
-                .filter(|v| v.is_finite())
-                .map(Some)
-                .ok_or_else(|| {
-                    IoError::content(
-                        at(name),
-                        format!("expected a number in metres, found '{s}'"),
-                    )
-                })
-        };
+        let opt_num = |i: usize, name: &str| optional_metres(&rec, i, &at(name));
         if zones {
             let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
                 .map_err(|m| IoError::content(at("time_utc"), m))?;
@@ -246,22 +231,7 @@ fn parse_line_rows<R: Read>(
         }
         let line = rec.position().map(|p| p.line()).unwrap_or(0);
         let at = |f: &str| Position::file(path).line(line).field(f.to_string());
-        let num = |i: usize, name: &str| -> Result<Option<f64>, IoError> {
-            let s = rec.get(i).unwrap_or("");
-            if s.is_empty() {
-                return Ok(None);
-            }
-            s.parse::<f64>()
-                .ok()
-                .filter(|v| v.is_finite())
-                .map(Some)
-                .ok_or_else(|| {
-                    IoError::content(
-                        at(name),
-                        format!("expected a number in metres, found '{s}'"),
-                    )
-                })
-        };
+        let num = |i: usize, name: &str| optional_metres(&rec, i, &at(name));
         let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
             .map_err(|m| IoError::content(at("time_utc"), m))?;
         let status = CorrectorStatus::parse(&rec[5]).ok_or_else(|| {
@@ -299,6 +269,28 @@ fn parse_line_rows<R: Read>(
         ));
     }
     Ok(CorrectionFile::Lines(out))
+}
+
+/// Field `i` as metres: empty is `None`; anything but a finite number is an error at `at`.
+fn optional_metres(
+    rec: &csv::StringRecord,
+    i: usize,
+    at: &Position,
+) -> Result<Option<f64>, IoError> {
+    let s = rec.get(i).unwrap_or("");
+    if s.is_empty() {
+        return Ok(None);
+    }
+    s.parse::<f64>()
+        .ok()
+        .filter(|v| v.is_finite())
+        .map(Some)
+        .ok_or_else(|| {
+            IoError::content(
+                at.clone(),
+                format!("expected a number in metres, found '{s}'"),
+            )
+        })
 }
 
 /// Turns per-sounding rows into model entries, zone ids resolved against `zone_ids`.

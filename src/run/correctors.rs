@@ -44,43 +44,14 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
                 m,
             )
         })?;
-        for path in &group.files {
-            let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
-            let mut r = ChunkReader::new(f, 1);
-            let mut layout: Option<SoundingLayout> = None;
-            let mut fields = Fields::default();
-            while let Some(c) = r
-                .next_chunk(Vec::new())
-                .map_err(|e| IoError::file(path, e))?
-            {
-                for (_, raw) in lines_of(&c) {
-                    let Ok(line) = std::str::from_utf8(raw) else {
-                        continue;
-                    };
-                    if layout.is_none() {
-                        layout = Some(SoundingLayout::resolve(
-                            group,
-                            Some(line),
-                            loaded.project.naive_offset,
-                            path,
-                        )?);
-                        if group.header {
-                            continue;
-                        }
-                    }
-                    let lay = layout.as_ref().expect("set above");
-                    fields.split(line, lay.delimiter);
-                    if let Ok(v) = lay.parse(line, &fields) {
-                        let bin = (v.t_s / step_s).round() as i64;
-                        lines
-                            .entry(v.line_id.to_string())
-                            .or_default()
-                            .entry(bin)
-                            .or_insert((v.t_s, locator.locate(v.x, v.y)));
-                    }
-                }
-            }
-        }
+        for_each_sounding(loaded, group, |v| {
+            let bin = (v.t_s / step_s).round() as i64;
+            lines
+                .entry(v.line_id.to_string())
+                .or_default()
+                .entry(bin)
+                .or_insert((v.t_s, locator.locate(v.x, v.y)));
+        })?;
     }
     let unc = loaded.uncertainty.as_ref();
     let mut text = LINE_CORRECTOR_COLUMNS.join(",");
@@ -223,43 +194,56 @@ pub struct CorrectorsOutcome {
 pub fn soundings_time_range(loaded: &Loaded) -> Result<Option<(f64, f64)>, IoError> {
     let mut range: Option<(f64, f64)> = None;
     for group in &loaded.project.spec.soundings {
-        for path in &group.files {
-            let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
-            let mut r = ChunkReader::new(f, 1);
-            let mut layout: Option<SoundingLayout> = None;
-            let mut fields = Fields::default();
-            while let Some(c) = r
-                .next_chunk(Vec::new())
-                .map_err(|e| IoError::file(path, e))?
-            {
-                for (_, raw) in lines_of(&c) {
-                    let Ok(line) = std::str::from_utf8(raw) else {
+        for_each_sounding(loaded, group, |v| {
+            range = Some(match range {
+                None => (v.t_s, v.t_s),
+                Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
+            });
+        })?;
+    }
+    Ok(range)
+}
+
+/// Calls `f` with every readable sounding of a group's files, in file order (rows that cannot be
+/// read are skipped here; the reduction reports them).
+fn for_each_sounding(
+    loaded: &Loaded,
+    group: &crate::io::project::SoundingsSpec,
+    mut f: impl FnMut(&crate::io::soundings::SoundingValues),
+) -> Result<(), IoError> {
+    for path in &group.files {
+        let file = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
+        let mut r = ChunkReader::new(file, 1);
+        let mut layout: Option<SoundingLayout> = None;
+        let mut fields = Fields::default();
+        while let Some(c) = r
+            .next_chunk(Vec::new())
+            .map_err(|e| IoError::file(path, e))?
+        {
+            for (_, raw) in lines_of(&c) {
+                let Ok(line) = std::str::from_utf8(raw) else {
+                    continue;
+                };
+                if layout.is_none() {
+                    layout = Some(SoundingLayout::resolve(
+                        group,
+                        Some(line),
+                        loaded.project.naive_offset,
+                        path,
+                    )?);
+                    if group.header {
                         continue;
-                    };
-                    if layout.is_none() {
-                        layout = Some(SoundingLayout::resolve(
-                            group,
-                            Some(line),
-                            loaded.project.naive_offset,
-                            path,
-                        )?);
-                        if group.header {
-                            continue;
-                        }
                     }
-                    let lay = layout.as_ref().expect("set above");
-                    fields.split(line, lay.delimiter);
-                    if let Ok(v) = lay.parse(line, &fields) {
-                        range = Some(match range {
-                            None => (v.t_s, v.t_s),
-                            Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
-                        });
-                    }
+                }
+                let lay = layout.as_ref().expect("set above");
+                fields.split(line, lay.delimiter);
+                if let Ok(v) = lay.parse(line, &fields) {
+                    f(&v);
                 }
             }
         }
     }
-    Ok(range)
+    Ok(())
 }
 
 fn provenance(
