@@ -26,6 +26,7 @@ fn main() {
                         .collect(),
                     times_s: times,
                     max_gap_s: 1800.0,
+                    ..Default::default()
                 },
                 mean_level_above_datum_m: 2.5,
             }

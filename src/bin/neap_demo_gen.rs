@@ -511,6 +511,18 @@ fn empty_height_ms() -> [i64; 2] {
     [utc_ms(14, 10, 42, 0), utc_ms(14, 15, 26, 0)]
 }
 
+/// Skellan's sensor faults: a spike (+0.52 m at 09:48), a stuck float (the 11:24 reading
+/// repeated until 12:48) and the 16:00 row written twice.
+fn skellan_spike_ms() -> i64 {
+    utc_ms(14, 9, 48, 0)
+}
+fn skellan_stuck_ms() -> (i64, i64) {
+    (utc_ms(14, 11, 24, 0), utc_ms(14, 12, 48, 0))
+}
+fn skellan_duplicate_ms() -> i64 {
+    utc_ms(14, 16, 0, 0)
+}
+
 fn gauge_csv(g: &GaugeSite, stream: u64) -> String {
     let mut rng = ChaCha8Rng::seed_from_u64(SEED);
     rng.set_stream(stream);
@@ -518,9 +530,24 @@ fn gauge_csv(g: &GaugeSite, stream: u64) -> String {
     let (gap0, gap1) = gap_ms();
     let mut s = String::from("time,height\n");
     let mut t = utc_ms(13, 22, 0, 0);
+    let (stuck0, stuck1) = skellan_stuck_ms();
+    let mut stuck_reading = 0.0;
     while t <= utc_ms(15, 2, 0, 0) {
-        let reading = g.level_m(t) + noise.sample(&mut rng) - g.zero_above_datum_m;
+        let mut reading = g.level_m(t) + noise.sample(&mut rng) - g.zero_above_datum_m;
         let faulty = g.id == "pendrath";
+        if g.id == "skellan" {
+            if t == skellan_spike_ms() {
+                reading += 0.52;
+            }
+            if t == stuck0 {
+                stuck_reading = round_dp(reading, 3);
+            } else if t > stuck0 && t <= stuck1 {
+                reading = stuck_reading;
+            }
+            if t == skellan_duplicate_ms() {
+                writeln!(s, "{},{}", rfc3339(t, false), fixed(reading + 0.004, 3)).unwrap();
+            }
+        }
         if faulty && empty_height_ms().contains(&t) {
             writeln!(s, "{},", rfc3339(t, false)).unwrap();
         } else if !(faulty && t > gap0 && t < gap1) {
@@ -591,6 +618,10 @@ struct FileStats {
     /// Valid soundings in a pendrath-fed zone whose time minus that feed's time corrector falls
     /// strictly inside the pendrath gap.
     in_gap: usize,
+    /// Valid soundings in a skellan-fed zone whose shifted time falls strictly between the
+    /// samples around one of skellan's faulty readings (the spike, the stuck float), which QC
+    /// sets aside and the reducer does not interpolate through.
+    in_skellan_fault: usize,
     first_ms: i64,
     last_ms: i64,
 }
@@ -603,8 +634,23 @@ fn file_stats(pings: &[Ping], zones: &[Zone]) -> FileStats {
             f.gauge == PENDRATH && shifted > gap0 && shifted < gap1
         })
     };
+    let step = 6 * 60_000;
+    let blocked = [
+        (skellan_spike_ms() - step, skellan_spike_ms() + step),
+        (skellan_stuck_ms().0, skellan_stuck_ms().1 + step),
+    ];
+    let in_fault = |p: &Ping, z: usize| {
+        zones[z].feeds.iter().any(|f| {
+            let shifted = p.t_ms - (f.time_corrector_min * 60_000.0) as i64;
+            GAUGES[f.gauge].id == "skellan"
+                && blocked.iter().any(|&(a, b)| shifted > a && shifted < b)
+        })
+    };
     let valid = || pings.iter().filter(|p| !p.corrupt);
     FileStats {
+        in_skellan_fault: valid()
+            .filter(|p| p.zone.is_some_and(|z| in_fault(p, z) && !in_gap(p, z)))
+            .count(),
         rows: pings.len(),
         corrupt_rows: (0..pings.len())
             .filter(|&i| pings[i].corrupt)
@@ -790,7 +836,7 @@ fn generator_json(
     let file = |s: &FileStats| {
         json!({
             "data_rows": s.rows, "corrupt_rows": s.corrupt_rows, "outside_zoning": s.outside,
-            "in_pendrath_gap": s.in_gap, "first_utc": rfc3339(s.first_ms, true), "last_utc": rfc3339(s.last_ms, true),
+            "in_pendrath_gap": s.in_gap, "in_skellan_fault": s.in_skellan_fault, "first_utc": rfc3339(s.first_ms, true), "last_utc": rfc3339(s.last_ms, true),
         })
     };
     let (gap0, gap1) = gap_ms();
@@ -823,9 +869,14 @@ fn generator_json(
         "pendrath_fault": {
             "last_sample_before_gap_utc": rfc3339(gap0, false), "first_sample_after_gap_utc": rfc3339(gap1, false),
             "empty_height_times_utc": empty_height_ms().map(|t| rfc3339(t, false)),
+            "skellan_faults": {
+                "spike_utc": rfc3339(skellan_spike_ms(), false), "spike_m": 0.52,
+                "stuck_from_utc": rfc3339(skellan_stuck_ms().0, false), "stuck_to_utc": rfc3339(skellan_stuck_ms().1, false),
+                "duplicated_time_utc": rfc3339(skellan_duplicate_ms(), false),
+            },
         },
         "files": { "soundings/launch-a.csv": file(&stats[0]), "soundings/launch-b.txt": file(&stats[1]) },
-        "counting_rules": "rows are 1-based data rows; in_pendrath_gap counts valid soundings in a zone fed by pendrath \
+        "counting_rules": "rows are 1-based data rows; in_skellan_fault counts valid soundings in a zone fed by skellan whose time minus the time corrector lies strictly between the samples around the spike or the stuck float; in_pendrath_gap counts valid soundings in a zone fed by pendrath \
             whose time minus that feed's time corrector falls strictly between the two samples bounding the gap",
         "zoning_model_error_m": {
             "note": "zoning formula fed by error-free gauges minus the true tide, over valid soundings inside the zoning",
@@ -1009,6 +1060,10 @@ Deliberate faults, as real surveys have them:
 * `pendrath` has no samples between 13:10 and 14:00 UTC (a 50-minute gap, longer than the
   30 minutes interpolation may bridge) and two empty readings; {gap_a} soundings of launch A and
   {gap_b} of launch B lie in zones it feeds at times that fall in the gap;
+* `skellan`'s sensor misbehaves three times: a spike of +0.52 m at 09:48, a stuck float
+  (the 11:24 reading repeated until 12:48) and the 16:00 row written twice. `neap qc` finds
+  each; the reducer does not interpolate across the flagged samples, so {flt_a} soundings of
+  launch A and {flt_b} of launch B, in zones skellan feeds, get status `gauge_flagged`;
 * one line of launch A overshoots the shore by 100 m: {out} soundings lie outside every zone;
 * launch B has two corrupt rows (data rows {c0}: `NaN` depth, and {c1}: truncated).
 
@@ -1037,6 +1092,8 @@ neap and does the same through `neap demo`.
         rows_b = b.rows,
         gap_a = a.in_gap,
         gap_b = b.in_gap,
+        flt_a = a.in_skellan_fault,
+        flt_b = b.in_skellan_fault,
         out = a.outside + b.outside,
         c0 = b.corrupt_rows[0],
         c1 = b.corrupt_rows[1],

@@ -96,6 +96,39 @@ enum Command {
         #[arg(long)]
         out: Option<PathBuf>,
     },
+    /// Quality control of gauge records: flags per sample with reasons, a plot per gauge, and
+    /// gauge-to-gauge comparison through the zoning's correctors.
+    Qc {
+        /// The project file (TOML): every gauge, and the comparisons its zoning allows.
+        #[arg(required_unless_present = "record", conflicts_with = "record")]
+        project: Option<PathBuf>,
+        /// Only this gauge (and the comparisons it takes part in).
+        #[arg(long)]
+        gauge: Option<String>,
+        /// One record file instead of a project (CSV with a header).
+        #[arg(long)]
+        record: Option<PathBuf>,
+        /// With --record: the time column (ISO 8601 with offset).
+        #[arg(long, default_value = "time", requires = "record")]
+        time_column: String,
+        /// With --record: the height column.
+        #[arg(long, default_value = "height", requires = "record")]
+        height_column: String,
+        /// With --record: units of the heights: m, ft or us_ft.
+        #[arg(long, default_value = "m", requires = "record")]
+        units: String,
+        /// With --record: height of the gauge zero above chart datum, metres.
+        #[arg(
+            long,
+            default_value_t = 0.0,
+            requires = "record",
+            allow_hyphen_values = true
+        )]
+        zero_above_datum_m: f64,
+        /// Output folder (default: `<project output dir>/qc`, or `./qc` with --record).
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
     /// Reduce the bundled demo survey and say where the results are.
     Demo {
         /// The demo folder (default: ./zoning-demo, else the one in the source tree).
@@ -162,6 +195,27 @@ pub fn main() -> i32 {
             project,
             out,
         } => cmd_apply(&corrections, soundings, &project, out).unwrap_or_else(report_failure),
+        Command::Qc {
+            project,
+            gauge,
+            record,
+            time_column,
+            height_column,
+            units,
+            zero_above_datum_m,
+            out,
+        } => match (project, record) {
+            (Some(p), _) => cmd_qc_project(&p, gauge.as_deref(), out),
+            (None, Some(r)) => cmd_qc_record(
+                &r,
+                &time_column,
+                &height_column,
+                &units,
+                zero_above_datum_m,
+                out,
+            ),
+            (None, None) => EXIT_CANNOT_RUN,
+        },
         Command::Demo { dir } => cmd_demo(dir),
     }
 }
@@ -305,18 +359,19 @@ fn print_summary(
     }
     let _ = writeln!(
         e,
-        "  {:<8} {:<10} {:<22} {:>10} {:>14}",
-        "zone", "formula", "gauges", "reduced", "no_gauge_data"
+        "  {:<8} {:<10} {:<22} {:>10} {:>14} {:>14}",
+        "zone", "formula", "gauges", "reduced", "no_gauge_data", "gauge_flagged"
     );
     for z in &s.zones {
         let _ = writeln!(
             e,
-            "  {:<8} {:<10} {:<22} {:>10} {:>14}",
+            "  {:<8} {:<10} {:<22} {:>10} {:>14} {:>14}",
             z.zone,
             z.mean_level_form,
             z.gauges.join("+"),
             z.reduced,
-            z.no_gauge_data
+            z.no_gauge_data,
+            z.gauge_flagged
         );
     }
     for f in &s.files {
@@ -495,6 +550,175 @@ fn cmd_check(project: &Path, json: bool) -> i32 {
         );
     }
     if report.errors() > 0 {
+        EXIT_INCOMPLETE
+    } else {
+        EXIT_OK
+    }
+}
+
+fn cmd_qc_project(project_path: &Path, gauge: Option<&str>, out: Option<PathBuf>) -> i32 {
+    let project = match Project::load(project_path) {
+        Ok(p) => p,
+        Err(e) => return report_failure(e.into()),
+    };
+    if let Some(g) = gauge {
+        if !project.spec.gauges.iter().any(|x| x.id == g) {
+            eprintln!(
+                "neap: the project has no gauge '{g}' (gauges: {})",
+                project
+                    .spec
+                    .gauges
+                    .iter()
+                    .map(|x| x.id.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            );
+            return EXIT_CANNOT_RUN;
+        }
+    }
+    let out_dir = out.unwrap_or_else(|| project.spec.output.dir.join("qc"));
+    let result = match load(project.clone(), None) {
+        Ok(loaded) => neap::run::qc::qc_project(&loaded, gauge, &out_dir),
+        Err(findings) => {
+            print_findings(&findings);
+            eprintln!(
+                "neap qc: the project does not load as a whole; checking the gauge records alone"
+            );
+            neap::run::qc::qc_records_only(
+                &project,
+                gauge,
+                &out_dir,
+                "the project did not load (see the errors above)",
+            )
+        }
+    };
+    match result {
+        Ok(summary) => print_qc(&summary),
+        Err(e) => report_failure(e.into()),
+    }
+}
+
+fn cmd_qc_record(
+    record: &Path,
+    time_column: &str,
+    height_column: &str,
+    units: &str,
+    zero_above_datum_m: f64,
+    out: Option<PathBuf>,
+) -> i32 {
+    let units = match units {
+        "m" => neap::io::project::HeightUnit::Metre,
+        "ft" => neap::io::project::HeightUnit::Foot,
+        "us_ft" => neap::io::project::HeightUnit::UsSurveyFoot,
+        other => {
+            eprintln!("neap: --units: expected m, ft or us_ft, found '{other}'");
+            return EXIT_CANNOT_RUN;
+        }
+    };
+    let mut spec = neap::io::project::GaugeSpec::for_record(record, units, zero_above_datum_m);
+    spec.time_column = time_column.to_string();
+    spec.height_column = height_column.to_string();
+    let r = match neap::io::gauge_csv::read_gauge_record(&spec, None) {
+        Ok(r) => r,
+        Err(e) => return report_failure(e.into()),
+    };
+    // Without a project, the plausible band is centred on the record's median level.
+    let mut levels = r.heights_m.clone();
+    if !levels.is_empty() {
+        let mid = levels.len() / 2;
+        spec.mean_level_above_datum_m = *levels.select_nth_unstable_by(mid, f64::total_cmp).1;
+    }
+    let out_dir = out.unwrap_or_else(|| PathBuf::from("qc"));
+    match neap::run::qc::qc_single_record(
+        &spec,
+        &r,
+        &neap::io::project::QcSpec::default(),
+        &out_dir,
+    ) {
+        Ok(summary) => print_qc(&summary),
+        Err(e) => report_failure(e.into()),
+    }
+}
+
+fn print_qc(s: &neap::run::qc::QcSummary) -> i32 {
+    let mut o = std::io::stdout().lock();
+    for g in &s.gauges {
+        let _ = writeln!(
+            o,
+            "gauge {}: {} samples every {:.1} min, {} usable; robust noise σ {:.4} m; interpolation {}{}",
+            g.gauge,
+            g.samples,
+            g.method.nominal_step_min,
+            g.usable,
+            g.robust_sigma_m,
+            g.method.interpolation,
+            g.method
+                .lowpass_cutoff_min
+                .map(|c| format!(", low-pass {c} min"))
+                .unwrap_or_default()
+        );
+        for flag in neap::compute::qc::QcFlag::ALL {
+            let n = g.flags[flag.as_str()];
+            if n == 0 {
+                continue;
+            }
+            let _ = writeln!(o, "  {:<15} {n:>7}  {}", flag.as_str(), flag.meaning());
+            for f in g
+                .first_flagged
+                .iter()
+                .filter(|f| f.flag == flag.as_str())
+                .take(2)
+            {
+                let _ = writeln!(
+                    o,
+                    "      line {:>6}  {}  {:>8.3} m  {}",
+                    f.line, f.time_utc, f.level_above_datum_m, f.detail
+                );
+            }
+        }
+    }
+    if !s.comparisons.is_empty() {
+        let _ = writeln!(
+            o,
+            "\ngauge comparisons (a − b through the zoning's correctors):"
+        );
+        let _ = writeln!(
+            o,
+            "  {:<28} {:>6} {:>8} {:>7} {:>7} {:>9} {:>8}  verdict",
+            "pair", "n", "mean_m", "std_m", "max_m", "drift_m/d", "lag_min"
+        );
+        for c in &s.comparisons {
+            let _ = writeln!(
+                o,
+                "  {:<28} {:>6} {:>+8.3} {:>7.3} {:>7.3} {:>+9.4} {:>+8.1}  {}",
+                c.pair,
+                c.n,
+                c.mean_m,
+                c.std_m,
+                c.max_abs_m,
+                c.drift_m_per_day,
+                c.best_lag_min,
+                if c.flagged { "FLAGGED" } else { "ok" }
+            );
+            for f in &c.findings {
+                let _ = writeln!(o, "      {f}");
+            }
+        }
+    }
+    if let Some(n) = &s.comparisons_note {
+        let _ = writeln!(o, "\n{n}");
+    }
+    let _ = writeln!(o);
+    for g in &s.gauges {
+        for p in &g.outputs {
+            let _ = writeln!(o, "wrote {}", p.display());
+        }
+    }
+    for p in &s.outputs {
+        let _ = writeln!(o, "wrote {}", p.display());
+    }
+    let _ = writeln!(o, "{CAUTION}");
+    if s.anything_flagged() {
         EXIT_INCOMPLETE
     } else {
         EXIT_OK

@@ -24,6 +24,9 @@ pub enum CorrectorStatus {
     GapFilled,
     /// No value: a feeding gauge has no level at the corrected time.
     Missing,
+    /// No value: a feeding gauge's samples around the corrected time enclose one that quality
+    /// control set aside (soundings there get status `gauge_flagged`).
+    Flagged,
 }
 
 impl CorrectorStatus {
@@ -34,6 +37,7 @@ impl CorrectorStatus {
             CorrectorStatus::Interpolated => "interpolated",
             CorrectorStatus::GapFilled => "gap_filled",
             CorrectorStatus::Missing => "missing",
+            CorrectorStatus::Flagged => "flagged",
         }
     }
     /// Parses the word.
@@ -43,6 +47,7 @@ impl CorrectorStatus {
             "interpolated" => CorrectorStatus::Interpolated,
             "gap_filled" => CorrectorStatus::GapFilled,
             "missing" => CorrectorStatus::Missing,
+            "flagged" => CorrectorStatus::Flagged,
             _ => return None,
         })
     }
@@ -107,11 +112,15 @@ pub fn zone_corrector_at(
     states: &mut Vec<FeedState>,
 ) -> Corrector {
     match zone.tide_at(gauges, interp, t, states) {
-        Err(_) => Corrector {
+        Err(e) => Corrector {
             t_s: t,
             tide_m: None,
             u_tide_m: None,
-            status: CorrectorStatus::Missing,
+            status: if matches!(e.why, super::series::NoLevel::Flagged { .. }) {
+                CorrectorStatus::Flagged
+            } else {
+                CorrectorStatus::Missing
+            },
         },
         Ok(tide) => {
             let observed = zone.feeds.iter().zip(states.iter()).all(|(f, st)| {
@@ -153,6 +162,16 @@ pub fn interpolate_correctors(series: &[Corrector], t_s: f64) -> Option<f64> {
     Some(ta + (tb - ta) * (t_s - a.t_s) / (b.t_s - a.t_s))
 }
 
+/// Whether the correctors around `t_s` that leave it without a value include a `flagged` one.
+pub fn flagged_near(series: &[Corrector], t_s: f64) -> bool {
+    let i = series.partition_point(|c| c.t_s <= t_s);
+    let near = |k: Option<usize>| {
+        k.and_then(|k| series.get(k))
+            .is_some_and(|c| c.status == CorrectorStatus::Flagged)
+    };
+    near(i.checked_sub(1)) || near(Some(i))
+}
+
 /// Tide from per-zone corrector series: the zone from the locator, the tide interpolated in time.
 #[derive(Debug)]
 pub struct ZoneSeriesModel<'a> {
@@ -178,7 +197,12 @@ impl TideModel for ZoneSeriesModel<'_> {
             Some(tide_m) => TideOutcome::Tide { zone, tide_m },
             None => TideOutcome::NoCorrection {
                 zone: Some(zone),
-                why: "the correction file has no value for this zone at this time",
+                why: if flagged_near(&self.series[zone], t_s) {
+                    "the correction file marks this zone's tide at this time flagged (gauge samples set aside by quality control)"
+                } else {
+                    "the correction file has no value for this zone at this time"
+                },
+                flagged: flagged_near(&self.series[zone], t_s),
             },
         }
     }
@@ -205,6 +229,7 @@ impl TideModel for LineSeriesModel {
             return TideOutcome::NoCorrection {
                 zone: None,
                 why: "the correction file has no series for this survey line",
+                flagged: false,
             };
         };
         let i = series.partition_point(|c| c.t_s <= t_s);
@@ -219,7 +244,12 @@ impl TideModel for LineSeriesModel {
             (Some(tide_m), Some(zone)) => TideOutcome::Tide { zone, tide_m },
             _ => TideOutcome::NoCorrection {
                 zone,
-                why: "the correction file has no value for this line at this time",
+                why: if flagged_near(series, t_s) {
+                    "the correction file marks this line's tide at this time flagged (gauge samples set aside by quality control)"
+                } else {
+                    "the correction file has no value for this line at this time"
+                },
+                flagged: flagged_near(series, t_s),
             },
         }
     }
@@ -237,10 +267,12 @@ pub enum SoundingCorrection {
     },
     /// The sounding was outside every zone.
     Outside,
-    /// No tide (no gauge data, or the row was bad).
+    /// No tide (no gauge data, flagged gauge data, or the row was bad).
     None {
         /// Zone index, when known.
         zone: Option<usize>,
+        /// The sounding's status was `gauge_flagged`.
+        flagged: bool,
     },
 }
 
@@ -271,13 +303,19 @@ impl TideModel for SoundingTableModel {
                 tide_m: *tide_m,
             },
             Some(SoundingCorrection::Outside) => TideOutcome::Outside,
-            Some(SoundingCorrection::None { zone }) => TideOutcome::NoCorrection {
+            Some(SoundingCorrection::None { zone, flagged }) => TideOutcome::NoCorrection {
                 zone: *zone,
-                why: "the correction file gives no tide for this sounding",
+                why: if *flagged {
+                    "the correction file gives no tide for this sounding: its gauge data were flagged by quality control"
+                } else {
+                    "the correction file gives no tide for this sounding"
+                },
+                flagged: *flagged,
             },
             None => TideOutcome::NoCorrection {
                 zone: None,
                 why: "the correction file has no row for this line and time",
+                flagged: false,
             },
         }
     }
@@ -296,6 +334,7 @@ mod tests {
                 times_s: vec![0.0, 360.0, 720.0, 4320.0, 4680.0],
                 heights_m: vec![1.0, 1.6, 1.3, 2.0, 2.1],
                 max_gap_s: 1800.0,
+                ..Default::default()
             },
             mean_level_above_datum_m: 1.5,
         }

@@ -8,13 +8,23 @@
 //! * [`qa`] — per-order shares, budgets and histograms for the QA report.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`fixed`] — fast fixed-decimal formatting of metres for the output writers.
+//! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
+//! * [`spline`] — natural cubic spline interpolation in time, per unbroken segment.
+//! * [`lowpass`] — zero-phase low-pass filter for noisy 1-minute records.
+//! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
+//! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 
+pub mod astro;
+pub mod compare;
 pub mod correctors;
 pub mod fixed;
 pub mod locate;
+pub mod lowpass;
 pub mod qa;
+pub mod qc;
 pub mod reduce;
 pub mod series;
+pub mod spline;
 pub mod uncertainty;
 pub mod zoning;
 

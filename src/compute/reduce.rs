@@ -20,17 +20,24 @@ pub enum SoundingStatus {
     /// The zone's gauge(s) have no level at the (shifted) time: before or after the record, or
     /// inside a gap longer than the gauge's maximum gap.
     NoGaugeData,
+    /// The zone's tide would depend on a stretch of a gauge record that quality control flagged:
+    /// a flagged sample lies between the samples that bracket the (shifted) time.
+    GaugeFlagged,
     /// The row could not be read: a field is missing, not a number, not finite, or a time is
     /// malformed or has no UTC offset.
     BadInput,
 }
 
+/// Number of sounding statuses.
+pub const N_STATUS: usize = 5;
+
 impl SoundingStatus {
     /// All statuses, in report order.
-    pub const ALL: [SoundingStatus; 4] = [
+    pub const ALL: [SoundingStatus; N_STATUS] = [
         SoundingStatus::Reduced,
         SoundingStatus::OutsideZoning,
         SoundingStatus::NoGaugeData,
+        SoundingStatus::GaugeFlagged,
         SoundingStatus::BadInput,
     ];
 
@@ -40,6 +47,7 @@ impl SoundingStatus {
             SoundingStatus::Reduced => "reduced",
             SoundingStatus::OutsideZoning => "outside_zoning",
             SoundingStatus::NoGaugeData => "no_gauge_data",
+            SoundingStatus::GaugeFlagged => "gauge_flagged",
             SoundingStatus::BadInput => "bad_input",
         }
     }
@@ -53,7 +61,7 @@ impl SoundingStatus {
 /// Rows per status, serialised as an object `{"reduced": n, "outside_zoning": n, …}` in status
 /// order.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
-pub struct StatusCounts(pub [u64; 4]);
+pub struct StatusCounts(pub [u64; N_STATUS]);
 
 impl StatusCounts {
     /// Rows with a status.
@@ -81,7 +89,7 @@ impl StatusCounts {
 impl serde::Serialize for StatusCounts {
     fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
         use serde::ser::SerializeMap;
-        let mut m = ser.serialize_map(Some(4))?;
+        let mut m = ser.serialize_map(Some(SoundingStatus::ALL.len()))?;
         for (k, v) in self.iter() {
             m.serialize_entry(k, &v)?;
         }
@@ -114,6 +122,8 @@ pub enum TideOutcome {
         zone: Option<usize>,
         /// Why.
         why: &'static str,
+        /// The source marks the tide there as resting on flagged gauge samples.
+        flagged: bool,
     },
 }
 
@@ -196,6 +206,7 @@ mod tests {
                 times_s: vec![0.0, 600.0],
                 heights_m: vec![1.0, 2.0],
                 max_gap_s: 1800.0,
+                ..Default::default()
             },
             mean_level_above_datum_m: 1.5,
         }];

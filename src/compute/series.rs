@@ -6,7 +6,7 @@
 //! record, has no level. Nothing is ever extrapolated.
 
 /// A gauge's water level above chart datum, sampled at strictly increasing UTC times.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct LevelSeries {
     /// Sample times, seconds since 1970-01-01T00:00:00Z, strictly increasing.
     pub times_s: Vec<f64>,
@@ -14,6 +14,12 @@ pub struct LevelSeries {
     pub heights_m: Vec<f64>,
     /// Longest interval between two samples that interpolation may bridge, seconds.
     pub max_gap_s: f64,
+    /// Times of samples that quality control set aside (sorted, UTC seconds). They are not in
+    /// `times_s`; interpolation never spans one of them.
+    pub flagged_times_s: Vec<f64>,
+    /// Second derivatives of the natural cubic spline at each sample, m/s², when this gauge is
+    /// interpolated by spline ([`Configured`]); empty for linear interpolation.
+    pub spline_m_per_s2: Vec<f64>,
 }
 
 /// Interpolated level and its rate of change at one instant.
@@ -44,6 +50,11 @@ pub enum NoLevel {
         /// How far after the last sample, seconds.
         by_s: f64,
     },
+    /// The samples around the instant enclose a sample that quality control set aside.
+    Flagged {
+        /// Time of the flagged sample, UTC seconds.
+        at_s: f64,
+    },
     /// The instant falls in a gap longer than the series' maximum gap.
     Gap {
         /// Time of the sample that opens the gap, UTC seconds.
@@ -63,6 +74,11 @@ impl std::fmt::Display for NoLevel {
             NoLevel::AfterRecord { by_s } => {
                 write!(f, "{:.1} min after the record ends", by_s / 60.0)
             }
+            NoLevel::Flagged { at_s } => write!(
+                f,
+                "the gauge sample at {} was flagged by quality control and is not interpolated through",
+                crate::compute::utc_label(*at_s)
+            ),
             NoLevel::Gap { from_s, length_s } => write!(
                 f,
                 "inside a {:.1} min gap starting at {}",
@@ -135,11 +151,22 @@ impl LevelSeries {
         let i = self.bracket(t_s);
         let (t0, t1) = (self.times_s[i], self.times_s[i + 1]);
         let len = t1 - t0;
-        if len > self.max_gap_s && t_s != t0 && t_s != t1 {
-            return Err(NoLevel::Gap {
-                from_s: t0,
-                length_s: len,
-            });
+        if t_s != t0 && t_s != t1 {
+            // Flagged samples first: a gap made by setting samples aside is their doing.
+            if !self.flagged_times_s.is_empty() {
+                let k = self.flagged_times_s.partition_point(|&f| f <= t0);
+                if let Some(&f) = self.flagged_times_s.get(k) {
+                    if f < t1 {
+                        return Err(NoLevel::Flagged { at_s: f });
+                    }
+                }
+            }
+            if len > self.max_gap_s {
+                return Err(NoLevel::Gap {
+                    from_s: t0,
+                    length_s: len,
+                });
+            }
         }
         Ok(i)
     }
@@ -187,6 +214,58 @@ impl TimeInterpolation for Linear {
     }
 }
 
+/// Each gauge as configured: natural cubic spline when the series carries spline coefficients
+/// (`spline_m_per_s2` not empty), otherwise [`Linear`]. The maximum-gap rule and the rule that no
+/// flagged sample is interpolated through hold for both (the spline is built per unbroken segment).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Configured;
+
+impl TimeInterpolation for Configured {
+    fn level_at(&self, series: &LevelSeries, t_s: f64) -> Result<LevelAt, NoLevel> {
+        if series.spline_m_per_s2.is_empty() || series.times_s.len() < 2 {
+            return Linear.level_at(series, t_s);
+        }
+        let i = series.usable_bracket(t_s)?;
+        let (height_m, rate_m_per_s) = super::spline::spline_in_bracket(
+            &series.times_s,
+            &series.heights_m,
+            &series.spline_m_per_s2,
+            i,
+            t_s,
+        );
+        Ok(LevelAt {
+            height_m: if t_s == series.times_s[i + 1] {
+                series.heights_m[i + 1]
+            } else {
+                height_m
+            },
+            rate_m_per_s,
+            bracket: i,
+        })
+    }
+
+    fn name(&self) -> &'static str {
+        "per gauge: linear, or natural cubic spline for sparse records"
+    }
+}
+
+impl LevelSeries {
+    /// Which intervals must not be interpolated: longer than the maximum gap, or enclosing a
+    /// flagged sample. `result[i]` is about the interval from sample `i` to `i + 1`.
+    pub fn unbridged(&self) -> Vec<bool> {
+        self.times_s
+            .windows(2)
+            .map(|w| {
+                if w[1] - w[0] > self.max_gap_s {
+                    return true;
+                }
+                let k = self.flagged_times_s.partition_point(|&f| f <= w[0]);
+                self.flagged_times_s.get(k).is_some_and(|&f| f < w[1])
+            })
+            .collect()
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -197,6 +276,7 @@ mod tests {
             times_s: vec![0.0, 360.0, 720.0, 4320.0],
             heights_m: vec![1.0, 1.6, 1.3, 2.0],
             max_gap_s: 1800.0,
+            ..Default::default()
         }
     }
 
@@ -233,6 +313,7 @@ mod tests {
             heights_m: times.clone(),
             times_s: times.clone(),
             max_gap_s: 1e9,
+            ..Default::default()
         };
         for k in 0..times.len() - 1 {
             for frac in [0.0, 0.3, 0.999] {
@@ -241,6 +322,21 @@ mod tests {
                 assert!((Linear.level_at(&s, t).unwrap().height_m - t).abs() < 1e-9);
             }
         }
+    }
+
+    #[test]
+    fn flagged_samples_are_not_interpolated_through() {
+        let mut s = series();
+        s.flagged_times_s = vec![500.0];
+        assert_eq!(
+            Linear.level_at(&s, 400.0),
+            Err(NoLevel::Flagged { at_s: 500.0 })
+        );
+        // The samples either side stay usable at their own times, and other intervals work.
+        assert_relative_eq!(Linear.level_at(&s, 360.0).unwrap().height_m, 1.6);
+        assert_relative_eq!(Linear.level_at(&s, 720.0).unwrap().height_m, 1.3);
+        assert_relative_eq!(Linear.level_at(&s, 180.0).unwrap().height_m, 1.3);
+        assert_eq!(s.unbridged(), vec![false, true, true]);
     }
 
     #[test]
@@ -258,6 +354,7 @@ mod tests {
             times_s: vec![],
             heights_m: vec![],
             max_gap_s: 60.0,
+            ..Default::default()
         };
         assert_eq!(Linear.level_at(&empty, 0.0), Err(NoLevel::EmptyRecord));
     }
@@ -282,6 +379,7 @@ mod properties {
                 times_s: times,
                 heights_m: heights,
                 max_gap_s: 600.0,
+                ..Default::default()
             }
         })
     }

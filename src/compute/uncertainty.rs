@@ -123,6 +123,7 @@ pub fn rate_series(gauge: &Gauge, interp: &dyn TimeInterpolation) -> super::seri
         times_s: s.times_s.clone(),
         heights_m: rates,
         max_gap_s: s.max_gap_s,
+        ..Default::default()
     }
 }
 
@@ -298,6 +299,7 @@ mod tests {
                     .collect(),
                 times_s: times,
                 max_gap_s: 1800.0,
+                ..Default::default()
             },
             mean_level_above_datum_m: mean,
         }

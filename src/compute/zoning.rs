@@ -158,6 +158,7 @@ mod tests {
                 times_s: (0..heights.len()).map(|i| i as f64 * 600.0).collect(),
                 heights_m: heights.to_vec(),
                 max_gap_s: 1800.0,
+                ..Default::default()
             },
             mean_level_above_datum_m: mean,
         }
@@ -313,6 +314,7 @@ mod properties {
                     times_s: (0..n).map(|i| i as f64 * 360.0).collect(),
                     heights_m: heights,
                     max_gap_s: 1800.0,
+                    ..Default::default()
                 },
                 mean_level_above_datum_m: mean,
             }];

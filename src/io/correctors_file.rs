@@ -160,16 +160,18 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                 IoError::content(
                     at("status"),
                     format!(
-                        "expected observed, interpolated, gap_filled or missing, found '{}'",
+                        "expected observed, interpolated, gap_filled, missing or flagged, found '{}'",
                         &rec[4]
                     ),
                 )
             })?;
             let tide = opt_num(2, "tide_above_chart_datum_m")?;
-            if tide.is_none() != (status == CorrectorStatus::Missing) {
+            if tide.is_none()
+                != matches!(status, CorrectorStatus::Missing | CorrectorStatus::Flagged)
+            {
                 return Err(IoError::content(
                     at("tide_above_chart_datum_m"),
-                    "a tide must be given exactly when the status is not 'missing'",
+                    "a tide must be given exactly when the status is neither 'missing' nor 'flagged'",
                 ));
             }
             let series = by_zone.entry(rec[0].to_string()).or_default();
@@ -238,16 +240,16 @@ fn parse_line_rows<R: Read>(
             IoError::content(
                 at("status"),
                 format!(
-                    "expected observed, interpolated, gap_filled or missing, found '{}'",
+                    "expected observed, interpolated, gap_filled, missing or flagged, found '{}'",
                     &rec[5]
                 ),
             )
         })?;
         let tide = num(3, "tide_above_chart_datum_m")?;
-        if tide.is_none() != (status == CorrectorStatus::Missing) {
+        if tide.is_none() != matches!(status, CorrectorStatus::Missing | CorrectorStatus::Flagged) {
             return Err(IoError::content(
                 at("tide_above_chart_datum_m"),
-                "a tide must be given exactly when the status is not 'missing'",
+                "a tide must be given exactly when the status is neither 'missing' nor 'flagged'",
             ));
         }
         let series = out.entry(rec[0].to_string()).or_default();
@@ -305,7 +307,10 @@ pub fn sounding_corrections(
             let v = match (z, tide) {
                 (Some(zone), Some(tide_m)) => SoundingCorrection::Tide { zone, tide_m },
                 _ if status == "outside_zoning" => SoundingCorrection::Outside,
-                _ => SoundingCorrection::None { zone: z },
+                _ => SoundingCorrection::None {
+                    zone: z,
+                    flagged: status == "gauge_flagged",
+                },
             };
             (k, v)
         })

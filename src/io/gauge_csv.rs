@@ -14,19 +14,40 @@ use super::project::GaugeSpec;
 use super::timefmt::{parse_time, TimeFormat};
 use crate::compute::series::LevelSeries;
 
-/// A gauge record as read.
-#[derive(Debug, Clone)]
+/// A gauge record as read: every sample with a time and a reading, in file order (times may
+/// repeat or go back; quality control flags that).
+#[derive(Debug, Clone, Default)]
 pub struct GaugeRecord {
-    /// Usable samples as heights above chart datum, metres, with the gauge's maximum gap.
-    pub series: LevelSeries,
-    /// 1-based line of each usable sample in the file.
+    /// Sample times, UTC seconds, file order.
+    pub times_s: Vec<f64>,
+    /// Levels above chart datum, metres, file order.
+    pub heights_m: Vec<f64>,
+    /// 1-based line of each sample in the file.
     pub lines: Vec<u64>,
     /// Rows skipped because the height was empty or a null value.
     pub skipped_null: usize,
     /// Rows skipped because their quality flag was not good.
     pub skipped_flagged: usize,
-    /// Times that do not increase: (line, message). The series keeps only increasing samples.
-    pub order_problems: Vec<(u64, String)>,
+    /// The gauge's maximum gap, seconds.
+    pub max_gap_s: f64,
+}
+
+impl GaugeRecord {
+    /// The samples whose time is later than every time before it, as a series (no other quality
+    /// control): what a record gives when read without QC.
+    pub fn increasing_series(&self) -> LevelSeries {
+        let mut s = LevelSeries {
+            max_gap_s: self.max_gap_s,
+            ..Default::default()
+        };
+        for (&t, &h) in self.times_s.iter().zip(&self.heights_m) {
+            if s.times_s.last().map_or(true, |&p| t > p) {
+                s.times_s.push(t);
+                s.heights_m.push(h);
+            }
+        }
+        s
+    }
 }
 
 fn column(headers: &csv::StringRecord, name: &str, path: &Path) -> Result<usize, IoError> {
@@ -85,15 +106,8 @@ pub fn parse_gauge_record<R: std::io::Read>(
     };
     let scale = spec.units.metres_per_unit();
     let mut out = GaugeRecord {
-        series: LevelSeries {
-            times_s: Vec::new(),
-            heights_m: Vec::new(),
-            max_gap_s: spec.max_gap_min * 60.0,
-        },
-        lines: Vec::new(),
-        skipped_null: 0,
-        skipped_flagged: 0,
-        order_problems: Vec::new(),
+        max_gap_s: spec.max_gap_min * 60.0,
+        ..Default::default()
     };
     let mut rec = csv::StringRecord::new();
     loop {
@@ -139,24 +153,8 @@ pub fn parse_gauge_record<R: std::io::Read>(
                 format!("expected a finite number, found '{h_txt}'"),
             ));
         }
-        if let Some(&prev) = out.series.times_s.last() {
-            if t <= prev {
-                let what = if t == prev {
-                    "duplicated"
-                } else {
-                    "earlier than the previous sample"
-                };
-                out.order_problems.push((
-                    line,
-                    format!("time '{t_txt}' is {what} (field '{}')", spec.time_column),
-                ));
-                continue;
-            }
-        }
-        out.series.times_s.push(t);
-        out.series
-            .heights_m
-            .push(h * scale + spec.zero_above_datum_m);
+        out.times_s.push(t);
+        out.heights_m.push(h * scale + spec.zero_above_datum_m);
         out.lines.push(line);
     }
     Ok(out)
@@ -199,6 +197,10 @@ mod tests {
             naive_time_utc_offset: None,
             u_gauge_m: None,
             u_datum_m: None,
+            interpolation: Default::default(),
+            lowpass_cutoff_min: None,
+            band_min_m: None,
+            band_max_m: None,
         }
     }
 
@@ -211,8 +213,8 @@ mod tests {
             2026-06-14T00:18:00Z,3.70,4\n\
             2026-06-14T01:24:00+01:00,3.80,0\n";
         let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap();
-        assert_eq!(r.series.heights_m, vec![2.0, 3.80 - 1.5]);
-        assert_eq!(r.series.times_s[1] - r.series.times_s[0], 24.0 * 60.0);
+        assert_eq!(r.heights_m, vec![2.0, 3.80 - 1.5]);
+        assert_eq!(r.times_s[1] - r.times_s[0], 24.0 * 60.0);
         assert_eq!(r.lines, vec![2, 6]);
         assert_eq!((r.skipped_null, r.skipped_flagged), (2, 1));
     }
@@ -224,7 +226,7 @@ mod tests {
         s.zero_above_datum_m = 0.0;
         let text = "time,height,qc\n2026-06-14T00:00:00Z,10,0\n";
         let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &s, None).unwrap();
-        assert!((r.series.heights_m[0] - 3.048).abs() < 1e-12);
+        assert!((r.heights_m[0] - 3.048).abs() < 1e-12);
     }
 
     #[test]
@@ -248,17 +250,17 @@ mod tests {
     }
 
     #[test]
-    fn out_of_order_times_are_reported_not_used() {
+    fn out_of_order_times_are_kept_in_file_order_for_quality_control() {
         let text = "time,height,qc\n\
             2026-06-14T00:06:00Z,3.5,0\n\
             2026-06-14T00:06:00Z,3.6,0\n\
             2026-06-14T00:00:00Z,3.6,0\n\
             2026-06-14T00:12:00Z,3.7,0\n";
         let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap();
-        assert_eq!(r.series.times_s.len(), 2);
-        assert_eq!(r.order_problems.len(), 2);
-        assert_eq!(r.order_problems[0].0, 3);
-        assert!(r.order_problems[0].1.contains("duplicated"));
-        assert!(r.order_problems[1].1.contains("earlier"));
+        assert_eq!(r.times_s.len(), 4);
+        assert_eq!(r.lines, vec![2, 3, 4, 5]);
+        let s = r.increasing_series();
+        assert_eq!(s.times_s.len(), 2);
+        assert_eq!(s.heights_m, vec![3.5 - 1.5, 3.7 - 1.5]);
     }
 }

@@ -9,6 +9,7 @@
 //! * [`correctors_file`] — tide-correction files (per zone, per sounding) and their sidecar.
 //! * [`crs`] — coordinate transformations (PROJ).
 //! * [`report_html`] — the QA report page (HTML + SVG).
+//! * [`qc_svg`] — the plot of a gauge record with its QC flags (SVG).
 //! * [`atomic`] — output files written to a temporary name and renamed on success.
 //! * [`error`] — the positioned error type and validation findings.
 
@@ -18,6 +19,7 @@ pub mod crs;
 pub mod error;
 pub mod gauge_csv;
 pub mod project;
+pub mod qc_svg;
 pub mod report_html;
 pub mod soundings;
 pub mod timefmt;

@@ -35,6 +35,138 @@ pub struct ProjectFile {
     /// Uncertainty inputs and the survey order; absent: no uncertainty is computed.
     #[serde(default)]
     pub uncertainty: Option<UncertaintySpec>,
+    /// Gauge-record quality control (on by default).
+    #[serde(default)]
+    pub qc: QcSpec,
+    /// Time interpolation of gauge records.
+    #[serde(default)]
+    pub interpolation: InterpolationSpec,
+}
+
+/// `[qc]`: gauge-record quality control. The reducer does not interpolate through a flagged
+/// sample. Defaults: see `compute::qc::QcThresholds` (from memory / common practice, documented in
+/// docs/qc.md).
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct QcSpec {
+    /// Run QC when loading gauges for `reduce`, `check`, `correctors` (default true).
+    pub enabled: bool,
+    /// Gap threshold in nominal steps.
+    pub gap_factor: f64,
+    /// Spike test window, minutes.
+    pub spike_window_min: f64,
+    /// Spike threshold, robust standard deviations.
+    pub spike_k: f64,
+    /// Smallest spike, metres.
+    pub spike_min_m: f64,
+    /// Fastest plausible rate, metres per hour.
+    pub max_rate_m_per_h: f64,
+    /// Noise allowance of the rate test, metres.
+    pub rate_allowance_m: f64,
+    /// Fewest repeated readings that make a flat line.
+    pub flat_min_samples: usize,
+    /// Shortest flat line, minutes.
+    pub flat_min_duration_min: f64,
+    /// Level-shift fit window each side, minutes.
+    pub shift_window_min: f64,
+    /// Level-shift threshold, robust standard deviations.
+    pub shift_k: f64,
+    /// Smallest level shift, metres.
+    pub shift_min_m: f64,
+    /// Plausible band half-width around each gauge's mean level, metres (default 10), unless the
+    /// gauge gives `band_min_m` / `band_max_m`.
+    pub band_half_width_m: f64,
+    /// Gauge comparison: largest acceptable |mean difference|, metres (default 0.05).
+    pub compare_max_mean_m: f64,
+    /// Gauge comparison: largest acceptable |drift|, metres per day (default 0.02).
+    pub compare_max_drift_m_per_day: f64,
+    /// Gauge comparison: largest acceptable timing offset, minutes (default 10).
+    pub compare_max_lag_min: f64,
+    /// Gauge comparison: lags searched, ± minutes (default 90).
+    pub compare_lag_search_min: f64,
+    /// Gauge comparison: step-search window each side, minutes (default 180).
+    pub compare_shift_window_min: f64,
+}
+
+impl Default for QcSpec {
+    fn default() -> Self {
+        let t = crate::compute::qc::QcThresholds::default();
+        QcSpec {
+            enabled: true,
+            gap_factor: t.gap_factor,
+            spike_window_min: t.spike_window_min,
+            spike_k: t.spike_k,
+            spike_min_m: t.spike_min_m,
+            max_rate_m_per_h: t.max_rate_m_per_h,
+            rate_allowance_m: t.rate_allowance_m,
+            flat_min_samples: t.flat_min_samples,
+            flat_min_duration_min: t.flat_min_duration_min,
+            shift_window_min: t.shift_window_min,
+            shift_k: t.shift_k,
+            shift_min_m: t.shift_min_m,
+            band_half_width_m: 10.0,
+            compare_max_mean_m: 0.05,
+            compare_max_drift_m_per_day: 0.02,
+            compare_max_lag_min: 10.0,
+            compare_lag_search_min: 90.0,
+            compare_shift_window_min: 180.0,
+        }
+    }
+}
+
+impl QcSpec {
+    /// Thresholds for one gauge (band from the gauge's own limits or its mean level).
+    pub fn thresholds_for(&self, g: &GaugeSpec) -> crate::compute::qc::QcThresholds {
+        crate::compute::qc::QcThresholds {
+            gap_factor: self.gap_factor,
+            spike_window_min: self.spike_window_min,
+            spike_k: self.spike_k,
+            spike_min_m: self.spike_min_m,
+            max_rate_m_per_h: self.max_rate_m_per_h,
+            rate_allowance_m: self.rate_allowance_m,
+            flat_min_samples: self.flat_min_samples,
+            flat_min_duration_min: self.flat_min_duration_min,
+            shift_window_min: self.shift_window_min,
+            shift_k: self.shift_k,
+            shift_min_m: self.shift_min_m,
+            band_min_m: g
+                .band_min_m
+                .unwrap_or(g.mean_level_above_datum_m - self.band_half_width_m),
+            band_max_m: g
+                .band_max_m
+                .unwrap_or(g.mean_level_above_datum_m + self.band_half_width_m),
+        }
+    }
+}
+
+/// `[interpolation]`: how gauge records are interpolated in time.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct InterpolationSpec {
+    /// With `interpolation = "auto"` (the default per gauge), records whose nominal step is
+    /// longer than this many minutes use a natural cubic spline, others linear (default 10).
+    pub cubic_above_step_min: f64,
+}
+
+impl Default for InterpolationSpec {
+    fn default() -> Self {
+        InterpolationSpec {
+            cubic_above_step_min: 10.0,
+        }
+    }
+}
+
+/// A gauge's time interpolation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum InterpolationChoice {
+    /// Linear for records stepping `cubic_above_step_min` or less, natural cubic spline above.
+    #[default]
+    Auto,
+    /// Always linear.
+    Linear,
+    /// Always a natural cubic spline.
+    Cubic,
 }
 
 /// Uncertainty inputs (all standard uncertainties, 1σ) and the survey order to judge against.
@@ -220,6 +352,53 @@ pub struct GaugeSpec {
     /// project's `[uncertainty] default_u_datum_m`).
     #[serde(default)]
     pub u_datum_m: Option<f64>,
+    /// Time interpolation: `auto` (default), `linear` or `cubic`.
+    #[serde(default)]
+    pub interpolation: InterpolationChoice,
+    /// Zero-phase low-pass filter cut-off period, minutes (absent: no filter).
+    #[serde(default)]
+    pub lowpass_cutoff_min: Option<f64>,
+    /// Lowest plausible level above chart datum, metres (default: mean level − `[qc]
+    /// band_half_width_m`).
+    #[serde(default)]
+    pub band_min_m: Option<f64>,
+    /// Highest plausible level above chart datum, metres (default: mean level + `[qc]
+    /// band_half_width_m`).
+    #[serde(default)]
+    pub band_max_m: Option<f64>,
+}
+
+impl GaugeSpec {
+    /// A gauge for one record read outside a project (`neap qc --record`): default columns and
+    /// limits; mean level 0 until the caller sets it.
+    pub fn for_record(record: &Path, units: HeightUnit, zero_above_datum_m: f64) -> GaugeSpec {
+        GaugeSpec {
+            id: record
+                .file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_else(|| "record".into()),
+            name: None,
+            lon: 0.0,
+            lat: 0.0,
+            record: record.to_path_buf(),
+            units,
+            zero_above_datum_m,
+            mean_level_above_datum_m: 0.0,
+            max_gap_min: default_max_gap_min(),
+            time_column: default_time_column(),
+            height_column: default_height_column(),
+            flag_column: None,
+            good_flags: default_good_flags(),
+            null_values: Vec::new(),
+            naive_time_utc_offset: None,
+            u_gauge_m: None,
+            u_datum_m: None,
+            interpolation: InterpolationChoice::Auto,
+            lowpass_cutoff_min: None,
+            band_min_m: None,
+            band_max_m: None,
+        }
+    }
 }
 
 fn default_max_gap_min() -> f64 {
@@ -399,6 +578,55 @@ impl Project {
             if let Some(o) = &g.naive_time_utc_offset {
                 parse_offset(o).map_err(|m| IoError::content(f("naive_time_utc_offset"), m))?;
             }
+            if let Some(c) = g.lowpass_cutoff_min {
+                if !(c.is_finite() && c > 0.0) {
+                    return Err(IoError::content(
+                        f("lowpass_cutoff_min"),
+                        format!("expected a positive number of minutes, found {c}"),
+                    ));
+                }
+            }
+            for (k, v) in [("band_min_m", g.band_min_m), ("band_max_m", g.band_max_m)] {
+                if v.is_some_and(|v| !v.is_finite()) {
+                    return Err(IoError::content(f(k), "expected a finite number"));
+                }
+            }
+        }
+        {
+            let q = &spec.qc;
+            let f = |k: &str| at(&format!("qc.{k}"));
+            for (k, v) in [
+                ("gap_factor", q.gap_factor),
+                ("spike_window_min", q.spike_window_min),
+                ("spike_k", q.spike_k),
+                ("spike_min_m", q.spike_min_m),
+                ("max_rate_m_per_h", q.max_rate_m_per_h),
+                ("rate_allowance_m", q.rate_allowance_m),
+                ("flat_min_duration_min", q.flat_min_duration_min),
+                ("shift_window_min", q.shift_window_min),
+                ("shift_k", q.shift_k),
+                ("shift_min_m", q.shift_min_m),
+                ("band_half_width_m", q.band_half_width_m),
+                ("compare_max_mean_m", q.compare_max_mean_m),
+                ("compare_max_drift_m_per_day", q.compare_max_drift_m_per_day),
+                ("compare_max_lag_min", q.compare_max_lag_min),
+                ("compare_lag_search_min", q.compare_lag_search_min),
+                ("compare_shift_window_min", q.compare_shift_window_min),
+            ] {
+                if !(v.is_finite() && v > 0.0) {
+                    return Err(IoError::content(
+                        f(k),
+                        format!("expected a positive number, found {v}"),
+                    ));
+                }
+            }
+        }
+        let c = spec.interpolation.cubic_above_step_min;
+        if !(c.is_finite() && c > 0.0) {
+            return Err(IoError::content(
+                at("interpolation.cubic_above_step_min"),
+                format!("expected a positive number of minutes, found {c}"),
+            ));
         }
         if let Some(u) = &spec.uncertainty {
             let f = |k: &str| at(&format!("uncertainty.{k}"));

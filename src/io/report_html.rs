@@ -30,7 +30,7 @@ pub fn ratio_colour(r: f64) -> &'static str {
     }
 }
 
-fn esc(s: &str) -> String {
+pub(crate) fn esc(s: &str) -> String {
     s.replace('&', "&amp;")
         .replace('<', "&lt;")
         .replace('>', "&gt;")
@@ -42,7 +42,7 @@ fn pct(x: f64) -> String {
 }
 
 /// "Nice" tick positions covering `[lo, hi]`.
-fn ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
+pub(crate) fn ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
     if hi.partial_cmp(&lo) != Some(std::cmp::Ordering::Greater) {
         return vec![lo];
     }
@@ -62,7 +62,7 @@ fn ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
     out
 }
 
-fn fmt_tick(v: f64, step_hint: f64) -> String {
+pub(crate) fn fmt_tick(v: f64, step_hint: f64) -> String {
     let d = if step_hint >= 1.0 {
         0
     } else {

@@ -3,7 +3,8 @@
 use std::collections::HashMap;
 
 use crate::compute::locate::ZoneLocator;
-use crate::compute::series::{Linear, TimeInterpolation};
+use crate::compute::qc::{run_qc, QcResult};
+use crate::compute::series::{Configured, LevelSeries, TimeInterpolation};
 use crate::compute::uncertainty::{
     s44_orders, GaugeUncertainty, SoundingUncertaintyModel, SurveyOrder, ZoneUncertainty,
 };
@@ -11,7 +12,7 @@ use crate::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
 use crate::io::crs::Transformer;
 use crate::io::error::{Finding, IoError, Position};
 use crate::io::gauge_csv::{read_gauge_record, GaugeRecord};
-use crate::io::project::Project;
+use crate::io::project::{GaugeSpec, InterpolationChoice, InterpolationSpec, Project, QcSpec};
 use crate::io::zoning_geojson::{read_zoning, ZoningSpec};
 
 /// Everything a reduction needs, loaded and checked.
@@ -29,6 +30,10 @@ pub struct Loaded {
     pub zones: Vec<Zone>,
     /// Time interpolation method.
     pub interp: Box<dyn TimeInterpolation>,
+    /// QC of each gauge record, project order (None when QC is off).
+    pub qc: Vec<Option<QcResult>>,
+    /// How each gauge record is interpolated and filtered, project order.
+    pub methods: Vec<GaugeMethod>,
     /// Uncertainty inputs, when the project has an `[uncertainty]` section.
     pub uncertainty: Option<UncertaintyConfig>,
     /// Problems found while loading that do not stop a run.
@@ -65,22 +70,10 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     for g in &project.spec.gauges {
         match read_gauge_record(g, project.gauge_naive_offset(g)) {
             Ok(r) => {
-                for (line, msg) in r.order_problems.iter().take(20) {
-                    findings.push(Finding::error(
-                        Position::file(&g.record).line(*line).field(&g.time_column),
-                        msg.clone(),
-                    ));
-                }
-                if r.order_problems.len() > 20 {
-                    findings.push(Finding::error(
-                        Position::file(&g.record),
-                        format!("{} more times out of order", r.order_problems.len() - 20),
-                    ));
-                }
                 if let Some(f) = plausibility(g, &r) {
                     findings.push(f);
                 }
-                if r.series.times_s.is_empty() {
+                if r.times_s.is_empty() {
                     findings.push(Finding::error(
                         Position::file(&g.record),
                         "the record holds no usable sample",
@@ -262,22 +255,73 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             })
         }
     };
-    let gauges: Vec<Gauge> = project
-        .spec
-        .gauges
-        .iter()
-        .zip(&records)
-        .map(|(g, r)| Gauge {
+    let mut gauges = Vec::new();
+    let mut qc = Vec::new();
+    let mut methods = Vec::new();
+    for (g, r) in project.spec.gauges.iter().zip(&records) {
+        let prepared = prepare_series(&project.spec.qc, &project.spec.interpolation, g, r);
+        if let Some(q) = &prepared.qc {
+            use crate::compute::qc::QcFlag;
+            let mut shown = 0;
+            for (i, f) in q.flags.iter().enumerate() {
+                let what = if f.contains(QcFlag::DuplicateTime) {
+                    "is duplicated"
+                } else if f.contains(QcFlag::TimeOrder) {
+                    "is earlier than the previous sample"
+                } else {
+                    continue;
+                };
+                shown += 1;
+                if shown > 20 {
+                    continue;
+                }
+                findings.push(Finding::warning(
+                    Position::file(&g.record)
+                        .line(r.lines[i])
+                        .field(&g.time_column),
+                    format!(
+                        "time '{}' {what}: quality control sets the sample aside",
+                        crate::compute::utc_label(r.times_s[i])
+                    ),
+                ));
+            }
+            if shown > 20 {
+                findings.push(Finding::warning(
+                    Position::file(&g.record),
+                    format!("{} more times out of order", shown - 20),
+                ));
+            }
+            let flagged: Vec<String> = crate::compute::qc::QcFlag::ALL
+                .iter()
+                .filter(|f| f.excludes() && q.count(**f) > 0)
+                .map(|f| format!("{} {}", q.count(*f), f.as_str()))
+                .collect();
+            if !flagged.is_empty() {
+                findings.push(Finding::warning(
+                    Position::file(&g.record),
+                    format!(
+                        "gauge '{}': quality control set aside {} of {} samples ({}); soundings whose tide would be interpolated across them get status gauge_flagged (see `neap qc`)",
+                        g.id,
+                        r.times_s.len() - q.usable_count(),
+                        r.times_s.len(),
+                        flagged.join(", ")
+                    ),
+                ));
+            }
+        }
+        methods.push(prepared.method);
+        qc.push(prepared.qc);
+        gauges.push(Gauge {
             id: g.id.clone(),
-            series: r.series.clone(),
+            series: prepared.series,
             mean_level_above_datum_m: g.mean_level_above_datum_m,
-        })
-        .collect();
+        });
+    }
     let mut uncertainty = uncertainty;
     if let Some(u) = uncertainty.as_mut() {
         u.gauge_rates = gauges
             .iter()
-            .map(|g| crate::compute::uncertainty::rate_series(g, &Linear))
+            .map(|g| crate::compute::uncertainty::rate_series(g, &Configured))
             .collect();
     }
     Ok(Loaded {
@@ -286,10 +330,105 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         gauges,
         zoning,
         zones,
-        interp: Box::new(Linear),
+        interp: Box::new(Configured),
+        qc,
+        methods,
         uncertainty,
         warnings: findings,
     })
+}
+
+/// A gauge's series as the reducer uses it, with what was done to it.
+#[derive(Debug)]
+pub struct PreparedSeries {
+    /// The series: usable samples, flagged times, spline coefficients when cubic.
+    pub series: LevelSeries,
+    /// QC result (None when `[qc] enabled = false`).
+    pub qc: Option<QcResult>,
+    /// Interpolation and filtering applied, for reports.
+    pub method: GaugeMethod,
+}
+
+/// How a gauge's record is used.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct GaugeMethod {
+    /// `linear` or `natural_cubic_spline`.
+    pub interpolation: &'static str,
+    /// Nominal step of the record, minutes.
+    pub nominal_step_min: f64,
+    /// Low-pass cut-off period, minutes, when filtered.
+    pub lowpass_cutoff_min: Option<f64>,
+}
+
+/// QC, filtering and interpolation set-up of one gauge record (pure apart from reading the
+/// project's settings).
+pub fn prepare_series(
+    qc_spec: &QcSpec,
+    interp_spec: &InterpolationSpec,
+    g: &GaugeSpec,
+    r: &GaugeRecord,
+) -> PreparedSeries {
+    let (mut series, qc) = if qc_spec.enabled {
+        let q = run_qc(&r.times_s, &r.heights_m, &qc_spec.thresholds_for(g));
+        let mut s = LevelSeries {
+            max_gap_s: r.max_gap_s,
+            ..Default::default()
+        };
+        for (i, f) in q.flags.iter().enumerate() {
+            if f.usable() {
+                s.times_s.push(r.times_s[i]);
+                s.heights_m.push(r.heights_m[i]);
+            } else if f.blocks_interpolation() {
+                s.flagged_times_s.push(r.times_s[i]);
+            }
+        }
+        s.flagged_times_s.sort_by(f64::total_cmp);
+        (s, Some(q))
+    } else {
+        (r.increasing_series(), None)
+    };
+    let mut steps: Vec<f64> = series.times_s.windows(2).map(|w| w[1] - w[0]).collect();
+    let nominal_step_s = if steps.is_empty() {
+        0.0
+    } else {
+        let mid = steps.len() / 2;
+        *steps.select_nth_unstable_by(mid, f64::total_cmp).1
+    };
+    if let Some(c) = g.lowpass_cutoff_min {
+        let unbridged = series.unbridged();
+        series.heights_m = crate::compute::lowpass::lowpass_zero_phase(
+            &series.times_s,
+            &series.heights_m,
+            &unbridged,
+            c,
+        );
+    }
+    let cubic = match g.interpolation {
+        InterpolationChoice::Linear => false,
+        InterpolationChoice::Cubic => true,
+        InterpolationChoice::Auto => nominal_step_s > interp_spec.cubic_above_step_min * 60.0,
+    };
+    if cubic {
+        let unbridged = series.unbridged();
+        series.spline_m_per_s2 = crate::compute::spline::natural_spline_second_derivatives(
+            &series.times_s,
+            &series.heights_m,
+            &unbridged,
+        );
+    }
+    PreparedSeries {
+        series,
+        qc,
+        method: GaugeMethod {
+            interpolation: if cubic {
+                "natural_cubic_spline"
+            } else {
+                "linear"
+            },
+            nominal_step_min: nominal_step_s / 60.0,
+            lowpass_cutoff_min: g.lowpass_cutoff_min,
+        },
+    }
 }
 
 /// Finds a ring of the polygon that crosses itself (or another ring), naming where.
@@ -352,7 +491,7 @@ pub fn self_intersection(mp: &geo::MultiPolygon<f64>) -> Option<String> {
 /// warning; when reading the heights as international feet would fit the stated mean three times
 /// better, the record is taken to be in feet without saying so, and that is an error.
 pub fn plausibility(g: &crate::io::project::GaugeSpec, r: &GaugeRecord) -> Option<Finding> {
-    let h = &r.series.heights_m;
+    let h = &r.heights_m;
     if h.len() < 10 {
         return None;
     }

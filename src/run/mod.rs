@@ -6,10 +6,12 @@
 //! * [`reduce`] — the streaming, parallel reduction.
 //! * [`check`] — validation before a reduction.
 //! * [`correctors`] — tide-correction files with provenance, and applying them.
+//! * [`qc`] — gauge-record quality control and gauge-to-gauge comparison.
 //! * [`qa_report`] — the QA report of a reduction (survey orders, budgets, tide bands).
 
 pub mod check;
 pub mod correctors;
 pub mod load;
 pub mod qa_report;
+pub mod qc;
 pub mod reduce;

@@ -17,7 +17,7 @@ use super::load::{locator_for_crs, Loaded};
 use crate::compute::fixed::push_fixed;
 use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
-    reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel, TideOutcome,
+    reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel, TideOutcome, N_STATUS,
 };
 use crate::compute::uncertainty::{tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
@@ -138,7 +138,7 @@ pub struct FileSummary {
     pub examples: Vec<RowExample>,
     /// Rows per zone and status: `[zone][status]`.
     #[serde(skip)]
-    pub per_zone: Vec<[u64; 4]>,
+    pub per_zone: Vec<[u64; N_STATUS]>,
     /// Smallest and largest sounding time seen, UTC seconds.
     #[serde(skip)]
     pub time_range_s: Option<(f64, f64)>,
@@ -179,6 +179,8 @@ pub struct ZoneSummary {
     pub reduced: u64,
     /// Soundings in the zone without gauge data.
     pub no_gauge_data: u64,
+    /// Soundings in the zone whose tide would depend on flagged gauge samples.
+    pub gauge_flagged: u64,
 }
 
 /// What a run did.
@@ -233,8 +235,8 @@ struct FileCtx<'a> {
 #[derive(Default)]
 struct ChunkOut {
     bytes: Vec<u8>,
-    counts: [u64; 4],
-    per_zone: Vec<[u64; 4]>,
+    counts: [u64; N_STATUS],
+    per_zone: Vec<[u64; N_STATUS]>,
     examples: Vec<RowExample>,
     blank: u64,
     parsed: u64,
@@ -386,8 +388,8 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
     if let Some(b) = bar {
         b.finish_and_clear();
     }
-    let mut totals = [0u64; 4];
-    let mut per_zone = vec![[0u64; 4]; loaded.zones.len()];
+    let mut totals = [0u64; N_STATUS];
+    let mut per_zone = vec![[0u64; N_STATUS]; loaded.zones.len()];
     let mut qa: Option<QaAccumulator> = None;
     let mut time_range_s: Option<(f64, f64)> = None;
     for f in &mut files {
@@ -422,6 +424,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 .collect(),
             reduced: c[SoundingStatus::Reduced.index()],
             no_gauge_data: c[SoundingStatus::NoGaugeData.index()],
+            gauge_flagged: c[SoundingStatus::GaugeFlagged.index()],
         })
         .collect();
     Ok(RunSummary {
@@ -536,11 +539,11 @@ fn reduce_file(
         parsed_rows: 0,
         negative_depths: 0,
         examples: Vec::new(),
-        per_zone: vec![[0; 4]; loaded.zones.len()],
+        per_zone: vec![[0; N_STATUS]; loaded.zones.len()],
         time_range_s: None,
         qa: None,
     };
-    let mut counts = [0u64; 4];
+    let mut counts = [0u64; N_STATUS];
     let batch = CHUNKS_PER_THREAD * rayon::current_num_threads().max(1);
     // Three stages overlap: a reader thread cuts chunks, the rayon pool processes a batch of
     // chunks, a writer thread writes the previous batch's output. Channels are bounded, so memory
@@ -764,7 +767,7 @@ pub fn utc_label_micros(t_s: f64) -> String {
     }
 }
 
-fn add_counts(acc: &mut [u64; 4], add: &[u64; 4]) {
+fn add_counts(acc: &mut [u64; N_STATUS], add: &[u64; N_STATUS]) {
     for (a, b) in acc.iter_mut().zip(add) {
         *a += b;
     }
@@ -802,7 +805,7 @@ fn process_chunk(
     bytes.reserve(chunk.data.len() * factor + 1024);
     let mut o = ChunkOut {
         bytes,
-        per_zone: vec![[0; 4]; ctx.zone_ids.len()],
+        per_zone: vec![[0; N_STATUS]; ctx.zone_ids.len()],
         t_min: f64::INFINITY,
         t_max: f64::NEG_INFINITY,
         ..Default::default()
@@ -927,10 +930,18 @@ fn process_chunk(
                             }
                             SoundingStatus::OutsideZoning
                         }
-                        TideOutcome::NoCorrection { zone: z, why } => {
+                        TideOutcome::NoCorrection {
+                            zone: z,
+                            why,
+                            flagged,
+                        } => {
                             zone = z;
                             detail.push_str(why);
-                            SoundingStatus::NoGaugeData
+                            if flagged {
+                                SoundingStatus::GaugeFlagged
+                            } else {
+                                SoundingStatus::NoGaugeData
+                            }
                         }
                         TideOutcome::NoData { zone: z, why } => {
                             zone = Some(z);
@@ -942,7 +953,11 @@ fn process_chunk(
                                 crate::compute::utc_label(why.at_s),
                                 why.why
                             );
-                            SoundingStatus::NoGaugeData
+                            if matches!(why.why, crate::compute::series::NoLevel::Flagged { .. }) {
+                                SoundingStatus::GaugeFlagged
+                            } else {
+                                SoundingStatus::NoGaugeData
+                            }
                         }
                     }
                 }

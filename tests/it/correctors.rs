@@ -332,7 +332,8 @@ fn per_line_series_round_trip() {
             let diff = (a[k].parse::<f64>().unwrap() - b[k].parse::<f64>().unwrap()).abs();
             assert!(diff <= 0.001, "{name} row {k}: {diff}");
         }
-        assert!(compared > 40_000, "{name}: {compared}");
+        // Launch B loses ~15 % of its rows to the pendrath gap and skellan's flagged samples.
+        assert!(compared > 35_000, "{name}: {compared}");
     }
 }
 

@@ -84,13 +84,16 @@ fn demo_survey_recovers_the_true_seabed() {
         let meta = &gen["files"][format!("soundings/{input}")];
         let expected_not_reduced = meta["outside_zoning"].as_u64().unwrap()
             + meta["in_pendrath_gap"].as_u64().unwrap()
+            + meta["in_skellan_fault"].as_u64().unwrap()
             + meta["corrupt_rows"].as_array().unwrap().len() as u64;
         assert_eq!(not_reduced as u64, expected_not_reduced, "{name}");
         eprintln!(
             "{name}: {} reduced; depth error RMS {:.4} m, P95 {:.4} m, mean {:+.4} m; tide error RMS {:.4} m",
             e.n, e.depth_rms, e.depth_p95, e.depth_mean, e.tide_rms
         );
-        assert!(e.n > 40_000, "{name}: {}", e.n);
+        // Enough soundings compared for the statistics below (launch B loses ~15 % of its rows
+        // to the pendrath gap and skellan's flagged samples).
+        assert!(e.n > 35_000, "{name}: {}", e.n);
         assert!(e.tide_rms < 0.04, "{name}: tide RMS {}", e.tide_rms);
         assert!(e.depth_rms < 0.07, "{name}: RMS {}", e.depth_rms);
         assert!(e.depth_p95 < 0.135, "{name}: P95 {}", e.depth_p95);

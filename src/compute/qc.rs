@@ -1,0 +1,862 @@
+//! Gauge-record quality control: a flag per sample, each with its reason.
+//!
+//! Owns: [`QcFlag`], [`QcFlags`], [`QcThresholds`] (documented defaults), [`run_qc`].
+//!
+//! Samples are never deleted: each gets a set of flags. Flags other than [`QcFlag::GapBefore`]
+//! mark the sample unusable; the reducer does not interpolate through an unusable sample (see
+//! [`crate::compute::series::LevelSeries::flagged_times_s`]).
+//!
+//! The tests, run in this order on the samples still clean:
+//!
+//! 1. **Time order** — a time not later than the latest time before it is `time_order` (earlier)
+//!    or `duplicate_time` (equal). Later tests see only samples in increasing time.
+//! 2. **Plausible band** — a level outside `[band_min_m, band_max_m]` above chart datum.
+//! 3. **Flat line** — the same reading repeated over at least `flat_min_samples` samples and
+//!    `flat_min_duration_min` (a stuck sensor). The first reading of the run is kept.
+//! 4. **Spike** — the sample is predicted from each side by a least-squares line through the
+//!    neighbours within `spike_window_min / 2` (at least 2 samples); its residual is the smaller
+//!    of the two. A spike is one whose residual exceeds `spike_k` robust standard deviations
+//!    (1.4826 × the median absolute residual over the record) and `spike_min_m`. Taking the
+//!    smaller side keeps steps, gap edges and the neighbours of a spike from raising alarms.
+//! 5. **Level shift** — at each junction between two samples, a straight line is fitted to the
+//!    `shift_window_min` of samples on each side and both are extrapolated to the junction; their
+//!    difference `J` is the step. A junction whose `|J|` exceeds `shift_k` robust standard
+//!    deviations of `J` over the record and `shift_min_m`, and is the largest within a window,
+//!    flags the first sample after it. With equal windows the tide's curvature enters both sides
+//!    alike and cancels in `J`; only the third-derivative term remains (a few mm for a 1.5 m M2
+//!    and 1-hour windows).
+//! 6. **Rate** — between consecutive clean samples, `|Δh| > max_rate · Δt + rate_allowance_m`;
+//!    the one of the pair with the larger spike residual is flagged.
+//! 7. **Gap** — an interval longer than `gap_factor` × the record's nominal step (median interval)
+//!    flags the sample after it as `gap_before`; informational, the sample stays usable (the
+//!    reducer's maximum-gap rule decides what is bridged).
+//!
+//! # References
+//! The fault types and the flag-rather-than-delete rule are common practice for tide-gauge data
+//! (field primer §3). The robust scale 1.4826·MAD is the consistent estimator of σ for Gaussian
+//! data (Hampel 1974; from memory). Default thresholds are from memory and common practice; each is
+//! documented on [`QcThresholds`] and settable in the project file.
+
+/// One reason a sample is suspect.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum QcFlag {
+    /// The time is earlier than an earlier sample's.
+    TimeOrder,
+    /// The time equals an earlier sample's.
+    DuplicateTime,
+    /// The level is outside the plausible band.
+    OutOfBand,
+    /// The reading repeats for too long (stuck sensor).
+    FlatLine,
+    /// Far from the level its neighbours predict.
+    Spike,
+    /// The level changes faster than the tide can.
+    Rate,
+    /// A step in the level (the first sample after it).
+    LevelShift,
+    /// A gap longer than the threshold precedes this sample (informational).
+    GapBefore,
+}
+
+/// Number of [`QcFlag`] kinds.
+pub const N_FLAGS: usize = 8;
+
+impl QcFlag {
+    /// All flags, in report order.
+    pub const ALL: [QcFlag; N_FLAGS] = [
+        QcFlag::TimeOrder,
+        QcFlag::DuplicateTime,
+        QcFlag::OutOfBand,
+        QcFlag::FlatLine,
+        QcFlag::Spike,
+        QcFlag::Rate,
+        QcFlag::LevelShift,
+        QcFlag::GapBefore,
+    ];
+
+    /// The word written in the `qc_flags` column.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            QcFlag::TimeOrder => "time_order",
+            QcFlag::DuplicateTime => "duplicate_time",
+            QcFlag::OutOfBand => "out_of_band",
+            QcFlag::FlatLine => "flat_line",
+            QcFlag::Spike => "spike",
+            QcFlag::Rate => "rate",
+            QcFlag::LevelShift => "level_shift",
+            QcFlag::GapBefore => "gap_before",
+        }
+    }
+
+    /// One line saying what the flag means.
+    pub fn meaning(self) -> &'static str {
+        match self {
+            QcFlag::TimeOrder => "time earlier than a previous sample's",
+            QcFlag::DuplicateTime => "time equal to a previous sample's",
+            QcFlag::OutOfBand => "level outside the plausible band",
+            QcFlag::FlatLine => "same reading repeated too long (stuck sensor)",
+            QcFlag::Spike => "far from the level its neighbours predict",
+            QcFlag::Rate => "level changes faster than the maximum rate",
+            QcFlag::LevelShift => "step in the level (first sample after it)",
+            QcFlag::GapBefore => "gap longer than the threshold before this sample",
+        }
+    }
+
+    /// Bit in a [`QcFlags`] set.
+    pub fn bit(self) -> u16 {
+        1 << (self as u16)
+    }
+
+    /// Whether the flag makes the sample unusable.
+    pub fn excludes(self) -> bool {
+        !matches!(self, QcFlag::GapBefore)
+    }
+
+    /// Whether the flag concerns the sample's time rather than its level: such samples are not
+    /// on the record's timeline, so they do not block interpolation between their neighbours.
+    pub fn is_timing(self) -> bool {
+        matches!(self, QcFlag::TimeOrder | QcFlag::DuplicateTime)
+    }
+
+    /// Parses a flag word.
+    pub fn parse(s: &str) -> Option<QcFlag> {
+        QcFlag::ALL.into_iter().find(|f| f.as_str() == s)
+    }
+}
+
+/// A set of [`QcFlag`]s.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct QcFlags(pub u16);
+
+impl QcFlags {
+    /// Whether `f` is set.
+    pub fn contains(self, f: QcFlag) -> bool {
+        self.0 & f.bit() != 0
+    }
+    /// Sets `f`.
+    pub fn insert(&mut self, f: QcFlag) {
+        self.0 |= f.bit();
+    }
+    /// Whether no flag that excludes the sample is set.
+    pub fn usable(self) -> bool {
+        QcFlag::ALL
+            .iter()
+            .all(|f| !f.excludes() || !self.contains(*f))
+    }
+    /// Whether a level flag (not a timing flag) excludes the sample.
+    pub fn blocks_interpolation(self) -> bool {
+        QcFlag::ALL
+            .iter()
+            .any(|f| f.excludes() && !f.is_timing() && self.contains(*f))
+    }
+    /// The flags set, in report order.
+    pub fn iter(self) -> impl Iterator<Item = QcFlag> {
+        QcFlag::ALL.into_iter().filter(move |f| self.contains(*f))
+    }
+    /// `spike;rate`, or empty.
+    pub fn label(self) -> String {
+        self.iter()
+            .map(|f| f.as_str())
+            .collect::<Vec<_>>()
+            .join(";")
+    }
+}
+
+/// QC thresholds. Defaults are from memory / common practice, as noted on each.
+#[derive(Debug, Clone, PartialEq)]
+pub struct QcThresholds {
+    /// An interval longer than this many nominal steps is a gap (default 1.5; the field primer
+    /// gives 1.5–2×, common practice).
+    pub gap_factor: f64,
+    /// Window for the spike test, minutes: half of it on each side (default 30; at least 2
+    /// samples each side are used).
+    pub spike_window_min: f64,
+    /// Spike threshold in robust standard deviations (default 6; from memory — 3 to 6 is usual,
+    /// 6 keeps false alarms below one per year of 1-minute Gaussian noise).
+    pub spike_k: f64,
+    /// Smallest deviation from the predicted level called a spike, metres (default 0.05).
+    pub spike_min_m: f64,
+    /// Fastest plausible rate of change of the level, metres per hour (default 3.0: a
+    /// semidiurnal tide of 11 m range peaks near 2.8 m/h; from memory — raise it in macrotidal
+    /// places).
+    pub max_rate_m_per_h: f64,
+    /// Allowance for noise in the rate test, metres (default 0.05).
+    pub rate_allowance_m: f64,
+    /// Fewest repeated readings that make a flat line (default 5).
+    pub flat_min_samples: usize,
+    /// Shortest duration of repeated readings that makes a flat line, minutes (default 60: near
+    /// slack water a 1 cm-resolution record can repeat for tens of minutes; common practice).
+    pub flat_min_duration_min: f64,
+    /// Window on each side of a junction for the level-shift fit, minutes (default 60; at least
+    /// 8 samples are used).
+    pub shift_window_min: f64,
+    /// Level-shift threshold in robust standard deviations of the step statistic (default 8).
+    pub shift_k: f64,
+    /// Smallest step called a level shift, metres (default 0.05).
+    pub shift_min_m: f64,
+    /// Lowest plausible level above chart datum, metres (the loader's default is the gauge's mean
+    /// level − 10 m: no tide plus surge reaches 10 m from mean level; from memory).
+    pub band_min_m: f64,
+    /// Highest plausible level above chart datum, metres (default mean level + 10 m).
+    pub band_max_m: f64,
+}
+
+impl Default for QcThresholds {
+    fn default() -> Self {
+        QcThresholds {
+            gap_factor: 1.5,
+            spike_window_min: 30.0,
+            spike_k: 6.0,
+            spike_min_m: 0.05,
+            max_rate_m_per_h: 3.0,
+            rate_allowance_m: 0.05,
+            flat_min_samples: 5,
+            flat_min_duration_min: 60.0,
+            shift_window_min: 60.0,
+            shift_k: 8.0,
+            shift_min_m: 0.05,
+            band_min_m: f64::NEG_INFINITY,
+            band_max_m: f64::INFINITY,
+        }
+    }
+}
+
+/// Why one sample was flagged, in words with the numbers behind it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct QcNote {
+    /// Sample index (file order).
+    pub sample: usize,
+    /// The flag.
+    pub flag: QcFlag,
+    /// The evidence, e.g. "+0.412 m from the level predicted by its neighbours …".
+    pub detail: String,
+}
+
+/// QC of one record.
+#[derive(Debug, Clone, PartialEq)]
+pub struct QcResult {
+    /// Flags per sample, file order.
+    pub flags: Vec<QcFlags>,
+    /// One note per (sample, flag), in sample order.
+    pub notes: Vec<QcNote>,
+    /// Median interval between consecutive samples in time order, seconds (0 with < 2 samples).
+    pub nominal_step_s: f64,
+    /// Robust standard deviation of the spike test's residual, metres.
+    pub robust_sigma_m: f64,
+    /// Samples per flag, [`QcFlag::ALL`] order.
+    pub counts: [usize; N_FLAGS],
+}
+
+impl QcResult {
+    /// Samples flagged `f`.
+    pub fn count(&self, f: QcFlag) -> usize {
+        self.counts[f as usize]
+    }
+    /// Samples that may be used.
+    pub fn usable_count(&self) -> usize {
+        self.flags.iter().filter(|f| f.usable()).count()
+    }
+    /// The notes of sample `i`.
+    pub fn notes_of(&self, i: usize) -> &[QcNote] {
+        let a = self.notes.partition_point(|n| n.sample < i);
+        let b = self.notes.partition_point(|n| n.sample <= i);
+        &self.notes[a..b]
+    }
+    /// Samples flagged `f`, in file order.
+    pub fn flagged(&self, f: QcFlag) -> Vec<usize> {
+        (0..self.flags.len())
+            .filter(|&i| self.flags[i].contains(f))
+            .collect()
+    }
+}
+
+struct Flagger {
+    flags: Vec<QcFlags>,
+    notes: Vec<QcNote>,
+}
+
+impl Flagger {
+    fn flag(&mut self, i: usize, f: QcFlag, detail: String) {
+        if !self.flags[i].contains(f) {
+            self.flags[i].insert(f);
+            self.notes.push(QcNote {
+                sample: i,
+                flag: f,
+                detail,
+            });
+        }
+    }
+}
+
+fn median_of(buf: &mut [f64]) -> f64 {
+    let n = buf.len();
+    let mid = n / 2;
+    let (_, m, _) = buf.select_nth_unstable_by(mid, f64::total_cmp);
+    let m = *m;
+    if n % 2 == 1 {
+        m
+    } else {
+        let lower = buf[..mid].iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        0.5 * (lower + m)
+    }
+}
+
+/// 1.4826 × median(|x|): the robust standard deviation of values centred on zero.
+fn robust_sigma(values: impl Iterator<Item = f64>) -> f64 {
+    let mut a: Vec<f64> = values.map(f64::abs).collect();
+    if a.is_empty() {
+        return 0.0;
+    }
+    1.4826 * median_of(&mut a)
+}
+
+/// Half-width in samples of a window of `window_min` minutes for a record stepping `step_s`.
+fn half_width(window_min: f64, step_s: f64, at_least: usize) -> usize {
+    if step_s <= 0.0 {
+        return at_least;
+    }
+    ((window_min * 30.0 / step_s).round() as usize).max(at_least)
+}
+
+/// Residual of each sample in `idx` from its neighbours in `idx`.
+///
+/// Two predictions of the sample are made, each by extrapolating a least-squares line through
+/// up to `hw` neighbours on one side (a side stops at a gap: an interval longer than
+/// `max_step_s`); the residual is the one of smaller magnitude. A spike is far from both sides; a
+/// sample next to a step or a removed outlier agrees with at least one side, so steps and
+/// neighbours of spikes do not raise alarms. A side needs at least 2 samples; with one side only,
+/// that side decides; with none, the residual is NaN (the rate test still sees the sample).
+fn one_sided_residuals(
+    t: &[f64],
+    h: &[f64],
+    idx: &[usize],
+    hw: usize,
+    max_step_s: f64,
+) -> Vec<f64> {
+    let n = idx.len();
+    let mut out = vec![f64::NAN; n];
+    let predict = |k: usize, side: &[usize]| -> Option<f64> {
+        if side.len() < 2 {
+            return None;
+        }
+        let tk = t[idx[k]];
+        Some(line_at_zero(
+            side.iter().map(|&i| (t[i] - tk) / 3600.0),
+            side.iter().map(|&i| h[i]),
+        ))
+    };
+    for k in 0..n {
+        // Extend each side up to hw samples, stopping at a gap.
+        let mut a = k;
+        while a > 0 && k - a < hw && t[idx[a]] - t[idx[a - 1]] <= max_step_s {
+            a -= 1;
+        }
+        let mut b = k;
+        while b + 1 < n && b - k < hw && t[idx[b + 1]] - t[idx[b]] <= max_step_s {
+            b += 1;
+        }
+        let hk = h[idx[k]];
+        let left = predict(k, &idx[a..k]).map(|p| hk - p);
+        let right = predict(k, &idx[k + 1..=b]).map(|p| hk - p);
+        out[k] = match (left, right) {
+            (Some(l), Some(r)) => {
+                if l.abs() <= r.abs() {
+                    l
+                } else {
+                    r
+                }
+            }
+            (Some(v), None) | (None, Some(v)) => v,
+            (None, None) => f64::NAN,
+        };
+    }
+    out
+}
+
+/// Runs every test on a record given in file order.
+///
+/// # Units
+/// `times_s` UTC seconds, `heights_m` metres above chart datum.
+pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult {
+    assert_eq!(times_s.len(), heights_m.len());
+    let n = times_s.len();
+    let mut fl = Flagger {
+        flags: vec![QcFlags::default(); n],
+        notes: Vec::new(),
+    };
+
+    // 1. Time order.
+    let mut ordered = Vec::with_capacity(n);
+    let mut latest = f64::NEG_INFINITY;
+    for (i, &t) in times_s.iter().enumerate() {
+        if t > latest {
+            ordered.push(i);
+            latest = t;
+        } else if t == latest {
+            fl.flag(
+                i,
+                QcFlag::DuplicateTime,
+                format!("time equals that of an earlier sample ({})", label(t)),
+            );
+        } else {
+            fl.flag(
+                i,
+                QcFlag::TimeOrder,
+                format!(
+                    "time is {:.1} min earlier than the latest time before it",
+                    (latest - t) / 60.0
+                ),
+            );
+        }
+    }
+    let mut steps: Vec<f64> = ordered
+        .windows(2)
+        .map(|w| times_s[w[1]] - times_s[w[0]])
+        .collect();
+    let nominal_step_s = if steps.is_empty() {
+        0.0
+    } else {
+        median_of(&mut steps)
+    };
+
+    // 7 (computed on the ordered samples, before exclusions). Gaps.
+    if nominal_step_s > 0.0 {
+        for w in ordered.windows(2) {
+            let dt = times_s[w[1]] - times_s[w[0]];
+            if dt > th.gap_factor * nominal_step_s {
+                fl.flag(
+                    w[1],
+                    QcFlag::GapBefore,
+                    format!(
+                        "{:.1} min since the previous sample ({:.1} × the {:.1} min step)",
+                        dt / 60.0,
+                        dt / nominal_step_s,
+                        nominal_step_s / 60.0
+                    ),
+                );
+            }
+        }
+    }
+
+    // 2. Plausible band.
+    let mut clean: Vec<usize> = Vec::with_capacity(ordered.len());
+    for &i in &ordered {
+        let h = heights_m[i];
+        if h < th.band_min_m || h > th.band_max_m {
+            fl.flag(
+                i,
+                QcFlag::OutOfBand,
+                format!(
+                    "{h:.3} m is outside the plausible band {:.2} to {:.2} m",
+                    th.band_min_m, th.band_max_m
+                ),
+            );
+        } else {
+            clean.push(i);
+        }
+    }
+
+    // 3. Flat lines: runs of equal readings among the clean samples.
+    let mut k = 0;
+    while k < clean.len() {
+        let mut e = k + 1;
+        while e < clean.len() && heights_m[clean[e]] == heights_m[clean[k]] {
+            e += 1;
+        }
+        let run = e - k;
+        let dur_min = (times_s[clean[e - 1]] - times_s[clean[k]]) / 60.0;
+        if run >= th.flat_min_samples.max(2) && dur_min >= th.flat_min_duration_min {
+            for &i in &clean[k + 1..e] {
+                fl.flag(
+                    i,
+                    QcFlag::FlatLine,
+                    format!(
+                        "reading {:.3} m repeated {run} times over {dur_min:.0} min from {}",
+                        heights_m[clean[k]],
+                        label(times_s[clean[k]])
+                    ),
+                );
+            }
+        }
+        k = e;
+    }
+    clean.retain(|&i| fl.flags[i].usable());
+
+    // 4. Spikes.
+    let hw = half_width(th.spike_window_min, nominal_step_s, 2);
+    let resid = one_sided_residuals(
+        times_s,
+        heights_m,
+        &clean,
+        hw,
+        th.gap_factor * nominal_step_s,
+    );
+    let robust_sigma_m = robust_sigma(resid.iter().copied().filter(|r| r.is_finite()));
+    let spike_limit = (th.spike_k * robust_sigma_m).max(th.spike_min_m);
+    for (k, &r) in resid.iter().enumerate() {
+        if r.abs() > spike_limit {
+            fl.flag(
+                clean[k],
+                QcFlag::Spike,
+                format!(
+                    "{r:+.3} m from the level predicted by its neighbours ({:.1} robust σ of {:.4} m; limit {spike_limit:.3} m)",
+                    r.abs() / robust_sigma_m.max(1e-12),
+                    robust_sigma_m
+                ),
+            );
+        }
+    }
+    clean.retain(|&i| fl.flags[i].usable());
+
+    // 5. Level shifts.
+    level_shifts(times_s, heights_m, &clean, nominal_step_s, th, &mut fl);
+    clean.retain(|&i| fl.flags[i].usable());
+
+    // 6. Rate.
+    let resid = one_sided_residuals(
+        times_s,
+        heights_m,
+        &clean,
+        hw,
+        th.gap_factor * nominal_step_s,
+    );
+    let mut k = 1;
+    while k < clean.len() {
+        let (a, b) = (clean[k - 1], clean[k]);
+        let dt_h = (times_s[b] - times_s[a]) / 3600.0;
+        let dh = heights_m[b] - heights_m[a];
+        let allowed = th.max_rate_m_per_h * dt_h + th.rate_allowance_m;
+        if dh.abs() > allowed {
+            // An end sample has no residual (NaN): it is the suspect.
+            let score = |r: f64| if r.is_nan() { f64::INFINITY } else { r.abs() };
+            let (pick, other) = if score(resid[k]) >= score(resid[k - 1]) {
+                (b, a)
+            } else {
+                (a, b)
+            };
+            fl.flag(
+                pick,
+                QcFlag::Rate,
+                format!(
+                    "{:+.3} m in {:.1} min to/from {} ({:.2} m/h; limit {:.2} m/h + {:.3} m)",
+                    dh,
+                    dt_h * 60.0,
+                    label(times_s[other]),
+                    dh.abs() / dt_h,
+                    th.max_rate_m_per_h,
+                    th.rate_allowance_m
+                ),
+            );
+            k += 2;
+        } else {
+            k += 1;
+        }
+    }
+
+    fl.notes.sort_by_key(|n| (n.sample, n.flag));
+    let mut counts = [0usize; N_FLAGS];
+    for f in &fl.flags {
+        for q in f.iter() {
+            counts[q as usize] += 1;
+        }
+    }
+    QcResult {
+        flags: fl.flags,
+        notes: fl.notes,
+        nominal_step_s,
+        robust_sigma_m,
+        counts,
+    }
+}
+
+fn label(t_s: f64) -> String {
+    super::utc_label(t_s)
+}
+
+/// Least-squares line through `(x, y)` evaluated at `x = 0`.
+fn line_at_zero(x: impl Iterator<Item = f64> + Clone, y: impl Iterator<Item = f64>) -> f64 {
+    let (mut n, mut sx, mut sy, mut sxx, mut sxy) = (0.0, 0.0, 0.0, 0.0, 0.0);
+    for (xi, yi) in x.zip(y) {
+        n += 1.0;
+        sx += xi;
+        sy += yi;
+        sxx += xi * xi;
+        sxy += xi * yi;
+    }
+    let det = n * sxx - sx * sx;
+    if det.abs() < 1e-300 {
+        return sy / n;
+    }
+    // value at 0 = intercept
+    (sy * sxx - sx * sxy) / det
+}
+
+/// The step statistic `J` at each junction `k` (between clean[k-1] and clean[k]), or NaN where
+/// the windows are not available.
+pub fn step_statistic(
+    times_s: &[f64],
+    heights_m: &[f64],
+    clean: &[usize],
+    nominal_step_s: f64,
+    window_min: f64,
+) -> Vec<f64> {
+    let m = clean.len();
+    let l = half_width(window_min, nominal_step_s, 4) * 2; // samples per side
+    let l = l.max(8);
+    let mut out = vec![f64::NAN; m];
+    if m < 2 * l || nominal_step_s <= 0.0 {
+        return out;
+    }
+    // Weights for a regular window: samples at distances (j + 0.5)·Δ from the junction.
+    let xs: Vec<f64> = (0..l).map(|j| j as f64 + 0.5).collect();
+    let xbar = xs.iter().sum::<f64>() / l as f64;
+    let sxx: f64 = xs.iter().map(|x| (x - xbar) * (x - xbar)).sum();
+    // Value at distance 0 from a line in distance x: w_j = 1/l + (0 − x̄)(x_j − x̄)/Sxx.
+    let w: Vec<f64> = xs
+        .iter()
+        .map(|x| 1.0 / l as f64 - xbar * (x - xbar) / sxx)
+        .collect();
+    let tol = 0.01 * nominal_step_s;
+    let max_junction = (window_min * 60.0).max(nominal_step_s);
+    // gaps_before[k]: intervals longer than 1.5 nominal steps among clean[0..=k].
+    let mut gaps_before = vec![0usize; m];
+    for k in 1..m {
+        let long = times_s[clean[k]] - times_s[clean[k - 1]] > 1.5 * nominal_step_s;
+        gaps_before[k] = gaps_before[k - 1] + usize::from(long);
+    }
+    for k in l..=(m - l) {
+        let left = &clean[k - l..k];
+        let right = &clean[k..k + l];
+        let t_mid = 0.5 * (times_s[left[l - 1]] + times_s[right[0]]);
+        let junction = times_s[right[0]] - times_s[left[l - 1]];
+        if junction > max_junction {
+            continue;
+        }
+        let span_l = times_s[left[l - 1]] - times_s[left[0]];
+        let span_r = times_s[right[l - 1]] - times_s[right[0]];
+        // A window with a gap inside says little about a step: skip (the junction itself may
+        // be a gap up to the window's length — a gauge is often re-levelled during a stop).
+        if gaps_before[k - 1] != gaps_before[k - l] || gaps_before[k + l - 1] != gaps_before[k] {
+            continue;
+        }
+        let regular = (junction - nominal_step_s).abs() < tol
+            && (span_l - (l as f64 - 1.0) * nominal_step_s).abs() < tol
+            && (span_r - (l as f64 - 1.0) * nominal_step_s).abs() < tol;
+        let (vl, vr) = if regular {
+            let mut vl = 0.0;
+            let mut vr = 0.0;
+            for j in 0..l {
+                vl += w[j] * heights_m[left[l - 1 - j]];
+                vr += w[j] * heights_m[right[j]];
+            }
+            (vl, vr)
+        } else {
+            let vl = line_at_zero(
+                left.iter().map(|&i| (times_s[i] - t_mid) / 3600.0),
+                left.iter().map(|&i| heights_m[i]),
+            );
+            let vr = line_at_zero(
+                right.iter().map(|&i| (times_s[i] - t_mid) / 3600.0),
+                right.iter().map(|&i| heights_m[i]),
+            );
+            (vl, vr)
+        };
+        out[k] = vr - vl;
+    }
+    out
+}
+
+fn level_shifts(
+    times_s: &[f64],
+    heights_m: &[f64],
+    clean: &[usize],
+    nominal_step_s: f64,
+    th: &QcThresholds,
+    fl: &mut Flagger,
+) {
+    let j = step_statistic(
+        times_s,
+        heights_m,
+        clean,
+        nominal_step_s,
+        th.shift_window_min,
+    );
+    let sigma = robust_sigma(j.iter().copied().filter(|v| v.is_finite()));
+    let limit = (th.shift_k * sigma).max(th.shift_min_m);
+    let reach = half_width(th.shift_window_min, nominal_step_s, 4) * 2;
+    let m = j.len();
+    for k in 0..m {
+        let v = j[k];
+        if v.is_nan() || v.abs() <= limit {
+            continue;
+        }
+        // The largest |J| within `reach` junctions on either side.
+        let a = k.saturating_sub(reach);
+        let b = (k + reach + 1).min(m);
+        let is_max = (a..b).all(|q| {
+            q == k || j[q].is_nan() || j[q].abs() < v.abs() || (j[q].abs() == v.abs() && q > k)
+        });
+        if is_max {
+            fl.flag(
+                clean[k],
+                QcFlag::LevelShift,
+                format!(
+                    "step of {v:+.3} m between {} and {} (lines fitted over {:.0} min each side; limit {limit:.3} m, robust σ {sigma:.4} m)",
+                    label(times_s[clean[k - 1]]),
+                    label(times_s[clean[k]]),
+                    th.shift_window_min
+                ),
+            );
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::SeedableRng;
+    use rand_distr::{Distribution, Normal};
+
+    /// M2 + S2 + K1 + O1 with realistic amplitudes (a mesotidal semidiurnal place) around a mean
+    /// level of 2.5 m, speeds from the constituent table (°/h).
+    fn tide(t_s: f64) -> f64 {
+        let h = t_s / 3600.0;
+        let c =
+            |a: f64, speed_deg_h: f64, g_deg: f64| a * (speed_deg_h * h - g_deg).to_radians().cos();
+        2.5 + c(1.5, 28.984_104_2, 40.0)
+            + c(0.5, 30.0, 75.0)
+            + c(0.15, 15.041_068_6, 200.0)
+            + c(0.1, 13.943_035_6, 180.0)
+    }
+
+    /// A record every `step_s` for `days` with Gaussian noise `sigma_m`, rounded to 1 mm.
+    fn record(step_s: f64, days: f64, sigma_m: f64, seed: u64) -> (Vec<f64>, Vec<f64>) {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+        let noise = Normal::new(0.0, sigma_m).unwrap();
+        let n = (days * 86400.0 / step_s) as usize;
+        let t: Vec<f64> = (0..n).map(|i| 1.78e9 + i as f64 * step_s).collect();
+        let h = t
+            .iter()
+            .map(|&t| ((tide(t) + noise.sample(&mut rng)) * 1000.0).round() / 1000.0)
+            .collect();
+        (t, h)
+    }
+
+    fn th() -> QcThresholds {
+        QcThresholds {
+            band_min_m: 2.5 - 10.0,
+            band_max_m: 2.5 + 10.0,
+            ..QcThresholds::default()
+        }
+    }
+
+    #[test]
+    fn clean_records_raise_no_alarm() {
+        // Realistic noise: 1 cm (σ) on a 6-min record for 60 days and on a 1-min record for 30
+        // days (waves and sensor noise at a sheltered gauge; common practice), 1 mm resolution.
+        for (step, days, seed) in [
+            (360.0, 60.0, 1),
+            (360.0, 60.0, 11),
+            (360.0, 60.0, 12),
+            (60.0, 30.0, 2),
+            (60.0, 30.0, 21),
+        ] {
+            let (t, h) = record(step, days, 0.01, seed);
+            let r = run_qc(&t, &h, &th());
+            let flagged: Vec<_> = r.notes.iter().take(5).collect();
+            assert_eq!(r.counts, [0; N_FLAGS], "step {step}: {flagged:?}");
+            assert!(r.robust_sigma_m > 0.005 && r.robust_sigma_m < 0.02);
+        }
+    }
+
+    #[test]
+    fn planted_faults_are_found_at_their_samples() {
+        let (mut t, mut h) = record(360.0, 20.0, 0.01, 3);
+        // Spikes of +0.40 and −0.25 m.
+        h[500] += 0.40;
+        h[1500] -= 0.25;
+        // A stuck sensor for 90 minutes from sample 2000 (16 repeated readings).
+        for i in 2001..2016 {
+            h[i] = h[2000];
+        }
+        // A level shift of +0.12 m from sample 3000 on (gauge re-levelled).
+        for x in h.iter_mut().skip(3000) {
+            *x += 0.12;
+        }
+        // A value far outside the band.
+        h[4000] = 99.0;
+        // A 3-hour gap after sample 4200.
+        t.drain(4201..4231);
+        h.drain(4201..4231);
+        // A duplicated time and one going backwards.
+        t[4500] = t[4499];
+        t[4600] = t[4598] - 1.0;
+        let r = run_qc(&t, &h, &th());
+        assert_eq!(r.flagged(QcFlag::Spike), vec![500, 1500]);
+        assert_eq!(
+            r.flagged(QcFlag::FlatLine),
+            (2001..2016).collect::<Vec<_>>()
+        );
+        assert_eq!(r.flagged(QcFlag::LevelShift), vec![3000]);
+        assert_eq!(r.flagged(QcFlag::OutOfBand), vec![4000]);
+        // The gap, and the 12-min holes left where the duplicated and the backward times were
+        // taken out of the timeline (1.5 × the 6-min step is 9 min).
+        assert_eq!(r.flagged(QcFlag::GapBefore), vec![4201, 4501, 4601]);
+        assert_eq!(r.flagged(QcFlag::DuplicateTime), vec![4500]);
+        assert_eq!(r.flagged(QcFlag::TimeOrder), vec![4600]);
+        // A time going back also leaves a longer step to the next sample, but not a gap.
+        assert_eq!(r.count(QcFlag::Rate), 0, "{:?}", r.notes);
+        assert!(r.notes_of(500)[0].detail.contains("neighbours"));
+        assert!(r.flags[3000].blocks_interpolation());
+        assert!(r.flags[4501].usable());
+    }
+
+    #[test]
+    fn impossible_rate_is_flagged_when_below_the_spike_threshold() {
+        // A 1-min record where a noisy patch makes the spike scale large, then a 0.3 m jump back
+        // and forth within one minute: a rate of 18 m/h.
+        let (t, mut h) = record(60.0, 3.0, 0.01, 4);
+        h[1000] += 0.3;
+        let th = QcThresholds {
+            spike_min_m: 1.0, // so that only the rate test can see it
+            ..th()
+        };
+        let r = run_qc(&t, &h, &th);
+        assert_eq!(r.flagged(QcFlag::Rate), vec![1000], "{:?}", r.notes);
+    }
+
+    #[test]
+    fn flat_line_needs_both_count_and_duration() {
+        let (t, mut h) = record(360.0, 2.0, 0.01, 5);
+        // 5 equal readings over 24 min: shorter than 60 min, not a flat line.
+        for i in 101..105 {
+            h[i] = h[100];
+        }
+        let r = run_qc(&t, &h, &th());
+        assert_eq!(r.count(QcFlag::FlatLine), 0);
+        let short = QcThresholds {
+            flat_min_duration_min: 20.0,
+            ..th()
+        };
+        assert_eq!(
+            run_qc(&t, &h, &short).flagged(QcFlag::FlatLine),
+            vec![101, 102, 103, 104]
+        );
+    }
+
+    #[test]
+    fn flag_words_round_trip() {
+        for f in QcFlag::ALL {
+            assert_eq!(QcFlag::parse(f.as_str()), Some(f));
+        }
+        let mut s = QcFlags::default();
+        assert!(s.usable());
+        s.insert(QcFlag::GapBefore);
+        assert!(s.usable());
+        s.insert(QcFlag::DuplicateTime);
+        assert!(!s.usable() && !s.blocks_interpolation());
+        s.insert(QcFlag::Spike);
+        assert!(s.blocks_interpolation());
+        assert_eq!(s.label(), "duplicate_time;spike;gap_before");
+    }
+}

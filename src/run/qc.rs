@@ -1,0 +1,541 @@
+//! `neap qc`: quality control of gauge records and gauge-to-gauge comparison.
+//!
+//! For each gauge: the record with a flag column (`<id>.qc.csv`), a plot (`<id>.qc.svg`) and a
+//! summary per flag. For the project's zoning: comparisons of gauges through the zoning's
+//! correctors (see [`crate::compute::compare`]) — every pair of gauges feeding one zone, and
+//! every gauge that lies inside a zone fed by another gauge — with the difference series in
+//! `gauge-differences.csv`. Everything is summarised in `qc-summary.json`.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use std::fmt::Write as _;
+
+use serde::Serialize;
+
+use super::load::{prepare_series, GaugeMethod, Loaded};
+use crate::compute::compare::{compare, CompareSettings, Comparison, Prediction};
+use crate::compute::locate::ZoneLocator;
+use crate::compute::qc::{QcFlag, QcResult};
+use crate::compute::utc_label;
+use crate::compute::zoning::{GaugeFeed, Zone};
+use crate::io::atomic::{write_atomic, AtomicFile};
+use crate::io::error::IoError;
+use crate::io::gauge_csv::GaugeRecord;
+use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
+use crate::io::qc_svg::{render_qc_svg, QcPlot};
+
+/// Layout name of `qc-summary.json`.
+pub const QC_SCHEMA: &str = "neap-qc-summary/1";
+
+/// One flagged sample, for the summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct FlaggedSample {
+    /// Line in the record file.
+    pub line: u64,
+    /// Sample time, UTC.
+    pub time_utc: String,
+    /// Level above chart datum, metres.
+    pub level_above_datum_m: f64,
+    /// The flag.
+    pub flag: &'static str,
+    /// Why.
+    pub detail: String,
+}
+
+/// QC of one gauge.
+#[derive(Debug, Clone, Serialize)]
+pub struct GaugeQcSummary {
+    /// Gauge id.
+    pub gauge: String,
+    /// Record file.
+    pub record: PathBuf,
+    /// Samples read (rows with a time and a reading).
+    pub samples: usize,
+    /// Samples usable after QC.
+    pub usable: usize,
+    /// Rows without a reading (empty or a null value), not samples.
+    pub rows_without_reading: usize,
+    /// Rows whose own quality flag was not good, not samples.
+    pub rows_flagged_in_file: usize,
+    /// Nominal step, minutes.
+    pub nominal_step_min: f64,
+    /// Robust standard deviation of the spike residual, metres.
+    pub robust_sigma_m: f64,
+    /// Samples per flag (every flag listed).
+    pub flags: BTreeMap<&'static str, usize>,
+    /// The first flagged samples (up to 50), in file order.
+    pub first_flagged: Vec<FlaggedSample>,
+    /// How the reducer uses the record.
+    pub method: GaugeMethod,
+    /// Files written.
+    pub outputs: Vec<PathBuf>,
+}
+
+/// A gauge-to-gauge comparison, for the summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct ComparisonSummary {
+    /// Pair name used in `gauge-differences.csv`.
+    pub pair: String,
+    /// What `a` is.
+    pub a: String,
+    /// What `b` is.
+    pub b: String,
+    /// Differences computed.
+    pub n: usize,
+    /// Mean of `a − b`, metres.
+    pub mean_m: f64,
+    /// Standard deviation, metres.
+    pub std_m: f64,
+    /// Largest |a − b|, metres.
+    pub max_abs_m: f64,
+    /// When, UTC.
+    pub max_abs_at_utc: String,
+    /// Trend, metres per day.
+    pub drift_m_per_day: f64,
+    /// Extra time corrector on `b` that aligns the two best, minutes.
+    pub best_lag_min: f64,
+    /// Standard deviation at that lag, metres.
+    pub std_at_best_lag_m: f64,
+    /// Step found in the difference: (UTC time, metres).
+    pub step: Option<(String, f64)>,
+    /// Whether the pair is flagged.
+    pub flagged: bool,
+    /// Why.
+    pub findings: Vec<String>,
+}
+
+/// The whole QC run.
+#[derive(Debug, Clone, Serialize)]
+pub struct QcSummary {
+    /// Layout name.
+    pub schema: &'static str,
+    /// neap version.
+    pub neap_version: &'static str,
+    /// The caution.
+    pub caution: &'static str,
+    /// Per gauge.
+    pub gauges: Vec<GaugeQcSummary>,
+    /// Comparisons.
+    pub comparisons: Vec<ComparisonSummary>,
+    /// Why no comparison was made, when none was.
+    pub comparisons_note: Option<String>,
+    /// Files written besides the per-gauge ones.
+    pub outputs: Vec<PathBuf>,
+}
+
+impl QcSummary {
+    /// Whether any sample (other than `gap_before`) or any comparison is flagged.
+    pub fn anything_flagged(&self) -> bool {
+        self.gauges.iter().any(|g| g.usable < g.samples)
+            || self.comparisons.iter().any(|c| c.flagged)
+    }
+}
+
+fn file_stem_safe(id: &str) -> String {
+    id.chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect()
+}
+
+/// Writes the record with its flags, the plot, and returns the gauge's summary.
+pub fn write_gauge_qc(
+    g: &GaugeSpec,
+    r: &GaugeRecord,
+    q: &QcResult,
+    method: GaugeMethod,
+    band_m: (f64, f64),
+    out_dir: &Path,
+) -> Result<GaugeQcSummary, IoError> {
+    std::fs::create_dir_all(out_dir).map_err(|e| IoError::file(out_dir, e))?;
+    let stem = file_stem_safe(&g.id);
+    let csv_path = out_dir.join(format!("{stem}.qc.csv"));
+    let mut f = AtomicFile::create(&csv_path, &[&g.record])?;
+    let mut text = String::with_capacity(r.times_s.len() * 48 + 64);
+    text.push_str("line,time_utc,level_above_datum_m,qc_flags,qc_detail\n");
+    for i in 0..r.times_s.len() {
+        text.push_str(&r.lines[i].to_string());
+        text.push(',');
+        text.push_str(&utc_label(r.times_s[i]));
+        text.push(',');
+        let _ = write!(text, "{:.4}", r.heights_m[i]);
+        text.push(',');
+        text.push_str(&q.flags[i].label());
+        text.push(',');
+        let notes = q.notes_of(i);
+        if !notes.is_empty() {
+            let d: Vec<String> = notes
+                .iter()
+                .map(|n| format!("{}: {}", n.flag.as_str(), n.detail))
+                .collect();
+            crate::io::soundings::push_csv_field_string(&mut text, &d.join("; "));
+        }
+        text.push('\n');
+        if text.len() > 1 << 20 {
+            f.write_all(text.as_bytes())?;
+            text.clear();
+        }
+    }
+    f.write_all(text.as_bytes())?;
+    let csv_path = f.commit()?;
+    let title = match &g.name {
+        Some(n) => format!("Gauge {} ({}) — quality control", g.id, n),
+        None => format!("Gauge {} — quality control", g.id),
+    };
+    let svg = render_qc_svg(&QcPlot {
+        title: &title,
+        times_s: &r.times_s,
+        heights_m: &r.heights_m,
+        flags: &q.flags,
+        band_m,
+    });
+    let svg_path = write_atomic(&out_dir.join(format!("{stem}.qc.svg")), svg.as_bytes())?;
+    let mut flags = BTreeMap::new();
+    for f in QcFlag::ALL {
+        flags.insert(f.as_str(), q.count(f));
+    }
+    let first_flagged = q
+        .notes
+        .iter()
+        .take(50)
+        .map(|n| FlaggedSample {
+            line: r.lines[n.sample],
+            time_utc: utc_label(r.times_s[n.sample]),
+            level_above_datum_m: (r.heights_m[n.sample] * 1e4).round() / 1e4,
+            flag: n.flag.as_str(),
+            detail: n.detail.clone(),
+        })
+        .collect();
+    Ok(GaugeQcSummary {
+        gauge: g.id.clone(),
+        record: g.record.clone(),
+        samples: r.times_s.len(),
+        usable: q.usable_count(),
+        rows_without_reading: r.skipped_null,
+        rows_flagged_in_file: r.skipped_flagged,
+        nominal_step_min: q.nominal_step_s / 60.0,
+        robust_sigma_m: q.robust_sigma_m,
+        flags,
+        first_flagged,
+        method,
+        outputs: vec![csv_path, svg_path],
+    })
+}
+
+/// QC of one record file outside a project (`neap qc --record`). The plausible band is centred
+/// on the record's median unless the spec gives one.
+pub fn qc_single_record(
+    g: &GaugeSpec,
+    r: &GaugeRecord,
+    qc_spec: &QcSpec,
+    out_dir: &Path,
+) -> Result<QcSummary, IoError> {
+    let mut qc_on = qc_spec.clone();
+    qc_on.enabled = true;
+    let prepared = prepare_series(&qc_on, &InterpolationSpec::default(), g, r);
+    let q = prepared.qc.expect("QC is on");
+    let t = qc_on.thresholds_for(g);
+    let s = write_gauge_qc(
+        g,
+        r,
+        &q,
+        prepared.method,
+        (t.band_min_m, t.band_max_m),
+        out_dir,
+    )?;
+    let mut summary = QcSummary {
+        schema: QC_SCHEMA,
+        neap_version: env!("CARGO_PKG_VERSION"),
+        caution: crate::CAUTION,
+        gauges: vec![s],
+        comparisons: Vec::new(),
+        comparisons_note: Some("a single record has no neighbour to compare with".into()),
+        outputs: Vec::new(),
+    };
+    let p = write_atomic(
+        &out_dir.join("qc-summary.json"),
+        serde_json::to_string_pretty(&summary)
+            .expect("summary serialises")
+            .as_bytes(),
+    )?;
+    summary.outputs.push(p);
+    Ok(summary)
+}
+
+/// QC of a project's gauge records when the project does not load as a whole (e.g. a broken
+/// zoning): records only, no comparison.
+pub fn qc_records_only(
+    project: &crate::io::project::Project,
+    only: Option<&str>,
+    out_dir: &Path,
+    why: &str,
+) -> Result<QcSummary, IoError> {
+    let mut gauges = Vec::new();
+    for g in &project.spec.gauges {
+        if only.is_some_and(|o| o != g.id) {
+            continue;
+        }
+        let r = crate::io::gauge_csv::read_gauge_record(g, project.gauge_naive_offset(g))?;
+        let mut qc_on = project.spec.qc.clone();
+        qc_on.enabled = true;
+        let prepared = prepare_series(&qc_on, &project.spec.interpolation, g, &r);
+        let q = prepared.qc.expect("QC is on");
+        let t = qc_on.thresholds_for(g);
+        gauges.push(write_gauge_qc(
+            g,
+            &r,
+            &q,
+            prepared.method,
+            (t.band_min_m, t.band_max_m),
+            out_dir,
+        )?);
+    }
+    let mut summary = QcSummary {
+        schema: QC_SCHEMA,
+        neap_version: env!("CARGO_PKG_VERSION"),
+        caution: crate::CAUTION,
+        gauges,
+        comparisons: Vec::new(),
+        comparisons_note: Some(format!("no comparison: {why}")),
+        outputs: Vec::new(),
+    };
+    let path = out_dir.join("qc-summary.json");
+    summary.outputs.push(path.clone());
+    write_atomic(
+        &path,
+        serde_json::to_string_pretty(&summary)
+            .expect("summary serialises")
+            .as_bytes(),
+    )?;
+    Ok(summary)
+}
+
+/// The comparisons the zoning allows: (pair name, a, b, evaluation times).
+type Plan = (String, Prediction, Prediction, Vec<f64>, [usize; 2]);
+
+fn planned_comparisons(loaded: &Loaded) -> Vec<Plan> {
+    let single = |z: &Zone, f: &GaugeFeed| Zone {
+        id: z.id.clone(),
+        feeds: vec![GaugeFeed {
+            weight: 1.0,
+            ..f.clone()
+        }],
+        mean_level: z.mean_level,
+    };
+    let gid = |i: usize| loaded.gauges[i].id.as_str();
+    let mut out = Vec::new();
+    // 1. Pairs of gauges feeding one zone: each carried to the zone alone.
+    for z in &loaded.zones {
+        for (x, fa) in z.feeds.iter().enumerate() {
+            for fb in &z.feeds[x + 1..] {
+                if fa.gauge == fb.gauge {
+                    continue;
+                }
+                let a = Prediction {
+                    label: format!("{} carried to zone {}", gid(fb.gauge), z.id),
+                    zone: single(z, fb),
+                };
+                let b = Prediction {
+                    label: format!("{} carried to zone {}", gid(fa.gauge), z.id),
+                    zone: single(z, fa),
+                };
+                // At a's own samples (shifted by its time corrector).
+                let times = loaded.gauges[fb.gauge]
+                    .series
+                    .times_s
+                    .iter()
+                    .map(|t| t + fb.time_corrector_min * 60.0)
+                    .collect();
+                out.push((
+                    format!("{}-{}@{}", gid(fb.gauge), gid(fa.gauge), z.id),
+                    a,
+                    b,
+                    times,
+                    [fa.gauge, fb.gauge],
+                ));
+            }
+        }
+    }
+    // 2. Gauges inside a zone fed by another gauge: observed against carried.
+    let locator = ZoneLocator::new(
+        loaded
+            .zoning
+            .zones
+            .iter()
+            .map(|z| z.polygon_lonlat.clone())
+            .collect(),
+    );
+    for (gi, gspec) in loaded.project.spec.gauges.iter().enumerate() {
+        let Some(zi) = locator.locate(gspec.lon, gspec.lat) else {
+            continue;
+        };
+        let z = &loaded.zones[zi];
+        for f in z.feeds.iter().filter(|f| f.gauge != gi) {
+            let a = Prediction {
+                label: format!("{} observed", gid(gi)),
+                zone: Zone {
+                    id: gid(gi).to_string(),
+                    feeds: vec![GaugeFeed {
+                        gauge: gi,
+                        weight: 1.0,
+                        time_corrector_min: 0.0,
+                        range_ratio: 1.0,
+                    }],
+                    mean_level: crate::compute::zoning::MeanLevelForm::Scaled,
+                },
+            };
+            let b = Prediction {
+                label: format!("{} carried to zone {}", gid(f.gauge), z.id),
+                zone: single(z, f),
+            };
+            out.push((
+                format!("{}-{}@{}", gid(gi), gid(f.gauge), z.id),
+                a,
+                b,
+                loaded.gauges[gi].series.times_s.clone(),
+                [gi, f.gauge],
+            ));
+        }
+    }
+    out
+}
+
+/// QC of every gauge of a loaded project (or only `only`), and the comparisons.
+pub fn qc_project(
+    loaded: &Loaded,
+    only: Option<&str>,
+    out_dir: &Path,
+) -> Result<QcSummary, IoError> {
+    let spec = &loaded.project.spec;
+    let mut gauges = Vec::new();
+    for (gi, g) in spec.gauges.iter().enumerate() {
+        if only.is_some_and(|o| o != g.id) {
+            continue;
+        }
+        let r = &loaded.records[gi];
+        // With QC off in the project, `neap qc` still runs it (that is what it is for).
+        let q = match &loaded.qc[gi] {
+            Some(q) => q.clone(),
+            None => {
+                crate::compute::qc::run_qc(&r.times_s, &r.heights_m, &spec.qc.thresholds_for(g))
+            }
+        };
+        let t = spec.qc.thresholds_for(g);
+        gauges.push(write_gauge_qc(
+            g,
+            r,
+            &q,
+            loaded.methods[gi].clone(),
+            (t.band_min_m, t.band_max_m),
+            out_dir,
+        )?);
+    }
+    let settings = CompareSettings {
+        max_mean_m: spec.qc.compare_max_mean_m,
+        max_drift_m_per_day: spec.qc.compare_max_drift_m_per_day,
+        max_lag_min: spec.qc.compare_max_lag_min,
+        lag_search_min: spec.qc.compare_lag_search_min,
+        shift_window_min: spec.qc.compare_shift_window_min,
+        shift_k: spec.qc.shift_k,
+        shift_min_m: spec.qc.shift_min_m,
+    };
+    let plans = planned_comparisons(loaded);
+    let plans: Vec<_> = plans
+        .into_iter()
+        .filter(|p| only.map_or(true, |o| p.4.iter().any(|&g| loaded.gauges[g].id == o)))
+        .collect();
+    let results: Vec<(String, Option<Comparison>)> = {
+        use rayon::prelude::*;
+        plans
+            .par_iter()
+            .map(|(name, a, b, times, _)| {
+                (
+                    name.clone(),
+                    compare(
+                        a,
+                        b,
+                        &loaded.gauges,
+                        loaded.interp.as_ref(),
+                        times,
+                        &settings,
+                    ),
+                )
+            })
+            .collect()
+    };
+    let mut comparisons = Vec::new();
+    let mut diff_text = String::from("pair,time_utc,difference_m\n");
+    for (name, c) in &results {
+        let Some(c) = c else { continue };
+        for (t, d) in c.times_s.iter().zip(&c.diff_m) {
+            diff_text.push_str(name);
+            diff_text.push(',');
+            diff_text.push_str(&utc_label(*t));
+            diff_text.push(',');
+            let _ = write!(diff_text, "{d:.4}");
+            diff_text.push('\n');
+        }
+        comparisons.push(ComparisonSummary {
+            pair: name.clone(),
+            a: c.a.clone(),
+            b: c.b.clone(),
+            n: c.diff_m.len(),
+            mean_m: c.mean_m,
+            std_m: c.std_m,
+            max_abs_m: c.max_abs_m,
+            max_abs_at_utc: utc_label(c.max_abs_at_s),
+            drift_m_per_day: c.drift_m_per_day,
+            best_lag_min: c.best_lag_min,
+            std_at_best_lag_m: c.std_at_best_lag_m,
+            step: c.step.map(|s| (utc_label(s.at_s), s.size_m)),
+            flagged: !c.findings.is_empty(),
+            findings: c.findings.clone(),
+        });
+    }
+    let comparisons_note = if plans.is_empty() {
+        Some(
+            "no zone is fed by two gauges and no gauge lies in a zone fed by another gauge: nothing to compare"
+                .to_string(),
+        )
+    } else if comparisons.len() < plans.len() {
+        Some(format!(
+            "{} of {} comparisons had fewer than 3 common times and were skipped",
+            plans.len() - comparisons.len(),
+            plans.len()
+        ))
+    } else {
+        None
+    };
+    let mut outputs = Vec::new();
+    std::fs::create_dir_all(out_dir).map_err(|e| IoError::file(out_dir, e))?;
+    if !comparisons.is_empty() {
+        outputs.push(write_atomic(
+            &out_dir.join("gauge-differences.csv"),
+            diff_text.as_bytes(),
+        )?);
+    }
+    let mut summary = QcSummary {
+        schema: QC_SCHEMA,
+        neap_version: env!("CARGO_PKG_VERSION"),
+        caution: crate::CAUTION,
+        gauges,
+        comparisons,
+        comparisons_note,
+        outputs,
+    };
+    let path = out_dir.join("qc-summary.json");
+    summary.outputs.push(path.clone());
+    write_atomic(
+        &path,
+        serde_json::to_string_pretty(&summary)
+            .expect("summary serialises")
+            .as_bytes(),
+    )?;
+    Ok(summary)
+}
