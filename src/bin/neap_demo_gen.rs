@@ -977,6 +977,17 @@ time_format = "unix_s"
 columns = { time = "unix_s", x = "lon", y = "lat", depth = "depth", line = "line" }
 
 # ---------------------------------------------------------------------------------------------
+# Gauge-record quality control runs on every record before use, with the defaults of docs/qc.md
+# (from memory / common practice: set them from your specification). The reducer never
+# interpolates across a flagged sample. Uncomment to change a threshold, e.g.:
+# [qc]
+# spike_k = 6                  # spike threshold, robust standard deviations
+# flat_min_duration_min = 60   # a reading repeated this long is a stuck sensor
+# max_rate_m_per_h = 3.0       # fastest plausible change of level
+# [interpolation]
+# cubic_above_step_min = 10    # records sparser than this use a natural cubic spline
+
+# ---------------------------------------------------------------------------------------------
 # Uncertainty (GUM, standard uncertainties = 1 sigma) and the survey order the soundings are
 # judged against (IHO S-44 Edition 6.1.0: exclusive, special, 1a, 1b, 2, or a custom order).
 # Every number here is a DEMO VALUE chosen to look typical: a real survey takes them from its

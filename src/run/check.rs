@@ -364,19 +364,36 @@ fn check_gauge_spans(loaded: &super::load::Loaded, t0: f64, t1: f64, out: &mut V
             _ => continue,
         }
         let rec = &loaded.records[gi];
+        // The file line of each series sample: the series is a subsequence of the record in
+        // file order (QC leaves samples out, never reorders them).
+        let mut lines = Vec::with_capacity(s.times_s.len());
+        let mut j = 0;
+        for &t in &s.times_s {
+            while j < rec.times_s.len() && rec.times_s[j] != t {
+                j += 1;
+            }
+            lines.push(rec.lines.get(j).copied().unwrap_or(0));
+            j += 1;
+        }
         let mut gaps = 0;
-        for k in 1..s.times_s.len() {
-            let (p, q) = (s.times_s[k - 1], s.times_s[k]);
-            if q - p > s.max_gap_s && q > a && p < b {
+        for (w, &line) in s.times_s.windows(2).zip(lines.iter().skip(1)) {
+            let (p, q) = (w[0], w[1]);
+            let flagged = s.flagged_times_s.iter().any(|&f| f > p && f < q);
+            if (flagged || q - p > s.max_gap_s) && q > a && p < b {
                 gaps += 1;
                 if gaps <= 5 {
-                    out.push(Finding::warning(
-                        at.clone().line(rec.lines[k]),
+                    let what = if flagged {
+                        format!(
+                            "{:.0} min from {} to {} inside the survey period spans samples that quality control set aside (see `neap qc`): soundings then get status gauge_flagged",
+                            (q - p) / 60.0, utc_label(p), utc_label(q)
+                        )
+                    } else {
                         format!(
                             "gap of {:.0} min from {} to {} inside the survey period (longer than max_gap_min = {}): soundings then have no tide",
                             (q - p) / 60.0, utc_label(p), utc_label(q), spec.max_gap_min
-                        ),
-                    ));
+                        )
+                    };
+                    out.push(Finding::warning(at.clone().line(line), what));
                 }
             }
         }
