@@ -869,11 +869,11 @@ fn generator_json(
         "pendrath_fault": {
             "last_sample_before_gap_utc": rfc3339(gap0, false), "first_sample_after_gap_utc": rfc3339(gap1, false),
             "empty_height_times_utc": empty_height_ms().map(|t| rfc3339(t, false)),
-            "skellan_faults": {
-                "spike_utc": rfc3339(skellan_spike_ms(), false), "spike_m": 0.52,
-                "stuck_from_utc": rfc3339(skellan_stuck_ms().0, false), "stuck_to_utc": rfc3339(skellan_stuck_ms().1, false),
-                "duplicated_time_utc": rfc3339(skellan_duplicate_ms(), false),
-            },
+        },
+        "skellan_faults": {
+            "spike_utc": rfc3339(skellan_spike_ms(), false), "spike_m": 0.52,
+            "stuck_from_utc": rfc3339(skellan_stuck_ms().0, false), "stuck_to_utc": rfc3339(skellan_stuck_ms().1, false),
+            "duplicated_time_utc": rfc3339(skellan_duplicate_ms(), false),
         },
         "files": { "soundings/launch-a.csv": file(&stats[0]), "soundings/launch-b.txt": file(&stats[1]) },
         "counting_rules": "rows are 1-based data rows; in_skellan_fault counts valid soundings in a zone fed by skellan whose time minus the time corrector lies strictly between the samples around the spike or the stuck float; in_pendrath_gap counts valid soundings in a zone fed by pendrath \

@@ -23,6 +23,7 @@
 //! datum and timing errors is common practice in tide-gauge quality control (field primer §3, §4.1).
 
 use super::qc::step_statistic;
+
 use super::series::TimeInterpolation;
 use super::zoning::{FeedState, Gauge, Zone};
 
@@ -197,7 +198,16 @@ pub fn compare(
                 } else {
                     0.0
                 };
-                (lag + off.clamp(-0.5, 0.5), sd)
+                let refined = lag + off.clamp(-0.5, 0.5);
+                // The standard deviation at the refined lag itself.
+                d.clear();
+                for &k in &sub {
+                    if let Some(vb) = eval(b, gauges, interp, t_ok[k], refined, &mut st) {
+                        d.push(a_vals[k] - vb);
+                    }
+                }
+                let sd_refined = if d.len() >= 3 { mean_std(&d).1 } else { sd };
+                (refined, sd_refined.min(sd))
             } else {
                 (lag, sd)
             }
@@ -214,26 +224,14 @@ pub fn compare(
         *steps.select_nth_unstable_by(mid, f64::total_cmp).1
     };
     let j = step_statistic(&t_ok, &diff, &idx, nominal, s.shift_window_min);
-    let mut absj: Vec<f64> = j
-        .iter()
-        .filter(|v| v.is_finite())
-        .map(|v| v.abs())
-        .collect();
-    let step = if absj.is_empty() {
-        None
-    } else {
-        let mid = absj.len() / 2;
-        let sigma = 1.4826 * *absj.select_nth_unstable_by(mid, f64::total_cmp).1;
-        let limit = (s.shift_k * sigma).max(s.shift_min_m);
-        j.iter()
-            .enumerate()
-            .filter(|(_, v)| v.is_finite() && v.abs() > limit)
-            .max_by(|x, y| x.1.abs().total_cmp(&y.1.abs()))
-            .map(|(k, &v)| Step {
-                at_s: t_ok[k],
-                size_m: v,
-            })
-    };
+    let reach = super::qc::step_window_samples(s.shift_window_min, nominal);
+    let step = super::qc::find_steps(&j, reach, s.shift_k, s.shift_min_m)
+        .into_iter()
+        .max_by(|x, y| j[x.junction].abs().total_cmp(&j[y.junction].abs()))
+        .map(|f| Step {
+            at_s: t_ok[f.junction],
+            size_m: j[f.junction],
+        });
 
     let mut findings = Vec::new();
     if mean_m.abs() > s.max_mean_m {

@@ -13,11 +13,13 @@
 //! * [`lowpass`] — zero-phase low-pass filter for noisy 1-minute records.
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
+//! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
 
 pub mod astro;
 pub mod compare;
 pub mod correctors;
 pub mod fixed;
+pub mod harmonic;
 pub mod locate;
 pub mod lowpass;
 pub mod qa;

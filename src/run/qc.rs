@@ -258,13 +258,14 @@ pub fn qc_single_record(
         comparisons_note: Some("a single record has no neighbour to compare with".into()),
         outputs: Vec::new(),
     };
-    let p = write_atomic(
-        &out_dir.join("qc-summary.json"),
+    let path = out_dir.join("qc-summary.json");
+    summary.outputs.push(path.clone());
+    write_atomic(
+        &path,
         serde_json::to_string_pretty(&summary)
             .expect("summary serialises")
             .as_bytes(),
     )?;
-    summary.outputs.push(p);
     Ok(summary)
 }
 

@@ -9,6 +9,7 @@ mod demo_recovery;
 mod outputs;
 mod properties;
 mod qa_report;
+mod qc;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
