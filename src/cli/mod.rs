@@ -129,6 +129,72 @@ enum Command {
         #[arg(long)]
         out: Option<PathBuf>,
     },
+    /// Harmonic analysis of a gauge record: Z0, amplitude and Greenwich phase lag of each
+    /// constituent, written to a constants file (TOML).
+    #[command(visible_alias = "analyze")]
+    Analyse {
+        /// The record (CSV with a header); or give --project and --gauge.
+        #[arg(required_unless_present = "project", conflicts_with = "project")]
+        record: Option<PathBuf>,
+        /// A project file: analyse one of its gauges (levels above chart datum).
+        #[arg(long, requires = "gauge")]
+        project: Option<PathBuf>,
+        /// With --project: the gauge id.
+        #[arg(long)]
+        gauge: Option<String>,
+        /// With a record: the time column (ISO 8601 with offset).
+        #[arg(long, default_value = "time")]
+        time_column: String,
+        /// With a record: the height column.
+        #[arg(long, default_value = "height")]
+        height_column: String,
+        /// With a record: units of the heights: m, ft or us_ft.
+        #[arg(long, default_value = "m")]
+        units: String,
+        /// With a record: height of the gauge zero above chart datum, metres (levels are then
+        /// above chart datum; without it, above the record's zero).
+        #[arg(long, allow_hyphen_values = true)]
+        zero_above_datum_m: Option<f64>,
+        /// Constituents to fit, comma-separated (default: chosen by the Rayleigh criterion).
+        #[arg(long, value_delimiter = ',')]
+        constituents: Option<Vec<String>>,
+        /// Rayleigh factor for the automatic choice.
+        #[arg(long, default_value_t = 1.0)]
+        rayleigh: f64,
+        /// Do not infer unresolved K2, P1, N2, Q1 from S2, K1, M2, O1.
+        #[arg(long)]
+        no_inference: bool,
+        /// Nodal corrections at every sample (per-sample, default) or at the record's centre.
+        #[arg(long, default_value = "per-sample", value_parser = ["per-sample", "centre"])]
+        nodal: String,
+        /// Analyse every sample, without quality control.
+        #[arg(long)]
+        no_qc: bool,
+        /// The constants file to write (default: `<gauge or record name>.constants.toml` in the
+        /// current folder, or in the project's output folder).
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
+    /// Predict the tide from a constants file on a regular grid, with high and low waters.
+    Predict {
+        /// The constants file (written by `neap analyse`).
+        constants: PathBuf,
+        /// Start, ISO 8601 with offset.
+        #[arg(long)]
+        from: String,
+        /// End, ISO 8601 with offset (included when on the grid).
+        #[arg(long)]
+        to: String,
+        /// Step, minutes.
+        #[arg(long, default_value_t = 6.0)]
+        step_min: f64,
+        /// The series file (default `<constants name>.prediction.csv` in the current folder).
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// The high/low water file (default `<constants name>.extremes.csv`).
+        #[arg(long)]
+        extremes: Option<PathBuf>,
+    },
     /// Reduce the bundled demo survey and say where the results are.
     Demo {
         /// The demo folder (default: ./zoning-demo, else the one in the source tree).
@@ -216,6 +282,43 @@ pub fn main() -> i32 {
             ),
             (None, None) => EXIT_CANNOT_RUN,
         },
+        Command::Analyse {
+            record,
+            project,
+            gauge,
+            time_column,
+            height_column,
+            units,
+            zero_above_datum_m,
+            constituents,
+            rayleigh,
+            no_inference,
+            nodal,
+            no_qc,
+            out,
+        } => cmd_analyse(AnalyseArgs {
+            record,
+            project,
+            gauge,
+            time_column,
+            height_column,
+            units,
+            zero_above_datum_m,
+            constituents,
+            rayleigh,
+            no_inference,
+            nodal,
+            no_qc,
+            out,
+        }),
+        Command::Predict {
+            constants,
+            from,
+            to,
+            step_min,
+            out,
+            extremes,
+        } => cmd_predict(&constants, &from, &to, step_min, out, extremes),
         Command::Demo { dir } => cmd_demo(dir),
     }
 }
@@ -722,6 +825,259 @@ fn print_qc(s: &neap::run::qc::QcSummary) -> i32 {
         EXIT_INCOMPLETE
     } else {
         EXIT_OK
+    }
+}
+
+struct AnalyseArgs {
+    record: Option<PathBuf>,
+    project: Option<PathBuf>,
+    gauge: Option<String>,
+    time_column: String,
+    height_column: String,
+    units: String,
+    zero_above_datum_m: Option<f64>,
+    constituents: Option<Vec<String>>,
+    rayleigh: f64,
+    no_inference: bool,
+    nodal: String,
+    no_qc: bool,
+    out: Option<PathBuf>,
+}
+
+fn parse_units(units: &str) -> anyhow::Result<neap::io::project::HeightUnit> {
+    Ok(match units {
+        "m" => neap::io::project::HeightUnit::Metre,
+        "ft" => neap::io::project::HeightUnit::Foot,
+        "us_ft" => neap::io::project::HeightUnit::UsSurveyFoot,
+        other => anyhow::bail!("--units: expected m, ft or us_ft, found '{other}'"),
+    })
+}
+
+fn cmd_analyse(a: AnalyseArgs) -> i32 {
+    use neap::compute::harmonic::{tide_type, AnalysisSettings, NodalMode};
+    let run = || -> anyhow::Result<neap::run::harmonics::AnalyseOutcome> {
+        if !(a.rayleigh.is_finite() && a.rayleigh > 0.0) {
+            anyhow::bail!(
+                "--rayleigh: expected a positive number, found {}",
+                a.rayleigh
+            );
+        }
+        let settings = AnalysisSettings {
+            rayleigh_factor: a.rayleigh,
+            constituents: a.constituents.clone(),
+            infer: !a.no_inference,
+            nodal: if a.nodal == "centre" {
+                NodalMode::Centre
+            } else {
+                NodalMode::PerSample
+            },
+        };
+        match (&a.record, &a.project) {
+            (Some(record), _) => {
+                let units = parse_units(&a.units)?;
+                let mut spec = neap::io::project::GaugeSpec::for_record(
+                    record,
+                    units,
+                    a.zero_above_datum_m.unwrap_or(0.0),
+                );
+                spec.time_column = a.time_column.clone();
+                spec.height_column = a.height_column.clone();
+                // The plausible band for QC is centred on the record's median.
+                if let Ok(r) = neap::io::gauge_csv::read_gauge_record(&spec, None) {
+                    let mut v = r.heights_m.clone();
+                    if !v.is_empty() {
+                        let mid = v.len() / 2;
+                        spec.mean_level_above_datum_m =
+                            *v.select_nth_unstable_by(mid, f64::total_cmp).1;
+                    }
+                }
+                let out = a
+                    .out
+                    .clone()
+                    .unwrap_or_else(|| PathBuf::from(format!("{}.constants.toml", spec.id)));
+                let levels = if a.zero_above_datum_m.is_some() {
+                    "above chart datum"
+                } else {
+                    "above the record's zero"
+                };
+                let qc = neap::io::project::QcSpec::default();
+                neap::run::harmonics::analyse_gauge(
+                    &spec,
+                    None,
+                    (!a.no_qc).then_some(&qc),
+                    &settings,
+                    None,
+                    levels,
+                    &out,
+                )
+            }
+            (None, Some(project)) => {
+                let p = Project::load(project)?;
+                let id = a.gauge.clone().unwrap_or_default();
+                let Some(g) = p.spec.gauges.iter().find(|g| g.id == id) else {
+                    anyhow::bail!(
+                        "the project has no gauge '{id}' (gauges: {})",
+                        p.spec
+                            .gauges
+                            .iter()
+                            .map(|g| g.id.as_str())
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    );
+                };
+                let out = a
+                    .out
+                    .clone()
+                    .unwrap_or_else(|| p.spec.output.dir.join(format!("{}.constants.toml", g.id)));
+                neap::run::harmonics::analyse_gauge(
+                    g,
+                    p.gauge_naive_offset(g),
+                    (!a.no_qc).then_some(&p.spec.qc),
+                    &settings,
+                    Some(g.id.clone()),
+                    "above chart datum",
+                    &out,
+                )
+            }
+            (None, None) => anyhow::bail!("give a record, or --project and --gauge"),
+        }
+    };
+    let o = match run() {
+        Ok(o) => o,
+        Err(e) => return report_failure(e),
+    };
+    let an = &o.analysis;
+    let mut w = std::io::stdout().lock();
+    let _ = writeln!(
+        w,
+        "neap analyse: {} samples from {} to {} ({:.1} days){}; nodal corrections {}",
+        an.n_samples,
+        neap::compute::utc_label(an.span_s.0),
+        neap::compute::utc_label(an.span_s.1),
+        (an.span_s.1 - an.span_s.0) / 86400.0,
+        if o.set_aside > 0 {
+            format!(
+                ", {} of {} samples set aside by QC",
+                o.set_aside, o.samples_read
+            )
+        } else {
+            String::new()
+        },
+        an.nodal.as_str()
+    );
+    let _ = writeln!(
+        w,
+        "  Z0 {:.4} m ± {:.4} (1σ), levels {}",
+        an.z0_m, an.u_z0_m, o.levels
+    );
+    let _ = writeln!(
+        w,
+        "  {:<8} {:>12} {:>9} {:>10} {:>8}  {:>10}",
+        "name", "speed °/h", "H m", "u(H) m", "G °", "u(G) °"
+    );
+    let mut shown: Vec<_> = an.fitted.iter().collect();
+    shown.sort_by(|x, y| y.amplitude_m.total_cmp(&x.amplitude_m));
+    for f in &shown {
+        let _ = writeln!(
+            w,
+            "  {:<8} {:>12.7} {:>9.4} {:>10.4} {:>8.2}  {:>10.2}{}",
+            f.constituent.name,
+            f.constituent.speed_deg_per_h,
+            f.amplitude_m,
+            f.u_amplitude_m,
+            f.phase_deg,
+            f.u_phase_deg,
+            f.inferred_from
+                .map(|(r, k)| format!("  inferred from {r} (×{k:.4})"))
+                .unwrap_or_default()
+        );
+    }
+    let _ = writeln!(
+        w,
+        "  residual RMS {:.4} m; variance explained {:.2} %; {} constituents fitted, {} inferred, {} left out by the Rayleigh criterion",
+        an.residual_rms_m,
+        100.0 * an.variance_explained,
+        an.fitted.iter().filter(|f| f.inferred_from.is_none()).count(),
+        an.fitted.iter().filter(|f| f.inferred_from.is_some()).count(),
+        an.left_out.len()
+    );
+    if let Some(ff) = an.form_factor() {
+        let _ = writeln!(
+            w,
+            "  form factor F = (K1 + O1)/(M2 + S2) = {ff:.3}: {}",
+            tide_type(ff)
+        );
+    }
+    let _ = writeln!(w, "wrote {}", o.written.display());
+    let _ = writeln!(w, "{CAUTION}");
+    EXIT_OK
+}
+
+fn cmd_predict(
+    constants: &Path,
+    from: &str,
+    to: &str,
+    step_min: f64,
+    out: Option<PathBuf>,
+    extremes: Option<PathBuf>,
+) -> i32 {
+    let run = || -> anyhow::Result<neap::run::harmonics::PredictOutcome> {
+        let t0 = parse_utc_arg(Some(from.to_string()), "from")?.unwrap_or(0.0);
+        let t1 = parse_utc_arg(Some(to.to_string()), "to")?.unwrap_or(0.0);
+        if !(step_min.is_finite() && step_min > 0.0) {
+            anyhow::bail!("--step-min: expected a positive number of minutes, found {step_min}");
+        }
+        let stem = constants
+            .file_name()
+            .map(|s| {
+                s.to_string_lossy()
+                    .trim_end_matches(".toml")
+                    .trim_end_matches(".constants")
+                    .to_string()
+            })
+            .unwrap_or_else(|| "tide".into());
+        let out = out.unwrap_or_else(|| PathBuf::from(format!("{stem}.prediction.csv")));
+        let ex = extremes.unwrap_or_else(|| PathBuf::from(format!("{stem}.extremes.csv")));
+        neap::run::harmonics::predict_file(constants, t0, t1, step_min * 60.0, &out, &ex)
+    };
+    match run() {
+        Ok(o) => {
+            let mut w = std::io::stdout().lock();
+            let highs = o.extremes.iter().filter(|e| e.high).count();
+            let _ = writeln!(
+                w,
+                "neap predict: {} values every {step_min} min from {from} to {to}, levels {}; {} high and {} low waters",
+                o.n,
+                o.levels.as_deref().unwrap_or("as in the constants file"),
+                highs,
+                o.extremes.len() - highs
+            );
+            if let (Some(lo), Some(hi)) = (
+                o.extremes
+                    .iter()
+                    .filter(|e| !e.high)
+                    .min_by(|a, b| a.height_m.total_cmp(&b.height_m)),
+                o.extremes
+                    .iter()
+                    .filter(|e| e.high)
+                    .max_by(|a, b| a.height_m.total_cmp(&b.height_m)),
+            ) {
+                let _ = writeln!(
+                    w,
+                    "  lowest low water {:.3} m at {}; highest high water {:.3} m at {}",
+                    lo.height_m,
+                    neap::compute::utc_label(lo.t_s.round()),
+                    hi.height_m,
+                    neap::compute::utc_label(hi.t_s.round())
+                );
+            }
+            for p in &o.written {
+                let _ = writeln!(w, "wrote {}", p.display());
+            }
+            let _ = writeln!(w, "{CAUTION}");
+            EXIT_OK
+        }
+        Err(e) => report_failure(e),
     }
 }
 

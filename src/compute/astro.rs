@@ -265,10 +265,15 @@ const fn con(
 use NodalFamily as F;
 
 /// The constituent table, in order of speed. Z0 (the mean level) is included with speed 0.
+/// Besides the constituents of the verified table, the shallow-water compounds OQ2, SO1, MKS2,
+/// MSN2, SO3, SN4, SK4, 2MO5, 2MK5, 2SK5, 2MN6, 2MK6, 2SM6, MSK6, 3MK7 are listed: each
+/// argument is the sum of its parents' (Doodson numbers and offsets added), each nodal correction
+/// the product of its parents' f and the sum of their u (S2 contributes f = 1, u = 0); speeds
+/// follow from the Doodson numbers (test `speeds_match_doodson_combination_and_table`).
 /// MO3 and 2MK3 share speed and argument (only their nodal corrections differ): an analysis
 /// should fit one of them, not both.
 #[rustfmt::skip]
-pub static CONSTITUENTS: [Constituent; 51] = [
+pub static CONSTITUENTS: [Constituent; 66] = [
     //  name      aliases            τ   s   h   p  N′  p₁  offset  speed °/h     Doodson    nodal family                                 CTE rel. M2
     con("Z0",     &[],               [0,  0,  0,  0, 0,  0],   0.0,  0.0,          "055.555", F::Unity,                                    Some(0.4978)),
     con("SA",     &[],               [0,  0,  1,  0, 0, -1],   0.0,  0.041_066_7,  "056.554", F::Unity,                                    Some(0.0078)),
@@ -293,33 +298,48 @@ pub static CONSTITUENTS: [Constituent; 51] = [
     con("PHI1",   &[],               [1,  1,  2,  0, 0,  0],  90.0, 15.123_205_9,  "167.555", F::Unity,                                    Some(0.0083)),
     con("THETA1", &["THE1"],         [1,  2, -2,  1, 0,  0],  90.0, 15.512_589_7,  "173.655", F::J1,                                       Some(0.0063)),
     con("J1",     &[],               [1,  2,  0, -1, 0,  0],  90.0, 15.585_443_3,  "175.455", F::J1,                                       Some(0.0326)),
+    con("SO1",    &[],               [1,  3, -2,  0, 0,  0],  90.0, 16.056_964_4,  "183.555", F::Compound(&[(F::O1, -1)]), None),
     con("OO1",    &[],               [1,  3,  0,  0, 0,  0],  90.0, 16.139_101_7,  "185.555", F::Oo1,                                      Some(0.0179)),
+    con("OQ2",    &[],               [2, -3,  0,  1, 0,  0], 180.0, 27.341_696_5,  "225.655", F::Compound(&[(F::O1, 2)]), None),
     con("EPS2",   &[],               [2, -3,  2,  1, 0,  0],   0.0, 27.423_833_8,  "227.655", F::M2,                                       Some(0.0074)),
     con("2N2",    &[],               [2, -2,  0,  2, 0,  0],   0.0, 27.895_354_8,  "235.755", F::M2,                                       Some(0.0253)),
     con("MU2",    &[],               [2, -2,  2,  0, 0,  0],   0.0, 27.968_208_5,  "237.555", F::M2,                                       Some(0.0306)),
     con("N2",     &[],               [2, -1,  0,  1, 0,  0],   0.0, 28.439_729_5,  "245.655", F::M2,                                       Some(0.1915)),
     con("NU2",    &[],               [2, -1,  2, -1, 0,  0],   0.0, 28.512_583_2,  "247.455", F::M2,                                       Some(0.0364)),
     con("M2",     &[],               [2,  0,  0,  0, 0,  0],   0.0, 28.984_104_2,  "255.555", F::M2,                                       Some(1.0)),
+    con("MKS2",   &[],               [2,  0,  2,  0, 0,  0],   0.0, 29.066_241_5,  "257.555", F::Compound(&[(F::M2, 1), (F::K2, 1)]), None),
     con("LAMBDA2",&["LDA2", "LAM2"], [2,  1, -2,  1, 0,  0], 180.0, 29.455_625_3,  "263.655", F::M2,                                       Some(0.0074)),
     con("L2",     &[],               [2,  1,  0, -1, 0,  0], 180.0, 29.528_478_9,  "265.455", F::L2,                                       Some(0.0283)),
     con("T2",     &[],               [2,  2, -3,  0, 0,  1],   0.0, 29.958_933_3,  "272.556", F::Unity,                                    Some(0.0272)),
     con("S2",     &[],               [2,  2, -2,  0, 0,  0],   0.0, 30.0,          "273.555", F::Unity,                                    Some(0.4652)),
     con("R2",     &[],               [2,  2, -1,  0, 0, -1], 180.0, 30.041_066_7,  "274.554", F::Unity,                                    Some(0.0039)),
     con("K2",     &[],               [2,  2,  0,  0, 0,  0],   0.0, 30.082_137_3,  "275.555", F::K2,                                       Some(0.1265)),
+    con("MSN2",   &[],               [2,  3, -2, -1, 0,  0],   0.0, 30.544_374_7,  "283.455", F::Compound(&[(F::M2, 1), (F::M2, -1)]), None),
     con("ETA2",   &[],               [2,  3,  0, -1, 0,  0],   0.0, 30.626_512_0,  "285.455", F::Eta2,                                     Some(0.0071)),
     con("2SM2",   &[],               [2,  4, -4,  0, 0,  0],   0.0, 31.015_895_8,  "291.555", F::Compound(M2_INVERSE),                     None),
     con("MO3",    &[],               [3, -1,  0,  0, 0,  0], 270.0, 42.927_139_8,  "345.555", F::Compound(&[(F::M2, 1), (F::O1, 1)]),     None),
     con("2MK3",   &[],               [3, -1,  0,  0, 0,  0], 270.0, 42.927_139_8,  "345.555", F::Compound(&[(F::M2, 2), (F::K1, -1)]),    None),
     con("M3",     &[],               [3,  0,  0,  0, 0,  0], 180.0, 43.476_156_4,  "355.555", F::M3,                                       Some(0.0121)),
+    con("SO3",    &[],               [3,  1, -2,  0, 0,  0], 270.0, 43.943_035_6,  "363.555", F::O1, None),
     con("MK3",    &[],               [3,  1,  0,  0, 0,  0],  90.0, 44.025_172_9,  "365.555", F::Compound(&[(F::M2, 1), (F::K1, 1)]),     None),
     con("SK3",    &[],               [3,  3, -2,  0, 0,  0],  90.0, 45.041_068_6,  "383.555", F::K1,                                       None),
     con("MN4",    &[],               [4, -1,  0,  1, 0,  0],   0.0, 57.423_833_8,  "445.655", F::Compound(M2_SQUARED),                     None),
     con("M4",     &[],               [4,  0,  0,  0, 0,  0],   0.0, 57.968_208_5,  "455.555", F::Compound(M2_SQUARED),                     None),
+    con("SN4",    &[],               [4,  1, -2,  1, 0,  0],   0.0, 58.439_729_5,  "463.655", F::M2, None),
     con("MS4",    &[],               [4,  2, -2,  0, 0,  0],   0.0, 58.984_104_2,  "473.555", F::Compound(M2_ONLY),                        None),
     con("MK4",    &[],               [4,  2,  0,  0, 0,  0],   0.0, 59.066_241_5,  "475.555", F::Compound(&[(F::M2, 1), (F::K2, 1)]),     None),
     con("S4",     &[],               [4,  4, -4,  0, 0,  0],   0.0, 60.0,          "491.555", F::Unity,                                    None),
+    con("SK4",    &[],               [4,  4, -2,  0, 0,  0],   0.0, 60.082_137_3,  "493.555", F::K2, None),
+    con("2MO5",   &[],               [5, -1,  0,  0, 0,  0], 270.0, 71.911_244_1,  "545.555", F::Compound(&[(F::M2, 2), (F::O1, 1)]), None),
+    con("2MK5",   &[],               [5,  1,  0,  0, 0,  0],  90.0, 73.009_277_1,  "565.555", F::Compound(&[(F::M2, 2), (F::K1, 1)]), None),
+    con("2SK5",   &[],               [5,  5, -4,  0, 0,  0],  90.0, 75.041_068_6,  "5X1.555", F::K1, None),
+    con("2MN6",   &[],               [6, -1,  0,  1, 0,  0],   0.0, 86.407_938_0,  "645.655", F::Compound(&[(F::M2, 3)]), None),
     con("M6",     &[],               [6,  0,  0,  0, 0,  0],   0.0, 86.952_312_7,  "655.555", F::Compound(&[(F::M2, 3)]),                  None),
     con("2MS6",   &[],               [6,  2, -2,  0, 0,  0],   0.0, 87.968_208_5,  "673.555", F::Compound(M2_SQUARED),                     None),
+    con("2MK6",   &[],               [6,  2,  0,  0, 0,  0],   0.0, 88.050_345_8,  "675.555", F::Compound(&[(F::M2, 2), (F::K2, 1)]), None),
+    con("2SM6",   &[],               [6,  4, -4,  0, 0,  0],   0.0, 88.984_104_2,  "691.555", F::Compound(M2_ONLY), None),
+    con("MSK6",   &[],               [6,  4, -2,  0, 0,  0],   0.0, 89.066_241_5,  "693.555", F::Compound(&[(F::M2, 1), (F::K2, 1)]), None),
+    con("3MK7",   &[],               [7,  1,  0,  0, 0,  0],  90.0, 101.993_381_4,  "765.555", F::Compound(&[(F::M2, 3), (F::K1, 1)]), None),
     con("M8",     &[],               [8,  0,  0,  0, 0,  0],   0.0, 115.936_417_0, "855.555", F::Compound(&[(F::M2, 4)]),                  None),
 ];
 
@@ -773,7 +793,8 @@ mod tests {
         assert!((speed_from_doodson_deg_per_h(s1) - 15.0).abs() < 1e-12);
     }
 
-    /// The tabulated Doodson number is a (b+5)(c+5).(d+5)(e+5)(f+5) of the coefficients.
+    /// The tabulated Doodson number is a (b+5)(c+5).(d+5)(e+5)(f+5) of the coefficients, with X
+    /// for 10 (common practice).
     #[test]
     fn doodson_numbers_match_coefficients() {
         for c in constituents() {
@@ -781,8 +802,12 @@ mod tests {
             let digits: Vec<String> = (0..6)
                 .map(|k| {
                     let v = if k == 0 { d[0] } else { d[k] + 5 };
-                    assert!((0..=9).contains(&v), "{}", c.name);
-                    v.to_string()
+                    assert!((0..=10).contains(&v), "{}", c.name);
+                    if v == 10 {
+                        "X".to_string()
+                    } else {
+                        v.to_string()
+                    }
                 })
                 .collect();
             let number = format!("{}.{}", digits[..3].concat(), digits[3..].concat());

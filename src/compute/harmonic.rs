@@ -566,9 +566,18 @@ pub struct Extreme {
 }
 
 /// High and low waters of the prediction on a grid: each local extremum of the grid values is
-/// refined by a parabola through it and its neighbours, then by Newton steps on the direct
-/// prediction's derivative (numerical, ±30 s).
+/// refined by Newton steps on the analytic derivative `dh/dt = −Σ f H ω sin(V + u − G)`, with `f`,
+/// `u` and the astronomical arguments evaluated once at the grid point and the phases advanced by
+/// `ω·δt` (exact to first order in δt ≤ one step; the error is far below a second).
 pub fn extremes(k: &HarmonicConstants, t0_s: f64, step_s: f64, heights_m: &[f64]) -> Vec<Extreme> {
+    let m = k.constituents.len();
+    let omega: Vec<f64> = k
+        .constituents
+        .iter()
+        .map(|(c, _, _)| c.speed_deg_per_h.to_radians() / 3600.0)
+        .collect();
+    let mut amp = vec![0.0; m];
+    let mut phase = vec![0.0; m];
     let mut out = Vec::new();
     for i in 1..heights_m.len().saturating_sub(1) {
         let (a, b, c) = (heights_m[i - 1], heights_m[i], heights_m[i + 1]);
@@ -577,31 +586,45 @@ pub fn extremes(k: &HarmonicConstants, t0_s: f64, step_s: f64, heights_m: &[f64]
         if !(high || low) {
             continue;
         }
+        let ti = t0_s + i as f64 * step_s;
+        let ast = astro_at(ti);
+        let o = nodal_args(&ast);
+        for (j, (con, h, g)) in k.constituents.iter().enumerate() {
+            let (f, u) = nodal_fu_with(con, &o);
+            amp[j] = f * h;
+            phase[j] = (equilibrium_argument_deg(con, &ast) + u - g).to_radians();
+        }
+        let eval = |dt: f64| {
+            let (mut h, mut d1, mut d2) = (k.z0_m, 0.0, 0.0);
+            for j in 0..m {
+                let (s, c) = (phase[j] + omega[j] * dt).sin_cos();
+                h += amp[j] * c;
+                d1 -= amp[j] * omega[j] * s;
+                d2 -= amp[j] * omega[j] * omega[j] * c;
+            }
+            (h, d1, d2)
+        };
+        // Start from the parabola through the three grid values.
         let den = a - 2.0 * b + c;
-        let off = if den != 0.0 {
-            (0.5 * (a - c) / den).clamp(-1.0, 1.0)
+        let mut dt = if den != 0.0 {
+            (0.5 * (a - c) / den).clamp(-1.0, 1.0) * step_s
         } else {
             0.0
         };
-        let mut t = t0_s + (i as f64 + off) * step_s;
-        // Newton on dh/dt with central differences (30 s): converges in a few steps.
-        let d = 30.0;
-        for _ in 0..4 {
-            let (hm, h0, hp) = (predict_at(k, t - d), predict_at(k, t), predict_at(k, t + d));
-            let d1 = (hp - hm) / (2.0 * d);
-            let d2 = (hp - 2.0 * h0 + hm) / (d * d);
+        for _ in 0..8 {
+            let (_, d1, d2) = eval(dt);
             if d2 == 0.0 {
                 break;
             }
-            let dt = (-d1 / d2).clamp(-step_s, step_s);
-            t += dt;
-            if dt.abs() < 0.01 {
+            let step = (-d1 / d2).clamp(-step_s, step_s);
+            dt = (dt + step).clamp(-step_s, step_s);
+            if step.abs() < 1e-3 {
                 break;
             }
         }
         out.push(Extreme {
-            t_s: t,
-            height_m: predict_at(k, t),
+            t_s: ti + dt,
+            height_m: eval(dt).0,
             high,
         });
     }

@@ -42,3 +42,43 @@ pub fn utc_label(t_s: f64) -> String {
         None => format!("{t_s} s since 1970"),
     }
 }
+
+/// Appends UTC seconds `t_s` (whole seconds) as `2026-06-14T09:30:00Z`; several times faster than
+/// [`utc_label`] for long regular series. Falls back to [`utc_label`] outside years 0–9999.
+pub fn push_utc_seconds(buf: &mut String, t_s: i64) {
+    use chrono::{Datelike, Timelike};
+    match chrono::DateTime::from_timestamp(t_s, 0) {
+        Some(dt) if (0..=9999).contains(&dt.year()) => {
+            let mut two = |v: u32, sep: Option<char>| {
+                buf.push(char::from(b'0' + (v / 10) as u8));
+                buf.push(char::from(b'0' + (v % 10) as u8));
+                if let Some(c) = sep {
+                    buf.push(c);
+                }
+            };
+            let y = dt.year() as u32;
+            two(y / 100, None);
+            two(y % 100, Some('-'));
+            two(dt.month(), Some('-'));
+            two(dt.day(), Some('T'));
+            two(dt.hour(), Some(':'));
+            two(dt.minute(), Some(':'));
+            two(dt.second(), Some('Z'));
+        }
+        _ => buf.push_str(&utc_label(t_s as f64)),
+    }
+}
+
+#[cfg(test)]
+mod label_tests {
+    use super::*;
+
+    #[test]
+    fn fast_label_matches_the_general_one() {
+        for t in [0i64, 1_781_400_600, 951_782_400, 4_102_444_799, -86_400] {
+            let mut s = String::new();
+            push_utc_seconds(&mut s, t);
+            assert_eq!(s, utc_label(t as f64));
+        }
+    }
+}

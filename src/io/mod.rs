@@ -9,11 +9,13 @@
 //! * [`correctors_file`] — tide-correction files (per zone, per sounding) and their sidecar.
 //! * [`crs`] — coordinate transformations (PROJ).
 //! * [`report_html`] — the QA report page (HTML + SVG).
+//! * [`constants`] — harmonic-constants files (TOML).
 //! * [`qc_svg`] — the plot of a gauge record with its QC flags (SVG).
 //! * [`atomic`] — output files written to a temporary name and renamed on success.
 //! * [`error`] — the positioned error type and validation findings.
 
 pub mod atomic;
+pub mod constants;
 pub mod correctors_file;
 pub mod crs;
 pub mod error;

@@ -6,11 +6,13 @@
 //! * [`reduce`] — the streaming, parallel reduction.
 //! * [`check`] — validation before a reduction.
 //! * [`correctors`] — tide-correction files with provenance, and applying them.
+//! * [`harmonics`] — harmonic analysis of a record into a constants file; prediction.
 //! * [`qc`] — gauge-record quality control and gauge-to-gauge comparison.
 //! * [`qa_report`] — the QA report of a reduction (survey orders, budgets, tide bands).
 
 pub mod check;
 pub mod correctors;
+pub mod harmonics;
 pub mod load;
 pub mod qa_report;
 pub mod qc;

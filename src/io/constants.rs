@@ -1,0 +1,334 @@
+//! Harmonic-constants files (TOML, layout `neap-harmonic-constants/1`).
+//!
+//! Written by `neap analyse`, read by `neap predict` and by a project's `[[gauge]] constants`.
+//! Layout (every length in metres, angles in degrees, times ISO 8601 UTC):
+//!
+//! ```toml
+//! format = "neap-harmonic-constants/1"
+//! source = "gauges/orlick.csv"      # the record analysed
+//! gauge = "orlick"                  # when analysed from a project
+//! levels = "above chart datum"      # or "above the record's zero"
+//! z0_m = 2.5123                     # mean level Z0
+//! u_z0_m = 0.0004                   # its standard uncertainty (1σ)
+//! record_start_utc = "2026-05-01T00:00:00Z"
+//! record_end_utc = "2026-05-30T23:00:00Z"
+//! samples = 720
+//! nodal = "per_sample"              # or "centre"
+//! rayleigh_factor = 1.0             # absent when the constituents were given
+//! residual_rms_m = 0.021
+//! variance_explained = 0.9987
+//! form_factor = 0.17
+//! tide_type = "semidiurnal"
+//! caution = "…"
+//!
+//! [[constituent]]
+//! name = "M2"
+//! speed_deg_per_h = 28.9841042
+//! amplitude_m = 1.2004              # H
+//! phase_deg = 110.12                # G, Greenwich phase lag (UTC)
+//! u_amplitude_m = 0.0011            # standard uncertainties (1σ)
+//! u_phase_deg = 0.05
+//! # inferred_from = "S2"            # for an inferred constituent, with
+//! # inference_ratio = 0.272         # its equilibrium amplitude ratio
+//! ```
+//!
+//! Reading checks every constituent name against the table of `compute::astro` and its speed
+//! against the table's (to 1e-6 °/h), so a file made with another definition of a constituent is
+//! refused rather than predicted wrongly.
+
+use std::path::Path;
+
+use serde::{Deserialize, Serialize};
+
+use super::error::{IoError, Position};
+use crate::compute::astro::constituent;
+use crate::compute::harmonic::{tide_type, Analysis, HarmonicConstants};
+
+/// Layout name.
+pub const CONSTANTS_FORMAT: &str = "neap-harmonic-constants/1";
+
+/// One constituent as written.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ConstituentEntry {
+    /// Name (upper case, as in the constituent table).
+    pub name: String,
+    /// Angular speed, degrees per hour.
+    pub speed_deg_per_h: f64,
+    /// Amplitude H, metres.
+    pub amplitude_m: f64,
+    /// Greenwich phase lag G, degrees.
+    pub phase_deg: f64,
+    /// Standard uncertainty of H, metres.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_amplitude_m: Option<f64>,
+    /// Standard uncertainty of G, degrees.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_phase_deg: Option<f64>,
+    /// Inferred from this constituent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inferred_from: Option<String>,
+    /// Equilibrium amplitude ratio used for the inference.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inference_ratio: Option<f64>,
+}
+
+/// A constants file as written.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ConstantsFile {
+    /// Layout name, [`CONSTANTS_FORMAT`].
+    pub format: String,
+    /// The record analysed.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub source: Option<String>,
+    /// The gauge id, when analysed from a project.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gauge: Option<String>,
+    /// What the levels are above.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub levels: Option<String>,
+    /// Mean level Z0, metres.
+    pub z0_m: f64,
+    /// Standard uncertainty of Z0, metres.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_z0_m: Option<f64>,
+    /// First sample analysed, UTC.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub record_start_utc: Option<String>,
+    /// Last sample analysed, UTC.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub record_end_utc: Option<String>,
+    /// Samples used.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub samples: Option<usize>,
+    /// `per_sample` or `centre`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub nodal: Option<String>,
+    /// Rayleigh factor, when the constituents were chosen automatically.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rayleigh_factor: Option<f64>,
+    /// Residual RMS, metres.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub residual_rms_m: Option<f64>,
+    /// Share of variance explained.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub variance_explained: Option<f64>,
+    /// Form factor (K1 + O1)/(M2 + S2).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub form_factor: Option<f64>,
+    /// Tide type from the form factor.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tide_type: Option<String>,
+    /// The caution.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub caution: Option<String>,
+    /// The constituents.
+    #[serde(rename = "constituent", default)]
+    pub constituents: Vec<ConstituentEntry>,
+}
+
+fn round(x: f64, d: i32) -> f64 {
+    let p = 10f64.powi(d);
+    (x * p).round() / p
+}
+
+impl ConstantsFile {
+    /// The file for an analysis. Amplitudes to 0.1 mm, phases to 0.01°.
+    pub fn from_analysis(
+        a: &Analysis,
+        source: Option<String>,
+        gauge: Option<String>,
+        levels: &str,
+    ) -> ConstantsFile {
+        let ff = a.form_factor();
+        ConstantsFile {
+            format: CONSTANTS_FORMAT.into(),
+            source,
+            gauge,
+            levels: Some(levels.into()),
+            z0_m: round(a.z0_m, 5),
+            u_z0_m: Some(round(a.u_z0_m, 6)),
+            record_start_utc: Some(crate::compute::utc_label(a.span_s.0)),
+            record_end_utc: Some(crate::compute::utc_label(a.span_s.1)),
+            samples: Some(a.n_samples),
+            nodal: Some(a.nodal.as_str().into()),
+            rayleigh_factor: a.rayleigh_factor,
+            residual_rms_m: Some(round(a.residual_rms_m, 5)),
+            variance_explained: Some(round(a.variance_explained, 6)),
+            form_factor: ff.map(|f| round(f, 4)),
+            tide_type: ff.map(|f| tide_type(f).to_string()),
+            caution: Some(crate::CAUTION.into()),
+            constituents: a
+                .fitted
+                .iter()
+                .map(|f| ConstituentEntry {
+                    name: f.constituent.name.into(),
+                    speed_deg_per_h: f.constituent.speed_deg_per_h,
+                    amplitude_m: round(f.amplitude_m, 5),
+                    phase_deg: round(f.phase_deg, 3),
+                    u_amplitude_m: Some(round(f.u_amplitude_m, 5)),
+                    u_phase_deg: Some(round(f.u_phase_deg, 3)),
+                    inferred_from: f.inferred_from.map(|x| x.0.to_string()),
+                    inference_ratio: f.inferred_from.map(|x| round(x.1, 4)),
+                })
+                .collect(),
+        }
+    }
+
+    /// TOML text.
+    pub fn to_toml(&self) -> String {
+        let mut s = String::from("# Harmonic constants written by neap analyse (layout described in docs/harmonics.md).\n");
+        s.push_str(&toml::to_string(self).expect("constants serialise"));
+        s
+    }
+
+    /// The constants for prediction, each name and speed checked against the table.
+    pub fn constants(&self, path: &Path) -> Result<HarmonicConstants, IoError> {
+        let at = |i: usize, f: &str| Position::file(path).field(format!("constituent[{i}].{f}"));
+        if !self.z0_m.is_finite() {
+            return Err(IoError::content(
+                Position::file(path).field("z0_m"),
+                "expected a finite number of metres",
+            ));
+        }
+        let mut out = Vec::new();
+        for (i, e) in self.constituents.iter().enumerate() {
+            let c = constituent(&e.name).ok_or_else(|| {
+                IoError::content(at(i, "name"), format!("unknown constituent '{}'", e.name))
+            })?;
+            if c.name == "Z0" {
+                return Err(IoError::content(
+                    at(i, "name"),
+                    "Z0 is given by z0_m, not as a constituent",
+                ));
+            }
+            if (e.speed_deg_per_h - c.speed_deg_per_h).abs() > 1e-6 {
+                return Err(IoError::content(
+                    at(i, "speed_deg_per_h"),
+                    format!(
+                        "{} °/h differs from {}'s speed in neap's table ({} °/h): the constant was made with another definition",
+                        e.speed_deg_per_h, c.name, c.speed_deg_per_h
+                    ),
+                ));
+            }
+            if !(e.amplitude_m.is_finite() && e.amplitude_m >= 0.0) {
+                return Err(IoError::content(
+                    at(i, "amplitude_m"),
+                    format!(
+                        "expected an amplitude ≥ 0 in metres, found {}",
+                        e.amplitude_m
+                    ),
+                ));
+            }
+            if !e.phase_deg.is_finite() {
+                return Err(IoError::content(
+                    at(i, "phase_deg"),
+                    "expected a finite number of degrees",
+                ));
+            }
+            if out
+                .iter()
+                .any(|(x, _, _): &(&Constituent, f64, f64)| x.name == c.name)
+            {
+                return Err(IoError::content(
+                    at(i, "name"),
+                    format!("{} is given twice", c.name),
+                ));
+            }
+            out.push((c, e.amplitude_m, e.phase_deg));
+        }
+        Ok(HarmonicConstants {
+            z0_m: self.z0_m,
+            constituents: out,
+        })
+    }
+}
+
+use crate::compute::astro::Constituent;
+
+/// Reads a constants file.
+pub fn read_constants(path: &Path) -> Result<(ConstantsFile, HarmonicConstants), IoError> {
+    let text = std::fs::read_to_string(path).map_err(|e| IoError::file(path, e))?;
+    let file: ConstantsFile = toml::from_str(&text).map_err(|e| {
+        let line = e
+            .span()
+            .map(|s| text[..s.start.min(text.len())].matches('\n').count() as u64 + 1);
+        let mut at = Position::file(path);
+        at.line = line;
+        IoError::content(at, e.message().to_string())
+    })?;
+    if file.format != CONSTANTS_FORMAT {
+        return Err(IoError::content(
+            Position::file(path).field("format"),
+            format!("expected '{CONSTANTS_FORMAT}', found '{}'", file.format),
+        ));
+    }
+    let k = file.constants(path)?;
+    Ok((file, k))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::compute::harmonic::{analyse, predict_grid, AnalysisSettings};
+
+    #[test]
+    fn written_constants_read_back_and_predict_the_same() {
+        let c = |n: &str| constituent(n).unwrap();
+        let k = HarmonicConstants {
+            z0_m: 1.5,
+            constituents: vec![
+                (c("M2"), 1.1, 33.0),
+                (c("S2"), 0.4, 70.0),
+                (c("K1"), 0.2, 190.0),
+            ],
+        };
+        let t0 = 1_780_000_000.0;
+        let h = predict_grid(&k, t0, 3600.0, 30 * 24);
+        let t: Vec<f64> = (0..h.len()).map(|i| t0 + 3600.0 * i as f64).collect();
+        let a = analyse(&t, &h, &AnalysisSettings::default()).unwrap();
+        let f = ConstantsFile::from_analysis(&a, Some("x.csv".into()), None, "above chart datum");
+        let text = f.to_toml();
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("k.toml");
+        std::fs::write(&p, &text).unwrap();
+        let (back, kk) = read_constants(&p).unwrap();
+        assert_eq!(back, f);
+        let before = predict_grid(&a.constants(), t0, 3600.0, h.len());
+        let again = predict_grid(&kk, t0, 3600.0, h.len());
+        // Written to 0.01 mm and 0.001°: the prediction agrees within 0.1 mm.
+        let worst = before
+            .iter()
+            .zip(&again)
+            .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+        assert!(worst < 1e-4, "{worst}");
+    }
+
+    #[test]
+    fn bad_files_are_refused_with_their_field() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("k.toml");
+        let write = |body: &str| std::fs::write(&p, body).unwrap();
+        write("format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"XX9\"\nspeed_deg_per_h = 1.0\namplitude_m = 0.1\nphase_deg = 0.0\n");
+        let e = read_constants(&p).unwrap_err().to_string();
+        assert!(
+            e.contains("constituent[0].name") && e.contains("unknown constituent 'XX9'"),
+            "{e}"
+        );
+        write("format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"SA\"\nspeed_deg_per_h = 0.0410686\namplitude_m = 0.1\nphase_deg = 0.0\n");
+        let e = read_constants(&p).unwrap_err().to_string();
+        assert!(
+            e.contains("speed_deg_per_h") && e.contains("another definition"),
+            "{e}"
+        );
+        write("format = \"other/1\"\nz0_m = 1.0\n");
+        assert!(read_constants(&p)
+            .unwrap_err()
+            .to_string()
+            .contains("field 'format'"));
+        write("format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\ncolour = 3\n");
+        let e = read_constants(&p).unwrap_err().to_string();
+        assert!(e.contains("k.toml:3"), "{e}");
+    }
+}
