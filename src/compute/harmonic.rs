@@ -315,6 +315,42 @@ pub fn analyse(
     heights_m: &[f64],
     settings: &AnalysisSettings,
 ) -> Result<Analysis, String> {
+    solve(&design(times_s, heights_m, settings)?)
+}
+
+/// The least-squares problem of an analysis: design matrix, observations and bookkeeping
+/// (the first half of [`analyse`], public so that its two halves can be timed apart).
+#[derive(Debug, Clone)]
+pub struct Design {
+    a: DMatrix<f64>,
+    y: Vec<f64>,
+    fitted_cons: Vec<&'static Constituent>,
+    inferences: Vec<Inference>,
+    inferred_of: Vec<Option<(usize, f64)>>,
+    left_out: Vec<(&'static str, String)>,
+    rayleigh: Option<f64>,
+    span_s: (f64, f64),
+    nodal: NodalMode,
+}
+
+impl Design {
+    /// Unknowns (1 + 2 × fitted constituents).
+    pub fn unknowns(&self) -> usize {
+        self.a.ncols()
+    }
+    /// Samples.
+    pub fn samples(&self) -> usize {
+        self.a.nrows()
+    }
+}
+
+/// Builds the least-squares problem: constituent choice, astronomical arguments and nodal
+/// corrections for every sample, the design matrix.
+pub fn design(
+    times_s: &[f64],
+    heights_m: &[f64],
+    settings: &AnalysisSettings,
+) -> Result<Design, String> {
     let (t, y): (Vec<f64>, Vec<f64>) = times_s
         .iter()
         .zip(heights_m)
@@ -398,14 +434,32 @@ pub fn analyse(
             a[(row, 2 + 2 * j)] = ss;
         }
     }
-    let yv = DVector::from_vec(y.clone());
+    Ok(Design {
+        a,
+        y,
+        fitted_cons,
+        inferences,
+        inferred_of,
+        left_out,
+        rayleigh,
+        span_s: (t_first, t_last),
+        nodal: settings.nodal,
+    })
+}
+
+/// Solves the least-squares problem: normal equations, Cholesky, residuals, uncertainties.
+pub fn solve(d: &Design) -> Result<Analysis, String> {
+    let (a, y, fitted_cons, inferences, inferred_of) =
+        (&d.a, &d.y, &d.fitted_cons, &d.inferences, &d.inferred_of);
+    let (n, p) = (a.nrows(), a.ncols());
+    let yv = DVector::from_column_slice(y);
     let ata = a.tr_mul(&a);
     let aty = a.tr_mul(&yv);
     let chol = ata
         .cholesky()
         .ok_or("the normal equations are singular: constituents too close for this record (check the Rayleigh factor or the list)")?;
     let x = chol.solve(&aty);
-    let resid = &yv - &a * &x;
+    let resid = &yv - a * &x;
     let rss = resid.norm_squared();
     let mean = y.iter().sum::<f64>() / n as f64;
     let tss: f64 = y.iter().map(|v| (v - mean) * (v - mean)).sum();
@@ -459,13 +513,13 @@ pub fn analyse(
         z0_m: x[0],
         u_z0_m: cov[(0, 0)].max(0.0).sqrt(),
         fitted,
-        left_out,
+        left_out: d.left_out.clone(),
         n_samples: n,
-        span_s: (t_first, t_last),
+        span_s: d.span_s,
         residual_rms_m: (rss / n as f64).sqrt(),
         variance_explained: if tss > 0.0 { 1.0 - rss / tss } else { 1.0 },
-        nodal: settings.nodal,
-        rayleigh_factor: rayleigh,
+        nodal: d.nodal,
+        rayleigh_factor: d.rayleigh,
     })
 }
 
