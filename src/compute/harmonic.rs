@@ -453,7 +453,7 @@ pub fn solve(d: &Design) -> Result<Analysis, String> {
         (&d.a, &d.y, &d.fitted_cons, &d.inferences, &d.inferred_of);
     let (n, p) = (a.nrows(), a.ncols());
     let yv = DVector::from_column_slice(y);
-    let ata = a.tr_mul(&a);
+    let ata = a.tr_mul(a);
     let aty = a.tr_mul(&yv);
     let chol = ata
         .cholesky()
