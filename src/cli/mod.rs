@@ -117,14 +117,10 @@ enum Command {
         /// With --record: units of the heights: m, ft or us_ft.
         #[arg(long, default_value = "m", requires = "record")]
         units: String,
-        /// With --record: height of the gauge zero above chart datum, metres.
-        #[arg(
-            long,
-            default_value_t = 0.0,
-            requires = "record",
-            allow_hyphen_values = true
-        )]
-        zero_above_datum_m: f64,
+        /// With --record: height of the gauge zero above chart datum, metres (levels are then
+        /// above chart datum; without it, above the record's zero).
+        #[arg(long, requires = "record", allow_hyphen_values = true)]
+        zero_above_datum_m: Option<f64>,
         /// Output folder (default: `<project output dir>/qc`, or `./qc` with --record).
         #[arg(long)]
         out: Option<PathBuf>,
@@ -706,9 +702,11 @@ fn cmd_qc_record(
     time_column: &str,
     height_column: &str,
     units: &str,
-    zero_above_datum_m: f64,
+    zero_above_datum_m: Option<f64>,
     out: Option<PathBuf>,
 ) -> i32 {
+    let zero_given = zero_above_datum_m.is_some();
+    let zero_above_datum_m = zero_above_datum_m.unwrap_or(0.0);
     let units = match units {
         "m" => neap::io::project::HeightUnit::Metre,
         "ft" => neap::io::project::HeightUnit::Foot,
@@ -736,6 +734,7 @@ fn cmd_qc_record(
         &spec,
         &r,
         &neap::io::project::QcSpec::default(),
+        zero_given,
         &out_dir,
     ) {
         Ok(summary) => print_qc(&summary),
@@ -748,12 +747,12 @@ fn print_qc(s: &neap::run::qc::QcSummary) -> i32 {
     for g in &s.gauges {
         let _ = writeln!(
             o,
-            "gauge {}: {} samples every {:.1} min, {} usable; robust noise σ {:.4} m; interpolation {}{}",
+            "gauge {}: {} samples every {:.1} min, {} usable; noise σ {:.4} m; interpolation {}{}",
             g.gauge,
             g.samples,
             g.method.nominal_step_min,
             g.usable,
-            g.robust_sigma_m,
+            g.noise_sigma_m,
             g.method.interpolation,
             g.method
                 .lowpass_cutoff_min
@@ -994,13 +993,23 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
     }
     let _ = writeln!(
         w,
-        "  residual RMS {:.4} m; variance explained {:.2} %; {} constituents fitted, {} inferred, {} left out by the Rayleigh criterion",
+        "  residual RMS {:.4} m; variance explained {:.2} %; {} constituents fitted, {} inferred, {} {}",
         an.residual_rms_m,
         100.0 * an.variance_explained,
         an.fitted.iter().filter(|f| f.inferred_from.is_none()).count(),
         an.fitted.iter().filter(|f| f.inferred_from.is_some()).count(),
-        an.left_out.len()
+        an.left_out.len(),
+        if an.rayleigh_factor.is_some() {
+            "candidates left out or inferred by the Rayleigh criterion"
+        } else {
+            "notes on the given list"
+        }
     );
+    if an.rayleigh_factor.is_none() {
+        for (name, why) in &an.left_out {
+            let _ = writeln!(w, "  note: {name} {why}");
+        }
+    }
     if let Some(ff) = an.form_factor() {
         let _ = writeln!(
             w,

@@ -16,7 +16,8 @@
 //!   means `b`'s tide reaches the place later than the zoning says (or `a`'s clock runs late);
 //! * step: the largest step in `d`, with the level-shift statistic of [`super::qc`].
 //!
-//! A pair is flagged when |mean|, |drift| or |best lag| exceed their limits, or a step is found.
+//! A pair is flagged when |mean|, |drift| (over at least three days) or |best lag| exceed their
+//! limits, or a step is found.
 //!
 //! # References
 //! Comparing simultaneous records of neighbouring gauges through the zoning's correctors to find
@@ -240,7 +241,9 @@ pub fn compare(
             s.max_mean_m
         ));
     }
-    if drift_m_per_day.abs() > s.max_drift_m_per_day {
+    // A drift over less than three days is mostly tidal misfit: reported, not flagged.
+    let span_days = (t_ok[t_ok.len() - 1] - t_ok[0]) / 86400.0;
+    if drift_m_per_day.abs() > s.max_drift_m_per_day && span_days >= 3.0 {
         findings.push(format!(
             "drift {drift_m_per_day:+.4} m/day exceeds ±{:.4} m/day: a sensor drifting or settling",
             s.max_drift_m_per_day

@@ -219,7 +219,8 @@ pub struct Analysis {
     pub u_z0_m: f64,
     /// Constituents, fitted and inferred, in order of speed.
     pub fitted: Vec<Fitted>,
-    /// Candidates left out, with the reason.
+    /// Candidates left out or inferred, and (for a given list) pairs the record does not
+    /// separate, with the reason.
     pub left_out: Vec<(&'static str, String)>,
     /// Samples used.
     pub n_samples: usize,
@@ -381,7 +382,50 @@ pub fn design(
                 v.push(c);
             }
             v.sort_by(|a, b| a.speed_deg_per_h.total_cmp(&b.speed_deg_per_h));
-            (v, Vec::new(), Vec::new(), None)
+            // Pairs of the list the record cannot separate: a warning (the fit may still work).
+            let need = settings.rayleigh_factor * 360.0 / length_h.max(1e-9);
+            let mut notes = Vec::new();
+            for (x, a) in v.iter().enumerate() {
+                for b in &v[x + 1..] {
+                    let d = (a.speed_deg_per_h - b.speed_deg_per_h).abs();
+                    if d < need {
+                        notes.push((
+                            b.name,
+                            format!(
+                                "given with {} although {:.1} days do not separate them (needs {:.1}): their constants are unreliable",
+                                a.name,
+                                length_h / 24.0,
+                                settings.rayleigh_factor * 360.0 / d / 24.0
+                            ),
+                        ));
+                    }
+                }
+            }
+            // Inference of an unlisted partner of a listed reference, when unresolved.
+            let mut inf = Vec::new();
+            if settings.infer {
+                for (i, r) in INFERENCE_PAIRS {
+                    let (Some(ci), Some(cr)) = (constituent(i), constituent(r)) else {
+                        continue;
+                    };
+                    let listed = |c: &Constituent| v.iter().any(|x| x.name == c.name);
+                    let separable = (ci.speed_deg_per_h - cr.speed_deg_per_h).abs() >= need;
+                    if !listed(ci) && listed(cr) && !separable {
+                        if let Some(ratio) = equilibrium_ratio(ci, cr) {
+                            inf.push(Inference {
+                                inferred: ci,
+                                reference: cr,
+                                ratio,
+                            });
+                            notes.push((
+                                ci.name,
+                                format!("inferred from {} (ratio {ratio:.4})", cr.name),
+                            ));
+                        }
+                    }
+                }
+            }
+            (v, inf, notes, None)
         }
         None => {
             let (c, i, l) = select_constituents(length_h, settings.rayleigh_factor, settings.infer);

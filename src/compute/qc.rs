@@ -195,6 +195,10 @@ pub struct QcThresholds {
     pub shift_k: f64,
     /// Smallest step called a level shift, metres (default 0.05).
     pub shift_min_m: f64,
+    /// A level shift sets aside the record after it (until a step back, or the next step, or the
+    /// record's end) rather than only its first sample (default true: the gauge's datum there is
+    /// in doubt until re-levelled; common practice).
+    pub shift_sets_aside_after: bool,
     /// Lowest plausible level above chart datum, metres (the loader's default is the gauge's mean
     /// level − 10 m: no tide plus surge reaches 10 m from mean level; from memory).
     pub band_min_m: f64,
@@ -216,6 +220,7 @@ impl Default for QcThresholds {
             shift_window_min: 120.0,
             shift_k: 8.0,
             shift_min_m: 0.05,
+            shift_sets_aside_after: true,
             band_min_m: f64::NEG_INFINITY,
             band_max_m: f64::INFINITY,
         }
@@ -244,6 +249,9 @@ pub struct QcResult {
     pub nominal_step_s: f64,
     /// Robust standard deviation of the spike test's residual, metres.
     pub robust_sigma_m: f64,
+    /// Noise of the readings (robust, from second differences of consecutive clean samples),
+    /// metres.
+    pub noise_sigma_m: f64,
     /// Samples per flag, [`QcFlag::ALL`] order.
     pub counts: [usize; N_FLAGS],
 }
@@ -328,11 +336,11 @@ pub fn step_window_samples(window_min: f64, step_s: f64) -> usize {
 /// Residual of each sample in `idx` from its neighbours in `idx`.
 ///
 /// Two predictions of the sample are made, each by extrapolating a least-squares line through
-/// up to `hw` neighbours on one side (a side stops at a gap: an interval longer than
-/// `max_step_s`); the residual is the one of smaller magnitude. A spike is far from both sides; a
-/// sample next to a step or a removed outlier agrees with at least one side, so steps and
-/// neighbours of spikes do not raise alarms. A side needs at least 2 samples; with one side only,
-/// that side decides; with none, the residual is NaN (the rate test still sees the sample).
+/// up to `hw` neighbours on one side (a side stops at a hole longer than `max_step_s`); the
+/// residual is the one of smaller magnitude. A spike is far from both sides; a sample next to a
+/// step or a removed outlier agrees with at least one side, so steps and neighbours of spikes do
+/// not raise alarms. A side needs at least 2 samples; with one side only, that side decides; with
+/// none, the residual is NaN (the rate test still sees the sample).
 fn one_sided_residuals(
     t: &[f64],
     h: &[f64],
@@ -340,44 +348,58 @@ fn one_sided_residuals(
     hw: usize,
     max_step_s: f64,
 ) -> Vec<f64> {
-    let n = idx.len();
-    let mut out = vec![f64::NAN; n];
-    let predict = |k: usize, side: &[usize]| -> Option<f64> {
-        if side.len() < 2 {
-            return None;
-        }
-        let tk = t[idx[k]];
-        Some(line_at_zero(
-            side.iter().map(|&i| (t[i] - tk) / 3600.0),
-            side.iter().map(|&i| h[i]),
-        ))
-    };
-    for k in 0..n {
-        // Extend each side up to hw samples, stopping at a gap.
-        let mut a = k;
-        while a > 0 && k - a < hw && t[idx[a]] - t[idx[a - 1]] <= max_step_s {
-            a -= 1;
-        }
-        let mut b = k;
-        while b + 1 < n && b - k < hw && t[idx[b + 1]] - t[idx[b]] <= max_step_s {
-            b += 1;
-        }
-        let hk = h[idx[k]];
-        let left = predict(k, &idx[a..k]).map(|p| hk - p);
-        let right = predict(k, &idx[k + 1..=b]).map(|p| hk - p);
-        out[k] = match (left, right) {
-            (Some(l), Some(r)) => {
-                if l.abs() <= r.abs() {
-                    l
-                } else {
-                    r
-                }
-            }
-            (Some(v), None) | (None, Some(v)) => v,
-            (None, None) => f64::NAN,
-        };
+    (0..idx.len())
+        .map(|k| residual_between(t, h, idx[k], &idx[..k], &idx[k + 1..], hw, max_step_s))
+        .collect()
+}
+
+/// The residual of sample `i` from the samples `before` (ascending, ending just before it) and
+/// `after` (ascending, starting just after it), as in [`one_sided_residuals`].
+fn residual_between(
+    t: &[f64],
+    h: &[f64],
+    i: usize,
+    before: &[usize],
+    after: &[usize],
+    hw: usize,
+    max_step_s: f64,
+) -> f64 {
+    let tk = t[i];
+    // Up to hw samples each side, stopping at a hole.
+    let mut a = before.len();
+    let mut prev_t = tk;
+    while a > 0 && before.len() - a < hw && prev_t - t[before[a - 1]] <= max_step_s {
+        a -= 1;
+        prev_t = t[before[a]];
     }
-    out
+    let mut b = 0;
+    let mut prev_t = tk;
+    while b < after.len() && b < hw && t[after[b]] - prev_t <= max_step_s {
+        prev_t = t[after[b]];
+        b += 1;
+    }
+    let predict = |side: &[usize]| -> Option<f64> {
+        (side.len() >= 2).then(|| {
+            line_at_zero(
+                side.iter().map(|&q| (t[q] - tk) / 3600.0),
+                side.iter().map(|&q| h[q]),
+            )
+        })
+    };
+    let hk = h[i];
+    let left = predict(&before[a..]).map(|p| hk - p);
+    let right = predict(&after[..b]).map(|p| hk - p);
+    match (left, right) {
+        (Some(l), Some(r)) => {
+            if l.abs() <= r.abs() {
+                l
+            } else {
+                r
+            }
+        }
+        (Some(v), None) | (None, Some(v)) => v,
+        (None, None) => f64::NAN,
+    }
 }
 
 /// Runs every test on a record given in file order.
@@ -392,28 +414,48 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         notes: Vec::new(),
     };
 
-    // 1. Time order.
-    let mut ordered = Vec::with_capacity(n);
-    let mut latest = f64::NEG_INFINITY;
-    for (i, &t) in times_s.iter().enumerate() {
-        if t > latest {
-            ordered.push(i);
-            latest = t;
-        } else if t == latest {
-            fl.flag(
-                i,
-                QcFlag::DuplicateTime,
-                format!("time equals that of an earlier sample ({})", label(t)),
-            );
-        } else {
-            fl.flag(
-                i,
-                QcFlag::TimeOrder,
-                format!(
-                    "time is {:.1} min earlier than the latest time before it",
-                    (latest - t) / 60.0
-                ),
-            );
+    // 1. Time order: keep the longest run of strictly increasing times (in file order) and flag
+    // the rest, so that one mistyped time is blamed alone instead of everything after it.
+    let ordered = longest_increasing(times_s);
+    {
+        let mut keep = vec![false; n];
+        for &i in &ordered {
+            keep[i] = true;
+        }
+        for i in 0..n {
+            if keep[i] || !times_s[i].is_finite() {
+                continue;
+            }
+            let t = times_s[i];
+            // The kept samples around position i in file order.
+            let k = ordered.partition_point(|&q| q < i);
+            let before = k.checked_sub(1).map(|q| times_s[ordered[q]]);
+            let after = ordered.get(k).map(|&q| times_s[q]);
+            let dup = ordered
+                .binary_search_by(|&q| times_s[q].total_cmp(&t))
+                .is_ok();
+            if dup {
+                fl.flag(
+                    i,
+                    QcFlag::DuplicateTime,
+                    format!("time equals that of another sample ({})", label(t)),
+                );
+            } else {
+                let why = match (before, after) {
+                    (Some(b), _) if t < b => format!(
+                        "time {} is {:.1} min earlier than the sample before it",
+                        label(t),
+                        (b - t) / 60.0
+                    ),
+                    (_, Some(a)) if t > a => format!(
+                        "time {} is {:.1} min later than the sample after it",
+                        label(t),
+                        (t - a) / 60.0
+                    ),
+                    _ => format!("time {} is out of order", label(t)),
+                };
+                fl.flag(i, QcFlag::TimeOrder, why);
+            }
         }
     }
     let mut steps: Vec<f64> = ordered
@@ -489,21 +531,43 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     }
     clean.retain(|&i| fl.flags[i].usable());
 
-    // 4. Spikes.
+    // 4. Spikes. Sides may bridge one missing reading (2.5 steps).
     let hw = half_width(th.spike_window_min, nominal_step_s, 2);
-    let resid = one_sided_residuals(
-        times_s,
-        heights_m,
-        &clean,
-        hw,
-        th.gap_factor * nominal_step_s,
-    );
+    let side_step_s = (th.gap_factor.max(2.5)) * nominal_step_s;
+    let resid = one_sided_residuals(times_s, heights_m, &clean, hw, side_step_s);
     let robust_sigma_m = robust_sigma(resid.iter().copied().filter(|r| r.is_finite()));
     let spike_limit = (th.spike_k * robust_sigma_m).max(th.spike_min_m);
-    for (k, &r) in resid.iter().enumerate() {
+    // Second look at each candidate with the other candidates left out of its neighbours, so
+    // that a sample is not blamed for a spike next to it.
+    let candidates: Vec<usize> = (0..clean.len())
+        .filter(|&k| resid[k].abs() > spike_limit)
+        .collect();
+    let others: Vec<usize> = {
+        let mut is_cand = vec![false; clean.len()];
+        for &k in &candidates {
+            is_cand[k] = true;
+        }
+        (0..clean.len())
+            .filter(|&k| !is_cand[k])
+            .map(|k| clean[k])
+            .collect()
+    };
+    for &k in &candidates {
+        let i = clean[k];
+        let p = others.partition_point(|&q| times_s[q] < times_s[i]);
+        let r = residual_between(
+            times_s,
+            heights_m,
+            i,
+            &others[..p],
+            &others[p..],
+            hw,
+            side_step_s,
+        );
+        let r = if r.is_nan() { resid[k] } else { r };
         if r.abs() > spike_limit {
             fl.flag(
-                clean[k],
+                i,
                 QcFlag::Spike,
                 format!(
                     "{r:+.3} m from the level predicted by its neighbours ({:.1} robust σ of {:.4} m; limit {spike_limit:.3} m)",
@@ -519,44 +583,52 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     level_shifts(times_s, heights_m, &clean, nominal_step_s, th, &mut fl);
     clean.retain(|&i| fl.flags[i].usable());
 
+    // Noise of the readings, from second differences of consecutive clean samples:
+    // var(h[i+1] − 2h[i] + h[i−1]) = 6σ² for white noise; the tide's curvature adds little at
+    // minute steps.
+    let noise_sigma_m = robust_sigma(
+        clean
+            .windows(3)
+            .map(|w| heights_m[w[2]] - 2.0 * heights_m[w[1]] + heights_m[w[0]]),
+    ) / 6f64.sqrt();
+
     // 6. Rate.
-    let resid = one_sided_residuals(
-        times_s,
-        heights_m,
-        &clean,
-        hw,
-        th.gap_factor * nominal_step_s,
-    );
-    let mut k = 1;
-    while k < clean.len() {
-        let (a, b) = (clean[k - 1], clean[k]);
+    let resid = one_sided_residuals(times_s, heights_m, &clean, hw, side_step_s);
+    // The allowance grows with the record's noise: two readings differ by noise alone by up to
+    // about 6·√2·σ (a chance of 2e-9 per pair for Gaussian noise).
+    let allowance = th
+        .rate_allowance_m
+        .max(6.0 * std::f64::consts::SQRT_2 * noise_sigma_m);
+    let score = |r: f64| if r.is_nan() { f64::INFINITY } else { r.abs() };
+    let mut last_kept = 0usize; // position in `clean` of the last sample not flagged
+    for k in 1..clean.len() {
+        let (a, b) = (clean[last_kept], clean[k]);
         let dt_h = (times_s[b] - times_s[a]) / 3600.0;
         let dh = heights_m[b] - heights_m[a];
-        let allowed = th.max_rate_m_per_h * dt_h + th.rate_allowance_m;
-        if dh.abs() > allowed {
-            // An end sample has no residual (NaN): it is the suspect.
-            let score = |r: f64| if r.is_nan() { f64::INFINITY } else { r.abs() };
-            let (pick, other) = if score(resid[k]) >= score(resid[k - 1]) {
-                (b, a)
-            } else {
-                (a, b)
-            };
-            fl.flag(
-                pick,
-                QcFlag::Rate,
-                format!(
-                    "{:+.3} m in {:.1} min to/from {} ({:.2} m/h; limit {:.2} m/h + {:.3} m)",
-                    dh,
-                    dt_h * 60.0,
-                    label(times_s[other]),
-                    dh.abs() / dt_h,
-                    th.max_rate_m_per_h,
-                    th.rate_allowance_m
-                ),
-            );
-            k += 2;
-        } else {
-            k += 1;
+        let allowed = th.max_rate_m_per_h * dt_h + allowance;
+        if dh.abs() <= allowed {
+            last_kept = k;
+            continue;
+        }
+        // The one of the pair with the larger spike residual is the suspect (an end sample,
+        // with no residual, is).
+        let b_suspect = score(resid[k]) >= score(resid[last_kept]);
+        let (pick, other) = if b_suspect { (b, a) } else { (a, b) };
+        fl.flag(
+            pick,
+            QcFlag::Rate,
+            format!(
+                "{:+.3} m in {:.1} min to/from {} ({:.2} m/h; limit {:.2} m/h + {:.3} m)",
+                dh,
+                dt_h * 60.0,
+                label(times_s[other]),
+                dh.abs() / dt_h,
+                th.max_rate_m_per_h,
+                allowance
+            ),
+        );
+        if !b_suspect {
+            last_kept = k;
         }
     }
 
@@ -572,8 +644,42 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         notes: fl.notes,
         nominal_step_s,
         robust_sigma_m,
+        noise_sigma_m,
         counts,
     }
+}
+
+/// Indices (in file order) of a longest strictly increasing subsequence of `t` (patience
+/// sorting, O(n log n)); non-finite times are never kept.
+fn longest_increasing(t: &[f64]) -> Vec<usize> {
+    // Built from the end of the file backwards as a longest decreasing run, so that among runs
+    // of equal length the one keeping the earlier samples wins (a fault is usually a later
+    // sample going back), and of repeated times the first in the file stays.
+    let mut tails: Vec<usize> = Vec::new(); // by run length: the latest-in-time start found
+    let mut next = vec![usize::MAX; t.len()];
+    for i in (0..t.len()).rev() {
+        let x = t[i];
+        if !x.is_finite() {
+            continue;
+        }
+        // Runs (read forwards) starting after i must start later than x.
+        let pos = tails.partition_point(|&j| t[j] > x);
+        if pos > 0 {
+            next[i] = tails[pos - 1];
+        }
+        if pos == tails.len() {
+            tails.push(i);
+        } else {
+            tails[pos] = i;
+        }
+    }
+    let mut out = Vec::with_capacity(tails.len());
+    let mut cur = tails.last().copied();
+    while let Some(i) = cur {
+        out.push(i);
+        cur = (next[i] != usize::MAX).then(|| next[i]);
+    }
+    out
 }
 
 fn label(t_s: f64) -> String {
@@ -664,12 +770,14 @@ pub fn step_statistic(
             None => return out,
         }
     };
-    let tol = 0.01 * nominal_step_s;
+    let tol = 0.05 * nominal_step_s;
     let max_junction = (window_min * 60.0).max(nominal_step_s);
-    // gaps_before[k]: intervals longer than 1.5 nominal steps among clean[0..=k].
+    // gaps_before[k]: holes longer than a quarter of the window among clean[0..=k]. Shorter
+    // holes (a missing reading, a removed spike) are handled by the irregular fit.
+    let max_hole_s = (window_min * 60.0 / 4.0).max(1.5 * nominal_step_s);
     let mut gaps_before = vec![0usize; m];
     for k in 1..m {
-        let long = times_s[clean[k]] - times_s[clean[k - 1]] > 1.5 * nominal_step_s;
+        let long = times_s[clean[k]] - times_s[clean[k - 1]] > max_hole_s;
         gaps_before[k] = gaps_before[k - 1] + usize::from(long);
     }
     let mut xs = Vec::with_capacity(2 * l);
@@ -719,21 +827,66 @@ fn level_shifts(
         th.shift_window_min,
     );
     let reach = step_window_samples(th.shift_window_min, nominal_step_s);
-    for st in find_steps(&j, reach, th.shift_k, th.shift_min_m) {
-        let k = st.junction;
-        fl.flag(
-            clean[k],
-            QcFlag::LevelShift,
-            format!(
-                "step of {:+.3} m between {} and {} (cubic plus step fitted over {:.0} min each side; limit {:.3} m, robust σ {:.4} m)",
-                j[k],
-                label(times_s[clean[k - 1]]),
-                label(times_s[clean[k]]),
-                th.shift_window_min,
-                st.limit_m,
-                st.sigma_m
-            ),
+    let mut found = find_steps(&j, reach, th.shift_k, th.shift_min_m);
+    // A step's shoulders and side lobes can pass the limit too: within a window of a stronger
+    // step, keep a weaker one only when it is a step back (opposite sign, at least half as
+    // large: the end of a temporary offset).
+    found.sort_by(|a, b| j[b.junction].abs().total_cmp(&j[a.junction].abs()));
+    let mut steps: Vec<FoundStep> = Vec::new();
+    for f in found {
+        let shoulder = steps.iter().any(|s| {
+            let (js, jf) = (j[s.junction], j[f.junction]);
+            s.junction.abs_diff(f.junction) <= reach && (js * jf > 0.0 || jf.abs() < 0.5 * js.abs())
+        });
+        if !shoulder {
+            steps.push(f);
+        }
+    }
+    steps.sort_by_key(|f| f.junction);
+    let m = clean.len();
+    let mut i = 0;
+    while i < steps.len() {
+        let k1 = steps[i].junction;
+        let j1 = j[k1];
+        let stats = format!(
+            "cubic plus step fitted over {:.0} min each side; limit {:.3} m, robust σ {:.4} m",
+            th.shift_window_min, steps[i].limit_m, steps[i].sigma_m
         );
+        // A later step of opposite sign and similar size ends a temporary offset.
+        let back = steps.get(i + 1).filter(|s2| {
+            let j2 = j[s2.junction];
+            j1 * j2 < 0.0 && (j1 + j2).abs() < 0.5 * j1.abs().max(j2.abs())
+        });
+        let (end, detail) = match back {
+            Some(s2) => (
+                s2.junction,
+                format!(
+                    "offset of {j1:+.3} m from {} until {} ({stats})",
+                    label(times_s[clean[k1]]),
+                    label(times_s[clean[s2.junction]])
+                ),
+            ),
+            None if th.shift_sets_aside_after => (
+                steps.get(i + 1).map_or(m, |s2| s2.junction),
+                format!(
+                    "step of {j1:+.3} m between {} and {}: the record after it is set aside until the level is confirmed ({stats})",
+                    label(times_s[clean[k1 - 1]]),
+                    label(times_s[clean[k1]])
+                ),
+            ),
+            None => (
+                k1 + 1,
+                format!(
+                    "step of {j1:+.3} m between {} and {} ({stats})",
+                    label(times_s[clean[k1 - 1]]),
+                    label(times_s[clean[k1]])
+                ),
+            ),
+        };
+        for &idx in &clean[k1..end] {
+            fl.flag(idx, QcFlag::LevelShift, detail.clone());
+        }
+        i += if back.is_some() { 2 } else { 1 };
     }
 }
 
@@ -777,11 +930,21 @@ pub fn find_steps(j: &[f64], reach: usize, k: f64, min_m: f64) -> Vec<FoundStep>
             sigma_m: sigma,
             limit_m: limit,
         });
-        for flag in near_step
-            .iter_mut()
-            .take((kmax + reach + 1).min(m))
-            .skip(kmax.saturating_sub(reach))
-        {
+        // Hide the step's own hill: the junctions around it where J keeps its sign and stays
+        // above a fifth of its peak (at most a window each side). A step back (a temporary
+        // offset) has the opposite sign and stays visible however close it is.
+        let peak = j[kmax];
+        let same =
+            |q: usize| j[q].is_finite() && j[q] * peak > 0.0 && j[q].abs() > 0.2 * peak.abs();
+        let mut lo = kmax;
+        while lo > 0 && kmax - lo < reach && same(lo - 1) {
+            lo -= 1;
+        }
+        let mut hi = kmax;
+        while hi + 1 < m && hi - kmax < reach && same(hi + 1) {
+            hi += 1;
+        }
+        for flag in &mut near_step[lo..=hi] {
             *flag = true;
         }
     }
@@ -875,7 +1038,10 @@ mod tests {
             r.flagged(QcFlag::FlatLine),
             (2001..2016).collect::<Vec<_>>()
         );
-        assert_eq!(r.flagged(QcFlag::LevelShift), vec![3000]);
+        // The shift persists to the end: everything from its first sample on is set aside.
+        let ls = r.flagged(QcFlag::LevelShift);
+        assert_eq!(ls.first(), Some(&3000), "{} flagged", ls.len());
+        assert!((3000..t.len()).all(|i| ls.contains(&i) || !r.flags[i].usable()));
         assert_eq!(r.flagged(QcFlag::OutOfBand), vec![4000]);
         // The gap, and the 12-min holes left where the duplicated and the backward times were
         // taken out of the timeline (1.5 × the 6-min step is 9 min).
@@ -886,7 +1052,6 @@ mod tests {
         assert_eq!(r.count(QcFlag::Rate), 0, "{:?}", r.notes);
         assert!(r.notes_of(500)[0].detail.contains("neighbours"));
         assert!(r.flags[3000].blocks_interpolation());
-        assert!(r.flags[4501].usable());
     }
 
     #[test]
@@ -912,7 +1077,65 @@ mod tests {
             *x += 0.08;
         }
         let r = run_qc(&t, &h, &th());
-        assert_eq!(r.flagged(QcFlag::LevelShift), vec![1234], "{:?}", r.notes);
+        let ls = r.flagged(QcFlag::LevelShift);
+        assert_eq!(ls.first(), Some(&1234), "{:?}", r.notes.first());
+        assert_eq!(ls.len(), t.len() - 1234);
+    }
+
+    #[test]
+    fn faults_close_together_are_each_found() {
+        // A temporary offset of +0.20 m for 60 min (10 samples): every offset sample, and only
+        // those, is set aside.
+        let (t, mut h) = record(360.0, 10.0, 0.01, 21);
+        for x in &mut h[1000..1010] {
+            *x += 0.20;
+        }
+        let r = run_qc(&t, &h, &th());
+        assert_eq!(
+            r.flagged(QcFlag::LevelShift),
+            (1000..1010).collect::<Vec<_>>()
+        );
+        // A spike five samples before a +0.12 m step and one missing reading ten samples before
+        // it: the spike and the step are both found at their samples.
+        let (mut t, mut h) = record(360.0, 10.0, 0.01, 22);
+        for x in h.iter_mut().skip(2000) {
+            *x += 0.12;
+        }
+        h[1995] += 0.4;
+        t.remove(1990);
+        h.remove(1990);
+        let r = run_qc(&t, &h, &th());
+        assert_eq!(r.flagged(QcFlag::Spike), vec![1994]);
+        assert_eq!(r.flagged(QcFlag::LevelShift).first(), Some(&1999));
+        // One timestamp typed a day and two minutes late: only that sample is blamed (a day
+        // exactly would land on another sample's time and be flagged duplicate_time).
+        let (mut t, h) = record(360.0, 5.0, 0.01, 23);
+        t[500] += 86_520.0;
+        let r = run_qc(&t, &h, &th());
+        assert_eq!(r.flagged(QcFlag::TimeOrder), vec![500]);
+        assert!(r.notes_of(500)[0]
+            .detail
+            .contains("later than the sample after it"));
+    }
+
+    #[test]
+    fn noisy_one_minute_records_raise_no_rate_alarm() {
+        // 1-min records with 2 and 3 cm white noise, and with a 5 cm seiche of 5-min period on
+        // 1 cm noise (an exposed gauge; common practice): no sample is set aside.
+        use std::f64::consts::PI;
+        for (sd, seiche, seed) in [(0.02, 0.0, 31), (0.03, 0.0, 32), (0.01, 0.05, 33)] {
+            let (t, mut h) = record(60.0, 20.0, sd, seed);
+            for (x, tt) in h.iter_mut().zip(&t) {
+                *x += seiche * (2.0 * PI * tt / 300.0).sin();
+            }
+            let r = run_qc(&t, &h, &th());
+            assert_eq!(
+                r.usable_count(),
+                t.len(),
+                "σ {sd}, seiche {seiche}: {:?}",
+                r.notes.first()
+            );
+        }
     }
 
     #[test]

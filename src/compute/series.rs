@@ -140,9 +140,19 @@ impl LevelSeries {
         let first = self.times_s[0];
         let last = self.times_s[n - 1];
         if t_s < first {
+            // Samples set aside before the first usable one: their span is flagged, not absent.
+            // (the record goes on there, set aside: the tide would rest on it).
+            let k = self.flagged_times_s.partition_point(|&f| f < first);
+            if let Some(&f) = k.checked_sub(1).map(|k| &self.flagged_times_s[k]) {
+                return Err(NoLevel::Flagged { at_s: f });
+            }
             return Err(NoLevel::BeforeRecord { by_s: first - t_s });
         }
         if t_s > last {
+            let k = self.flagged_times_s.partition_point(|&f| f <= last);
+            if let Some(&f) = self.flagged_times_s.get(k) {
+                return Err(NoLevel::Flagged { at_s: f });
+            }
             return Err(NoLevel::AfterRecord { by_s: t_s - last });
         }
         if n == 1 {

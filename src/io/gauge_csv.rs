@@ -30,6 +30,8 @@ pub struct GaugeRecord {
     pub skipped_flagged: usize,
     /// The gauge's maximum gap, seconds.
     pub max_gap_s: f64,
+    /// Rows that are not samples: (line, time in UTC seconds, `no_reading` or `flagged_in_file`).
+    pub skipped_rows: Vec<(u64, f64, &'static str)>,
 }
 
 impl GaugeRecord {
@@ -133,12 +135,14 @@ pub fn parse_gauge_record<R: std::io::Read>(
             let flag = get(fi, spec.flag_column.as_deref().unwrap_or(""))?;
             if !spec.good_flags.iter().any(|g| g == flag) {
                 out.skipped_flagged += 1;
+                out.skipped_rows.push((line, t, "flagged_in_file"));
                 continue;
             }
         }
         let h_txt = get(i_height, &spec.height_column)?;
         if h_txt.is_empty() || spec.null_values.iter().any(|n| n == h_txt) {
             out.skipped_null += 1;
+            out.skipped_rows.push((line, t, "no_reading"));
             continue;
         }
         let h: f64 = h_txt.parse().map_err(|_| {

@@ -73,6 +73,9 @@ pub struct QcSpec {
     pub shift_k: f64,
     /// Smallest level shift, metres.
     pub shift_min_m: f64,
+    /// A level shift sets aside the record after it (until a step back or the record's end),
+    /// not only its first sample (default true).
+    pub shift_sets_aside_after: bool,
     /// Plausible band half-width around each gauge's mean level, metres (default 10), unless the
     /// gauge gives `band_min_m` / `band_max_m`.
     pub band_half_width_m: f64,
@@ -104,6 +107,7 @@ impl Default for QcSpec {
             shift_window_min: t.shift_window_min,
             shift_k: t.shift_k,
             shift_min_m: t.shift_min_m,
+            shift_sets_aside_after: t.shift_sets_aside_after,
             band_half_width_m: 10.0,
             compare_max_mean_m: 0.05,
             compare_max_drift_m_per_day: 0.02,
@@ -129,6 +133,7 @@ impl QcSpec {
             shift_window_min: self.shift_window_min,
             shift_k: self.shift_k,
             shift_min_m: self.shift_min_m,
+            shift_sets_aside_after: self.shift_sets_aside_after,
             band_min_m: g
                 .band_min_m
                 .unwrap_or(g.mean_level_above_datum_m - self.band_half_width_m),
@@ -589,6 +594,14 @@ impl Project {
             for (k, v) in [("band_min_m", g.band_min_m), ("band_max_m", g.band_max_m)] {
                 if v.is_some_and(|v| !v.is_finite()) {
                     return Err(IoError::content(f(k), "expected a finite number"));
+                }
+            }
+            if let (Some(a), Some(b)) = (g.band_min_m, g.band_max_m) {
+                if a >= b {
+                    return Err(IoError::content(
+                        f("band_max_m"),
+                        format!("the plausible band is empty: band_min_m {a} is not below band_max_m {b}"),
+                    ));
                 }
             }
         }

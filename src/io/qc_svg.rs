@@ -25,8 +25,10 @@ pub struct QcPlot<'a> {
     pub heights_m: &'a [f64],
     /// Flags per sample.
     pub flags: &'a [QcFlags],
-    /// Plausible band, metres above chart datum (drawn as dashed lines when within view).
+    /// Plausible band, metres (drawn as dashed lines when within view).
     pub band_m: (f64, f64),
+    /// Levels are above chart datum (else above the record's zero).
+    pub levels_above_datum: bool,
 }
 
 /// Colour and marker of a flag (marker: c circle, t triangle, s square, d diamond, x cross,
@@ -176,14 +178,20 @@ pub fn render_qc_svg(p: &QcPlot) -> String {
     }
     let _ = write!(
         out,
-        r##"<rect x="{ml}" y="{mt}" width="{pw}" height="{ph}" fill="none" stroke="#888"/><text x="{0}" y="{1}" text-anchor="middle" fill="#222">time (UTC), {2} to {3}</text><text transform="translate(16 {4}) rotate(-90)" text-anchor="middle" fill="#222">level above chart datum (m)</text>"##,
+        r##"<rect x="{ml}" y="{mt}" width="{pw}" height="{ph}" fill="none" stroke="#888"/><text x="{0}" y="{1}" text-anchor="middle" fill="#222">time (UTC), {2} to {3}</text><text transform="translate(16 {4}) rotate(-90)" text-anchor="middle" fill="#222">{5}</text>"##,
         ml + pw / 2.0,
         h - 12.0,
         crate::compute::utc_label(t0),
         crate::compute::utc_label(t1),
-        mt + ph / 2.0
+        mt + ph / 2.0,
+        if p.levels_above_datum {
+            "level above chart datum (m)"
+        } else {
+            "level above the record's zero (m)"
+        }
     );
     // Plausible band, when within view.
+    let band_in_view = [p.band_m.0, p.band_m.1].iter().any(|&b| b > lo && b < hi);
     for b in [p.band_m.0, p.band_m.1] {
         if b > lo && b < hi {
             let _ = write!(
@@ -350,11 +358,13 @@ pub fn render_qc_svg(p: &QcPlot) -> String {
             r##"<text x="{lx}" y="{ly}" fill="#444">first {MAX_MARKERS} marked per flag</text>"##
         );
     }
-    ly += 30.0;
-    let _ = write!(
-        out,
-        r##"<text x="{lx}" y="{ly}" fill="#444">dashed: plausible band</text>"##
-    );
+    if band_in_view {
+        ly += 30.0;
+        let _ = write!(
+            out,
+            r##"<text x="{lx}" y="{ly}" fill="#444">dashed: plausible band</text>"##
+        );
+    }
     out.push_str("</svg>\n");
     out
 }
@@ -383,6 +393,7 @@ mod tests {
             heights_m: &h,
             flags: &f,
             band_m: (-8.0, 12.0),
+            levels_above_datum: true,
         });
         assert!(svg.len() < 200_000, "{} bytes", svg.len());
         assert_eq!(svg.matches("<circle").count(), 1 + 1); // the spike + its legend entry

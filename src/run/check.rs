@@ -375,17 +375,33 @@ fn check_gauge_spans(loaded: &super::load::Loaded, t0: f64, t1: f64, out: &mut V
             lines.push(rec.lines.get(j).copied().unwrap_or(0));
             j += 1;
         }
+        // The set-aside samples (time, line), sorted by time, to name the first one of a span.
+        let mut set_aside: Vec<(f64, u64)> = loaded.qc[gi]
+            .as_ref()
+            .map(|q| {
+                q.flags
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, f)| f.blocks_interpolation())
+                    .map(|(i, _)| (rec.times_s[i], rec.lines[i]))
+                    .collect()
+            })
+            .unwrap_or_default();
+        set_aside.sort_by(|a, b| a.0.total_cmp(&b.0));
         let mut gaps = 0;
         for (w, &line) in s.times_s.windows(2).zip(lines.iter().skip(1)) {
             let (p, q) = (w[0], w[1]);
-            let flagged = s.flagged_times_s.iter().any(|&f| f > p && f < q);
+            let k = set_aside.partition_point(|x| x.0 <= p);
+            let first_set_aside = set_aside.get(k).filter(|x| x.0 < q).map(|x| x.1);
+            let flagged = first_set_aside.is_some();
+            let line = first_set_aside.unwrap_or(line);
             if (flagged || q - p > s.max_gap_s) && q > a && p < b {
                 gaps += 1;
                 if gaps <= 5 {
                     let what = if flagged {
                         format!(
-                            "{:.0} min from {} to {} inside the survey period spans samples that quality control set aside (see `neap qc`): soundings then get status gauge_flagged",
-                            (q - p) / 60.0, utc_label(p), utc_label(q)
+                            "quality control set aside this sample and those after it up to {} ({:.0} min from {} inside the survey period; see `neap qc`): soundings then get status gauge_flagged",
+                            utc_label(q), (q - p) / 60.0, utc_label(p)
                         )
                     } else {
                         format!(

@@ -264,8 +264,14 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             use crate::compute::qc::QcFlag;
             let mut shown = 0;
             for (i, f) in q.flags.iter().enumerate() {
+                let later = q
+                    .notes_of(i)
+                    .iter()
+                    .any(|n| n.flag == QcFlag::TimeOrder && n.detail.contains("later than"));
                 let what = if f.contains(QcFlag::DuplicateTime) {
                     "is duplicated"
+                } else if f.contains(QcFlag::TimeOrder) && later {
+                    "is later than the samples after it"
                 } else if f.contains(QcFlag::TimeOrder) {
                     "is earlier than the previous sample"
                 } else {
@@ -305,6 +311,17 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                         r.times_s.len() - q.usable_count(),
                         r.times_s.len(),
                         flagged.join(", ")
+                    ),
+                ));
+            }
+        }
+        if let Some(c) = g.lowpass_cutoff_min {
+            if c <= 2.0 * prepared.method.nominal_step_min {
+                findings.push(Finding::warning(
+                    Position::file(&project.path).field(format!("gauge '{}'.lowpass_cutoff_min", g.id)),
+                    format!(
+                        "a cut-off of {c} min is not longer than two steps of this {:.1}-min record: the filter leaves it unchanged",
+                        prepared.method.nominal_step_min
                     ),
                 ));
             }

@@ -62,9 +62,11 @@ pub struct GaugeQcSummary {
     pub nominal_step_min: f64,
     /// Robust standard deviation of the spike residual, metres.
     pub robust_sigma_m: f64,
+    /// Noise of the readings (robust, from second differences), metres.
+    pub noise_sigma_m: f64,
     /// Samples per flag (every flag listed).
     pub flags: BTreeMap<&'static str, usize>,
-    /// The first flagged samples (up to 50), in file order.
+    /// The first flagged samples (up to 10 per flag), in file order.
     pub first_flagged: Vec<FlaggedSample>,
     /// How the reducer uses the record.
     pub method: GaugeMethod,
@@ -151,6 +153,7 @@ pub fn write_gauge_qc(
     q: &QcResult,
     method: GaugeMethod,
     band_m: (f64, f64),
+    levels_above_datum: bool,
     out_dir: &Path,
 ) -> Result<GaugeQcSummary, IoError> {
     std::fs::create_dir_all(out_dir).map_err(|e| IoError::file(out_dir, e))?;
@@ -158,14 +161,26 @@ pub fn write_gauge_qc(
     let csv_path = out_dir.join(format!("{stem}.qc.csv"));
     let mut f = AtomicFile::create(&csv_path, &[&g.record])?;
     let mut text = String::with_capacity(r.times_s.len() * 48 + 64);
-    text.push_str("line,time_utc,level_above_datum_m,qc_flags,qc_detail\n");
+    let level_col = if levels_above_datum {
+        "level_above_datum_m"
+    } else {
+        "level_above_record_zero_m"
+    };
+    let _ = writeln!(text, "line,time_utc,{level_col},qc_flags,qc_detail");
+    // Samples and the rows that are not samples (no reading, flagged in the file), by line.
+    let mut skipped = r.skipped_rows.iter().peekable();
     for i in 0..r.times_s.len() {
+        while let Some(&&(line, t, why)) = skipped.peek() {
+            if line > r.lines[i] {
+                break;
+            }
+            let _ = writeln!(text, "{line},{},,{why},", utc_label(t));
+            skipped.next();
+        }
         text.push_str(&r.lines[i].to_string());
         text.push(',');
         text.push_str(&utc_label(r.times_s[i]));
-        text.push(',');
-        let _ = write!(text, "{:.4}", r.heights_m[i]);
-        text.push(',');
+        let _ = write!(text, ",{:.4},", r.heights_m[i]);
         text.push_str(&q.flags[i].label());
         text.push(',');
         let notes = q.notes_of(i);
@@ -182,6 +197,9 @@ pub fn write_gauge_qc(
             text.clear();
         }
     }
+    for &(line, t, why) in skipped {
+        let _ = writeln!(text, "{line},{},,{why},", utc_label(t));
+    }
     f.write_all(text.as_bytes())?;
     let csv_path = f.commit()?;
     let title = match &g.name {
@@ -194,16 +212,22 @@ pub fn write_gauge_qc(
         heights_m: &r.heights_m,
         flags: &q.flags,
         band_m,
+        levels_above_datum,
     });
     let svg_path = write_atomic(&out_dir.join(format!("{stem}.qc.svg")), svg.as_bytes())?;
     let mut flags = BTreeMap::new();
     for f in QcFlag::ALL {
         flags.insert(f.as_str(), q.count(f));
     }
+    // The first 10 samples of each flag.
+    let mut per_flag = [0usize; crate::compute::qc::N_FLAGS];
     let first_flagged = q
         .notes
         .iter()
-        .take(50)
+        .filter(|n| {
+            per_flag[n.flag as usize] += 1;
+            per_flag[n.flag as usize] <= 10
+        })
         .map(|n| FlaggedSample {
             line: r.lines[n.sample],
             time_utc: utc_label(r.times_s[n.sample]),
@@ -221,6 +245,7 @@ pub fn write_gauge_qc(
         rows_flagged_in_file: r.skipped_flagged,
         nominal_step_min: q.nominal_step_s / 60.0,
         robust_sigma_m: q.robust_sigma_m,
+        noise_sigma_m: q.noise_sigma_m,
         flags,
         first_flagged,
         method,
@@ -234,6 +259,7 @@ pub fn qc_single_record(
     g: &GaugeSpec,
     r: &GaugeRecord,
     qc_spec: &QcSpec,
+    levels_above_datum: bool,
     out_dir: &Path,
 ) -> Result<QcSummary, IoError> {
     let mut qc_on = qc_spec.clone();
@@ -247,6 +273,7 @@ pub fn qc_single_record(
         &q,
         prepared.method,
         (t.band_min_m, t.band_max_m),
+        levels_above_datum,
         out_dir,
     )?;
     let mut summary = QcSummary {
@@ -294,6 +321,7 @@ pub fn qc_records_only(
             &q,
             prepared.method,
             (t.band_min_m, t.band_max_m),
+            true,
             out_dir,
         )?);
     }
@@ -434,6 +462,7 @@ pub fn qc_project(
             &q,
             loaded.methods[gi].clone(),
             (t.band_min_m, t.band_max_m),
+            true,
             out_dir,
         )?);
     }

@@ -6,6 +6,7 @@ mod check;
 mod correctors;
 mod crs_reference;
 mod demo_recovery;
+mod harmonics;
 mod outputs;
 mod properties;
 mod qa_report;

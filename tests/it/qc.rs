@@ -293,6 +293,10 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
     // The other gauges: nothing that excludes a sample (gap_before is informational).
     for g in ["orlick", "pendrath"] {
         for (line, flags) in flagged_lines(&out.path().join(format!("{g}.qc.csv"))) {
+            // Rows without a reading are listed as `no_reading`; they are not samples.
+            if flags == "no_reading" {
+                continue;
+            }
             assert!(
                 !flags.split(';').any(is_excluding),
                 "{g} line {line}: {flags}"
@@ -307,6 +311,14 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
         let (h, rows) = read_csv(&out.path().join(format!("{g}.qc.csv")));
         let mut counts: BTreeMap<String, u64> = BTreeMap::new();
         let mut usable = 0;
+        // Rows without a reading (`no_reading`, empty level) are listed but are not samples.
+        let rows: Vec<_> = rows
+            .into_iter()
+            .filter(|r| col(&h, r, "qc_flags") != "no_reading")
+            .collect();
+        let no_reading = gauge_summary(&s, g)["rows_without_reading"]
+            .as_u64()
+            .unwrap();
         for r in &rows {
             let flags = col(&h, r, "qc_flags");
             let words: Vec<&str> = flags.split(';').filter(|w| !w.is_empty()).collect();
@@ -319,6 +331,7 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
         }
         let gs = gauge_summary(&s, g);
         assert_eq!(gs["samples"], rows.len() as u64, "{g}");
+        assert_eq!(no_reading, if g == "pendrath" { 2 } else { 0 }, "{g}");
         assert_eq!(gs["usable"], usable, "{g}");
         let listed = gs["flags"].as_object().unwrap();
         assert_eq!(listed.len(), 8, "every flag listed: {listed:?}");
@@ -402,8 +415,9 @@ fn faulty_record() -> (String, Vec<(i64, f64)>) {
 /// Each sounding: (time, lon, status it must get with QC on, time of the flagged sample its
 /// detail must name). Z1 (lon 10.005) has time corrector 0, Z2 (lon 10.015) +6 min, so Z2's tide
 /// at t is the gauge's at t − 6 min. A sounding is `gauge_flagged` exactly when its gauge time
-/// lies strictly between the samples around a flagged one: (02:54, 03:06) for the spike at 03:00,
-/// (07:54, 08:06) for the first sample after the step at 08:00.
+/// lies strictly between the samples around a flagged one: (02:54, 03:06) for the spike at 03:00;
+/// after 07:54 for the step at 08:00, since a level shift sets aside the record after it (to the
+/// record's end here) until the level is confirmed.
 const FAULT_SOUNDINGS: [(&str, f64, &str, Option<&str>); 15] = [
     ("2026-06-14T01:00:00Z", 10.005, "reduced", None),
     ("2026-06-14T02:54:00Z", 10.005, "reduced", None),
@@ -440,8 +454,18 @@ const FAULT_SOUNDINGS: [(&str, f64, &str, Option<&str>); 15] = [
         "gauge_flagged",
         Some("08:00"),
     ),
-    ("2026-06-14T08:06:00Z", 10.005, "reduced", None),
-    ("2026-06-14T10:00:00Z", 10.005, "reduced", None),
+    (
+        "2026-06-14T08:06:00Z",
+        10.005,
+        "gauge_flagged",
+        Some("08:00"),
+    ),
+    (
+        "2026-06-14T10:00:00Z",
+        10.005,
+        "gauge_flagged",
+        Some("08:00"),
+    ),
     ("2026-06-14T02:59:00Z", 10.015, "reduced", None),
     (
         "2026-06-14T03:09:00Z",
@@ -490,10 +514,13 @@ fn reducer_marks_soundings_across_flagged_samples_and_only_those() {
     let o = neap(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
     let flagged = flagged_lines(&qc_out.join("g1.qc.csv"));
+    let mut want = BTreeMap::from([(32, "spike".to_string())]);
+    for line in 82..=122 {
+        want.insert(line, "level_shift".to_string());
+    }
     assert_eq!(
-        flagged,
-        BTreeMap::from([(32, "spike".to_string()), (82, "level_shift".to_string())]),
-        "only the planted spike and step, no false alarm on 5 mm noise"
+        flagged, want,
+        "only the planted spike and the step (with the record after it), no false alarm on 5 mm noise"
     );
 
     let o = neap(&["reduce", &p.project(), "--no-progress"]);
