@@ -173,8 +173,15 @@ enum Command {
     },
     /// Predict the tide from a constants file on a regular grid, with high and low waters.
     Predict {
-        /// The constants file (written by `neap analyse`).
-        constants: PathBuf,
+        /// The constants file (written by `neap analyse`); or give --project and --gauge.
+        #[arg(required_unless_present = "project", conflicts_with = "project")]
+        constants: Option<PathBuf>,
+        /// A project file whose gauge names its constants (`[[gauge]] constants`).
+        #[arg(long, requires = "gauge")]
+        project: Option<PathBuf>,
+        /// With --project: the gauge id.
+        #[arg(long)]
+        gauge: Option<String>,
         /// Start, ISO 8601 with offset.
         #[arg(long)]
         from: String,
@@ -309,12 +316,24 @@ pub fn main() -> i32 {
         }),
         Command::Predict {
             constants,
+            project,
+            gauge,
             from,
             to,
             step_min,
             out,
             extremes,
-        } => cmd_predict(&constants, &from, &to, step_min, out, extremes),
+        } => {
+            let constants = match (constants, project) {
+                (Some(c), _) => c,
+                (None, Some(p)) => match gauge_constants(&p, gauge.as_deref().unwrap_or("")) {
+                    Ok(c) => c,
+                    Err(e) => return report_failure(e),
+                },
+                (None, None) => return EXIT_CANNOT_RUN,
+            };
+            cmd_predict(&constants, &from, &to, step_min, out, extremes)
+        }
         Command::Demo { dir } => cmd_demo(dir),
     }
 }
@@ -1011,15 +1030,56 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
         }
     }
     if let Some(ff) = an.form_factor() {
+        let missing: Vec<&str> = ["K1", "O1", "M2", "S2"]
+            .into_iter()
+            .filter(|n| !an.fitted.iter().any(|f| f.constituent.name == *n))
+            .collect();
         let _ = writeln!(
             w,
-            "  form factor F = (K1 + O1)/(M2 + S2) = {ff:.3}: {}",
-            tide_type(ff)
+            "  form factor F = (K1 + O1)/(M2 + S2) = {ff:.3}: {}{}",
+            tide_type(ff),
+            if missing.is_empty() {
+                String::new()
+            } else {
+                format!(
+                    " (without {}: not resolved by this record)",
+                    missing.join(", ")
+                )
+            }
+        );
+    }
+    let days = (an.span_s.1 - an.span_s.0) / 86400.0;
+    if days < 28.0 {
+        let _ = writeln!(
+            w,
+            "  note: a {days:.1}-day record separates few constituents; constants from less than four weeks suit short-term prediction only"
         );
     }
     let _ = writeln!(w, "wrote {}", o.written.display());
     let _ = writeln!(w, "{CAUTION}");
     EXIT_OK
+}
+
+/// The constants file a project names for a gauge.
+fn gauge_constants(project: &Path, gauge: &str) -> anyhow::Result<PathBuf> {
+    let p = Project::load(project)?;
+    let Some(g) = p.spec.gauges.iter().find(|g| g.id == gauge) else {
+        anyhow::bail!(
+            "the project has no gauge '{gauge}' (gauges: {})",
+            p.spec
+                .gauges
+                .iter()
+                .map(|g| g.id.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        );
+    };
+    g.constants.clone().ok_or_else(|| {
+        anyhow::anyhow!(
+            "{}: gauge '{gauge}' names no constants file (add `constants = \"….constants.toml\"` to its [[gauge]] table; `neap analyse --project … --gauge {gauge}` writes one)",
+            project.display()
+        )
+    })
 }
 
 fn cmd_predict(

@@ -205,6 +205,7 @@ mod tests {
             lowpass_cutoff_min: None,
             band_min_m: None,
             band_max_m: None,
+            constants: None,
         }
     }
 

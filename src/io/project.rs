@@ -371,6 +371,10 @@ pub struct GaugeSpec {
     /// band_half_width_m`).
     #[serde(default)]
     pub band_max_m: Option<f64>,
+    /// Harmonic constants of this gauge (a file written by `neap analyse`, levels above chart
+    /// datum): checked when the project loads; `neap predict --project --gauge` uses them.
+    #[serde(default)]
+    pub constants: Option<PathBuf>,
 }
 
 impl GaugeSpec {
@@ -402,6 +406,7 @@ impl GaugeSpec {
             lowpass_cutoff_min: None,
             band_min_m: None,
             band_max_m: None,
+            constants: None,
         }
     }
 }
@@ -701,6 +706,9 @@ impl Project {
         spec.output.dir = dir.join(&spec.output.dir);
         for g in &mut spec.gauges {
             g.record = dir.join(&g.record);
+            if let Some(c) = &g.constants {
+                g.constants = Some(dir.join(c));
+            }
         }
         for s in &mut spec.soundings {
             for f in &mut s.files {

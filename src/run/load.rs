@@ -84,6 +84,29 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             Err(e) => findings.push(e.into()),
         }
     }
+    for g in &project.spec.gauges {
+        if let Some(c) = &g.constants {
+            match crate::io::constants::read_constants(c) {
+                Ok((file, _)) => {
+                    if file
+                        .levels
+                        .as_deref()
+                        .is_some_and(|l| l != "above chart datum")
+                    {
+                        findings.push(Finding::warning(
+                            Position::file(c).field("levels"),
+                            format!(
+                                "gauge '{}': these constants give levels {}, not above chart datum",
+                                g.id,
+                                file.levels.as_deref().unwrap_or("")
+                            ),
+                        ));
+                    }
+                }
+                Err(e) => findings.push(e.into()),
+            }
+        }
+    }
     let zoning = match read_zoning(&project.spec.zoning) {
         Ok(z) => z,
         Err(e) => {

@@ -814,3 +814,179 @@ fn records_minus_true_prediction_is_the_noise() {
         );
     }
 }
+
+// ---------------------------------------------------------------------------------------------
+// The commands: `neap analyse` writes constants that `neap predict` reads back
+
+#[test]
+fn analyse_then_predict_through_the_command_line() {
+    use super::{neap, read_csv, stderr, MiniProject};
+    let d = tempfile::tempdir().unwrap();
+    let k = d.path().join("m.constants.toml");
+    let record = fixture("record_29d.csv");
+    let before = std::fs::read(&record).unwrap();
+    let o = neap(&[
+        "analyse",
+        record.to_str().unwrap(),
+        "--time-column",
+        "time_utc",
+        "--height-column",
+        "height_m",
+        "--out",
+        k.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert_eq!(std::fs::read(&record).unwrap(), before, "input untouched");
+    // The file holds what the library computes on the same record (QC on, default settings):
+    // the command adds nothing of its own.
+    let (file, constants) = neap::io::constants::read_constants(&k).unwrap();
+    let (t, h) = read_record("record_29d.csv");
+    let lib = analyse(&t, &h, &AnalysisSettings::default()).unwrap();
+    assert_eq!(file.constituents.len(), lib.fitted.len());
+    for f in &lib.fitted {
+        let e = file
+            .constituents
+            .iter()
+            .find(|e| e.name == f.constituent.name)
+            .unwrap();
+        assert!(
+            (e.amplitude_m - f.amplitude_m).abs() <= 0.5e-5,
+            "{}",
+            e.name
+        );
+        assert_eq!(
+            e.inferred_from.as_deref(),
+            f.inferred_from.map(|x| x.0),
+            "{}",
+            e.name
+        );
+    }
+    assert_eq!(file.levels.as_deref(), Some("above the record's zero"));
+
+    // Predict one day at 6 min: 241 values (both ends on the grid), each equal to the direct
+    // evaluation to the 4 written decimals; extremes alternate and are turning points.
+    let series = d.path().join("p.csv");
+    let ext = d.path().join("e.csv");
+    let o = neap(&[
+        "predict",
+        k.to_str().unwrap(),
+        "--from",
+        "2026-06-14T00:00:00Z",
+        "--to",
+        "2026-06-15T00:00:00+00:00",
+        "--step-min",
+        "6",
+        "--out",
+        series.to_str().unwrap(),
+        "--extremes",
+        ext.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let (hdr, rows) = read_csv(&series);
+    assert_eq!(hdr, vec!["time_utc", "predicted_level_m"]);
+    assert_eq!(rows.len(), 241);
+    let t0 = 1_781_395_200.0; // 2026-06-14T00:00:00Z
+    for (i, r) in rows.iter().enumerate().step_by(20) {
+        let v: f64 = r[1].parse().unwrap();
+        assert!(
+            (v - predict_at(&constants, t0 + 360.0 * i as f64)).abs() <= 0.5e-4,
+            "row {i}"
+        );
+    }
+    assert_eq!(rows[0][0], "2026-06-14T00:00:00Z");
+    let (_, ex) = read_csv(&ext);
+    assert!(ex.len() >= 3, "{}", ex.len());
+    for w in ex.windows(2) {
+        assert_ne!(w[0][2], w[1][2], "high and low alternate");
+    }
+
+    // A project's gauge names the constants; predict finds them through it.
+    let p = MiniProject::new("time,lon,lat,depth,line\n");
+    std::fs::copy(&k, p.path("g1.constants.toml")).unwrap();
+    let text = std::fs::read_to_string(p.path("project.toml"))
+        .unwrap()
+        .replace(
+            "max_gap_min = 30\n",
+            "max_gap_min = 30\nconstants = \"g1.constants.toml\"\n",
+        );
+    p.write("project.toml", &text);
+    let out2 = d.path().join("p2.csv");
+    let o = neap(&[
+        "predict",
+        "--project",
+        &p.project(),
+        "--gauge",
+        "g1",
+        "--from",
+        "2026-06-14T00:00:00Z",
+        "--to",
+        "2026-06-15T00:00:00Z",
+        "--out",
+        out2.to_str().unwrap(),
+        "--extremes",
+        d.path().join("e2.csv").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert_eq!(
+        std::fs::read(&out2).unwrap(),
+        std::fs::read(&series).unwrap()
+    );
+    // The project check reads the constants and says their levels are not above chart datum.
+    let o = neap(&["check", &p.project()]);
+    assert!(
+        stderr(&o).contains("not above chart datum"),
+        "{}",
+        stderr(&o)
+    );
+}
+
+#[test]
+fn analyse_refuses_bad_requests_clearly() {
+    use super::{neap, stderr};
+    let record = fixture("record_29d.csv");
+    let d = tempfile::tempdir().unwrap();
+    let out = d.path().join("x.toml");
+    let o = neap(&[
+        "analyse",
+        record.to_str().unwrap(),
+        "--time-column",
+        "time_utc",
+        "--height-column",
+        "height_m",
+        "--constituents",
+        "M2,XX7",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("unknown constituent 'XX7'"),
+        "{}",
+        stderr(&o)
+    );
+    assert!(!out.exists());
+    // A constants file with a constituent of another definition (Sa at the classical speed).
+    std::fs::write(
+        &out,
+        "format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"SA\"\nspeed_deg_per_h = 0.0410686\namplitude_m = 0.1\nphase_deg = 10.0\n",
+    )
+    .unwrap();
+    let o = neap(&[
+        "predict",
+        out.to_str().unwrap(),
+        "--from",
+        "2026-06-14T00:00:00Z",
+        "--to",
+        "2026-06-14T01:00:00Z",
+        "--out",
+        d.path().join("p.csv").to_str().unwrap(),
+        "--extremes",
+        d.path().join("e.csv").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("constituent[0].speed_deg_per_h"),
+        "{}",
+        stderr(&o)
+    );
+}

@@ -1,5 +1,6 @@
-//! Fuzz target: the gauge-record reader, with a flag column and null values configured, and the
-//! record it returns must hold only finite, strictly increasing samples.
+//! Fuzz target: the gauge-record reader, with a flag column and null values configured, then
+//! quality control and the series the reducer would use: it must hold only finite, strictly
+//! increasing samples, and QC must give one flag set per sample.
 #![no_main]
 use libfuzzer_sys::fuzz_target;
 use neap::io::project::{GaugeSpec, HeightUnit};
@@ -23,11 +24,25 @@ fuzz_target!(|data: &[u8]| {
         naive_time_utc_offset: None,
         u_gauge_m: None,
         u_datum_m: None,
+        interpolation: Default::default(),
+        lowpass_cutoff_min: None,
+        band_min_m: None,
+        band_max_m: None,
+        constants: None,
     };
     let offset = chrono::FixedOffset::east_opt(3600);
     if let Ok(r) = neap::io::gauge_csv::parse_gauge_record(data, std::path::Path::new("g.csv"), &spec, offset) {
-        let t = &r.series.times_s;
+        assert!(r.heights_m.iter().all(|h| h.is_finite()));
+        let qc = neap::io::project::QcSpec::default();
+        let p = neap::run::load::prepare_series(
+            &qc,
+            &neap::io::project::InterpolationSpec::default(),
+            &spec,
+            &r,
+        );
+        assert_eq!(p.qc.as_ref().map(|q| q.flags.len()), Some(r.times_s.len()));
+        let t = &p.series.times_s;
         assert!(t.windows(2).all(|w| w[0] < w[1]));
-        assert!(r.series.heights_m.iter().all(|h| h.is_finite()));
+        assert!(p.series.heights_m.iter().all(|h| h.is_finite()));
     }
 });
