@@ -126,22 +126,27 @@ pub fn predict_file(
     let compute_s = clock.elapsed().as_secs_f64();
     let whole_seconds = step_s.fract() == 0.0 && t0_s.fract() == 0.0;
     let mut f = AtomicFile::create(out, &[constants])?;
-    let mut buf = String::with_capacity(1 << 21);
-    buf.push_str("time_utc,predicted_level_m\n");
+    let mut buf: Vec<u8> = Vec::with_capacity(1 << 21);
+    buf.extend_from_slice(b"time_utc,predicted_level_m\n");
+    let mut label = String::with_capacity(32);
     for (i, v) in h.iter().enumerate() {
         let t = t0_s + i as f64 * step_s;
+        label.clear();
         if whole_seconds {
-            crate::compute::push_utc_seconds(&mut buf, t as i64);
+            crate::compute::push_utc_seconds(&mut label, t as i64);
         } else {
-            buf.push_str(&crate::compute::utc_label(t));
+            label.push_str(&crate::compute::utc_label(t));
         }
-        let _ = writeln!(buf, ",{v:.4}");
+        buf.extend_from_slice(label.as_bytes());
+        buf.push(b',');
+        crate::compute::fixed::push_fixed(&mut buf, *v, 4);
+        buf.push(b'\n');
         if buf.len() > 1 << 20 {
-            f.write_all(buf.as_bytes())?;
+            f.write_all(&buf)?;
             buf.clear();
         }
     }
-    f.write_all(buf.as_bytes())?;
+    f.write_all(&buf)?;
     let mut written = vec![f.commit()?];
     let mut e = String::from("time_utc,predicted_level_m,kind\n");
     for x in &ex {
