@@ -347,14 +347,49 @@ fn one_sided_residuals(
     idx: &[usize],
     hw: usize,
     max_step_s: f64,
+    sw: &SideWeights,
 ) -> Vec<f64> {
     (0..idx.len())
-        .map(|k| residual_between(t, h, idx[k], &idx[..k], &idx[k + 1..], hw, max_step_s))
+        .map(|k| residual_between(t, h, idx[k], &idx[..k], &idx[k + 1..], hw, max_step_s, sw))
         .collect()
+}
+
+/// Weights of a least-squares line through L samples at 1..L steps from a point, evaluated at
+/// the point (nearest sample first), for L up to a limit; used when a side is regular.
+struct SideWeights {
+    step_s: f64,
+    w: Vec<Vec<f64>>,
+}
+
+impl SideWeights {
+    fn new(step_s: f64, max_l: usize) -> SideWeights {
+        let w = (0..=max_l)
+            .map(|l| {
+                if l < 2 {
+                    return Vec::new();
+                }
+                let lf = l as f64;
+                let xbar = (lf + 1.0) / 2.0;
+                let sxx = lf * (lf * lf - 1.0) / 12.0;
+                (1..=l)
+                    .map(|j| 1.0 / lf - xbar * (j as f64 - xbar) / sxx)
+                    .collect()
+            })
+            .collect();
+        SideWeights { step_s, w }
+    }
+
+    /// The weights for a side of `l` samples whose farthest lies `far_s` from the point, when the
+    /// side is regular (then the farthest is `l` steps away).
+    fn weights(&self, l: usize, far_s: f64) -> Option<&[f64]> {
+        let w = self.w.get(l).filter(|w| !w.is_empty())?;
+        ((far_s - l as f64 * self.step_s).abs() < 0.05 * self.step_s).then_some(w.as_slice())
+    }
 }
 
 /// The residual of sample `i` from the samples `before` (ascending, ending just before it) and
 /// `after` (ascending, starting just after it), as in [`one_sided_residuals`].
+#[allow(clippy::too_many_arguments)]
 fn residual_between(
     t: &[f64],
     h: &[f64],
@@ -363,6 +398,7 @@ fn residual_between(
     after: &[usize],
     hw: usize,
     max_step_s: f64,
+    sw: &SideWeights,
 ) -> f64 {
     let tk = t[i];
     // Up to hw samples each side, stopping at a hole.
@@ -378,17 +414,29 @@ fn residual_between(
         prev_t = t[after[b]];
         b += 1;
     }
-    let predict = |side: &[usize]| -> Option<f64> {
-        (side.len() >= 2).then(|| {
-            line_at_zero(
-                side.iter().map(|&q| (t[q] - tk) / 3600.0),
-                side.iter().map(|&q| h[q]),
-            )
-        })
+    // A side of L samples at exactly 1..L steps from the sample uses precomputed weights.
+    let predict = |side: &[usize], nearest_first: bool| -> Option<f64> {
+        let l = side.len();
+        if l < 2 {
+            return None;
+        }
+        let far = if nearest_first { side[l - 1] } else { side[0] };
+        if let Some(w) = sw.weights(l, (t[far] - tk).abs()) {
+            let sum = if nearest_first {
+                side.iter().zip(w).map(|(&q, wj)| wj * h[q]).sum()
+            } else {
+                side.iter().rev().zip(w).map(|(&q, wj)| wj * h[q]).sum()
+            };
+            return Some(sum);
+        }
+        Some(line_at_zero(
+            side.iter().map(|&q| (t[q] - tk) / 3600.0),
+            side.iter().map(|&q| h[q]),
+        ))
     };
     let hk = h[i];
-    let left = predict(&before[a..]).map(|p| hk - p);
-    let right = predict(&after[..b]).map(|p| hk - p);
+    let left = predict(&before[a..], false).map(|p| hk - p);
+    let right = predict(&after[..b], true).map(|p| hk - p);
     match (left, right) {
         (Some(l), Some(r)) => {
             if l.abs() <= r.abs() {
@@ -534,7 +582,8 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     // 4. Spikes. Sides may bridge one missing reading (2.5 steps).
     let hw = half_width(th.spike_window_min, nominal_step_s, 2);
     let side_step_s = (th.gap_factor.max(2.5)) * nominal_step_s;
-    let resid = one_sided_residuals(times_s, heights_m, &clean, hw, side_step_s);
+    let sw = SideWeights::new(nominal_step_s, hw);
+    let resid = one_sided_residuals(times_s, heights_m, &clean, hw, side_step_s, &sw);
     let robust_sigma_m = robust_sigma(resid.iter().copied().filter(|r| r.is_finite()));
     let spike_limit = (th.spike_k * robust_sigma_m).max(th.spike_min_m);
     // Second look at each candidate with the other candidates left out of its neighbours, so
@@ -563,6 +612,7 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
             &others[p..],
             hw,
             side_step_s,
+            &sw,
         );
         let r = if r.is_nan() { resid[k] } else { r };
         if r.abs() > spike_limit {
@@ -592,8 +642,19 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
             .map(|w| heights_m[w[2]] - 2.0 * heights_m[w[1]] + heights_m[w[0]]),
     ) / 6f64.sqrt();
 
-    // 6. Rate.
-    let resid = one_sided_residuals(times_s, heights_m, &clean, hw, side_step_s);
+    // 6. Rate. Residuals are computed only for the pairs that break the limit (rare).
+    let resid_at = |k: usize| {
+        residual_between(
+            times_s,
+            heights_m,
+            clean[k],
+            &clean[..k],
+            &clean[k + 1..],
+            hw,
+            side_step_s,
+            &sw,
+        )
+    };
     // The allowance grows with the record's noise: two readings differ by noise alone by up to
     // about 6·√2·σ (a chance of 2e-9 per pair for Gaussian noise).
     let allowance = th
@@ -612,7 +673,7 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         }
         // The one of the pair with the larger spike residual is the suspect (an end sample,
         // with no residual, is).
-        let b_suspect = score(resid[k]) >= score(resid[last_kept]);
+        let b_suspect = score(resid_at(k)) >= score(resid_at(last_kept));
         let (pick, other) = if b_suspect { (b, a) } else { (a, b) };
         fl.flag(
             pick,
@@ -652,6 +713,9 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
 /// Indices (in file order) of a longest strictly increasing subsequence of `t` (patience
 /// sorting, O(n log n)); non-finite times are never kept.
 fn longest_increasing(t: &[f64]) -> Vec<usize> {
+    if t.iter().all(|x| x.is_finite()) && t.windows(2).all(|w| w[0] < w[1]) {
+        return (0..t.len()).collect(); // the usual case: nothing out of order
+    }
     // Built from the end of the file backwards as a longest decreasing run, so that among runs
     // of equal length the one keeping the earlier samples wins (a fault is usually a later
     // sample going back), and of repeated times the first in the file stays.
@@ -782,6 +846,7 @@ pub fn step_statistic(
     }
     let mut xs = Vec::with_capacity(2 * l);
     let mut ys = Vec::with_capacity(2 * l);
+    let hc: Vec<f64> = clean.iter().map(|&i| heights_m[i]).collect();
     for k in l..=(m - l) {
         let win = &clean[k - l..k + l];
         let t_mid = 0.5 * (times_s[clean[k - 1]] + times_s[clean[k]]);
@@ -798,7 +863,21 @@ pub fn step_statistic(
         let regular = (junction - nominal_step_s).abs() < tol
             && (span - (2 * l - 1) as f64 * nominal_step_s).abs() < tol;
         out[k] = if regular {
-            win.iter().zip(&w).map(|(&i, wj)| wj * heights_m[i]).sum()
+            // Four partial sums over the contiguous copy of the clean heights: vectorises.
+            let hs = &hc[k - l..k + l];
+            let mut acc = [0.0f64; 4];
+            let mut q = 0;
+            while q + 4 <= hs.len() {
+                for (a, (hv, wv)) in acc.iter_mut().zip(hs[q..q + 4].iter().zip(&w[q..q + 4])) {
+                    *a += hv * wv;
+                }
+                q += 4;
+            }
+            let mut sum = acc[0] + acc[1] + acc[2] + acc[3];
+            for (hv, wv) in hs[q..].iter().zip(&w[q..]) {
+                sum += hv * wv;
+            }
+            sum
         } else {
             xs.clear();
             ys.clear();

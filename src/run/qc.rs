@@ -169,6 +169,7 @@ pub fn write_gauge_qc(
     let _ = writeln!(text, "line,time_utc,{level_col},qc_flags,qc_detail");
     // Samples and the rows that are not samples (no reading, flagged in the file), by line.
     let mut skipped = r.skipped_rows.iter().peekable();
+    let mut level: Vec<u8> = Vec::with_capacity(24);
     for i in 0..r.times_s.len() {
         while let Some(&&(line, t, why)) = skipped.peek() {
             if line > r.lines[i] {
@@ -177,10 +178,18 @@ pub fn write_gauge_qc(
             let _ = writeln!(text, "{line},{},,{why},", utc_label(t));
             skipped.next();
         }
-        text.push_str(&r.lines[i].to_string());
+        let _ = write!(text, "{},", r.lines[i]);
+        let t = r.times_s[i];
+        if t.fract() == 0.0 {
+            crate::compute::push_utc_seconds(&mut text, t as i64);
+        } else {
+            text.push_str(&utc_label(t));
+        }
         text.push(',');
-        text.push_str(&utc_label(r.times_s[i]));
-        let _ = write!(text, ",{:.4},", r.heights_m[i]);
+        level.clear();
+        crate::compute::fixed::push_fixed(&mut level, r.heights_m[i], 4);
+        text.push_str(std::str::from_utf8(&level).unwrap_or(""));
+        text.push(',');
         text.push_str(&q.flags[i].label());
         text.push(',');
         let notes = q.notes_of(i);

@@ -1,0 +1,852 @@
+//! Harmonic analysis of a one-year hourly record and a 19-year 6-minute prediction (the
+//! benchmark targets of issue 7), in this process and as whole `neap` processes.
+//!
+//! ```text
+//! cargo build --release --bin neap
+//! cargo bench --bench harmonics                  # 11 runs of each measurement
+//! cargo bench --bench harmonics -- --runs 21 --wait-idle 0
+//! ```
+//!
+//! Options after `--`: `--runs K` (default 11), `--retries R` (how many times a disturbed run is
+//! discarded and run again, default 3), `--wait-idle S` (longest wait for an idle machine before
+//! each measurement, default 60 s; 0 to skip).
+//!
+//! **Record**: `tests/fixtures/harmonics/record_1y.csv`, 8760 hourly heights (365 days from
+//! 2025-03-03T05:00Z; see tests/reference/harmonics/README.md), read with `read_gauge_record`.
+//!
+//! **Constituents of the analysis**: every constituent of neap's table that this record separates
+//! by the Rayleigh criterion at factor 1 (360°/T, T = last − first sample = 8759 h, so 0.0411 °/h),
+//! admitted greedily in order of equilibrium amplitude, then the others in table order. That gives
+//! 58 constituents (117 unknowns with Z0): the whole table but SA (too close to Z0), PI1 (to P1),
+//! S1 (to P1 and K1), PSI1 (to K1), T2 and R2 (to S2), and 2MK3 (MO3's speed). UTide picks 59 for
+//! the same record: 56 of these plus three neap does not tabulate (ALP1, BET1, UPS1).
+//!
+//! Measured, as medians over `--runs` runs (wall clock, `Instant`):
+//!
+//! 1. analysis with those 58 constituents: `design` (arguments, nodal corrections and the design
+//!    matrix), `solve` (normal equations, Cholesky, residuals, covariance) and `analyse` (both),
+//!    with nodal corrections per sample (the default) and at the record's centre; and `analyse`
+//!    with neap's automatic choice (what `neap analyse` fits by default);
+//! 2. what the solve spends its time on, its steps repeated on a matrix of the same shape (cos/sin
+//!    columns at the same speeds over the same times, f = 1), and other ways of forming the
+//!    normal equations: four rows per pass, nalgebra's `tr_mul` (column dot products), nalgebra's
+//!    general product (`matrixmultiply`), and that product by column blocks over the upper
+//!    triangle only;
+//! 3. prediction from the 37 largest constituents of analysis 1 over 19 years every 6 minutes
+//!    (6940 days from 2025-01-01T00:00Z, 1 665 600 values): `predict_grid` and `extremes`;
+//! 4. whole processes (`<target>/release/neap`, spawn to exit): `neap analyse` of the record
+//!    (automatic choice, and the 58 constituents) and `neap predict` of the 19 years, writing the
+//!    series and the high/low waters to the system's temporary directory.
+//!
+//! For every run the CPU time other processes used meanwhile is read from /proc/stat; a run in
+//! which they used more than 0.1 CPU-second per second (plus 20 ms for the 10 ms tick of
+//! /proc/stat) is disturbed, discarded and run again (at most `--retries` times). The neap binary
+//! is not built here: build it first with `cargo build --release --bin neap`. The Python
+//! comparison (UTide) is `tests/reference/harmonics/bench_side_by_side.sh`. Figures are kept in
+//! docs/benchmarks.md.
+
+use std::fs;
+use std::hint::black_box;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Stdio};
+use std::time::{Instant, SystemTime};
+
+use nalgebra::{DMatrix, DVector};
+use neap::compute::astro::{constituent, constituents, Constituent};
+use neap::compute::harmonic::{
+    analyse, design, extremes, predict_grid, solve, AnalysisSettings, HarmonicConstants, NodalMode,
+};
+use neap::io::constants::ConstantsFile;
+use neap::io::gauge_csv::read_gauge_record;
+use neap::io::project::{GaugeSpec, HeightUnit};
+use neap::run::harmonics::predict_file;
+
+/// The benchmark record, relative to the repository.
+const RECORD: &str = "tests/fixtures/harmonics/record_1y.csv";
+/// Rayleigh factor for the constituent list.
+const RAYLEIGH_FACTOR: f64 = 1.0;
+/// Constituents kept for the prediction (the largest of the analysis).
+const PREDICTION_CONSTITUENTS: usize = 37;
+/// First instant of the prediction: 2025-01-01T00:00:00Z, seconds since 1970-01-01.
+const PREDICTION_T0_S: f64 = 1_735_689_600.0;
+/// Prediction step, seconds (6 minutes).
+const PREDICTION_STEP_S: f64 = 360.0;
+/// Prediction length: 6940 days (19 Julian years round up to 6940 days) of 240 values.
+const PREDICTION_N: usize = 6940 * 240;
+/// The same span for `neap predict` (`--to` is included when it is on the grid).
+const PREDICTION_FROM: &str = "2025-01-01T00:00:00Z";
+const PREDICTION_TO: &str = "2044-01-01T23:54:00Z";
+/// The targets of issue 7.
+const TARGET_SOLVE_S: f64 = 0.020;
+const TARGET_PREDICTION_S: f64 = 1.0;
+
+const DEFAULT_RUNS: usize = 11;
+const DEFAULT_RETRIES: usize = 3;
+const DEFAULT_WAIT_IDLE_S: u64 = 60;
+/// Idle: this many consecutive seconds with all processes together below
+/// `IDLE_BUSY_CPU_PER_S` CPU-seconds per second.
+const IDLE_STREAK_S: u32 = 3;
+const IDLE_BUSY_CPU_PER_S: f64 = 0.05;
+/// A run is disturbed when other processes used more than this many CPU-seconds per second of
+/// its wall time, plus `TICK_ALLOWANCE_S`.
+const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
+/// Allowance for the resolution of /proc/stat (two 10 ms ticks), seconds.
+const TICK_ALLOWANCE_S: f64 = 0.02;
+
+/// How measurements are taken.
+struct Runner {
+    runs: usize,
+    retries: usize,
+    wait_idle_s: u64,
+}
+
+/// Timings of one measurement.
+struct Timed {
+    label: String,
+    median_s: f64,
+    min_s: f64,
+    /// Median CPU time of this process and its children over the kept runs, seconds.
+    cpu_median_s: f64,
+    /// Kept runs that were disturbed (retries exhausted).
+    disturbed: usize,
+    /// Disturbed runs discarded and run again.
+    discarded: usize,
+}
+
+impl Runner {
+    /// Times `f` over `self.runs` runs after one untimed warm-up run, waiting for an idle machine
+    /// first. Returns the timings and the last result.
+    fn measure<T>(&self, label: &str, mut f: impl FnMut() -> T) -> (Timed, T) {
+        wait_for_idle(self.wait_idle_s);
+        let mut last = black_box(f());
+        let (mut walls_s, mut cpus_s) = (Vec::new(), Vec::new());
+        let (mut disturbed, mut discarded) = (0, 0);
+        for _ in 0..self.runs {
+            let mut attempt = 0;
+            loop {
+                attempt += 1;
+                let own_before_s = own_cpu_s();
+                let busy_before_s = machine_busy_s();
+                let start = Instant::now();
+                let r = black_box(f());
+                let wall_s = start.elapsed().as_secs_f64();
+                let own_s = own_cpu_s() - own_before_s;
+                let other_s = machine_busy_s() - busy_before_s - own_s;
+                drop(std::mem::replace(&mut last, r));
+                let is_disturbed =
+                    other_s > DISTURBED_OTHER_CPU_PER_WALL * wall_s + TICK_ALLOWANCE_S;
+                if is_disturbed && attempt <= self.retries {
+                    discarded += 1;
+                    wait_for_idle(self.wait_idle_s);
+                    continue;
+                }
+                disturbed += usize::from(is_disturbed);
+                walls_s.push(wall_s);
+                cpus_s.push(own_s);
+                break;
+            }
+        }
+        let (median_s, min_s) = median_min(walls_s);
+        let (cpu_median_s, _) = median_min(cpus_s);
+        let t = Timed {
+            label: label.to_string(),
+            median_s,
+            min_s,
+            cpu_median_s,
+            disturbed,
+            discarded,
+        };
+        eprintln!("harmonics: {:<58} median {}", t.label, ms(t.median_s));
+        (t, last)
+    }
+}
+
+fn ms(s: f64) -> String {
+    if s < 0.1 {
+        format!("{:.2} ms", s * 1e3)
+    } else {
+        format!("{:.1} ms", s * 1e3)
+    }
+}
+
+/// CPU time (user + system) of this process and its waited-for children so far, seconds.
+fn own_cpu_s() -> f64 {
+    let s = |tv: libc::timeval| tv.tv_sec as f64 + tv.tv_usec as f64 * 1e-6;
+    [libc::RUSAGE_SELF, libc::RUSAGE_CHILDREN]
+        .into_iter()
+        .map(|who| {
+            // SAFETY: getrusage only writes into the struct passed.
+            let mut ru: libc::rusage = unsafe { std::mem::zeroed() };
+            assert_eq!(unsafe { libc::getrusage(who, &mut ru) }, 0, "getrusage");
+            s(ru.ru_utime) + s(ru.ru_stime)
+        })
+        .sum()
+}
+
+/// Busy CPU time of the whole machine so far, seconds (from /proc/stat).
+fn machine_busy_s() -> f64 {
+    let Ok(stat) = fs::read_to_string("/proc/stat") else {
+        return f64::NAN;
+    };
+    let v: Vec<u64> = stat
+        .lines()
+        .next()
+        .unwrap_or("")
+        .split_whitespace()
+        .skip(1)
+        .filter_map(|x| x.parse().ok())
+        .collect();
+    if v.len() < 5 {
+        return f64::NAN;
+    }
+    // user nice system idle iowait irq softirq steal (guest times are inside user/nice).
+    let busy: u64 = v.iter().take(8).sum::<u64>() - v[3] - v[4];
+    // SAFETY: sysconf has no preconditions.
+    let ticks_per_s = unsafe { libc::sysconf(libc::_SC_CLK_TCK) } as f64;
+    busy as f64 / ticks_per_s
+}
+
+/// Waits until the machine has been idle for `IDLE_STREAK_S` seconds, at most `max_s` seconds.
+fn wait_for_idle(max_s: u64) {
+    let start = Instant::now();
+    let mut streak = 0;
+    let mut told = false;
+    while start.elapsed().as_secs() < max_s {
+        let before_s = machine_busy_s();
+        std::thread::sleep(std::time::Duration::from_secs(1));
+        if machine_busy_s() - before_s < IDLE_BUSY_CPU_PER_S {
+            streak += 1;
+            if streak >= IDLE_STREAK_S {
+                return;
+            }
+        } else {
+            streak = 0;
+            if !told {
+                eprintln!("harmonics: waiting (at most {max_s} s) for other processes to finish…");
+                told = true;
+            }
+        }
+    }
+}
+
+fn median_min(mut v: Vec<f64>) -> (f64, f64) {
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    let median = if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        0.5 * (v[n / 2 - 1] + v[n / 2])
+    };
+    (median, v[0])
+}
+
+/// `<target>/release/neap`, found from this executable's place (`<target>/release/deps/`).
+fn neap_binary() -> PathBuf {
+    let exe = std::env::current_exe().expect("this executable");
+    let target = exe
+        .parent()
+        .filter(|d| d.file_name().is_some_and(|n| n == "deps"))
+        .and_then(Path::parent)
+        .and_then(Path::parent)
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
+    let neap = target.join("release").join("neap");
+    assert!(
+        neap.is_file(),
+        "{} does not exist: build it first with `cargo build --release --bin neap` (this bench \
+         builds nothing itself)",
+        neap.display()
+    );
+    neap
+}
+
+/// Warns when a file under src/ is newer than the binary.
+fn warn_if_stale(neap: &Path) {
+    let Ok(built) = fs::metadata(neap).and_then(|m| m.modified()) else {
+        return;
+    };
+    let mut newest: Option<(SystemTime, PathBuf)> = None;
+    let mut stack = vec![Path::new(env!("CARGO_MANIFEST_DIR")).join("src")];
+    while let Some(dir) = stack.pop() {
+        let Ok(rd) = fs::read_dir(&dir) else { continue };
+        for e in rd.flatten() {
+            let p = e.path();
+            if p.is_dir() {
+                stack.push(p);
+            } else if let Ok(t) = e.metadata().and_then(|m| m.modified()) {
+                if newest.as_ref().map_or(true, |(n, _)| t > *n) {
+                    newest = Some((t, p));
+                }
+            }
+        }
+    }
+    if let Some((t, p)) = newest {
+        if t > built {
+            eprintln!(
+                "harmonics: warning: {} is newer than {}; run `cargo build --release --bin neap` \
+                 to measure the current code",
+                p.display(),
+                neap.display()
+            );
+        }
+    }
+}
+
+fn cpu_model() -> String {
+    fs::read_to_string("/proc/cpuinfo")
+        .ok()
+        .and_then(|s| {
+            s.lines()
+                .find(|l| l.starts_with("model name"))
+                .and_then(|l| l.split(':').nth(1))
+                .map(|m| m.trim().to_string())
+        })
+        .unwrap_or_else(|| "unknown CPU".into())
+}
+
+fn load_average() -> String {
+    fs::read_to_string("/proc/loadavg")
+        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
+        .unwrap_or_else(|_| "unknown".into())
+}
+
+/// Every table constituent the record separates at `factor`: admitted greedily in order of
+/// equilibrium amplitude, then the others (no equilibrium amplitude) in table order, each when
+/// its speed differs from Z0's and every admitted one's by at least `factor · 360° / length_h`.
+fn separable_constituents(
+    length_h: f64,
+    factor: f64,
+) -> (Vec<&'static Constituent>, Vec<(&'static str, &'static str)>) {
+    let mut candidates: Vec<&'static Constituent> = constituents()
+        .iter()
+        .filter(|c| c.name != "Z0" && c.equilibrium_rel_m2.is_some())
+        .collect();
+    candidates.sort_by(|a, b| {
+        b.equilibrium_rel_m2
+            .unwrap_or(0.0)
+            .total_cmp(&a.equilibrium_rel_m2.unwrap_or(0.0))
+    });
+    candidates.extend(
+        constituents()
+            .iter()
+            .filter(|c| c.equilibrium_rel_m2.is_none()),
+    );
+    let need = factor * 360.0 / length_h;
+    let z0 = constituent("Z0").expect("Z0 in the table");
+    let mut chosen: Vec<&'static Constituent> = Vec::new();
+    let mut left_out = Vec::new();
+    for c in candidates {
+        let nearest = std::iter::once(z0)
+            .chain(chosen.iter().copied())
+            .min_by(|x, y| {
+                (c.speed_deg_per_h - x.speed_deg_per_h)
+                    .abs()
+                    .total_cmp(&(c.speed_deg_per_h - y.speed_deg_per_h).abs())
+            })
+            .expect("Z0 at least");
+        if (c.speed_deg_per_h - nearest.speed_deg_per_h).abs() >= need {
+            chosen.push(c);
+        } else {
+            left_out.push((c.name, nearest.name));
+        }
+    }
+    chosen.sort_by(|a, b| a.speed_deg_per_h.total_cmp(&b.speed_deg_per_h));
+    (chosen, left_out)
+}
+
+/// Mirrors the upper triangle of a row-major `p × p` array into a matrix.
+fn mirrored(upper: &[f64], p: usize) -> DMatrix<f64> {
+    DMatrix::from_fn(p, p, |i, j| {
+        if i <= j {
+            upper[i * p + j]
+        } else {
+            upper[j * p + i]
+        }
+    })
+}
+
+/// AᵀA and Aᵀy from a row-major `a` (`p` columns), one rank-one update of the upper triangle per
+/// row: the loop `solve` runs.
+fn normal_by_rows(a: &[f64], y: &[f64], p: usize) -> (DMatrix<f64>, DVector<f64>) {
+    let mut upper = vec![0.0; p * p];
+    let mut aty = DVector::<f64>::zeros(p);
+    for (row, &yr) in a.chunks_exact(p).zip(y) {
+        for i in 0..p {
+            let ri = row[i];
+            if ri == 0.0 {
+                continue;
+            }
+            let dst = &mut upper[i * p + i..(i + 1) * p];
+            for (d, &rj) in dst.iter_mut().zip(&row[i..]) {
+                *d += ri * rj;
+            }
+            aty[i] += ri * yr;
+        }
+    }
+    (mirrored(&upper, p), aty)
+}
+
+/// As [`normal_by_rows`], four rows per pass over the triangle (a quarter of the loads and
+/// stores of the triangle), the remaining rows one at a time.
+fn normal_by_rows4(a: &[f64], y: &[f64], p: usize) -> (DMatrix<f64>, DVector<f64>) {
+    let mut upper = vec![0.0; p * p];
+    let mut aty = DVector::<f64>::zeros(p);
+    let blocks = a.chunks_exact(4 * p);
+    let rest = blocks.remainder();
+    for (b, ys) in blocks.zip(y.chunks_exact(4)) {
+        let (r0, r1, r2, r3) = (&b[..p], &b[p..2 * p], &b[2 * p..3 * p], &b[3 * p..]);
+        for i in 0..p {
+            let (c0, c1, c2, c3) = (r0[i], r1[i], r2[i], r3[i]);
+            let dst = &mut upper[i * p + i..(i + 1) * p];
+            for (j, d) in (i..p).zip(dst.iter_mut()) {
+                *d += c0 * r0[j] + c1 * r1[j] + c2 * r2[j] + c3 * r3[j];
+            }
+            aty[i] += c0 * ys[0] + c1 * ys[1] + c2 * ys[2] + c3 * ys[3];
+        }
+    }
+    let done = y.len() - rest.len() / p;
+    for (row, &yr) in rest.chunks_exact(p).zip(&y[done..]) {
+        for i in 0..p {
+            let dst = &mut upper[i * p + i..(i + 1) * p];
+            for (d, &rj) in dst.iter_mut().zip(&row[i..]) {
+                *d += row[i] * rj;
+            }
+            aty[i] += row[i] * yr;
+        }
+    }
+    (mirrored(&upper, p), aty)
+}
+
+/// Residuals `y − A x` of a row-major `a`, as `solve` computes them.
+fn residuals_by_rows(a: &[f64], y: &[f64], x: &[f64]) -> DVector<f64> {
+    let p = x.len();
+    DVector::from_iterator(
+        y.len(),
+        a.chunks_exact(p)
+            .zip(y)
+            .map(|(row, &yr)| yr - row.iter().zip(x).map(|(r, c)| r * c).sum::<f64>()),
+    )
+}
+
+/// AᵀA by general matrix products (nalgebra's gemm, matrixmultiply) of a transposed copy of `a`,
+/// one block of `w` columns at a time, each only against the columns up to its own (upper
+/// triangle), mirrored.
+fn upper_by_gemm_blocks(a: &DMatrix<f64>, w: usize) -> DMatrix<f64> {
+    let p = a.ncols();
+    let at = a.transpose();
+    let mut m = DMatrix::<f64>::zeros(p, p);
+    let mut j0 = 0;
+    while j0 < p {
+        let wj = w.min(p - j0);
+        let j1 = j0 + wj;
+        let block = at.rows(0, j1) * a.columns(j0, wj);
+        m.view_mut((0, j0), (j1, wj)).copy_from(&block);
+        j0 = j1;
+    }
+    for j in 0..p {
+        for i in (j + 1)..p {
+            m[(i, j)] = m[(j, i)];
+        }
+    }
+    m
+}
+
+const USAGE: &str =
+    "usage: cargo bench --bench harmonics [-- [--runs K] [--retries R] [--wait-idle SECONDS]]";
+
+fn main() {
+    let mut runner = Runner {
+        runs: DEFAULT_RUNS,
+        retries: DEFAULT_RETRIES,
+        wait_idle_s: DEFAULT_WAIT_IDLE_S,
+    };
+    let mut args = std::env::args().skip(1);
+    while let Some(a) = args.next() {
+        let mut number = |what: &str| -> u64 {
+            args.next()
+                .and_then(|v| v.parse().ok())
+                .unwrap_or_else(|| panic!("{a} needs a whole number of {what}\n{USAGE}"))
+        };
+        match a.as_str() {
+            // cargo bench passes --bench to harness = false targets.
+            "--bench" => {}
+            "--runs" => runner.runs = number("runs").max(1) as usize,
+            "--retries" => runner.retries = number("retries") as usize,
+            "--wait-idle" => runner.wait_idle_s = number("seconds"),
+            other => panic!("unknown argument '{other}'\n{USAGE}"),
+        }
+    }
+    let neap = neap_binary();
+    warn_if_stale(&neap);
+    let repo = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let record = repo.join(RECORD);
+
+    // The record, read as neap analyse reads it (QC aside).
+    let mut spec = GaugeSpec::for_record(&record, HeightUnit::Metre, 0.0);
+    spec.time_column = "time_utc".into();
+    spec.height_column = "height_m".into();
+    let r = read_gauge_record(&spec, None).expect("the benchmark record");
+    let series = r.increasing_series();
+    let (times_s, heights_m) = (series.times_s, series.heights_m);
+    let length_h = (times_s[times_s.len() - 1] - times_s[0]) / 3600.0;
+
+    let (list, left_out) = separable_constituents(length_h, RAYLEIGH_FACTOR);
+    let names: Vec<String> = list.iter().map(|c| c.name.to_string()).collect();
+    let settings = AnalysisSettings {
+        constituents: Some(names.clone()),
+        ..AnalysisSettings::default()
+    };
+    let centre = AnalysisSettings {
+        nodal: NodalMode::Centre,
+        ..settings.clone()
+    };
+    let auto = AnalysisSettings::default();
+
+    println!(
+        "Harmonic analysis of a one-year hourly record and a 19-year 6-minute prediction; {} runs \
+         of each measurement (medians)",
+        runner.runs
+    );
+    println!(
+        "  machine  {} | {} logical CPUs | load average {}",
+        cpu_model(),
+        std::thread::available_parallelism().map_or(0, |n| n.get()),
+        load_average()
+    );
+    println!(
+        "  record   {RECORD}: {} samples over {length_h:.0} h",
+        times_s.len()
+    );
+    println!(
+        "  analysis {} constituents separable at Rayleigh factor {RAYLEIGH_FACTOR} ({:.4} °/h): \
+         {}",
+        list.len(),
+        RAYLEIGH_FACTOR * 360.0 / length_h,
+        names.join(" ")
+    );
+    println!(
+        "           left out: {}",
+        left_out
+            .iter()
+            .map(|(c, n)| format!("{c} (near {n})"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    );
+    println!("  neap     {}", neap.display());
+    println!();
+
+    let mut rows: Vec<Timed> = Vec::new();
+
+    // 1. Analysis in this process.
+    let (t, d) = runner.measure(
+        &format!("design: {} constituents, nodal per sample", list.len()),
+        || design(&times_s, &heights_m, &settings).expect("design"),
+    );
+    let (unknowns, samples) = (d.unknowns(), d.samples());
+    rows.push(t);
+    let (t, an) = runner.measure("solve: normal equations, Cholesky, covariance", || {
+        solve(&d).expect("solve (not singular)")
+    });
+    let t_solve = t.median_s;
+    rows.push(t);
+    let (t, _) = runner.measure("analyse (design + solve), nodal per sample", || {
+        analyse(&times_s, &heights_m, &settings).expect("analyse")
+    });
+    rows.push(t);
+    let (t, dc) = runner.measure(
+        &format!("design: {} constituents, nodal at the centre", list.len()),
+        || design(&times_s, &heights_m, &centre).expect("design"),
+    );
+    rows.push(t);
+    let (t, _) = runner.measure("solve, nodal at the centre", || {
+        solve(&dc).expect("solve (not singular)")
+    });
+    rows.push(t);
+    let (t, _) = runner.measure("analyse (design + solve), nodal at the centre", || {
+        analyse(&times_s, &heights_m, &centre).expect("analyse")
+    });
+    rows.push(t);
+    drop(dc);
+    let (t, an_auto) = runner.measure("analyse, automatic choice (neap analyse default)", || {
+        analyse(&times_s, &heights_m, &auto).expect("analyse")
+    });
+    let auto_fitted = an_auto
+        .fitted
+        .iter()
+        .filter(|f| f.inferred_from.is_none())
+        .count();
+    rows.push(t);
+    assert_eq!(unknowns, 1 + 2 * list.len());
+    assert_eq!(an.fitted.len(), list.len());
+    for (c, h) in [("M2", 1.20), ("S2", 0.42), ("N2", 0.24), ("K1", 0.16)] {
+        assert!(
+            (an.amplitude(c) - h).abs() < 0.002,
+            "{c}: {} m, expected about {h} m",
+            an.amplitude(c)
+        );
+    }
+
+    // 2. What the solve spends its time on: the same operations on a matrix of the same shape,
+    // and other ways of forming the normal equations.
+    let n_solve_rows = rows.len();
+    let t0 = times_s[0];
+    let a = DMatrix::<f64>::from_fn(samples, unknowns, |i, j| {
+        if j == 0 {
+            return 1.0;
+        }
+        let w = list[(j - 1) / 2].speed_deg_per_h.to_radians() / 3600.0;
+        let ph = w * (times_s[i] - t0);
+        if j % 2 == 1 {
+            ph.cos()
+        } else {
+            ph.sin()
+        }
+    });
+    // Row-major, as `design` stores it: the column-major storage of Aᵀ.
+    let a_rows = a.transpose();
+    let a_rows = a_rows.as_slice();
+    let y = DVector::from_column_slice(&heights_m);
+    let (t, (ata, aty)) = runner.measure(
+        "  AᵀA and Aᵀy row by row, upper triangle (as solve does)",
+        || normal_by_rows(a_rows, &heights_m, unknowns),
+    );
+    rows.push(t);
+    let close = |m: &DMatrix<f64>| (&ata - m).amax() < 1e-9 * ata.amax();
+    let (t, m) = runner.measure("  the same, four rows at a time", || {
+        normal_by_rows4(a_rows, &heights_m, unknowns)
+    });
+    rows.push(t);
+    assert!(close(&m.0) && (&aty - &m.1).amax() < 1e-9 * aty.amax());
+    let (t, m) = runner.measure("  AᵀA by a.tr_mul(&a) (column dot products)", || {
+        a.tr_mul(&a)
+    });
+    rows.push(t);
+    assert!(close(&m));
+    let (t, m) = runner.measure("  AᵀA by a.transpose() * &a (nalgebra gemm)", || {
+        a.transpose() * &a
+    });
+    rows.push(t);
+    assert!(close(&m));
+    let (t, m) = runner.measure(
+        "  AᵀA upper triangle, gemm by blocks of 16 columns",
+        || upper_by_gemm_blocks(&a, 16),
+    );
+    rows.push(t);
+    assert!(close(&m));
+    let (t, chol) = runner.measure("  Cholesky of AᵀA", || {
+        ata.clone().cholesky().expect("positive definite")
+    });
+    rows.push(t);
+    let (t, x) = runner.measure("  chol.solve(&aty)", || chol.solve(&aty));
+    rows.push(t);
+    let (t, _) = runner.measure("  residuals y − A x, row by row", || {
+        residuals_by_rows(a_rows, &heights_m, x.as_slice())
+    });
+    rows.push(t);
+    let (t, _) = runner.measure("  chol.inverse() (covariance)", || chol.inverse());
+    rows.push(t);
+    drop((a, y, ata, chol, m));
+
+    // 3. Prediction in this process: the largest constituents of the analysis.
+    let mut big = an.clone();
+    big.fitted
+        .sort_by(|x, y| y.amplitude_m.total_cmp(&x.amplitude_m));
+    big.fitted.truncate(PREDICTION_CONSTITUENTS);
+    big.fitted.sort_by(|x, y| {
+        x.constituent
+            .speed_deg_per_h
+            .total_cmp(&y.constituent.speed_deg_per_h)
+    });
+    let k: HarmonicConstants = big.constants();
+    let (t, h) = runner.measure(
+        "predict_grid: 19 years every 6 min, 37 constituents",
+        || predict_grid(&k, PREDICTION_T0_S, PREDICTION_STEP_S, PREDICTION_N),
+    );
+    let t_grid = t.median_s;
+    rows.push(t);
+    let (t, ex) = runner.measure("extremes: high and low waters of that grid", || {
+        extremes(&k, PREDICTION_T0_S, PREDICTION_STEP_S, &h)
+    });
+    let t_extremes = t.median_s;
+    rows.push(t);
+    assert_eq!(h.len(), PREDICTION_N);
+    let highs = ex.iter().filter(|e| e.high).count();
+    // About 705 high and 705 low waters a year for a semidiurnal tide.
+    assert!(
+        (13_000..14_000).contains(&highs) && (13_000..14_000).contains(&(ex.len() - highs)),
+        "{highs} high and {} low waters",
+        ex.len() - highs
+    );
+    drop(h);
+
+    // 4. Whole processes.
+    let dir = tempfile::tempdir().expect("a temporary folder");
+    let out_toml = dir.path().join("record_1y.constants.toml");
+    let analyse_cmd = |extra: &[&str]| {
+        let status = Command::new(&neap)
+            .arg("analyse")
+            .arg(&record)
+            .args(["--time-column", "time_utc", "--height-column", "height_m"])
+            .args(extra)
+            .arg("--out")
+            .arg(&out_toml)
+            .stdout(Stdio::null())
+            .stderr(Stdio::inherit())
+            .status()
+            .expect("neap starts");
+        assert!(status.success(), "neap analyse: {status}");
+    };
+    let (t, ()) = runner.measure(
+        "neap analyse RECORD (whole process, automatic choice)",
+        || analyse_cmd(&[]),
+    );
+    let t_process_auto = t.median_s;
+    rows.push(t);
+    let file = fs::read_to_string(&out_toml).expect("the constants file");
+    assert_eq!(
+        file.matches("[[constituent]]").count(),
+        an_auto.fitted.len(),
+        "constituents in the constants file"
+    );
+    let list_arg = names.join(",");
+    let (t, ()) = runner.measure(
+        &format!("neap analyse RECORD --constituents <the {}>", list.len()),
+        || analyse_cmd(&["--constituents", &list_arg]),
+    );
+    rows.push(t);
+    let file = fs::read_to_string(&out_toml).expect("the constants file");
+    assert_eq!(file.matches("[[constituent]]").count(), list.len());
+
+    let constants = dir.path().join("big37.constants.toml");
+    fs::write(
+        &constants,
+        ConstantsFile::from_analysis(&big, Some(RECORD.into()), None, "above the record's zero")
+            .to_toml(),
+    )
+    .expect("write the constants");
+    let pred = dir.path().join("pred.csv");
+    let pred_ex = dir.path().join("pred.extremes.csv");
+    let (t, ()) = runner.measure("neap predict: 19 years every 6 min, files written", || {
+        for p in [&pred, &pred_ex] {
+            let _ = fs::remove_file(p);
+        }
+        let status = Command::new(&neap)
+            .arg("predict")
+            .arg(&constants)
+            .args(["--from", PREDICTION_FROM, "--to", PREDICTION_TO])
+            .args(["--step-min", "6"])
+            .arg("--out")
+            .arg(&pred)
+            .arg("--extremes")
+            .arg(&pred_ex)
+            .stdout(Stdio::null())
+            .stderr(Stdio::inherit())
+            .status()
+            .expect("neap starts");
+        assert!(status.success(), "neap predict: {status}");
+    });
+    let t_predict_process = t.median_s;
+    rows.push(t);
+    let mut compute_s = Vec::new();
+    let t_last_s = PREDICTION_T0_S + (PREDICTION_N - 1) as f64 * PREDICTION_STEP_S;
+    let (t, ()) = runner.measure(
+        "  predict_file (neap predict's work, in this process)",
+        || {
+            let o = predict_file(
+                &constants,
+                PREDICTION_T0_S,
+                t_last_s,
+                PREDICTION_STEP_S,
+                &pred,
+                &pred_ex,
+            )
+            .expect("predict_file");
+            assert_eq!(o.n, PREDICTION_N);
+            compute_s.push(o.compute_s);
+        },
+    );
+    let t_predict_file = t.median_s;
+    rows.push(t);
+    let (compute_median_s, _) = median_min(compute_s);
+    let pred_mib = fs::metadata(&pred).map(|m| m.len()).unwrap_or(0) as f64 / 1048576.0;
+    let pred_lines = fs::read_to_string(&pred)
+        .expect("the prediction")
+        .lines()
+        .count();
+    assert_eq!(pred_lines, PREDICTION_N + 1, "lines of the prediction");
+    let ex_lines = fs::read_to_string(&pred_ex)
+        .expect("the extremes")
+        .lines()
+        .count();
+
+    println!(
+        "  {:<62} {:>10} {:>10} {:>10} {:>10}",
+        "measurement", "median ms", "min ms", "CPU ms", "disturbed"
+    );
+    for (i, t) in rows.iter().enumerate() {
+        if i == n_solve_rows {
+            println!(
+                "  what solve spends its time on, repeated on an equivalent {samples} × {unknowns} \
+                 matrix:"
+            );
+        }
+        println!(
+            "  {:<62} {:>10.2} {:>10.2} {:>10.2} {:>10}",
+            t.label,
+            t.median_s * 1e3,
+            t.min_s * 1e3,
+            t.cpu_median_s * 1e3,
+            format!("{}/{}", t.disturbed, t.discarded)
+        );
+    }
+    println!();
+    println!(
+        "  CPU ms: median CPU time of the measured work (this process and its children). \
+         disturbed: kept runs during which other processes used more than \
+         {DISTURBED_OTHER_CPU_PER_WALL} CPU-s per s / disturbed runs discarded and run again."
+    );
+    println!(
+        "  analysis: {samples} samples, {unknowns} unknowns (Z0 + 2 × {}); residual RMS {:.4} m; \
+         the automatic choice fits {auto_fitted} constituents ({} inferred)",
+        list.len(),
+        an.residual_rms_m,
+        an_auto.fitted.len() - auto_fitted
+    );
+    println!(
+        "  prediction: {PREDICTION_N} values, {} constituents ({} … {}), {highs} high and {} low \
+         waters; prediction file {pred_mib:.1} MiB, extremes file {} lines",
+        k.constituents.len(),
+        k.constituents[0].0.name,
+        k.constituents[k.constituents.len() - 1].0.name,
+        ex.len() - highs,
+        ex_lines
+    );
+    let verdict = |ok: bool| if ok { "met" } else { "NOT met" };
+    println!(
+        "  target: least-squares solve < {} ms: {} ({})",
+        TARGET_SOLVE_S * 1e3,
+        ms(t_solve),
+        verdict(t_solve < TARGET_SOLVE_S)
+    );
+    println!(
+        "  target: prediction < {} s: predict_grid + extremes {} ({}); whole neap predict \
+         process with files {}",
+        TARGET_PREDICTION_S,
+        ms(t_grid + t_extremes),
+        verdict(t_grid + t_extremes < TARGET_PREDICTION_S),
+        ms(t_predict_process)
+    );
+    println!(
+        "  predict_file in this process {}: predict_grid + extremes {} (its own clock), the rest \
+         ({}) reading the constants, formatting and writing {pred_mib:.1} MiB (synced)",
+        ms(t_predict_file),
+        ms(compute_median_s),
+        ms(t_predict_file - compute_median_s)
+    );
+    println!(
+        "  neap analyse (whole process, automatic choice) {}: for the 20× comparison with UTide run \
+         bash tests/reference/harmonics/bench_side_by_side.sh",
+        ms(t_process_auto)
+    );
+    println!("  load average after: {}", load_average());
+}
