@@ -501,20 +501,63 @@ pub fn solve(d: &Design) -> Result<Analysis, String> {
         (&d.a, &d.y, &d.fitted_cons, &d.inferences, &d.inferred_of);
     let (n, p) = (y.len(), d.p);
     // Normal equations, upper triangle, accumulated row by row: the inner loop runs over
-    // contiguous memory and vectorises (several times faster than a general product here).
+    // contiguous memory and vectorises (several times faster than a general product here). Rows
+    // are split in blocks summed on all cores; the sums are added in block order, so the result
+    // does not depend on the number of threads' scheduling.
+    let accumulate = |rows: &[f64], ys: &[f64]| {
+        let mut upper = vec![0.0; p * p];
+        let mut aty = vec![0.0; p];
+        // Four rows at a time: each pass over the triangle adds four products, so the triangle
+        // is read and written a quarter as often.
+        let mut quads = rows.chunks_exact(4 * p);
+        let mut yq = ys.chunks_exact(4);
+        for (q, yv) in (&mut quads).zip(&mut yq) {
+            let (r0, rest) = q.split_at(p);
+            let (r1, rest) = rest.split_at(p);
+            let (r2, r3) = rest.split_at(p);
+            for i in 0..p {
+                let (a0, a1, a2, a3) = (r0[i], r1[i], r2[i], r3[i]);
+                let dst = &mut upper[i * p + i..(i + 1) * p];
+                for ((((d, &b0), &b1), &b2), &b3) in dst
+                    .iter_mut()
+                    .zip(&r0[i..])
+                    .zip(&r1[i..])
+                    .zip(&r2[i..])
+                    .zip(&r3[i..])
+                {
+                    *d += a0 * b0 + a1 * b1 + a2 * b2 + a3 * b3;
+                }
+                aty[i] += a0 * yv[0] + a1 * yv[1] + a2 * yv[2] + a3 * yv[3];
+            }
+        }
+        for (row, &yr) in quads.remainder().chunks_exact(p).zip(yq.remainder()) {
+            for i in 0..p {
+                let ri = row[i];
+                let dst = &mut upper[i * p + i..(i + 1) * p];
+                for (d, &rj) in dst.iter_mut().zip(&row[i..]) {
+                    *d += ri * rj;
+                }
+                aty[i] += ri * yr;
+            }
+        }
+        (upper, aty)
+    };
+    const BLOCK_ROWS: usize = 2048;
+    let parts: Vec<(Vec<f64>, Vec<f64>)> = {
+        use rayon::prelude::*;
+        a.par_chunks(BLOCK_ROWS * p)
+            .zip(y.par_chunks(BLOCK_ROWS))
+            .map(|(rows, ys)| accumulate(rows, ys))
+            .collect()
+    };
     let mut ata_upper = vec![0.0; p * p];
     let mut aty = DVector::<f64>::zeros(p);
-    for (row, &yr) in a.chunks_exact(p).zip(y) {
-        for i in 0..p {
-            let ri = row[i];
-            if ri == 0.0 {
-                continue;
-            }
-            let dst = &mut ata_upper[i * p + i..(i + 1) * p];
-            for (d, &rj) in dst.iter_mut().zip(&row[i..]) {
-                *d += ri * rj;
-            }
-            aty[i] += ri * yr;
+    for (u, v) in &parts {
+        for (d, s) in ata_upper.iter_mut().zip(u) {
+            *d += s;
+        }
+        for (d, s) in aty.iter_mut().zip(v) {
+            *d += s;
         }
     }
     let ata = DMatrix::<f64>::from_fn(p, p, |i, j| {
