@@ -27,11 +27,12 @@
 //!    matrix), `solve` (normal equations, Cholesky, residuals, covariance) and `analyse` (both),
 //!    with nodal corrections per sample (the default) and at the record's centre; and `analyse`
 //!    with neap's automatic choice (what `neap analyse` fits by default);
-//! 2. what the solve spends its time on, its steps repeated on a matrix of the same shape (cos/sin
-//!    columns at the same speeds over the same times, f = 1), and other ways of forming the
-//!    normal equations: four rows per pass, nalgebra's `tr_mul` (column dot products), nalgebra's
-//!    general product (`matrixmultiply`), and that product by column blocks over the upper
-//!    triangle only;
+//! 2. what the solve spends its time on, its steps repeated on one thread on a matrix of the
+//!    same shape (cos/sin columns at the same speeds over the same times, f = 1), with several
+//!    ways of forming the normal equations: one row per pass over the upper triangle, four rows
+//!    per pass (what `solve` does, there on blocks of rows spread over all cores), nalgebra's
+//!    `tr_mul` (column dot products), nalgebra's general product (`matrixmultiply`), and that
+//!    product by column blocks over the upper triangle only;
 //! 3. prediction from the 37 largest constituents of analysis 1 over 19 years every 6 minutes
 //!    (6940 days from 2025-01-01T00:00Z, 1 665 600 values): `predict_grid` and `extremes`;
 //! 4. whole processes (`<target>/release/neap`, spawn to exit): `neap analyse` of the record
@@ -366,7 +367,7 @@ fn mirrored(upper: &[f64], p: usize) -> DMatrix<f64> {
 }
 
 /// AᵀA and Aᵀy from a row-major `a` (`p` columns), one rank-one update of the upper triangle per
-/// row: the loop `solve` runs.
+/// row, on one thread.
 fn normal_by_rows(a: &[f64], y: &[f64], p: usize) -> (DMatrix<f64>, DVector<f64>) {
     let mut upper = vec![0.0; p * p];
     let mut aty = DVector::<f64>::zeros(p);
@@ -387,7 +388,8 @@ fn normal_by_rows(a: &[f64], y: &[f64], p: usize) -> (DMatrix<f64>, DVector<f64>
 }
 
 /// As [`normal_by_rows`], four rows per pass over the triangle (a quarter of the loads and
-/// stores of the triangle), the remaining rows one at a time.
+/// stores of the triangle), the remaining rows one at a time. `solve` does this on blocks of rows
+/// spread over all cores.
 fn normal_by_rows4(a: &[f64], y: &[f64], p: usize) -> (DMatrix<f64>, DVector<f64>) {
     let mut upper = vec![0.0; p * p];
     let mut aty = DVector::<f64>::zeros(p);
@@ -607,12 +609,12 @@ fn main() {
     let a_rows = a_rows.as_slice();
     let y = DVector::from_column_slice(&heights_m);
     let (t, (ata, aty)) = runner.measure(
-        "  AᵀA and Aᵀy row by row, upper triangle (as solve does)",
+        "  AᵀA and Aᵀy, one row per pass over the upper triangle",
         || normal_by_rows(a_rows, &heights_m, unknowns),
     );
     rows.push(t);
     let close = |m: &DMatrix<f64>| (&ata - m).amax() < 1e-9 * ata.amax();
-    let (t, m) = runner.measure("  the same, four rows at a time", || {
+    let (t, m) = runner.measure("  the same, four rows per pass (one thread)", || {
         normal_by_rows4(a_rows, &heights_m, unknowns)
     });
     rows.push(t);
@@ -786,7 +788,7 @@ fn main() {
     for (i, t) in rows.iter().enumerate() {
         if i == n_solve_rows {
             println!(
-                "  what solve spends its time on, repeated on an equivalent {samples} × {unknowns} \
+                "  the steps of solve, on one thread, on an equivalent {samples} × {unknowns} \
                  matrix:"
             );
         }
