@@ -134,6 +134,19 @@ impl QcSummary {
     }
 }
 
+/// Adds `qc-summary.json` to the summary's outputs and writes it there.
+fn finish_summary(mut summary: QcSummary, out_dir: &Path) -> Result<QcSummary, IoError> {
+    let path = out_dir.join("qc-summary.json");
+    summary.outputs.push(path.clone());
+    write_atomic(
+        &path,
+        serde_json::to_string_pretty(&summary)
+            .expect("summary serialises")
+            .as_bytes(),
+    )?;
+    Ok(summary)
+}
+
 fn file_stem_safe(id: &str) -> String {
     id.chars()
         .map(|c| {
@@ -285,7 +298,7 @@ pub fn qc_single_record(
         levels_above_datum,
         out_dir,
     )?;
-    let mut summary = QcSummary {
+    let summary = QcSummary {
         schema: QC_SCHEMA,
         neap_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
@@ -294,15 +307,7 @@ pub fn qc_single_record(
         comparisons_note: Some("a single record has no neighbour to compare with".into()),
         outputs: Vec::new(),
     };
-    let path = out_dir.join("qc-summary.json");
-    summary.outputs.push(path.clone());
-    write_atomic(
-        &path,
-        serde_json::to_string_pretty(&summary)
-            .expect("summary serialises")
-            .as_bytes(),
-    )?;
-    Ok(summary)
+    finish_summary(summary, out_dir)
 }
 
 /// QC of a project's gauge records when the project does not load as a whole (e.g. a broken
@@ -334,7 +339,7 @@ pub fn qc_records_only(
             out_dir,
         )?);
     }
-    let mut summary = QcSummary {
+    let summary = QcSummary {
         schema: QC_SCHEMA,
         neap_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
@@ -343,15 +348,7 @@ pub fn qc_records_only(
         comparisons_note: Some(format!("no comparison: {why}")),
         outputs: Vec::new(),
     };
-    let path = out_dir.join("qc-summary.json");
-    summary.outputs.push(path.clone());
-    write_atomic(
-        &path,
-        serde_json::to_string_pretty(&summary)
-            .expect("summary serialises")
-            .as_bytes(),
-    )?;
-    Ok(summary)
+    finish_summary(summary, out_dir)
 }
 
 /// The comparisons the zoning allows: (pair name, a, b, evaluation times).
@@ -559,7 +556,7 @@ pub fn qc_project(
             diff_text.as_bytes(),
         )?);
     }
-    let mut summary = QcSummary {
+    let summary = QcSummary {
         schema: QC_SCHEMA,
         neap_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
@@ -568,13 +565,5 @@ pub fn qc_project(
         comparisons_note,
         outputs,
     };
-    let path = out_dir.join("qc-summary.json");
-    summary.outputs.push(path.clone());
-    write_atomic(
-        &path,
-        serde_json::to_string_pretty(&summary)
-            .expect("summary serialises")
-            .as_bytes(),
-    )?;
-    Ok(summary)
+    finish_summary(summary, out_dir)
 }
