@@ -4,11 +4,11 @@
 
 use std::time::Instant;
 
-use neap::compute::correctors::{zone_correctors, CorrectorUncertainty};
-use neap::compute::series::{LevelSeries, Linear};
-use neap::compute::uncertainty::{rate_series, GaugeUncertainty, ZoneUncertainty};
-use neap::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
-use neap::io::correctors_file::{push_zone_rows, ZONE_CORRECTOR_COLUMNS};
+use ebbwise::compute::correctors::{zone_correctors, CorrectorUncertainty};
+use ebbwise::compute::series::{LevelSeries, Linear};
+use ebbwise::compute::uncertainty::{rate_series, GaugeUncertainty, ZoneUncertainty};
+use ebbwise::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
+use ebbwise::io::correctors_file::{push_zone_rows, ZONE_CORRECTOR_COLUMNS};
 
 fn main() {
     let omega = 28.984_104_2_f64.to_radians() / 3600.0;
@@ -86,7 +86,7 @@ fn main() {
             rows += c.len();
             push_zone_rows(&mut text, &z.id, &c);
         }
-        neap::io::atomic::write_atomic(&path, text.as_bytes()).unwrap();
+        ebbwise::io::atomic::write_atomic(&path, text.as_bytes()).unwrap();
         times.push(start.elapsed().as_secs_f64());
     }
     times.sort_by(f64::total_cmp);

@@ -1,8 +1,8 @@
 //! Harmonic analysis of a one-year hourly record and a 19-year 6-minute prediction (the
-//! benchmark targets of issue 7), in this process and as whole `neap` processes.
+//! benchmark targets of issue 7), in this process and as whole `ebbwise` processes.
 //!
 //! ```text
-//! cargo build --release --bin neap
+//! cargo build --release --bin ebbwise
 //! cargo bench --bench harmonics                  # 11 runs of each measurement
 //! cargo bench --bench harmonics -- --runs 21 --wait-idle 0
 //! ```
@@ -14,19 +14,19 @@
 //! **Record**: `tests/fixtures/harmonics/record_1y.csv`, 8760 hourly heights (365 days from
 //! 2025-03-03T05:00Z; see tests/reference/harmonics/README.md), read with `read_gauge_record`.
 //!
-//! **Constituents of the analysis**: every constituent of neap's table that this record separates
+//! **Constituents of the analysis**: every constituent of ebbwise's table that this record separates
 //! by the Rayleigh criterion at factor 1 (360°/T, T = last − first sample = 8759 h, so 0.0411 °/h),
 //! admitted greedily in order of equilibrium amplitude, then the others in table order. That gives
 //! 58 constituents (117 unknowns with Z0): the whole table but SA (too close to Z0), PI1 (to P1),
 //! S1 (to P1 and K1), PSI1 (to K1), T2 and R2 (to S2), and 2MK3 (MO3's speed). UTide picks 59 for
-//! the same record: 56 of these plus three neap does not tabulate (ALP1, BET1, UPS1).
+//! the same record: 56 of these plus three ebbwise does not tabulate (ALP1, BET1, UPS1).
 //!
 //! Measured, as medians over `--runs` runs (wall clock, `Instant`):
 //!
 //! 1. analysis with those 58 constituents: `design` (arguments, nodal corrections and the design
 //!    matrix), `solve` (normal equations, Cholesky, residuals, covariance) and `analyse` (both),
 //!    with nodal corrections per sample (the default) and at the record's centre; and `analyse`
-//!    with neap's automatic choice (what `neap analyse` fits by default);
+//!    with ebbwise's automatic choice (what `ebbwise analyse` fits by default);
 //! 2. what the solve spends its time on, its steps repeated on one thread on a matrix of the
 //!    same shape (cos/sin columns at the same speeds over the same times, f = 1), with several
 //!    ways of forming the normal equations: one row per pass over the upper triangle, four rows
@@ -34,15 +34,15 @@
 //!    `tr_mul` (column dot products), nalgebra's general product (`matrixmultiply`), and that
 //!    product by column blocks over the upper triangle only;
 //! 3. prediction from the 37 largest constituents of analysis 1 over 19 years every 6 minutes
-//!    (6940 days from 2025-01-01T00:00Z, 1 665 600 values): `predict_grid` and `extremes`;
-//! 4. whole processes (`<target>/release/neap`, spawn to exit): `neap analyse` of the record
-//!    (automatic choice, and the 58 constituents) and `neap predict` of the 19 years, writing the
+//!    (6940 days from 2025-01-01T00:00Z, 1 665 600 values): `predict_grid` and `high_low_waters`;
+//! 4. whole processes (`<target>/release/ebbwise`, spawn to exit): `ebbwise analyse` of the record
+//!    (automatic choice, and the 58 constituents) and `ebbwise predict` of the 19 years, writing the
 //!    series and the high/low waters to the system's temporary directory.
 //!
 //! For every run the CPU time other processes used meanwhile is read from /proc/stat; a run in
 //! which they used more than 0.1 CPU-second per second (plus 20 ms for the 10 ms tick of
-//! /proc/stat) is disturbed, discarded and run again (at most `--retries` times). The neap binary
-//! is not built here: build it first with `cargo build --release --bin neap`. The Python
+//! /proc/stat) is disturbed, discarded and run again (at most `--retries` times). The ebbwise binary
+//! is not built here: build it first with `cargo build --release --bin ebbwise`. The Python
 //! comparison (UTide) is `tests/reference/harmonics/bench_side_by_side.sh`. Figures are kept in
 //! docs/benchmarks.md.
 
@@ -52,15 +52,16 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Instant, SystemTime};
 
-use nalgebra::{DMatrix, DVector};
-use neap::compute::astro::{constituent, constituents, Constituent};
-use neap::compute::harmonic::{
-    analyse, design, extremes, predict_grid, solve, AnalysisSettings, HarmonicConstants, NodalMode,
+use ebbwise::compute::astro::{constituent, constituents, Constituent};
+use ebbwise::compute::harmonic::{
+    analyse, design, high_low_waters, predict_grid, solve, AnalysisSettings, HarmonicConstants,
+    NodalMode,
 };
-use neap::io::constants::ConstantsFile;
-use neap::io::gauge_csv::read_gauge_record;
-use neap::io::project::{GaugeSpec, HeightUnit};
-use neap::run::harmonics::predict_file;
+use ebbwise::io::constants::ConstantsFile;
+use ebbwise::io::gauge_csv::read_gauge_record;
+use ebbwise::io::project::{GaugeSpec, HeightUnit};
+use ebbwise::run::harmonics::predict_file;
+use nalgebra::{DMatrix, DVector};
 
 /// The benchmark record, relative to the repository.
 const RECORD: &str = "tests/fixtures/harmonics/record_1y.csv";
@@ -74,7 +75,7 @@ const PREDICTION_T0_S: f64 = 1_735_689_600.0;
 const PREDICTION_STEP_S: f64 = 360.0;
 /// Prediction length: 6940 days (19 Julian years round up to 6940 days) of 240 values.
 const PREDICTION_N: usize = 6940 * 240;
-/// The same span for `neap predict` (`--to` is included when it is on the grid).
+/// The same span for `ebbwise predict` (`--to` is included when it is on the grid).
 const PREDICTION_FROM: &str = "2025-01-01T00:00:00Z";
 const PREDICTION_TO: &str = "2044-01-01T23:54:00Z";
 /// The targets of issue 7.
@@ -241,8 +242,8 @@ fn median_min(mut v: Vec<f64>) -> (f64, f64) {
     (median, v[0])
 }
 
-/// `<target>/release/neap`, found from this executable's place (`<target>/release/deps/`).
-fn neap_binary() -> PathBuf {
+/// `<target>/release/ebbwise`, found from this executable's place (`<target>/release/deps/`).
+fn ebbwise_binary() -> PathBuf {
     let exe = std::env::current_exe().expect("this executable");
     let target = exe
         .parent()
@@ -251,19 +252,19 @@ fn neap_binary() -> PathBuf {
         .and_then(Path::parent)
         .map(Path::to_path_buf)
         .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
-    let neap = target.join("release").join("neap");
+    let ebbwise = target.join("release").join("ebbwise");
     assert!(
-        neap.is_file(),
-        "{} does not exist: build it first with `cargo build --release --bin neap` (this bench \
+        ebbwise.is_file(),
+        "{} does not exist: build it first with `cargo build --release --bin ebbwise` (this bench \
          builds nothing itself)",
-        neap.display()
+        ebbwise.display()
     );
-    neap
+    ebbwise
 }
 
 /// Warns when a file under src/ is newer than the binary.
-fn warn_if_stale(neap: &Path) {
-    let Ok(built) = fs::metadata(neap).and_then(|m| m.modified()) else {
+fn warn_if_stale(ebbwise: &Path) {
+    let Ok(built) = fs::metadata(ebbwise).and_then(|m| m.modified()) else {
         return;
     };
     let mut newest: Option<(SystemTime, PathBuf)> = None;
@@ -284,10 +285,10 @@ fn warn_if_stale(neap: &Path) {
     if let Some((t, p)) = newest {
         if t > built {
             eprintln!(
-                "harmonics: warning: {} is newer than {}; run `cargo build --release --bin neap` \
+                "harmonics: warning: {} is newer than {}; run `cargo build --release --bin ebbwise` \
                  to measure the current code",
                 p.display(),
-                neap.display()
+                ebbwise.display()
             );
         }
     }
@@ -478,12 +479,12 @@ fn main() {
             other => panic!("unknown argument '{other}'\n{USAGE}"),
         }
     }
-    let neap = neap_binary();
-    warn_if_stale(&neap);
+    let ebbwise = ebbwise_binary();
+    warn_if_stale(&ebbwise);
     let repo = Path::new(env!("CARGO_MANIFEST_DIR"));
     let record = repo.join(RECORD);
 
-    // The record, read as neap analyse reads it (QC aside).
+    // The record, read as ebbwise analyse reads it (QC aside).
     let mut spec = GaugeSpec::for_record(&record, HeightUnit::Metre, 0.0);
     spec.time_column = "time_utc".into();
     spec.height_column = "height_m".into();
@@ -534,7 +535,7 @@ fn main() {
             .collect::<Vec<_>>()
             .join(", ")
     );
-    println!("  neap     {}", neap.display());
+    println!("  ebbwise     {}", ebbwise.display());
     println!();
 
     let mut rows: Vec<Timed> = Vec::new();
@@ -569,9 +570,10 @@ fn main() {
     });
     rows.push(t);
     drop(dc);
-    let (t, an_auto) = runner.measure("analyse, automatic choice (neap analyse default)", || {
-        analyse(&times_s, &heights_m, &auto).expect("analyse")
-    });
+    let (t, an_auto) = runner.measure(
+        "analyse, automatic choice (ebbwise analyse default)",
+        || analyse(&times_s, &heights_m, &auto).expect("analyse"),
+    );
     let auto_fitted = an_auto
         .fitted
         .iter()
@@ -666,10 +668,10 @@ fn main() {
     );
     let t_grid = t.median_s;
     rows.push(t);
-    let (t, ex) = runner.measure("extremes: high and low waters of that grid", || {
-        extremes(&k, PREDICTION_T0_S, PREDICTION_STEP_S, &h)
+    let (t, ex) = runner.measure("high_low_waters: high and low waters of that grid", || {
+        high_low_waters(&k, PREDICTION_T0_S, PREDICTION_STEP_S, &h)
     });
-    let t_extremes = t.median_s;
+    let t_high_low_waters = t.median_s;
     rows.push(t);
     assert_eq!(h.len(), PREDICTION_N);
     let highs = ex.iter().filter(|e| e.high).count();
@@ -685,7 +687,7 @@ fn main() {
     let dir = tempfile::tempdir().expect("a temporary folder");
     let out_toml = dir.path().join("record_1y.constants.toml");
     let analyse_cmd = |extra: &[&str]| {
-        let status = Command::new(&neap)
+        let status = Command::new(&ebbwise)
             .arg("analyse")
             .arg(&record)
             .args(["--time-column", "time_utc", "--height-column", "height_m"])
@@ -695,11 +697,11 @@ fn main() {
             .stdout(Stdio::null())
             .stderr(Stdio::inherit())
             .status()
-            .expect("neap starts");
-        assert!(status.success(), "neap analyse: {status}");
+            .expect("ebbwise starts");
+        assert!(status.success(), "ebbwise analyse: {status}");
     };
     let (t, ()) = runner.measure(
-        "neap analyse RECORD (whole process, automatic choice)",
+        "ebbwise analyse RECORD (whole process, automatic choice)",
         || analyse_cmd(&[]),
     );
     let t_process_auto = t.median_s;
@@ -712,7 +714,7 @@ fn main() {
     );
     let list_arg = names.join(",");
     let (t, ()) = runner.measure(
-        &format!("neap analyse RECORD --constituents <the {}>", list.len()),
+        &format!("ebbwise analyse RECORD --constituents <the {}>", list.len()),
         || analyse_cmd(&["--constituents", &list_arg]),
     );
     rows.push(t);
@@ -727,32 +729,35 @@ fn main() {
     )
     .expect("write the constants");
     let pred = dir.path().join("pred.csv");
-    let pred_ex = dir.path().join("pred.extremes.csv");
-    let (t, ()) = runner.measure("neap predict: 19 years every 6 min, files written", || {
-        for p in [&pred, &pred_ex] {
-            let _ = fs::remove_file(p);
-        }
-        let status = Command::new(&neap)
-            .arg("predict")
-            .arg(&constants)
-            .args(["--from", PREDICTION_FROM, "--to", PREDICTION_TO])
-            .args(["--step-min", "6"])
-            .arg("--out")
-            .arg(&pred)
-            .arg("--extremes")
-            .arg(&pred_ex)
-            .stdout(Stdio::null())
-            .stderr(Stdio::inherit())
-            .status()
-            .expect("neap starts");
-        assert!(status.success(), "neap predict: {status}");
-    });
+    let pred_ex = dir.path().join("pred.high-low-waters.csv");
+    let (t, ()) = runner.measure(
+        "ebbwise predict: 19 years every 6 min, files written",
+        || {
+            for p in [&pred, &pred_ex] {
+                let _ = fs::remove_file(p);
+            }
+            let status = Command::new(&ebbwise)
+                .arg("predict")
+                .arg(&constants)
+                .args(["--from", PREDICTION_FROM, "--to", PREDICTION_TO])
+                .args(["--step-min", "6"])
+                .arg("--out")
+                .arg(&pred)
+                .arg("--high-low-waters")
+                .arg(&pred_ex)
+                .stdout(Stdio::null())
+                .stderr(Stdio::inherit())
+                .status()
+                .expect("ebbwise starts");
+            assert!(status.success(), "ebbwise predict: {status}");
+        },
+    );
     let t_predict_process = t.median_s;
     rows.push(t);
     let mut compute_s = Vec::new();
     let t_last_s = PREDICTION_T0_S + (PREDICTION_N - 1) as f64 * PREDICTION_STEP_S;
     let (t, ()) = runner.measure(
-        "  predict_file (neap predict's work, in this process)",
+        "  predict_file (ebbwise predict's work, in this process)",
         || {
             let o = predict_file(
                 &constants,
@@ -777,7 +782,7 @@ fn main() {
         .count();
     assert_eq!(pred_lines, PREDICTION_N + 1, "lines of the prediction");
     let ex_lines = fs::read_to_string(&pred_ex)
-        .expect("the extremes")
+        .expect("the high and low waters")
         .lines()
         .count();
 
@@ -816,7 +821,7 @@ fn main() {
     );
     println!(
         "  prediction: {PREDICTION_N} values, {} constituents ({} … {}), {highs} high and {} low \
-         waters; prediction file {pred_mib:.1} MiB, extremes file {} lines",
+         waters; prediction file {pred_mib:.1} MiB, high-low-water file {} lines",
         k.constituents.len(),
         k.constituents[0].0.name,
         k.constituents[k.constituents.len() - 1].0.name,
@@ -831,22 +836,22 @@ fn main() {
         verdict(t_solve < TARGET_SOLVE_S)
     );
     println!(
-        "  target: prediction < {} s: predict_grid + extremes {} ({}); whole neap predict \
+        "  target: prediction < {} s: predict_grid + high_low_waters {} ({}); whole ebbwise predict \
          process with files {}",
         TARGET_PREDICTION_S,
-        ms(t_grid + t_extremes),
-        verdict(t_grid + t_extremes < TARGET_PREDICTION_S),
+        ms(t_grid + t_high_low_waters),
+        verdict(t_grid + t_high_low_waters < TARGET_PREDICTION_S),
         ms(t_predict_process)
     );
     println!(
-        "  predict_file in this process {}: predict_grid + extremes {} (its own clock), the rest \
+        "  predict_file in this process {}: predict_grid + high_low_waters {} (its own clock), the rest \
          ({}) reading the constants, formatting and writing {pred_mib:.1} MiB (synced)",
         ms(t_predict_file),
         ms(compute_median_s),
         ms(t_predict_file - compute_median_s)
     );
     println!(
-        "  neap analyse (whole process, automatic choice) {}: for the 20× comparison with UTide run \
+        "  ebbwise analyse (whole process, automatic choice) {}: for the 20× comparison with UTide run \
          bash tests/reference/harmonics/bench_side_by_side.sh",
         ms(t_process_auto)
     );

@@ -1,8 +1,8 @@
 //! Quality control of a one-year 1-minute gauge record (525 600 samples): `run_qc` alone, the
-//! reducer's per-gauge preparation (`prepare_series`) and the whole `neap qc --record` process.
+//! reducer's per-gauge preparation (`prepare_series`) and the whole `ebbwise qc --record` process.
 //!
 //! ```text
-//! cargo build --release --bin neap
+//! cargo build --release --bin ebbwise
 //! cargo bench --bench qc_year                 # 7 rounds
 //! cargo bench --bench qc_year -- --runs 11 --retries 5 --wait-idle 0
 //! ```
@@ -18,13 +18,13 @@
 //! in the order below, so that a drift in the machine's speed touches all of them alike): wall
 //! time (`Instant`) and CPU time of this process and its children (`getrusage`).
 //!
-//! 1. `neap::compute::qc::run_qc` on the samples in memory;
-//! 2. `neap::run::load::prepare_series` with QC on: linear interpolation, a 10-min low-pass,
+//! 1. `ebbwise::compute::qc::run_qc` on the samples in memory;
+//! 2. `ebbwise::run::load::prepare_series` with QC on: linear interpolation, a 10-min low-pass,
 //!    a forced natural cubic spline, and both;
-//! 3. the phases of `neap qc --record` in this process: reading the CSV
+//! 3. the phases of `ebbwise qc --record` in this process: reading the CSV
 //!    (`read_gauge_record`), writing `<stem>.qc.csv` and `<stem>.qc.svg` (`write_gauge_qc`), and
 //!    rendering the SVG alone (the QC phase is measurement 2, linear);
-//! 4. the whole `neap qc --record FILE --out DIR` child process (`<target>/release/neap`; its
+//! 4. the whole `ebbwise qc --record FILE --out DIR` child process (`<target>/release/ebbwise`; its
 //!    output folder is deleted first), started through a small helper (this executable again,
 //!    `--child-rss`) that reports its peak resident set from `wait4`: started from the bench
 //!    itself, the child's `ru_maxrss` would include the bench's own memory.
@@ -39,8 +39,8 @@
 //! `perf record target/release/deps/qc_year-<hash> --profile-run-qc 20`.
 //!
 //! The record is written as CSV (`time,height`, RFC 3339 UTC times) to a temporary folder (the
-//! system's temporary directory). The neap binary is not built here: build it first with
-//! `cargo build --release --bin neap`.
+//! system's temporary directory). The ebbwise binary is not built here: build it first with
+//! `cargo build --release --bin ebbwise`.
 
 use std::fmt::Write as _;
 use std::fs;
@@ -50,12 +50,12 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Instant, SystemTime};
 
-use neap::compute::qc::{run_qc, QcFlag, QcResult};
-use neap::io::gauge_csv::read_gauge_record;
-use neap::io::project::{GaugeSpec, HeightUnit, InterpolationChoice, InterpolationSpec, QcSpec};
-use neap::io::qc_svg::{render_qc_svg, QcPlot};
-use neap::run::load::{prepare_series, PreparedSeries};
-use neap::run::qc::write_gauge_qc;
+use ebbwise::compute::qc::{run_qc, QcFlag, QcResult};
+use ebbwise::io::gauge_csv::read_gauge_record;
+use ebbwise::io::project::{GaugeSpec, HeightUnit, InterpolationChoice, InterpolationSpec, QcSpec};
+use ebbwise::io::qc_svg::{render_qc_svg, QcPlot};
+use ebbwise::run::load::{prepare_series, PreparedSeries};
+use ebbwise::run::qc::write_gauge_qc;
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
 
@@ -426,8 +426,8 @@ fn median_min(mut v: Vec<f64>) -> (f64, f64) {
     (median, v[0])
 }
 
-/// `<target>/release/neap`, found from this executable's place (`<target>/release/deps/`).
-fn neap_binary() -> PathBuf {
+/// `<target>/release/ebbwise`, found from this executable's place (`<target>/release/deps/`).
+fn ebbwise_binary() -> PathBuf {
     let exe = std::env::current_exe().expect("this executable");
     let target = exe
         .parent()
@@ -436,19 +436,19 @@ fn neap_binary() -> PathBuf {
         .and_then(Path::parent)
         .map(Path::to_path_buf)
         .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
-    let neap = target.join("release").join("neap");
+    let ebbwise = target.join("release").join("ebbwise");
     assert!(
-        neap.is_file(),
-        "{} does not exist: build it first with `cargo build --release --bin neap` (this bench \
+        ebbwise.is_file(),
+        "{} does not exist: build it first with `cargo build --release --bin ebbwise` (this bench \
          builds nothing itself)",
-        neap.display()
+        ebbwise.display()
     );
-    neap
+    ebbwise
 }
 
 /// Warns when a file under src/ is newer than the binary.
-fn warn_if_stale(neap: &Path) {
-    let Ok(built) = fs::metadata(neap).and_then(|m| m.modified()) else {
+fn warn_if_stale(ebbwise: &Path) {
+    let Ok(built) = fs::metadata(ebbwise).and_then(|m| m.modified()) else {
         return;
     };
     let mut newest: Option<(SystemTime, PathBuf)> = None;
@@ -469,10 +469,10 @@ fn warn_if_stale(neap: &Path) {
     if let Some((t, p)) = newest {
         if t > built {
             eprintln!(
-                "qc_year: warning: {} is newer than {}; run `cargo build --release --bin neap` \
+                "qc_year: warning: {} is newer than {}; run `cargo build --release --bin ebbwise` \
                  to measure the current code",
                 p.display(),
-                neap.display()
+                ebbwise.display()
             );
         }
     }
@@ -526,8 +526,8 @@ fn main() {
         profile_only_run_qc(k, &times_s, &heights_m);
         return;
     }
-    let neap = neap_binary();
-    warn_if_stale(&neap);
+    let ebbwise = ebbwise_binary();
+    warn_if_stale(&ebbwise);
 
     let dir = tempfile::tempdir().expect("a temporary folder");
     let csv = dir.path().join("year.csv");
@@ -536,7 +536,7 @@ fn main() {
 
     let mut gauge = GaugeSpec::for_record(&csv, HeightUnit::Metre, 0.0);
     gauge.mean_level_above_datum_m = MEAN_LEVEL_M;
-    // The record as `neap qc --record` reads it, checked against the generated samples.
+    // The record as `ebbwise qc --record` reads it, checked against the generated samples.
     let record = read_gauge_record(&gauge, None).expect("readable");
     assert_eq!(record.times_s, times_s, "the CSV changed the times");
     assert_eq!(record.heights_m, heights_m, "the CSV changed the levels");
@@ -561,7 +561,7 @@ fn main() {
         load_average()
     );
     println!("  record   {} ({csv_mib:.1} MiB)", csv.display());
-    println!("  neap     {}", neap.display());
+    println!("  ebbwise     {}", ebbwise.display());
     println!();
 
     // The measurements. Each keeps its last result, checked after the rounds.
@@ -658,13 +658,13 @@ fn main() {
     ));
     // The whole process; its output folder is removed first (inside the timing, a few ms).
     tasks.push((
-        "neap qc --record (whole process)".into(),
+        "ebbwise qc --record (whole process)".into(),
         Box::new(|| {
             if out.exists() {
                 fs::remove_dir_all(&out).expect("remove the previous output");
             }
             let (code, rss_kib) = run_with_rss(
-                &neap,
+                &ebbwise,
                 &[
                     "qc".as_ref(),
                     "--record".as_ref(),
@@ -707,7 +707,7 @@ fn main() {
     // 1: samples flagged (the planted faults), as it should be.
     assert!(
         exit_codes.iter().all(|&c| c == 1),
-        "neap qc --record exit codes {exit_codes:?} (1 expected: samples flagged)"
+        "ebbwise qc --record exit codes {exit_codes:?} (1 expected: samples flagged)"
     );
     // What the helper adds: its own start and a trivial child's.
     let floor_start = Instant::now();
@@ -724,7 +724,7 @@ fn main() {
         assert_eq!(
             summary["gauges"][0]["flags"][f.as_str()].as_u64(),
             Some(q.count(f) as u64),
-            "neap qc --record: the {} count differs from run_qc's",
+            "ebbwise qc --record: the {} count differs from run_qc's",
             f.as_str()
         );
     }
@@ -770,7 +770,7 @@ fn main() {
          CPU-s per s / disturbed runs discarded and run again."
     );
     println!(
-        "  neap qc --record: peak RSS {:.1} MiB (largest of the runs); year.qc.csv \
+        "  ebbwise qc --record: peak RSS {:.1} MiB (largest of the runs); year.qc.csv \
          {qc_csv_mib:.1} MiB; year.qc.svg {svg_kib:.0} KiB",
         peak_rss_kib as f64 / 1024.0,
     );

@@ -1,8 +1,8 @@
-//! Throughput and peak memory of `neap reduce` on one large soundings file, against a baseline
+//! Throughput and peak memory of `ebbwise reduce` on one large soundings file, against a baseline
 //! that only copies the same file through the `csv` crate.
 //!
 //! ```text
-//! cargo build --release --bin neap
+//! cargo build --release --bin ebbwise
 //! cargo bench --bench reduce_throughput                       # 5 000 000 soundings, 3 runs
 //! cargo bench --bench reduce_throughput -- --soundings 20000000 --runs 3
 //! ```
@@ -23,7 +23,7 @@
 //!      northing parsed as `f64`, every record written back with three float columns appended
 //!      (depth, depth + 1, depth − 1, formatted with `ryu`) through a `csv::Writer` over a
 //!      256 KiB `BufWriter`;
-//!    * **neap**: `<target>/release/neap reduce <project> --out <dir> --no-progress`, run from a
+//!    * **ebbwise**: `<target>/release/ebbwise reduce <project> --out <dir> --no-progress`, run from a
 //!      copy taken at the start (a rebuild during the benchmark cannot mix two builds).
 //!
 //!    Before each child it waits (at most `--wait-idle` seconds, default 60; 0 to skip) until
@@ -34,7 +34,7 @@
 //! 3. Prints medians, throughput and peak memory, the machine, and a Markdown table that is also
 //!    written to `<target>/bench-data/results-n<N>.md`.
 //!
-//! The neap binary is not built here: build it first with `cargo build --release --bin neap`.
+//! The ebbwise binary is not built here: build it first with `cargo build --release --bin ebbwise`.
 
 use std::fs::{self, File};
 use std::hint::black_box;
@@ -66,8 +66,8 @@ const TIME_SPAN_MS: u64 = 10 * 3_600 * 1_000;
 const MAX_POSITION_OFFSET_M: f64 = 0.5;
 /// Bump when the generated file's content changes, so that stale caches are not reused.
 const GENERATOR_VERSION: u32 = 1;
-/// Memory target for neap, MiB (whatever the file size).
-const NEAP_PEAK_RSS_TARGET_MIB: f64 = 50.0;
+/// Memory target for ebbwise, MiB (whatever the file size).
+const EBBWISE_PEAK_RSS_TARGET_MIB: f64 = 50.0;
 /// A run is flagged as disturbed when other processes used more than this many CPU seconds per
 /// second of its wall time.
 const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
@@ -149,8 +149,8 @@ fn parse_count(s: &str) -> Option<u64> {
 // Locations
 
 struct Paths {
-    /// `<target>/release/neap`.
-    neap: PathBuf,
+    /// `<target>/release/ebbwise`.
+    ebbwise: PathBuf,
     /// `<target>/bench-data`.
     data_root: PathBuf,
     /// The bundled demo folder.
@@ -167,24 +167,24 @@ fn locate() -> Result<Paths, String> {
         .and_then(Path::parent)
         .map(Path::to_path_buf)
         .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
-    let neap = target.join("release").join("neap");
-    if !neap.is_file() {
+    let ebbwise = target.join("release").join("ebbwise");
+    if !ebbwise.is_file() {
         return Err(format!(
-            "{} does not exist: build it first with `cargo build --release --bin neap` \
+            "{} does not exist: build it first with `cargo build --release --bin ebbwise` \
              (this benchmark builds nothing itself)",
-            neap.display()
+            ebbwise.display()
         ));
     }
     Ok(Paths {
-        neap,
+        ebbwise,
         data_root: target.join("bench-data"),
         demo: Path::new(env!("CARGO_MANIFEST_DIR")).join("zoning-demo"),
     })
 }
 
-/// Warns when a source file is newer than the neap binary (the binary may be stale).
-fn warn_if_stale(neap: &Path) {
-    let Ok(built) = fs::metadata(neap).and_then(|m| m.modified()) else {
+/// Warns when a source file is newer than the ebbwise binary (the binary may be stale).
+fn warn_if_stale(ebbwise: &Path) {
+    let Ok(built) = fs::metadata(ebbwise).and_then(|m| m.modified()) else {
         return;
     };
     let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("src");
@@ -207,9 +207,9 @@ fn warn_if_stale(neap: &Path) {
         if t > built {
             eprintln!(
                 "reduce_throughput: warning: {} is newer than {}; run `cargo build --release \
-                 --bin neap` to measure the current code",
+                 --bin ebbwise` to measure the current code",
                 p.display(),
-                neap.display()
+                ebbwise.display()
             );
         }
     }
@@ -365,7 +365,7 @@ fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<Vec<Stri
     let mut doc = toml::Table::new();
     doc.insert(
         "name".into(),
-        toml::Value::String(format!("neap throughput benchmark, {n} soundings")),
+        toml::Value::String(format!("ebbwise throughput benchmark, {n} soundings")),
     );
     let zoning = demo_doc
         .get("zoning")
@@ -705,9 +705,9 @@ fn machine() -> Machine {
     }
 }
 
-/// `neap --version` and when the binary was built (its modification time).
-fn neap_build(neap: &Path, built_at: Option<SystemTime>) -> String {
-    let version = Command::new(neap)
+/// `ebbwise --version` and when the binary was built (its modification time).
+fn ebbwise_build(ebbwise: &Path, built_at: Option<SystemTime>) -> String {
+    let version = Command::new(ebbwise)
         .arg("--version")
         .output()
         .ok()
@@ -764,8 +764,8 @@ fn mib(kib: i64) -> f64 {
     kib as f64 / 1024.0
 }
 
-/// Reads neap's run summary: rows per status (an object `{status: n}` or pairs `[status, n]`).
-fn neap_status_counts(summary: &Path) -> String {
+/// Reads ebbwise's run summary: rows per status (an object `{status: n}` or pairs `[status, n]`).
+fn ebbwise_status_counts(summary: &Path) -> String {
     let Ok(text) = fs::read_to_string(summary) else {
         return "(no reduce-summary.json)".into();
     };
@@ -829,7 +829,7 @@ fn run_baseline_once(
             tail(base_log, 20)
         ));
     }
-    // Time to make the baseline's output durable (neap syncs its output before renaming it,
+    // Time to make the baseline's output durable (ebbwise syncs its output before renaming it,
     // inside its measured time; the baseline does not). Informational only.
     let t = Instant::now();
     File::open(base_out)
@@ -849,51 +849,51 @@ fn run_baseline_once(
     Ok((b, fsync_s, size_mib))
 }
 
-/// One neap run: the measurement, the output's size in MiB and neap's status counts. The output
+/// One ebbwise run: the measurement, the output's size in MiB and ebbwise's status counts. The output
 /// is checked (header + one line per sounding), then deleted.
-fn run_neap_once(
-    neap: &Path,
+fn run_ebbwise_once(
+    ebbwise: &Path,
     project: &Path,
-    neap_out: &Path,
-    neap_csv: &Path,
-    neap_log: &Path,
+    ebbwise_out: &Path,
+    ebbwise_csv: &Path,
+    ebbwise_log: &Path,
     n: u64,
 ) -> Result<(Measured, f64, String), String> {
-    let mut cmd = Command::new(neap);
+    let mut cmd = Command::new(ebbwise);
     cmd.arg("reduce")
         .arg(project)
         .arg("--out")
-        .arg(neap_out)
+        .arg(ebbwise_out)
         .arg("--no-progress");
-    let r = run_measured(&mut cmd, neap_log)?;
+    let r = run_measured(&mut cmd, ebbwise_log)?;
     // 0: all reduced; 1: some rows not reduced (expected: the demo's gauge gap and the
-    // overshooting line); anything else means neap could not run.
+    // overshooting line); anything else means ebbwise could not run.
     if !matches!(r.exit_code, Some(0) | Some(1)) {
         return Err(format!(
-            "neap failed (exit {:?}); its log {}:\n{}",
+            "ebbwise failed (exit {:?}); its log {}:\n{}",
             r.exit_code,
-            neap_log.display(),
-            tail(neap_log, 30)
+            ebbwise_log.display(),
+            tail(ebbwise_log, 30)
         ));
     }
-    let lines = count_lines(neap_csv)
-        .map_err(|e| format!("neap's output is missing or unreadable: {e}"))?;
+    let lines = count_lines(ebbwise_csv)
+        .map_err(|e| format!("ebbwise's output is missing or unreadable: {e}"))?;
     if lines != n + 1 {
         return Err(format!(
-            "neap wrote {lines} lines to {}, expected {} (header + one per sounding)",
-            neap_csv.display(),
+            "ebbwise wrote {lines} lines to {}, expected {} (header + one per sounding)",
+            ebbwise_csv.display(),
             n + 1
         ));
     }
-    let size_mib = file_mib(neap_csv);
-    let statuses = neap_status_counts(&neap_out.join("reduce-summary.json"));
-    remove_if_present(neap_out)?;
+    let size_mib = file_mib(ebbwise_csv);
+    let statuses = ebbwise_status_counts(&ebbwise_out.join("reduce-summary.json"));
+    remove_if_present(ebbwise_out)?;
     Ok((r, size_mib, statuses))
 }
 
 fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), String> {
     let paths = locate()?;
-    warn_if_stale(&paths.neap);
+    warn_if_stale(&paths.ebbwise);
     // The children are this executable again. /proc/self/exe still names it when cargo has
     // replaced the file meanwhile (a rebuild during the benchmark).
     let this_exe = if Path::new("/proc/self/exe").exists() {
@@ -941,44 +941,44 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
     }
     let input_mib = file_mib(&csv);
 
-    let neap_out = dir.join("out-neap");
-    let neap_csv = neap_out.join(
+    let ebbwise_out = dir.join("out-ebbwise");
+    let ebbwise_csv = ebbwise_out.join(
         csv.file_stem()
             .map(|s| format!("{}.reduced.csv", s.to_string_lossy()))
             .unwrap_or_default(),
     );
     let base_out = dir.join("out-baseline.csv");
-    let neap_log = dir.join("neap.log");
+    let ebbwise_log = dir.join("ebbwise.log");
     let base_log = dir.join("baseline.log");
-    remove_if_present(&neap_out)?;
+    remove_if_present(&ebbwise_out)?;
     remove_if_present(&base_out)?;
 
-    // Run a copy, so that a rebuild of target/release/neap during the benchmark (cargo by
+    // Run a copy, so that a rebuild of target/release/ebbwise during the benchmark (cargo by
     // another user of the target folder) cannot mix two builds in one result.
-    let neap_copy = dir.join("neap-under-test");
+    let ebbwise_copy = dir.join("ebbwise-under-test");
     let modified = |p: &Path| fs::metadata(p).and_then(|m| m.modified()).ok();
-    let built_at = modified(&paths.neap);
-    fs::copy(&paths.neap, &neap_copy).map_err(|e| {
+    let built_at = modified(&paths.ebbwise);
+    fs::copy(&paths.ebbwise, &ebbwise_copy).map_err(|e| {
         format!(
             "cannot copy {} to {}: {e}",
-            paths.neap.display(),
-            neap_copy.display()
+            paths.ebbwise.display(),
+            ebbwise_copy.display()
         )
     })?;
-    if modified(&paths.neap) != built_at {
+    if modified(&paths.ebbwise) != built_at {
         return Err(format!(
             "{} changed while it was being copied (a build is running?): run again",
-            paths.neap.display()
+            paths.ebbwise.display()
         ));
     }
-    let built = neap_build(&neap_copy, built_at);
+    let built = ebbwise_build(&ebbwise_copy, built_at);
     let m = machine();
     let load_before = load_average();
     // Peak RSS that a trivial child reports when started from this process: the floor that any
     // child's ru_maxrss includes.
     let floor = run_measured(&mut Command::new("true"), &dir.join("true.log"))?;
 
-    println!("neap reduce throughput: {n} soundings, {runs} run(s) of each side");
+    println!("ebbwise reduce throughput: {n} soundings, {runs} run(s) of each side");
     println!("  input     {} ({input_mib:.0} MiB)", csv.display());
     println!("  project   {}", project.display());
     if !not_carried.is_empty() {
@@ -987,8 +987,8 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
             not_carried.join(", ")
         );
     }
-    println!("  neap      {} ({})", paths.neap.display(), built);
-    println!("            run from a copy: {}", neap_copy.display());
+    println!("  ebbwise      {} ({})", paths.ebbwise.display(), built);
+    println!("            run from a copy: {}", ebbwise_copy.display());
     println!(
         "  machine   {} | {} logical CPUs | {:.1} GiB RAM | Linux {}",
         m.cpu_model, m.logical_cpus, m.memory_gib, m.kernel
@@ -1005,13 +1005,13 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
     );
 
     let mut base_runs: Vec<Measured> = Vec::new();
-    let mut neap_runs: Vec<Measured> = Vec::new();
+    let mut ebbwise_runs: Vec<Measured> = Vec::new();
     let mut base_fsync_s: Vec<f64> = Vec::new();
     let mut out_mib = (f64::NAN, f64::NAN);
     let mut statuses = String::new();
     let mut discarded = 0usize;
     for run in 1..=runs {
-        for side in ["baseline", "neap"] {
+        for side in ["baseline", "ebbwise"] {
             let mut attempt = 0;
             loop {
                 attempt += 1;
@@ -1023,8 +1023,14 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
                     out_mib.0 = size_mib;
                     m
                 } else {
-                    let (m, size_mib, st) =
-                        run_neap_once(&neap_copy, &project, &neap_out, &neap_csv, &neap_log, n)?;
+                    let (m, size_mib, st) = run_ebbwise_once(
+                        &ebbwise_copy,
+                        &project,
+                        &ebbwise_out,
+                        &ebbwise_csv,
+                        &ebbwise_log,
+                        n,
+                    )?;
                     out_mib.1 = size_mib;
                     statuses = st;
                     m
@@ -1057,7 +1063,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
                 if side == "baseline" {
                     base_runs.push(m);
                 } else {
-                    neap_runs.push(m);
+                    ebbwise_runs.push(m);
                 }
                 break;
             }
@@ -1073,7 +1079,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
         )
     };
     let (b_wall_s, b_cpu_s, b_rss_kib) = summary(&base_runs);
-    let (n_wall_s, n_cpu_s, n_rss_kib) = summary(&neap_runs);
+    let (n_wall_s, n_cpu_s, n_rss_kib) = summary(&ebbwise_runs);
     let fsync_s = median(base_fsync_s);
     let ratio = b_wall_s / n_wall_s;
     let rate = |wall_s: f64| n as f64 / wall_s;
@@ -1081,7 +1087,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
     let mut md = String::new();
     md.push_str(&format!(
         "{n} soundings ({input_mib:.0} MiB of CSV), {runs} run(s) of each side, {}.\n\
-         neap: {}.\n\
+         ebbwise: {}.\n\
          Machine: {}, {} logical CPUs, {:.1} GiB RAM, Linux {}. Load average before/after: \
          {load_before} / {load_after}.\n\n",
         utc_label(SystemTime::now()),
@@ -1102,20 +1108,20 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
         out_mib.0
     ));
     md.push_str(&format!(
-        "| neap reduce | {n_wall_s:.2} | {:.0} | {n_cpu_s:.2} | {:.1} | {:.0} |\n\n",
+        "| ebbwise reduce | {n_wall_s:.2} | {:.0} | {n_cpu_s:.2} | {:.1} | {:.0} |\n\n",
         rate(n_wall_s),
         mib(n_rss_kib),
         out_mib.1
     ));
     md.push_str(&format!(
-        "neap / baseline throughput: **{ratio:.2}×** (target ≥ 1: {}). neap peak RSS \
-         {:.1} MiB (target < {NEAP_PEAK_RSS_TARGET_MIB:.0} MiB: {}).\n\
-         Baseline output fsync, not in the baseline's time: median {fsync_s:.2} s (neap's time \
+        "ebbwise / baseline throughput: **{ratio:.2}×** (target ≥ 1: {}). ebbwise peak RSS \
+         {:.1} MiB (target < {EBBWISE_PEAK_RSS_TARGET_MIB:.0} MiB: {}).\n\
+         Baseline output fsync, not in the baseline's time: median {fsync_s:.2} s (ebbwise's time \
          includes syncing its own output). A trivial child started the same way reports \
-         {:.1} MiB peak RSS.\nneap statuses: {statuses}.\n",
+         {:.1} MiB peak RSS.\nebbwise statuses: {statuses}.\n",
         if ratio >= 1.0 { "met" } else { "NOT met" },
         mib(n_rss_kib),
-        if mib(n_rss_kib) < NEAP_PEAK_RSS_TARGET_MIB {
+        if mib(n_rss_kib) < EBBWISE_PEAK_RSS_TARGET_MIB {
             "met"
         } else {
             "NOT met"
@@ -1124,7 +1130,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
     ));
     let disturbed = base_runs
         .iter()
-        .chain(&neap_runs)
+        .chain(&ebbwise_runs)
         .filter(|r| r.disturbed())
         .count();
     md.push_str(&format!(
@@ -1134,9 +1140,9 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
         2 * runs
     ));
     md.push_str("\nPer run (wall s / CPU s / peak RSS MiB / other processes' CPU s):\n\n");
-    for (i, (b, r)) in base_runs.iter().zip(&neap_runs).enumerate() {
+    for (i, (b, r)) in base_runs.iter().zip(&ebbwise_runs).enumerate() {
         md.push_str(&format!(
-            "- run {}: baseline {:.2} / {:.2} / {:.1} / {:.2}{}; neap {:.2} / {:.2} / {:.1} / {:.2}{}\n",
+            "- run {}: baseline {:.2} / {:.2} / {:.1} / {:.2}{}; ebbwise {:.2} / {:.2} / {:.1} / {:.2}{}\n",
             i + 1,
             b.wall_s,
             b.cpu_s,

@@ -1,6 +1,6 @@
-//! # neap — soundings to chart datum
+//! # ebbwise — soundings to chart datum
 //!
-//! A library (and the `neap` command) that reduces a survey day's soundings to chart datum:
+//! A library (and the `ebbwise` command) that reduces a survey day's soundings to chart datum:
 //! it reads gauge water-level records, carries the tide across the survey area by tidal zoning,
 //! subtracts it from every sounding and accounts for every row.
 //!

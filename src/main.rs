@@ -1,4 +1,4 @@
-//! The `neap` command: parses options and hands off to the library's `run` layer.
+//! The `ebbwise` command: parses options and hands off to the library's `run` layer.
 
 mod cli;
 

@@ -1,4 +1,4 @@
-//! Integration tests: one binary, modules per behaviour. Most run the real `neap` program in a
+//! Integration tests: one binary, modules per behaviour. Most run the real `ebbwise` program in a
 //! temporary folder.
 
 mod it;

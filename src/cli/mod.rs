@@ -7,19 +7,19 @@ use std::path::{Path, PathBuf};
 
 use clap::{Parser, Subcommand};
 
-use neap::compute::reduce::SoundingStatus;
-use neap::io::error::Finding;
-use neap::io::project::Project;
-use neap::io::report_html::render_html;
-use neap::run::check::check_project;
-use neap::run::load::load;
-use neap::run::qa_report::build_qa_report;
-use neap::run::reduce::{reduce_project, ReduceOptions, RunSummary};
-use neap::{CAUTION, EXIT_CANNOT_RUN, EXIT_INCOMPLETE, EXIT_OK};
+use ebbwise::compute::reduce::SoundingStatus;
+use ebbwise::io::error::Finding;
+use ebbwise::io::project::Project;
+use ebbwise::io::report_html::render_html;
+use ebbwise::run::check::check_project;
+use ebbwise::run::load::load;
+use ebbwise::run::qa_report::build_qa_report;
+use ebbwise::run::reduce::{reduce_project, ReduceOptions, RunSummary};
+use ebbwise::{CAUTION, EXIT_CANNOT_RUN, EXIT_INCOMPLETE, EXIT_OK};
 
 /// Reduce hydrographic soundings to chart datum with tidal zoning.
 #[derive(Debug, Parser)]
-#[command(name = "neap", version, about, long_about = None)]
+#[command(name = "ebbwise", version, about, long_about = None)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -82,7 +82,7 @@ enum Command {
         #[arg(long)]
         per_line: bool,
     },
-    /// Reduce soundings with tide from a correction file written by `neap correctors`.
+    /// Reduce soundings with tide from a correction file written by `ebbwise correctors`.
     Apply {
         /// The correction file (per zone or per sounding).
         corrections: PathBuf,
@@ -173,7 +173,7 @@ enum Command {
     },
     /// Predict the tide from a constants file on a regular grid, with high and low waters.
     Predict {
-        /// The constants file (written by `neap analyse`); or give --project and --gauge.
+        /// The constants file (written by `ebbwise analyse`); or give --project and --gauge.
         #[arg(required_unless_present = "project", conflicts_with = "project")]
         constants: Option<PathBuf>,
         /// A project file whose gauge names its constants (`[[gauge]] constants`).
@@ -194,9 +194,9 @@ enum Command {
         /// The series file (default `<constants name>.prediction.csv` in the current folder).
         #[arg(long)]
         out: Option<PathBuf>,
-        /// The high/low water file (default `<constants name>.extremes.csv`).
+        /// The high/low water file (default `<constants name>.high-low-waters.csv`).
         #[arg(long)]
-        extremes: Option<PathBuf>,
+        high_low_waters: Option<PathBuf>,
     },
     /// Reduce the bundled demo survey and say where the results are.
     Demo {
@@ -231,7 +231,7 @@ pub fn main() -> i32 {
         } => {
             if let Some(n) = threads {
                 if n == 0 {
-                    eprintln!("neap: --threads must be at least 1");
+                    eprintln!("ebbwise: --threads must be at least 1");
                     return EXIT_CANNOT_RUN;
                 }
                 let _ = rayon::ThreadPoolBuilder::new()
@@ -322,7 +322,7 @@ pub fn main() -> i32 {
             to,
             step_min,
             out,
-            extremes,
+            high_low_waters,
         } => {
             let constants = match (constants, project) {
                 (Some(c), _) => c,
@@ -332,14 +332,14 @@ pub fn main() -> i32 {
                 },
                 (None, None) => return EXIT_CANNOT_RUN,
             };
-            cmd_predict(&constants, &from, &to, step_min, out, extremes)
+            cmd_predict(&constants, &from, &to, step_min, out, high_low_waters)
         }
         Command::Demo { dir } => cmd_demo(dir),
     }
 }
 
 fn report_failure(e: anyhow::Error) -> i32 {
-    eprintln!("neap: {e:#}");
+    eprintln!("ebbwise: {e:#}");
     EXIT_CANNOT_RUN
 }
 
@@ -387,7 +387,7 @@ fn run_reduce(
                 l.uncertainty = None;
             } else if order.is_some() && l.uncertainty.is_none() {
                 eprintln!(
-                    "neap: --order needs an [uncertainty] section in the project (see docs/project-file.md)"
+                    "ebbwise: --order needs an [uncertainty] section in the project (see docs/project-file.md)"
                 );
                 return Ok(Err(EXIT_CANNOT_RUN));
             }
@@ -396,7 +396,7 @@ fn run_reduce(
         Err(findings) => {
             print_findings(&findings);
             eprintln!(
-                "neap: cannot reduce: fix the errors above (`neap check` lists every problem)"
+                "ebbwise: cannot reduce: fix the errors above (`ebbwise check` lists every problem)"
             );
             return Ok(Err(EXIT_CANNOT_RUN));
         }
@@ -407,19 +407,19 @@ fn run_reduce(
         &ReduceOptions {
             out_dir: out_dir.clone(),
             progress,
-            kind: neap::run::reduce::RunKind::Reduce,
+            kind: ebbwise::run::reduce::RunKind::Reduce,
             only_files: None,
         },
     )?;
     let json = serde_json::to_vec_pretty(&summary)?;
     let summary_path = out_dir.join("reduce-summary.json");
-    neap::io::atomic::write_atomic(&summary_path, &json)?;
+    ebbwise::io::atomic::write_atomic(&summary_path, &json)?;
     let verdict = match build_qa_report(&loaded, &summary) {
         Some(report) => {
             let json_path = out_dir.join("qa-report.json");
             let html_path = out_dir.join("qa-report.html");
-            neap::io::atomic::write_atomic(&json_path, &serde_json::to_vec_pretty(&report)?)?;
-            neap::io::atomic::write_atomic(&html_path, render_html(&report).as_bytes())?;
+            ebbwise::io::atomic::write_atomic(&json_path, &serde_json::to_vec_pretty(&report)?)?;
+            ebbwise::io::atomic::write_atomic(&html_path, render_html(&report).as_bytes())?;
             Some(format!(
                 "  order {}: {:.1} % of {} reduced soundings within the allowed TVU (acceptance {:.0} %): {}; strictest order met: {}; dominant component: {}\n  QA report: {} and {}",
                 report.chosen_order.name,
@@ -456,7 +456,7 @@ fn print_summary(
     verdict: Option<&str>,
 ) {
     let mut e = std::io::stderr().lock();
-    let _ = writeln!(e, "neap {command}: {name}");
+    let _ = writeln!(e, "ebbwise {command}: {name}");
     for f in &s.files {
         let _ = writeln!(
             e,
@@ -529,13 +529,15 @@ fn print_summary(
     let _ = writeln!(e, "{CAUTION}");
 }
 
-fn load_or_print(project_path: &Path) -> anyhow::Result<Result<neap::run::load::Loaded, i32>> {
+fn load_or_print(project_path: &Path) -> anyhow::Result<Result<ebbwise::run::load::Loaded, i32>> {
     let project = Project::load(project_path)?;
     match load(project, None) {
         Ok(l) => Ok(Ok(l)),
         Err(findings) => {
             print_findings(&findings);
-            eprintln!("neap: cannot run: fix the errors above (`neap check` lists every problem)");
+            eprintln!(
+                "ebbwise: cannot run: fix the errors above (`ebbwise check` lists every problem)"
+            );
             Ok(Err(EXIT_CANNOT_RUN))
         }
     }
@@ -543,7 +545,7 @@ fn load_or_print(project_path: &Path) -> anyhow::Result<Result<neap::run::load::
 
 fn parse_utc_arg(s: Option<String>, what: &str) -> anyhow::Result<Option<f64>> {
     s.map(|s| {
-        neap::io::timefmt::parse_time(&s, neap::io::timefmt::TimeFormat::Iso8601, None)
+        ebbwise::io::timefmt::parse_time(&s, ebbwise::io::timefmt::TimeFormat::Iso8601, None)
             .map_err(|m| anyhow::anyhow!("--{what}: {m}"))
     })
     .transpose()
@@ -565,9 +567,9 @@ fn cmd_correctors(
         Err(code) => return Ok(code),
     };
     let out_dir = out.unwrap_or_else(|| loaded.project.spec.output.dir.clone());
-    let outcome = neap::run::correctors::write_correctors(
+    let outcome = ebbwise::run::correctors::write_correctors(
         &loaded,
-        &neap::run::correctors::CorrectorsOptions {
+        &ebbwise::run::correctors::CorrectorsOptions {
             out_dir,
             step_min,
             from_s,
@@ -579,10 +581,10 @@ fn cmd_correctors(
     let mut e = std::io::stderr().lock();
     let _ = writeln!(
         e,
-        "neap correctors: {} zones, {} to {}, every {step_min} min",
+        "ebbwise correctors: {} zones, {} to {}, every {step_min} min",
         loaded.zones.len(),
-        neap::compute::utc_label(outcome.span_s.0),
-        neap::compute::utc_label(outcome.span_s.1)
+        ebbwise::compute::utc_label(outcome.span_s.0),
+        ebbwise::compute::utc_label(outcome.span_s.1)
     );
     for (s, n) in &outcome.zone_rows_by_status {
         let _ = writeln!(e, "  {s:<14} {n:>8} zone-times");
@@ -614,11 +616,15 @@ fn cmd_apply(
         Err(code) => return Ok(code),
     };
     let out_dir = out.unwrap_or_else(|| loaded.project.spec.output.dir.clone());
-    let summary =
-        neap::run::correctors::apply_corrections(&loaded, corrections, soundings, out_dir.clone())?;
+    let summary = ebbwise::run::correctors::apply_corrections(
+        &loaded,
+        corrections,
+        soundings,
+        out_dir.clone(),
+    )?;
     let summary_path = out_dir.join("apply-summary.json");
-    neap::io::atomic::write_atomic(&summary_path, &serde_json::to_vec_pretty(&summary)?)?;
-    for w in neap::run::correctors::provenance_mismatches(&loaded, corrections) {
+    ebbwise::io::atomic::write_atomic(&summary_path, &serde_json::to_vec_pretty(&summary)?)?;
+    for w in ebbwise::run::correctors::provenance_mismatches(&loaded, corrections) {
         eprintln!("warning: {w}");
     }
     print_summary(
@@ -649,7 +655,7 @@ fn cmd_check(project: &Path, json: bool) -> i32 {
                 let _ = writeln!(std::io::stdout().lock(), "{s}");
             }
             Err(e) => {
-                eprintln!("neap: {e}");
+                eprintln!("ebbwise: {e}");
                 return EXIT_CANNOT_RUN;
             }
         }
@@ -661,7 +667,7 @@ fn cmd_check(project: &Path, json: bool) -> i32 {
             .map(|(a, b)| format!(", {a} to {b}"))
             .unwrap_or_default();
         eprintln!(
-            "neap check: {} error(s), {} warning(s); {} sounding rows read{span}",
+            "ebbwise check: {} error(s), {} warning(s); {} sounding rows read{span}",
             report.errors(),
             report.warnings(),
             report.sounding_rows
@@ -682,7 +688,7 @@ fn cmd_qc_project(project_path: &Path, gauge: Option<&str>, out: Option<PathBuf>
     if let Some(g) = gauge {
         if !project.spec.gauges.iter().any(|x| x.id == g) {
             eprintln!(
-                "neap: the project has no gauge '{g}' (gauges: {})",
+                "ebbwise: the project has no gauge '{g}' (gauges: {})",
                 project
                     .spec
                     .gauges
@@ -696,13 +702,13 @@ fn cmd_qc_project(project_path: &Path, gauge: Option<&str>, out: Option<PathBuf>
     }
     let out_dir = out.unwrap_or_else(|| project.spec.output.dir.join("qc"));
     let result = match load(project.clone(), None) {
-        Ok(loaded) => neap::run::qc::qc_project(&loaded, gauge, &out_dir),
+        Ok(loaded) => ebbwise::run::qc::qc_project(&loaded, gauge, &out_dir),
         Err(findings) => {
             print_findings(&findings);
             eprintln!(
-                "neap qc: the project does not load as a whole; checking the gauge records alone"
+                "ebbwise qc: the project does not load as a whole; checking the gauge records alone"
             );
-            neap::run::qc::qc_records_only(
+            ebbwise::run::qc::qc_records_only(
                 &project,
                 gauge,
                 &out_dir,
@@ -727,18 +733,18 @@ fn cmd_qc_record(
     let zero_given = zero_above_datum_m.is_some();
     let zero_above_datum_m = zero_above_datum_m.unwrap_or(0.0);
     let units = match units {
-        "m" => neap::io::project::HeightUnit::Metre,
-        "ft" => neap::io::project::HeightUnit::Foot,
-        "us_ft" => neap::io::project::HeightUnit::UsSurveyFoot,
+        "m" => ebbwise::io::project::HeightUnit::Metre,
+        "ft" => ebbwise::io::project::HeightUnit::Foot,
+        "us_ft" => ebbwise::io::project::HeightUnit::UsSurveyFoot,
         other => {
-            eprintln!("neap: --units: expected m, ft or us_ft, found '{other}'");
+            eprintln!("ebbwise: --units: expected m, ft or us_ft, found '{other}'");
             return EXIT_CANNOT_RUN;
         }
     };
-    let mut spec = neap::io::project::GaugeSpec::for_record(record, units, zero_above_datum_m);
+    let mut spec = ebbwise::io::project::GaugeSpec::for_record(record, units, zero_above_datum_m);
     spec.time_column = time_column.to_string();
     spec.height_column = height_column.to_string();
-    let r = match neap::io::gauge_csv::read_gauge_record(&spec, None) {
+    let r = match ebbwise::io::gauge_csv::read_gauge_record(&spec, None) {
         Ok(r) => r,
         Err(e) => return report_failure(e.into()),
     };
@@ -749,10 +755,10 @@ fn cmd_qc_record(
         spec.mean_level_above_datum_m = *levels.select_nth_unstable_by(mid, f64::total_cmp).1;
     }
     let out_dir = out.unwrap_or_else(|| PathBuf::from("qc"));
-    match neap::run::qc::qc_single_record(
+    match ebbwise::run::qc::qc_single_record(
         &spec,
         &r,
-        &neap::io::project::QcSpec::default(),
+        &ebbwise::io::project::QcSpec::default(),
         zero_given,
         &out_dir,
     ) {
@@ -761,7 +767,7 @@ fn cmd_qc_record(
     }
 }
 
-fn print_qc(s: &neap::run::qc::QcSummary) -> i32 {
+fn print_qc(s: &ebbwise::run::qc::QcSummary) -> i32 {
     let mut o = std::io::stdout().lock();
     for g in &s.gauges {
         let _ = writeln!(
@@ -778,7 +784,7 @@ fn print_qc(s: &neap::run::qc::QcSummary) -> i32 {
                 .map(|c| format!(", low-pass {c} min"))
                 .unwrap_or_default()
         );
-        for flag in neap::compute::qc::QcFlag::ALL {
+        for flag in ebbwise::compute::qc::QcFlag::ALL {
             let n = g.flags[flag.as_str()];
             if n == 0 {
                 continue;
@@ -862,18 +868,18 @@ struct AnalyseArgs {
     out: Option<PathBuf>,
 }
 
-fn parse_units(units: &str) -> anyhow::Result<neap::io::project::HeightUnit> {
+fn parse_units(units: &str) -> anyhow::Result<ebbwise::io::project::HeightUnit> {
     Ok(match units {
-        "m" => neap::io::project::HeightUnit::Metre,
-        "ft" => neap::io::project::HeightUnit::Foot,
-        "us_ft" => neap::io::project::HeightUnit::UsSurveyFoot,
+        "m" => ebbwise::io::project::HeightUnit::Metre,
+        "ft" => ebbwise::io::project::HeightUnit::Foot,
+        "us_ft" => ebbwise::io::project::HeightUnit::UsSurveyFoot,
         other => anyhow::bail!("--units: expected m, ft or us_ft, found '{other}'"),
     })
 }
 
 fn cmd_analyse(a: AnalyseArgs) -> i32 {
-    use neap::compute::harmonic::{tide_type, AnalysisSettings, NodalMode};
-    let run = || -> anyhow::Result<neap::run::harmonics::AnalyseOutcome> {
+    use ebbwise::compute::harmonic::{tide_type, AnalysisSettings, NodalMode};
+    let run = || -> anyhow::Result<ebbwise::run::harmonics::AnalyseOutcome> {
         if !(a.rayleigh.is_finite() && a.rayleigh > 0.0) {
             anyhow::bail!(
                 "--rayleigh: expected a positive number, found {}",
@@ -893,7 +899,7 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
         match (&a.record, &a.project) {
             (Some(record), _) => {
                 let units = parse_units(&a.units)?;
-                let mut spec = neap::io::project::GaugeSpec::for_record(
+                let mut spec = ebbwise::io::project::GaugeSpec::for_record(
                     record,
                     units,
                     a.zero_above_datum_m.unwrap_or(0.0),
@@ -901,7 +907,7 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
                 spec.time_column = a.time_column.clone();
                 spec.height_column = a.height_column.clone();
                 // The plausible band for QC is centred on the record's median.
-                if let Ok(r) = neap::io::gauge_csv::read_gauge_record(&spec, None) {
+                if let Ok(r) = ebbwise::io::gauge_csv::read_gauge_record(&spec, None) {
                     let mut v = r.heights_m.clone();
                     if !v.is_empty() {
                         let mid = v.len() / 2;
@@ -918,8 +924,8 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
                 } else {
                     "above the record's zero"
                 };
-                let qc = neap::io::project::QcSpec::default();
-                neap::run::harmonics::analyse_gauge(
+                let qc = ebbwise::io::project::QcSpec::default();
+                ebbwise::run::harmonics::analyse_gauge(
                     &spec,
                     None,
                     (!a.no_qc).then_some(&qc),
@@ -947,7 +953,7 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
                     .out
                     .clone()
                     .unwrap_or_else(|| p.spec.output.dir.join(format!("{}.constants.toml", g.id)));
-                neap::run::harmonics::analyse_gauge(
+                ebbwise::run::harmonics::analyse_gauge(
                     g,
                     p.gauge_naive_offset(g),
                     (!a.no_qc).then_some(&p.spec.qc),
@@ -968,10 +974,10 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
     let mut w = std::io::stdout().lock();
     let _ = writeln!(
         w,
-        "neap analyse: {} samples from {} to {} ({:.1} days){}; nodal corrections {}",
+        "ebbwise analyse: {} samples from {} to {} ({:.1} days){}; nodal corrections {}",
         an.n_samples,
-        neap::compute::utc_label(an.span_s.0),
-        neap::compute::utc_label(an.span_s.1),
+        ebbwise::compute::utc_label(an.span_s.0),
+        ebbwise::compute::utc_label(an.span_s.1),
         (an.span_s.1 - an.span_s.0) / 86400.0,
         if o.set_aside > 0 {
             format!(
@@ -1076,7 +1082,7 @@ fn gauge_constants(project: &Path, gauge: &str) -> anyhow::Result<PathBuf> {
     };
     g.constants.clone().ok_or_else(|| {
         anyhow::anyhow!(
-            "{}: gauge '{gauge}' names no constants file (add `constants = \"….constants.toml\"` to its [[gauge]] table; `neap analyse --project … --gauge {gauge}` writes one)",
+            "{}: gauge '{gauge}' names no constants file (add `constants = \"….constants.toml\"` to its [[gauge]] table; `ebbwise analyse --project … --gauge {gauge}` writes one)",
             project.display()
         )
     })
@@ -1088,9 +1094,9 @@ fn cmd_predict(
     to: &str,
     step_min: f64,
     out: Option<PathBuf>,
-    extremes: Option<PathBuf>,
+    high_low_waters: Option<PathBuf>,
 ) -> i32 {
-    let run = || -> anyhow::Result<neap::run::harmonics::PredictOutcome> {
+    let run = || -> anyhow::Result<ebbwise::run::harmonics::PredictOutcome> {
         let t0 = parse_utc_arg(Some(from.to_string()), "from")?.unwrap_or(0.0);
         let t1 = parse_utc_arg(Some(to.to_string()), "to")?.unwrap_or(0.0);
         if !(step_min.is_finite() && step_min > 0.0) {
@@ -1106,27 +1112,28 @@ fn cmd_predict(
             })
             .unwrap_or_else(|| "tide".into());
         let out = out.unwrap_or_else(|| PathBuf::from(format!("{stem}.prediction.csv")));
-        let ex = extremes.unwrap_or_else(|| PathBuf::from(format!("{stem}.extremes.csv")));
-        neap::run::harmonics::predict_file(constants, t0, t1, step_min * 60.0, &out, &ex)
+        let ex =
+            high_low_waters.unwrap_or_else(|| PathBuf::from(format!("{stem}.high-low-waters.csv")));
+        ebbwise::run::harmonics::predict_file(constants, t0, t1, step_min * 60.0, &out, &ex)
     };
     match run() {
         Ok(o) => {
             let mut w = std::io::stdout().lock();
-            let highs = o.extremes.iter().filter(|e| e.high).count();
+            let highs = o.high_low_waters.iter().filter(|e| e.high).count();
             let _ = writeln!(
                 w,
-                "neap predict: {} values every {step_min} min from {from} to {to}, levels {}; {} high and {} low waters",
+                "ebbwise predict: {} values every {step_min} min from {from} to {to}, levels {}; {} high and {} low waters",
                 o.n,
                 o.levels.as_deref().unwrap_or("as in the constants file"),
                 highs,
-                o.extremes.len() - highs
+                o.high_low_waters.len() - highs
             );
             if let (Some(lo), Some(hi)) = (
-                o.extremes
+                o.high_low_waters
                     .iter()
                     .filter(|e| !e.high)
                     .min_by(|a, b| a.height_m.total_cmp(&b.height_m)),
-                o.extremes
+                o.high_low_waters
                     .iter()
                     .filter(|e| e.high)
                     .max_by(|a, b| a.height_m.total_cmp(&b.height_m)),
@@ -1135,9 +1142,9 @@ fn cmd_predict(
                     w,
                     "  lowest low water {:.3} m at {}; highest high water {:.3} m at {}",
                     lo.height_m,
-                    neap::compute::utc_label(lo.t_s.round()),
+                    ebbwise::compute::utc_label(lo.t_s.round()),
                     hi.height_m,
-                    neap::compute::utc_label(hi.t_s.round())
+                    ebbwise::compute::utc_label(hi.t_s.round())
                 );
             }
             for p in &o.written {
@@ -1161,7 +1168,7 @@ fn cmd_demo(dir: Option<PathBuf>) -> i32 {
     });
     let project = dir.join("project.toml");
     if !project.exists() {
-        eprintln!("neap demo: no demo project at {}", project.display());
+        eprintln!("ebbwise demo: no demo project at {}", project.display());
         return EXIT_CANNOT_RUN;
     }
     match run_reduce(&project, None, true, None, false) {

@@ -616,7 +616,7 @@ mod tests {
 
     // Nodal corrections against pyTMD corrections='FES' (Schureman's expressions). The only
     // differences in the inputs: pyTMD writes the constants of ν and ξ as 1.01883 and 0.64412
-    // where neap computes them from ω and i (1.0188283, 0.6440997); over the whole nodal cycle
+    // where ebbwise computes them from ω and i (1.0188283, 0.6440997); over the whole nodal cycle
     // that moves ν and ξ by ≤ 0.00095° each, and the worst combination, OO1's −2ξ − ν, by
     // ≤ 0.0028°. N differs by < 1e-4°. Tolerance on u: 0.005°. f depends on I (the same
     // constants in both) and, for K1 and K2, on cos ν, cos 2ν → differences ~1e-6; tolerance

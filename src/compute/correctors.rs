@@ -20,7 +20,7 @@ pub enum CorrectorStatus {
     Observed,
     /// At least one feeding gauge was interpolated between samples (within its maximum gap).
     Interpolated,
-    /// Filled from a prediction across a gap (not produced yet: neap does not fill gaps).
+    /// Filled from a prediction across a gap (not produced yet: ebbwise does not fill gaps).
     GapFilled,
     /// No value: a feeding gauge has no level at the corrected time.
     Missing,

@@ -1,7 +1,7 @@
 //! Tidal harmonic analysis (least squares) and prediction.
 //!
 //! Owns: [`AnalysisSettings`], [`select_constituents`], [`analyse`], [`Analysis`],
-//! [`HarmonicConstants`], [`predict_at`], [`predict_grid`], [`extremes`], [`form_factor`].
+//! [`HarmonicConstants`], [`predict_at`], [`predict_grid`], [`high_low_waters`], [`form_factor`].
 //!
 //! Model (field primer §5):
 //!
@@ -727,7 +727,7 @@ pub fn predict_grid(k: &HarmonicConstants, t0_s: f64, step_s: f64, n: usize) -> 
 
 /// A high or low water.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Extreme {
+pub struct HighLowWater {
     /// Time, UTC seconds.
     pub t_s: f64,
     /// Level, metres.
@@ -740,7 +740,12 @@ pub struct Extreme {
 /// refined by Newton steps on the analytic derivative `dh/dt = −Σ f H ω sin(V + u − G)`, with `f`,
 /// `u` and the astronomical arguments evaluated once at the grid point and the phases advanced by
 /// `ω·δt` (exact to first order in δt ≤ one step; the error is far below a second).
-pub fn extremes(k: &HarmonicConstants, t0_s: f64, step_s: f64, heights_m: &[f64]) -> Vec<Extreme> {
+pub fn high_low_waters(
+    k: &HarmonicConstants,
+    t0_s: f64,
+    step_s: f64,
+    heights_m: &[f64],
+) -> Vec<HighLowWater> {
     let m = k.constituents.len();
     let omega: Vec<f64> = k
         .constituents
@@ -793,7 +798,7 @@ pub fn extremes(k: &HarmonicConstants, t0_s: f64, step_s: f64, heights_m: &[f64]
                 break;
             }
         }
-        out.push(Extreme {
+        out.push(HighLowWater {
             t_s: ti + dt,
             height_m: eval(dt).0,
             high,
@@ -1006,12 +1011,12 @@ mod tests {
     }
 
     #[test]
-    fn extremes_are_turning_points_of_the_prediction() {
+    fn high_low_waters_are_turning_points_of_the_prediction() {
         let k = known();
         let t0 = 1_780_000_000.0;
         let h = predict_grid(&k, t0, 600.0, 6 * 24 * 3);
-        let ex = extremes(&k, t0, 600.0, &h);
-        // Semidiurnal: about 4 extremes per day, alternating.
+        let ex = high_low_waters(&k, t0, 600.0, &h);
+        // Semidiurnal: about 4 high and low waters per day, alternating.
         assert!((11..=13).contains(&ex.len()), "{}", ex.len());
         for w in ex.windows(2) {
             assert_ne!(w[0].high, w[1].high);

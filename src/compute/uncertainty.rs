@@ -203,7 +203,7 @@ impl SurveyOrder {
     /// IHO S-44 Edition 6.1.0 (2022), Table 1.
     ///
     /// ```
-    /// use neap::compute::uncertainty::s44_order;
+    /// use ebbwise::compute::uncertainty::s44_order;
     /// let o = s44_order("1a").unwrap();
     /// // Worked check: sqrt(0.5² + (0.013 × 10)²) = 0.5166 m.
     /// approx::assert_relative_eq!(o.tvu_max95_m(10.0), 0.516624, epsilon = 1e-6);

@@ -1,6 +1,6 @@
 //! Output files that appear only when complete.
 //!
-//! An [`AtomicFile`] writes to `.<name>.neap-partial` beside the target and renames it onto the
+//! An [`AtomicFile`] writes to `.<name>.ebbwise-partial` beside the target and renames it onto the
 //! target on [`AtomicFile::commit`]. Dropped without commit (an error, a panic), it removes the
 //! temporary. A run killed outright leaves only the clearly named temporary, which
 //! [`remove_stale_partials`] deletes at the start of the next run.
@@ -12,7 +12,7 @@ use std::path::{Path, PathBuf};
 use super::error::IoError;
 
 /// Suffix of temporary output files.
-pub const PARTIAL_SUFFIX: &str = ".neap-partial";
+pub const PARTIAL_SUFFIX: &str = ".ebbwise-partial";
 
 /// A file being written under a temporary name.
 pub struct AtomicFile {
@@ -148,15 +148,15 @@ mod tests {
         let mut f = AtomicFile::create(&target, &[]).unwrap();
         f.write_all(b"a,b\n").unwrap();
         assert!(!target.exists());
-        assert!(d.path().join(".out.csv.neap-partial").exists());
+        assert!(d.path().join(".out.csv.ebbwise-partial").exists());
         f.commit().unwrap();
         assert_eq!(std::fs::read(&target).unwrap(), b"a,b\n");
         let mut g = AtomicFile::create(&d.path().join("x.csv"), &[]).unwrap();
         g.write_all(b"half").unwrap();
         drop(g);
         assert!(!d.path().join("x.csv").exists());
-        assert!(!d.path().join(".x.csv.neap-partial").exists());
-        std::fs::write(d.path().join(".y.csv.neap-partial"), b"stale").unwrap();
+        assert!(!d.path().join(".x.csv.ebbwise-partial").exists());
+        std::fs::write(d.path().join(".y.csv.ebbwise-partial"), b"stale").unwrap();
         assert_eq!(remove_stale_partials(d.path()), 1);
     }
 

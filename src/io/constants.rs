@@ -1,10 +1,10 @@
-//! Harmonic-constants files (TOML, layout `neap-harmonic-constants/1`).
+//! Harmonic-constants files (TOML, layout `ebbwise-harmonic-constants/1`).
 //!
-//! Written by `neap analyse`, read by `neap predict` and by a project's `[[gauge]] constants`.
+//! Written by `ebbwise analyse`, read by `ebbwise predict` and by a project's `[[gauge]] constants`.
 //! Layout (every length in metres, angles in degrees, times ISO 8601 UTC):
 //!
 //! ```toml
-//! format = "neap-harmonic-constants/1"
+//! format = "ebbwise-harmonic-constants/1"
 //! source = "gauges/orlick.csv"      # the record analysed
 //! gauge = "orlick"                  # when analysed from a project
 //! levels = "above chart datum"      # or "above the record's zero"
@@ -45,7 +45,7 @@ use crate::compute::astro::constituent;
 use crate::compute::harmonic::{tide_type, Analysis, HarmonicConstants};
 
 /// Layout name.
-pub const CONSTANTS_FORMAT: &str = "neap-harmonic-constants/1";
+pub const CONSTANTS_FORMAT: &str = "ebbwise-harmonic-constants/1";
 
 /// One constituent as written.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -178,7 +178,7 @@ impl ConstantsFile {
 
     /// TOML text.
     pub fn to_toml(&self) -> String {
-        let mut s = String::from("# Harmonic constants written by neap analyse (layout described in docs/harmonics.md).\n");
+        let mut s = String::from("# Harmonic constants written by ebbwise analyse (layout described in docs/harmonics.md).\n");
         s.push_str(&toml::to_string(self).expect("constants serialise"));
         s
     }
@@ -207,7 +207,7 @@ impl ConstantsFile {
                 return Err(IoError::content(
                     at(i, "speed_deg_per_h"),
                     format!(
-                        "{} °/h differs from {}'s speed in neap's table ({} °/h): the constant was made with another definition",
+                        "{} °/h differs from {}'s speed in ebbwise's table ({} °/h): the constant was made with another definition",
                         e.speed_deg_per_h, c.name, c.speed_deg_per_h
                     ),
                 ));
@@ -310,13 +310,13 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let p = dir.path().join("k.toml");
         let write = |body: &str| std::fs::write(&p, body).unwrap();
-        write("format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"XX9\"\nspeed_deg_per_h = 1.0\namplitude_m = 0.1\nphase_deg = 0.0\n");
+        write("format = \"ebbwise-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"XX9\"\nspeed_deg_per_h = 1.0\namplitude_m = 0.1\nphase_deg = 0.0\n");
         let e = read_constants(&p).unwrap_err().to_string();
         assert!(
             e.contains("constituent[0].name") && e.contains("unknown constituent 'XX9'"),
             "{e}"
         );
-        write("format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"SA\"\nspeed_deg_per_h = 0.0410686\namplitude_m = 0.1\nphase_deg = 0.0\n");
+        write("format = \"ebbwise-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"SA\"\nspeed_deg_per_h = 0.0410686\namplitude_m = 0.1\nphase_deg = 0.0\n");
         let e = read_constants(&p).unwrap_err().to_string();
         assert!(
             e.contains("speed_deg_per_h") && e.contains("another definition"),
@@ -327,7 +327,7 @@ mod tests {
             .unwrap_err()
             .to_string()
             .contains("field 'format'"));
-        write("format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\ncolour = 3\n");
+        write("format = \"ebbwise-harmonic-constants/1\"\nz0_m = 1.0\ncolour = 3\n");
         let e = read_constants(&p).unwrap_err().to_string();
         assert!(e.contains("k.toml:3"), "{e}");
     }

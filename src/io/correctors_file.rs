@@ -53,7 +53,7 @@ pub const LINE_CORRECTOR_COLUMNS: [&str; 6] = [
 ];
 
 /// Identifier of the correction-file layout (in the sidecar).
-pub const CORRECTORS_FORMAT: &str = "neap-tide-correctors/1";
+pub const CORRECTORS_FORMAT: &str = "ebbwise-tide-correctors/1";
 
 /// SHA-256 of a file, lowercase hex.
 pub fn sha256_file(path: &Path) -> Result<String, IoError> {

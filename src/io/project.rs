@@ -371,14 +371,14 @@ pub struct GaugeSpec {
     /// band_half_width_m`).
     #[serde(default)]
     pub band_max_m: Option<f64>,
-    /// Harmonic constants of this gauge (a file written by `neap analyse`, levels above chart
-    /// datum): checked when the project loads; `neap predict --project --gauge` uses them.
+    /// Harmonic constants of this gauge (a file written by `ebbwise analyse`, levels above chart
+    /// datum): checked when the project loads; `ebbwise predict --project --gauge` uses them.
     #[serde(default)]
     pub constants: Option<PathBuf>,
 }
 
 impl GaugeSpec {
-    /// A gauge for one record read outside a project (`neap qc --record`): default columns and
+    /// A gauge for one record read outside a project (`ebbwise qc --record`): default columns and
     /// limits; mean level 0 until the caller sets it.
     pub fn for_record(record: &Path, units: HeightUnit, zero_above_datum_m: f64) -> GaugeSpec {
         GaugeSpec {

@@ -533,12 +533,12 @@ svg .tick {{ font-size: 11px; fill: #2c3e50; }} svg .axis {{ font-size: 12px; fi
 svg .zlabel {{ font-size: 13px; font-weight: bold; fill: #12324d; text-anchor: middle; paint-order: stroke; stroke: #fff; stroke-width: 4px; stroke-linejoin: round; }}
 h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; font-size: 18px; }}
 </style></head><body>
-<header><h1>Reduction QA report</h1><div>{name} · neap {ver} · report layout {schema}</div></header>
+<header><h1>Reduction QA report</h1><div>{name} · ebbwise {ver} · report layout {schema}</div></header>
 <main>
 <p class="caution">{caution}</p>
 "#,
         name = esc(&r.project_name),
-        ver = r.neap_version,
+        ver = r.ebbwise_version,
         schema = r.schema,
         caution = esc(r.caution)
     );

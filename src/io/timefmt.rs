@@ -184,7 +184,7 @@ mod properties {
     use proptest::prelude::*;
 
     proptest! {
-        /// A time written by neap (ISO 8601 UTC, millisecond precision) reads back to the same
+        /// A time written by ebbwise (ISO 8601 UTC, millisecond precision) reads back to the same
         /// instant, and so does the same instant written with any fixed offset.
         #[test]
         fn written_times_read_back(ms in 0i64..4_102_444_800_000, off_min in -720i32..=840) {

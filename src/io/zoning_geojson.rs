@@ -1,6 +1,6 @@
 //! Reading a zoning from GeoJSON (RFC 7946: WGS 84, `[longitude, latitude]`).
 //!
-//! Each feature is one zone: a Polygon or MultiPolygon with these properties (names are neap's):
+//! Each feature is one zone: a Polygon or MultiPolygon with these properties (names are ebbwise's):
 //!
 //! | property | meaning |
 //! |---|---|

@@ -1,4 +1,4 @@
-//! `neap check`: reads everything a reduction would and reports problems before any reduction,
+//! `ebbwise check`: reads everything a reduction would and reports problems before any reduction,
 //! each with file, line and field where there is one.
 //!
 //! Errors (the run would be wrong or impossible): unreadable or malformed files, unknown gauges in
@@ -400,7 +400,7 @@ fn check_gauge_spans(loaded: &super::load::Loaded, t0: f64, t1: f64, out: &mut V
                 if gaps <= 5 {
                     let what = if flagged {
                         format!(
-                            "quality control set aside this sample and those after it up to {} ({:.0} min from {} inside the survey period; see `neap qc`): soundings then get status gauge_flagged",
+                            "quality control set aside this sample and those after it up to {} ({:.0} min from {} inside the survey period; see `ebbwise qc`): soundings then get status gauge_flagged",
                             utc_label(q), (q - p) / 60.0, utc_label(p)
                         )
                     } else {

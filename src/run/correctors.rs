@@ -1,4 +1,4 @@
-//! `neap correctors` and `neap apply`: tide-correction files for processing pipelines, with
+//! `ebbwise correctors` and `ebbwise apply`: tide-correction files for processing pipelines, with
 //! provenance, and reduction from such a file (which proves the format by use).
 
 use std::path::{Path, PathBuf};
@@ -152,8 +152,8 @@ pub struct Provenance {
     pub kind: &'static str,
     /// The correction file this describes.
     pub file: String,
-    /// neap version.
-    pub neap_version: &'static str,
+    /// ebbwise version.
+    pub ebbwise_version: &'static str,
     /// Creation time, ISO 8601 UTC.
     pub created_utc: String,
     /// Project file.
@@ -306,7 +306,7 @@ fn provenance(
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_default(),
-        neap_version: env!("CARGO_PKG_VERSION"),
+        ebbwise_version: env!("CARGO_PKG_VERSION"),
         created_utc: chrono::Utc::now().format("%Y-%m-%dT%H:%M:%SZ").to_string(),
         project_file: p.path.display().to_string(),
         inputs,
@@ -552,7 +552,7 @@ pub fn provenance_mismatches(loaded: &Loaded, corrections: &Path) -> Vec<String>
             Some((_, path)) => match sha256_file(path) {
                 Ok(h) if h == hash => {}
                 Ok(_) => out.push(format!(
-                    "the correction file was made from a different {role} than {} (SHA-256 differs): re-run `neap correctors`",
+                    "the correction file was made from a different {role} than {} (SHA-256 differs): re-run `ebbwise correctors`",
                     path.display()
                 )),
                 Err(e) => out.push(e.to_string()),

@@ -1,4 +1,4 @@
-//! `neap analyse` and `neap predict`: harmonic analysis of a gauge record into a constants file,
+//! `ebbwise analyse` and `ebbwise predict`: harmonic analysis of a gauge record into a constants file,
 //! and prediction from one.
 
 use std::fmt::Write as _;
@@ -6,7 +6,7 @@ use std::path::{Path, PathBuf};
 
 use super::load::prepare_series;
 use crate::compute::harmonic::{
-    analyse, extremes, predict_grid, Analysis, AnalysisSettings, Extreme,
+    analyse, high_low_waters, predict_grid, Analysis, AnalysisSettings, HighLowWater,
 };
 use crate::io::atomic::{write_atomic, AtomicFile};
 use crate::io::constants::{read_constants, ConstantsFile};
@@ -14,7 +14,7 @@ use crate::io::error::IoError;
 use crate::io::gauge_csv::read_gauge_record;
 use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
 
-/// What `neap analyse` did.
+/// What `ebbwise analyse` did.
 #[derive(Debug)]
 pub struct AnalyseOutcome {
     /// The analysis.
@@ -79,18 +79,18 @@ pub fn analyse_gauge(
     })
 }
 
-/// What `neap predict` did.
+/// What `ebbwise predict` did.
 #[derive(Debug)]
 pub struct PredictOutcome {
     /// Grid values written.
     pub n: usize,
     /// High and low waters found.
-    pub extremes: Vec<Extreme>,
+    pub high_low_waters: Vec<HighLowWater>,
     /// Files written.
     pub written: Vec<PathBuf>,
     /// What the levels are above (from the constants file).
     pub levels: Option<String>,
-    /// Seconds spent computing the grid and the extremes (not writing).
+    /// Seconds spent computing the grid and the high and low waters (not writing).
     pub compute_s: f64,
 }
 
@@ -102,7 +102,7 @@ pub fn predict_file(
     t1_s: f64,
     step_s: f64,
     out: &Path,
-    extremes_out: &Path,
+    high_low_waters_out: &Path,
 ) -> Result<PredictOutcome, anyhow::Error> {
     if step_s.is_nan() || step_s <= 0.0 || t1_s.is_nan() || t0_s.is_nan() || t1_s < t0_s {
         anyhow::bail!("the span must not be empty and the step must be positive");
@@ -112,7 +112,7 @@ pub fn predict_file(
         anyhow::bail!("{n} values: more than 50 million; use a longer step or a shorter span");
     }
     let (file, k) = read_constants(constants)?;
-    for p in [out, extremes_out] {
+    for p in [out, high_low_waters_out] {
         if p == constants {
             anyhow::bail!(
                 "the output would overwrite the constants file {}",
@@ -122,7 +122,7 @@ pub fn predict_file(
     }
     let clock = std::time::Instant::now();
     let h = predict_grid(&k, t0_s, step_s, n);
-    let ex = extremes(&k, t0_s, step_s, &h);
+    let ex = high_low_waters(&k, t0_s, step_s, &h);
     let compute_s = clock.elapsed().as_secs_f64();
     let whole_seconds = step_s.fract() == 0.0 && t0_s.fract() == 0.0;
     let mut f = AtomicFile::create(out, &[constants])?;
@@ -158,10 +158,10 @@ pub fn predict_file(
             if x.high { "high" } else { "low" }
         );
     }
-    written.push(write_atomic(extremes_out, e.as_bytes())?);
+    written.push(write_atomic(high_low_waters_out, e.as_bytes())?);
     Ok(PredictOutcome {
         n,
-        extremes: ex,
+        high_low_waters: ex,
         written,
         levels: file.levels,
         compute_s,

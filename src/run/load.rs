@@ -329,7 +329,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 findings.push(Finding::warning(
                     Position::file(&g.record),
                     format!(
-                        "gauge '{}': quality control set aside {} of {} samples ({}); soundings whose tide would be interpolated across them get status gauge_flagged (see `neap qc`)",
+                        "gauge '{}': quality control set aside {} of {} samples ({}); soundings whose tide would be interpolated across them get status gauge_flagged (see `ebbwise qc`)",
                         g.id,
                         r.times_s.len() - q.usable_count(),
                         r.times_s.len(),

@@ -12,7 +12,7 @@ use crate::compute::utc_label;
 use crate::io::crs::Transformer;
 
 /// Identifier of the report layout; changes only when a field changes meaning or goes away.
-pub const QA_SCHEMA: &str = "neap-qa-report/1";
+pub const QA_SCHEMA: &str = "ebbwise-qa-report/1";
 
 /// Step of the tide series in the report, minutes.
 pub const TIDE_SERIES_STEP_MIN: f64 = 5.0;
@@ -112,8 +112,8 @@ pub struct MapPoint {
 pub struct QaReport {
     /// Layout identifier, [`QA_SCHEMA`].
     pub schema: &'static str,
-    /// neap version.
-    pub neap_version: &'static str,
+    /// ebbwise version.
+    pub ebbwise_version: &'static str,
     /// Project name.
     pub project_name: String,
     /// Project file.
@@ -205,7 +205,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
     }
     Some(QaReport {
         schema: QA_SCHEMA,
-        neap_version: env!("CARGO_PKG_VERSION"),
+        ebbwise_version: env!("CARGO_PKG_VERSION"),
         project_name: loaded.project.spec.name.clone(),
         project_file: loaded.project.path.display().to_string(),
         caution: crate::CAUTION,

@@ -1,4 +1,4 @@
-//! `neap qc`: quality control of gauge records and gauge-to-gauge comparison.
+//! `ebbwise qc`: quality control of gauge records and gauge-to-gauge comparison.
 //!
 //! For each gauge: the record with a flag column (`<id>.qc.csv`), a plot (`<id>.qc.svg`) and a
 //! summary per flag. For the project's zoning: comparisons of gauges through the zoning's
@@ -26,7 +26,7 @@ use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
 use crate::io::qc_svg::{render_qc_svg, QcPlot};
 
 /// Layout name of `qc-summary.json`.
-pub const QC_SCHEMA: &str = "neap-qc-summary/1";
+pub const QC_SCHEMA: &str = "ebbwise-qc-summary/1";
 
 /// One flagged sample, for the summary.
 #[derive(Debug, Clone, Serialize)]
@@ -112,8 +112,8 @@ pub struct ComparisonSummary {
 pub struct QcSummary {
     /// Layout name.
     pub schema: &'static str,
-    /// neap version.
-    pub neap_version: &'static str,
+    /// ebbwise version.
+    pub ebbwise_version: &'static str,
     /// The caution.
     pub caution: &'static str,
     /// Per gauge.
@@ -275,7 +275,7 @@ pub fn write_gauge_qc(
     })
 }
 
-/// QC of one record file outside a project (`neap qc --record`). The plausible band is centred
+/// QC of one record file outside a project (`ebbwise qc --record`). The plausible band is centred
 /// on the record's median unless the spec gives one.
 pub fn qc_single_record(
     g: &GaugeSpec,
@@ -300,7 +300,7 @@ pub fn qc_single_record(
     )?;
     let summary = QcSummary {
         schema: QC_SCHEMA,
-        neap_version: env!("CARGO_PKG_VERSION"),
+        ebbwise_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
         gauges: vec![s],
         comparisons: Vec::new(),
@@ -341,7 +341,7 @@ pub fn qc_records_only(
     }
     let summary = QcSummary {
         schema: QC_SCHEMA,
-        neap_version: env!("CARGO_PKG_VERSION"),
+        ebbwise_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
         gauges,
         comparisons: Vec::new(),
@@ -454,7 +454,7 @@ pub fn qc_project(
             continue;
         }
         let r = &loaded.records[gi];
-        // With QC off in the project, `neap qc` still runs it (that is what it is for).
+        // With QC off in the project, `ebbwise qc` still runs it (that is what it is for).
         let q = match &loaded.qc[gi] {
             Some(q) => q.clone(),
             None => {
@@ -558,7 +558,7 @@ pub fn qc_project(
     }
     let summary = QcSummary {
         schema: QC_SCHEMA,
-        neap_version: env!("CARGO_PKG_VERSION"),
+        ebbwise_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
         gauges,
         comparisons,

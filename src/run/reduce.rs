@@ -26,7 +26,7 @@ use crate::io::error::{IoError, Position};
 use crate::io::project::{Delimiter, SoundingsSpec};
 use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
 
-/// Columns neap appends to every input row, in order.
+/// Columns ebbwise appends to every input row, in order.
 pub const APPENDED_COLUMNS: [&str; 5] = [
     "zone",
     "tide_m",
@@ -186,8 +186,8 @@ pub struct ZoneSummary {
 /// What a run did.
 #[derive(Debug, Clone, Serialize)]
 pub struct RunSummary {
-    /// neap version.
-    pub neap_version: &'static str,
+    /// ebbwise version.
+    pub ebbwise_version: &'static str,
     /// Project file.
     pub project: PathBuf,
     /// Time interpolation method.
@@ -428,7 +428,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         })
         .collect();
     Ok(RunSummary {
-        neap_version: env!("CARGO_PKG_VERSION"),
+        ebbwise_version: env!("CARGO_PKG_VERSION"),
         project: loaded.project.path.clone(),
         interpolation: loaded.interp.name(),
         rows_by_status: StatusCounts(totals),

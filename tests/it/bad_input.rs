@@ -1,6 +1,6 @@
 //! Every status is reachable, and every row is accounted for, with hand-made input.
 
-use super::{neap, read_csv, stderr, MiniProject};
+use super::{ebbwise, read_csv, stderr, MiniProject};
 
 const SOUNDINGS: &str = "time,lon,lat,depth,line
 2026-06-14T01:00:00Z,10.005,50.005,10.0,L1
@@ -19,7 +19,7 @@ const SOUNDINGS: &str = "time,lon,lat,depth,line
 #[test]
 fn each_status_is_reached_with_its_reason() {
     let p = MiniProject::new(SOUNDINGS);
-    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    let out = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(
         out.status.code(),
         Some(1),
@@ -112,7 +112,7 @@ fn each_status_is_reached_with_its_reason() {
 fn all_reduced_exits_zero() {
     let p =
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
-    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    let out = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
 }
 
@@ -124,7 +124,7 @@ fn unusable_inputs_stop_the_run_with_file_line_and_field() {
         "g1.csv",
         "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,x\n",
     );
-    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    let out = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(out.status.code(), Some(2));
     let err = stderr(&out);
     assert!(
@@ -135,7 +135,7 @@ fn unusable_inputs_stop_the_run_with_file_line_and_field() {
 
     let p =
         MiniProject::new("time;lon;lat;depth;line\n2026-06-14T01:00:00Z;10.005;50.005;10.0;L1\n");
-    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    let out = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(out.status.code(), Some(2));
     let err = stderr(&out);
     assert!(
@@ -149,7 +149,7 @@ fn unusable_inputs_stop_the_run_with_file_line_and_field() {
         "no half-written output"
     );
     assert!(
-        !p.path("out/.s.reduced.csv.neap-partial").exists(),
+        !p.path("out/.s.reduced.csv.ebbwise-partial").exists(),
         "temporary removed"
     );
 }
@@ -170,7 +170,7 @@ fn a_gauge_record_in_feet_without_saying_so_is_caught() {
         ));
     }
     p.write("g1.csv", &g);
-    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
     let err = stderr(&o);
     assert!(
@@ -185,7 +185,7 @@ fn a_gauge_record_in_feet_without_saying_so_is_caught() {
 fn swapped_longitude_and_latitude_are_named() {
     let p =
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,50.005,10.005,10.0,L1\n");
-    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(o.status.code(), Some(1));
     let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
     let d = &rows[0][h.iter().position(|c| c == "status_detail").unwrap()];

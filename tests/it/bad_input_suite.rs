@@ -2,7 +2,7 @@
 //! project and `expect.toml`, the exact outcome: the command, its exit status, lines stderr must
 //! contain, and (for reductions) each output row's status and status_detail in order.
 
-use super::{neap, read_csv, repo, stderr, MiniProject};
+use super::{ebbwise, read_csv, repo, stderr, MiniProject};
 
 #[derive(serde::Deserialize)]
 struct Expect {
@@ -34,7 +34,7 @@ fn every_bad_input_case_gives_its_exact_outcome() {
                 std::fs::write(p.path(&fname), std::fs::read(&f).unwrap()).unwrap();
             }
         }
-        let o = neap(&[&expect.command, &p.project()]);
+        let o = ebbwise(&[&expect.command, &p.project()]);
         let err = stderr(&o);
         if o.status.code() != Some(expect.exit) {
             failures.push(format!(
@@ -69,7 +69,7 @@ fn a_megabyte_line_is_one_bad_row_with_a_short_message() {
     let p = MiniProject::new(&format!(
         "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,{long},L1\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n"
     ));
-    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
     let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
     let de = h.iter().position(|c| c == "status_detail").unwrap();

@@ -1,11 +1,11 @@
-//! `neap check` reports each problem with file, line and field, and fails only on errors.
+//! `ebbwise check` reports each problem with file, line and field, and fails only on errors.
 
-use super::{neap, stderr, MiniProject, MINI_PROJECT, MINI_ZONING};
+use super::{ebbwise, stderr, MiniProject, MINI_PROJECT, MINI_ZONING};
 
 const GOOD: &str = "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n2026-06-14T01:10:00Z,10.015,50.005,10.0,L1\n";
 
 fn check(p: &MiniProject) -> (Option<i32>, String) {
-    let out = neap(&["check", &p.project()]);
+    let out = ebbwise(&["check", &p.project()]);
     (out.status.code(), stderr(&out))
 }
 

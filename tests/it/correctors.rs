@@ -1,7 +1,7 @@
 //! Tide-correction files: round trip through `correctors` and `apply`, provenance hashes,
 //! missing spans.
 
-use super::{neap, read_csv, repo, stderr, MiniProject};
+use super::{ebbwise, read_csv, repo, stderr, MiniProject};
 
 fn demo() -> String {
     repo()
@@ -23,7 +23,7 @@ fn column(path: &std::path::Path, name: &str) -> Vec<String> {
 fn round_trip_through_correction_files() {
     let d = tempfile::tempdir().unwrap();
     let p = |s: &str| d.path().join(s).to_string_lossy().into_owned();
-    let o = neap(&[
+    let o = ebbwise(&[
         "reduce",
         &demo(),
         "--out",
@@ -32,9 +32,9 @@ fn round_trip_through_correction_files() {
         "--no-uncertainty",
     ]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
-    let o = neap(&["correctors", &demo(), "--out", &p("corr"), "--per-sounding"]);
+    let o = ebbwise(&["correctors", &demo(), "--out", &p("corr"), "--per-sounding"]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
-    let o = neap(&[
+    let o = ebbwise(&[
         "apply",
         &p("corr/correctors-zones.csv"),
         "--project",
@@ -63,7 +63,7 @@ fn round_trip_through_correction_files() {
         eprintln!("{name}: worst difference direct vs per-zone file {worst:.5} m");
         assert!(worst <= 0.001, "{name}: {worst}");
         // Per-sounding file: identical reduced depths, tides and statuses.
-        let o = neap(&[
+        let o = ebbwise(&[
             "apply",
             &p(&format!("corr/{name}.correctors.csv")),
             repo()
@@ -95,7 +95,7 @@ fn sidecar_hashes_every_input_and_changes_with_it() {
     let p =
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
     let run = |out: &str| {
-        let o = neap(&[
+        let o = ebbwise(&[
             "correctors",
             &p.project(),
             "--out",
@@ -109,7 +109,7 @@ fn sidecar_hashes_every_input_and_changes_with_it() {
         v
     };
     let a = run("a");
-    assert_eq!(a["format"], "neap-tide-correctors/1");
+    assert_eq!(a["format"], "ebbwise-tide-correctors/1");
     assert_eq!(a["kind"], "per_zone");
     let roles: Vec<&str> = a["inputs"]
         .as_array()
@@ -129,7 +129,7 @@ fn sidecar_hashes_every_input_and_changes_with_it() {
     let abc = p.path("abc.txt");
     std::fs::write(&abc, b"abc").unwrap();
     assert_eq!(
-        neap::io::correctors_file::sha256_file(&abc).unwrap(),
+        ebbwise::io::correctors_file::sha256_file(&abc).unwrap(),
         "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
     );
     // Change one reading: only the gauge record's hash changes.
@@ -151,7 +151,7 @@ fn a_span_without_gauge_data_gives_missing_rows_never_values() {
     let p =
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
     // The gauge runs 00:00-04:00 with a gap 02:00-03:00; ask for 23:50 the day before to 04:10.
-    let o = neap(&[
+    let o = ebbwise(&[
         "correctors",
         &p.project(),
         "--out",
@@ -202,7 +202,7 @@ fn a_span_without_gauge_data_gives_missing_rows_never_values() {
 fn a_file_that_is_not_a_correction_file_is_refused_with_its_header() {
     let p =
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
-    let o = neap(&[
+    let o = ebbwise(&[
         "apply",
         &p.path("s.csv").to_string_lossy(),
         "--project",
@@ -221,7 +221,7 @@ fn a_file_that_is_not_a_correction_file_is_refused_with_its_header() {
 fn a_step_longer_than_a_gauge_gap_limit_is_warned_about() {
     let p =
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
-    let o = neap(&[
+    let o = ebbwise(&[
         "correctors",
         &p.project(),
         "--out",
@@ -249,7 +249,7 @@ fn per_sounding_rows_sharing_line_and_time_are_refused() {
          L1,2026-06-14T01:00:00.000000Z,s.csv,2,Z1,2.06,,reduced\n\
          L1,2026-06-14T01:00:00.000000Z,s.csv,3,Z2,1.47,,reduced\n",
     );
-    let o = neap(&[
+    let o = ebbwise(&[
         "apply",
         &p.path("c.csv").to_string_lossy(),
         "--project",
@@ -264,7 +264,7 @@ fn per_line_series_round_trip() {
     let d = tempfile::tempdir().unwrap();
     let p = |s: &str| d.path().join(s).to_string_lossy().into_owned();
     assert_eq!(
-        neap(&[
+        ebbwise(&[
             "reduce",
             &demo(),
             "--out",
@@ -276,7 +276,7 @@ fn per_line_series_round_trip() {
         .code(),
         Some(1)
     );
-    let o = neap(&["correctors", &demo(), "--out", &p("corr"), "--per-line"]);
+    let o = ebbwise(&["correctors", &demo(), "--out", &p("corr"), "--per-line"]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let side: serde_json::Value = serde_json::from_slice(
         &std::fs::read(d.path().join("corr/correctors-lines.csv.json")).unwrap(),
@@ -305,7 +305,7 @@ fn per_line_series_round_trip() {
         ]
     );
     assert!(rows.iter().any(|r| r[0] == "A-001") && rows.iter().any(|r| r[0] == "B-001"));
-    let o = neap(&[
+    let o = ebbwise(&[
         "apply",
         &p("corr/correctors-lines.csv"),
         "--project",
@@ -343,7 +343,7 @@ fn apply_warns_when_the_inputs_changed_since_the_correction_file_was_made() {
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
     let c = p.path("c").to_string_lossy().into_owned();
     assert_eq!(
-        neap(&["correctors", &p.project(), "--out", &c])
+        ebbwise(&["correctors", &p.project(), "--out", &c])
             .status
             .code(),
         Some(0)
@@ -352,15 +352,15 @@ fn apply_warns_when_the_inputs_changed_since_the_correction_file_was_made() {
         .path("c/correctors-zones.csv")
         .to_string_lossy()
         .into_owned();
-    let o = neap(&["apply", &file, "--project", &p.project()]);
+    let o = ebbwise(&["apply", &file, "--project", &p.project()]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     assert!(!stderr(&o).contains("warning:"), "{}", stderr(&o));
-    assert!(stderr(&o).starts_with("neap apply: "), "{}", stderr(&o));
+    assert!(stderr(&o).starts_with("ebbwise apply: "), "{}", stderr(&o));
     let g = std::fs::read_to_string(p.path("g1.csv"))
         .unwrap()
         .replacen("1.000", "1.001", 1);
     p.write("g1.csv", &g);
-    let o = neap(&["apply", &file, "--project", &p.project()]);
+    let o = ebbwise(&["apply", &file, "--project", &p.project()]);
     assert!(
         stderr(&o).contains(
             "warning: the correction file was made from a different gauge record 'g1' than"
@@ -369,6 +369,6 @@ fn apply_warns_when_the_inputs_changed_since_the_correction_file_was_made() {
         stderr(&o)
     );
     std::fs::remove_file(p.path("c/correctors-zones.csv.json")).unwrap();
-    let o = neap(&["apply", &file, "--project", &p.project()]);
+    let o = ebbwise(&["apply", &file, "--project", &p.project()]);
     assert!(stderr(&o).contains("has no sidecar"), "{}", stderr(&o));
 }

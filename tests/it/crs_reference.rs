@@ -2,7 +2,7 @@
 //! PROJ 9.5.1 (tests/fixtures/pyproj_transforms.csv, made by
 //! tests/reference/make_pyproj_fixture.py).
 
-use neap::io::crs::Transformer;
+use ebbwise::io::crs::Transformer;
 
 #[test]
 fn transforms_agree_with_pyproj() {

@@ -11,7 +11,7 @@
 //! Depth error RMS ≤ √(0.05² + 0.003² + 0.04²) ≈ 0.064 m → bound 0.07 m (sampling slack);
 //! 95th percentile of |error| ≤ 1.96 × 0.064 ≈ 0.126 m → bound 0.135 m; mean |bias| ≤ 0.015 m.
 
-use super::{neap, read_csv, repo, stderr};
+use super::{ebbwise, read_csv, repo, stderr};
 
 struct Errors {
     n: usize,
@@ -57,7 +57,7 @@ fn compare(reduced: &std::path::Path, truth: &std::path::Path) -> (Errors, usize
 #[test]
 fn demo_survey_recovers_the_true_seabed() {
     let out_dir = tempfile::tempdir().unwrap();
-    let out = neap(&[
+    let out = ebbwise(&[
         "reduce",
         repo().join("zoning-demo/project.toml").to_str().unwrap(),
         "--out",

@@ -1,5 +1,5 @@
 //! Harmonic analysis and prediction against outside references (issue 7), through the library
-//! API (`neap::compute::harmonic`, `neap::compute::astro`).
+//! API (`ebbwise::compute::harmonic`, `ebbwise::compute::astro`).
 //!
 //! Fixtures (tests/fixtures/harmonics/, made by tests/reference/harmonics/, see its README):
 //! * `record_29d.csv`, `record_1y.csv`: hourly synthetic records made with pyTMD 3.0.9
@@ -11,14 +11,14 @@
 //! * `astro_pytmd.csv`: pyTMD 3.0.9 V, u, f at 11 instants 1980–2040.
 //!
 //! Every expected value comes from those files or from a formula named beside the check, never
-//! from neap's output. Astronomical arguments themselves (a), speeds (c) and the Moon/Sun ratio
+//! from ebbwise's output. Astronomical arguments themselves (a), speeds (c) and the Moon/Sun ratio
 //! (d) are checked in `src/compute/astro.rs`; the exact round trip in `src/compute/harmonic.rs`.
 
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
-use neap::compute::astro::{self, Constituent};
-use neap::compute::harmonic::{
+use ebbwise::compute::astro::{self, Constituent};
+use ebbwise::compute::harmonic::{
     analyse, predict_at, predict_grid, Analysis, AnalysisSettings, Fitted, HarmonicConstants,
     NodalMode,
 };
@@ -150,8 +150,8 @@ fn read_utide(name: &str) -> Utide {
     }
 }
 
-/// UTide's picked names split into neap's names (via `astro::constituent`, which knows aliases
-/// such as SIG1, THE1, LDA2, NO1) and the names neap's table does not have.
+/// UTide's picked names split into ebbwise's names (via `astro::constituent`, which knows aliases
+/// such as SIG1, THE1, LDA2, NO1) and the names ebbwise's table does not have.
 fn map_utide_names(picked: &[String]) -> (Vec<String>, Vec<String>) {
     let mut known = Vec::new();
     let mut unknown = Vec::new();
@@ -192,13 +192,13 @@ const UTIDE_CHECK_ABOVE_M: f64 = 0.05;
 const UTIDE_TOL_H_M: f64 = 0.002;
 const UTIDE_TOL_G_DEG: f64 = 1.0;
 
-/// Prints neap − UTide for every UTide constituent neap fitted (the table of differences) and
+/// Prints ebbwise − UTide for every UTide constituent ebbwise fitted (the table of differences) and
 /// asserts the thresholds on those above 5 cm and on Z0.
 fn compare_with_utide(label: &str, a: &Analysis, u: &Utide) {
-    eprintln!("\n{label}: neap − UTide 0.4.0 (checked: UTide H > 5 cm)");
+    eprintln!("\n{label}: ebbwise − UTide 0.4.0 (checked: UTide H > 5 cm)");
     eprintln!(
         "{:>8} {:>10} {:>10} {:>9} {:>9} {:>9} {:>8}",
-        "name", "H utide", "H neap", "ΔH mm", "G utide", "ΔG °", "checked"
+        "name", "H utide", "H ebbwise", "ΔH mm", "G utide", "ΔG °", "checked"
     );
     let dz0 = a.z0_m - u.z0_m;
     eprintln!(
@@ -219,11 +219,11 @@ fn compare_with_utide(label: &str, a: &Analysis, u: &Utide) {
         let Some(f) = fitted(a, &r.name) else {
             assert!(
                 !checked,
-                "{label}: {} (UTide {:.4} m) not in neap's result",
+                "{label}: {} (UTide {:.4} m) not in ebbwise's result",
                 r.name, r.amp_m
             );
             eprintln!(
-                "{:>8} {:>10.5} {:>10} (not fitted by neap)",
+                "{:>8} {:>10.5} {:>10} (not fitted by ebbwise)",
                 r.name, r.amp_m, "-"
             );
             continue;
@@ -266,7 +266,7 @@ fn compare_with_utide(label: &str, a: &Analysis, u: &Utide) {
     );
 }
 
-/// Analyses a record with the constituent set UTide picked (the names neap knows), inference
+/// Analyses a record with the constituent set UTide picked (the names ebbwise knows), inference
 /// off (UTide 0.4.0 infers nothing unless asked), nodal corrections per sample (UTide's default
 /// exact nodal/satellite corrections at each time).
 fn analyse_with_utide_set(record: &str, u: &Utide) -> (Analysis, Vec<String>) {
@@ -289,11 +289,11 @@ fn analyse_with_utide_set(record: &str, u: &Utide) -> (Analysis, Vec<String>) {
     (a, unknown)
 }
 
-/// The constituents UTide picked that neap's table lacks must carry nothing but noise in UTide's
+/// The constituents UTide picked that ebbwise's table lacks must carry nothing but noise in UTide's
 /// own result, or leaving them out would bias the comparison: each below 5 mm (the records hold
 /// no such constituent; UTide's 95 % half-widths of them are ≤ 1.6 mm on the 29-day record).
 fn check_unknown_are_noise(label: &str, u: &Utide, unknown: &[String]) {
-    eprintln!("{label}: UTide constituents not in neap's table (left out): {unknown:?}");
+    eprintln!("{label}: UTide constituents not in ebbwise's table (left out): {unknown:?}");
     for n in unknown {
         let r = u.rows.iter().find(|r| &r.name == n).unwrap();
         assert!(
@@ -309,17 +309,17 @@ fn check_unknown_are_noise(label: &str, u: &Utide, unknown: &[String]) {
 // (b) UTide agreement
 
 // Where the remaining differences come from. The records were made with Schureman's nodal
-// corrections (pyTMD 'FES'), which neap uses; UTide applies Foreman's nodal/satellite corrections
+// corrections (pyTMD 'FES'), which ebbwise uses; UTide applies Foreman's nodal/satellite corrections
 // (latitude 48.38°). In 2025 UTide's S2 factor is ≈ 1.0023 (Schureman: 1) and its M2 factor
 // ≈ 7e-4 larger than Schureman's, so UTide's S2 and M2 amplitudes come out ≈ 0.23 % and 0.07 %
-// smaller than neap's (and than the truth): neap/UTide = 1.0024 (S2) and 1.0007–1.0009 (M2) in
+// smaller than ebbwise's (and than the truth): ebbwise/UTide = 1.0024 (S2) and 1.0007–1.0009 (M2) in
 // both records. O1's phase differs by ≈ 0.25° for the same reason (README: UTide's O1 ≈ −0.5° off
 // the truth). Measured (2026-12, table with the fifteen shallow-water compounds):
 //
 //   record, set          worst |ΔH|        worst |ΔG|       |ΔZ0|
 //   29 d, UTide's set    1.28 mm (S2)      0.24° (O1)       0.015 mm
 //   1 y, UTide's set     0.99 mm (S2)      0.27° (O1)       < 0.001 mm
-//   1 y, neap's Rayleigh 0.99 mm (S2)      0.28° (O1)       0.001 mm
+//   1 y, ebbwise's Rayleigh 0.99 mm (S2)      0.28° (O1)       0.001 mm
 //
 // Thresholds 2 mm / 1° (issue 7). The 29-day S2 is UTide's 0.560 m (K2 leaks into it: neither
 // analysis infers), so the 1.28 mm there is 0.23 % of 0.56 m.
@@ -343,8 +343,8 @@ fn utide_1y_same_set_agrees() {
     compare_with_utide("1 y, UTide's set, no inference", &a, &u);
 }
 
-/// (b) 1-year record, neap's own Rayleigh selection (default settings): every constituent UTide
-/// finds above 5 cm is selected by neap too, nothing needs inferring in a year, and the same
+/// (b) 1-year record, ebbwise's own Rayleigh selection (default settings): every constituent UTide
+/// finds above 5 cm is selected by ebbwise too, nothing needs inferring in a year, and the same
 /// 2 mm / 1° agreement holds.
 #[test]
 fn utide_1y_rayleigh_selection_agrees() {
@@ -362,8 +362,11 @@ fn utide_1y_rayleigh_selection_agrees() {
             .collect::<Vec<_>>()
     );
     let names: Vec<&str> = a.fitted.iter().map(|f| f.constituent.name).collect();
-    eprintln!("neap's Rayleigh set for 1 y ({}): {names:?}", names.len());
-    compare_with_utide("1 y, neap's Rayleigh set", &a, &u);
+    eprintln!(
+        "ebbwise's Rayleigh set for 1 y ({}): {names:?}",
+        names.len()
+    );
+    compare_with_utide("1 y, ebbwise's Rayleigh set", &a, &u);
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -416,9 +419,9 @@ fn f_textbook(name: &str, n: f64) -> f64 {
 /// Rounded down.
 const F_MIN_2025: f64 = 0.85;
 
-/// (b') The 1-year analysis with neap's defaults (Rayleigh selection, inference on, nodal per
+/// (b') The 1-year analysis with ebbwise's defaults (Rayleigh selection, inference on, nodal per
 /// sample) recovers the constants the record was made from (true_1y.csv; the record was made with
-/// pyTMD 3.0.9's Schureman nodal corrections, the same formulas neap uses).
+/// pyTMD 3.0.9's Schureman nodal corrections, the same formulas ebbwise uses).
 ///
 /// Tolerance from the noise: the model contains every true constituent (all ten are
 /// Rayleigh-separated in 8759 h, P1–K1 and K2–S2 by two cycles), so the only error is the noise's
@@ -426,9 +429,9 @@ const F_MIN_2025: f64 = 0.85;
 /// the standard uncertainty σ_k = σ·√(2/n)/f_k (0.30 mm/f; f_k from the textbook series at the
 /// record's centre: 0.96 for M2, 1.32 for K2 in 2025), its phase σ_k/H rad, Z0 σ/√n = 0.21 mm.
 /// Each is held to 4 standard uncertainties, plus the nodal-correction difference between pyTMD
-/// and neap (|Δf| ≤ 1e-5, |Δu| ≤ 0.005°, measured in src/compute/astro.rs): H·1e-5 and 0.005°.
+/// and ebbwise (|Δf| ≤ 1e-5, |Δu| ≤ 0.005°, measured in src/compute/astro.rs): H·1e-5 and 0.005°.
 /// Constituents absent from the truth must come out below 5 σ·√(2/n)/0.85 (see [`F_MIN_2025`]):
-/// a pure-noise amplitude is Rayleigh-distributed, P(H > 5σ_k) = e^{−12.5}. neap's reported
+/// a pure-noise amplitude is Rayleigh-distributed, P(H > 5σ_k) = e^{−12.5}. ebbwise's reported
 /// standard uncertainties are compared with σ_k too.
 #[test]
 fn one_year_recovers_the_true_constants() {
@@ -478,7 +481,7 @@ fn one_year_recovers_the_true_constants() {
             "{name}: G {} vs true {g_true}",
             f.phase_deg
         );
-        // neap's u(H) from the residual variance against σ_k: the residual RMS is σ up to its
+        // ebbwise's u(H) from the residual variance against σ_k: the residual RMS is σ up to its
         // sampling scatter (0.8 %), f varies by < 1 % over the year about its central value
         // (N stays near 0, where f is extremal) and the columns are close to orthogonal, so
         // within 5 %.
@@ -549,7 +552,7 @@ fn node_longitude_rad(t_s: f64) -> f64 {
     (125.044_547_9 - 1_934.136_289_1 * t_c).to_radians()
 }
 
-/// (b') A month with neap's defaults (inference on) recovers S2 and K1 much closer to the truth
+/// (b') A month with ebbwise's defaults (inference on) recovers S2 and K1 much closer to the truth
 /// than without inference.
 ///
 /// What to expect. In 695 h K2 turns against S2 (and P1 against K1) by only
@@ -705,7 +708,7 @@ fn read_pytmd() -> BTreeMap<String, BTreeMap<String, (f64, f64, f64)>> {
     out
 }
 
-/// The record's true constants as neap constants.
+/// The record's true constants as ebbwise constants.
 fn true_constants(name: &str) -> HarmonicConstants {
     let (z0, truth) = read_true(name);
     HarmonicConstants {
@@ -714,14 +717,14 @@ fn true_constants(name: &str) -> HarmonicConstants {
             .iter()
             .map(|(n, h, g)| {
                 let c: &'static Constituent =
-                    astro::constituent(n).unwrap_or_else(|| panic!("{n} not in neap's table"));
+                    astro::constituent(n).unwrap_or_else(|| panic!("{n} not in ebbwise's table"));
                 (c, *h, *g)
             })
             .collect(),
     }
 }
 
-/// Agreement of pyTMD's and neap's arguments, measured in src/compute/astro.rs against the same
+/// Agreement of pyTMD's and ebbwise's arguments, measured in src/compute/astro.rs against the same
 /// fixture: V within 2e-3° for the constituents used here (the largest combination of the mean
 /// longitudes' tolerances, MS4's 4τ + 2s − 2h: 1.9e-3°), u within 0.005°, f within 1e-5. A
 /// constituent's term then differs by at most H·(Δf + f·(ΔV + Δu)) — the tolerance summed over
@@ -777,10 +780,10 @@ fn prediction_matches_a_sum_of_pytmd_arguments() {
     );
 }
 
-/// (a) The records were made by pyTMD as Σ f·H·cos(V + u − G) + noise: neap's prediction from
+/// (a) The records were made by pyTMD as Σ f·H·cos(V + u − G) + noise: ebbwise's prediction from
 /// the true constants leaves exactly the noise, at every one of the 696 + 8760 samples. Mean 0
 /// within 4σ/√n; RMS σ within 4σ/√(2n) (the sampling scatter of a standard deviation) plus the
-/// pyTMD–neap argument differences (≤ 4e-4 m, see above; they add in quadrature, < 1e-5 m).
+/// pyTMD–ebbwise argument differences (≤ 4e-4 m, see above; they add in quadrature, < 1e-5 m).
 #[test]
 fn records_minus_true_prediction_is_the_noise() {
     for (record, truth) in [
@@ -816,16 +819,16 @@ fn records_minus_true_prediction_is_the_noise() {
 }
 
 // ---------------------------------------------------------------------------------------------
-// The commands: `neap analyse` writes constants that `neap predict` reads back
+// The commands: `ebbwise analyse` writes constants that `ebbwise predict` reads back
 
 #[test]
 fn analyse_then_predict_through_the_command_line() {
-    use super::{neap, read_csv, stderr, MiniProject};
+    use super::{ebbwise, read_csv, stderr, MiniProject};
     let d = tempfile::tempdir().unwrap();
     let k = d.path().join("m.constants.toml");
     let record = fixture("record_29d.csv");
     let before = std::fs::read(&record).unwrap();
-    let o = neap(&[
+    let o = ebbwise(&[
         "analyse",
         record.to_str().unwrap(),
         "--time-column",
@@ -839,7 +842,7 @@ fn analyse_then_predict_through_the_command_line() {
     assert_eq!(std::fs::read(&record).unwrap(), before, "input untouched");
     // The file holds what the library computes on the same record (QC on, default settings):
     // the command adds nothing of its own.
-    let (file, constants) = neap::io::constants::read_constants(&k).unwrap();
+    let (file, constants) = ebbwise::io::constants::read_constants(&k).unwrap();
     let (t, h) = read_record("record_29d.csv");
     let lib = analyse(&t, &h, &AnalysisSettings::default()).unwrap();
     assert_eq!(file.constituents.len(), lib.fitted.len());
@@ -864,10 +867,10 @@ fn analyse_then_predict_through_the_command_line() {
     assert_eq!(file.levels.as_deref(), Some("above the record's zero"));
 
     // Predict one day at 6 min: 241 values (both ends on the grid), each equal to the direct
-    // evaluation to the 4 written decimals; extremes alternate and are turning points.
+    // evaluation to the 4 written decimals; high and low waters alternate and are turning points.
     let series = d.path().join("p.csv");
     let ext = d.path().join("e.csv");
-    let o = neap(&[
+    let o = ebbwise(&[
         "predict",
         k.to_str().unwrap(),
         "--from",
@@ -878,7 +881,7 @@ fn analyse_then_predict_through_the_command_line() {
         "6",
         "--out",
         series.to_str().unwrap(),
-        "--extremes",
+        "--high-low-waters",
         ext.to_str().unwrap(),
     ]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
@@ -911,7 +914,7 @@ fn analyse_then_predict_through_the_command_line() {
         );
     p.write("project.toml", &text);
     let out2 = d.path().join("p2.csv");
-    let o = neap(&[
+    let o = ebbwise(&[
         "predict",
         "--project",
         &p.project(),
@@ -923,7 +926,7 @@ fn analyse_then_predict_through_the_command_line() {
         "2026-06-15T00:00:00Z",
         "--out",
         out2.to_str().unwrap(),
-        "--extremes",
+        "--high-low-waters",
         d.path().join("e2.csv").to_str().unwrap(),
     ]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
@@ -932,7 +935,7 @@ fn analyse_then_predict_through_the_command_line() {
         std::fs::read(&series).unwrap()
     );
     // The project check reads the constants and says their levels are not above chart datum.
-    let o = neap(&["check", &p.project()]);
+    let o = ebbwise(&["check", &p.project()]);
     assert!(
         stderr(&o).contains("not above chart datum"),
         "{}",
@@ -942,11 +945,11 @@ fn analyse_then_predict_through_the_command_line() {
 
 #[test]
 fn analyse_refuses_bad_requests_clearly() {
-    use super::{neap, stderr};
+    use super::{ebbwise, stderr};
     let record = fixture("record_29d.csv");
     let d = tempfile::tempdir().unwrap();
     let out = d.path().join("x.toml");
-    let o = neap(&[
+    let o = ebbwise(&[
         "analyse",
         record.to_str().unwrap(),
         "--time-column",
@@ -968,10 +971,10 @@ fn analyse_refuses_bad_requests_clearly() {
     // A constants file with a constituent of another definition (Sa at the classical speed).
     std::fs::write(
         &out,
-        "format = \"neap-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"SA\"\nspeed_deg_per_h = 0.0410686\namplitude_m = 0.1\nphase_deg = 10.0\n",
+        "format = \"ebbwise-harmonic-constants/1\"\nz0_m = 1.0\n[[constituent]]\nname = \"SA\"\nspeed_deg_per_h = 0.0410686\namplitude_m = 0.1\nphase_deg = 10.0\n",
     )
     .unwrap();
-    let o = neap(&[
+    let o = ebbwise(&[
         "predict",
         out.to_str().unwrap(),
         "--from",
@@ -980,7 +983,7 @@ fn analyse_refuses_bad_requests_clearly() {
         "2026-06-14T01:00:00Z",
         "--out",
         d.path().join("p.csv").to_str().unwrap(),
-        "--extremes",
+        "--high-low-waters",
         d.path().join("e.csv").to_str().unwrap(),
     ]);
     assert_eq!(o.status.code(), Some(2));

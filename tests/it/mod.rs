@@ -20,12 +20,12 @@ pub fn repo() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
 
-/// Runs the real `neap` with arguments.
-pub fn neap(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_neap"))
+/// Runs the real `ebbwise` with arguments.
+pub fn ebbwise(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_ebbwise"))
         .args(args)
         .output()
-        .expect("neap runs")
+        .expect("ebbwise runs")
 }
 
 /// stderr as text.

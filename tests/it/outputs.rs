@@ -1,6 +1,6 @@
 //! Outputs appear whole or not at all, reruns are byte-identical, inputs are never overwritten.
 
-use super::{neap, stderr, MiniProject, MINI_PROJECT};
+use super::{ebbwise, stderr, MiniProject, MINI_PROJECT};
 
 const S: &str = "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n2026-06-14T01:06:00Z,10.015,50.005,12.0,L1\n";
 
@@ -8,31 +8,31 @@ const S: &str = "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.
 fn rerun_is_byte_identical_and_stale_temporaries_are_removed() {
     let p = MiniProject::new(S);
     assert_eq!(
-        neap(&["reduce", &p.project(), "--no-progress"])
+        ebbwise(&["reduce", &p.project(), "--no-progress"])
             .status
             .code(),
         Some(0)
     );
     let first = std::fs::read(p.path("out/s.reduced.csv")).unwrap();
     std::fs::write(
-        p.path("out/.s.reduced.csv.neap-partial"),
+        p.path("out/.s.reduced.csv.ebbwise-partial"),
         b"left by a killed run",
     )
     .unwrap();
-    let out = neap(&["reduce", &p.project(), "--no-progress", "--threads", "1"]);
+    let out = ebbwise(&["reduce", &p.project(), "--no-progress", "--threads", "1"]);
     assert!(
         stderr(&out).contains("removed 1 temporary file(s) left by an interrupted run"),
         "{}",
         stderr(&out)
     );
     assert_eq!(std::fs::read(p.path("out/s.reduced.csv")).unwrap(), first);
-    assert!(!p.path("out/.s.reduced.csv.neap-partial").exists());
+    assert!(!p.path("out/.s.reduced.csv.ebbwise-partial").exists());
 }
 
 #[test]
 fn output_folder_equal_to_input_folder_never_overwrites_inputs() {
     // A soundings file named like an output of another: s.csv → s.reduced.csv, and an input
-    // called s.reduced.csv in the same folder would be overwritten: neap refuses.
+    // called s.reduced.csv in the same folder would be overwritten: ebbwise refuses.
     let p = MiniProject::new(S);
     std::fs::write(p.path("s.reduced.csv"), S).unwrap();
     p.write(
@@ -44,7 +44,7 @@ fn output_folder_equal_to_input_folder_never_overwrites_inputs() {
                 "files = [\"s.csv\", \"s.reduced.csv\"]",
             ),
     );
-    let out = neap(&["reduce", &p.project(), "--no-progress"]);
+    let out = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(out.status.code(), Some(2), "{}", stderr(&out));
     assert!(
         stderr(&out).contains("refusing to overwrite an input file"),
@@ -72,19 +72,34 @@ fn a_killed_run_leaves_no_output_only_a_temporary_that_the_next_run_removes() {
     let p = MiniProject::new(&s);
     let out = p.path("out/s.reduced.csv");
     let clean = {
-        let o = neap(&["reduce", &p.project(), "--no-progress", "--no-uncertainty"]);
+        let o = ebbwise(&["reduce", &p.project(), "--no-progress", "--no-uncertainty"]);
         assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
         std::fs::read(&out).unwrap()
     };
     std::fs::remove_dir_all(p.path("out")).unwrap();
+    // Each run is killed a set time after its temporary file appears (polled every 0.2 ms), so
+    // that the kill lands mid-write whatever the machine's speed; the 0 ms case kills at once.
+    let partial = p.path("out/.s.reduced.csv.ebbwise-partial");
     let mut saw_partial = false;
-    for delay_ms in [30u64, 120, 250, 400] {
-        let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_neap"))
+    for delay_after_partial_ms in [0u64, 5, 20, 60] {
+        let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_ebbwise"))
             .args(["reduce", &p.project(), "--no-progress", "--no-uncertainty"])
             .stderr(std::process::Stdio::null())
             .spawn()
             .unwrap();
-        std::thread::sleep(std::time::Duration::from_millis(delay_ms));
+        let started = std::time::Instant::now();
+        let mut appeared = false;
+        while started.elapsed() < std::time::Duration::from_secs(60) {
+            if partial.exists() {
+                appeared = true;
+                break;
+            }
+            if child.try_wait().unwrap().is_some() {
+                break;
+            }
+            std::thread::sleep(std::time::Duration::from_micros(200));
+        }
+        std::thread::sleep(std::time::Duration::from_millis(delay_after_partial_ms));
         let _ = child.kill(); // SIGKILL: no chance to clean up
         let _ = child.wait();
         if out.exists() {
@@ -96,10 +111,10 @@ fn a_killed_run_leaves_no_output_only_a_temporary_that_the_next_run_removes() {
             );
             std::fs::remove_file(&out).unwrap();
         }
-        saw_partial |= p.path("out/.s.reduced.csv.neap-partial").exists();
+        saw_partial |= appeared && partial.exists();
     }
     assert!(saw_partial, "at least one kill landed mid-run");
-    let o = neap(&["reduce", &p.project(), "--no-progress", "--no-uncertainty"]);
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress", "--no-uncertainty"]);
     assert!(
         stderr(&o).contains("removed 1 temporary file(s) left by an interrupted run"),
         "{}",
@@ -114,7 +129,7 @@ fn a_killed_run_leaves_no_output_only_a_temporary_that_the_next_run_removes() {
         .unwrap()
         .filter_map(Result::ok)
         .map(|e| e.file_name())
-        .filter(|n| n.to_string_lossy().ends_with(".neap-partial"))
+        .filter(|n| n.to_string_lossy().ends_with(".ebbwise-partial"))
         .collect();
     assert!(leftovers.is_empty(), "{leftovers:?}");
 }

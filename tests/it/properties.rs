@@ -1,6 +1,6 @@
 //! Results do not depend on the number of threads or on how the soundings are split across files.
 
-use super::{neap, repo, stderr};
+use super::{ebbwise, repo, stderr};
 
 fn demo_project() -> String {
     repo()
@@ -15,7 +15,7 @@ fn output_does_not_depend_on_thread_count() {
     let mut outputs = Vec::new();
     for threads in ["1", "2", "3"] {
         let out = d.path().join(threads);
-        let o = neap(&[
+        let o = ebbwise(&[
             "reduce",
             &demo_project(),
             "--out",
@@ -78,7 +78,7 @@ fn output_does_not_depend_on_how_soundings_are_split_across_files() {
         );
     let split_project = d.path().join("split.toml");
     std::fs::write(&split_project, project).unwrap();
-    let o = neap(&[
+    let o = ebbwise(&[
         "reduce",
         split_project.to_str().unwrap(),
         "--out",
@@ -86,7 +86,7 @@ fn output_does_not_depend_on_how_soundings_are_split_across_files() {
         "--no-progress",
     ]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
-    let o = neap(&[
+    let o = ebbwise(&[
         "reduce",
         &demo_project(),
         "--out",

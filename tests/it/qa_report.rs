@@ -1,7 +1,7 @@
 //! The QA report of the demo survey: schema-valid JSON, consistent per-sounding columns,
 //! budgets whose shares sum to 1, and an HTML page with its four plots and no outside resources.
 
-use super::{neap, read_csv, repo, stderr};
+use super::{ebbwise, read_csv, repo, stderr};
 
 fn reduce_demo(extra: &[&str]) -> (tempfile::TempDir, String) {
     let out = tempfile::tempdir().unwrap();
@@ -18,7 +18,7 @@ fn reduce_demo(extra: &[&str]) -> (tempfile::TempDir, String) {
         "--no-progress",
     ];
     args.extend_from_slice(extra);
-    let o = neap(&args);
+    let o = ebbwise(&args);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
     (out, stderr(&o))
 }
@@ -200,14 +200,14 @@ fn a_rerun_without_uncertainty_removes_the_stale_report() {
     let project = repo().join("zoning-demo/project.toml");
     let p = project.to_str().unwrap();
     assert_eq!(
-        neap(&["reduce", p, "--out", o, "--no-progress"])
+        ebbwise(&["reduce", p, "--out", o, "--no-progress"])
             .status
             .code(),
         Some(1)
     );
     assert!(out.path().join("qa-report.html").exists());
     assert_eq!(
-        neap(&["reduce", p, "--out", o, "--no-progress", "--no-uncertainty"])
+        ebbwise(&["reduce", p, "--out", o, "--no-progress", "--no-uncertainty"])
             .status
             .code(),
         Some(1)
@@ -221,7 +221,7 @@ fn an_order_without_uncertainty_inputs_is_refused() {
     let p = super::MiniProject::new(
         "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n",
     );
-    let o = neap(&["reduce", &p.project(), "--order", "1a", "--no-progress"]);
+    let o = ebbwise(&["reduce", &p.project(), "--order", "1a", "--no-progress"]);
     assert_eq!(o.status.code(), Some(2));
     assert!(
         stderr(&o).contains("--order needs an [uncertainty] section"),

@@ -1,4 +1,4 @@
-//! Gauge-record quality control end to end: `neap qc` on the demo and on records made here with
+//! Gauge-record quality control end to end: `ebbwise qc` on the demo and on records made here with
 //! planted faults, the reducer's `gauge_flagged` status, the interpolation choice, and the
 //! gauge-to-gauge comparison.
 //!
@@ -11,7 +11,7 @@ use std::path::Path;
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
 
-use super::{neap, read_csv, repo, stderr, MiniProject, MINI_PROJECT};
+use super::{ebbwise, read_csv, repo, stderr, MiniProject, MINI_PROJECT};
 
 // ---------------------------------------------------------------------------------------------
 // Helpers
@@ -207,7 +207,7 @@ fn is_excluding(flag: &str) -> bool {
 fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
     let root = repo().join("zoning-demo");
     let out = tempfile::tempdir().unwrap();
-    let o = neap(&[
+    let o = ebbwise(&[
         "qc",
         root.join("project.toml").to_str().unwrap(),
         "--out",
@@ -306,7 +306,7 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
 
     // The summary's counts equal the flags counted in each CSV.
     let s = summary(out.path());
-    assert_eq!(s["schema"], "neap-qc-summary/1");
+    assert_eq!(s["schema"], "ebbwise-qc-summary/1");
     for g in ["orlick", "pendrath", "skellan"] {
         let (h, rows) = read_csv(&out.path().join(format!("{g}.qc.csv")));
         let mut counts: BTreeMap<String, u64> = BTreeMap::new();
@@ -511,7 +511,7 @@ fn reducer_marks_soundings_across_flagged_samples_and_only_those() {
     // The planted faults are what QC finds in this record (sample lines: header is line 1,
     // sample i is line i + 2; 03:00 is sample 30, 08:00 sample 80).
     let qc_out = p.path("qc");
-    let o = neap(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
+    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
     let flagged = flagged_lines(&qc_out.join("g1.qc.csv"));
     let mut want = BTreeMap::from([(32, "spike".to_string())]);
@@ -523,7 +523,7 @@ fn reducer_marks_soundings_across_flagged_samples_and_only_those() {
         "only the planted spike and the step (with the record after it), no false alarm on 5 mm noise"
     );
 
-    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(
         o.status.code(),
         Some(1),
@@ -562,7 +562,7 @@ fn reducer_marks_soundings_across_flagged_samples_and_only_those() {
     // With QC off, the same soundings are reduced, through the raw samples: at 03:00 the tide
     // is the spike's level itself.
     let (p, rec) = fault_project(false);
-    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
     for (r, (t, lon, _, _)) in rows.iter().zip(FAULT_SOUNDINGS) {
@@ -585,7 +585,7 @@ fn reducer_marks_soundings_across_flagged_samples_and_only_those() {
 fn per_zone_correctors_mark_flagged_times() {
     let (p, _) = fault_project(true);
     let out = p.path("corr");
-    let o = neap(&[
+    let o = ebbwise(&[
         "correctors",
         &p.project(),
         "--out",
@@ -674,7 +674,7 @@ fn hourly_run(choice: &str) -> (Series, Series) {
     );
     assert_ne!(project, MINI_PROJECT);
     p.write("project.toml", &project);
-    let o = neap(&["reduce", &p.project(), "--no-progress"]);
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(o.status.code(), Some(0), "{choice}: {}", stderr(&o));
     let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
     assert_eq!(rows.len(), times.len());
@@ -804,10 +804,10 @@ columns = { time = "time", x = "lon", y = "lat", depth = "depth", line = "line" 
     p
 }
 
-/// Runs `neap qc` and returns (exit code, the g2–g1 comparison through Z).
+/// Runs `ebbwise qc` and returns (exit code, the g2–g1 comparison through Z).
 fn compare_run(p: &MiniProject) -> (Option<i32>, serde_json::Value) {
     let out = p.path("qc");
-    let o = neap(&["qc", &p.project(), "--out", out.to_str().unwrap()]);
+    let o = ebbwise(&["qc", &p.project(), "--out", out.to_str().unwrap()]);
     let s = summary(&out);
     // Neither record has a fault QC should see.
     for g in ["g1", "g2"] {
@@ -915,7 +915,7 @@ fn single_record_qc_finds_the_spike_and_leaves_the_input_alone() {
 
     for out in [dir.path().join("qc-out"), dir.path().to_path_buf()] {
         let before = listing(dir.path());
-        let o = neap(&[
+        let o = ebbwise(&[
             "qc",
             "--record",
             input.to_str().unwrap(),
@@ -963,7 +963,7 @@ fn single_record_qc_finds_the_spike_and_leaves_the_input_alone() {
 
 #[test]
 fn qc_without_project_or_record_cannot_run() {
-    let o = neap(&["qc"]);
+    let o = ebbwise(&["qc"]);
     assert_eq!(o.status.code(), Some(2));
     let e = stderr(&o);
     assert!(e.contains("required") && e.contains("PROJECT"), "{e}");
@@ -972,7 +972,7 @@ fn qc_without_project_or_record_cannot_run() {
 #[test]
 fn qc_of_an_unknown_gauge_names_the_known_ones() {
     let out = tempfile::tempdir().unwrap();
-    let o = neap(&[
+    let o = ebbwise(&[
         "qc",
         repo().join("zoning-demo/project.toml").to_str().unwrap(),
         "--gauge",
@@ -995,7 +995,7 @@ fn qc_record_with_bad_units_or_missing_file_cannot_run() {
     let input = dir.path().join("r.csv");
     std::fs::write(&input, "time,height\n2026-06-14T00:00:00Z,1.0\n").unwrap();
     let out = dir.path().join("q");
-    let o = neap(&[
+    let o = ebbwise(&[
         "qc",
         "--record",
         input.to_str().unwrap(),
@@ -1006,7 +1006,7 @@ fn qc_record_with_bad_units_or_missing_file_cannot_run() {
     ]);
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("yards"), "{}", stderr(&o));
-    let o = neap(&[
+    let o = ebbwise(&[
         "qc",
         "--record",
         dir.path().join("missing.csv").to_str().unwrap(),

@@ -1,11 +1,11 @@
 #!/usr/bin/env python3
-"""Generate the pyproj reference fixture for neap's coordinate transformations.
+"""Generate the pyproj reference fixture for ebbwise's coordinate transformations.
 
 What it makes
 -------------
 ``tests/fixtures/pyproj_transforms.csv``: an outside reference for the
-coordinate transformations neap performs, computed with pyproj (the Python
-interface to PROJ), independently of neap's own Rust code.
+coordinate transformations ebbwise performs, computed with pyproj (the Python
+interface to PROJ), independently of ebbwise's own Rust code.
 
 The file starts with a block of lines beginning with ``#`` that record the
 pyproj version, the PROJ version it bundles, and the generation date (UTC).
@@ -117,7 +117,7 @@ def main() -> int:
 
     generated = datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%d")
     header = [
-        "# neap reference fixture: coordinate transformations computed with pyproj.",
+        "# ebbwise reference fixture: coordinate transformations computed with pyproj.",
         f"# pyproj version: {pyproj.__version__}",
         f"# PROJ version (bundled with pyproj): {pyproj.proj_version_str}",
         f"# generated (UTC): {generated}",

@@ -3,5 +3,5 @@
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
-    let _ = neap::io::correctors_file::parse_correction_file(data, std::path::Path::new("c.csv"));
+    let _ = ebbwise::io::correctors_file::parse_correction_file(data, std::path::Path::new("c.csv"));
 });

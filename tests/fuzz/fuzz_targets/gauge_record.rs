@@ -3,7 +3,7 @@
 //! increasing samples, and QC must give one flag set per sample.
 #![no_main]
 use libfuzzer_sys::fuzz_target;
-use neap::io::project::{GaugeSpec, HeightUnit};
+use ebbwise::io::project::{GaugeSpec, HeightUnit};
 
 fuzz_target!(|data: &[u8]| {
     let spec = GaugeSpec {
@@ -31,12 +31,12 @@ fuzz_target!(|data: &[u8]| {
         constants: None,
     };
     let offset = chrono::FixedOffset::east_opt(3600);
-    if let Ok(r) = neap::io::gauge_csv::parse_gauge_record(data, std::path::Path::new("g.csv"), &spec, offset) {
+    if let Ok(r) = ebbwise::io::gauge_csv::parse_gauge_record(data, std::path::Path::new("g.csv"), &spec, offset) {
         assert!(r.heights_m.iter().all(|h| h.is_finite()));
-        let qc = neap::io::project::QcSpec::default();
-        let p = neap::run::load::prepare_series(
+        let qc = ebbwise::io::project::QcSpec::default();
+        let p = ebbwise::run::load::prepare_series(
             &qc,
-            &neap::io::project::InterpolationSpec::default(),
+            &ebbwise::io::project::InterpolationSpec::default(),
             &spec,
             &r,
         );

@@ -4,6 +4,6 @@ use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
     if let Ok(text) = std::str::from_utf8(data) {
-        let _ = neap::io::project::Project::from_str_at(text, std::path::Path::new("p.toml"));
+        let _ = ebbwise::io::project::Project::from_str_at(text, std::path::Path::new("p.toml"));
     }
 });

@@ -2,9 +2,9 @@
 //! line and every other line is split and parsed; a parsed sounding has finite values.
 #![no_main]
 use libfuzzer_sys::fuzz_target;
-use neap::io::project::{ColumnMap, Delimiter, DepthSign, SoundingsSpec};
-use neap::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
-use neap::io::timefmt::TimeFormat;
+use ebbwise::io::project::{ColumnMap, Delimiter, DepthSign, SoundingsSpec};
+use ebbwise::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
+use ebbwise::io::timefmt::TimeFormat;
 
 fuzz_target!(|data: &[u8]| {
     let delim = match data.first().map(|b| b % 4) {

@@ -1,7 +1,7 @@
 """Shared helpers for the harmonic-analysis reference generators.
 
 Times are handled as integer UTC seconds since 1970-01-01T00:00:00Z (POSIX
-time, no leap seconds), the same clock neap uses internally. pyTMD takes a
+time, no leap seconds), the same clock ebbwise uses internally. pyTMD takes a
 Modified Julian Day; MJD = 40587 + t_s / 86400 on that clock, so pyTMD's
 "hour of the day" is the UTC hour (deltat = 0: Universal Time, not
 Terrestrial Time, as in tidal practice).
@@ -21,12 +21,12 @@ FIXTURE_DIR = REPO_ROOT / "tests" / "fixtures" / "harmonics"
 # pyTMD options used everywhere: Schureman's (1958) nodal formulas.
 # corrections="FES" selects, in pyTMD 3.0.9, the Schureman expressions through
 # the orbital quantities I, xi, nu, nu', nu'' (and Ra, R for L2, Qa, Q for M1)
-# for every constituent family neap tabulates; it also makes pyTMD use its
+# for every constituent family ebbwise tabulates; it also makes pyTMD use its
 # "ASTRO5" mean longitudes (Meeus polynomials). M1="Schureman" selects
 # Schureman's eq. 206-207 for M1 instead of pyTMD's default.
 PYTMD_OPTIONS = {"corrections": "FES", "M1": "Schureman", "deltat": 0.0}
 
-# neap name -> pyTMD name. M1 is the classical M1 of Doodson number 155.655
+# ebbwise name -> pyTMD name. M1 is the classical M1 of Doodson number 155.655
 # (speed 14.4966939 deg/h), which pyTMD calls "m1a"; pyTMD's "m1" is 155.555.
 PYTMD_NAME = {
     "M2": "m2",

@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Read a record CSV and analyse it with UTide: the Python side of a timing
-benchmark against ``neap analyse`` (time the whole process, e.g. with
-hyperfine or ``/usr/bin/time``, on the same machine as neap).
+benchmark against ``ebbwise analyse`` (time the whole process, e.g. with
+hyperfine or ``/usr/bin/time``, on the same machine as ebbwise).
 
     /work/venv-ref/bin/python tests/reference/harmonics/bench_utide.py \
         tests/fixtures/harmonics/record_1y.csv

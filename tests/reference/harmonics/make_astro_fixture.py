@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Reference values for neap's astronomical arguments and nodal corrections.
+"""Reference values for ebbwise's astronomical arguments and nodal corrections.
 
 Writes ``tests/fixtures/harmonics/astro_pytmd.csv`` (long format):
 

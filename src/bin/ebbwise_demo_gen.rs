@@ -1,13 +1,13 @@
-//! `neap-demo-gen`: writes the bundled demo survey of the invented "Vellmar Water" estuary.
+//! `ebbwise-demo-gen`: writes the bundled demo survey of the invented "Vellmar Water" estuary.
 //!
 //! ```text
-//! cargo run --release --bin neap-demo-gen -- zoning-demo
+//! cargo run --release --bin ebbwise-demo-gen -- zoning-demo
 //! ```
 //!
 //! writes gauge records, a tidal zoning, two launches' soundings, the truth behind them and an
 //! annotated project file into the given folder. All randomness comes from one fixed ChaCha8 seed
 //! (one stream per output), so every run writes the same bytes. The binary uses no code from the
-//! neap library: the demo data are an independent check of it.
+//! ebbwise library: the demo data are an independent check of it.
 //!
 //! Frame: the estuary is a straight-axis funnel in UTM zone 24S (EPSG:32724). A position is
 //! `(along_m, across_m)`: metres along the axis from the mouth, and metres across it (positive to
@@ -888,11 +888,11 @@ fn generator_json(
 
 fn project_toml(gauge_lonlat: &[(f64, f64)]) -> String {
     let mut s = String::from(
-        r#"# neap project file for the bundled demo survey "Vellmar Water".
+        r#"# ebbwise project file for the bundled demo survey "Vellmar Water".
 # INVENTED DATA for demonstration only: the estuary, gauges and survey do not exist.
-# Written by `cargo run --release --bin neap-demo-gen -- zoning-demo`; edit the generator, not this file.
+# Written by `cargo run --release --bin ebbwise-demo-gen -- zoning-demo`; edit the generator, not this file.
 #
-# Conventions used throughout neap:
+# Conventions used throughout ebbwise:
 #   * heights are positive UP, depths positive DOWN, both in metres;
 #   * chart datum (CD) is the vertical reference of the results: a reduced depth is the depth of the
 #     seabed below CD, and a negative reduced depth is a drying height (seabed above CD);
@@ -1031,7 +1031,7 @@ fn readme(stats: &[FileStats; 2], model_error: (f64, f64)) -> String {
         .collect();
     let [a, b] = stats;
     format!(
-        r#"# Vellmar Water: the neap demo survey
+        r#"# Vellmar Water: the ebbwise demo survey
 
 **Invented data for demonstration only.** Vellmar Water, Orlick Point, Pendrath Quay and Skellan
 Head do not exist. The estuary is placed in open water near 36.0° W, 47.5° S (UTM zone 24S,
@@ -1072,7 +1072,7 @@ Deliberate faults, as real surveys have them:
   30 minutes interpolation may bridge) and two empty readings; {gap_a} soundings of launch A and
   {gap_b} of launch B lie in zones it feeds at times that fall in the gap;
 * `skellan`'s sensor misbehaves three times: a spike of +0.52 m at 09:48, a stuck float
-  (the 11:24 reading repeated until 12:48) and the 16:00 row written twice. `neap qc` finds
+  (the 11:24 reading repeated until 12:48) and the 16:00 row written twice. `ebbwise qc` finds
   each; the reducer does not interpolate across the flagged samples, so {flt_a} soundings of
   launch A and {flt_b} of launch B, in zones skellan feeds, get status `gauge_flagged`;
 * one line of launch A overshoots the shore by 100 m: {out} soundings lie outside every zone;
@@ -1081,10 +1081,10 @@ Deliberate faults, as real surveys have them:
 ## How it was generated
 
 ```text
-cargo run --release --bin neap-demo-gen -- zoning-demo
+cargo run --release --bin ebbwise-demo-gen -- zoning-demo
 ```
 
-The generator (`src/bin/neap_demo_gen.rs`) is deterministic (ChaCha8, seed {seed}): running it
+The generator (`src/bin/ebbwise_demo_gen.rs`) is deterministic (ChaCha8, seed {seed}): running it
 again rewrites the same bytes. Noise: sounding depths N(0, {sd_s:.2} m), rounded to 0.01 m; gauge
 readings N(0, {sd_g:.2} m), rounded to 0.001 m. Each zone's correctors come from the true tide at
 its centroid (time corrector rounded to 1 min, range ratio to 0.01), so the zoning is good but not
@@ -1093,9 +1093,9 @@ exact: fed by error-free gauges it differs from the true tide by {rms:.3} m rms 
 
 ## Running it
 
-`neap check zoning-demo/project.toml` lists the faults above; `neap reduce
+`ebbwise check zoning-demo/project.toml` lists the faults above; `ebbwise reduce
 zoning-demo/project.toml` reduces the survey into `zoning-demo/out/`. The `run` script here builds
-neap and does the same through `neap demo`.
+ebbwise and does the same through `ebbwise demo`.
 "#,
         day = SURVEY_DAY,
         min = MIN_LOGGED_DEPTH_M,
