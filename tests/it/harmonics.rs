@@ -1,4 +1,4 @@
-//! Harmonic analysis and prediction against outside references (issue 7), through the library
+//! Harmonic analysis and prediction against outside references, through the library
 //! API (`ebbwise::compute::harmonic`, `ebbwise::compute::astro`).
 //!
 //! Fixtures (tests/fixtures/harmonics/, made by tests/reference/harmonics/, see its README):
@@ -186,7 +186,7 @@ fn fitted_ok<'a>(a: &'a Analysis, name: &str) -> &'a Fitted {
     fitted(a, name).unwrap_or_else(|| panic!("{name} not in the analysis"))
 }
 
-/// The issue's acceptance thresholds (issue 7, "Done when" (b)): every constituent whose UTide
+/// Acceptance thresholds: every constituent whose UTide
 /// amplitude is above 5 cm agrees within 2 mm in amplitude and 1° in phase.
 const UTIDE_CHECK_ABOVE_M: f64 = 0.05;
 const UTIDE_TOL_H_M: f64 = 0.002;
@@ -321,7 +321,7 @@ fn check_unknown_are_noise(label: &str, u: &Utide, unknown: &[String]) {
 //   1 y, UTide's set     0.99 mm (S2)      0.27° (O1)       < 0.001 mm
 //   1 y, ebbwise's Rayleigh 0.99 mm (S2)      0.28° (O1)       0.001 mm
 //
-// Thresholds 2 mm / 1° (issue 7). The 29-day S2 is UTide's 0.560 m (K2 leaks into it: neither
+// Thresholds 2 mm / 1° (the acceptance thresholds above). The 29-day S2 is UTide's 0.560 m (K2 leaks into it: neither
 // analysis infers), so the 1.28 mm there is 0.23 % of 0.56 m.
 
 /// (b) 29-day record, UTide's constituent set, inference off: agreement with UTide 0.4.0

@@ -11,6 +11,7 @@ mod outputs;
 mod properties;
 mod qa_report;
 mod qc;
+mod tidy;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
