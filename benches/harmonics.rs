@@ -1,5 +1,5 @@
-//! Harmonic analysis of a one-year hourly record and a 19-year 6-minute prediction (the
-//! benchmark targets of issue 7), in this process and as whole `ebbwise` processes.
+//! Harmonic analysis of a one-year hourly record and a 19-year 6-minute prediction, against
+//! their time targets, in this process and as whole `ebbwise` processes.
 //!
 //! ```text
 //! cargo build --release --bin ebbwise
@@ -48,9 +48,8 @@
 
 use std::fs;
 use std::hint::black_box;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::{Command, Stdio};
-use std::time::{Instant, SystemTime};
 
 use ebbwise::compute::astro::{constituent, constituents, Constituent};
 use ebbwise::compute::harmonic::{
@@ -62,6 +61,9 @@ use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, HeightUnit};
 use ebbwise::run::harmonics::predict_file;
 use nalgebra::{DMatrix, DVector};
+
+mod common;
+use common::{Run, Runner, Timed, DISTURBED_OTHER_CPU_PER_WALL};
 
 /// The benchmark record, relative to the repository.
 const RECORD: &str = "tests/fixtures/harmonics/record_1y.csv";
@@ -78,86 +80,41 @@ const PREDICTION_N: usize = 6940 * 240;
 /// The same span for `ebbwise predict` (`--to` is included when it is on the grid).
 const PREDICTION_FROM: &str = "2025-01-01T00:00:00Z";
 const PREDICTION_TO: &str = "2044-01-01T23:54:00Z";
-/// The targets of issue 7.
+/// The time targets: the least-squares solve, and the 19-year prediction.
 const TARGET_SOLVE_S: f64 = 0.020;
 const TARGET_PREDICTION_S: f64 = 1.0;
 
-const DEFAULT_RUNS: usize = 11;
-const DEFAULT_RETRIES: usize = 3;
-const DEFAULT_WAIT_IDLE_S: u64 = 60;
-/// Idle: this many consecutive seconds with all processes together below
-/// `IDLE_BUSY_CPU_PER_S` CPU-seconds per second.
-const IDLE_STREAK_S: u32 = 3;
-const IDLE_BUSY_CPU_PER_S: f64 = 0.05;
-/// A run is disturbed when other processes used more than this many CPU-seconds per second of
-/// its wall time, plus `TICK_ALLOWANCE_S`.
-const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
-/// Allowance for the resolution of /proc/stat (two 10 ms ticks), seconds.
+/// Allowance for the resolution of /proc/stat (two 10 ms ticks), seconds: a run is disturbed
+/// when other processes used more than `DISTURBED_OTHER_CPU_PER_WALL` CPU-seconds per second of
+/// its wall time plus this.
 const TICK_ALLOWANCE_S: f64 = 0.02;
-
-/// How measurements are taken.
-struct Runner {
-    runs: usize,
-    retries: usize,
-    wait_idle_s: u64,
-}
-
-/// Timings of one measurement.
-struct Timed {
-    label: String,
-    median_s: f64,
-    min_s: f64,
-    /// Median CPU time of this process and its children over the kept runs, seconds.
-    cpu_median_s: f64,
-    /// Kept runs that were disturbed (retries exhausted).
-    disturbed: usize,
-    /// Disturbed runs discarded and run again.
-    discarded: usize,
-}
 
 impl Runner {
     /// Times `f` over `self.runs` runs after one untimed warm-up run, waiting for an idle machine
     /// first. Returns the timings and the last result.
     fn measure<T>(&self, label: &str, mut f: impl FnMut() -> T) -> (Timed, T) {
-        wait_for_idle(self.wait_idle_s);
+        self.wait_for_idle();
         let mut last = black_box(f());
-        let (mut walls_s, mut cpus_s) = (Vec::new(), Vec::new());
+        let mut kept: Vec<Run> = Vec::with_capacity(self.runs);
         let (mut disturbed, mut discarded) = (0, 0);
         for _ in 0..self.runs {
             let mut attempt = 0;
             loop {
                 attempt += 1;
-                let own_before_s = own_cpu_s();
-                let busy_before_s = machine_busy_s();
-                let start = Instant::now();
-                let r = black_box(f());
-                let wall_s = start.elapsed().as_secs_f64();
-                let own_s = own_cpu_s() - own_before_s;
-                let other_s = machine_busy_s() - busy_before_s - own_s;
+                let (run, r) = common::time_run(|| black_box(f()));
                 drop(std::mem::replace(&mut last, r));
-                let is_disturbed =
-                    other_s > DISTURBED_OTHER_CPU_PER_WALL * wall_s + TICK_ALLOWANCE_S;
+                let is_disturbed = common::disturbed(run.other_cpu_s, run.wall_s, TICK_ALLOWANCE_S);
                 if is_disturbed && attempt <= self.retries {
                     discarded += 1;
-                    wait_for_idle(self.wait_idle_s);
+                    self.wait_for_idle();
                     continue;
                 }
                 disturbed += usize::from(is_disturbed);
-                walls_s.push(wall_s);
-                cpus_s.push(own_s);
+                kept.push(run);
                 break;
             }
         }
-        let (median_s, min_s) = median_min(walls_s);
-        let (cpu_median_s, _) = median_min(cpus_s);
-        let t = Timed {
-            label: label.to_string(),
-            median_s,
-            min_s,
-            cpu_median_s,
-            disturbed,
-            discarded,
-        };
+        let t = Timed::new(label.to_string(), &kept, disturbed, discarded);
         eprintln!("harmonics: {:<58} median {}", t.label, ms(t.median_s));
         (t, last)
     }
@@ -169,147 +126,6 @@ fn ms(s: f64) -> String {
     } else {
         format!("{:.1} ms", s * 1e3)
     }
-}
-
-/// CPU time (user + system) of this process and its waited-for children so far, seconds.
-fn own_cpu_s() -> f64 {
-    let s = |tv: libc::timeval| tv.tv_sec as f64 + tv.tv_usec as f64 * 1e-6;
-    [libc::RUSAGE_SELF, libc::RUSAGE_CHILDREN]
-        .into_iter()
-        .map(|who| {
-            // SAFETY: getrusage only writes into the struct passed.
-            let mut ru: libc::rusage = unsafe { std::mem::zeroed() };
-            assert_eq!(unsafe { libc::getrusage(who, &mut ru) }, 0, "getrusage");
-            s(ru.ru_utime) + s(ru.ru_stime)
-        })
-        .sum()
-}
-
-/// Busy CPU time of the whole machine so far, seconds (from /proc/stat).
-fn machine_busy_s() -> f64 {
-    let Ok(stat) = fs::read_to_string("/proc/stat") else {
-        return f64::NAN;
-    };
-    let v: Vec<u64> = stat
-        .lines()
-        .next()
-        .unwrap_or("")
-        .split_whitespace()
-        .skip(1)
-        .filter_map(|x| x.parse().ok())
-        .collect();
-    if v.len() < 5 {
-        return f64::NAN;
-    }
-    // user nice system idle iowait irq softirq steal (guest times are inside user/nice).
-    let busy: u64 = v.iter().take(8).sum::<u64>() - v[3] - v[4];
-    // SAFETY: sysconf has no preconditions.
-    let ticks_per_s = unsafe { libc::sysconf(libc::_SC_CLK_TCK) } as f64;
-    busy as f64 / ticks_per_s
-}
-
-/// Waits until the machine has been idle for `IDLE_STREAK_S` seconds, at most `max_s` seconds.
-fn wait_for_idle(max_s: u64) {
-    let start = Instant::now();
-    let mut streak = 0;
-    let mut told = false;
-    while start.elapsed().as_secs() < max_s {
-        let before_s = machine_busy_s();
-        std::thread::sleep(std::time::Duration::from_secs(1));
-        if machine_busy_s() - before_s < IDLE_BUSY_CPU_PER_S {
-            streak += 1;
-            if streak >= IDLE_STREAK_S {
-                return;
-            }
-        } else {
-            streak = 0;
-            if !told {
-                eprintln!("harmonics: waiting (at most {max_s} s) for other processes to finish…");
-                told = true;
-            }
-        }
-    }
-}
-
-fn median_min(mut v: Vec<f64>) -> (f64, f64) {
-    v.sort_by(f64::total_cmp);
-    let n = v.len();
-    let median = if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
-    };
-    (median, v[0])
-}
-
-/// `<target>/release/ebbwise`, found from this executable's place (`<target>/release/deps/`).
-fn ebbwise_binary() -> PathBuf {
-    let exe = std::env::current_exe().expect("this executable");
-    let target = exe
-        .parent()
-        .filter(|d| d.file_name().is_some_and(|n| n == "deps"))
-        .and_then(Path::parent)
-        .and_then(Path::parent)
-        .map(Path::to_path_buf)
-        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
-    let ebbwise = target.join("release").join("ebbwise");
-    assert!(
-        ebbwise.is_file(),
-        "{} does not exist: build it first with `cargo build --release --bin ebbwise` (this bench \
-         builds nothing itself)",
-        ebbwise.display()
-    );
-    ebbwise
-}
-
-/// Warns when a file under src/ is newer than the binary.
-fn warn_if_stale(ebbwise: &Path) {
-    let Ok(built) = fs::metadata(ebbwise).and_then(|m| m.modified()) else {
-        return;
-    };
-    let mut newest: Option<(SystemTime, PathBuf)> = None;
-    let mut stack = vec![Path::new(env!("CARGO_MANIFEST_DIR")).join("src")];
-    while let Some(dir) = stack.pop() {
-        let Ok(rd) = fs::read_dir(&dir) else { continue };
-        for e in rd.flatten() {
-            let p = e.path();
-            if p.is_dir() {
-                stack.push(p);
-            } else if let Ok(t) = e.metadata().and_then(|m| m.modified()) {
-                if newest.as_ref().map_or(true, |(n, _)| t > *n) {
-                    newest = Some((t, p));
-                }
-            }
-        }
-    }
-    if let Some((t, p)) = newest {
-        if t > built {
-            eprintln!(
-                "harmonics: warning: {} is newer than {}; run `cargo build --release --bin ebbwise` \
-                 to measure the current code",
-                p.display(),
-                ebbwise.display()
-            );
-        }
-    }
-}
-
-fn cpu_model() -> String {
-    fs::read_to_string("/proc/cpuinfo")
-        .ok()
-        .and_then(|s| {
-            s.lines()
-                .find(|l| l.starts_with("model name"))
-                .and_then(|l| l.split(':').nth(1))
-                .map(|m| m.trim().to_string())
-        })
-        .unwrap_or_else(|| "unknown CPU".into())
-}
-
-fn load_average() -> String {
-    fs::read_to_string("/proc/loadavg")
-        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
-        .unwrap_or_else(|_| "unknown".into())
 }
 
 /// Every table constituent the record separates at `factor`: admitted greedily in order of
@@ -454,33 +270,32 @@ fn upper_by_gemm_blocks(a: &DMatrix<f64>, w: usize) -> DMatrix<f64> {
     m
 }
 
+/// Runs an `ebbwise` command, its standard output to /dev/null, and asserts that it succeeded.
+fn run_quietly(cmd: &mut Command) {
+    let status = cmd
+        .stdout(Stdio::null())
+        .stderr(Stdio::inherit())
+        .status()
+        .expect("ebbwise starts");
+    let subcommand = cmd.get_args().next().unwrap_or_default().to_string_lossy();
+    assert!(status.success(), "ebbwise {subcommand}: {status}");
+}
+
+/// The defaults of `--runs`, `--retries` (per run) and `--wait-idle` (before each measurement
+/// and before a run is repeated).
+const DEFAULTS: Runner = Runner {
+    runs: 11,
+    retries: 3,
+    wait_idle_s: 60,
+};
+
 const USAGE: &str =
     "usage: cargo bench --bench harmonics [-- [--runs K] [--retries R] [--wait-idle SECONDS]]";
 
 fn main() {
-    let mut runner = Runner {
-        runs: DEFAULT_RUNS,
-        retries: DEFAULT_RETRIES,
-        wait_idle_s: DEFAULT_WAIT_IDLE_S,
-    };
-    let mut args = std::env::args().skip(1);
-    while let Some(a) = args.next() {
-        let mut number = |what: &str| -> u64 {
-            args.next()
-                .and_then(|v| v.parse().ok())
-                .unwrap_or_else(|| panic!("{a} needs a whole number of {what}\n{USAGE}"))
-        };
-        match a.as_str() {
-            // cargo bench passes --bench to harness = false targets.
-            "--bench" => {}
-            "--runs" => runner.runs = number("runs").max(1) as usize,
-            "--retries" => runner.retries = number("retries") as usize,
-            "--wait-idle" => runner.wait_idle_s = number("seconds"),
-            other => panic!("unknown argument '{other}'\n{USAGE}"),
-        }
-    }
-    let ebbwise = ebbwise_binary();
-    warn_if_stale(&ebbwise);
+    let runner = DEFAULTS.with_args(USAGE, |_, _| false);
+    let ebbwise = common::ebbwise_binary().unwrap_or_else(|e| panic!("{e}"));
+    common::warn_if_stale(&ebbwise);
     let repo = Path::new(env!("CARGO_MANIFEST_DIR"));
     let record = repo.join(RECORD);
 
@@ -510,12 +325,7 @@ fn main() {
          of each measurement (medians)",
         runner.runs
     );
-    println!(
-        "  machine  {} | {} logical CPUs | load average {}",
-        cpu_model(),
-        std::thread::available_parallelism().map_or(0, |n| n.get()),
-        load_average()
-    );
+    println!("  machine  {}", common::machine_and_load());
     println!(
         "  record   {RECORD}: {} samples over {length_h:.0} h",
         times_s.len()
@@ -687,18 +497,15 @@ fn main() {
     let dir = tempfile::tempdir().expect("a temporary folder");
     let out_toml = dir.path().join("record_1y.constants.toml");
     let analyse_cmd = |extra: &[&str]| {
-        let status = Command::new(&ebbwise)
-            .arg("analyse")
-            .arg(&record)
-            .args(["--time-column", "time_utc", "--height-column", "height_m"])
-            .args(extra)
-            .arg("--out")
-            .arg(&out_toml)
-            .stdout(Stdio::null())
-            .stderr(Stdio::inherit())
-            .status()
-            .expect("ebbwise starts");
-        assert!(status.success(), "ebbwise analyse: {status}");
+        run_quietly(
+            Command::new(&ebbwise)
+                .arg("analyse")
+                .arg(&record)
+                .args(["--time-column", "time_utc", "--height-column", "height_m"])
+                .args(extra)
+                .arg("--out")
+                .arg(&out_toml),
+        )
     };
     let (t, ()) = runner.measure(
         "ebbwise analyse RECORD (whole process, automatic choice)",
@@ -736,20 +543,17 @@ fn main() {
             for p in [&pred, &pred_ex] {
                 let _ = fs::remove_file(p);
             }
-            let status = Command::new(&ebbwise)
-                .arg("predict")
-                .arg(&constants)
-                .args(["--from", PREDICTION_FROM, "--to", PREDICTION_TO])
-                .args(["--step-min", "6"])
-                .arg("--out")
-                .arg(&pred)
-                .arg("--high-low-waters")
-                .arg(&pred_ex)
-                .stdout(Stdio::null())
-                .stderr(Stdio::inherit())
-                .status()
-                .expect("ebbwise starts");
-            assert!(status.success(), "ebbwise predict: {status}");
+            run_quietly(
+                Command::new(&ebbwise)
+                    .arg("predict")
+                    .arg(&constants)
+                    .args(["--from", PREDICTION_FROM, "--to", PREDICTION_TO])
+                    .args(["--step-min", "6"])
+                    .arg("--out")
+                    .arg(&pred)
+                    .arg("--high-low-waters")
+                    .arg(&pred_ex),
+            );
         },
     );
     let t_predict_process = t.median_s;
@@ -774,7 +578,7 @@ fn main() {
     );
     let t_predict_file = t.median_s;
     rows.push(t);
-    let (compute_median_s, _) = median_min(compute_s);
+    let compute_median_s = common::median(compute_s);
     let pred_mib = fs::metadata(&pred).map(|m| m.len()).unwrap_or(0) as f64 / 1048576.0;
     let pred_lines = fs::read_to_string(&pred)
         .expect("the prediction")
@@ -855,5 +659,5 @@ fn main() {
          bash tests/reference/harmonics/bench_side_by_side.sh",
         ms(t_process_auto)
     );
-    println!("  load average after: {}", load_average());
+    println!("  load average after: {}", common::load_average());
 }

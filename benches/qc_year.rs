@@ -46,9 +46,9 @@ use std::fmt::Write as _;
 use std::fs;
 use std::hint::black_box;
 use std::io::{BufWriter, Write};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::{Command, Stdio};
-use std::time::{Instant, SystemTime};
+use std::time::Instant;
 
 use ebbwise::compute::qc::{run_qc, QcFlag, QcResult};
 use ebbwise::io::gauge_csv::read_gauge_record;
@@ -58,6 +58,9 @@ use ebbwise::run::load::{prepare_series, PreparedSeries};
 use ebbwise::run::qc::write_gauge_qc;
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
+
+mod common;
+use common::{Run, Runner, Timed, DISTURBED_OTHER_CPU_PER_WALL};
 
 /// Samples in the record: 365 days of 1-minute samples.
 const N_SAMPLES: usize = 365 * 1440;
@@ -71,20 +74,6 @@ const MEAN_LEVEL_M: f64 = 2.5;
 const NOISE_SIGMA_M: f64 = 0.01;
 /// Seed of the noise generator.
 const SEED: u64 = 2026;
-/// Default number of rounds (each runs every measurement once).
-const DEFAULT_RUNS: usize = 7;
-/// Default number of disturbed runs discarded and run again, per measurement.
-const DEFAULT_RETRIES: usize = 3;
-/// Default longest wait for an idle machine before the first round and before a repeated run,
-/// seconds.
-const DEFAULT_WAIT_IDLE_S: u64 = 20;
-/// The machine counts as idle after this many consecutive seconds in which all processes
-/// together used less than `IDLE_BUSY_CPU_PER_S` CPU seconds per second.
-const IDLE_STREAK_S: u32 = 3;
-const IDLE_BUSY_CPU_PER_S: f64 = 0.05;
-/// A run is disturbed when other processes used more than this many CPU seconds per second of
-/// its wall time.
-const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
 /// Low-pass cut-off period for the filtered preparation, minutes.
 const LOWPASS_CUTOFF_MIN: f64 = 10.0;
 
@@ -218,30 +207,6 @@ fn write_csv(path: &Path, times_s: &[f64], heights_m: &[f64]) {
     w.flush().unwrap();
 }
 
-/// How measurements are taken: runs, retries of disturbed runs, the wait for an idle machine.
-struct Runner {
-    runs: usize,
-    retries: usize,
-    wait_idle_s: u64,
-}
-
-/// Timings of one measurement.
-struct Timed {
-    label: String,
-    median_s: f64,
-    min_s: f64,
-    /// CPU time of this process and its children, median over the kept runs, seconds.
-    cpu_median_s: f64,
-    /// Kept runs during which other processes used the machine noticeably.
-    disturbed: usize,
-    /// Disturbed runs discarded and run again.
-    discarded: usize,
-    /// Wall time of each kept run, in run order, seconds.
-    runs_s: Vec<f64>,
-    /// CPU time other processes used during each kept run, seconds.
-    others_s: Vec<f64>,
-}
-
 /// One measurement: its label and the work, which keeps its own last result.
 type Task<'a> = (String, Box<dyn FnMut() + 'a>);
 
@@ -251,32 +216,22 @@ impl Runner {
     /// machine first; a disturbed run is run again after another wait, at most `self.retries`
     /// times per task.
     fn measure_interleaved(&self, tasks: &mut [Task]) -> Vec<Timed> {
-        wait_for_idle(self.wait_idle_s);
-        let mut walls_s = vec![Vec::with_capacity(self.runs); tasks.len()];
-        let mut cpus_s = vec![Vec::with_capacity(self.runs); tasks.len()];
-        let mut others_s = vec![Vec::with_capacity(self.runs); tasks.len()];
+        self.wait_for_idle();
+        let mut kept: Vec<Vec<Run>> = vec![Vec::with_capacity(self.runs); tasks.len()];
         let mut disturbed = vec![0; tasks.len()];
         let mut discarded = vec![0; tasks.len()];
         for _ in 0..self.runs {
             for (k, (_, f)) in tasks.iter_mut().enumerate() {
                 loop {
-                    let own_before_s = own_cpu_s();
-                    let busy_before_s = machine_busy_s();
-                    let start = Instant::now();
-                    f();
-                    let wall_s = start.elapsed().as_secs_f64();
-                    let own_s = own_cpu_s() - own_before_s;
-                    let other_s = machine_busy_s() - busy_before_s - own_s;
-                    let is_disturbed = other_s > DISTURBED_OTHER_CPU_PER_WALL * wall_s;
+                    let (run, ()) = common::time_run(&mut *f);
+                    let is_disturbed = common::disturbed(run.other_cpu_s, run.wall_s, 0.0);
                     if is_disturbed && discarded[k] < self.retries {
                         discarded[k] += 1;
-                        wait_for_idle(self.wait_idle_s);
+                        self.wait_for_idle();
                         continue;
                     }
                     disturbed[k] += usize::from(is_disturbed);
-                    walls_s[k].push(wall_s);
-                    cpus_s[k].push(own_s);
-                    others_s[k].push(other_s);
+                    kept[k].push(run);
                     break;
                 }
             }
@@ -284,36 +239,9 @@ impl Runner {
         tasks
             .iter()
             .enumerate()
-            .map(|(k, (label, _))| {
-                let (median_s, min_s) = median_min(walls_s[k].clone());
-                let (cpu_median_s, _) = median_min(cpus_s[k].clone());
-                Timed {
-                    label: label.clone(),
-                    median_s,
-                    min_s,
-                    cpu_median_s,
-                    disturbed: disturbed[k],
-                    discarded: discarded[k],
-                    runs_s: walls_s[k].clone(),
-                    others_s: others_s[k].clone(),
-                }
-            })
+            .map(|(k, (label, _))| Timed::new(label.clone(), &kept[k], disturbed[k], discarded[k]))
             .collect()
     }
-}
-
-/// CPU time (user + system) of this process and its waited-for children so far, seconds.
-fn own_cpu_s() -> f64 {
-    let s = |tv: libc::timeval| tv.tv_sec as f64 + tv.tv_usec as f64 * 1e-6;
-    [libc::RUSAGE_SELF, libc::RUSAGE_CHILDREN]
-        .into_iter()
-        .map(|who| {
-            // SAFETY: getrusage only writes into the struct passed.
-            let mut ru: libc::rusage = unsafe { std::mem::zeroed() };
-            assert_eq!(unsafe { libc::getrusage(who, &mut ru) }, 0, "getrusage");
-            s(ru.ru_utime) + s(ru.ru_stime)
-        })
-        .sum()
 }
 
 /// Hidden mode `--child-rss PROGRAM ARGS…`: runs the program (output to /dev/null) and prints
@@ -322,35 +250,20 @@ fn own_cpu_s() -> f64 {
 /// The program is started from this small process, not from the bench itself: a child started
 /// with `vfork` semantics (as `Command` does) shares its parent's memory until `exec`, and Linux
 /// counts the parent's resident set in the child's `ru_maxrss`.
-// The child is reaped by `wait4` (for its rusage), which clippy does not see.
-#[allow(clippy::zombie_processes)]
 fn child_rss(args: Vec<String>) {
-    let child = Command::new(&args[0])
-        .args(&args[1..])
-        .stdout(Stdio::null())
-        .stderr(Stdio::inherit())
-        .spawn()
-        .unwrap_or_else(|e| panic!("cannot start {}: {e}", args[0]));
-    let mut status = 0;
-    // SAFETY: wait4 writes only into the status and the struct passed.
-    let mut ru: libc::rusage = unsafe { std::mem::zeroed() };
-    let pid = unsafe { libc::wait4(child.id() as libc::pid_t, &mut status, 0, &mut ru) };
-    assert_eq!(pid, child.id() as libc::pid_t, "wait4");
-    let code = if libc::WIFEXITED(status) {
-        libc::WEXITSTATUS(status)
-    } else {
-        -1
-    };
-    println!("{code} {}", ru.ru_maxrss);
+    let r = common::run_child(
+        Command::new(&args[0])
+            .args(&args[1..])
+            .stdout(Stdio::null())
+            .stderr(Stdio::inherit()),
+    )
+    .unwrap_or_else(|e| panic!("{e}"));
+    println!("{} {}", r.exit_code.unwrap_or(-1), r.peak_rss_kib);
 }
 
 /// Runs `program args…` through `--child-rss`; returns its exit code and peak RSS in KiB.
 fn run_with_rss(program: &Path, args: &[&std::ffi::OsStr]) -> (i32, i64) {
-    let this = if Path::new("/proc/self/exe").exists() {
-        PathBuf::from("/proc/self/exe")
-    } else {
-        std::env::current_exe().expect("this executable")
-    };
+    let this = common::this_exe().unwrap_or_else(|e| panic!("{e}"));
     let out = Command::new(this)
         .arg("--child-rss")
         .arg(program)
@@ -369,165 +282,38 @@ fn run_with_rss(program: &Path, args: &[&std::ffi::OsStr]) -> (i32, i64) {
     )
 }
 
-/// Busy CPU time of the whole machine so far, seconds (from /proc/stat).
-fn machine_busy_s() -> f64 {
-    let Ok(stat) = fs::read_to_string("/proc/stat") else {
-        return f64::NAN;
-    };
-    let v: Vec<u64> = stat
-        .lines()
-        .next()
-        .unwrap_or("")
-        .split_whitespace()
-        .skip(1)
-        .filter_map(|x| x.parse().ok())
-        .collect();
-    if v.len() < 5 {
-        return f64::NAN;
-    }
-    // user nice system idle iowait irq softirq steal (guest times are inside user/nice).
-    let busy: u64 = v.iter().take(8).sum::<u64>() - v[3] - v[4];
-    // SAFETY: sysconf has no preconditions.
-    let ticks_per_s = unsafe { libc::sysconf(libc::_SC_CLK_TCK) } as f64;
-    busy as f64 / ticks_per_s
-}
-
-/// Waits until the machine has been idle for `IDLE_STREAK_S` seconds, at most `max_s` seconds.
-fn wait_for_idle(max_s: u64) {
-    let start = Instant::now();
-    let mut streak = 0;
-    let mut told = false;
-    while start.elapsed().as_secs() < max_s {
-        let before_s = machine_busy_s();
-        std::thread::sleep(std::time::Duration::from_secs(1));
-        if machine_busy_s() - before_s < IDLE_BUSY_CPU_PER_S {
-            streak += 1;
-            if streak >= IDLE_STREAK_S {
-                return;
-            }
-        } else {
-            streak = 0;
-            if !told {
-                eprintln!("qc_year: waiting (at most {max_s} s) for other processes to finish…");
-                told = true;
-            }
-        }
-    }
-}
-
-fn median_min(mut v: Vec<f64>) -> (f64, f64) {
-    v.sort_by(f64::total_cmp);
-    let n = v.len();
-    let median = if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
-    };
-    (median, v[0])
-}
-
-/// `<target>/release/ebbwise`, found from this executable's place (`<target>/release/deps/`).
-fn ebbwise_binary() -> PathBuf {
-    let exe = std::env::current_exe().expect("this executable");
-    let target = exe
-        .parent()
-        .filter(|d| d.file_name().is_some_and(|n| n == "deps"))
-        .and_then(Path::parent)
-        .and_then(Path::parent)
-        .map(Path::to_path_buf)
-        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
-    let ebbwise = target.join("release").join("ebbwise");
-    assert!(
-        ebbwise.is_file(),
-        "{} does not exist: build it first with `cargo build --release --bin ebbwise` (this bench \
-         builds nothing itself)",
-        ebbwise.display()
-    );
-    ebbwise
-}
-
-/// Warns when a file under src/ is newer than the binary.
-fn warn_if_stale(ebbwise: &Path) {
-    let Ok(built) = fs::metadata(ebbwise).and_then(|m| m.modified()) else {
-        return;
-    };
-    let mut newest: Option<(SystemTime, PathBuf)> = None;
-    let mut stack = vec![Path::new(env!("CARGO_MANIFEST_DIR")).join("src")];
-    while let Some(dir) = stack.pop() {
-        let Ok(rd) = fs::read_dir(&dir) else { continue };
-        for e in rd.flatten() {
-            let p = e.path();
-            if p.is_dir() {
-                stack.push(p);
-            } else if let Ok(t) = e.metadata().and_then(|m| m.modified()) {
-                if newest.as_ref().map_or(true, |(n, _)| t > *n) {
-                    newest = Some((t, p));
-                }
-            }
-        }
-    }
-    if let Some((t, p)) = newest {
-        if t > built {
-            eprintln!(
-                "qc_year: warning: {} is newer than {}; run `cargo build --release --bin ebbwise` \
-                 to measure the current code",
-                p.display(),
-                ebbwise.display()
-            );
-        }
-    }
-}
-
-fn cpu_model() -> String {
-    fs::read_to_string("/proc/cpuinfo")
-        .ok()
-        .and_then(|s| {
-            s.lines()
-                .find(|l| l.starts_with("model name"))
-                .and_then(|l| l.split(':').nth(1))
-                .map(|m| m.trim().to_string())
-        })
-        .unwrap_or_else(|| "unknown CPU".into())
-}
+/// The defaults: `--runs` 7 rounds (each runs every measurement once), `--retries` 3 disturbed
+/// runs discarded and run again per measurement, `--wait-idle` 20 s at most for an idle machine
+/// before the first round and before a repeated run.
+const DEFAULTS: Runner = Runner {
+    runs: 7,
+    retries: 3,
+    wait_idle_s: 20,
+};
 
 const USAGE: &str = "usage: cargo bench --bench qc_year \
     [-- [--runs K] [--retries R] [--wait-idle SECONDS] | --profile-run-qc K]";
 
 fn main() {
-    let mut runner = Runner {
-        runs: DEFAULT_RUNS,
-        retries: DEFAULT_RETRIES,
-        wait_idle_s: DEFAULT_WAIT_IDLE_S,
-    };
     if std::env::args().nth(1).as_deref() == Some("--child-rss") {
         child_rss(std::env::args().skip(2).collect());
         return;
     }
     let mut profile_run_qc = None;
-    let mut args = std::env::args().skip(1);
-    while let Some(a) = args.next() {
-        let mut number = |what: &str| -> u64 {
-            args.next()
-                .and_then(|v| v.parse().ok())
-                .unwrap_or_else(|| panic!("{a} needs a whole number of {what}\n{USAGE}"))
-        };
-        match a.as_str() {
-            // cargo bench passes --bench to harness = false targets.
-            "--bench" => {}
-            "--runs" => runner.runs = number("runs").max(1) as usize,
-            "--retries" => runner.retries = number("retries") as usize,
-            "--wait-idle" => runner.wait_idle_s = number("seconds"),
-            "--profile-run-qc" => profile_run_qc = Some(number("runs")),
-            other => panic!("unknown argument '{other}'\n{USAGE}"),
+    let runner = DEFAULTS.with_args(USAGE, |option, number| {
+        let known = option == "--profile-run-qc";
+        if known {
+            profile_run_qc = Some(number("runs"));
         }
-    }
+        known
+    });
     let (times_s, heights_m) = make_record();
     if let Some(k) = profile_run_qc {
         profile_only_run_qc(k, &times_s, &heights_m);
         return;
     }
-    let ebbwise = ebbwise_binary();
-    warn_if_stale(&ebbwise);
+    let ebbwise = common::ebbwise_binary().unwrap_or_else(|e| panic!("{e}"));
+    common::warn_if_stale(&ebbwise);
 
     let dir = tempfile::tempdir().expect("a temporary folder");
     let csv = dir.path().join("year.csv");
@@ -554,12 +340,7 @@ fn main() {
          measurement once)",
         runner.runs
     );
-    println!(
-        "  machine  {} | {} logical CPUs | load average {}",
-        cpu_model(),
-        std::thread::available_parallelism().map_or(0, |n| n.get()),
-        load_average()
-    );
+    println!("  machine  {}", common::machine_and_load());
     println!("  record   {} ({csv_mib:.1} MiB)", csv.display());
     println!("  ebbwise     {}", ebbwise.display());
     println!();
@@ -779,7 +560,7 @@ fn main() {
          running `true` takes {:.1} ms and reports {:.1} MiB. Load average after: {}",
         floor_s * 1e3,
         floor_rss_kib as f64 / 1024.0,
-        load_average()
+        common::load_average()
     );
     println!(
         "  flags: {} (planted: {} spikes, a {}-sample flat line, 2 level-shift steps); \
@@ -811,10 +592,4 @@ fn profile_only_run_qc(runs: u64, times_s: &[f64], heights_m: &[f64]) {
         start.elapsed().as_secs_f64(),
         start.elapsed().as_secs_f64() / runs.max(1) as f64
     );
-}
-
-fn load_average() -> String {
-    fs::read_to_string("/proc/loadavg")
-        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
-        .unwrap_or_else(|_| "unknown".into())
 }

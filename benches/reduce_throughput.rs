@@ -43,6 +43,9 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, ExitCode, Stdio};
 use std::time::{Instant, SystemTime};
 
+mod common;
+use common::DISTURBED_OTHER_CPU_PER_WALL;
+
 /// Default number of soundings in the generated file.
 const DEFAULT_SOUNDINGS: u64 = 5_000_000;
 /// Default number of runs of each side.
@@ -51,10 +54,6 @@ const DEFAULT_RUNS: usize = 3;
 const DEFAULT_WAIT_IDLE_S: u64 = 60;
 /// Default number of times a disturbed run is discarded and run again.
 const DEFAULT_RETRIES: u64 = 2;
-/// The machine counts as idle after this many consecutive seconds in which all processes
-/// together used less than `IDLE_BUSY_CPU_PER_S` CPU seconds per second.
-const IDLE_STREAK_S: u32 = 3;
-const IDLE_BUSY_CPU_PER_S: f64 = 0.05;
 /// Buffer size of the baseline's reader and writer, and of the line counter.
 const IO_BUFFER_BYTES: usize = 256 * 1024;
 /// Start of the generated soundings' times: 2026-06-14T07:00:00Z, seconds since 1970-01-01.
@@ -68,9 +67,6 @@ const MAX_POSITION_OFFSET_M: f64 = 0.5;
 const GENERATOR_VERSION: u32 = 1;
 /// Memory target for ebbwise, MiB (whatever the file size).
 const EBBWISE_PEAK_RSS_TARGET_MIB: f64 = 50.0;
-/// A run is flagged as disturbed when other processes used more than this many CPU seconds per
-/// second of its wall time.
-const DISTURBED_OTHER_CPU_PER_WALL: f64 = 0.10;
 
 const USAGE: &str = "usage: cargo bench --bench reduce_throughput \
     [-- [--soundings N] [--runs K] [--wait-idle SECONDS] [--retries R]]";
@@ -158,61 +154,11 @@ struct Paths {
 }
 
 fn locate() -> Result<Paths, String> {
-    let exe = std::env::current_exe().map_err(|e| format!("cannot find this executable: {e}"))?;
-    // cargo puts bench executables in <target>/<profile dir>/deps/.
-    let target = exe
-        .parent()
-        .filter(|d| d.file_name().is_some_and(|n| n == "deps"))
-        .and_then(Path::parent)
-        .and_then(Path::parent)
-        .map(Path::to_path_buf)
-        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("target"));
-    let ebbwise = target.join("release").join("ebbwise");
-    if !ebbwise.is_file() {
-        return Err(format!(
-            "{} does not exist: build it first with `cargo build --release --bin ebbwise` \
-             (this benchmark builds nothing itself)",
-            ebbwise.display()
-        ));
-    }
     Ok(Paths {
-        ebbwise,
-        data_root: target.join("bench-data"),
+        ebbwise: common::ebbwise_binary()?,
+        data_root: common::target_dir()?.join("bench-data"),
         demo: Path::new(env!("CARGO_MANIFEST_DIR")).join("zoning-demo"),
     })
-}
-
-/// Warns when a source file is newer than the ebbwise binary (the binary may be stale).
-fn warn_if_stale(ebbwise: &Path) {
-    let Ok(built) = fs::metadata(ebbwise).and_then(|m| m.modified()) else {
-        return;
-    };
-    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("src");
-    let mut newest: Option<(SystemTime, PathBuf)> = None;
-    let mut stack = vec![src];
-    while let Some(dir) = stack.pop() {
-        let Ok(rd) = fs::read_dir(&dir) else { continue };
-        for e in rd.flatten() {
-            let p = e.path();
-            if p.is_dir() {
-                stack.push(p);
-            } else if let Ok(t) = e.metadata().and_then(|m| m.modified()) {
-                if newest.as_ref().map_or(true, |(n, _)| t > *n) {
-                    newest = Some((t, p));
-                }
-            }
-        }
-    }
-    if let Some((t, p)) = newest {
-        if t > built {
-            eprintln!(
-                "reduce_throughput: warning: {} is newer than {}; run `cargo build --release \
-                 --bin ebbwise` to measure the current code",
-                p.display(),
-                ebbwise.display()
-            );
-        }
-    }
 }
 
 // ------------------------------------------------------------------------------------------------
@@ -510,60 +456,15 @@ struct Measured {
 impl Measured {
     /// Whether other processes used a noticeable share of the machine during the run.
     fn disturbed(&self) -> bool {
-        self.other_cpu_s > DISTURBED_OTHER_CPU_PER_WALL * self.wall_s
+        common::disturbed(self.other_cpu_s, self.wall_s, 0.0)
     }
 }
 
-/// Busy CPU time of the whole machine so far, seconds (from /proc/stat).
-fn machine_busy_s() -> f64 {
-    let Ok(stat) = fs::read_to_string("/proc/stat") else {
-        return f64::NAN;
-    };
-    let Some(cpu) = stat.lines().next() else {
-        return f64::NAN;
-    };
-    let v: Vec<u64> = cpu
-        .split_whitespace()
-        .skip(1)
-        .filter_map(|x| x.parse().ok())
-        .collect();
-    if v.len() < 5 {
-        return f64::NAN;
+/// Waits until the machine has been idle, at most `max_s` seconds (0: not at all).
+fn wait_for_idle(max_s: u64) {
+    if !common::wait_for_idle(max_s, "waiting for other processes to go idle…") {
+        eprintln!("reduce_throughput: the machine is still busy after {max_s} s; running anyway");
     }
-    // user nice system idle iowait irq softirq steal (guest times are inside user/nice).
-    let busy: u64 = v.iter().take(8).sum::<u64>() - v[3] - v[4];
-    // SAFETY: sysconf has no preconditions.
-    let ticks_per_s = unsafe { libc::sysconf(libc::_SC_CLK_TCK) } as f64;
-    busy as f64 / ticks_per_s
-}
-
-/// Waits until the machine has been idle for `IDLE_STREAK_S` seconds, at most `max_s` seconds.
-/// Returns whether it became idle.
-fn wait_for_idle(max_s: u64) -> bool {
-    if max_s == 0 {
-        return true;
-    }
-    let start = Instant::now();
-    let mut streak = 0;
-    let mut told = false;
-    while start.elapsed().as_secs() < max_s {
-        let before_s = machine_busy_s();
-        std::thread::sleep(std::time::Duration::from_secs(1));
-        if machine_busy_s() - before_s < IDLE_BUSY_CPU_PER_S {
-            streak += 1;
-            if streak >= IDLE_STREAK_S {
-                return true;
-            }
-        } else {
-            streak = 0;
-            if !told {
-                eprintln!("reduce_throughput: waiting for other processes to go idle…");
-                told = true;
-            }
-        }
-    }
-    eprintln!("reduce_throughput: the machine is still busy after {max_s} s; running anyway");
-    false
 }
 
 /// Runs `cmd` with stdout and stderr to `log`, waits for it with `wait4` on its pid, and returns
@@ -576,50 +477,21 @@ fn run_measured(cmd: &mut Command, log: &Path) -> Result<Measured, String> {
     cmd.stdin(Stdio::null())
         .stdout(Stdio::from(log_file))
         .stderr(Stdio::from(log_err));
-    let busy_before_s = machine_busy_s();
-    let start = Instant::now();
-    let child = cmd
-        .spawn()
-        .map_err(|e| format!("cannot start {:?}: {e}", cmd.get_program()))?;
-    let pid = child.id() as libc::pid_t;
-    let mut status: libc::c_int = 0;
-    // SAFETY: rusage is plain old data; all-zero is a valid value.
-    let mut usage: libc::rusage = unsafe { std::mem::zeroed() };
-    loop {
-        // SAFETY: pid is our own child, not yet reaped (std's Child is never waited on here);
-        // status and usage point to live locals.
-        let r = unsafe { libc::wait4(pid, &mut status, 0, &mut usage) };
-        if r == pid {
-            break;
-        }
-        let e = std::io::Error::last_os_error();
-        if e.kind() != std::io::ErrorKind::Interrupted {
-            return Err(format!("wait4 on pid {pid}: {e}"));
-        }
-    }
-    let wall_s = start.elapsed().as_secs_f64();
-    let busy_after_s = machine_busy_s();
-    drop(child);
-    let tv = |t: libc::timeval| t.tv_sec as f64 + t.tv_usec as f64 * 1e-6;
-    let cpu_s = tv(usage.ru_utime) + tv(usage.ru_stime);
-    let exit_code = if libc::WIFEXITED(status) {
-        Some(libc::WEXITSTATUS(status))
-    } else {
-        None
-    };
-    if exit_code.is_none() && libc::WIFSIGNALED(status) {
+    let busy_before_s = common::machine_busy_s();
+    let r = common::run_child(cmd)?;
+    let busy_after_s = common::machine_busy_s();
+    if let (None, Some(signal)) = (r.exit_code, r.signal) {
         eprintln!(
-            "reduce_throughput: {:?} was killed by signal {}",
+            "reduce_throughput: {:?} was killed by signal {signal}",
             cmd.get_program(),
-            libc::WTERMSIG(status)
         );
     }
     Ok(Measured {
-        wall_s,
-        cpu_s,
-        peak_rss_kib: usage.ru_maxrss as i64,
-        exit_code,
-        other_cpu_s: (busy_after_s - busy_before_s - cpu_s).max(0.0),
+        wall_s: r.wall_s,
+        cpu_s: r.cpu_s,
+        peak_rss_kib: r.peak_rss_kib,
+        exit_code: r.exit_code,
+        other_cpu_s: (busy_after_s - busy_before_s - r.cpu_s).max(0.0),
     })
 }
 
@@ -668,43 +540,6 @@ fn remove_if_present(p: &Path) -> Result<(), String> {
     }
 }
 
-// ------------------------------------------------------------------------------------------------
-// The machine
-
-struct Machine {
-    cpu_model: String,
-    logical_cpus: usize,
-    memory_gib: f64,
-    kernel: String,
-}
-
-fn machine() -> Machine {
-    let cpuinfo = fs::read_to_string("/proc/cpuinfo").unwrap_or_default();
-    let cpu_model = cpuinfo
-        .lines()
-        .find(|l| l.starts_with("model name"))
-        .and_then(|l| l.split_once(':'))
-        .map(|(_, v)| v.trim().to_string())
-        .unwrap_or_else(|| "unknown".into());
-    let meminfo = fs::read_to_string("/proc/meminfo").unwrap_or_default();
-    let mem_kib: f64 = meminfo
-        .lines()
-        .find(|l| l.starts_with("MemTotal:"))
-        .and_then(|l| l.split_whitespace().nth(1))
-        .and_then(|v| v.parse().ok())
-        .unwrap_or(f64::NAN);
-    Machine {
-        cpu_model,
-        logical_cpus: std::thread::available_parallelism()
-            .map(|n| n.get())
-            .unwrap_or(0),
-        memory_gib: mem_kib / (1024.0 * 1024.0),
-        kernel: fs::read_to_string("/proc/sys/kernel/osrelease")
-            .map(|s| s.trim().to_string())
-            .unwrap_or_default(),
-    }
-}
-
 /// `ebbwise --version` and when the binary was built (its modification time).
 fn ebbwise_build(ebbwise: &Path, built_at: Option<SystemTime>) -> String {
     let version = Command::new(ebbwise)
@@ -715,12 +550,6 @@ fn ebbwise_build(ebbwise: &Path, built_at: Option<SystemTime>) -> String {
         .unwrap_or_default();
     let built = built_at.map(utc_label).unwrap_or_default();
     format!("{version}, built {built}")
-}
-
-fn load_average() -> String {
-    fs::read_to_string("/proc/loadavg")
-        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
-        .unwrap_or_default()
 }
 
 /// `YYYY-MM-DD HH:MM UTC` for a time.
@@ -749,16 +578,6 @@ fn utc_label(t: SystemTime) -> String {
 
 // ------------------------------------------------------------------------------------------------
 // The benchmark
-
-fn median(mut v: Vec<f64>) -> f64 {
-    v.sort_by(f64::total_cmp);
-    let n = v.len();
-    if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        (v[n / 2 - 1] + v[n / 2]) / 2.0
-    }
-}
 
 fn mib(kib: i64) -> f64 {
     kib as f64 / 1024.0
@@ -893,14 +712,9 @@ fn run_ebbwise_once(
 
 fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), String> {
     let paths = locate()?;
-    warn_if_stale(&paths.ebbwise);
-    // The children are this executable again. /proc/self/exe still names it when cargo has
-    // replaced the file meanwhile (a rebuild during the benchmark).
-    let this_exe = if Path::new("/proc/self/exe").exists() {
-        PathBuf::from("/proc/self/exe")
-    } else {
-        std::env::current_exe().map_err(|e| e.to_string())?
-    };
+    common::warn_if_stale(&paths.ebbwise);
+    // The children are this executable again.
+    let this_exe = common::this_exe()?;
     let dir = paths.data_root.join(format!("n{n}"));
     fs::create_dir_all(&dir).map_err(|e| format!("{}: {e}", dir.display()))?;
     let dir = dir
@@ -972,8 +786,8 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
         ));
     }
     let built = ebbwise_build(&ebbwise_copy, built_at);
-    let m = machine();
-    let load_before = load_average();
+    let m = common::machine();
+    let load_before = common::load_average();
     // Peak RSS that a trivial child reports when started from this process: the floor that any
     // child's ru_maxrss includes.
     let floor = run_measured(&mut Command::new("true"), &dir.join("true.log"))?;
@@ -1069,18 +883,18 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
             }
         }
     }
-    let load_after = load_average();
+    let load_after = common::load_average();
 
     let summary = |v: &[Measured]| {
         (
-            median(v.iter().map(|m| m.wall_s).collect()),
-            median(v.iter().map(|m| m.cpu_s).collect()),
+            common::median(v.iter().map(|m| m.wall_s).collect()),
+            common::median(v.iter().map(|m| m.cpu_s).collect()),
             v.iter().map(|m| m.peak_rss_kib).max().unwrap_or(0),
         )
     };
     let (b_wall_s, b_cpu_s, b_rss_kib) = summary(&base_runs);
     let (n_wall_s, n_cpu_s, n_rss_kib) = summary(&ebbwise_runs);
-    let fsync_s = median(base_fsync_s);
+    let fsync_s = common::median(base_fsync_s);
     let ratio = b_wall_s / n_wall_s;
     let rate = |wall_s: f64| n as f64 / wall_s;
 
