@@ -133,3 +133,62 @@ fn a_killed_run_leaves_no_output_only_a_temporary_that_the_next_run_removes() {
         .collect();
     assert!(leftovers.is_empty(), "{leftovers:?}");
 }
+
+/// What a reduction tells its progress receiver: `start` once with the soundings file's size,
+/// `advance` calls that add up to exactly that size (the header line included), `finish` once.
+/// The file spans several read chunks (2.3 MB of rows).
+#[test]
+fn reported_progress_adds_up_to_the_input_size() {
+    use ebbwise::run::reduce::{reduce_project, Progress, ReduceOptions, RunKind};
+    use std::sync::atomic::{AtomicU64, Ordering::Relaxed};
+
+    #[derive(Default)]
+    struct Count {
+        starts: AtomicU64,
+        total: AtomicU64,
+        done: AtomicU64,
+        finishes: AtomicU64,
+    }
+    impl Progress for Count {
+        fn start(&self, total_bytes: u64) {
+            self.starts.fetch_add(1, Relaxed);
+            self.total.store(total_bytes, Relaxed);
+        }
+        fn advance(&self, bytes: u64) {
+            self.done.fetch_add(bytes, Relaxed);
+        }
+        fn finish(&self) {
+            self.finishes.fetch_add(1, Relaxed);
+        }
+    }
+
+    let mut text = String::from("time,lon,lat,depth,line\n");
+    for i in 0..50_000 {
+        text.push_str(&format!(
+            "2026-06-14T01:{:02}:{:02}Z,10.005,50.005,10.0,L1\n",
+            (i / 60) % 60,
+            i % 60
+        ));
+    }
+    let p = MiniProject::new(&text);
+    let size = std::fs::metadata(p.path("s.csv")).unwrap().len();
+    assert!(size > 2 << 20, "{size}");
+    let project = ebbwise::io::project::Project::load(&p.path("project.toml")).unwrap();
+    let loaded = ebbwise::run::load::load(project, None).expect("the mini project loads");
+    let count = Count::default();
+    let summary = reduce_project(
+        &loaded,
+        &ReduceOptions {
+            out_dir: p.path("out"),
+            progress: Some(&count),
+            kind: RunKind::Reduce,
+            only_files: None,
+        },
+    )
+    .unwrap();
+    assert_eq!(summary.rows(), 50_000);
+    assert_eq!(count.starts.load(Relaxed), 1);
+    assert_eq!(count.total.load(Relaxed), size);
+    assert_eq!(count.done.load(Relaxed), size);
+    assert_eq!(count.finishes.load(Relaxed), 1);
+}
