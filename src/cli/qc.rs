@@ -19,7 +19,8 @@ pub struct Args {
     /// The project file (TOML): every gauge, and the comparisons its zoning allows.
     #[arg(required_unless_present = "record", conflicts_with = "record")]
     project: Option<PathBuf>,
-    /// Only this gauge (and the comparisons it takes part in).
+    /// Only this gauge and the comparisons it takes part in; the summary is then
+    /// `qc-summary.<ID>.json` (and `gauge-differences.<ID>.csv`), never `qc-summary.json`.
     #[arg(long, value_name = "ID")]
     gauge: Option<String>,
     /// One record file instead of a project (CSV with a header).
