@@ -1,5 +1,6 @@
 //! The command line as a whole: `help`, the output convention (the human summary on stderr,
-//! data on stdout only for `-`), and `demo`'s folder and exit status.
+//! data on stdout only for `-`), `demo`'s folder and exit status, and where `--order` errors
+//! point.
 
 use std::path::Path;
 
@@ -326,4 +327,39 @@ fn demo_exits_as_reduce_does_and_writes_beside_its_project() {
         "{}",
         stderr(&o)
     );
+}
+
+// ---------------------------------------------------------------------------------------------
+// --order
+
+#[test]
+fn an_unknown_order_is_blamed_on_where_it_was_given() {
+    let p = MiniProject::new(GOOD);
+    p.write(
+        "project.toml",
+        &format!("{MINI_PROJECT}\n[uncertainty]\norder = \"special\"\n"),
+    );
+    let o = ebbwise(&["reduce", &p.project(), "--order", "3x", "--no-progress"]);
+    assert_eq!(o.status.code(), Some(2));
+    let e = stderr(&o);
+    assert!(
+        e.contains("error: --order: unknown survey order '3x' (known: "),
+        "{e}"
+    );
+    assert!(!e.contains("uncertainty.order"), "{e}");
+    // The same name in the project file is blamed on the file's key.
+    p.write(
+        "project.toml",
+        &format!("{MINI_PROJECT}\n[uncertainty]\norder = \"3x\"\n"),
+    );
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(2));
+    let e = stderr(&o);
+    assert!(
+        e.contains("project.toml: field 'uncertainty.order': unknown survey order '3x'"),
+        "{e}"
+    );
+    // `--order` replaces the file's order, so the file's unknown name is not used.
+    let o = ebbwise(&["reduce", &p.project(), "--order", "1a", "--no-progress"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
 }
