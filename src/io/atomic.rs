@@ -4,6 +4,9 @@
 //! target on [`AtomicFile::commit`]. Dropped without commit (an error, a panic), it removes the
 //! temporary. A run killed outright leaves only the clearly named temporary, which
 //! [`remove_stale_partials`] deletes at the start of the next run.
+//!
+//! A command that writes one data file can also hand it to a stream the caller owns (the
+//! `ebbwise` command's standard output): [`Sink`] names either, [`SinkWriter`] writes to it.
 
 use std::fs::File;
 use std::io::{BufWriter, Write};
@@ -122,6 +125,76 @@ pub fn write_atomic(target: &Path, bytes: &[u8]) -> Result<PathBuf, IoError> {
     f.commit()
 }
 
+/// Where one output goes.
+pub enum Sink<'a> {
+    /// A file, written through an [`AtomicFile`].
+    File(&'a Path),
+    /// A stream the caller owns (standard output, say), written as the data comes.
+    Stream(&'a mut dyn Write),
+}
+
+impl Sink<'_> {
+    /// The file, when the output goes to one.
+    pub fn path(&self) -> Option<&Path> {
+        match self {
+            Sink::File(p) => Some(p),
+            Sink::Stream(_) => None,
+        }
+    }
+}
+
+impl std::fmt::Debug for Sink<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Sink::File(p) => f.debug_tuple("File").field(p).finish(),
+            Sink::Stream(_) => f.write_str("Stream"),
+        }
+    }
+}
+
+/// Name used in the errors of a [`Sink::Stream`].
+const STREAM_NAME: &str = "(output stream)";
+
+/// An open [`Sink`].
+pub enum SinkWriter<'a> {
+    /// To a file under its temporary name.
+    File(AtomicFile),
+    /// To the caller's stream.
+    Stream(&'a mut dyn Write),
+}
+
+impl<'a> SinkWriter<'a> {
+    /// Opens `sink`; a file refuses to write over any of `inputs`.
+    pub fn open(sink: Sink<'a>, inputs: &[&Path]) -> Result<Self, IoError> {
+        Ok(match sink {
+            Sink::File(p) => SinkWriter::File(AtomicFile::create(p, inputs)?),
+            Sink::Stream(w) => SinkWriter::Stream(w),
+        })
+    }
+
+    /// Writes bytes.
+    pub fn write_all(&mut self, bytes: &[u8]) -> Result<(), IoError> {
+        match self {
+            SinkWriter::File(f) => f.write_all(bytes),
+            SinkWriter::Stream(w) => w
+                .write_all(bytes)
+                .map_err(|e| IoError::file(Path::new(STREAM_NAME), e)),
+        }
+    }
+
+    /// Completes the output: a file is committed (its path returned), a stream flushed.
+    pub fn finish(self) -> Result<Option<PathBuf>, IoError> {
+        match self {
+            SinkWriter::File(f) => f.commit().map(Some),
+            SinkWriter::Stream(w) => {
+                w.flush()
+                    .map_err(|e| IoError::file(Path::new(STREAM_NAME), e))?;
+                Ok(None)
+            }
+        }
+    }
+}
+
 /// Deletes temporaries left in `dir` by an interrupted run. Returns how many.
 pub fn remove_stale_partials(dir: &Path) -> usize {
     let Ok(rd) = std::fs::read_dir(dir) else {
@@ -167,5 +240,22 @@ mod tests {
         std::fs::write(&input, b"x").unwrap();
         assert!(AtomicFile::create(&input, &[&input]).is_err());
         assert_eq!(std::fs::read(&input).unwrap(), b"x");
+    }
+
+    #[test]
+    fn a_stream_sink_gets_the_bytes_and_names_no_file() {
+        let mut buf: Vec<u8> = Vec::new();
+        let mut w = SinkWriter::open(Sink::Stream(&mut buf), &[]).unwrap();
+        w.write_all(b"a,b\n").unwrap();
+        w.write_all(b"1,2\n").unwrap();
+        assert_eq!(w.finish().unwrap(), None);
+        assert_eq!(buf, b"a,b\n1,2\n");
+        let d = tempfile::tempdir().unwrap();
+        let target = d.path().join("f.csv");
+        let mut w = SinkWriter::open(Sink::File(&target), &[]).unwrap();
+        w.write_all(b"x").unwrap();
+        assert!(!target.exists(), "not before finish");
+        assert_eq!(w.finish().unwrap(), Some(target.clone()));
+        assert_eq!(std::fs::read(&target).unwrap(), b"x");
     }
 }

@@ -447,7 +447,7 @@ pub fn write_correctors(
             loaded,
             &ReduceOptions {
                 out_dir: opts.out_dir.clone(),
-                progress: false,
+                progress: None,
                 kind: RunKind::SoundingCorrectors,
                 only_files: None,
             },
@@ -598,7 +598,7 @@ pub fn apply_corrections(
                 loaded,
                 &ReduceOptions {
                     out_dir,
-                    progress: false,
+                    progress: None,
                     kind: RunKind::Apply(ApplyModel::Zones(&series)),
                     only_files: only,
                 },
@@ -633,7 +633,7 @@ pub fn apply_corrections(
                 loaded,
                 &ReduceOptions {
                     out_dir,
-                    progress: false,
+                    progress: None,
                     kind: RunKind::Apply(ApplyModel::Lines(&model)),
                     only_files: only,
                 },
@@ -647,7 +647,7 @@ pub fn apply_corrections(
                 loaded,
                 &ReduceOptions {
                     out_dir,
-                    progress: false,
+                    progress: None,
                     kind: RunKind::Apply(ApplyModel::Soundings(&model)),
                     only_files: only,
                 },

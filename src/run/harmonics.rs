@@ -8,7 +8,7 @@ use super::load::prepare_series;
 use crate::compute::harmonic::{
     analyse, high_low_waters, predict_grid, Analysis, AnalysisSettings, HighLowWater,
 };
-use crate::io::atomic::{write_atomic, AtomicFile};
+use crate::io::atomic::{Sink, SinkWriter};
 use crate::io::constants::{read_constants, ConstantsFile};
 use crate::io::error::IoError;
 use crate::io::gauge_csv::read_gauge_record;
@@ -19,8 +19,8 @@ use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
 pub struct AnalyseOutcome {
     /// The analysis.
     pub analysis: Analysis,
-    /// The file written.
-    pub written: PathBuf,
+    /// The file written (`None` when the constants went to a stream).
+    pub written: Option<PathBuf>,
     /// Samples read, and those set aside by QC (not analysed).
     pub samples_read: usize,
     /// Samples set aside by QC.
@@ -30,7 +30,7 @@ pub struct AnalyseOutcome {
 }
 
 /// Analyses one gauge's record (read with `spec`), QC first unless `qc` is None, and writes the
-/// constants to `out`.
+/// constants to `out` (a file, or a stream such as standard output).
 pub fn analyse_gauge(
     spec: &GaugeSpec,
     naive_offset: Option<chrono::FixedOffset>,
@@ -38,7 +38,7 @@ pub fn analyse_gauge(
     settings: &AnalysisSettings,
     gauge_id: Option<String>,
     levels: &str,
-    out: &Path,
+    out: Sink<'_>,
 ) -> Result<AnalyseOutcome, anyhow::Error> {
     let r = read_gauge_record(spec, naive_offset)?;
     let (times, heights, set_aside) = match qc {
@@ -63,13 +63,17 @@ pub fn analyse_gauge(
         gauge_id,
         levels,
     );
-    if out == spec.record {
-        anyhow::bail!("the output would overwrite the record {}", out.display());
+    if let Some(path) = out.path() {
+        if path == spec.record {
+            anyhow::bail!("the output would overwrite the record {}", path.display());
+        }
+        if let Some(d) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
+            std::fs::create_dir_all(d).map_err(|e| IoError::file(d, e))?;
+        }
     }
-    if let Some(d) = out.parent().filter(|d| !d.as_os_str().is_empty()) {
-        std::fs::create_dir_all(d).map_err(|e| IoError::file(d, e))?;
-    }
-    let written = write_atomic(out, file.to_toml().as_bytes())?;
+    let mut w = SinkWriter::open(out, &[spec.record.as_path()])?;
+    w.write_all(file.to_toml().as_bytes())?;
+    let written = w.finish()?;
     Ok(AnalyseOutcome {
         analysis,
         written,
@@ -86,7 +90,7 @@ pub struct PredictOutcome {
     pub n: usize,
     /// High and low waters found.
     pub high_low_waters: Vec<HighLowWater>,
-    /// Files written.
+    /// Files written (not the outputs that went to a stream).
     pub written: Vec<PathBuf>,
     /// What the levels are above (from the constants file).
     pub levels: Option<String>,
@@ -95,7 +99,7 @@ pub struct PredictOutcome {
 }
 
 /// Predicts from a constants file on `t0 + i·step` up to `t1` and writes the series and the
-/// high/low waters.
+/// high/low waters to files.
 pub fn predict_file(
     constants: &Path,
     t0_s: f64,
@@ -103,6 +107,25 @@ pub fn predict_file(
     step_s: f64,
     out: &Path,
     high_low_waters_out: &Path,
+) -> Result<PredictOutcome, anyhow::Error> {
+    predict_to(
+        constants,
+        t0_s,
+        t1_s,
+        step_s,
+        Sink::File(out),
+        Sink::File(high_low_waters_out),
+    )
+}
+
+/// [`predict_file`] with each output a file or a stream (standard output, say).
+pub fn predict_to(
+    constants: &Path,
+    t0_s: f64,
+    t1_s: f64,
+    step_s: f64,
+    out: Sink<'_>,
+    high_low_waters_out: Sink<'_>,
 ) -> Result<PredictOutcome, anyhow::Error> {
     if step_s.is_nan() || step_s <= 0.0 || t1_s.is_nan() || t0_s.is_nan() || t1_s < t0_s {
         anyhow::bail!("the span must not be empty and the step must be positive");
@@ -112,7 +135,10 @@ pub fn predict_file(
         anyhow::bail!("{n} values: more than 50 million; use a longer step or a shorter span");
     }
     let (file, k) = read_constants(constants)?;
-    for p in [out, high_low_waters_out] {
+    for p in [out.path(), high_low_waters_out.path()]
+        .into_iter()
+        .flatten()
+    {
         if p == constants {
             anyhow::bail!(
                 "the output would overwrite the constants file {}",
@@ -125,7 +151,7 @@ pub fn predict_file(
     let ex = high_low_waters(&k, t0_s, step_s, &h);
     let compute_s = clock.elapsed().as_secs_f64();
     let whole_seconds = step_s.fract() == 0.0 && t0_s.fract() == 0.0;
-    let mut f = AtomicFile::create(out, &[constants])?;
+    let mut f = SinkWriter::open(out, &[constants])?;
     let mut buf: Vec<u8> = Vec::with_capacity(1 << 21);
     buf.extend_from_slice(b"time_utc,predicted_level_m\n");
     let mut label = String::with_capacity(32);
@@ -147,7 +173,7 @@ pub fn predict_file(
         }
     }
     f.write_all(&buf)?;
-    let mut written = vec![f.commit()?];
+    let mut written: Vec<PathBuf> = f.finish()?.into_iter().collect();
     let mut e = String::from("time_utc,predicted_level_m,kind\n");
     for x in &ex {
         let _ = writeln!(
@@ -158,7 +184,9 @@ pub fn predict_file(
             if x.high { "high" } else { "low" }
         );
     }
-    written.push(write_atomic(high_low_waters_out, e.as_bytes())?);
+    let mut f = SinkWriter::open(high_low_waters_out, &[constants])?;
+    f.write_all(e.as_bytes())?;
+    written.extend(f.finish()?);
     Ok(PredictOutcome {
         n,
         high_low_waters: ex,

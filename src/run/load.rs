@@ -64,6 +64,8 @@ pub struct UncertaintyConfig {
 }
 
 /// Reads gauges and zoning. Problems that make a reduction impossible are errors.
+/// `order_override` is the command line's `--order`: it replaces `[uncertainty] order`, and an
+/// unknown name is reported at `--order`, not at the project file.
 pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Vec<Finding>> {
     let mut findings = Vec::new();
     let mut records = Vec::new();
@@ -249,8 +251,15 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 .iter()
                 .position(|o| o.name.eq_ignore_ascii_case(want))
             else {
+                // Blame where the name came from: the command line or the project file.
+                let at = match order_override {
+                    Some(_) => "--order".to_string(),
+                    None => Position::file(&project.path)
+                        .field("uncertainty.order")
+                        .to_string(),
+                };
                 findings.push(Finding::error(
-                    Position::file(&project.path).field("uncertainty.order"),
+                    at,
                     format!(
                         "unknown survey order '{want}' (known: {})",
                         orders

@@ -5,6 +5,9 @@
 //! correctors (see [`crate::compute::compare`]) — every pair of gauges feeding one zone, and
 //! every gauge that lies inside a zone fed by another gauge — with the difference series in
 //! `gauge-differences.csv`. Everything is summarised in `qc-summary.json`.
+//!
+//! A run limited to one gauge X writes X's files, `gauge-differences.X.csv` and
+//! `qc-summary.X.json` ([`summary_file_name`]), and leaves the whole project's files alone.
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -134,9 +137,30 @@ impl QcSummary {
     }
 }
 
-/// Adds `qc-summary.json` to the summary's outputs and writes it there.
-fn finish_summary(mut summary: QcSummary, out_dir: &Path) -> Result<QcSummary, IoError> {
-    let path = out_dir.join("qc-summary.json");
+/// The summary's file name: `qc-summary.json` for every gauge, `qc-summary.<id>.json` when the
+/// run was limited to gauge `id` (so that it is never taken for the whole project's).
+pub fn summary_file_name(only: Option<&str>) -> String {
+    match only {
+        None => "qc-summary.json".into(),
+        Some(id) => format!("qc-summary.{}.json", file_stem_safe(id)),
+    }
+}
+
+/// The difference series' file name, named like [`summary_file_name`].
+fn differences_file_name(only: Option<&str>) -> String {
+    match only {
+        None => "gauge-differences.csv".into(),
+        Some(id) => format!("gauge-differences.{}.csv", file_stem_safe(id)),
+    }
+}
+
+/// Adds the summary file ([`summary_file_name`]) to the summary's outputs and writes it.
+fn finish_summary(
+    mut summary: QcSummary,
+    out_dir: &Path,
+    only: Option<&str>,
+) -> Result<QcSummary, IoError> {
+    let path = out_dir.join(summary_file_name(only));
     summary.outputs.push(path.clone());
     write_atomic(
         &path,
@@ -307,7 +331,7 @@ pub fn qc_single_record(
         comparisons_note: Some("a single record has no neighbour to compare with".into()),
         outputs: Vec::new(),
     };
-    finish_summary(summary, out_dir)
+    finish_summary(summary, out_dir, None)
 }
 
 /// QC of a project's gauge records when the project does not load as a whole (e.g. a broken
@@ -348,7 +372,7 @@ pub fn qc_records_only(
         comparisons_note: Some(format!("no comparison: {why}")),
         outputs: Vec::new(),
     };
-    finish_summary(summary, out_dir)
+    finish_summary(summary, out_dir, only)
 }
 
 /// The comparisons the zoning allows: (pair name, a, b, evaluation times).
@@ -535,10 +559,11 @@ pub fn qc_project(
         });
     }
     let comparisons_note = if plans.is_empty() {
-        Some(
-            "no zone is fed by two gauges and no gauge lies in a zone fed by another gauge: nothing to compare"
+        Some(match only {
+            Some(id) => format!("no comparison involves gauge '{id}'"),
+            None => "no zone is fed by two gauges and no gauge lies in a zone fed by another gauge: nothing to compare"
                 .to_string(),
-        )
+        })
     } else if comparisons.len() < plans.len() {
         Some(format!(
             "{} of {} comparisons had fewer than 3 common times and were skipped",
@@ -552,7 +577,7 @@ pub fn qc_project(
     std::fs::create_dir_all(out_dir).map_err(|e| IoError::file(out_dir, e))?;
     if !comparisons.is_empty() {
         outputs.push(write_atomic(
-            &out_dir.join("gauge-differences.csv"),
+            &out_dir.join(differences_file_name(only)),
             diff_text.as_bytes(),
         )?);
     }
@@ -565,5 +590,5 @@ pub fn qc_project(
         comparisons_note,
         outputs,
     };
-    finish_summary(summary, out_dir)
+    finish_summary(summary, out_dir, only)
 }

@@ -7,7 +7,6 @@
 //! a status.
 
 use std::fs::File;
-use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
 use rayon::prelude::*;
@@ -62,16 +61,38 @@ pub const UNCERTAINTY_DECIMALS: u32 = 3;
 const CHUNKS_PER_THREAD: usize = 3;
 
 /// How to run.
-#[derive(Debug, Clone)]
+#[derive(Clone)]
 pub struct ReduceOptions<'a> {
     /// Output folder (created when missing).
     pub out_dir: PathBuf,
-    /// Show a progress bar when stderr is a terminal.
-    pub progress: bool,
+    /// Told how far the run has got, when given; the run itself draws nothing.
+    pub progress: Option<&'a dyn Progress>,
     /// What to compute and write.
     pub kind: RunKind<'a>,
     /// Only these soundings files (of the project's groups); all when `None`.
     pub only_files: Option<Vec<PathBuf>>,
+}
+
+impl std::fmt::Debug for ReduceOptions<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("ReduceOptions")
+            .field("out_dir", &self.out_dir)
+            .field("progress", &self.progress.is_some())
+            .field("kind", &self.kind)
+            .field("only_files", &self.only_files)
+            .finish()
+    }
+}
+
+/// Receives a run's progress, in bytes of soundings input read. Calls come from the worker
+/// threads, hence `Sync`; a caller that shows a bar implements it (the `ebbwise` command does).
+pub trait Progress: Sync {
+    /// Once, before any soundings file is read: the size of all the run's soundings files.
+    fn start(&self, total_bytes: u64);
+    /// After each chunk of input has been processed and handed to its writer.
+    fn advance(&self, bytes: u64);
+    /// Once, when every file has been processed or the run stopped on an error.
+    fn finish(&self);
 }
 
 /// What a streaming run computes and writes.
@@ -321,18 +342,9 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         .iter()
         .map(|(_, _, f, _)| std::fs::metadata(f).map(|m| m.len()).unwrap_or(0))
         .sum();
-    let bar = if opts.progress && std::io::stderr().is_terminal() && total_bytes > 8 << 20 {
-        let b = indicatif::ProgressBar::new(total_bytes);
-        b.set_style(
-            indicatif::ProgressStyle::with_template(
-                "{bar:40} {bytes}/{total_bytes} {bytes_per_sec} eta {eta}",
-            )
-            .expect("valid template"),
-        );
-        Some(b)
-    } else {
-        None
-    };
+    if let Some(p) = opts.progress {
+        p.start(total_bytes);
+    }
     let inputs: Vec<&Path> = loaded
         .project
         .spec
@@ -350,7 +362,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         )
         .chain(std::iter::once(loaded.project.spec.zoning.as_path()))
         .collect();
-    let mut files: Vec<FileSummary> = jobs
+    let files: Result<Vec<FileSummary>, IoError> = jobs
         .par_iter()
         .map(|(gi, group, input, out)| {
             let zoning = DiscreteZoning {
@@ -381,13 +393,14 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 out,
                 model,
                 &inputs,
-                bar.as_ref(),
+                opts.progress,
             )
         })
-        .collect::<Result<_, _>>()?;
-    if let Some(b) = bar {
-        b.finish_and_clear();
+        .collect();
+    if let Some(p) = opts.progress {
+        p.finish();
     }
+    let mut files = files?;
     let mut totals = [0u64; N_STATUS];
     let mut per_zone = vec![[0u64; N_STATUS]; loaded.zones.len()];
     let mut qa: Option<QaAccumulator> = None;
@@ -458,7 +471,7 @@ fn reduce_file(
     out: &Path,
     model: &dyn TideModel,
     inputs: &[&Path],
-    bar: Option<&indicatif::ProgressBar>,
+    progress: Option<&dyn Progress>,
 ) -> Result<FileSummary, IoError> {
     let file = File::open(input).map_err(|e| IoError::file(input, e))?;
     let mut reader = ChunkReader::new(file, 1);
@@ -530,6 +543,9 @@ fn reduce_file(
             .unwrap_or(first.data.len());
         first.data.drain(..cut);
         first.first_line += 1;
+        if let Some(p) = progress {
+            p.advance(cut as u64);
+        }
     }
     let mut summary = FileSummary {
         input: input.to_path_buf(),
@@ -615,8 +631,8 @@ fn reduce_file(
                     done = true;
                     break;
                 }
-                if let Some(b) = bar {
-                    b.inc(c.data.len() as u64);
+                if let Some(p) = progress {
+                    p.advance(c.data.len() as u64);
                 }
                 let _ = spare_tx.send(c.data);
                 add_counts(&mut counts, &o.counts);

@@ -3,6 +3,7 @@
 mod bad_input;
 mod bad_input_suite;
 mod check;
+mod cli;
 mod correctors;
 mod crs_reference;
 mod demo_recovery;
@@ -27,6 +28,20 @@ pub fn ebbwise(args: &[&str]) -> Output {
         .args(args)
         .output()
         .expect("ebbwise runs")
+}
+
+/// Runs the real `ebbwise` with arguments in folder `dir`.
+pub fn ebbwise_in(dir: &Path, args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_ebbwise"))
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .expect("ebbwise runs")
+}
+
+/// stdout as text.
+pub fn stdout(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stdout).into_owned()
 }
 
 /// stderr as text.

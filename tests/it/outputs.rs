@@ -78,10 +78,12 @@ fn a_killed_run_leaves_no_output_only_a_temporary_that_the_next_run_removes() {
     };
     std::fs::remove_dir_all(p.path("out")).unwrap();
     // Each run is killed a set time after its temporary file appears (polled every 0.2 ms), so
-    // that the kill lands mid-write whatever the machine's speed; the 0 ms case kills at once.
+    // that the kill lands mid-write whatever the machine's speed. Each run removes the temporary
+    // file its predecessor left, so the last kill (at once) is the one whose leftover the rerun
+    // below must find and remove; the earlier, later kills may land after the rename.
     let partial = p.path("out/.s.reduced.csv.ebbwise-partial");
     let mut saw_partial = false;
-    for delay_after_partial_ms in [0u64, 5, 20, 60] {
+    for delay_after_partial_ms in [60u64, 20, 5, 0] {
         let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_ebbwise"))
             .args(["reduce", &p.project(), "--no-progress", "--no-uncertainty"])
             .stderr(std::process::Stdio::null())
@@ -132,4 +134,63 @@ fn a_killed_run_leaves_no_output_only_a_temporary_that_the_next_run_removes() {
         .filter(|n| n.to_string_lossy().ends_with(".ebbwise-partial"))
         .collect();
     assert!(leftovers.is_empty(), "{leftovers:?}");
+}
+
+/// What a reduction tells its progress receiver: `start` once with the soundings file's size,
+/// `advance` calls that add up to exactly that size (the header line included), `finish` once.
+/// The file spans several read chunks (2.3 MB of rows).
+#[test]
+fn reported_progress_adds_up_to_the_input_size() {
+    use ebbwise::run::reduce::{reduce_project, Progress, ReduceOptions, RunKind};
+    use std::sync::atomic::{AtomicU64, Ordering::Relaxed};
+
+    #[derive(Default)]
+    struct Count {
+        starts: AtomicU64,
+        total: AtomicU64,
+        done: AtomicU64,
+        finishes: AtomicU64,
+    }
+    impl Progress for Count {
+        fn start(&self, total_bytes: u64) {
+            self.starts.fetch_add(1, Relaxed);
+            self.total.store(total_bytes, Relaxed);
+        }
+        fn advance(&self, bytes: u64) {
+            self.done.fetch_add(bytes, Relaxed);
+        }
+        fn finish(&self) {
+            self.finishes.fetch_add(1, Relaxed);
+        }
+    }
+
+    let mut text = String::from("time,lon,lat,depth,line\n");
+    for i in 0..50_000 {
+        text.push_str(&format!(
+            "2026-06-14T01:{:02}:{:02}Z,10.005,50.005,10.0,L1\n",
+            (i / 60) % 60,
+            i % 60
+        ));
+    }
+    let p = MiniProject::new(&text);
+    let size = std::fs::metadata(p.path("s.csv")).unwrap().len();
+    assert!(size > 2 << 20, "{size}");
+    let project = ebbwise::io::project::Project::load(&p.path("project.toml")).unwrap();
+    let loaded = ebbwise::run::load::load(project, None).expect("the mini project loads");
+    let count = Count::default();
+    let summary = reduce_project(
+        &loaded,
+        &ReduceOptions {
+            out_dir: p.path("out"),
+            progress: Some(&count),
+            kind: RunKind::Reduce,
+            only_files: None,
+        },
+    )
+    .unwrap();
+    assert_eq!(summary.rows(), 50_000);
+    assert_eq!(count.starts.load(Relaxed), 1);
+    assert_eq!(count.total.load(Relaxed), size);
+    assert_eq!(count.done.load(Relaxed), size);
+    assert_eq!(count.finishes.load(Relaxed), 1);
 }

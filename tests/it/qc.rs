@@ -1016,3 +1016,74 @@ fn qc_record_with_bad_units_or_missing_file_cannot_run() {
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("missing.csv"), "{}", stderr(&o));
 }
+
+// ---------------------------------------------------------------------------------------------
+// 7. One gauge only (`--gauge`)
+
+/// `--gauge X` writes X's files with a summary named for X and never rewrites the whole
+/// project's `qc-summary.json` or `gauge-differences.csv`. The project is the two-gauge one plus
+/// g3, outside every zone and feeding none, so no comparison involves g3.
+#[test]
+fn qc_of_one_gauge_leaves_the_project_summary_alone() {
+    let p = two_gauge_project(tide);
+    let g1 = std::fs::read_to_string(p.path("g1.csv")).unwrap();
+    p.write("g3.csv", &g1);
+    let text = std::fs::read_to_string(p.path("project.toml")).unwrap();
+    p.write(
+        "project.toml",
+        &format!(
+            "{text}\n[[gauge]]\nid = \"g3\"\nlon = 9.9\nlat = 49.9\nrecord = \"g3.csv\"\nunits = \"m\"\nzero_above_datum_m = 1.0\nmean_level_above_datum_m = 2.1\n"
+        ),
+    );
+    let out = p.path("qc");
+    let project = p.project();
+    let out_text = out.to_str().unwrap().to_string();
+    let run = |extra: &[&str]| {
+        let mut args = vec!["qc", project.as_str(), "--out", out_text.as_str()];
+        args.extend_from_slice(extra);
+        ebbwise(&args)
+    };
+    let o = run(&[]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let whole = std::fs::read(out.join("qc-summary.json")).unwrap();
+    let diffs = std::fs::read(out.join("gauge-differences.csv")).unwrap();
+    assert_eq!(summary(&out)["gauges"].as_array().unwrap().len(), 3);
+
+    let o = run(&["--gauge", "g1"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let one: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("qc-summary.g1.json")).unwrap()).unwrap();
+    let ids: Vec<&str> = one["gauges"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|g| g["gauge"].as_str().unwrap())
+        .collect();
+    assert_eq!(ids, ["g1"]);
+    comparison(&one, "g2-g1@Z");
+    assert!(out.join("gauge-differences.g1.csv").is_file());
+    assert!(stderr(&o).contains("qc-summary.g1.json"), "{}", stderr(&o));
+
+    let o = run(&["--gauge", "g3"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let e = stderr(&o);
+    assert!(e.contains("no comparison involves gauge 'g3'"), "{e}");
+    assert!(!e.contains("no zone is fed by two gauges"), "{e}");
+    let three: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("qc-summary.g3.json")).unwrap()).unwrap();
+    assert_eq!(
+        three["comparisons_note"],
+        "no comparison involves gauge 'g3'"
+    );
+    assert!(
+        !out.join("gauge-differences.g3.csv").exists(),
+        "no comparison, no file"
+    );
+
+    // The whole project's files are exactly as the full run wrote them.
+    assert_eq!(std::fs::read(out.join("qc-summary.json")).unwrap(), whole);
+    assert_eq!(
+        std::fs::read(out.join("gauge-differences.csv")).unwrap(),
+        diffs
+    );
+}

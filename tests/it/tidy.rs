@@ -80,14 +80,15 @@ fn cli() -> Cli {
                 continue;
             }
             let name = line.split_whitespace().next().unwrap().to_string();
-            if name == "help" {
-                continue;
-            }
             let mut options = options_in_help(&help_of(&[&name, "--help"]));
             options.extend(CLAP_OWN.iter().map(|s| s.to_string()));
-            // clap shows visible aliases as "[aliases: analyze]".
-            if let Some(i) = line.find("[aliases: ") {
-                let rest = &line[i + 10..];
+            // clap shows visible aliases as "[alias: analyze]" or "[aliases: a, b]".
+            let alias_at = line
+                .find("[alias: ")
+                .map(|i| i + 8)
+                .or_else(|| line.find("[aliases: ").map(|i| i + 10));
+            if let Some(i) = alias_at {
+                let rest = &line[i..];
                 for alias in rest.trim_end_matches(']').split(", ") {
                     commands.insert(alias.trim().to_string(), options.clone());
                 }
@@ -397,6 +398,7 @@ fn help_texts_are_read_as_the_checks_expect() {
         ("predict", "--from"),
         ("predict", "--to"),
         ("check", "--json"),
+        ("analyze", "--nodal"),
     ] {
         assert!(
             cli.commands[command].contains(option),
