@@ -583,8 +583,8 @@ fn cmd_correctors(
         e,
         "ebbwise correctors: {} zones, {} to {}, every {step_min} min",
         loaded.zones.len(),
-        ebbwise::compute::utc_label(outcome.span_s.0),
-        ebbwise::compute::utc_label(outcome.span_s.1)
+        ebbwise::io::timefmt::utc_label(outcome.span_s.0),
+        ebbwise::io::timefmt::utc_label(outcome.span_s.1)
     );
     for (s, n) in &outcome.zone_rows_by_status {
         let _ = writeln!(e, "  {s:<14} {n:>8} zone-times");
@@ -976,8 +976,8 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
         w,
         "ebbwise analyse: {} samples from {} to {} ({:.1} days){}; nodal corrections {}",
         an.n_samples,
-        ebbwise::compute::utc_label(an.span_s.0),
-        ebbwise::compute::utc_label(an.span_s.1),
+        ebbwise::io::timefmt::utc_label(an.span_s.0),
+        ebbwise::io::timefmt::utc_label(an.span_s.1),
         (an.span_s.1 - an.span_s.0) / 86400.0,
         if o.set_aside > 0 {
             format!(
@@ -1142,9 +1142,9 @@ fn cmd_predict(
                     w,
                     "  lowest low water {:.3} m at {}; highest high water {:.3} m at {}",
                     lo.height_m,
-                    ebbwise::compute::utc_label(lo.t_s.round()),
+                    ebbwise::io::timefmt::utc_label(lo.t_s.round()),
                     hi.height_m,
-                    ebbwise::compute::utc_label(hi.t_s.round())
+                    ebbwise::io::timefmt::utc_label(hi.t_s.round())
                 );
             }
             for p in &o.written {

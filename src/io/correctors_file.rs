@@ -74,7 +74,7 @@ pub fn sha256_file(path: &Path) -> Result<String, IoError> {
 pub fn push_zone_rows(out: &mut String, zone: &str, rows: &[Corrector]) {
     use std::fmt::Write;
     for c in rows {
-        let _ = write!(out, "{zone},{},", crate::compute::utc_label(c.t_s));
+        let _ = write!(out, "{zone},{},", crate::io::timefmt::utc_label(c.t_s));
         if let Some(t) = c.tide_m {
             let _ = write!(out, "{t}");
         }

@@ -95,7 +95,7 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
             };
             use std::fmt::Write;
             crate::io::soundings::push_csv_field_string(&mut text, line);
-            let _ = write!(text, ",{},", crate::compute::utc_label(t));
+            let _ = write!(text, ",{},", crate::io::timefmt::utc_label(t));
             if let Some(z) = zone {
                 text.push_str(&loaded.zones[z].id);
             }
@@ -421,8 +421,8 @@ pub fn write_correctors(
     let mut prov = provenance(loaded, "per_zone", &zone_path, &[])?;
     prov.step_min = Some(opts.step_min);
     prov.span_utc = Some((
-        crate::compute::utc_label(from),
-        crate::compute::utc_label(from + (n - 1) as f64 * step_s),
+        crate::io::timefmt::utc_label(from),
+        crate::io::timefmt::utc_label(from + (n - 1) as f64 * step_s),
     ));
     prov.columns = column_meanings(&ZONE_CORRECTOR_COLUMNS);
     written.push(write_sidecar(&zone_path, &prov)?);

@@ -124,7 +124,6 @@ pub fn predict_file(
     let h = predict_grid(&k, t0_s, step_s, n);
     let ex = high_low_waters(&k, t0_s, step_s, &h);
     let compute_s = clock.elapsed().as_secs_f64();
-    let whole_seconds = step_s.fract() == 0.0 && t0_s.fract() == 0.0;
     let mut f = AtomicFile::create(out, &[constants])?;
     let mut buf: Vec<u8> = Vec::with_capacity(1 << 21);
     buf.extend_from_slice(b"time_utc,predicted_level_m\n");
@@ -132,14 +131,10 @@ pub fn predict_file(
     for (i, v) in h.iter().enumerate() {
         let t = t0_s + i as f64 * step_s;
         label.clear();
-        if whole_seconds {
-            crate::compute::push_utc_seconds(&mut label, t as i64);
-        } else {
-            label.push_str(&crate::compute::utc_label(t));
-        }
+        label.push_str(&crate::io::timefmt::utc_label(t));
         buf.extend_from_slice(label.as_bytes());
         buf.push(b',');
-        crate::compute::fixed::push_fixed(&mut buf, *v, 4);
+        crate::io::numfmt::push_fixed(&mut buf, *v, 4);
         buf.push(b'\n');
         if buf.len() > 1 << 20 {
             f.write_all(&buf)?;
@@ -153,7 +148,7 @@ pub fn predict_file(
         let _ = writeln!(
             e,
             "{},{:.4},{}",
-            crate::compute::utc_label((x.t_s).round()),
+            crate::io::timefmt::utc_label((x.t_s).round()),
             x.height_m,
             if x.high { "high" } else { "low" }
         );

@@ -17,13 +17,13 @@ use super::load::{prepare_series, GaugeMethod, Loaded};
 use crate::compute::compare::{compare, CompareSettings, Comparison, Prediction};
 use crate::compute::locate::ZoneLocator;
 use crate::compute::qc::{QcFlag, QcResult};
-use crate::compute::utc_label;
 use crate::compute::zoning::{GaugeFeed, Zone};
 use crate::io::atomic::{write_atomic, AtomicFile};
 use crate::io::error::IoError;
 use crate::io::gauge_csv::GaugeRecord;
 use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
 use crate::io::qc_svg::{render_qc_svg, QcPlot};
+use crate::io::timefmt::utc_label;
 
 /// Layout name of `qc-summary.json`.
 pub const QC_SCHEMA: &str = "ebbwise-qc-summary/1";
@@ -193,14 +193,10 @@ pub fn write_gauge_qc(
         }
         let _ = write!(text, "{},", r.lines[i]);
         let t = r.times_s[i];
-        if t.fract() == 0.0 {
-            crate::compute::push_utc_seconds(&mut text, t as i64);
-        } else {
-            text.push_str(&utc_label(t));
-        }
+        text.push_str(&utc_label(t));
         text.push(',');
         level.clear();
-        crate::compute::fixed::push_fixed(&mut level, r.heights_m[i], 4);
+        crate::io::numfmt::push_fixed(&mut level, r.heights_m[i], 4);
         text.push_str(std::str::from_utf8(&level).unwrap_or(""));
         text.push(',');
         text.push_str(&q.flags[i].label());
@@ -209,7 +205,7 @@ pub fn write_gauge_qc(
         if !notes.is_empty() {
             let d: Vec<String> = notes
                 .iter()
-                .map(|n| format!("{}: {}", n.flag.as_str(), n.detail))
+                .map(|n| format!("{}: {}", n.flag.as_str(), n.reason))
                 .collect();
             crate::io::soundings::push_csv_field_string(&mut text, &d.join("; "));
         }
@@ -255,7 +251,7 @@ pub fn write_gauge_qc(
             time_utc: utc_label(r.times_s[n.sample]),
             level_above_datum_m: (r.heights_m[n.sample] * 1e4).round() / 1e4,
             flag: n.flag.as_str(),
-            detail: n.detail.clone(),
+            detail: n.reason.to_string(),
         })
         .collect();
     Ok(GaugeQcSummary {
@@ -531,7 +527,7 @@ pub fn qc_project(
             std_at_best_lag_m: c.std_at_best_lag_m,
             step: c.step.map(|s| (utc_label(s.at_s), s.size_m)),
             flagged: !c.findings.is_empty(),
-            findings: c.findings.clone(),
+            findings: c.findings.iter().map(|f| f.to_string()).collect(),
         });
     }
     let comparisons_note = if plans.is_empty() {

@@ -14,7 +14,6 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::load::{locator_for_crs, Loaded};
-use crate::compute::fixed::push_fixed;
 use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
     reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel, TideOutcome, N_STATUS,
@@ -23,6 +22,7 @@ use crate::compute::uncertainty::{tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
+use crate::io::numfmt::push_fixed;
 use crate::io::project::{Delimiter, SoundingsSpec};
 use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
 
@@ -950,7 +950,7 @@ fn process_chunk(
                                 detail,
                                 "gauge '{}' has no level at {}: {}",
                                 ctx.gauge_ids[why.gauge],
-                                crate::compute::utc_label(why.at_s),
+                                crate::io::timefmt::utc_label(why.at_s),
                                 why.why
                             );
                             if matches!(why.why, crate::compute::series::NoLevel::Flagged { .. }) {

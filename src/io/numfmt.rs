@@ -1,36 +1,90 @@
-//! Fixed-decimal formatting of metres for output columns, without going through `format!`.
+//! Numbers as the output files write them: one decimal rule per quantity, and a fixed-decimal
+//! writer fast enough for the hot loops of the reduction.
 //!
 //! Values are rounded half away from zero to a fixed number of decimals (4 for metres: 0.1 mm),
 //! so a column never shows more precision than was computed and always parses back exactly to the
 //! written decimal. (Written here rather than with `format!`, which costs several times more and
 //! dominates the writer's time: a float-to-decimal crate gives shortest, not fixed, decimals.)
+//!
+//! The rules, and the files they apply to, are listed in `docs/outputs.md`
+//! (the integration test `output_table` checks the files against that table).
+
+/// Decimals of every height and depth in metres (tide, reduced depth, levels, differences): 0.1 mm.
+pub const HEIGHT_DECIMALS: u32 = 4;
+
+/// Decimals of every uncertainty and standard deviation in metres: 0.1 mm.
+pub const UNCERTAINTY_DECIMALS: u32 = 4;
+
+/// Decimals of a harmonic constituent's amplitude in metres (constants files): 0.01 mm, so that a
+/// prediction summing some thirty rounded amplitudes stays within 0.1 mm of one from the
+/// unrounded analysis.
+pub const AMPLITUDE_DECIMALS: u32 = 5;
 
 /// Powers of ten up to 10⁹.
 const POW10: [f64; 10] = [1.0, 10.0, 100.0, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9];
 
+/// `value` rounded half away from zero to `decimals` decimals (at most 9), for numbers written
+/// by a serialiser (JSON, TOML) that writes the shortest text of the rounded value.
+pub fn round_to(value: f64, decimals: u32) -> f64 {
+    let p = POW10[decimals as usize];
+    let r = (value * p).round() / p;
+    // No negative zero in an output.
+    if r == 0.0 {
+        0.0
+    } else {
+        r
+    }
+}
+
 /// Appends `value` with `decimals` fixed decimals (at most 9) to `out`.
 /// Non-finite values are written as `nan`, `inf` or `-inf`.
 pub fn push_fixed(out: &mut Vec<u8>, value: f64, decimals: u32) {
+    let mut buf = [0u8; 32];
+    match fixed_digits(&mut buf, value, decimals) {
+        Some(n) => out.extend_from_slice(&buf[..n]),
+        None => {
+            // Too large for the integer path: the standard formatter.
+            use std::io::Write;
+            let _ = write!(out, "{value:.*}", decimals as usize);
+        }
+    }
+}
+
+/// [`push_fixed`] onto a `String`.
+pub fn push_fixed_str(out: &mut String, value: f64, decimals: u32) {
+    let mut buf = [0u8; 32];
+    match fixed_digits(&mut buf, value, decimals) {
+        Some(n) => out.push_str(std::str::from_utf8(&buf[..n]).expect("digits are ASCII")),
+        None => {
+            use std::fmt::Write;
+            let _ = write!(out, "{value:.*}", decimals as usize);
+        }
+    }
+}
+
+/// Writes the fixed-decimal text of `value` into `buf` and returns its length, or `None` when the
+/// value is too large for the integer path.
+fn fixed_digits(buf: &mut [u8; 32], value: f64, decimals: u32) -> Option<usize> {
     debug_assert!(decimals <= 9);
     if !value.is_finite() {
-        out.extend_from_slice(match value {
+        let word: &[u8] = match value {
             v if v.is_nan() => b"nan",
             v if v > 0.0 => b"inf",
             _ => b"-inf",
-        });
-        return;
+        };
+        buf[..word.len()].copy_from_slice(word);
+        return Some(word.len());
     }
     // Adding one half and truncating rounds half away from zero for the magnitude.
     let scaled = value.abs() * POW10[decimals as usize] + 0.5;
     if scaled >= 1.0e18 {
-        // Too large for the integer path: fall back to the standard formatter.
-        use std::io::Write;
-        let _ = write!(out, "{value:.*}", decimals as usize);
-        return;
+        return None;
     }
     let mut n = scaled as u64;
+    let mut start = 0;
     if value < 0.0 && n != 0 {
-        out.push(b'-');
+        buf[0] = b'-';
+        start = 1;
     }
     // Count the digits (at least one before the point), then write them in place from the right.
     let d = decimals as usize;
@@ -42,9 +96,7 @@ pub fn push_fixed(out: &mut Vec<u8>, value: f64, decimals: u32) {
     }
     let digits = digits.max(d + 1);
     let len = if d > 0 { digits + 1 } else { digits };
-    let start = out.len();
-    out.resize(start + len, b'0');
-    let dst = &mut out[start..];
+    let dst = &mut buf[start..start + len];
     // Two digits at a time from a table while no decimal point falls between them.
     let mut pos = len;
     let mut k = 0;
@@ -66,6 +118,7 @@ pub fn push_fixed(out: &mut Vec<u8>, value: f64, decimals: u32) {
             k += 1;
         }
     }
+    Some(start + len)
 }
 
 /// "00" to "99".
@@ -121,6 +174,26 @@ mod tests {
         assert_eq!(f(0.05, 1), "0.1");
         assert_eq!(f(7.0, 4), "7.0000");
         assert_eq!(f(-12345.67891, 4), "-12345.6789");
+        // Beyond the integer path: the standard formatter.
+        assert_eq!(f(1.0e15, 4), "1000000000000000.0000");
+    }
+
+    #[test]
+    fn string_and_byte_writers_agree() {
+        for &(v, d) in &[(2.61, 4), (-0.00005, 4), (1.0e15, 4), (f64::INFINITY, 2)] {
+            let mut s = String::from("x");
+            push_fixed_str(&mut s, v, d);
+            assert_eq!(s, format!("x{}", f(v, d)));
+        }
+    }
+
+    #[test]
+    fn rounding_for_serialisers() {
+        // 2.61 is 2.6099999999999999… in binary: rounded to 4 decimals it is the double nearest
+        // 2.61 again, which a serialiser writes as "2.61".
+        assert_eq!(round_to(2.6109999999999998, 4).to_string(), "2.611");
+        assert_eq!(round_to(-0.00004, 4).to_string(), "0");
+        assert_eq!(round_to(0.123456, 5), 0.12346);
     }
 
     proptest::proptest! {
