@@ -799,7 +799,10 @@ fn print_qc(s: &ebbwise::run::qc::QcSummary) -> i32 {
                 let _ = writeln!(
                     o,
                     "      line {:>6}  {}  {:>8.3} m  {}",
-                    f.line, f.time_utc, f.level_above_datum_m, f.detail
+                    f.line,
+                    f.time_utc,
+                    f.tide_m.or(f.level_above_record_zero_m).unwrap_or(f64::NAN),
+                    f.detail
                 );
             }
         }

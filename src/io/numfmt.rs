@@ -20,6 +20,34 @@ pub const UNCERTAINTY_DECIMALS: u32 = 4;
 /// unrounded analysis.
 pub const AMPLITUDE_DECIMALS: u32 = 5;
 
+/// Decimals of a duration or lag in minutes written in a JSON summary: 0.01 min (0.6 s).
+pub const MINUTE_DECIMALS: u32 = 2;
+
+/// Serialises a height, depth or difference in metres rounded to [`HEIGHT_DECIMALS`]
+/// (`#[serde(serialize_with = "…")]`; the value in memory keeps its precision).
+pub fn ser_height<S: serde::Serializer>(v: &f64, s: S) -> Result<S::Ok, S::Error> {
+    s.serialize_f64(round_to(*v, HEIGHT_DECIMALS))
+}
+
+/// Serialises an uncertainty or standard deviation in metres rounded to
+/// [`UNCERTAINTY_DECIMALS`].
+pub fn ser_uncertainty<S: serde::Serializer>(v: &f64, s: S) -> Result<S::Ok, S::Error> {
+    s.serialize_f64(round_to(*v, UNCERTAINTY_DECIMALS))
+}
+
+/// Serialises minutes rounded to [`MINUTE_DECIMALS`].
+pub fn ser_minutes<S: serde::Serializer>(v: &f64, s: S) -> Result<S::Ok, S::Error> {
+    s.serialize_f64(round_to(*v, MINUTE_DECIMALS))
+}
+
+/// Serialises an optional height rounded to [`HEIGHT_DECIMALS`] (`None` as `null`).
+pub fn ser_opt_height<S: serde::Serializer>(v: &Option<f64>, s: S) -> Result<S::Ok, S::Error> {
+    match v {
+        Some(x) => s.serialize_some(&round_to(*x, HEIGHT_DECIMALS)),
+        None => s.serialize_none(),
+    }
+}
+
 /// Powers of ten up to 10⁹.
 const POW10: [f64; 10] = [1.0, 10.0, 100.0, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9];
 

@@ -395,6 +395,7 @@ pub struct GaugeMethod {
     /// `linear` or `natural_cubic_spline`.
     pub interpolation: &'static str,
     /// Nominal step of the record, minutes.
+    #[serde(serialize_with = "crate::io::numfmt::ser_minutes")]
     pub nominal_step_min: f64,
     /// Low-pass cut-off period, minutes, when filtered.
     pub lowpass_cutoff_min: Option<f64>,
