@@ -389,3 +389,61 @@ fn apply_warns_when_the_inputs_changed_since_the_correction_file_was_made() {
     let o = ebbwise(&["apply", &file, "--project", &p.project()]);
     assert!(stderr(&o).contains("has no sidecar"), "{}", stderr(&o));
 }
+
+#[test]
+fn per_sounding_times_keep_their_precision_and_find_their_rows() {
+    // Two soundings 0.25 ms apart on one line, and one on a whole millisecond: the key of each
+    // must read back to its own microsecond, or `apply` would find the wrong row or none.
+    let p = MiniProject::new(
+        "time,lon,lat,depth,line\n\
+         2026-06-14T01:00:00.000250Z,10.005,50.005,10.0,L1\n\
+         2026-06-14T01:00:00.0005Z,10.015,50.005,10.0,L1\n\
+         2026-06-14T01:00:00.5Z,10.005,50.005,10.0,L1\n",
+    );
+    let o = ebbwise(&[
+        "correctors",
+        &p.project(),
+        "--out",
+        &p.path("c").to_string_lossy(),
+        "--per-sounding",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert_eq!(
+        column(&p.path("c/s.correctors.csv"), "time_utc"),
+        [
+            "2026-06-14T01:00:00.000250Z",
+            "2026-06-14T01:00:00.000500Z",
+            "2026-06-14T01:00:00.500Z"
+        ]
+    );
+    let o = ebbwise(&[
+        "apply",
+        &p.path("c/s.correctors.csv").to_string_lossy(),
+        "--project",
+        &p.project(),
+        "--out",
+        &p.path("a").to_string_lossy(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = ebbwise(&[
+        "reduce",
+        &p.project(),
+        "--out",
+        &p.path("r").to_string_lossy(),
+        "--no-progress",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    // Z1 (Δt 0, R 1) and Z2 (Δt +6 min, R 0.5, zone mean 1.5 m) differ in tide, so a sounding
+    // given the other's row would show it.
+    for c in ["zone", "tide_m", "status"] {
+        assert_eq!(
+            column(&p.path("a/s.applied.csv"), c),
+            column(&p.path("r/s.reduced.csv"), c),
+            "{c}"
+        );
+    }
+    assert_eq!(
+        column(&p.path("a/s.applied.csv"), "zone"),
+        ["Z1", "Z2", "Z1"]
+    );
+}
