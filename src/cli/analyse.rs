@@ -5,10 +5,10 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use ebbwise::compute::harmonic::{tide_type, AnalysisSettings, NodalMode};
-use ebbwise::compute::utc_label;
 use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
+use ebbwise::io::timefmt::utc_label;
 use ebbwise::run::harmonics::{analyse_gauge, AnalyseOutcome};
 use ebbwise::CAUTION;
 

@@ -61,8 +61,8 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
         e,
         "ebbwise correctors: {} zones, {} to {}, every {} min",
         loaded.zones.len(),
-        ebbwise::compute::utc_label(outcome.span_s.0),
-        ebbwise::compute::utc_label(outcome.span_s.1),
+        ebbwise::io::timefmt::utc_label(outcome.span_s.0),
+        ebbwise::io::timefmt::utc_label(outcome.span_s.1),
         a.step_min
     );
     for (s, n) in &outcome.zone_rows_by_status {

@@ -4,9 +4,9 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use ebbwise::compute::utc_label;
 use ebbwise::io::atomic::Sink;
 use ebbwise::io::project::Project;
+use ebbwise::io::timefmt::utc_label;
 use ebbwise::run::harmonics::{predict_to, PredictOutcome};
 use ebbwise::CAUTION;
 

@@ -123,7 +123,10 @@ fn print_qc(s: &QcSummary) {
                 let _ = writeln!(
                     o,
                     "      line {:>6}  {}  {:>8.3} m  {}",
-                    f.line, f.time_utc, f.level_above_datum_m, f.detail
+                    f.line,
+                    f.time_utc,
+                    f.tide_m.or(f.level_above_record_zero_m).unwrap_or(f64::NAN),
+                    f.detail
                 );
             }
         }

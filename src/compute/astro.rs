@@ -549,6 +549,8 @@ mod tests {
     );
 
     struct Row {
+        /// The fixture's own time text, for messages.
+        time_utc: String,
         t_s: f64,
         quantity: String,
         constituent: String,
@@ -565,6 +567,7 @@ mod tests {
                 assert_eq!(cols.len(), 4, "bad fixture line {l}");
                 let t = chrono::DateTime::parse_from_rfc3339(cols[0]).expect("time");
                 Row {
+                    time_utc: cols[0].to_string(),
                     t_s: t.timestamp() as f64,
                     quantity: cols[1].to_string(),
                     constituent: cols[2].to_string(),
@@ -641,7 +644,7 @@ mod tests {
         let mut m1_direct = 0;
         for r in &rows {
             let a = astro_at(r.t_s);
-            let label = crate::compute::utc_label(r.t_s);
+            let label = &r.time_utc;
             if r.constituent.is_empty() {
                 let (ours, tol) = match r.quantity.as_str() {
                     "s_deg" => (a.s_deg, TOL_S_DEG),

@@ -93,7 +93,37 @@ pub struct Comparison {
     /// Largest step found in the difference series.
     pub step: Option<Step>,
     /// Why the pair is flagged (empty: not flagged).
-    pub findings: Vec<String>,
+    pub findings: Vec<CompareFinding>,
+}
+
+/// Why a pair is flagged, as numbers; `io::text` words it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum CompareFinding {
+    /// |mean| exceeds its limit: a datum error.
+    Mean {
+        /// The mean difference, metres.
+        mean_m: f64,
+        /// The limit, metres.
+        limit_m: f64,
+    },
+    /// |drift| exceeds its limit over at least three days: a drifting or settling sensor.
+    Drift {
+        /// The drift, metres per day.
+        drift_m_per_day: f64,
+        /// The limit, metres per day.
+        limit_m_per_day: f64,
+    },
+    /// |best lag| exceeds its limit: a clock, time-zone or time-corrector error.
+    Lag {
+        /// The best lag, minutes.
+        best_lag_min: f64,
+        /// Standard deviation at that lag, metres.
+        std_at_best_lag_m: f64,
+        /// Standard deviation without it, metres.
+        std_m: f64,
+    },
+    /// A step in the difference: a gauge moved or was re-levelled.
+    Step(Step),
 }
 
 fn eval(
@@ -236,30 +266,28 @@ pub fn compare(
 
     let mut findings = Vec::new();
     if mean_m.abs() > s.max_mean_m {
-        findings.push(format!(
-            "mean difference {mean_m:+.3} m exceeds ±{:.3} m: check the datum relation (zero_above_datum_m) of both gauges",
-            s.max_mean_m
-        ));
+        findings.push(CompareFinding::Mean {
+            mean_m,
+            limit_m: s.max_mean_m,
+        });
     }
     // A drift over less than three days is mostly tidal misfit: reported, not flagged.
     let span_days = (t_ok[t_ok.len() - 1] - t_ok[0]) / 86400.0;
     if drift_m_per_day.abs() > s.max_drift_m_per_day && span_days >= 3.0 {
-        findings.push(format!(
-            "drift {drift_m_per_day:+.4} m/day exceeds ±{:.4} m/day: a sensor drifting or settling",
-            s.max_drift_m_per_day
-        ));
+        findings.push(CompareFinding::Drift {
+            drift_m_per_day,
+            limit_m_per_day: s.max_drift_m_per_day,
+        });
     }
     if best_lag_min.abs() > s.max_lag_min {
-        findings.push(format!(
-            "the two agree best with {best_lag_min:+.1} min more time corrector (σ {std_at_best_lag_m:.3} m instead of {std_m:.3} m): check both gauges' clocks and time zones, and the time corrector",
-        ));
+        findings.push(CompareFinding::Lag {
+            best_lag_min,
+            std_at_best_lag_m,
+            std_m,
+        });
     }
     if let Some(st) = step {
-        findings.push(format!(
-            "step of {:+.3} m in the difference at {}: one of the gauges moved or was re-levelled",
-            st.size_m,
-            super::utc_label(st.at_s)
-        ));
+        findings.push(CompareFinding::Step(st));
     }
     Some(Comparison {
         a: a.label.clone(),
@@ -389,7 +417,7 @@ mod tests {
         let c = run(&gauges(|t, h| (t, h + 0.12)));
         assert!((c.mean_m - 0.12).abs() < 0.005, "{}", c.mean_m);
         assert_eq!(c.findings.len(), 1, "{:?}", c.findings);
-        assert!(c.findings[0].contains("mean difference"));
+        assert!(matches!(c.findings[0], CompareFinding::Mean { .. }));
     }
 
     #[test]
@@ -404,7 +432,9 @@ mod tests {
         // be shifted by −30 min to match (b's lag is the extra time corrector on a's feed).
         assert!((c.best_lag_min + 30.0).abs() < 1.0, "{}", c.best_lag_min);
         assert!(
-            c.findings.iter().any(|f| f.contains("clocks")),
+            c.findings
+                .iter()
+                .any(|f| matches!(f, CompareFinding::Lag { .. })),
             "{:?}",
             c.findings
         );
@@ -424,6 +454,9 @@ mod tests {
             "{}",
             c.drift_m_per_day
         );
-        assert!(c.findings.iter().any(|f| f.contains("drift")));
+        assert!(c
+            .findings
+            .iter()
+            .any(|f| matches!(f, CompareFinding::Drift { .. })));
     }
 }

@@ -227,15 +227,128 @@ impl Default for QcThresholds {
     }
 }
 
-/// Why one sample was flagged, in words with the numbers behind it.
+/// Why one sample was flagged: the flag and the evidence behind it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct QcNote {
     /// Sample index (file order).
     pub sample: usize,
     /// The flag.
     pub flag: QcFlag,
-    /// The evidence, e.g. "+0.412 m from the level predicted by its neighbours …".
-    pub detail: String,
+    /// The evidence, with its numbers; `io::text` words it ("+0.412 m from the level predicted
+    /// by its neighbours …").
+    pub reason: QcReason,
+}
+
+/// The evidence for one flag, as numbers. Times are UTC seconds, levels metres.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum QcReason {
+    /// `duplicate_time`: the time equals a kept sample's.
+    DuplicateTime {
+        /// The sample's time.
+        t_s: f64,
+    },
+    /// `time_order`: the time is earlier than the kept sample before it.
+    EarlierThanPrevious {
+        /// The sample's time.
+        t_s: f64,
+        /// How much earlier, seconds.
+        by_s: f64,
+    },
+    /// `time_order`: the time is later than the kept sample after it.
+    LaterThanNext {
+        /// The sample's time.
+        t_s: f64,
+        /// How much later, seconds.
+        by_s: f64,
+    },
+    /// `time_order`: out of order otherwise.
+    OutOfOrder {
+        /// The sample's time.
+        t_s: f64,
+    },
+    /// `gap_before`: a long interval before the sample.
+    GapBefore {
+        /// The interval, seconds.
+        interval_s: f64,
+        /// The record's nominal step, seconds.
+        nominal_step_s: f64,
+    },
+    /// `out_of_band`: the level is outside the plausible band.
+    OutOfBand {
+        /// The level, metres.
+        level_m: f64,
+        /// The band's lower end, metres.
+        band_min_m: f64,
+        /// The band's upper end, metres.
+        band_max_m: f64,
+    },
+    /// `flat_line`: the reading repeats.
+    FlatLine {
+        /// The repeated reading, metres.
+        reading_m: f64,
+        /// How many times it is read.
+        repeats: usize,
+        /// Over how long, minutes.
+        duration_min: f64,
+        /// Time of the run's first reading.
+        from_s: f64,
+    },
+    /// `spike`: far from the level its neighbours predict.
+    Spike {
+        /// The residual, metres.
+        residual_m: f64,
+        /// The record's robust σ of the residual, metres.
+        robust_sigma_m: f64,
+        /// The limit, metres.
+        limit_m: f64,
+    },
+    /// `level_shift`: a step in the level.
+    LevelShift {
+        /// The step, metres (after − before).
+        size_m: f64,
+        /// What was found and what is set aside.
+        kind: ShiftKind,
+        /// The fit's window each side, minutes.
+        window_min: f64,
+        /// The limit, metres.
+        limit_m: f64,
+        /// The robust σ of the step statistic, metres.
+        sigma_m: f64,
+    },
+    /// `rate`: the level changes faster than allowed.
+    Rate {
+        /// The change, metres.
+        change_m: f64,
+        /// Over how long, hours.
+        interval_h: f64,
+        /// Time of the other sample of the pair.
+        other_s: f64,
+        /// The rate limit, metres per hour.
+        max_rate_m_per_h: f64,
+        /// The noise allowance, metres.
+        allowance_m: f64,
+    },
+}
+
+/// What a level shift is, for its [`QcReason::LevelShift`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ShiftKind {
+    /// A temporary offset: a step and a step back.
+    Offset {
+        /// Time of the first offset sample.
+        from_s: f64,
+        /// Time of the first sample after the offset.
+        until_s: f64,
+    },
+    /// A step with nothing after it confirmed.
+    Step {
+        /// Time of the last sample before the step.
+        before_s: f64,
+        /// Time of the first sample after it.
+        after_s: f64,
+        /// Whether the record after it is set aside.
+        sets_aside_after: bool,
+    },
 }
 
 /// QC of one record.
@@ -285,13 +398,13 @@ struct Flagger {
 }
 
 impl Flagger {
-    fn flag(&mut self, i: usize, f: QcFlag, detail: String) {
+    fn flag(&mut self, i: usize, f: QcFlag, reason: QcReason) {
         if !self.flags[i].contains(f) {
             self.flags[i].insert(f);
             self.notes.push(QcNote {
                 sample: i,
                 flag: f,
-                detail,
+                reason,
             });
         }
     }
@@ -483,24 +596,18 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
                 .binary_search_by(|&q| times_s[q].total_cmp(&t))
                 .is_ok();
             if dup {
-                fl.flag(
-                    i,
-                    QcFlag::DuplicateTime,
-                    format!("time equals that of another sample ({})", label(t)),
-                );
+                fl.flag(i, QcFlag::DuplicateTime, QcReason::DuplicateTime { t_s: t });
             } else {
                 let why = match (before, after) {
-                    (Some(b), _) if t < b => format!(
-                        "time {} is {:.1} min earlier than the sample before it",
-                        label(t),
-                        (b - t) / 60.0
-                    ),
-                    (_, Some(a)) if t > a => format!(
-                        "time {} is {:.1} min later than the sample after it",
-                        label(t),
-                        (t - a) / 60.0
-                    ),
-                    _ => format!("time {} is out of order", label(t)),
+                    (Some(b), _) if t < b => QcReason::EarlierThanPrevious {
+                        t_s: t,
+                        by_s: b - t,
+                    },
+                    (_, Some(a)) if t > a => QcReason::LaterThanNext {
+                        t_s: t,
+                        by_s: t - a,
+                    },
+                    _ => QcReason::OutOfOrder { t_s: t },
                 };
                 fl.flag(i, QcFlag::TimeOrder, why);
             }
@@ -524,12 +631,10 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
                 fl.flag(
                     w[1],
                     QcFlag::GapBefore,
-                    format!(
-                        "{:.1} min since the previous sample ({:.1} × the {:.1} min step)",
-                        dt / 60.0,
-                        dt / nominal_step_s,
-                        nominal_step_s / 60.0
-                    ),
+                    QcReason::GapBefore {
+                        interval_s: dt,
+                        nominal_step_s,
+                    },
                 );
             }
         }
@@ -543,10 +648,11 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
             fl.flag(
                 i,
                 QcFlag::OutOfBand,
-                format!(
-                    "{h:.3} m is outside the plausible band {:.2} to {:.2} m",
-                    th.band_min_m, th.band_max_m
-                ),
+                QcReason::OutOfBand {
+                    level_m: h,
+                    band_min_m: th.band_min_m,
+                    band_max_m: th.band_max_m,
+                },
             );
         } else {
             clean.push(i);
@@ -567,11 +673,12 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
                 fl.flag(
                     i,
                     QcFlag::FlatLine,
-                    format!(
-                        "reading {:.3} m repeated {run} times over {dur_min:.0} min from {}",
-                        heights_m[clean[k]],
-                        label(times_s[clean[k]])
-                    ),
+                    QcReason::FlatLine {
+                        reading_m: heights_m[clean[k]],
+                        repeats: run,
+                        duration_min: dur_min,
+                        from_s: times_s[clean[k]],
+                    },
                 );
             }
         }
@@ -619,11 +726,11 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
             fl.flag(
                 i,
                 QcFlag::Spike,
-                format!(
-                    "{r:+.3} m from the level predicted by its neighbours ({:.1} robust σ of {:.4} m; limit {spike_limit:.3} m)",
-                    r.abs() / robust_sigma_m.max(1e-12),
-                    robust_sigma_m
-                ),
+                QcReason::Spike {
+                    residual_m: r,
+                    robust_sigma_m,
+                    limit_m: spike_limit,
+                },
             );
         }
     }
@@ -678,15 +785,13 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         fl.flag(
             pick,
             QcFlag::Rate,
-            format!(
-                "{:+.3} m in {:.1} min to/from {} ({:.2} m/h; limit {:.2} m/h + {:.3} m)",
-                dh,
-                dt_h * 60.0,
-                label(times_s[other]),
-                dh.abs() / dt_h,
-                th.max_rate_m_per_h,
-                allowance
-            ),
+            QcReason::Rate {
+                change_m: dh,
+                interval_h: dt_h,
+                other_s: times_s[other],
+                max_rate_m_per_h: th.max_rate_m_per_h,
+                allowance_m: allowance,
+            },
         );
         if !b_suspect {
             last_kept = k;
@@ -744,10 +849,6 @@ fn longest_increasing(t: &[f64]) -> Vec<usize> {
         cur = (next[i] != usize::MAX).then(|| next[i]);
     }
     out
-}
-
-fn label(t_s: f64) -> String {
-    super::utc_label(t_s)
 }
 
 /// Least-squares line through `(x, y)` evaluated at `x = 0`.
@@ -927,43 +1028,38 @@ fn level_shifts(
     while i < steps.len() {
         let k1 = steps[i].junction;
         let j1 = j[k1];
-        let stats = format!(
-            "cubic plus step fitted over {:.0} min each side; limit {:.3} m, robust σ {:.4} m",
-            th.shift_window_min, steps[i].limit_m, steps[i].sigma_m
-        );
         // A later step of opposite sign and similar size ends a temporary offset.
         let back = steps.get(i + 1).filter(|s2| {
             let j2 = j[s2.junction];
             j1 * j2 < 0.0 && (j1 + j2).abs() < 0.5 * j1.abs().max(j2.abs())
         });
-        let (end, detail) = match back {
+        let step = |sets_aside_after| ShiftKind::Step {
+            before_s: times_s[clean[k1 - 1]],
+            after_s: times_s[clean[k1]],
+            sets_aside_after,
+        };
+        let (end, kind) = match back {
             Some(s2) => (
                 s2.junction,
-                format!(
-                    "offset of {j1:+.3} m from {} until {} ({stats})",
-                    label(times_s[clean[k1]]),
-                    label(times_s[clean[s2.junction]])
-                ),
+                ShiftKind::Offset {
+                    from_s: times_s[clean[k1]],
+                    until_s: times_s[clean[s2.junction]],
+                },
             ),
-            None if th.shift_sets_aside_after => (
-                steps.get(i + 1).map_or(m, |s2| s2.junction),
-                format!(
-                    "step of {j1:+.3} m between {} and {}: the record after it is set aside until the level is confirmed ({stats})",
-                    label(times_s[clean[k1 - 1]]),
-                    label(times_s[clean[k1]])
-                ),
-            ),
-            None => (
-                k1 + 1,
-                format!(
-                    "step of {j1:+.3} m between {} and {} ({stats})",
-                    label(times_s[clean[k1 - 1]]),
-                    label(times_s[clean[k1]])
-                ),
-            ),
+            None if th.shift_sets_aside_after => {
+                (steps.get(i + 1).map_or(m, |s2| s2.junction), step(true))
+            }
+            None => (k1 + 1, step(false)),
+        };
+        let reason = QcReason::LevelShift {
+            size_m: j1,
+            kind,
+            window_min: th.shift_window_min,
+            limit_m: steps[i].limit_m,
+            sigma_m: steps[i].sigma_m,
         };
         for &idx in &clean[k1..end] {
-            fl.flag(idx, QcFlag::LevelShift, detail.clone());
+            fl.flag(idx, QcFlag::LevelShift, reason);
         }
         i += if back.is_some() { 2 } else { 1 };
     }
@@ -1129,7 +1225,7 @@ mod tests {
         assert_eq!(r.flagged(QcFlag::TimeOrder), vec![4600]);
         // A time going back also leaves a longer step to the next sample, but not a gap.
         assert_eq!(r.count(QcFlag::Rate), 0, "{:?}", r.notes);
-        assert!(r.notes_of(500)[0].detail.contains("neighbours"));
+        assert!(matches!(r.notes_of(500)[0].reason, QcReason::Spike { .. }));
         assert!(r.flags[3000].blocks_interpolation());
     }
 
@@ -1192,9 +1288,11 @@ mod tests {
         t[500] += 86_520.0;
         let r = run_qc(&t, &h, &th());
         assert_eq!(r.flagged(QcFlag::TimeOrder), vec![500]);
-        assert!(r.notes_of(500)[0]
-            .detail
-            .contains("later than the sample after it"));
+        assert!(matches!(
+            r.notes_of(500)[0].reason,
+            // 86 520 s late, less the 360-s step to the next sample.
+            QcReason::LaterThanNext { by_s, .. } if (by_s - 86_160.0).abs() < 1e-6
+        ));
     }
 
     #[test]

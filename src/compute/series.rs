@@ -35,7 +35,7 @@ pub struct LevelAt {
     pub bracket: usize,
 }
 
-/// Why a series has no level at an instant.
+/// Why a series has no level at an instant (`io::text` words it).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum NoLevel {
     /// The series holds no sample at all.
@@ -62,31 +62,6 @@ pub enum NoLevel {
         /// Length of the gap, seconds.
         length_s: f64,
     },
-}
-
-impl std::fmt::Display for NoLevel {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        match self {
-            NoLevel::EmptyRecord => write!(f, "record holds no usable sample"),
-            NoLevel::BeforeRecord { by_s } => {
-                write!(f, "{:.1} min before the record starts", by_s / 60.0)
-            }
-            NoLevel::AfterRecord { by_s } => {
-                write!(f, "{:.1} min after the record ends", by_s / 60.0)
-            }
-            NoLevel::Flagged { at_s } => write!(
-                f,
-                "the gauge sample at {} was flagged by quality control and is not interpolated through",
-                crate::compute::utc_label(*at_s)
-            ),
-            NoLevel::Gap { from_s, length_s } => write!(
-                f,
-                "inside a {:.1} min gap starting at {}",
-                length_s / 60.0,
-                crate::compute::utc_label(*from_s)
-            ),
-        }
-    }
 }
 
 /// A method of interpolating a [`LevelSeries`] in time. A new method is one more implementation.

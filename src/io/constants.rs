@@ -10,12 +10,12 @@
 //! levels = "above chart datum"      # or "above the record's zero"
 //! z0_m = 2.5123                     # mean level Z0
 //! u_z0_m = 0.0004                   # its standard uncertainty (1σ)
-//! record_start_utc = "2026-05-01T00:00:00Z"
-//! record_end_utc = "2026-05-30T23:00:00Z"
+//! record_start_utc = "2026-05-01T00:00:00.000Z"
+//! record_end_utc = "2026-05-30T23:00:00.000Z"
 //! samples = 720
 //! nodal = "per_sample"              # or "centre"
 //! rayleigh_factor = 1.0             # absent when the constituents were given
-//! residual_rms_m = 0.021
+//! residual_rms_m = 0.0213
 //! variance_explained = 0.9987
 //! form_factor = 0.17
 //! tide_type = "semidiurnal"
@@ -24,8 +24,8 @@
 //! [[constituent]]
 //! name = "M2"
 //! speed_deg_per_h = 28.9841042
-//! amplitude_m = 1.2004              # H
-//! phase_deg = 110.12                # G, Greenwich phase lag (UTC)
+//! amplitude_m = 1.20043             # H
+//! phase_deg = 110.123               # G, Greenwich phase lag (UTC)
 //! u_amplitude_m = 0.0011            # standard uncertainties (1σ)
 //! u_phase_deg = 0.05
 //! # inferred_from = "S2"            # for an inferred constituent, with
@@ -41,11 +41,19 @@ use std::path::Path;
 use serde::{Deserialize, Serialize};
 
 use super::error::{IoError, Position};
+use super::numfmt::{round_to as round, AMPLITUDE_DECIMALS, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use crate::compute::astro::constituent;
 use crate::compute::harmonic::{tide_type, Analysis, HarmonicConstants};
 
 /// Layout name.
 pub const CONSTANTS_FORMAT: &str = "ebbwise-harmonic-constants/1";
+
+/// `levels` of constants analysed from a record whose datum relation is known (a project's
+/// gauge, or a record with its zero's height above chart datum).
+pub const LEVELS_CHART_DATUM: &str = "above chart datum";
+
+/// `levels` of constants analysed from a record without a datum relation.
+pub const LEVELS_RECORD_ZERO: &str = "above the record's zero";
 
 /// One constituent as written.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -128,13 +136,10 @@ pub struct ConstantsFile {
     pub constituents: Vec<ConstituentEntry>,
 }
 
-fn round(x: f64, d: i32) -> f64 {
-    let p = 10f64.powi(d);
-    (x * p).round() / p
-}
-
 impl ConstantsFile {
-    /// The file for an analysis. Amplitudes to 0.1 mm, phases to 0.01°.
+    /// The file for an analysis. Z0 and the residual RMS to 0.1 mm, amplitudes to 0.01 mm
+    /// ([`AMPLITUDE_DECIMALS`]), uncertainties in metres to 0.1 mm, phases to 0.001°, times to
+    /// the millisecond.
     pub fn from_analysis(
         a: &Analysis,
         source: Option<String>,
@@ -147,14 +152,14 @@ impl ConstantsFile {
             source,
             gauge,
             levels: Some(levels.into()),
-            z0_m: round(a.z0_m, 5),
-            u_z0_m: Some(round(a.u_z0_m, 6)),
-            record_start_utc: Some(crate::compute::utc_label(a.span_s.0)),
-            record_end_utc: Some(crate::compute::utc_label(a.span_s.1)),
+            z0_m: round(a.z0_m, HEIGHT_DECIMALS),
+            u_z0_m: Some(round(a.u_z0_m, UNCERTAINTY_DECIMALS)),
+            record_start_utc: Some(super::timefmt::utc_time(a.span_s.0)),
+            record_end_utc: Some(super::timefmt::utc_time(a.span_s.1)),
             samples: Some(a.n_samples),
             nodal: Some(a.nodal.as_str().into()),
             rayleigh_factor: a.rayleigh_factor,
-            residual_rms_m: Some(round(a.residual_rms_m, 5)),
+            residual_rms_m: Some(round(a.residual_rms_m, HEIGHT_DECIMALS)),
             variance_explained: Some(round(a.variance_explained, 6)),
             form_factor: ff.map(|f| round(f, 4)),
             tide_type: ff.map(|f| tide_type(f).to_string()),
@@ -164,10 +169,12 @@ impl ConstantsFile {
                 .iter()
                 .map(|f| ConstituentEntry {
                     name: f.constituent.name.into(),
-                    speed_deg_per_h: f.constituent.speed_deg_per_h,
-                    amplitude_m: round(f.amplitude_m, 5),
+                    // As in the constituent table (7 decimals); a compound's speed, summed from
+                    // its parents', is rounded to the same.
+                    speed_deg_per_h: round(f.constituent.speed_deg_per_h, 7),
+                    amplitude_m: round(f.amplitude_m, AMPLITUDE_DECIMALS),
                     phase_deg: round(f.phase_deg, 3),
-                    u_amplitude_m: Some(round(f.u_amplitude_m, 5)),
+                    u_amplitude_m: Some(round(f.u_amplitude_m, UNCERTAINTY_DECIMALS)),
                     u_phase_deg: Some(round(f.u_phase_deg, 3)),
                     inferred_from: f.inferred_from.map(|x| x.0.to_string()),
                     inference_ratio: f.inferred_from.map(|x| round(x.1, 4)),
@@ -297,7 +304,8 @@ mod tests {
         assert_eq!(back, f);
         let before = predict_grid(&a.constants(), t0, 3600.0, h.len());
         let again = predict_grid(&kk, t0, 3600.0, h.len());
-        // Written to 0.01 mm and 0.001°: the prediction agrees within 0.1 mm.
+        // Amplitudes written to 0.01 mm, Z0 to 0.1 mm and phases to 0.001°: the prediction
+        // agrees within 0.1 mm.
         let worst = before
             .iter()
             .zip(&again)

@@ -2,14 +2,16 @@
 //! JSON provenance sidecar written beside each.
 //!
 //! Per-zone file (`correctors-zones.csv`), one row per zone and time:
-//! `zone,time_utc,tide_above_chart_datum_m,u_tide_m,status`.
+//! `zone,time_utc,tide_m,u_tide_m,status`.
 //! Per-sounding file (`<stem>.correctors.csv`), one row per sounding:
-//! `line,time_utc,source_file,source_line,zone,tide_above_chart_datum_m,u_tide_m,status`.
-//! Times are ISO 8601 UTC; tide is water level above chart datum in metres, positive up,
-//! written as the shortest decimal that reads back to the same number; `u_tide_m` is its standard
-//! uncertainty (1σ, empty when not computed); `status` is `observed`, `interpolated`,
-//! `gap_filled` or `missing` (per zone) or the sounding's status (per sounding). A missing value
-//! leaves the tide empty: nothing is invented.
+//! `line,time_utc,source_file,source_line,zone,tide_m,u_tide_m,status`.
+//! Per-line file (`correctors-lines.csv`): `line,time_utc,zone,tide_m,u_tide_m,status`.
+//! Times are ISO 8601 UTC to the millisecond (to the microsecond when a sounding's time is finer);
+//! `tide_m` is the water level above chart datum in metres, positive up, with 4 decimals, and
+//! `u_tide_m` its standard uncertainty (1σ, 4 decimals, empty when not computed), as in the
+//! reduced files; `status` is `observed`, `interpolated`, `gap_filled`, `missing` or `flagged`
+//! (per zone and per line) or the sounding's status (per sounding). A missing value leaves the
+//! tide empty: nothing is invented.
 
 use std::collections::HashMap;
 use std::io::Read;
@@ -18,17 +20,12 @@ use std::path::Path;
 use sha2::{Digest, Sha256};
 
 use super::error::{IoError, Position};
-use super::timefmt::{parse_time, TimeFormat};
+use super::numfmt::{push_fixed_str, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
+use super::timefmt::{parse_time, push_utc, TimeFormat};
 use crate::compute::correctors::{sounding_key, Corrector, CorrectorStatus, SoundingCorrection};
 
 /// Columns of the per-zone file.
-pub const ZONE_CORRECTOR_COLUMNS: [&str; 5] = [
-    "zone",
-    "time_utc",
-    "tide_above_chart_datum_m",
-    "u_tide_m",
-    "status",
-];
+pub const ZONE_CORRECTOR_COLUMNS: [&str; 5] = ["zone", "time_utc", "tide_m", "u_tide_m", "status"];
 
 /// Columns of a per-sounding corrector file, in order.
 pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
@@ -37,23 +34,17 @@ pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
     "source_file",
     "source_line",
     "zone",
-    "tide_above_chart_datum_m",
+    "tide_m",
     "u_tide_m",
     "status",
 ];
 
 /// Columns of a per-line corrector file, in order.
-pub const LINE_CORRECTOR_COLUMNS: [&str; 6] = [
-    "line",
-    "time_utc",
-    "zone",
-    "tide_above_chart_datum_m",
-    "u_tide_m",
-    "status",
-];
+pub const LINE_CORRECTOR_COLUMNS: [&str; 6] =
+    ["line", "time_utc", "zone", "tide_m", "u_tide_m", "status"];
 
 /// Identifier of the correction-file layout (in the sidecar).
-pub const CORRECTORS_FORMAT: &str = "ebbwise-tide-correctors/1";
+pub const CORRECTORS_FORMAT: &str = "ebbwise-tide-correctors/2";
 
 /// SHA-256 of a file, lowercase hex.
 pub fn sha256_file(path: &Path) -> Result<String, IoError> {
@@ -70,22 +61,41 @@ pub fn sha256_file(path: &Path) -> Result<String, IoError> {
     Ok(h.finalize().iter().map(|b| format!("{b:02x}")).collect())
 }
 
-/// Writes the per-zone rows for one zone into `out`.
+/// Writes the per-zone rows for one zone into `out`: `zone,time_utc,tide_m,u_tide_m,status`.
 pub fn push_zone_rows(out: &mut String, zone: &str, rows: &[Corrector]) {
-    use std::fmt::Write;
     for c in rows {
-        let _ = write!(out, "{zone},{},", crate::compute::utc_label(c.t_s));
-        if let Some(t) = c.tide_m {
-            let _ = write!(out, "{t}");
-        }
+        super::soundings::push_csv_field_string(out, zone);
         out.push(',');
-        if let Some(u) = c.u_tide_m {
-            let _ = write!(out, "{u:.4}");
-        }
-        out.push(',');
-        out.push_str(c.status.as_str());
-        out.push('\n');
+        push_utc(out, c.t_s);
+        push_corrector_tail(out, c);
     }
+}
+
+/// Writes one per-line row: `line,time_utc,zone,tide_m,u_tide_m,status`.
+pub fn push_line_row(out: &mut String, line: &str, zone: Option<&str>, c: &Corrector) {
+    super::soundings::push_csv_field_string(out, line);
+    out.push(',');
+    push_utc(out, c.t_s);
+    out.push(',');
+    if let Some(z) = zone {
+        super::soundings::push_csv_field_string(out, z);
+    }
+    push_corrector_tail(out, c);
+}
+
+/// `,tide_m,u_tide_m,status` and the line end.
+fn push_corrector_tail(out: &mut String, c: &Corrector) {
+    out.push(',');
+    if let Some(t) = c.tide_m {
+        push_fixed_str(out, t, HEIGHT_DECIMALS);
+    }
+    out.push(',');
+    if let Some(u) = c.u_tide_m {
+        push_fixed_str(out, u, UNCERTAINTY_DECIMALS);
+    }
+    out.push(',');
+    out.push_str(c.status.as_str());
+    out.push('\n');
 }
 
 /// A per-sounding row as read: zone id, tide (m), status word.
@@ -165,12 +175,12 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                     ),
                 )
             })?;
-            let tide = opt_num(2, "tide_above_chart_datum_m")?;
+            let tide = opt_num(2, "tide_m")?;
             if tide.is_none()
                 != matches!(status, CorrectorStatus::Missing | CorrectorStatus::Flagged)
             {
                 return Err(IoError::content(
-                    at("tide_above_chart_datum_m"),
+                    at("tide_m"),
                     "a tide must be given exactly when the status is neither 'missing' nor 'flagged'",
                 ));
             }
@@ -195,7 +205,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
             let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
                 .map_err(|m| IoError::content(at("time_utc"), m))?;
             let zone = (!rec[4].is_empty()).then(|| rec[4].to_string());
-            let tide = opt_num(5, "tide_above_chart_datum_m")?;
+            let tide = opt_num(5, "tide_m")?;
             let row = (zone, tide, rec[7].to_string());
             if let Some(prev) = by_sounding.insert(sounding_key(&rec[0], t), row.clone()) {
                 if prev != row {
@@ -245,10 +255,10 @@ fn parse_line_rows<R: Read>(
                 ),
             )
         })?;
-        let tide = num(3, "tide_above_chart_datum_m")?;
+        let tide = num(3, "tide_m")?;
         if tide.is_none() != matches!(status, CorrectorStatus::Missing | CorrectorStatus::Flagged) {
             return Err(IoError::content(
-                at("tide_above_chart_datum_m"),
+                at("tide_m"),
                 "a tide must be given exactly when the status is neither 'missing' nor 'flagged'",
             ));
         }

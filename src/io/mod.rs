@@ -5,7 +5,9 @@
 //! * [`gauge_csv`] — gauge water-level records.
 //! * [`zoning_geojson`] — zonings in GeoJSON.
 //! * [`soundings`] — sounding files, streamed in chunks of lines.
-//! * [`timefmt`] — time parsing to UTC seconds.
+//! * [`timefmt`] — times: parsing to UTC seconds, and the written forms (data and messages).
+//! * [`numfmt`] — numbers as the outputs write them: the decimal rules, fixed-decimal writing.
+//! * [`text`] — the words of the core's reasons (no level, QC evidence, comparison findings).
 //! * [`correctors_file`] — tide-correction files (per zone, per sounding) and their sidecar.
 //! * [`crs`] — coordinate transformations (PROJ).
 //! * [`report_html`] — the QA report page (HTML + SVG).
@@ -20,9 +22,11 @@ pub mod correctors_file;
 pub mod crs;
 pub mod error;
 pub mod gauge_csv;
+pub mod numfmt;
 pub mod project;
 pub mod qc_svg;
 pub mod report_html;
 pub mod soundings;
+pub mod text;
 pub mod timefmt;
 pub mod zoning_geojson;

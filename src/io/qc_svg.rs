@@ -181,8 +181,8 @@ pub fn render_qc_svg(p: &QcPlot) -> String {
         r##"<rect x="{ml}" y="{mt}" width="{pw}" height="{ph}" fill="none" stroke="#888"/><text x="{0}" y="{1}" text-anchor="middle" fill="#222">time (UTC), {2} to {3}</text><text transform="translate(16 {4}) rotate(-90)" text-anchor="middle" fill="#222">{5}</text>"##,
         ml + pw / 2.0,
         h - 12.0,
-        crate::compute::utc_label(t0),
-        crate::compute::utc_label(t1),
+        crate::io::timefmt::utc_label(t0),
+        crate::io::timefmt::utc_label(t1),
         mt + ph / 2.0,
         if p.levels_above_datum {
             "level above chart datum (m)"

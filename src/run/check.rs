@@ -17,11 +17,11 @@ use geo::{
 use serde::Serialize;
 
 use super::load::{load, locator_for_crs};
-use crate::compute::utc_label;
 use crate::io::crs::Transformer;
 use crate::io::error::{Finding, Position, Severity};
 use crate::io::project::Project;
 use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
+use crate::io::timefmt::utc_label;
 
 /// Overlaps smaller than this are reported as warnings (rounding slivers), larger as errors.
 pub const OVERLAP_ERROR_M2: f64 = 1.0;

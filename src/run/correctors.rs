@@ -14,11 +14,12 @@ use crate::compute::correctors::{
 };
 use crate::io::atomic::write_atomic;
 use crate::io::correctors_file::{
-    push_zone_rows, read_correction_file, sha256_file, sounding_corrections, CorrectionFile,
-    CORRECTORS_FORMAT, LINE_CORRECTOR_COLUMNS, ZONE_CORRECTOR_COLUMNS,
+    push_line_row, push_zone_rows, read_correction_file, sha256_file, sounding_corrections,
+    CorrectionFile, CORRECTORS_FORMAT, LINE_CORRECTOR_COLUMNS, ZONE_CORRECTOR_COLUMNS,
 };
 use crate::io::error::{IoError, Position};
 use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
+use crate::io::timefmt::utc_time;
 
 /// Name of the per-zone corrector file.
 pub const ZONE_FILE: &str = "correctors-zones.csv";
@@ -93,23 +94,12 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
                     status: crate::compute::correctors::CorrectorStatus::Missing,
                 },
             };
-            use std::fmt::Write;
-            crate::io::soundings::push_csv_field_string(&mut text, line);
-            let _ = write!(text, ",{},", crate::compute::utc_label(t));
-            if let Some(z) = zone {
-                text.push_str(&loaded.zones[z].id);
-            }
-            text.push(',');
-            if let Some(v) = c.tide_m {
-                let _ = write!(text, "{v}");
-            }
-            text.push(',');
-            if let Some(u) = c.u_tide_m {
-                let _ = write!(text, "{u:.4}");
-            }
-            text.push(',');
-            text.push_str(c.status.as_str());
-            text.push('\n');
+            push_line_row(
+                &mut text,
+                line,
+                zone.map(|z| loaded.zones[z].id.as_str()),
+                &c,
+            );
         }
     }
     Ok((text, lines.len()))
@@ -286,7 +276,7 @@ fn provenance(
             serde_json::json!({
                 "zone": z.id,
                 "mean_level_form": z.mean_level.label(),
-                "zone_mean_level_above_datum_m": match z.mean_level {
+                "mean_level_above_datum_m": match z.mean_level {
                     crate::compute::zoning::MeanLevelForm::ZoneMean { zone_mean_level_above_datum_m } => Some(zone_mean_level_above_datum_m),
                     _ => None,
                 },
@@ -307,7 +297,7 @@ fn provenance(
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_default(),
         ebbwise_version: env!("CARGO_PKG_VERSION"),
-        created_utc: chrono::Utc::now().format("%Y-%m-%dT%H:%M:%SZ").to_string(),
+        created_utc: utc_time(chrono::Utc::now().timestamp_millis() as f64 / 1000.0),
         project_file: p.path.display().to_string(),
         inputs,
         zoning: serde_json::json!({
@@ -326,7 +316,7 @@ fn provenance(
                     "zero_above_datum_m": g.zero_above_datum_m,
                     "mean_level_above_datum_m": g.mean_level_above_datum_m,
                     "max_gap_min": g.max_gap_min,
-                    "level_above_chart_datum": "reading converted to metres + zero_above_datum_m",
+                    "tide_m_from_reading": "reading converted to metres + zero_above_datum_m",
                 })
             })
             .collect(),
@@ -420,10 +410,7 @@ pub fn write_correctors(
     let mut written = vec![write_atomic(&zone_path, text.as_bytes())?];
     let mut prov = provenance(loaded, "per_zone", &zone_path, &[])?;
     prov.step_min = Some(opts.step_min);
-    prov.span_utc = Some((
-        crate::compute::utc_label(from),
-        crate::compute::utc_label(from + (n - 1) as f64 * step_s),
-    ));
+    prov.span_utc = Some((utc_time(from), utc_time(from + (n - 1) as f64 * step_s)));
     prov.columns = column_meanings(&ZONE_CORRECTOR_COLUMNS);
     written.push(write_sidecar(&zone_path, &prov)?);
     if opts.per_line {
@@ -495,9 +482,9 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
         .map(|c| {
             let m = match *c {
                 "zone" => "zone id of the zoning",
-                "time_utc" => "ISO 8601 time, UTC",
-                "tide_above_chart_datum_m" => "water level above chart datum, metres, positive up; empty when missing",
-                "u_tide_m" => "standard uncertainty (1 sigma) of the tide, metres; empty when not computed",
+                "time_utc" => "ISO 8601 time, UTC, to the millisecond (to the microsecond when a sounding's time is finer)",
+                "tide_m" => "tide: water level above chart datum, metres, positive up, 4 decimals; empty when missing",
+                "u_tide_m" => "standard uncertainty (1 sigma) of the tide, metres, 4 decimals; empty when not computed",
                 "status" => "observed | interpolated | gap_filled | missing | flagged (per zone); the sounding's status (per sounding)",
                 "line" => "survey line",
                 "source_file" => "soundings file the row comes from",

@@ -1,7 +1,7 @@
 //! `ebbwise analyse` and `ebbwise predict`: harmonic analysis of a gauge record into a constants file,
 //! and prediction from one.
 
-use std::fmt::Write as _;
+use std::io::Write as _;
 use std::path::{Path, PathBuf};
 
 use super::load::prepare_series;
@@ -9,10 +9,12 @@ use crate::compute::harmonic::{
     analyse, high_low_waters, predict_grid, Analysis, AnalysisSettings, HighLowWater,
 };
 use crate::io::atomic::{Sink, SinkWriter};
-use crate::io::constants::{read_constants, ConstantsFile};
+use crate::io::constants::{read_constants, ConstantsFile, LEVELS_CHART_DATUM, LEVELS_RECORD_ZERO};
 use crate::io::error::IoError;
 use crate::io::gauge_csv::read_gauge_record;
+use crate::io::numfmt::{push_fixed, HEIGHT_DECIMALS};
 use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
+use crate::io::timefmt::push_utc_bytes;
 
 /// What `ebbwise analyse` did.
 #[derive(Debug)]
@@ -83,6 +85,18 @@ pub fn analyse_gauge(
     })
 }
 
+/// The name of the predicted level's column, by what the constants' levels are above:
+/// `predicted_tide_m` above chart datum (the tide, as `tide_m` everywhere),
+/// `predicted_level_above_record_zero_m` above the record's zero, and `predicted_level_m` when
+/// the constants file does not say.
+pub fn predicted_column(levels: Option<&str>) -> &'static str {
+    match levels {
+        Some(LEVELS_CHART_DATUM) => "predicted_tide_m",
+        Some(LEVELS_RECORD_ZERO) => "predicted_level_above_record_zero_m",
+        _ => "predicted_level_m",
+    }
+}
+
 /// What `ebbwise predict` did.
 #[derive(Debug)]
 pub struct PredictOutcome {
@@ -150,22 +164,15 @@ pub fn predict_to(
     let h = predict_grid(&k, t0_s, step_s, n);
     let ex = high_low_waters(&k, t0_s, step_s, &h);
     let compute_s = clock.elapsed().as_secs_f64();
-    let whole_seconds = step_s.fract() == 0.0 && t0_s.fract() == 0.0;
+    let level_col = predicted_column(file.levels.as_deref());
     let mut f = SinkWriter::open(out, &[constants])?;
     let mut buf: Vec<u8> = Vec::with_capacity(1 << 21);
-    buf.extend_from_slice(b"time_utc,predicted_level_m\n");
-    let mut label = String::with_capacity(32);
+    let _ = writeln!(buf, "time_utc,{level_col}");
     for (i, v) in h.iter().enumerate() {
         let t = t0_s + i as f64 * step_s;
-        label.clear();
-        if whole_seconds {
-            crate::compute::push_utc_seconds(&mut label, t as i64);
-        } else {
-            label.push_str(&crate::compute::utc_label(t));
-        }
-        buf.extend_from_slice(label.as_bytes());
+        push_utc_bytes(&mut buf, t);
         buf.push(b',');
-        crate::compute::fixed::push_fixed(&mut buf, *v, 4);
+        push_fixed(&mut buf, *v, HEIGHT_DECIMALS);
         buf.push(b'\n');
         if buf.len() > 1 << 20 {
             f.write_all(&buf)?;
@@ -174,18 +181,17 @@ pub fn predict_to(
     }
     f.write_all(&buf)?;
     let mut written: Vec<PathBuf> = f.finish()?.into_iter().collect();
-    let mut e = String::from("time_utc,predicted_level_m,kind\n");
+    let mut e: Vec<u8> = Vec::with_capacity(64 * ex.len() + 64);
+    let _ = writeln!(e, "time_utc,{level_col},kind");
     for x in &ex {
-        let _ = writeln!(
-            e,
-            "{},{:.4},{}",
-            crate::compute::utc_label((x.t_s).round()),
-            x.height_m,
-            if x.high { "high" } else { "low" }
-        );
+        // A turning point's time is rounded to the millisecond, the rule of every written time.
+        push_utc_bytes(&mut e, (x.t_s * 1000.0).round() / 1000.0);
+        e.push(b',');
+        push_fixed(&mut e, x.height_m, HEIGHT_DECIMALS);
+        e.extend_from_slice(if x.high { b",high\n" } else { b",low\n" });
     }
     let mut f = SinkWriter::open(high_low_waters_out, &[constants])?;
-    f.write_all(e.as_bytes())?;
+    f.write_all(&e)?;
     written.extend(f.finish()?);
     Ok(PredictOutcome {
         n,

@@ -293,13 +293,13 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     for (g, r) in project.spec.gauges.iter().zip(&records) {
         let prepared = prepare_series(&project.spec.qc, &project.spec.interpolation, g, r);
         if let Some(q) = &prepared.qc {
-            use crate::compute::qc::QcFlag;
+            use crate::compute::qc::{QcFlag, QcReason};
             let mut shown = 0;
             for (i, f) in q.flags.iter().enumerate() {
                 let later = q
                     .notes_of(i)
                     .iter()
-                    .any(|n| n.flag == QcFlag::TimeOrder && n.detail.contains("later than"));
+                    .any(|n| matches!(n.reason, QcReason::LaterThanNext { .. }));
                 let what = if f.contains(QcFlag::DuplicateTime) {
                     "is duplicated"
                 } else if f.contains(QcFlag::TimeOrder) && later {
@@ -319,7 +319,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                         .field(&g.time_column),
                     format!(
                         "time '{}' {what}: quality control sets the sample aside",
-                        crate::compute::utc_label(r.times_s[i])
+                        crate::io::timefmt::utc_label(r.times_s[i])
                     ),
                 ));
             }
@@ -404,6 +404,7 @@ pub struct GaugeMethod {
     /// `linear` or `natural_cubic_spline`.
     pub interpolation: &'static str,
     /// Nominal step of the record, minutes.
+    #[serde(serialize_with = "crate::io::numfmt::ser_minutes")]
     pub nominal_step_min: f64,
     /// Low-pass cut-off period, minutes, when filtered.
     pub lowpass_cutoff_min: Option<f64>,

@@ -8,8 +8,8 @@ use super::load::Loaded;
 use super::reduce::RunSummary;
 use crate::compute::qa::{summarise_group, GroupSummary, RATIO_BINS, RATIO_BIN_WIDTH};
 use crate::compute::uncertainty::{tide_budget, SurveyOrder, K95};
-use crate::compute::utc_label;
 use crate::io::crs::Transformer;
+use crate::io::timefmt::utc_label;
 
 /// Identifier of the report layout; changes only when a field changes meaning or goes away.
 pub const QA_SCHEMA: &str = "ebbwise-qa-report/1";

@@ -20,26 +20,46 @@ use super::load::{prepare_series, GaugeMethod, Loaded};
 use crate::compute::compare::{compare, CompareSettings, Comparison, Prediction};
 use crate::compute::locate::ZoneLocator;
 use crate::compute::qc::{QcFlag, QcResult};
-use crate::compute::utc_label;
 use crate::compute::zoning::{GaugeFeed, Zone};
 use crate::io::atomic::{write_atomic, AtomicFile};
 use crate::io::error::IoError;
 use crate::io::gauge_csv::GaugeRecord;
+use crate::io::numfmt::{push_fixed_str, HEIGHT_DECIMALS};
 use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
 use crate::io::qc_svg::{render_qc_svg, QcPlot};
+use crate::io::timefmt::{push_utc, utc_time};
 
 /// Layout name of `qc-summary.json`.
-pub const QC_SCHEMA: &str = "ebbwise-qc-summary/1";
+pub const QC_SCHEMA: &str = "ebbwise-qc-summary/2";
+
+/// Name of the level column (and field) when levels are above chart datum: the tide.
+pub const TIDE_COLUMN: &str = "tide_m";
+
+/// Name of the level column (and field) when the record's datum relation is not known.
+pub const RECORD_ZERO_COLUMN: &str = "level_above_record_zero_m";
+
+/// Columns of `gauge-differences.csv`: the pair, the time of `a`'s sample, `a − b` in metres.
+pub const DIFFERENCE_COLUMNS: [&str; 3] = ["pair", "time_utc", "difference_m"];
 
 /// One flagged sample, for the summary.
 #[derive(Debug, Clone, Serialize)]
 pub struct FlaggedSample {
     /// Line in the record file.
     pub line: u64,
-    /// Sample time, UTC.
+    /// Sample time, UTC (ISO 8601, to the millisecond).
     pub time_utc: String,
-    /// Level above chart datum, metres.
-    pub level_above_datum_m: f64,
+    /// Water level above chart datum, metres, when the record's datum relation is known.
+    #[serde(
+        skip_serializing_if = "Option::is_none",
+        serialize_with = "crate::io::numfmt::ser_opt_height"
+    )]
+    pub tide_m: Option<f64>,
+    /// Level above the record's zero, metres, when the datum relation is not known.
+    #[serde(
+        skip_serializing_if = "Option::is_none",
+        serialize_with = "crate::io::numfmt::ser_opt_height"
+    )]
+    pub level_above_record_zero_m: Option<f64>,
     /// The flag.
     pub flag: &'static str,
     /// Why.
@@ -62,10 +82,13 @@ pub struct GaugeQcSummary {
     /// Rows whose own quality flag was not good, not samples.
     pub rows_flagged_in_file: usize,
     /// Nominal step, minutes.
+    #[serde(serialize_with = "crate::io::numfmt::ser_minutes")]
     pub nominal_step_min: f64,
     /// Robust standard deviation of the spike residual, metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_uncertainty")]
     pub robust_sigma_m: f64,
     /// Noise of the readings (robust, from second differences), metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_uncertainty")]
     pub noise_sigma_m: f64,
     /// Samples per flag (every flag listed).
     pub flags: BTreeMap<&'static str, usize>,
@@ -89,25 +112,41 @@ pub struct ComparisonSummary {
     /// Differences computed.
     pub n: usize,
     /// Mean of `a − b`, metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_height")]
     pub mean_m: f64,
     /// Standard deviation, metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_uncertainty")]
     pub std_m: f64,
     /// Largest |a − b|, metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_height")]
     pub max_abs_m: f64,
     /// When, UTC.
     pub max_abs_at_utc: String,
     /// Trend, metres per day.
+    #[serde(serialize_with = "crate::io::numfmt::ser_height")]
     pub drift_m_per_day: f64,
     /// Extra time corrector on `b` that aligns the two best, minutes.
+    #[serde(serialize_with = "crate::io::numfmt::ser_minutes")]
     pub best_lag_min: f64,
     /// Standard deviation at that lag, metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_uncertainty")]
     pub std_at_best_lag_m: f64,
-    /// Step found in the difference: (UTC time, metres).
-    pub step: Option<(String, f64)>,
+    /// Step found in the difference.
+    pub step: Option<StepSummary>,
     /// Whether the pair is flagged.
     pub flagged: bool,
     /// Why.
     pub findings: Vec<String>,
+}
+
+/// A step found in a difference series, for the summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct StepSummary {
+    /// Time of the first difference after the step, UTC (ISO 8601, to the millisecond).
+    pub time_utc: String,
+    /// Size of the step (after − before), metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_height")]
+    pub size_m: f64,
 }
 
 /// The whole QC run.
@@ -199,33 +238,26 @@ pub fn write_gauge_qc(
     let mut f = AtomicFile::create(&csv_path, &[&g.record])?;
     let mut text = String::with_capacity(r.times_s.len() * 48 + 64);
     let level_col = if levels_above_datum {
-        "level_above_datum_m"
+        TIDE_COLUMN
     } else {
-        "level_above_record_zero_m"
+        RECORD_ZERO_COLUMN
     };
     let _ = writeln!(text, "line,time_utc,{level_col},qc_flags,qc_detail");
     // Samples and the rows that are not samples (no reading, flagged in the file), by line.
     let mut skipped = r.skipped_rows.iter().peekable();
-    let mut level: Vec<u8> = Vec::with_capacity(24);
     for i in 0..r.times_s.len() {
         while let Some(&&(line, t, why)) = skipped.peek() {
             if line > r.lines[i] {
                 break;
             }
-            let _ = writeln!(text, "{line},{},,{why},", utc_label(t));
+            let _ = writeln!(text, "{line},{},,{why},", utc_time(t));
             skipped.next();
         }
         let _ = write!(text, "{},", r.lines[i]);
         let t = r.times_s[i];
-        if t.fract() == 0.0 {
-            crate::compute::push_utc_seconds(&mut text, t as i64);
-        } else {
-            text.push_str(&utc_label(t));
-        }
+        push_utc(&mut text, t);
         text.push(',');
-        level.clear();
-        crate::compute::fixed::push_fixed(&mut level, r.heights_m[i], 4);
-        text.push_str(std::str::from_utf8(&level).unwrap_or(""));
+        push_fixed_str(&mut text, r.heights_m[i], HEIGHT_DECIMALS);
         text.push(',');
         text.push_str(&q.flags[i].label());
         text.push(',');
@@ -233,7 +265,7 @@ pub fn write_gauge_qc(
         if !notes.is_empty() {
             let d: Vec<String> = notes
                 .iter()
-                .map(|n| format!("{}: {}", n.flag.as_str(), n.detail))
+                .map(|n| format!("{}: {}", n.flag.as_str(), n.reason))
                 .collect();
             crate::io::soundings::push_csv_field_string(&mut text, &d.join("; "));
         }
@@ -244,7 +276,7 @@ pub fn write_gauge_qc(
         }
     }
     for &(line, t, why) in skipped {
-        let _ = writeln!(text, "{line},{},,{why},", utc_label(t));
+        let _ = writeln!(text, "{line},{},,{why},", utc_time(t));
     }
     f.write_all(text.as_bytes())?;
     let csv_path = f.commit()?;
@@ -276,10 +308,11 @@ pub fn write_gauge_qc(
         })
         .map(|n| FlaggedSample {
             line: r.lines[n.sample],
-            time_utc: utc_label(r.times_s[n.sample]),
-            level_above_datum_m: (r.heights_m[n.sample] * 1e4).round() / 1e4,
+            time_utc: utc_time(r.times_s[n.sample]),
+            tide_m: levels_above_datum.then_some(r.heights_m[n.sample]),
+            level_above_record_zero_m: (!levels_above_datum).then_some(r.heights_m[n.sample]),
             flag: n.flag.as_str(),
-            detail: n.detail.clone(),
+            detail: n.reason.to_string(),
         })
         .collect();
     Ok(GaugeQcSummary {
@@ -530,15 +563,16 @@ pub fn qc_project(
             .collect()
     };
     let mut comparisons = Vec::new();
-    let mut diff_text = String::from("pair,time_utc,difference_m\n");
+    let mut diff_text = DIFFERENCE_COLUMNS.join(",");
+    diff_text.push('\n');
     for (name, c) in &results {
         let Some(c) = c else { continue };
         for (t, d) in c.times_s.iter().zip(&c.diff_m) {
-            diff_text.push_str(name);
+            crate::io::soundings::push_csv_field_string(&mut diff_text, name);
             diff_text.push(',');
-            diff_text.push_str(&utc_label(*t));
+            push_utc(&mut diff_text, *t);
             diff_text.push(',');
-            let _ = write!(diff_text, "{d:.4}");
+            push_fixed_str(&mut diff_text, *d, HEIGHT_DECIMALS);
             diff_text.push('\n');
         }
         comparisons.push(ComparisonSummary {
@@ -549,13 +583,16 @@ pub fn qc_project(
             mean_m: c.mean_m,
             std_m: c.std_m,
             max_abs_m: c.max_abs_m,
-            max_abs_at_utc: utc_label(c.max_abs_at_s),
+            max_abs_at_utc: utc_time(c.max_abs_at_s),
             drift_m_per_day: c.drift_m_per_day,
             best_lag_min: c.best_lag_min,
             std_at_best_lag_m: c.std_at_best_lag_m,
-            step: c.step.map(|s| (utc_label(s.at_s), s.size_m)),
+            step: c.step.map(|s| StepSummary {
+                time_utc: utc_time(s.at_s),
+                size_m: s.size_m,
+            }),
             flagged: !c.findings.is_empty(),
-            findings: c.findings.clone(),
+            findings: c.findings.iter().map(|f| f.to_string()).collect(),
         });
     }
     let comparisons_note = if plans.is_empty() {

@@ -13,7 +13,6 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::load::{locator_for_crs, Loaded};
-use crate::compute::fixed::push_fixed;
 use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
     reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel, TideOutcome, N_STATUS,
@@ -22,6 +21,7 @@ use crate::compute::uncertainty::{tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
+use crate::io::numfmt::{push_fixed, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use crate::io::project::{Delimiter, SoundingsSpec};
 use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
 
@@ -50,12 +50,6 @@ pub const UNCERTAINTY_COLUMNS: [&str; 11] = [
     "allowed_u95_tvu_m",
     "within_order",
 ];
-
-/// Decimals written for tide and depths in metres (0.1 mm).
-pub const METRE_DECIMALS: u32 = 4;
-
-/// Decimals written for uncertainties in metres (1 mm).
-pub const UNCERTAINTY_DECIMALS: u32 = 3;
 
 /// Chunks processed per parallel batch, per worker thread.
 const CHUNKS_PER_THREAD: usize = 3;
@@ -697,9 +691,9 @@ fn write_reduced_tail(
     }
     b.push(b',');
     if let Some((t, d)) = tide {
-        push_fixed(b, t, METRE_DECIMALS);
+        push_fixed(b, t, HEIGHT_DECIMALS);
         b.push(b',');
-        push_fixed(b, d, METRE_DECIMALS);
+        push_fixed(b, d, HEIGHT_DECIMALS);
     } else {
         b.push(b',');
     }
@@ -741,7 +735,7 @@ fn write_corrector_row(
         Some((t, l)) => {
             push_csv_field(b, l);
             b.push(b',');
-            b.extend_from_slice(utc_label_micros(*t).as_bytes());
+            crate::io::timefmt::push_utc_bytes(b, *t);
         }
         None => {
             let raw_line = ctx
@@ -761,9 +755,7 @@ fn write_corrector_row(
     }
     b.push(b',');
     if let Some((t, _)) = tide {
-        // Shortest text that reads back to the same number: applying the file gives exactly
-        // the direct reduction.
-        let _ = write!(b, "{t}");
+        push_fixed(b, t, HEIGHT_DECIMALS);
     }
     b.push(b',');
     if let Some((vals, _)) = unc_cols {
@@ -772,15 +764,6 @@ fn write_corrector_row(
     b.push(b',');
     b.extend_from_slice(status.as_str().as_bytes());
     b.push(b'\n');
-}
-
-/// ISO 8601 UTC with microseconds, as written in per-sounding corrector files.
-pub fn utc_label_micros(t_s: f64) -> String {
-    let micros = (t_s * 1e6).round() as i64;
-    match chrono::DateTime::from_timestamp_micros(micros) {
-        Some(dt) => dt.format("%Y-%m-%dT%H:%M:%S%.6fZ").to_string(),
-        None => format!("{t_s}"),
-    }
 }
 
 fn add_counts(acc: &mut [u64; N_STATUS], add: &[u64; N_STATUS]) {
@@ -966,7 +949,7 @@ fn process_chunk(
                                 detail,
                                 "gauge '{}' has no level at {}: {}",
                                 ctx.gauge_ids[why.gauge],
-                                crate::compute::utc_label(why.at_s),
+                                crate::io::timefmt::utc_label(why.at_s),
                                 why.why
                             );
                             if matches!(why.why, crate::compute::series::NoLevel::Flagged { .. }) {

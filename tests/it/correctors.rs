@@ -84,9 +84,31 @@ fn round_trip_through_correction_files() {
         ]);
         assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
         let via = d.path().join(format!("sound/{name}.applied.csv"));
-        for c in ["reduced_depth_m", "tide_m", "status", "zone"] {
+        for c in ["tide_m", "status", "zone"] {
             assert_eq!(column(&direct, c), column(&via, c), "{name}: column {c}");
         }
+        // The file's tide has 4 decimals, like the reduced file's: `apply` subtracts the written
+        // tide T = round(t), the direct reduction the unrounded t, each rounded to 4 decimals
+        // after. For a depth d with at most 4 decimals, d − T lies on the 0.1-mm grid and
+        // |t − T| ≤ 0.05 mm, so round(d − t) = d − T except where t − T is a rounding tie: the
+        // depths agree or differ by one unit, 0.0001 m.
+        let (a, b) = (
+            column(&direct, "reduced_depth_m"),
+            column(&via, "reduced_depth_m"),
+        );
+        let mut differ = 0;
+        for (x, y) in a.iter().zip(&b) {
+            assert_eq!(x.is_empty(), y.is_empty(), "{name}: {x} / {y}");
+            if x != y {
+                differ += 1;
+                let d = (x.parse::<f64>().unwrap() - y.parse::<f64>().unwrap()).abs();
+                assert!((d - 0.0001).abs() < 1e-9, "{name}: {x} / {y}");
+            }
+        }
+        eprintln!(
+            "{name}: per-sounding file: {differ} of {} reduced depths differ by 0.0001 m (rounding ties)",
+            a.len()
+        );
     }
 }
 
@@ -109,7 +131,7 @@ fn sidecar_hashes_every_input_and_changes_with_it() {
         v
     };
     let a = run("a");
-    assert_eq!(a["format"], "ebbwise-tide-correctors/1");
+    assert_eq!(a["format"], "ebbwise-tide-correctors/2");
     assert_eq!(a["kind"], "per_zone");
     let roles: Vec<&str> = a["inputs"]
         .as_array()
@@ -123,7 +145,12 @@ fn sidecar_hashes_every_input_and_changes_with_it() {
         a["zoning"]["zones"][1]["feeds"][0]["time_corrector_min"],
         6.0
     );
-    assert!(a["created_utc"].as_str().unwrap().ends_with('Z'));
+    // ISO 8601 UTC to the millisecond, the form of every written time.
+    let created = a["created_utc"].as_str().unwrap();
+    assert!(
+        created.len() == 24 && created.ends_with('Z') && &created[19..20] == ".",
+        "{created}"
+    );
     // The hash of the gauge record equals an independent SHA-256 (FIPS 180-4) of the file:
     // checked against the standard's "abc" example first.
     let abc = p.path("abc.txt");
@@ -165,23 +192,14 @@ fn a_span_without_gauge_data_gives_missing_rows_never_values() {
     ]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let (h, rows) = read_csv(&p.path("c/correctors-zones.csv"));
-    assert_eq!(
-        h,
-        [
-            "zone",
-            "time_utc",
-            "tide_above_chart_datum_m",
-            "u_tide_m",
-            "status"
-        ]
-    );
+    assert_eq!(h, ["zone", "time_utc", "tide_m", "u_tide_m", "status"]);
     let z1: Vec<_> = rows.iter().filter(|r| r[0] == "Z1").collect();
     assert_eq!(z1.len(), 53, "23:50 to 04:10 every 5 min: 260 min / 5 + 1");
     for r in &z1 {
         let t = &r[1];
-        let missing = t.as_str() < "2026-06-14T00:00:00Z"
-            || (t.as_str() > "2026-06-14T02:00:00Z" && t.as_str() < "2026-06-14T03:00:00Z")
-            || t.as_str() > "2026-06-14T04:00:00Z";
+        let missing = t.as_str() < "2026-06-14T00:00:00.000Z"
+            || (t.as_str() > "2026-06-14T02:00:00.000Z" && t.as_str() < "2026-06-14T03:00:00.000Z")
+            || t.as_str() > "2026-06-14T04:00:00.000Z";
         if missing {
             assert_eq!((r[2].as_str(), r[4].as_str()), ("", "missing"), "{r:?}");
         } else {
@@ -189,11 +207,17 @@ fn a_span_without_gauge_data_gives_missing_rows_never_values() {
         }
     }
     // Z1 at 00:30 is a gauge sample (Δt 0): observed, 2.0 + 0.030 = 2.03 m.
-    let r = z1.iter().find(|r| r[1] == "2026-06-14T00:30:00Z").unwrap();
-    assert!((r[2].parse::<f64>().unwrap() - 2.03).abs() < 1e-12, "{r:?}");
+    let r = z1
+        .iter()
+        .find(|r| r[1] == "2026-06-14T00:30:00.000Z")
+        .unwrap();
+    assert_eq!(r[2], "2.0300", "{r:?}");
     assert_eq!(r[4], "observed");
     // Z1 at 00:10 lies between samples 00:06 and 00:12: interpolated.
-    let r = z1.iter().find(|r| r[1] == "2026-06-14T00:10:00Z").unwrap();
+    let r = z1
+        .iter()
+        .find(|r| r[1] == "2026-06-14T00:10:00.000Z")
+        .unwrap();
     assert_eq!(r[4], "interpolated");
     assert!(stderr(&o).contains("u_tide_m left empty"));
 }
@@ -245,9 +269,9 @@ fn per_sounding_rows_sharing_line_and_time_are_refused() {
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
     p.write(
         "c.csv",
-        "line,time_utc,source_file,source_line,zone,tide_above_chart_datum_m,u_tide_m,status\n\
-         L1,2026-06-14T01:00:00.000000Z,s.csv,2,Z1,2.06,,reduced\n\
-         L1,2026-06-14T01:00:00.000000Z,s.csv,3,Z2,1.47,,reduced\n",
+        "line,time_utc,source_file,source_line,zone,tide_m,u_tide_m,status\n\
+         L1,2026-06-14T01:00:00.000Z,s.csv,2,Z1,2.0600,,reduced\n\
+         L1,2026-06-14T01:00:00.000Z,s.csv,3,Z2,1.4700,,reduced\n",
     );
     let o = ebbwise(&[
         "apply",
@@ -295,14 +319,7 @@ fn per_line_series_round_trip() {
     let (h, rows) = read_csv(&d.path().join("corr/correctors-lines.csv"));
     assert_eq!(
         h,
-        [
-            "line",
-            "time_utc",
-            "zone",
-            "tide_above_chart_datum_m",
-            "u_tide_m",
-            "status"
-        ]
+        ["line", "time_utc", "zone", "tide_m", "u_tide_m", "status"]
     );
     assert!(rows.iter().any(|r| r[0] == "A-001") && rows.iter().any(|r| r[0] == "B-001"));
     let o = ebbwise(&[
@@ -371,4 +388,62 @@ fn apply_warns_when_the_inputs_changed_since_the_correction_file_was_made() {
     std::fs::remove_file(p.path("c/correctors-zones.csv.json")).unwrap();
     let o = ebbwise(&["apply", &file, "--project", &p.project()]);
     assert!(stderr(&o).contains("has no sidecar"), "{}", stderr(&o));
+}
+
+#[test]
+fn per_sounding_times_keep_their_precision_and_find_their_rows() {
+    // Two soundings 0.25 ms apart on one line, and one on a whole millisecond: the key of each
+    // must read back to its own microsecond, or `apply` would find the wrong row or none.
+    let p = MiniProject::new(
+        "time,lon,lat,depth,line\n\
+         2026-06-14T01:00:00.000250Z,10.005,50.005,10.0,L1\n\
+         2026-06-14T01:00:00.0005Z,10.015,50.005,10.0,L1\n\
+         2026-06-14T01:00:00.5Z,10.005,50.005,10.0,L1\n",
+    );
+    let o = ebbwise(&[
+        "correctors",
+        &p.project(),
+        "--out",
+        &p.path("c").to_string_lossy(),
+        "--per-sounding",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert_eq!(
+        column(&p.path("c/s.correctors.csv"), "time_utc"),
+        [
+            "2026-06-14T01:00:00.000250Z",
+            "2026-06-14T01:00:00.000500Z",
+            "2026-06-14T01:00:00.500Z"
+        ]
+    );
+    let o = ebbwise(&[
+        "apply",
+        &p.path("c/s.correctors.csv").to_string_lossy(),
+        "--project",
+        &p.project(),
+        "--out",
+        &p.path("a").to_string_lossy(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = ebbwise(&[
+        "reduce",
+        &p.project(),
+        "--out",
+        &p.path("r").to_string_lossy(),
+        "--no-progress",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    // Z1 (Δt 0, R 1) and Z2 (Δt +6 min, R 0.5, zone mean 1.5 m) differ in tide, so a sounding
+    // given the other's row would show it.
+    for c in ["zone", "tide_m", "status"] {
+        assert_eq!(
+            column(&p.path("a/s.applied.csv"), c),
+            column(&p.path("r/s.reduced.csv"), c),
+            "{c}"
+        );
+    }
+    assert_eq!(
+        column(&p.path("a/s.applied.csv"), "zone"),
+        ["Z1", "Z2", "Z1"]
+    );
 }

@@ -886,7 +886,9 @@ fn analyse_then_predict_through_the_command_line() {
     ]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let (hdr, rows) = read_csv(&series);
-    assert_eq!(hdr, vec!["time_utc", "predicted_level_m"]);
+    // Constants from a record without a datum relation: the levels are above the record's zero,
+    // and the column says so (not `predicted_tide_m`, which is above chart datum).
+    assert_eq!(hdr, vec!["time_utc", "predicted_level_above_record_zero_m"]);
     assert_eq!(rows.len(), 241);
     let t0 = 1_781_395_200.0; // 2026-06-14T00:00:00Z
     for (i, r) in rows.iter().enumerate().step_by(20) {
@@ -896,8 +898,12 @@ fn analyse_then_predict_through_the_command_line() {
             "row {i}"
         );
     }
-    assert_eq!(rows[0][0], "2026-06-14T00:00:00Z");
-    let (_, ex) = read_csv(&ext);
+    assert_eq!(rows[0][0], "2026-06-14T00:00:00.000Z");
+    let (ex_hdr, ex) = read_csv(&ext);
+    assert_eq!(
+        ex_hdr,
+        vec!["time_utc", "predicted_level_above_record_zero_m", "kind"]
+    );
     assert!(ex.len() >= 3, "{}", ex.len());
     for w in ex.windows(2) {
         assert_ne!(w[0][2], w[1][2], "high and low alternate");

@@ -137,16 +137,7 @@ fn comparison<'a>(s: &'a serde_json::Value, pair: &str) -> &'a serde_json::Value
 /// Flags per file line of a `<gauge>.qc.csv`, only for lines with a flag.
 fn flagged_lines(path: &Path) -> BTreeMap<u64, String> {
     let (h, rows) = read_csv(path);
-    assert_eq!(
-        h,
-        [
-            "line",
-            "time_utc",
-            "level_above_datum_m",
-            "qc_flags",
-            "qc_detail"
-        ]
-    );
+    assert_eq!(h, ["line", "time_utc", "tide_m", "qc_flags", "qc_detail"]);
     rows.iter()
         .filter(|r| !col(&h, r, "qc_flags").is_empty())
         .map(|r| {
@@ -281,9 +272,9 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
         .iter()
         .find(|r| col(&h, r, "line") == spike_line.to_string())
         .unwrap();
-    let level: f64 = col(&h, spike_row, "level_above_datum_m").parse().unwrap();
+    let level: f64 = col(&h, spike_row, "tide_m").parse().unwrap();
     assert!((level - (rows[k].2 + 0.35)).abs() < 1e-4, "{level}");
-    assert_eq!(col(&h, spike_row, "time_utc"), spike_utc);
+    assert_eq!(ts(col(&h, spike_row, "time_utc")), ts(spike_utc));
     assert!(
         col(&h, spike_row, "qc_detail").starts_with("spike: "),
         "{}",
@@ -306,7 +297,7 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
 
     // The summary's counts equal the flags counted in each CSV.
     let s = summary(out.path());
-    assert_eq!(s["schema"], "ebbwise-qc-summary/1");
+    assert_eq!(s["schema"], "ebbwise-qc-summary/2");
     for g in ["orlick", "pendrath", "skellan"] {
         let (h, rows) = read_csv(&out.path().join(format!("{g}.qc.csv")));
         let mut counts: BTreeMap<String, u64> = BTreeMap::new();
@@ -615,7 +606,7 @@ fn per_zone_correctors_mark_flagged_times() {
         };
         assert_eq!(col(&h, r, "status"), want, "{zone} {}", utc(t));
         assert_eq!(
-            col(&h, r, "tide_above_chart_datum_m").is_empty(),
+            col(&h, r, "tide_m").is_empty(),
             want == "flagged",
             "{zone} {}",
             utc(t)
@@ -935,7 +926,7 @@ fn single_record_qc_finds_the_spike_and_leaves_the_input_alone() {
             BTreeMap::from([(52, "spike".to_string())])
         );
         let (h, rows) = read_csv(&out.join("rec.qc.csv"));
-        let spike_level: f64 = col(&h, &rows[50], "level_above_datum_m").parse().unwrap();
+        let spike_level: f64 = col(&h, &rows[50], "tide_m").parse().unwrap();
         assert!(
             (spike_level - (rec[50].1 + 1.5)).abs() < 1e-4,
             "{spike_level}"

@@ -1,4 +1,4 @@
-//! Fuzz target: the tide-correction file reader (per zone and per sounding).
+//! Fuzz target: the tide-correction file reader (per zone, per sounding and per line).
 #![no_main]
 use libfuzzer_sys::fuzz_target;
 
