@@ -174,9 +174,6 @@ pub struct QaAccumulator {
     pub lines: BTreeMap<String, GroupQa>,
     /// A thinned sample of soundings for the map.
     pub samples: Vec<MapSample>,
-    /// The last line added and its counts, kept out of the map while soundings of one line
-    /// follow each other (they usually do).
-    current_line: Option<(String, GroupQa)>,
 }
 
 impl QaAccumulator {
@@ -190,25 +187,12 @@ impl QaAccumulator {
             zones: vec![(GroupQa::new(n_orders), BudgetQa::default()); n_zones],
             lines: BTreeMap::new(),
             samples: Vec::new(),
-            current_line: None,
         }
     }
 
-    fn park_current_line(&mut self) {
-        if let Some((k, g)) = self.current_line.take() {
-            match self.lines.get_mut(&k) {
-                Some(a) => a.merge(&g),
-                None => {
-                    self.lines.insert(k, g);
-                }
-            }
-        }
-    }
-
-    /// Folds the pending line counts into `lines` and sums the zones into the survey totals
-    /// (every sounding lies in exactly one zone); call before reading `overall` or `lines`.
+    /// Sums the zones into the survey totals (every sounding lies in exactly one zone); call
+    /// before reading `overall`.
     pub fn settle(&mut self) {
-        self.park_current_line();
         let mut overall = GroupQa::new(self.n_orders);
         let mut budget = BudgetQa::default();
         for (g, b) in &self.zones {
@@ -243,9 +227,7 @@ impl QaAccumulator {
     }
 
     /// Merges another accumulator into this one (samples appended in order).
-    pub fn merge(&mut self, mut o: QaAccumulator) {
-        self.park_current_line();
-        o.park_current_line();
+    pub fn merge(&mut self, o: QaAccumulator) {
         for (a, b) in self.zones.iter_mut().zip(&o.zones) {
             a.0.merge(&b.0);
             a.1.merge(&b.1);
