@@ -203,17 +203,23 @@ impl QaAccumulator {
         self.overall_budget = budget;
     }
 
-    /// Adds one reduced sounding: its zone, line, per-order U95/allowed ratios and the
-    /// variance components of u_tvu² (m², [`BUDGET_COMPONENTS`] order).
-    pub fn add(&mut self, zone: usize, line: &str, ratios: &[f64], var_m2: &[f64; 6]) {
-        let chosen_ratio = ratios[self.chosen];
+    /// Adds one reduced sounding: its zone, line, whether it is within each order (the
+    /// per-order [`WrittenVerdict`](super::uncertainty::WrittenVerdict)s' `within`), its
+    /// U95/allowed ratio for the chosen order, and the variance components of u_tvu² (m²,
+    /// [`BUDGET_COMPONENTS`] order).
+    pub fn add(
+        &mut self,
+        zone: usize,
+        line: &str,
+        within: &[bool],
+        chosen_ratio: f64,
+        var_m2: &[f64; 6],
+    ) {
         let bin = ((chosen_ratio / RATIO_BIN_WIDTH) as usize).min(RATIO_BINS - 1);
         let bump = |g: &mut GroupQa| {
             g.n += 1;
-            for (w, r) in g.within.iter_mut().zip(ratios) {
-                if *r <= 1.0 {
-                    *w += 1;
-                }
+            for (w, yes) in g.within.iter_mut().zip(within) {
+                *w += u64::from(*yes);
             }
             g.ratio_hist[bin] += 1;
         };
@@ -249,6 +255,9 @@ impl QaAccumulator {
 pub struct OrderShare {
     /// Order name.
     pub order: String,
+    /// Soundings whose U95 TVU is within the order's limit (as the rows' `within_order` judges
+    /// it for the chosen order).
+    pub soundings_within: u64,
     /// Share of soundings whose U95 TVU is within the order's limit (0–1).
     pub share_within: f64,
     /// Whether the share reaches the acceptance share.
@@ -322,6 +331,7 @@ pub fn summarise_group(
         .enumerate()
         .map(|(k, o)| OrderShare {
             order: o.name.clone(),
+            soundings_within: g.within[k],
             share_within: share(k),
             met: g.n > 0 && share(k) >= acceptance,
         })
@@ -375,11 +385,12 @@ mod tests {
         // exclusive and special).
         for i in 0..100 {
             let r = if i < 96 { 0.5 } else { 1.2 };
-            let ratios = [r, r, 0.52, 0.52, 0.3];
+            let within = [r, r, 0.52, 0.52, 0.3].map(|r| r <= 1.0);
             acc.add(
                 0,
                 if i % 2 == 0 { "L1" } else { "L2" },
-                &ratios,
+                &within,
+                0.52,
                 &[1.0, 0.0, 0.0, 0.0, 0.0, 0.0],
             );
         }
@@ -419,8 +430,9 @@ mod tests {
         for i in 0..50 {
             let r = i as f64 / 25.0;
             let v = [0.01, 0.001 * i as f64, 0.002, 0.0, 0.003, 0.004];
-            one.add(i % 2, &format!("L{}", i % 3), &[r; 5], &v);
-            if i < 20 { &mut a } else { &mut b }.add(i % 2, &format!("L{}", i % 3), &[r; 5], &v);
+            let w = [r <= 1.0; 5];
+            one.add(i % 2, &format!("L{}", i % 3), &w, r, &v);
+            if i < 20 { &mut a } else { &mut b }.add(i % 2, &format!("L{}", i % 3), &w, r, &v);
         }
         a.merge(b);
         one.settle();

@@ -248,12 +248,96 @@ pub fn u_tvu_m(u_sounding_m: f64, u_tide_m: f64) -> f64 {
     (u_sounding_m * u_sounding_m + u_tide_m * u_tide_m).sqrt()
 }
 
+/// Largest `U95 / allowed` ratio [`judge_as_written`] returns; it stands for "the allowed TVU is
+/// written as 0 and U95 is not".
+pub const MAX_RATIO: f64 = 1000.0;
+
+/// One sounding against one order, judged on U95 TVU and the allowed TVU as the uncertainty
+/// columns write them.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WrittenVerdict {
+    /// U95 as written ≤ allowed as written: the row's `within_order`.
+    pub within: bool,
+    /// U95 as written / allowed as written (at most [`MAX_RATIO`]; 1 when both are written as
+    /// 0), so `ratio ≤ 1` exactly when `within`.
+    pub ratio: f64,
+}
+
+/// Judges U95 TVU against the allowed TVU on the two values rounded to `decimals`, the way
+/// [`super::fixed::push_fixed`] writes them: a row that reads `0.256,0.256` is within, one that
+/// reads `0.257,0.256` is not. Both values in metres (95 %), non-negative.
+///
+/// ```
+/// use ebbwise::compute::uncertainty::judge_as_written;
+/// // 0.2564 and 0.2556 both read 0.256 at 3 decimals: within, ratio 1.
+/// let v = judge_as_written(0.2564, 0.2556, 3);
+/// assert!(v.within);
+/// assert_eq!(v.ratio, 1.0);
+/// // At 4 decimals they read 0.2564 and 0.2556: not within.
+/// assert!(!judge_as_written(0.2564, 0.2556, 4).within);
+/// ```
+pub fn judge_as_written(u95_tvu_m: f64, allowed_u95_tvu_m: f64, decimals: u32) -> WrittenVerdict {
+    use super::fixed::fixed_units;
+    match (
+        fixed_units(u95_tvu_m, decimals),
+        fixed_units(allowed_u95_tvu_m, decimals),
+    ) {
+        (Some(u), Some(a)) => WrittenVerdict {
+            within: u <= a,
+            ratio: match (u, a) {
+                (0, 0) => 1.0,
+                (_, 0) => MAX_RATIO,
+                _ => (u as f64 / a as f64).min(MAX_RATIO),
+            },
+        },
+        // Not finite or beyond 1e9 m: no rounding to speak of.
+        _ => {
+            let within = u95_tvu_m <= allowed_u95_tvu_m;
+            let ratio = u95_tvu_m / allowed_u95_tvu_m;
+            WrittenVerdict {
+                within,
+                ratio: if ratio.is_nan() {
+                    MAX_RATIO
+                } else {
+                    ratio.min(MAX_RATIO)
+                },
+            }
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::compute::series::{LevelSeries, Linear};
     use crate::compute::zoning::GaugeFeed;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn the_verdict_follows_the_written_values() {
+        // Rounded by hand to 3 decimals: 0.2564 and 0.2556 read 0.256, 0.2554 reads 0.255.
+        assert!(judge_as_written(0.2564, 0.2556, 3).within); // 0.256 ≤ 0.256, though 0.2564 > 0.2556
+        assert!(!judge_as_written(0.2556, 0.2554, 3).within); // 0.256 > 0.255
+        assert_eq!(judge_as_written(0.2556, 0.2554, 3).ratio, 256.0 / 255.0);
+        assert_eq!(judge_as_written(0.198, 0.25, 3).ratio, 198.0 / 250.0);
+        // An allowed TVU written as 0 (a custom order with a tiny a): U95 0 is within it, any
+        // other U95 is not.
+        assert_eq!(
+            judge_as_written(0.0001, 0.0002, 3),
+            WrittenVerdict {
+                within: true,
+                ratio: 1.0
+            }
+        );
+        assert_eq!(judge_as_written(0.01, 0.0002, 3).ratio, MAX_RATIO);
+        assert!(!judge_as_written(0.01, 0.0002, 3).within);
+        // The ratio is ≤ 1 exactly when within, over a sweep across rounding boundaries.
+        for i in 0..2000 {
+            let u = 0.25 + i as f64 * 1.3e-6;
+            let v = judge_as_written(u, 0.2515, 3);
+            assert_eq!(v.within, v.ratio <= 1.0, "{u}");
+        }
+    }
 
     #[test]
     fn s44_table_values() {
