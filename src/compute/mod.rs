@@ -6,6 +6,7 @@
 //! * [`reduce`] — one sounding to chart datum, with its status.
 //! * [`uncertainty`] — GUM propagation of the tide and sounding uncertainty; S-44 orders.
 //! * [`qa`] — per-order shares, budgets and histograms for the QA report.
+//! * [`qa_report`] — the QA report as plain data (built by `run`, rendered by `io`).
 //! * [`quantile`] — a mergeable percentile sketch with a stated error bound.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`fixed`] — fast fixed-decimal formatting of metres for the output writers.
@@ -24,6 +25,7 @@ pub mod harmonic;
 pub mod locate;
 pub mod lowpass;
 pub mod qa;
+pub mod qa_report;
 pub mod qc;
 pub mod quantile;
 pub mod reduce;

@@ -1,9 +1,10 @@
 //! Uncertainty of the reduced depth by first-order GUM propagation, and the IHO S-44 orders it
 //! is judged against.
 //!
-//! Owns: [`TideUncertaintyInputs`], [`TideBudget`] (the five tide components), the sounding
-//! uncertainty model, [`SurveyOrder`] with the built-in S-44 Edition 6.1.0 Table 1, and the
-//! total vertical uncertainty.
+//! Owns: [`GaugeUncertainty`] and [`ZoneUncertainty`] (the inputs), [`TideBudget`] (the five
+//! tide components), the sounding uncertainty model, [`SurveyOrder`] with the built-in S-44
+//! Edition 6.1.0 Table 1, the total vertical uncertainty, and the per-sounding verdict on the
+//! written values ([`judge_as_written`]).
 //!
 //! For a zone fed by gauges `i` (weights `w_i`, range ratios `R_i`, time correctors `Δt_i`), with
 //! `g_i = h_i(t − Δt_i)` the gauge level at the corrected time and `ġ_i` its rate, the variance of

@@ -8,7 +8,7 @@
 use std::fmt::Write;
 
 use crate::compute::qa::BUDGET_COMPONENTS;
-use crate::run::qa_report::QaReport;
+use crate::compute::qa_report::QaReport;
 
 /// Colours of the budget components, in [`BUDGET_COMPONENTS`] order.
 const COMPONENT_COLOURS: [&str; 6] = [

@@ -374,3 +374,20 @@ fn an_order_without_uncertainty_inputs_is_refused() {
         stderr(&o)
     );
 }
+
+/// The report's page is rendered by `io` from data in `compute`: no file of `src/io` names the
+/// `run` layer, and the report's data type lives in `compute` (docs/ARCHITECTURE.md).
+#[test]
+fn io_depends_on_compute_alone() {
+    let mut offenders = Vec::new();
+    for entry in std::fs::read_dir(repo().join("src/io")).unwrap() {
+        let path = entry.unwrap().path();
+        let text = std::fs::read_to_string(&path).unwrap();
+        if text.contains("crate::run") || text.contains("super::super::run") {
+            offenders.push(path.display().to_string());
+        }
+    }
+    assert!(offenders.is_empty(), "io names run: {offenders:?}");
+    let html = std::fs::read_to_string(repo().join("src/io/report_html.rs")).unwrap();
+    assert!(html.contains("use crate::compute::qa_report::QaReport;"));
+}
