@@ -59,10 +59,24 @@ fn from_share_units(k: u64) -> f64 {
 /// Components of u_tvu², in order.
 pub const BUDGET_COMPONENTS: [&str; 6] = ["sounding", "gauge", "datum", "range", "timing", "zone"];
 
-/// Width of a U95/allowed histogram bin.
-pub const RATIO_BIN_WIDTH: f64 = 0.05;
+/// U95/allowed histogram bins per unit of the ratio.
+const RATIO_BINS_PER_UNIT: f64 = 20.0;
+/// Width of a U95/allowed histogram bin (0.05).
+pub const RATIO_BIN_WIDTH: f64 = 1.0 / RATIO_BINS_PER_UNIT;
 /// Number of U95/allowed bins (0 to 3; the last also holds everything above).
 pub const RATIO_BINS: usize = 60;
+
+/// The histogram bin of a U95/allowed ratio. Bins are closed on the right, `(k·w, (k+1)·w]`
+/// (bin 0 also holds 0), so a ratio of exactly 1, which is within the order, falls left of the
+/// limit with the other soundings within.
+pub fn ratio_bin(ratio: f64) -> usize {
+    let k = (ratio * RATIO_BINS_PER_UNIT).ceil() - 1.0;
+    if k > 0.0 {
+        (k as usize).min(RATIO_BINS - 1)
+    } else {
+        0
+    }
+}
 
 /// Counts for one group of soundings (the survey, a zone or a line).
 #[derive(Debug, Clone)]
@@ -235,7 +249,7 @@ impl QaAccumulator {
         chosen_ratio: f64,
         var_m2: &[f64; 6],
     ) {
-        let bin = ((chosen_ratio / RATIO_BIN_WIDTH) as usize).min(RATIO_BINS - 1);
+        let bin = ratio_bin(chosen_ratio);
         let bump = |g: &mut GroupQa| {
             g.n += 1;
             for (w, yes) in g.within.iter_mut().zip(within) {
@@ -442,6 +456,22 @@ mod tests {
         // An empty group meets nothing and has share 0.
         assert!(!at(0, 0, 0.5).meets_chosen);
         assert_eq!(at(0, 0, 0.5).share_within_chosen, 0.0);
+    }
+
+    #[test]
+    fn a_ratio_of_one_is_left_of_the_limit() {
+        // Bins of 0.05 closed on the right: bin 19 is (0.95, 1.00], bin 20 is (1.00, 1.05].
+        assert_eq!(ratio_bin(1.0), 19);
+        assert_eq!(ratio_bin(1.0 + 1e-12), 20);
+        assert_eq!(ratio_bin(0.95), 18);
+        assert_eq!(ratio_bin(0.0), 0);
+        assert_eq!(ratio_bin(0.05), 0);
+        assert_eq!(ratio_bin(0.0501), 1);
+        assert_eq!(ratio_bin(1000.0), RATIO_BINS - 1);
+        // Every ratio of written values at or below 1 lands at or below bin 19.
+        for u in 1..=1000u32 {
+            assert!(ratio_bin(f64::from(u) / 1000.0) <= 19, "{u}");
+        }
     }
 
     #[test]

@@ -319,6 +319,36 @@ fn html_report_has_its_plots_and_no_outside_resources() {
     }
     assert!(html.contains("qualified hydrographic review"));
     assert!(html.contains("Chosen order <b>1a</b>"));
+    // The page shows the JSON's numbers: each zone row of the "Zones" table (the table after
+    // the histogram) has the zone's share within, to 0.1 %, and its P95 ratio, to 0.001.
+    let report: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let zones_table = doc
+        .select(&sel("table"))
+        .find(|t| {
+            t.text()
+                .collect::<String>()
+                .starts_with("zonesoundingswithin chosen")
+        })
+        .expect("the Zones table");
+    let cells: Vec<Vec<String>> = zones_table
+        .select(&sel("tr"))
+        .skip(1)
+        .map(|tr| {
+            tr.select(&sel("td"))
+                .map(|td| td.text().collect())
+                .collect()
+        })
+        .collect();
+    let zones = report["zones"].as_array().unwrap();
+    assert_eq!(cells.len(), zones.len());
+    for (row, z) in cells.iter().zip(zones) {
+        assert_eq!(row[0], z["id"].as_str().unwrap());
+        let share = z["share_within_chosen"].as_f64().unwrap();
+        assert_eq!(row[2], format!("{:.1} %", 100.0 * share), "{row:?}");
+        let p95 = z["p95_ratio_chosen"].as_f64().unwrap();
+        assert_eq!(row[3], format!("{p95:.3}"), "{row:?}");
+    }
     for attr in ["src", "href"] {
         let with_attr: Vec<_> = doc
             .select(&sel(&format!("[{attr}]")))
