@@ -8,6 +8,8 @@
 //! * [`reduce`] — one sounding to chart datum, with its status.
 //! * [`uncertainty`] — GUM propagation of the tide and sounding uncertainty; S-44 orders.
 //! * [`qa`] — per-order shares, budgets and histograms for the QA report.
+//! * [`qa_report`] — the QA report as plain data (built by `run`, rendered by `io`).
+//! * [`quantile`] — a mergeable percentile sketch with a stated error bound.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
 //! * [`spline`] — natural cubic spline interpolation in time, per unbroken segment.
@@ -23,7 +25,9 @@ pub mod harmonic;
 pub mod locate;
 pub mod lowpass;
 pub mod qa;
+pub mod qa_report;
 pub mod qc;
+pub mod quantile;
 pub mod reduce;
 pub mod series;
 pub mod spline;

@@ -1,28 +1,82 @@
 //! Quality assessment of reduced soundings against survey orders: accumulators that can be
 //! filled in parallel and merged, and the summary a reviewer reads.
 //!
-//! Owns: [`QaAccumulator`] (per-order counts overall, per zone and per line; histograms of
-//! U95/allowed; budget shares of each component of u_tvu²) and [`QaSummary`] (the stable JSON
-//! report body; schema `docs/qa-report.schema.json`).
+//! Owns: [`QaAccumulator`] (per-order counts overall, per zone and per line; a histogram and a
+//! percentile sketch of U95/allowed; budget shares of each component of u_tvu²) and the group
+//! summaries ([`GroupSummary`]) that the QA report is made of.
 //!
 //! A survey (zone, line) *meets* an order when the share of its soundings whose U95 TVU is within
 //! the order's allowed TVU is at least the acceptance share (95 % by default: common practice).
-//! Percentiles come from fixed-width histograms: shares to 0.01, ratios to 0.05.
+//! Percentiles come from [`QuantileSketch`]es: never below the exact percentile, at most
+//! [`RELATIVE_ERROR`](super::quantile::RELATIVE_ERROR) above it.
 
 use std::collections::BTreeMap;
 
 use serde::Serialize;
 
+use super::quantile::QuantileSketch;
 use super::uncertainty::SurveyOrder;
+
+/// Decimals of a share (0–1) in the report: 0.001, i.e. 0.1 %.
+pub const SHARE_DECIMALS: i32 = 3;
+/// Decimals of a U95/allowed ratio in the report.
+pub const RATIO_DECIMALS: i32 = 3;
+/// Decimals of metres in the report (0.1 mm).
+pub const METRE_DECIMALS: i32 = 4;
+
+/// `x` rounded to `decimals`, to nearest (half away from zero): the double nearest that decimal,
+/// which serialises as that short decimal.
+pub fn round_nearest(x: f64, decimals: i32) -> f64 {
+    let s = 10f64.powi(decimals);
+    (x * s).round() / s
+}
+
+/// The smallest multiple of `10^-decimals` that is not below `x` (as doubles compare).
+pub fn round_up(x: f64, decimals: i32) -> f64 {
+    let s = 10f64.powi(decimals);
+    let k = (x * s).round();
+    if k / s < x {
+        (k + 1.0) / s
+    } else {
+        k / s
+    }
+}
+
+/// `within / n` rounded down to [`SHARE_DECIMALS`], in units of the last decimal, computed in
+/// integers: exact, and 1000 (1.0) only when every sounding is within.
+fn share_units(within: u64, n: u64) -> u64 {
+    if n == 0 {
+        return 0;
+    }
+    let unit = 10u128.pow(SHARE_DECIMALS as u32);
+    (u128::from(within) * unit / u128::from(n)) as u64
+}
+
+fn from_share_units(k: u64) -> f64 {
+    k as f64 / 10f64.powi(SHARE_DECIMALS)
+}
 
 /// Components of u_tvu², in order.
 pub const BUDGET_COMPONENTS: [&str; 6] = ["sounding", "gauge", "datum", "range", "timing", "zone"];
 
-const SHARE_BINS: usize = 100;
-/// Width of a U95/allowed histogram bin.
-pub const RATIO_BIN_WIDTH: f64 = 0.05;
+/// U95/allowed histogram bins per unit of the ratio.
+const RATIO_BINS_PER_UNIT: f64 = 20.0;
+/// Width of a U95/allowed histogram bin (0.05).
+pub const RATIO_BIN_WIDTH: f64 = 1.0 / RATIO_BINS_PER_UNIT;
 /// Number of U95/allowed bins (0 to 3; the last also holds everything above).
 pub const RATIO_BINS: usize = 60;
+
+/// The histogram bin of a U95/allowed ratio. Bins are closed on the right, `(k·w, (k+1)·w]`
+/// (bin 0 also holds 0), so a ratio of exactly 1, which is within the order, falls left of the
+/// limit with the other soundings within.
+pub fn ratio_bin(ratio: f64) -> usize {
+    let k = (ratio * RATIO_BINS_PER_UNIT).ceil() - 1.0;
+    if k > 0.0 {
+        (k as usize).min(RATIO_BINS - 1)
+    } else {
+        0
+    }
+}
 
 /// Counts for one group of soundings (the survey, a zone or a line).
 #[derive(Debug, Clone)]
@@ -31,8 +85,10 @@ pub struct GroupQa {
     pub n: u64,
     /// Soundings within each order's limit (orders in the accumulator's order).
     pub within: Vec<u64>,
-    /// Histogram of U95/allowed for the chosen order.
+    /// Histogram of U95/allowed for the chosen order (for the report's plot).
     pub ratio_hist: [u64; RATIO_BINS],
+    /// Percentile sketch of U95/allowed for the chosen order.
+    pub ratio_sketch: QuantileSketch,
 }
 
 impl GroupQa {
@@ -41,6 +97,7 @@ impl GroupQa {
             n: 0,
             within: vec![0; n_orders],
             ratio_hist: [0; RATIO_BINS],
+            ratio_sketch: QuantileSketch::new(),
         }
     }
     fn merge(&mut self, o: &GroupQa) {
@@ -51,6 +108,7 @@ impl GroupQa {
         for (a, b) in self.ratio_hist.iter_mut().zip(&o.ratio_hist) {
             *a += b;
         }
+        self.ratio_sketch.merge(&o.ratio_sketch);
     }
 }
 
@@ -59,21 +117,11 @@ impl GroupQa {
 const SHARE_UNITS: f64 = 1e9;
 
 /// Budget shares for one group.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, Default)]
 pub struct BudgetQa {
     n: u64,
     share_sum: [u64; 6],
-    share_hist: [[u64; SHARE_BINS]; 6],
-}
-
-impl Default for BudgetQa {
-    fn default() -> Self {
-        BudgetQa {
-            n: 0,
-            share_sum: [0; 6],
-            share_hist: [[0; SHARE_BINS]; 6],
-        }
-    }
+    share_sketch: [QuantileSketch; 6],
 }
 
 impl BudgetQa {
@@ -86,17 +134,21 @@ impl BudgetQa {
         for (k, v) in var_m2.iter().enumerate() {
             let s = v / total;
             self.share_sum[k] += (s * SHARE_UNITS).round() as u64;
-            let b = ((s * SHARE_BINS as f64) as usize).min(SHARE_BINS - 1);
-            self.share_hist[k][b] += 1;
+            self.share_sketch[k].add(s);
         }
     }
     fn merge(&mut self, o: &BudgetQa) {
         self.n += o.n;
         for k in 0..6 {
             self.share_sum[k] += o.share_sum[k];
-            for (a, b) in self.share_hist[k].iter_mut().zip(&o.share_hist[k]) {
-                *a += b;
-            }
+            self.share_sketch[k].merge(&o.share_sketch[k]);
+        }
+    }
+    fn mean_share(&self, k: usize) -> f64 {
+        if self.n > 0 {
+            self.share_sum[k] as f64 / SHARE_UNITS / self.n as f64
+        } else {
+            0.0
         }
     }
     fn summary(&self) -> BudgetSummary {
@@ -105,19 +157,18 @@ impl BudgetQa {
             .enumerate()
             .map(|(k, name)| ComponentShare {
                 component: name,
-                mean_share: if self.n > 0 {
-                    self.share_sum[k] as f64 / SHARE_UNITS / self.n as f64
-                } else {
-                    0.0
-                },
-                p95_share: percentile_of_hist(&self.share_hist[k], 0.95, 1.0 / SHARE_BINS as f64),
+                mean_share: round_nearest(self.mean_share(k), SHARE_DECIMALS),
+                p95_share: round_up(
+                    self.share_sketch[k].percentile(95).unwrap_or(0.0),
+                    SHARE_DECIMALS,
+                ),
             })
             .collect();
-        let dominant = components
-            .iter()
+        // The largest mean share before rounding (two may read the same after it).
+        let dominant = (0..6)
             .filter(|_| self.n > 0)
-            .max_by(|a, b| a.mean_share.total_cmp(&b.mean_share))
-            .map(|c| c.component)
+            .max_by(|a, b| self.mean_share(*a).total_cmp(&self.mean_share(*b)))
+            .map(|k| BUDGET_COMPONENTS[k])
             .unwrap_or("none");
         BudgetSummary {
             soundings: self.n,
@@ -125,23 +176,6 @@ impl BudgetQa {
             dominant_component: dominant,
         }
     }
-}
-
-/// Upper edge of the bin where the cumulative share first reaches `p`.
-fn percentile_of_hist(hist: &[u64], p: f64, width: f64) -> f64 {
-    let n: u64 = hist.iter().sum();
-    if n == 0 {
-        return 0.0;
-    }
-    let target = (p * n as f64).ceil() as u64;
-    let mut cum = 0;
-    for (i, c) in hist.iter().enumerate() {
-        cum += c;
-        if cum >= target {
-            return (i + 1) as f64 * width;
-        }
-    }
-    hist.len() as f64 * width
 }
 
 /// One reduced sounding's place on the QA map.
@@ -174,9 +208,6 @@ pub struct QaAccumulator {
     pub lines: BTreeMap<String, GroupQa>,
     /// A thinned sample of soundings for the map.
     pub samples: Vec<MapSample>,
-    /// The last line added and its counts, kept out of the map while soundings of one line
-    /// follow each other (they usually do).
-    current_line: Option<(String, GroupQa)>,
 }
 
 impl QaAccumulator {
@@ -190,25 +221,12 @@ impl QaAccumulator {
             zones: vec![(GroupQa::new(n_orders), BudgetQa::default()); n_zones],
             lines: BTreeMap::new(),
             samples: Vec::new(),
-            current_line: None,
         }
     }
 
-    fn park_current_line(&mut self) {
-        if let Some((k, g)) = self.current_line.take() {
-            match self.lines.get_mut(&k) {
-                Some(a) => a.merge(&g),
-                None => {
-                    self.lines.insert(k, g);
-                }
-            }
-        }
-    }
-
-    /// Folds the pending line counts into `lines` and sums the zones into the survey totals
-    /// (every sounding lies in exactly one zone); call before reading `overall` or `lines`.
+    /// Sums the zones into the survey totals (every sounding lies in exactly one zone); call
+    /// before reading `overall`.
     pub fn settle(&mut self) {
-        self.park_current_line();
         let mut overall = GroupQa::new(self.n_orders);
         let mut budget = BudgetQa::default();
         for (g, b) in &self.zones {
@@ -219,19 +237,26 @@ impl QaAccumulator {
         self.overall_budget = budget;
     }
 
-    /// Adds one reduced sounding: its zone, line, per-order U95/allowed ratios and the
-    /// variance components of u_tvu² (m², [`BUDGET_COMPONENTS`] order).
-    pub fn add(&mut self, zone: usize, line: &str, ratios: &[f64], var_m2: &[f64; 6]) {
-        let chosen_ratio = ratios[self.chosen];
-        let bin = ((chosen_ratio / RATIO_BIN_WIDTH) as usize).min(RATIO_BINS - 1);
+    /// Adds one reduced sounding: its zone, line, whether it is within each order (the
+    /// per-order [`WrittenVerdict`](super::uncertainty::WrittenVerdict)s' `within`), its
+    /// U95/allowed ratio for the chosen order, and the variance components of u_tvu² (m²,
+    /// [`BUDGET_COMPONENTS`] order).
+    pub fn add(
+        &mut self,
+        zone: usize,
+        line: &str,
+        within: &[bool],
+        chosen_ratio: f64,
+        var_m2: &[f64; 6],
+    ) {
+        let bin = ratio_bin(chosen_ratio);
         let bump = |g: &mut GroupQa| {
             g.n += 1;
-            for (w, r) in g.within.iter_mut().zip(ratios) {
-                if *r <= 1.0 {
-                    *w += 1;
-                }
+            for (w, yes) in g.within.iter_mut().zip(within) {
+                *w += u64::from(*yes);
             }
             g.ratio_hist[bin] += 1;
+            g.ratio_sketch.add(chosen_ratio);
         };
         bump(&mut self.zones[zone].0);
         if !self.lines.contains_key(line) {
@@ -243,9 +268,7 @@ impl QaAccumulator {
     }
 
     /// Merges another accumulator into this one (samples appended in order).
-    pub fn merge(&mut self, mut o: QaAccumulator) {
-        self.park_current_line();
-        o.park_current_line();
+    pub fn merge(&mut self, o: QaAccumulator) {
         for (a, b) in self.zones.iter_mut().zip(&o.zones) {
             a.0.merge(&b.0);
             a.1.merge(&b.1);
@@ -267,9 +290,13 @@ impl QaAccumulator {
 pub struct OrderShare {
     /// Order name.
     pub order: String,
-    /// Share of soundings whose U95 TVU is within the order's limit (0–1).
+    /// Soundings whose U95 TVU is within the order's limit (as the rows' `within_order` judges
+    /// it for the chosen order).
+    pub soundings_within: u64,
+    /// Share of soundings whose U95 TVU is within the order's limit (0–1), rounded down to
+    /// [`SHARE_DECIMALS`] from the counts.
     pub share_within: f64,
-    /// Whether the share reaches the acceptance share.
+    /// Whether the share, as written, reaches the acceptance share.
     pub met: bool,
 }
 
@@ -278,9 +305,10 @@ pub struct OrderShare {
 pub struct ComponentShare {
     /// Component name.
     pub component: &'static str,
-    /// Mean over soundings of the component's share of u_tvu² (0–1).
+    /// Mean over soundings of the component's share of u_tvu² (0–1, to nearest
+    /// [`SHARE_DECIMALS`]).
     pub mean_share: f64,
-    /// 95th percentile over soundings of that share (to 0.01).
+    /// 95th percentile over soundings of that share (rounded up to [`SHARE_DECIMALS`]).
     pub p95_share: f64,
 }
 
@@ -306,13 +334,15 @@ pub struct GroupSummary {
     pub orders: Vec<OrderShare>,
     /// The strictest built-in order met at the acceptance share, if any.
     pub strictest_order_met: Option<String>,
-    /// Share within the chosen order.
+    /// Share within the chosen order (as [`OrderShare::share_within`]).
     pub share_within_chosen: f64,
-    /// 95th percentile of U95/allowed for the chosen order (to 0.05; above 1: exceeds).
+    /// 95th percentile of U95/allowed for the chosen order, rounded up to [`RATIO_DECIMALS`]
+    /// (above 1: exceeds).
     pub p95_ratio_chosen: f64,
     /// Whether the chosen order is met.
     pub meets_chosen: bool,
-    /// Acceptance share minus share within the chosen order, when it fails (0–1).
+    /// Acceptance share minus share within the chosen order, when it fails (0–1; the
+    /// acceptance share rounded up to [`SHARE_DECIMALS`]).
     pub shortfall: Option<f64>,
     /// The uncertainty budget (survey and zones only).
     pub budget: Option<BudgetSummary>,
@@ -328,37 +358,40 @@ pub fn summarise_group(
     chosen: usize,
     acceptance: f64,
 ) -> GroupSummary {
-    let share = |k: usize| {
-        if g.n > 0 {
-            g.within[k] as f64 / g.n as f64
-        } else {
-            0.0
-        }
-    };
+    // Every verdict is made on the share as written, so that no reader sees "95.0 %" beside
+    // "not met" at an acceptance of 95 %.
+    let met = |k: u64| g.n > 0 && from_share_units(k) >= acceptance;
     let ords: Vec<OrderShare> = orders
         .iter()
         .enumerate()
-        .map(|(k, o)| OrderShare {
-            order: o.name.clone(),
-            share_within: share(k),
-            met: g.n > 0 && share(k) >= acceptance,
+        .map(|(k, o)| {
+            let units = share_units(g.within[k], g.n);
+            OrderShare {
+                order: o.name.clone(),
+                soundings_within: g.within[k],
+                share_within: from_share_units(units),
+                met: met(units),
+            }
         })
         .collect();
     let strictest = ords[..n_builtin]
         .iter()
         .find(|o| o.met)
         .map(|o| o.order.clone());
-    let sc = share(chosen);
-    let meets = g.n > 0 && sc >= acceptance;
+    let chosen_units = share_units(g.within[chosen], g.n);
+    let meets = met(chosen_units);
+    let acceptance_units =
+        (round_up(acceptance, SHARE_DECIMALS) * 10f64.powi(SHARE_DECIMALS)).round() as u64;
     GroupSummary {
         id: id.to_string(),
         soundings: g.n,
         orders: ords,
         strictest_order_met: strictest,
-        share_within_chosen: sc,
-        p95_ratio_chosen: percentile_of_hist(&g.ratio_hist, 0.95, RATIO_BIN_WIDTH),
+        share_within_chosen: from_share_units(chosen_units),
+        p95_ratio_chosen: round_up(g.ratio_sketch.percentile(95).unwrap_or(0.0), RATIO_DECIMALS),
         meets_chosen: meets,
-        shortfall: if meets { None } else { Some(acceptance - sc) },
+        shortfall: (!meets)
+            .then(|| from_share_units(acceptance_units.saturating_sub(chosen_units))),
         budget: budget.map(BudgetQa::summary),
     }
 }
@@ -374,10 +407,85 @@ mod tests {
         b.add(&[0.0025, 0.0004, 0.0016, 0.0001, 0.01, 0.0025]);
         b.add(&[0.0025, 0.0004, 0.0016, 0.0009, 0.0, 0.0025]);
         let s = b.summary();
-        let total: f64 = s.components.iter().map(|c| c.mean_share).sum();
-        // Shares are summed in units of 1e-9: six roundings of at most 0.5e-9 each.
-        assert!((total - 1.0).abs() < 3.1e-9, "{total}");
+        // By hand: the first sounding's shares are its variances over 0.0171 m² (0.146199,
+        // 0.023392, 0.093567, 0.005848, 0.584795, 0.146199), the second's over 0.0079 m²
+        // (0.316456, 0.050633, 0.202532, 0.113924, 0, 0.316456); their means, to 0.001, are
+        // 0.231, 0.037, 0.148, 0.060, 0.292, 0.231, which sum to 0.999: each mean is rounded on
+        // its own, so the sum is within 6 × 0.0005 of 1.
+        let means: Vec<f64> = s.components.iter().map(|c| c.mean_share).collect();
+        assert_eq!(means, [0.231, 0.037, 0.148, 0.06, 0.292, 0.231]);
+        let total: f64 = means.iter().sum();
+        assert!((total - 1.0).abs() <= 0.003 + 1e-12, "{total}");
+        // The 95th percentile of two values is the larger (rank ⌈1.9⌉ = 2), rounded up to
+        // 0.001: timing 0.584795 → 0.585, sounding 0.316456 → 0.317, timing's other 0 ignored.
+        assert_eq!(s.components[4].p95_share, 0.585);
+        assert_eq!(s.components[0].p95_share, 0.317);
         assert_eq!(s.dominant_component, "timing");
+    }
+
+    #[test]
+    fn shares_are_rounded_down_from_the_counts_and_judged_as_written() {
+        let orders = s44_orders();
+        let group = |n: u64, within: u64| GroupQa {
+            n,
+            within: vec![within; orders.len()],
+            ratio_hist: [0; RATIO_BINS],
+            ratio_sketch: QuantileSketch::new(),
+        };
+        let at = |n, within, acceptance| {
+            summarise_group("g", &group(n, within), None, &orders, 5, 2, acceptance)
+        };
+        // 2 of 3 is 0.6667: rounded down, 0.666.
+        assert_eq!(at(3, 2, 0.95).share_within_chosen, 0.666);
+        // 94 999 of 100 000 is 0.94999: written 0.949, so not met at 0.95, short by 0.001.
+        let s = at(100_000, 94_999, 0.95);
+        assert_eq!(s.share_within_chosen, 0.949);
+        assert!(!s.meets_chosen);
+        assert_eq!(s.shortfall, Some(0.001));
+        // 950 of 1000 is 0.95 exactly: met.
+        assert!(at(1000, 950, 0.95).meets_chosen);
+        // 1.0 only when every sounding is within: 1 999 999 of 2 000 000 reads 0.999.
+        assert_eq!(at(2_000_000, 1_999_999, 1.0).share_within_chosen, 0.999);
+        assert!(!at(2_000_000, 1_999_999, 1.0).meets_chosen);
+        assert!(at(2_000_000, 2_000_000, 1.0).meets_chosen);
+        // An acceptance share finer than 0.001 is compared with the share as written: 0.9507
+        // reads 0.950, below 0.9505; the shortfall uses the acceptance rounded up (0.951).
+        let s = at(10_000, 9_507, 0.9505);
+        assert!(!s.meets_chosen);
+        assert_eq!(s.shortfall, Some(0.001));
+        // An empty group meets nothing and has share 0.
+        assert!(!at(0, 0, 0.5).meets_chosen);
+        assert_eq!(at(0, 0, 0.5).share_within_chosen, 0.0);
+    }
+
+    #[test]
+    fn a_ratio_of_one_is_left_of_the_limit() {
+        // Bins of 0.05 closed on the right: bin 19 is (0.95, 1.00], bin 20 is (1.00, 1.05].
+        assert_eq!(ratio_bin(1.0), 19);
+        assert_eq!(ratio_bin(1.0 + 1e-12), 20);
+        assert_eq!(ratio_bin(0.95), 18);
+        assert_eq!(ratio_bin(0.0), 0);
+        assert_eq!(ratio_bin(0.05), 0);
+        assert_eq!(ratio_bin(0.0501), 1);
+        assert_eq!(ratio_bin(1000.0), RATIO_BINS - 1);
+        // Every ratio of written values at or below 1 lands at or below bin 19.
+        for u in 1..=1000u32 {
+            assert!(ratio_bin(f64::from(u) / 1000.0) <= 19, "{u}");
+        }
+    }
+
+    #[test]
+    fn rounding_up_never_lands_below() {
+        // 1.1 · 1000 is 1100.0000000000002 in doubles: a plain ceil would give 1.101.
+        assert_eq!(round_up(1.1, 3), 1.1);
+        assert_eq!(round_up(1.1000001, 3), 1.101);
+        assert_eq!(round_up(0.0, 3), 0.0);
+        for i in 0..5000 {
+            let x = i as f64 * 0.000_37;
+            let r = round_up(x, 3);
+            assert!(r >= x && r - x < 0.001 + 1e-12, "{x} → {r}");
+        }
+        assert_eq!(round_nearest(0.30926427887235075, 3), 0.309);
     }
 
     #[test]
@@ -393,11 +501,12 @@ mod tests {
         // exclusive and special).
         for i in 0..100 {
             let r = if i < 96 { 0.5 } else { 1.2 };
-            let ratios = [r, r, 0.52, 0.52, 0.3];
+            let within = [r, r, 0.52, 0.52, 0.3].map(|r| r <= 1.0);
             acc.add(
                 0,
                 if i % 2 == 0 { "L1" } else { "L2" },
-                &ratios,
+                &within,
+                0.52,
                 &[1.0, 0.0, 0.0, 0.0, 0.0, 0.0],
             );
         }
@@ -417,15 +526,11 @@ mod tests {
         assert!(!s.meets_chosen);
         assert!((s.shortfall.unwrap() - 0.01).abs() < 1e-12);
         // The 4 bad soundings are 2 per line: each line 48/50 = 0.96 within exclusive. The
-        // ratio histogram is kept for the accumulator's chosen order (1a: ratio 0.52, in the
-        // bin [0.50, 0.55)).
+        // ratio percentile is kept for the accumulator's chosen order (1a), where every
+        // sounding's ratio is 0.52: the percentile is that value itself.
         let l1 = summarise_group("L1", &acc.lines["L1"], None, &orders, 5, 0, 0.95);
         assert!((l1.share_within_chosen - 0.96).abs() < 1e-12);
-        assert!(
-            (l1.p95_ratio_chosen - 0.55).abs() < 1e-12,
-            "{}",
-            l1.p95_ratio_chosen
-        );
+        assert_eq!(l1.p95_ratio_chosen, 0.52);
     }
 
     #[test]
@@ -437,8 +542,9 @@ mod tests {
         for i in 0..50 {
             let r = i as f64 / 25.0;
             let v = [0.01, 0.001 * i as f64, 0.002, 0.0, 0.003, 0.004];
-            one.add(i % 2, &format!("L{}", i % 3), &[r; 5], &v);
-            if i < 20 { &mut a } else { &mut b }.add(i % 2, &format!("L{}", i % 3), &[r; 5], &v);
+            let w = [r <= 1.0; 5];
+            one.add(i % 2, &format!("L{}", i % 3), &w, r, &v);
+            if i < 20 { &mut a } else { &mut b }.add(i % 2, &format!("L{}", i % 3), &w, r, &v);
         }
         a.merge(b);
         one.settle();

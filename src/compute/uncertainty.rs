@@ -1,9 +1,10 @@
 //! Uncertainty of the reduced depth by first-order GUM propagation, and the IHO S-44 orders it
 //! is judged against.
 //!
-//! Owns: [`TideUncertaintyInputs`], [`TideBudget`] (the five tide components), the sounding
-//! uncertainty model, [`SurveyOrder`] with the built-in S-44 Edition 6.1.0 Table 1, and the
-//! total vertical uncertainty.
+//! Owns: [`GaugeUncertainty`] and [`ZoneUncertainty`] (the inputs), [`TideBudget`] (the five
+//! tide components), the sounding uncertainty model, [`SurveyOrder`] with the built-in S-44
+//! Edition 6.1.0 Table 1, the total vertical uncertainty, and the per-sounding verdict on the
+//! written values ([`judge_as_written`]).
 //!
 //! For a zone fed by gauges `i` (weights `w_i`, range ratios `R_i`, time correctors `Δt_i`), with
 //! `g_i = h_i(t − Δt_i)` the gauge level at the corrected time and `ġ_i` its rate, the variance of
@@ -248,12 +249,112 @@ pub fn u_tvu_m(u_sounding_m: f64, u_tide_m: f64) -> f64 {
     (u_sounding_m * u_sounding_m + u_tide_m * u_tide_m).sqrt()
 }
 
+/// Largest `U95 / allowed` ratio [`judge_as_written`] returns; it stands for "the allowed TVU is
+/// written as 0 and U95 is not".
+pub const MAX_RATIO: f64 = 1000.0;
+
+/// One sounding against one order, judged on U95 TVU and the allowed TVU as the uncertainty
+/// columns write them.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WrittenVerdict {
+    /// U95 as written ≤ allowed as written: the row's `within_order`.
+    pub within: bool,
+    /// U95 as written / allowed as written (at most [`MAX_RATIO`]; 1 when both are written as
+    /// 0), so `ratio ≤ 1` exactly when `within`.
+    pub ratio: f64,
+}
+
+/// `value` rounded to `decimals` as an integer count of units of the last decimal (the written
+/// digits without the point, with their sign): `0.256` at 3 decimals is 256. Rounds half away
+/// from zero on the magnitude, the rule of every fixed-decimal column (`io::numfmt::push_fixed`,
+/// whose tests hold the two together). `None` for a value that is not finite or too large.
+pub fn units_at_decimals(value: f64, decimals: u32) -> Option<i64> {
+    const POW10: [f64; 10] = [1.0, 10.0, 100.0, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9];
+    if !value.is_finite() || decimals > 9 {
+        return None;
+    }
+    let scaled = value.abs() * POW10[decimals as usize] + 0.5;
+    if scaled >= 1.0e18 {
+        return None;
+    }
+    let n = scaled as u64 as i64;
+    Some(if value < 0.0 { -n } else { n })
+}
+
+/// Judges U95 TVU against the allowed TVU on the two values rounded to `decimals`, the way
+/// the fixed-decimal columns write them ([`units_at_decimals`]): a row that reads `0.256,0.256` is within, one that
+/// reads `0.257,0.256` is not. Both values in metres (95 %), non-negative.
+///
+/// ```
+/// use ebbwise::compute::uncertainty::judge_as_written;
+/// // 0.2564 and 0.2556 both read 0.256 at 3 decimals: within, ratio 1.
+/// let v = judge_as_written(0.2564, 0.2556, 3);
+/// assert!(v.within);
+/// assert_eq!(v.ratio, 1.0);
+/// // At 4 decimals they read 0.2564 and 0.2556: not within.
+/// assert!(!judge_as_written(0.2564, 0.2556, 4).within);
+/// ```
+pub fn judge_as_written(u95_tvu_m: f64, allowed_u95_tvu_m: f64, decimals: u32) -> WrittenVerdict {
+    match (
+        units_at_decimals(u95_tvu_m, decimals),
+        units_at_decimals(allowed_u95_tvu_m, decimals),
+    ) {
+        (Some(u), Some(a)) => WrittenVerdict {
+            within: u <= a,
+            ratio: match (u, a) {
+                (0, 0) => 1.0,
+                (_, 0) => MAX_RATIO,
+                _ => (u as f64 / a as f64).min(MAX_RATIO),
+            },
+        },
+        // Not finite or beyond 1e9 m: no rounding to speak of.
+        _ => {
+            let within = u95_tvu_m <= allowed_u95_tvu_m;
+            let ratio = u95_tvu_m / allowed_u95_tvu_m;
+            WrittenVerdict {
+                within,
+                ratio: if ratio.is_nan() {
+                    MAX_RATIO
+                } else {
+                    ratio.min(MAX_RATIO)
+                },
+            }
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::compute::series::{LevelSeries, Linear};
     use crate::compute::zoning::GaugeFeed;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn the_verdict_follows_the_written_values() {
+        // Rounded by hand to 3 decimals: 0.2564 and 0.2556 read 0.256, 0.2554 reads 0.255.
+        assert!(judge_as_written(0.2564, 0.2556, 3).within); // 0.256 ≤ 0.256, though 0.2564 > 0.2556
+        assert!(!judge_as_written(0.2556, 0.2554, 3).within); // 0.256 > 0.255
+        assert_eq!(judge_as_written(0.2556, 0.2554, 3).ratio, 256.0 / 255.0);
+        assert_eq!(judge_as_written(0.198, 0.25, 3).ratio, 198.0 / 250.0);
+        // An allowed TVU written as 0 (a custom order with a tiny a): U95 0 is within it, any
+        // other U95 is not.
+        assert_eq!(
+            judge_as_written(0.0001, 0.0002, 3),
+            WrittenVerdict {
+                within: true,
+                ratio: 1.0
+            }
+        );
+        assert_eq!(judge_as_written(0.01, 0.0002, 3).ratio, MAX_RATIO);
+        assert!(!judge_as_written(0.01, 0.0002, 3).within);
+        // The ratio is ≤ 1 exactly when within, over a sweep across rounding boundaries.
+        for i in 0..2000 {
+            let u = 0.25 + i as f64 * 1.3e-6;
+            let v = judge_as_written(u, 0.2515, 3);
+            assert_eq!(v.within, v.ratio <= 1.0, "{u}");
+        }
+    }
 
     #[test]
     fn s44_table_values() {

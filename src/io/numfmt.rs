@@ -225,6 +225,21 @@ mod tests {
     }
 
     proptest::proptest! {
+        /// The integer the verdict `within_order` compares (`compute::uncertainty::
+        /// units_at_decimals`) is the written text with its point removed.
+        #[test]
+        fn verdict_units_are_the_written_digits(v in -1.0e6f64..1.0e6, d in 0u32..8) {
+            let text = f(v, d).replace('.', "");
+            let written: i64 = text.parse().unwrap();
+            proptest::prop_assert_eq!(
+                crate::compute::uncertainty::units_at_decimals(v, d),
+                Some(written),
+                "{} at {}",
+                v,
+                d
+            );
+        }
+
         /// Written text parses back to the value within half a unit of the last decimal.
         #[test]
         fn parses_back_within_half_a_unit(v in -1.0e6f64..1.0e6, d in 0u32..8) {

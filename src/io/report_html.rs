@@ -8,7 +8,7 @@
 use std::fmt::Write;
 
 use crate::compute::qa::BUDGET_COMPONENTS;
-use crate::run::qa_report::QaReport;
+use crate::compute::qa_report::QaReport;
 
 /// Colours of the budget components, in [`BUDGET_COMPONENTS`] order.
 const COMPONENT_COLOURS: [&str; 6] = [
@@ -37,8 +37,33 @@ pub(crate) fn esc(s: &str) -> String {
         .replace('"', "&quot;")
 }
 
+/// A share of the report (already rounded to 0.1 %, `compute::qa::SHARE_DECIMALS`) in percent.
 fn pct(x: f64) -> String {
     format!("{:.1} %", 100.0 * x)
+}
+
+/// An input share (such as the acceptance share) in percent, with the decimals it was given
+/// (up to 0.0001 %): 0.95 → "95 %", 0.9505 → "95.05 %".
+fn pct_given(x: f64) -> String {
+    let s = format!("{:.4}", 100.0 * x);
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    format!("{s} %")
+}
+
+/// An input number as the project gave it: the shortest decimal that reads back to it, with
+/// ".0" on whole numbers (1 → "1.0", 0.0075 → "0.0075").
+fn given(x: f64) -> String {
+    let s = format!("{x}");
+    if s.contains('.') || !x.is_finite() {
+        s
+    } else {
+        s + ".0"
+    }
+}
+
+/// A ratio of the report (already rounded, `compute::qa::RATIO_DECIMALS`).
+fn ratio(x: f64) -> String {
+    format!("{x:.3}")
 }
 
 /// "Nice" tick positions covering `[lo, hi]`.
@@ -490,7 +515,7 @@ fn histogram_svg(r: &QaReport, out: &mut String) {
     }
     let _ = write!(
         out,
-        r#"<text x="{}" y="{}" class="axis" text-anchor="middle">U95 TVU / allowed TVU for order {} (last bin: ≥ {:.1})</text>"#,
+        r#"<text x="{}" y="{}" class="axis" text-anchor="middle">U95 TVU / allowed TVU for order {} (bins closed on the right; the last holds all above {:.2})</text>"#,
         (ml + w - mr) / 2.0,
         h - 10.0,
         esc(&r.chosen_order.name),
@@ -550,7 +575,7 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         esc(&r.chosen_order.name),
         pct(r.survey.share_within_chosen),
         r.survey.soundings,
-        pct(r.acceptance_share),
+        pct_given(r.acceptance_share),
         if fail { "not met" } else { "met" },
         esc(achieved),
         esc(&r.dominant_component)
@@ -560,15 +585,16 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         let _ = write!(o, "<tr><td>{s}</td><td>{n}</td></tr>");
     }
     o.push_str("</table>");
-    o.push_str("<h2>Survey orders</h2><table><tr><th>order</th><th>a (m, 95 %)</th><th>b (95 %)</th><th>THU (95 %)</th><th>share within</th><th>met</th></tr>");
+    o.push_str("<h2>Survey orders</h2><table><tr><th>order</th><th>a (m, 95 %)</th><th>b (95 %)</th><th>THU (95 %)</th><th>soundings within</th><th>share within</th><th>met</th></tr>");
     for (ord, sh) in r.orders.iter().zip(&r.survey.orders) {
         let _ = write!(
             o,
-            r#"<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class="{}">{}</td></tr>"#,
+            r#"<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class="{}">{}</td></tr>"#,
             esc(&ord.name),
-            ord.a_m,
-            ord.b,
+            given(ord.a_m),
+            given(ord.b),
             esc(&ord.thu_max95),
+            sh.soundings_within,
             pct(sh.share_within),
             if sh.met { "yes" } else { "no" },
             if sh.met { "yes" } else { "no" }
@@ -603,11 +629,11 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         let yn = if g.meets_chosen { "yes" } else { "no" };
         let _ = write!(
             o,
-            r#"<tr><td>{}</td><td>{}</td><td>{}</td><td>{:.2}</td><td>{}</td><td class="{yn}">{yn}</td></tr>"#,
+            r#"<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class="{yn}">{yn}</td></tr>"#,
             esc(&g.id),
             g.soundings,
             pct(g.share_within_chosen),
-            g.p95_ratio_chosen,
+            ratio(g.p95_ratio_chosen),
             g.strictest_order_met.as_deref().unwrap_or("none")
         );
     }
@@ -629,13 +655,13 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         {
             let _ = write!(
                 o,
-                "<tr><td>{} {}</td><td>{}</td><td>{}</td><td>{}</td><td>{:.2}</td></tr>",
+                "<tr><td>{} {}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
                 f.0,
                 esc(&f.1.id),
                 f.1.soundings,
                 pct(f.1.share_within),
                 pct(f.1.shortfall),
-                f.1.p95_ratio
+                ratio(f.1.p95_ratio)
             );
         }
         o.push_str("</table>");
@@ -644,27 +670,28 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
     for g in &r.inputs.gauges {
         let _ = write!(
             o,
-            "<tr><td>{}</td><td>{:.3}</td><td>{:.3}</td></tr>",
+            "<tr><td>{}</td><td>{}</td><td>{}</td></tr>",
             esc(&g.gauge),
-            g.u_gauge_m,
-            g.u_datum_m
+            given(g.u_gauge_m),
+            given(g.u_datum_m)
         );
     }
     o.push_str("</table><table><tr><th>zone</th><th>u_time_corrector (min)</th><th>u_range_ratio</th><th>u_zone (m)</th></tr>");
     for z in &r.inputs.zones {
         let _ = write!(
             o,
-            "<tr><td>{}</td><td>{:.1}</td><td>{:.3}</td><td>{:.3}</td></tr>",
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
             esc(&z.zone),
-            z.u_time_corrector_min,
-            z.u_range_ratio,
-            z.u_zone_m
+            given(z.u_time_corrector_min),
+            given(z.u_range_ratio),
+            given(z.u_zone_m)
         );
     }
     let _ = write!(
         o,
         "</table><p>Sounding model (where no per-sounding column): u = sqrt({}² + ({}·d)²) m.</p>",
-        r.inputs.sounding_a_m, r.inputs.sounding_b
+        given(r.inputs.sounding_a_m),
+        given(r.inputs.sounding_b)
     );
     if !r.inputs.defaulted.is_empty() {
         let _ = write!(o, "<p><b>Using the project's default values (demo values unless the project sets them):</b> {}.</p>", esc(&r.inputs.defaulted.join("; ")));

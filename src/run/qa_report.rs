@@ -1,170 +1,23 @@
-//! The QA report of a reduction: what the reviewer reads (HTML) and what machines read (JSON,
-//! schema in `docs/qa-report.schema.json`). Built from the run's QA counts, the zones' tide and
-//! its 95 % band over the survey period, and a thinned sample of soundings for the map.
-
-use serde::Serialize;
+//! Builds the QA report of a reduction ([`QaReport`], plain data in `compute::qa_report`) from
+//! the run's QA counts, the zones' tide and its 95 % band over the survey period, and a thinned
+//! sample of soundings for the map (carried to longitude/latitude here, through `io::crs`).
+//! `io::report_html` renders it; the CLI writes it as `qa-report.json` and `qa-report.html`.
 
 use super::load::Loaded;
 use super::reduce::RunSummary;
-use crate::compute::qa::{summarise_group, GroupSummary, RATIO_BINS, RATIO_BIN_WIDTH};
-use crate::compute::uncertainty::{tide_budget, SurveyOrder, K95};
+use crate::compute::qa::{
+    round_nearest, summarise_group, GroupSummary, METRE_DECIMALS, RATIO_BINS, RATIO_BIN_WIDTH,
+};
+use crate::compute::qa_report::{
+    failing, GaugeInput, MapPoint, QaReport, RatioHistogram, UncertaintyInputs, ZoneInput,
+    ZoneTideSeries, QA_SCHEMA,
+};
+use crate::compute::uncertainty::{tide_budget, K95};
 use crate::io::crs::Transformer;
 use crate::io::timefmt::utc_label;
 
-/// Identifier of the report layout; changes only when a field changes meaning or goes away.
-pub const QA_SCHEMA: &str = "ebbwise-qa-report/1";
-
 /// Step of the tide series in the report, minutes.
 pub const TIDE_SERIES_STEP_MIN: f64 = 5.0;
-
-/// A zone or line that does not meet the chosen order.
-#[derive(Debug, Clone, Serialize)]
-pub struct Failing {
-    /// Zone or line id.
-    pub id: String,
-    /// Soundings assessed.
-    pub soundings: u64,
-    /// Share within the chosen order (0–1).
-    pub share_within: f64,
-    /// Acceptance share minus the share within (0–1).
-    pub shortfall: f64,
-    /// 95th percentile of U95/allowed (above 1: by how much the limit is exceeded).
-    pub p95_ratio: f64,
-}
-
-/// Tide and its 95 % band in one zone over the survey period.
-#[derive(Debug, Clone, Serialize)]
-pub struct ZoneTideSeries {
-    /// Zone id.
-    pub zone: String,
-    /// Times, ISO 8601 UTC.
-    pub times_utc: Vec<String>,
-    /// Tide above chart datum, metres (null where there is no gauge data).
-    pub tide_m: Vec<Option<f64>>,
-    /// Expanded (95 %, k = 1.96) uncertainty of the tide, metres.
-    pub u95_tide_m: Vec<Option<f64>>,
-    /// Times as UTC seconds (for plotting; not in the JSON).
-    #[serde(skip)]
-    pub times_s: Vec<f64>,
-}
-
-/// A gauge's uncertainty inputs as used.
-#[derive(Debug, Clone, Serialize)]
-pub struct GaugeInput {
-    /// Gauge id.
-    pub gauge: String,
-    /// Sensor + interpolation standard uncertainty, metres.
-    pub u_gauge_m: f64,
-    /// Chart-datum standard uncertainty, metres.
-    pub u_datum_m: f64,
-}
-
-/// A zone's uncertainty inputs as used.
-#[derive(Debug, Clone, Serialize)]
-pub struct ZoneInput {
-    /// Zone id.
-    pub zone: String,
-    /// Time corrector standard uncertainty, minutes.
-    pub u_time_corrector_min: f64,
-    /// Range ratio standard uncertainty.
-    pub u_range_ratio: f64,
-    /// Spatial standard uncertainty, metres.
-    pub u_zone_m: f64,
-}
-
-/// Inputs of the budget as used.
-#[derive(Debug, Clone, Serialize)]
-pub struct UncertaintyInputs {
-    /// Per gauge (standard uncertainties).
-    pub gauges: Vec<GaugeInput>,
-    /// Per zone (standard uncertainties).
-    pub zones: Vec<ZoneInput>,
-    /// Sounding model a (m) and b, standard; used where a file has no u_depth column.
-    pub sounding_a_m: f64,
-    /// See `sounding_a_m`.
-    pub sounding_b: f64,
-    /// Inputs that fell back to the project's (demo) defaults.
-    pub defaulted: Vec<String>,
-}
-
-/// Histogram of U95 TVU / allowed TVU for the chosen order.
-#[derive(Debug, Clone, Serialize)]
-pub struct RatioHistogram {
-    /// Bin width (ratio units); bin k covers [k·w, (k+1)·w); the last bin also holds all above.
-    pub bin_width: f64,
-    /// Soundings per bin.
-    pub counts: Vec<u64>,
-}
-
-/// A reduced sounding on the map.
-#[derive(Debug, Clone, Copy)]
-pub struct MapPoint {
-    /// Longitude, degrees.
-    pub lon: f64,
-    /// Latitude, degrees.
-    pub lat: f64,
-    /// U95/allowed for the chosen order.
-    pub ratio: f64,
-}
-
-/// The QA report.
-#[derive(Debug, Clone, Serialize)]
-pub struct QaReport {
-    /// Layout identifier, [`QA_SCHEMA`].
-    pub schema: &'static str,
-    /// ebbwise version.
-    pub ebbwise_version: &'static str,
-    /// Project name.
-    pub project_name: String,
-    /// Project file.
-    pub project_file: String,
-    /// The caution that goes with every result.
-    pub caution: &'static str,
-    /// The order each sounding is judged against.
-    pub chosen_order: SurveyOrder,
-    /// Share of soundings that must be within an order's limit to meet it.
-    pub acceptance_share: f64,
-    /// Every order assessed (S-44 Edition 6.1.0 Table 1, then custom orders).
-    pub orders: Vec<SurveyOrder>,
-    /// Soundings per status over the run.
-    pub rows_by_status: crate::compute::reduce::StatusCounts,
-    /// The strictest built-in order the whole survey meets, if any.
-    pub achieved_order: Option<String>,
-    /// The component with the largest mean share of u_tvu² over the survey.
-    pub dominant_component: String,
-    /// The whole survey.
-    pub survey: GroupSummary,
-    /// Per zone.
-    pub zones: Vec<GroupSummary>,
-    /// Per survey line.
-    pub lines: Vec<GroupSummary>,
-    /// Zones that do not meet the chosen order.
-    pub failing_zones: Vec<Failing>,
-    /// Lines that do not meet the chosen order.
-    pub failing_lines: Vec<Failing>,
-    /// U95/allowed over the survey, chosen order.
-    pub ratio_histogram: RatioHistogram,
-    /// Tide and 95 % band per zone.
-    pub tide_series: Vec<ZoneTideSeries>,
-    /// The uncertainty inputs used.
-    pub inputs: UncertaintyInputs,
-    /// Map points (HTML only).
-    #[serde(skip)]
-    pub map_points: Vec<MapPoint>,
-    /// Zone polygons, lon/lat (HTML only).
-    #[serde(skip)]
-    pub zone_polygons: Vec<(String, geo::MultiPolygon<f64>)>,
-}
-
-fn failing(g: &GroupSummary) -> Option<Failing> {
-    (!g.meets_chosen && g.soundings > 0).then(|| Failing {
-        id: g.id.clone(),
-        soundings: g.soundings,
-        share_within: g.share_within_chosen,
-        shortfall: g.shortfall.unwrap_or(0.0),
-        p95_ratio: g.p95_ratio_chosen,
-    })
-}
 
 /// Builds the QA report; `None` when the run computed no uncertainty.
 pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
@@ -301,9 +154,9 @@ pub fn tide_series(loaded: &Loaded, t0: f64, t1: f64) -> Vec<ZoneTideSeries> {
                             t,
                             &states,
                         );
-                        s.tide_m.push(Some((tide * 1e4).round() / 1e4));
+                        s.tide_m.push(Some(round_nearest(tide, METRE_DECIMALS)));
                         s.u95_tide_m
-                            .push(Some((K95 * b.u_tide_m() * 1e4).round() / 1e4));
+                            .push(Some(round_nearest(K95 * b.u_tide_m(), METRE_DECIMALS)));
                     }
                     Err(_) => {
                         s.tide_m.push(None);

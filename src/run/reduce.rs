@@ -17,7 +17,7 @@ use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
     reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel, TideOutcome, N_STATUS,
 };
-use crate::compute::uncertainty::{tide_budget, u_tvu_m, K95};
+use crate::compute::uncertainty::{judge_as_written, tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
@@ -36,7 +36,8 @@ pub const APPENDED_COLUMNS: [&str; 5] = [
 
 /// Columns appended after [`APPENDED_COLUMNS`] when uncertainty is computed, in order. All are
 /// standard uncertainties (1σ) except `u95_tvu_m` and `allowed_u95_tvu_m` (95 %);
-/// `within_order` is `yes` or `no` for the chosen order.
+/// `within_order` is `yes` or `no` for the chosen order, judged on `u95_tvu_m` and
+/// `allowed_u95_tvu_m` as written (rounded to [`UNCERTAINTY_DECIMALS`]).
 pub const UNCERTAINTY_COLUMNS: [&str; 11] = [
     "u_tide_gauge_m",
     "u_tide_datum_m",
@@ -818,7 +819,7 @@ fn process_chunk(
             ctx.zone_ids.len(),
         ));
     }
-    let mut ratios: Vec<f64> = Vec::with_capacity(unc.map_or(0, |u| u.orders.len()));
+    let mut within: Vec<bool> = Vec::with_capacity(unc.map_or(0, |u| u.orders.len()));
     let mut fields = Fields::default();
     let mut states: Vec<FeedState> = Vec::with_capacity(4);
     let mut detail = String::new();
@@ -889,20 +890,34 @@ fn process_chunk(
                                     .unwrap_or_else(|| u.sounding_model.u_m(v.depth_m));
                                 let u_tvu = u_tvu_m(u_snd, u_tide);
                                 let u95 = K95 * u_tvu;
-                                ratios.clear();
-                                ratios
-                                    .extend(u.orders.iter().map(|o| u95 / o.tvu_max95_m(reduced)));
                                 let allowed = u.orders[u.chosen].tvu_max95_m(reduced);
+                                // Judged on the values as the columns write them, so that
+                                // `within_order` and the QA counts agree with what a reader
+                                // sees (every order at the decimals of the columns).
+                                let verdict = judge_as_written(u95, allowed, UNCERTAINTY_DECIMALS);
+                                within.clear();
+                                within.extend(u.orders.iter().enumerate().map(|(k, o)| {
+                                    if k == u.chosen {
+                                        verdict.within
+                                    } else {
+                                        judge_as_written(
+                                            u95,
+                                            o.tvu_max95_m(reduced),
+                                            UNCERTAINTY_DECIMALS,
+                                        )
+                                        .within
+                                    }
+                                }));
                                 let bv = b.variances_m2;
                                 let var = [u_snd * u_snd, bv[0], bv[1], bv[2], bv[3], bv[4]];
                                 if let Some(q) = o.qa.as_mut() {
-                                    q.add(z, v.line_id, &ratios, &var);
+                                    q.add(z, v.line_id, &within, verdict.ratio, &var);
                                     if line_no % ctx.map_stride == 0 {
                                         q.samples.push(MapSample {
                                             group: ctx.group,
                                             x: v.x,
                                             y: v.y,
-                                            ratio: ratios[u.chosen],
+                                            ratio: verdict.ratio,
                                         });
                                     }
                                 }
@@ -911,7 +926,7 @@ fn process_chunk(
                                         comps[0], comps[1], comps[2], comps[3], comps[4], u_tide,
                                         u_snd, u_tvu, u95, allowed,
                                     ],
-                                    u95 <= allowed,
+                                    verdict.within,
                                 ));
                             }
                             SoundingStatus::Reduced

@@ -1,0 +1,167 @@
+//! The QA report of a reduction as plain data: what `run::qa_report` builds from the run's QA
+//! counts and `io::report_html` renders, and what `qa-report.json` serialises (schema
+//! `docs/qa-report.schema.json`).
+//!
+//! Every number here is already rounded to the decimals stated in `docs/outputs.md` (shares and
+//! ratios in [`super::qa`], metres to [`METRE_DECIMALS`](super::qa::METRE_DECIMALS)); inputs are as the project gives them.
+
+use serde::Serialize;
+
+use super::qa::GroupSummary;
+use super::reduce::StatusCounts;
+use super::uncertainty::SurveyOrder;
+
+/// Identifier of the report layout; changes only when a field changes meaning or goes away.
+pub const QA_SCHEMA: &str = "ebbwise-qa-report/1";
+
+/// A zone or line that does not meet the chosen order.
+#[derive(Debug, Clone, Serialize)]
+pub struct Failing {
+    /// Zone or line id.
+    pub id: String,
+    /// Soundings assessed.
+    pub soundings: u64,
+    /// Share within the chosen order (0–1).
+    pub share_within: f64,
+    /// Acceptance share minus the share within (0–1).
+    pub shortfall: f64,
+    /// 95th percentile of U95/allowed (above 1: by how much the limit is exceeded).
+    pub p95_ratio: f64,
+}
+
+/// Tide and its 95 % band in one zone over the survey period.
+#[derive(Debug, Clone, Serialize)]
+pub struct ZoneTideSeries {
+    /// Zone id.
+    pub zone: String,
+    /// Times, ISO 8601 UTC.
+    pub times_utc: Vec<String>,
+    /// Tide above chart datum, metres to [`METRE_DECIMALS`](super::qa::METRE_DECIMALS) (null where there is no gauge
+    /// data).
+    pub tide_m: Vec<Option<f64>>,
+    /// Expanded (95 %, k = 1.96) uncertainty of the tide, metres to [`METRE_DECIMALS`](super::qa::METRE_DECIMALS).
+    pub u95_tide_m: Vec<Option<f64>>,
+    /// Times as UTC seconds (for plotting; not in the JSON).
+    #[serde(skip)]
+    pub times_s: Vec<f64>,
+}
+
+/// A gauge's uncertainty inputs as used.
+#[derive(Debug, Clone, Serialize)]
+pub struct GaugeInput {
+    /// Gauge id.
+    pub gauge: String,
+    /// Sensor + interpolation standard uncertainty, metres.
+    pub u_gauge_m: f64,
+    /// Chart-datum standard uncertainty, metres.
+    pub u_datum_m: f64,
+}
+
+/// A zone's uncertainty inputs as used.
+#[derive(Debug, Clone, Serialize)]
+pub struct ZoneInput {
+    /// Zone id.
+    pub zone: String,
+    /// Time corrector standard uncertainty, minutes.
+    pub u_time_corrector_min: f64,
+    /// Range ratio standard uncertainty.
+    pub u_range_ratio: f64,
+    /// Spatial standard uncertainty, metres.
+    pub u_zone_m: f64,
+}
+
+/// Inputs of the budget as used.
+#[derive(Debug, Clone, Serialize)]
+pub struct UncertaintyInputs {
+    /// Per gauge (standard uncertainties).
+    pub gauges: Vec<GaugeInput>,
+    /// Per zone (standard uncertainties).
+    pub zones: Vec<ZoneInput>,
+    /// Sounding model a (m) and b, standard; used where a file has no u_depth column.
+    pub sounding_a_m: f64,
+    /// See `sounding_a_m`.
+    pub sounding_b: f64,
+    /// Inputs that fell back to the project's (demo) defaults.
+    pub defaulted: Vec<String>,
+}
+
+/// Histogram of U95 TVU / allowed TVU for the chosen order.
+#[derive(Debug, Clone, Serialize)]
+pub struct RatioHistogram {
+    /// Bin width (ratio units); bin k covers [k·w, (k+1)·w); the last bin also holds all above.
+    pub bin_width: f64,
+    /// Soundings per bin.
+    pub counts: Vec<u64>,
+}
+
+/// A reduced sounding on the map.
+#[derive(Debug, Clone, Copy)]
+pub struct MapPoint {
+    /// Longitude, degrees.
+    pub lon: f64,
+    /// Latitude, degrees.
+    pub lat: f64,
+    /// U95/allowed for the chosen order.
+    pub ratio: f64,
+}
+
+/// The QA report.
+#[derive(Debug, Clone, Serialize)]
+pub struct QaReport {
+    /// Layout identifier, [`QA_SCHEMA`].
+    pub schema: &'static str,
+    /// ebbwise version.
+    pub ebbwise_version: &'static str,
+    /// Project name.
+    pub project_name: String,
+    /// Project file.
+    pub project_file: String,
+    /// The caution that goes with every result.
+    pub caution: &'static str,
+    /// The order each sounding is judged against.
+    pub chosen_order: SurveyOrder,
+    /// Share of soundings that must be within an order's limit to meet it.
+    pub acceptance_share: f64,
+    /// Every order assessed (S-44 Edition 6.1.0 Table 1, then custom orders).
+    pub orders: Vec<SurveyOrder>,
+    /// Soundings per status over the run.
+    pub rows_by_status: StatusCounts,
+    /// The strictest built-in order the whole survey meets, if any.
+    pub achieved_order: Option<String>,
+    /// The component with the largest mean share of u_tvu² over the survey.
+    pub dominant_component: String,
+    /// The whole survey.
+    pub survey: GroupSummary,
+    /// Per zone.
+    pub zones: Vec<GroupSummary>,
+    /// Per survey line.
+    pub lines: Vec<GroupSummary>,
+    /// Zones that do not meet the chosen order.
+    pub failing_zones: Vec<Failing>,
+    /// Lines that do not meet the chosen order.
+    pub failing_lines: Vec<Failing>,
+    /// U95/allowed over the survey, chosen order.
+    pub ratio_histogram: RatioHistogram,
+    /// Tide and 95 % band per zone.
+    pub tide_series: Vec<ZoneTideSeries>,
+    /// The uncertainty inputs used.
+    pub inputs: UncertaintyInputs,
+    /// Map points (HTML only).
+    #[serde(skip)]
+    pub map_points: Vec<MapPoint>,
+    /// Zone polygons, lon/lat (HTML only).
+    #[serde(skip)]
+    pub zone_polygons: Vec<(String, geo::MultiPolygon<f64>)>,
+}
+
+/// The entry of `failing_zones` or `failing_lines` for a group that has soundings and does
+/// not meet the chosen order.
+pub fn failing(g: &GroupSummary) -> Option<Failing> {
+    (!g.meets_chosen && g.soundings > 0).then(|| Failing {
+        id: g.id.clone(),
+        soundings: g.soundings,
+        share_within: g.share_within_chosen,
+        shortfall: g.shortfall.unwrap_or(0.0),
+        p95_ratio: g.p95_ratio_chosen,
+    })
+}
