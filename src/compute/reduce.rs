@@ -175,6 +175,27 @@ impl TideModel for DiscreteZoning<'_> {
     }
 }
 
+/// Resolution at which the tide is applied: 0.1 mm, the resolution every output writes it with.
+pub const TIDE_RESOLUTION_DECIMALS: u32 = 4;
+
+/// The tide as it is applied and written: `tide_m` rounded to [`TIDE_RESOLUTION_DECIMALS`]
+/// decimals, half away from zero (the rule of the fixed-decimal columns). Subtracting this rather
+/// than the unrounded tide (a change of at most 0.05 mm) makes the written columns add up — for an
+/// observed depth with at most 4 decimals, written `tide_m` + `reduced_depth_m` is the observed
+/// depth exactly — and makes a reduction from a correction file, which holds the written tide,
+/// identical to the direct one. A value too large to round is returned unchanged.
+///
+/// # Units
+/// Metres above chart datum, positive up.
+pub fn applied_tide_m(tide_m: f64) -> f64 {
+    const SCALE: f64 = 1e4;
+    let scaled = tide_m * SCALE;
+    if !scaled.is_finite() || scaled.abs() >= 1.0e15 {
+        return tide_m;
+    }
+    scaled.round() / SCALE
+}
+
 /// Reduced depth below chart datum from an observed depth below the water surface.
 ///
 /// # Units
@@ -191,6 +212,21 @@ mod tests {
     use crate::compute::series::{LevelSeries, Linear};
     use crate::compute::zoning::{GaugeFeed, MeanLevelForm};
     use geo::{polygon, MultiPolygon};
+
+    #[test]
+    fn the_applied_tide_is_the_written_one() {
+        // Half away from zero at the fifth decimal (the fixed-decimal columns' rule).
+        assert_eq!(applied_tide_m(2.48075), 2.4808);
+        assert_eq!(applied_tide_m(-0.00005), -0.0001);
+        assert_eq!(applied_tide_m(1.23456789), 1.2346);
+        // A depth with two decimals minus the applied tide lies on the 0.1-mm grid.
+        let reduced = reduce_depth(10.93, applied_tide_m(3.410_149));
+        assert!(
+            (reduced * 1e4 - (reduced * 1e4).round()).abs() < 1e-6,
+            "{reduced}"
+        );
+        assert!(applied_tide_m(f64::INFINITY).is_infinite());
+    }
 
     #[test]
     fn drying_heights_are_kept_negative() {

@@ -15,7 +15,8 @@ use serde::Serialize;
 use super::load::{locator_for_crs, Loaded};
 use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
-    reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel, TideOutcome, N_STATUS,
+    applied_tide_m, reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel,
+    TideOutcome, N_STATUS,
 };
 use crate::compute::uncertainty::{judge_as_written, tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
@@ -870,6 +871,7 @@ fn process_chunk(
                     match model.tide_at(v.x, v.y, v.t_s, v.line_id, &mut states) {
                         TideOutcome::Tide { zone: z, tide_m } => {
                             zone = Some(z);
+                            let tide_m = applied_tide_m(tide_m);
                             let reduced = reduce_depth(v.depth_m, tide_m);
                             tide = Some((tide_m, reduced));
                             if let Some(u) = unc {
