@@ -12,7 +12,7 @@ use super::reduce::StatusCounts;
 use super::uncertainty::SurveyOrder;
 
 /// Identifier of the report layout; changes only when a field changes meaning or goes away.
-pub const QA_SCHEMA: &str = "ebbwise-qa-report/1";
+pub const QA_SCHEMA: &str = "ebbwise-qa-report/2";
 
 /// A zone or line that does not meet the chosen order.
 #[derive(Debug, Clone, Serialize)]
