@@ -49,17 +49,19 @@ impl fmt::Display for Position {
 }
 
 /// An error reading or writing a file.
+///
+/// Its `Display` is the whole message, the operating system's words included; it returns no
+/// `source()`, so that a printer that walks the chain of causes says them once.
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum IoError {
     /// The file could not be opened, read or written.
-    #[error("{}: {source}", path.display())]
+    #[error("{}: {error}", path.display())]
     File {
         /// The file.
         path: PathBuf,
         /// The operating system's error.
-        #[source]
-        source: std::io::Error,
+        error: std::io::Error,
     },
     /// The content is wrong at a position.
     #[error("{at}: {message}")]
@@ -80,10 +82,10 @@ impl IoError {
         }
     }
     /// A file error.
-    pub fn file(path: &Path, source: std::io::Error) -> Self {
+    pub fn file(path: &Path, error: std::io::Error) -> Self {
         IoError::File {
             path: path.to_path_buf(),
-            source,
+            error,
         }
     }
     /// The position, for content errors.
@@ -139,7 +141,7 @@ impl From<IoError> for Finding {
     fn from(e: IoError) -> Self {
         match e {
             IoError::Content { at, message } => Finding::error(at, message),
-            IoError::File { path, source } => Finding::error(path.display(), source.to_string()),
+            IoError::File { path, error } => Finding::error(path.display(), error.to_string()),
         }
     }
 }

@@ -191,3 +191,31 @@ fn swapped_longitude_and_latitude_are_named() {
     let d = &rows[0][h.iter().position(|c| c == "status_detail").unwrap()];
     assert_eq!(d, "position is outside every zone (with x and y swapped it would be in zone 'Z1': check the column mapping, x = longitude or easting, y = latitude or northing)");
 }
+
+/// A file that cannot be opened is named once with the operating system's words once: the
+/// project file itself, a soundings file the project names, and the record `analyse` is given.
+#[test]
+fn a_missing_file_is_reported_once() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let missing_project = p.path("nothere.toml").to_string_lossy().into_owned();
+    std::fs::remove_file(p.path("s.csv")).unwrap();
+    let missing_record = p.path("nothere.csv").to_string_lossy().into_owned();
+    for (args, file) in [
+        (vec!["reduce", missing_project.as_str()], "nothere.toml"),
+        (vec!["reduce", &p.project(), "--no-progress"], "s.csv"),
+        (vec!["analyse", missing_record.as_str()], "nothere.csv"),
+    ] {
+        let o = ebbwise(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        let err = stderr(&o);
+        let line = err
+            .lines()
+            .find(|l| l.starts_with("ebbwise: "))
+            .unwrap_or_else(|| panic!("{args:?}: {err}"));
+        // The OS error of a missing file (ENOENT) is "No such file or directory (os error 2)" on
+        // Linux and macOS; whatever the words, they end in "(os error N)" once.
+        assert!(line.contains(&format!("{file}: ")), "{line}");
+        assert_eq!(line.matches("(os error").count(), 1, "{line}");
+    }
+}
