@@ -535,14 +535,12 @@ impl Project {
             at.line = line;
             IoError::content(at, e.message().to_string())
         })?;
-        let dir = path
-            .parent()
-            .map(Path::to_path_buf)
-            .unwrap_or_else(|| PathBuf::from("."));
-        let dir = if dir.as_os_str().is_empty() {
+        // The folder as the user wrote it ("" for a bare file name): paths are shown as typed.
+        let parent = path.parent().unwrap_or(Path::new(""));
+        let dir = if parent.as_os_str().is_empty() {
             PathBuf::from(".")
         } else {
-            dir
+            parent.to_path_buf()
         };
         let at = |field: &str| Position::file(path).field(field.to_string());
         let naive_offset = match &spec.naive_time_utc_offset {
@@ -702,17 +700,17 @@ impl Project {
                 ));
             }
         }
-        spec.zoning = dir.join(&spec.zoning);
-        spec.output.dir = dir.join(&spec.output.dir);
+        spec.zoning = resolve(parent, &spec.zoning);
+        spec.output.dir = resolve(parent, &spec.output.dir);
         for g in &mut spec.gauges {
-            g.record = dir.join(&g.record);
+            g.record = resolve(parent, &g.record);
             if let Some(c) = &g.constants {
-                g.constants = Some(dir.join(c));
+                g.constants = Some(resolve(parent, c));
             }
         }
         for s in &mut spec.soundings {
             for f in &mut s.files {
-                *f = dir.join(&*f);
+                *f = resolve(parent, f);
             }
         }
         Ok(Project {
@@ -732,9 +730,52 @@ impl Project {
     }
 }
 
+/// A path of the project file read from the project file's folder `dir` (as the user wrote it,
+/// empty for a bare file name): an absolute path and a path beside a bare file name stay as
+/// written; otherwise the folder is joined on without a doubled `./` (`./p.toml` and `./a.csv`
+/// give `./a.csv`, not `././a.csv`). Nothing is canonicalised.
+fn resolve(dir: &Path, p: &Path) -> PathBuf {
+    if p.is_absolute() || dir.as_os_str().is_empty() {
+        return p.to_path_buf();
+    }
+    let rest: PathBuf = p
+        .components()
+        .skip_while(|c| matches!(c, std::path::Component::CurDir))
+        .collect();
+    if rest.as_os_str().is_empty() {
+        dir.to_path_buf()
+    } else {
+        dir.join(rest)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn paths_are_joined_as_typed_without_a_doubled_dot() {
+        // (project file, path written in it) -> the path the run uses and prints.
+        for (project, written, want) in [
+            ("project.toml", "./a.csv", "./a.csv"),
+            ("project.toml", "a.csv", "a.csv"),
+            ("./project.toml", "./a.csv", "./a.csv"),
+            ("./project.toml", "a.csv", "./a.csv"),
+            ("day1/project.toml", "./gauges/a.csv", "day1/gauges/a.csv"),
+            ("day1/project.toml", "../a.csv", "day1/../a.csv"),
+            ("day1/project.toml", ".", "day1"),
+            ("day1/project.toml", "/data/a.csv", "/data/a.csv"),
+        ] {
+            let text = MINIMAL.replace("\"a.csv\"", &format!("{written:?}"));
+            let p = Project::from_str_at(&text, Path::new(project)).unwrap();
+            assert_eq!(
+                p.spec.gauges[0].record,
+                PathBuf::from(want),
+                "{project} + {written}"
+            );
+            assert_eq!(p.spec.gauges[0].record.display().to_string(), want);
+        }
+    }
 
     const MINIMAL: &str = r#"
 name = "t"

@@ -219,3 +219,28 @@ fn a_missing_file_is_reported_once() {
         assert_eq!(line.matches("(os error").count(), 1, "{line}");
     }
 }
+
+/// Paths are printed as the project file's folder joined with what the file says, without a
+/// doubled `./`: run from the project's folder on `project.toml`, a record written
+/// `./missing.csv` is reported as `./missing.csv`.
+#[test]
+fn paths_are_printed_as_written() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let text = std::fs::read_to_string(p.path("project.toml")).unwrap();
+    p.write(
+        "project.toml",
+        &text.replace("record = \"g1.csv\"", "record = \"./missing.csv\""),
+    );
+    for project in ["project.toml", "./project.toml"] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ebbwise"))
+            .args(["check", project])
+            .current_dir(p.dir.path())
+            .output()
+            .unwrap();
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(1), "{err}");
+        assert!(err.contains("error: ./missing.csv: "), "{project}: {err}");
+        assert!(!err.contains("././"), "{project}: {err}");
+    }
+}
