@@ -177,7 +177,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         if (w - 1.0).abs() > 1e-6 && !zone.feeds.is_empty() {
             findings.push(Finding::error(
                 at.clone(),
-                format!("zone '{}': gauge weights sum to {w}, not 1", z.id),
+                format!("zone '{}': gauge weights sum to {w:.6}, not 1", z.id),
             ));
         }
         zones.push(zone);
