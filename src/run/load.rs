@@ -125,12 +125,17 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     for z in &zoning.zones {
         let at = Position::file(&project.spec.zoning)
             .field(format!("features[{}].properties", z.feature_index));
+        let at_geometry = Position::file(&project.spec.zoning)
+            .field(format!("features[{}].geometry", z.feature_index));
         if let Some(m) = self_intersection(&z.polygon_lonlat) {
-            findings.push(Finding::error(at.clone(), format!("zone '{}': {m}", z.id)));
+            findings.push(Finding::error(
+                at_geometry.clone(),
+                format!("zone '{}': {m}", z.id),
+            ));
         }
         for ring in &z.unclosed_rings {
             findings.push(Finding::error(
-                at.clone(),
+                at_geometry.clone(),
                 format!(
                     "zone '{}': {ring} is not closed (first and last positions differ)",
                     z.id
@@ -176,7 +181,8 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         let w: f64 = z.feeds.iter().map(|f| f.weight).sum();
         if (w - 1.0).abs() > 1e-6 && !zone.feeds.is_empty() {
             findings.push(Finding::error(
-                at.clone(),
+                Position::file(&project.spec.zoning)
+                    .field(format!("features[{}].properties.feeds", z.feature_index)),
                 format!("zone '{}': gauge weights sum to {w:.6}, not 1", z.id),
             ));
         }

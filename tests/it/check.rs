@@ -34,7 +34,7 @@ fn unknown_gauge_and_bad_weights() {
     // 0.6 + 0.3 is 0.8999999999999999 in binary floating point; the sum is printed to the
     // 1e-6 tolerance of the check.
     assert!(
-        err.contains("zone 'Z2': gauge weights sum to 0.900000, not 1"),
+        err.contains("zoning.geojson: field 'features[1].properties.feeds': zone 'Z2': gauge weights sum to 0.900000, not 1"),
         "{err}"
     );
 }
