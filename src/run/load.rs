@@ -38,6 +38,10 @@ pub struct Loaded {
     pub uncertainty: Option<UncertaintyConfig>,
     /// Problems found while loading that do not stop a run.
     pub warnings: Vec<Finding>,
+    /// The zoning lies away from every gauge but, with its positions read as [latitude,
+    /// longitude], around all of them: its axes look swapped ([`zoning_looks_swapped`]; a warning
+    /// says so, and the hint for a sounding outside every zone names the zoning file).
+    pub zoning_looks_swapped: bool,
 }
 
 /// Uncertainty inputs resolved for every gauge and zone.
@@ -193,6 +197,17 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         .any(|f| f.severity == crate::io::error::Severity::Error)
     {
         return Err(findings);
+    }
+    let gauge_lonlat: Vec<(f64, f64)> =
+        project.spec.gauges.iter().map(|g| (g.lon, g.lat)).collect();
+    let swapped = zoning_looks_swapped(&zoning, &gauge_lonlat);
+    if let Some(d_deg) = swapped {
+        findings.push(Finding::warning(
+            Position::file(&project.spec.zoning),
+            format!(
+                "the zoning lies {d_deg:.1}° from the nearest gauge, but with each position read as [latitude, longitude] it would lie around the gauges: GeoJSON positions are [longitude, latitude]; are they swapped in the zoning file?"
+            ),
+        ));
     }
     let uncertainty = match &project.spec.uncertainty {
         None => None,
@@ -381,7 +396,46 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         methods,
         uncertainty,
         warnings: findings,
+        zoning_looks_swapped: swapped.is_some(),
     })
+}
+
+/// Whether a zoning's positions look written as [latitude, longitude]: no gauge lies near the
+/// zoning's bounding box, and every gauge lies near the box with its axes swapped. "Near" is
+/// within the box's diagonal or 0.1°, whichever is larger (a gauge may stand a little outside
+/// the zones it feeds). Returns the distance, degrees, from the box to the nearest gauge.
+pub fn zoning_looks_swapped(zoning: &ZoningSpec, gauge_lonlat: &[(f64, f64)]) -> Option<f64> {
+    use geo::BoundingRect;
+    let mut rects = zoning
+        .zones
+        .iter()
+        .filter_map(|z| z.polygon_lonlat.bounding_rect());
+    let first = rects.next()?;
+    let (mut x0, mut y0, mut x1, mut y1) =
+        (first.min().x, first.min().y, first.max().x, first.max().y);
+    for r in rects {
+        x0 = x0.min(r.min().x);
+        y0 = y0.min(r.min().y);
+        x1 = x1.max(r.max().x);
+        y1 = y1.max(r.max().y);
+    }
+    if gauge_lonlat.is_empty() {
+        return None;
+    }
+    let near_deg = (x1 - x0).hypot(y1 - y0).max(0.1);
+    let distance = |(x, y): (f64, f64), (x0, y0, x1, y1): (f64, f64, f64, f64)| {
+        let dx = (x0 - x).max(x - x1).max(0.0);
+        let dy = (y0 - y).max(y - y1).max(0.0);
+        dx.hypot(dy)
+    };
+    let nearest = gauge_lonlat
+        .iter()
+        .map(|&g| distance(g, (x0, y0, x1, y1)))
+        .fold(f64::INFINITY, f64::min);
+    let all_near_swapped = gauge_lonlat
+        .iter()
+        .all(|&g| distance(g, (y0, x0, y1, x1)) <= near_deg);
+    (nearest > near_deg && all_near_swapped).then_some(nearest)
 }
 
 /// A gauge's series as the reducer uses it, with what was done to it.
@@ -590,4 +644,36 @@ pub fn locator_for_crs(zoning: &ZoningSpec, crs: &str) -> Result<ZoneLocator, St
 /// Turns an I/O error into findings (helper for callers collecting findings).
 pub fn finding(e: IoError) -> Finding {
     e.into()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::io::zoning_geojson::parse_zoning;
+
+    fn zoning(coords: &str) -> ZoningSpec {
+        let text = format!(
+            r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{"zone":"A","gauge":"g","time_corrector_min":0,"range_ratio":1}},"geometry":{{"type":"Polygon","coordinates":[{coords}]}}}}]}}"#
+        );
+        parse_zoning(text.as_bytes(), std::path::Path::new("z.geojson")).unwrap()
+    }
+
+    #[test]
+    fn a_zoning_written_latitude_first_is_recognised_by_the_gauges() {
+        // A 0.1° square at 4..4.1° E, 52..52.1° N; a gauge at 4.05° E, 52.12° N (0.02° north of
+        // it, within the 0.1° margin).
+        let right = zoning("[[4,52],[4.1,52],[4.1,52.1],[4,52.1],[4,52]]");
+        let swapped = zoning("[[52,4],[52,4.1],[52.1,4.1],[52.1,4],[52,4]]");
+        let gauge = [(4.05, 52.12)];
+        assert_eq!(zoning_looks_swapped(&right, &gauge), None);
+        // The swapped box is 52..52.1 by 4..4.1: the gauge lies 52 − 4.05 = 47.95° west and
+        // 52.12 − 4.1 = 48.02° north of it.
+        let d = zoning_looks_swapped(&swapped, &gauge).unwrap();
+        assert!((d - 47.95f64.hypot(48.02)).abs() < 1e-9, "{d}");
+        // A gauge far from both boxes says nothing about the axes.
+        assert_eq!(
+            zoning_looks_swapped(&swapped, &[(4.05, 52.12), (-60.0, -10.0)]),
+            None
+        );
+    }
 }

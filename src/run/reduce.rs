@@ -926,7 +926,12 @@ fn process_chunk(
                             {
                                 detail.push_str(" (with x and y swapped it would be in zone '");
                                 detail.push_str(ctx.zone_ids[z]);
-                                detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
+                                if ctx.loaded.zoning_looks_swapped {
+                                    // The gauges say the zoning, not the soundings, is swapped.
+                                    detail.push_str("': the zoning file's positions look swapped; GeoJSON positions are [longitude, latitude])");
+                                } else {
+                                    detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
+                                }
                             }
                             SoundingStatus::OutsideZoning
                         }
