@@ -14,6 +14,7 @@
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
+//! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
 pub mod compare;
@@ -22,6 +23,7 @@ pub mod fixed;
 pub mod harmonic;
 pub mod locate;
 pub mod lowpass;
+pub mod names;
 pub mod qa;
 pub mod qc;
 pub mod reduce;

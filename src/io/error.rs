@@ -97,6 +97,40 @@ impl IoError {
     }
 }
 
+impl IoError {
+    /// A TOML parse error of `text` (read from `path`) as a content error at its line. An unknown
+    /// key or value is named with the nearest valid one ("unknown key 'rnage_ratio': did you mean
+    /// 'range_ratio'?"), or with the valid ones when none is near.
+    pub fn from_toml(e: &toml::de::Error, text: &str, path: &Path) -> Self {
+        let mut at = Position::file(path);
+        at.line = e
+            .span()
+            .map(|s| text[..s.start.min(text.len())].matches('\n').count() as u64 + 1);
+        IoError::content(at, toml_message(e.message()))
+    }
+}
+
+/// serde's words for an unknown field or variant ("unknown field `x`, expected one of `a`, `b`"),
+/// said with a hint; any other message unchanged.
+fn toml_message(message: &str) -> String {
+    let what = if message.starts_with("unknown field `") {
+        "key"
+    } else if message.starts_with("unknown variant `") {
+        "value"
+    } else {
+        return message.to_string();
+    };
+    // Quoted names sit between backticks: the unknown one first, then the valid ones.
+    let quoted: Vec<&str> = message.split('`').skip(1).step_by(2).collect();
+    let Some((word, valid)) = quoted.split_first() else {
+        return message.to_string();
+    };
+    format!(
+        "unknown {what} '{word}'{}",
+        crate::compute::names::hint(word, valid.iter().copied())
+    )
+}
+
 /// A problem found by a validation pass: an error stops a run, a warning does not.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Finding {
@@ -153,5 +187,28 @@ impl fmt::Display for Finding {
             Severity::Warning => "warning",
         };
         write!(f, "{sev}: {}: {}", self.at, self.message)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn unknown_keys_and_values_get_the_nearest_valid_name() {
+        // serde's texts for an unknown field and an unknown variant.
+        assert_eq!(
+            toml_message("unknown field `rnage_ratio`, expected one of `range_ratio`, `order`"),
+            "unknown key 'rnage_ratio': did you mean 'range_ratio'?"
+        );
+        assert_eq!(
+            toml_message("unknown variant `yards`, expected one of `m`, `ft`, `us_ft`"),
+            "unknown value 'yards' (expected one of: m, ft, us_ft)"
+        );
+        assert_eq!(
+            toml_message("unknown field `x`, there are no fields"),
+            "unknown key 'x'"
+        );
+        assert_eq!(toml_message("invalid type: string"), "invalid type: string");
     }
 }

@@ -527,14 +527,8 @@ impl Project {
 
     /// Parses project text as if read from `path`.
     pub fn from_str_at(text: &str, path: &Path) -> Result<Project, IoError> {
-        let mut spec: ProjectFile = toml::from_str(text).map_err(|e| {
-            let line = e
-                .span()
-                .map(|s| text[..s.start.min(text.len())].matches('\n').count() as u64 + 1);
-            let mut at = Position::file(path);
-            at.line = line;
-            IoError::content(at, e.message().to_string())
-        })?;
+        let mut spec: ProjectFile =
+            toml::from_str(text).map_err(|e| IoError::from_toml(&e, text, path))?;
         // The folder as the user wrote it ("" for a bare file name): paths are shown as typed.
         let parent = path.parent().unwrap_or(Path::new(""));
         let dir = if parent.as_os_str().is_empty() {

@@ -21,7 +21,7 @@ use std::path::Path;
 use geo::{MultiPolygon, Polygon};
 use serde_json::{Map, Value};
 
-use super::error::{IoError, Position};
+use super::error::{Finding, IoError, Position};
 
 /// One gauge's correctors for a zone, as written (gauge by id).
 #[derive(Debug, Clone, PartialEq)]
@@ -65,11 +65,43 @@ pub struct ZoneSpec {
 pub struct ZoningSpec {
     /// Zones in file order.
     pub zones: Vec<ZoneSpec>,
+    /// Members that are not read but look like a misspelling of one that is (warnings).
+    pub warnings: Vec<Finding>,
+}
+
+/// The properties of a zone that ebbwise reads.
+pub const ZONE_PROPERTIES: [&str; 9] = [
+    "zone",
+    "gauge",
+    "time_corrector_min",
+    "range_ratio",
+    "feeds",
+    "mean_level_above_datum_m",
+    "u_time_corrector_min",
+    "u_range_ratio",
+    "u_zone_m",
+];
+
+/// The members of one entry of `feeds`.
+pub const FEED_MEMBERS: [&str; 4] = ["gauge", "weight", "time_corrector_min", "range_ratio"];
+
+/// `key` is missing from `props`: "missing", with the present unknown member that looks like a
+/// misspelling of it (`known` are the members read here).
+fn missing(props: &Map<String, Value>, key: &str, known: &[&str]) -> String {
+    let near = props
+        .keys()
+        .filter(|k| !known.contains(&k.as_str()))
+        .find(|k| crate::compute::names::nearest(k, [key]).is_some());
+    match near {
+        Some(k) => format!("missing; unknown property '{k}': did you mean '{key}'?"),
+        None => "missing".into(),
+    }
 }
 
 fn num(
     props: &Map<String, Value>,
     key: &str,
+    known: &[&str],
     at: &dyn Fn(&str) -> Position,
 ) -> Result<f64, IoError> {
     match props.get(key) {
@@ -81,13 +113,14 @@ fn num(
             at(key),
             format!("expected a number, found {other}"),
         )),
-        None => Err(IoError::content(at(key), "missing")),
+        None => Err(IoError::content(at(key), missing(props, key, known))),
     }
 }
 
 fn text(
     props: &Map<String, Value>,
     key: &str,
+    known: &[&str],
     at: &dyn Fn(&str) -> Position,
 ) -> Result<String, IoError> {
     match props.get(key) {
@@ -96,7 +129,28 @@ fn text(
             at(key),
             format!("expected a non-empty text, found {other}"),
         )),
-        None => Err(IoError::content(at(key), "missing")),
+        None => Err(IoError::content(at(key), missing(props, key, known))),
+    }
+}
+
+/// Warnings for members of `obj` that ebbwise does not read but that look like a misspelling
+/// of one it reads and that is absent (other members are free: GeoJSON properties often carry
+/// names and styles from the tool that drew the zoning).
+fn near_misses(
+    obj: &Map<String, Value>,
+    known: &[&str],
+    at: &dyn Fn(&str) -> Position,
+    out: &mut Vec<Finding>,
+) {
+    for k in obj.keys().filter(|k| !known.contains(&k.as_str())) {
+        if let Some(n) = crate::compute::names::nearest(k, known.iter().copied()) {
+            if !obj.contains_key(n) {
+                out.push(Finding::warning(
+                    at(k),
+                    format!("unknown property '{k}', ignored: did you mean '{n}'?"),
+                ));
+            }
+        }
     }
 }
 
@@ -128,6 +182,7 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
         }
     };
     let mut zones = Vec::with_capacity(features.len());
+    let mut warnings = Vec::new();
     let mut ids = std::collections::HashMap::new();
     for (i, f) in features.iter().enumerate() {
         let pos = |k: &str| Position::file(path).field(format!("features[{i}].{k}"));
@@ -140,13 +195,16 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
                 ))
             }
         };
-        let id = text(props, "zone", &|k| pos(&format!("properties.{k}")))?;
+        let id = text(props, "zone", &ZONE_PROPERTIES, &|k| {
+            pos(&format!("properties.{k}"))
+        })?;
         let at = |k: &str| pos(&format!("properties.{k}")).clone();
         let at_named = |k: &str| {
             let mut p = at(k);
             p.field = p.field.map(|f| format!("{f} (zone '{id}')"));
             p
         };
+        near_misses(props, &ZONE_PROPERTIES, &at_named, &mut warnings);
         if let Some(prev) = ids.insert(id.clone(), i) {
             return Err(IoError::content(
                 at("zone"),
@@ -176,21 +234,22 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
                         ));
                     };
                     let fat = |key: &str| at_named(&format!("feeds[{k}].{key}"));
+                    near_misses(m, &FEED_MEMBERS, &fat, &mut warnings);
                     out.push(FeedSpec {
-                        gauge: text(m, "gauge", &fat)?,
-                        weight: num(m, "weight", &fat)?,
-                        time_corrector_min: num(m, "time_corrector_min", &fat)?,
-                        range_ratio: num(m, "range_ratio", &fat)?,
+                        gauge: text(m, "gauge", &FEED_MEMBERS, &fat)?,
+                        weight: num(m, "weight", &FEED_MEMBERS, &fat)?,
+                        time_corrector_min: num(m, "time_corrector_min", &FEED_MEMBERS, &fat)?,
+                        range_ratio: num(m, "range_ratio", &FEED_MEMBERS, &fat)?,
                     });
                 }
                 out
             }
             Some(_) => return Err(IoError::content(at_named("feeds"), "expected a list")),
             None => vec![FeedSpec {
-                gauge: text(props, "gauge", &at_named)?,
+                gauge: text(props, "gauge", &ZONE_PROPERTIES, &at_named)?,
                 weight: 1.0,
-                time_corrector_min: num(props, "time_corrector_min", &at_named)?,
-                range_ratio: num(props, "range_ratio", &at_named)?,
+                time_corrector_min: num(props, "time_corrector_min", &ZONE_PROPERTIES, &at_named)?,
+                range_ratio: num(props, "range_ratio", &ZONE_PROPERTIES, &at_named)?,
             }],
         };
         for (k, fd) in feeds.iter().enumerate() {
@@ -219,13 +278,18 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
         }
         let mean_level_above_datum_m = match props.get("mean_level_above_datum_m") {
             None | Some(Value::Null) => None,
-            Some(_) => Some(num(props, "mean_level_above_datum_m", &at_named)?),
+            Some(_) => Some(num(
+                props,
+                "mean_level_above_datum_m",
+                &ZONE_PROPERTIES,
+                &at_named,
+            )?),
         };
         let opt_u = |k: &str| -> Result<Option<f64>, IoError> {
             match props.get(k) {
                 None | Some(Value::Null) => Ok(None),
                 Some(_) => {
-                    let v = num(props, k, &at_named)?;
+                    let v = num(props, k, &ZONE_PROPERTIES, &at_named)?;
                     if v < 0.0 {
                         return Err(IoError::content(
                             at_named(k),
@@ -262,7 +326,7 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
             "the zoning holds no zone",
         ));
     }
-    Ok(ZoningSpec { zones })
+    Ok(ZoningSpec { zones, warnings })
 }
 
 fn ring(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<geo::LineString<f64>, String> {

@@ -118,6 +118,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             return Err(findings);
         }
     };
+    findings.extend(zoning.warnings.iter().cloned());
     let index: HashMap<&str, usize> = project
         .spec
         .gauges
@@ -158,16 +159,10 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 None => findings.push(Finding::error(
                     at.clone(),
                     format!(
-                        "zone '{}' names gauge '{}', which the project does not define (gauges: {})",
+                        "zone '{}' names gauge '{}', which the project does not define{}",
                         z.id,
                         f.gauge,
-                        project
-                            .spec
-                            .gauges
-                            .iter()
-                            .map(|g| g.id.as_str())
-                            .collect::<Vec<_>>()
-                            .join(", ")
+                        gauge_hint(&project, &f.gauge)
                     ),
                 )),
             }
@@ -273,12 +268,13 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 findings.push(Finding::error(
                     Position::file(&project.path).field("uncertainty.order"),
                     format!(
-                        "unknown survey order '{want}' (known: {})",
-                        orders
-                            .iter()
-                            .map(|o| o.name.as_str())
-                            .collect::<Vec<_>>()
-                            .join(", ")
+                        "unknown survey order '{want}'{}{}",
+                        if order_override.is_some() {
+                            " (given with --order)"
+                        } else {
+                            ""
+                        },
+                        crate::compute::names::hint(want, orders.iter().map(|o| o.name.as_str()))
                     ),
                 ));
                 return Err(findings);
@@ -398,6 +394,15 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         warnings: findings,
         zoning_looks_swapped: swapped.is_some(),
     })
+}
+
+/// `": did you mean 'g1'?"` for the project's gauge nearest to `id`, or `" (gauges: g1, g2)"`.
+pub fn gauge_hint(project: &Project, id: &str) -> String {
+    let ids = project.spec.gauges.iter().map(|g| g.id.as_str());
+    match crate::compute::names::nearest(id, ids.clone()) {
+        Some(n) => format!(": did you mean '{n}'?"),
+        None => format!(" (gauges: {})", ids.collect::<Vec<_>>().join(", ")),
+    }
 }
 
 /// Whether a zoning's positions look written as [latitude, longitude]: no gauge lies near the

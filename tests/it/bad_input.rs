@@ -244,3 +244,35 @@ fn paths_are_printed_as_written() {
         assert!(!err.contains("././"), "{project}: {err}");
     }
 }
+
+/// A misspelt survey order is named with the nearest one (`specal` is one letter short of
+/// `special`), in the project file and with `--order`; two equally near orders (`1c`: `1a`
+/// and `1b`) are no hint, so the valid ones are listed.
+#[test]
+fn a_misspelt_order_suggests_the_nearest() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let text = std::fs::read_to_string(p.path("project.toml")).unwrap();
+    p.write(
+        "project.toml",
+        &format!("{text}[uncertainty]\norder = \"specal\"\n"),
+    );
+    let o = ebbwise(&["check", &p.project()]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        stderr(&o).contains(
+            "project.toml: field 'uncertainty.order': unknown survey order 'specal': did you mean 'special'?"
+        ),
+        "{}",
+        stderr(&o)
+    );
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress", "--order", "1c"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains(
+            "unknown survey order '1c' (given with --order) (expected one of: exclusive, special, 1a, 1b, 2)"
+        ),
+        "{}",
+        stderr(&o)
+    );
+}

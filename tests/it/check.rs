@@ -30,7 +30,7 @@ fn unknown_gauge_and_bad_weights() {
     ));
     let (code, err) = check(&p);
     assert_eq!(code, Some(1), "{err}");
-    assert!(err.contains("zoning.geojson: field 'features[1].properties': zone 'Z2' names gauge 'g9', which the project does not define (gauges: g1)"), "{err}");
+    assert!(err.contains("zoning.geojson: field 'features[1].properties': zone 'Z2' names gauge 'g9', which the project does not define: did you mean 'g1'?"), "{err}");
     // 0.6 + 0.3 is 0.8999999999999999 in binary floating point; the sum is printed to the
     // 1e-6 tolerance of the check.
     assert!(
