@@ -925,7 +925,7 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
                     "above the record's zero"
                 };
                 let qc = ebbwise::io::project::QcSpec::default();
-                ebbwise::run::harmonics::analyse_gauge(
+                Ok(ebbwise::run::harmonics::analyse_gauge(
                     &spec,
                     None,
                     (!a.no_qc).then_some(&qc),
@@ -933,7 +933,7 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
                     None,
                     levels,
                     &out,
-                )
+                )?)
             }
             (None, Some(project)) => {
                 let p = Project::load(project)?;
@@ -953,7 +953,7 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
                     .out
                     .clone()
                     .unwrap_or_else(|| p.spec.output.dir.join(format!("{}.constants.toml", g.id)));
-                ebbwise::run::harmonics::analyse_gauge(
+                Ok(ebbwise::run::harmonics::analyse_gauge(
                     g,
                     p.gauge_naive_offset(g),
                     (!a.no_qc).then_some(&p.spec.qc),
@@ -961,7 +961,7 @@ fn cmd_analyse(a: AnalyseArgs) -> i32 {
                     Some(g.id.clone()),
                     "above chart datum",
                     &out,
-                )
+                )?)
             }
             (None, None) => anyhow::bail!("give a record, or --project and --gauge"),
         }
@@ -1114,7 +1114,14 @@ fn cmd_predict(
         let out = out.unwrap_or_else(|| PathBuf::from(format!("{stem}.prediction.csv")));
         let ex =
             high_low_waters.unwrap_or_else(|| PathBuf::from(format!("{stem}.high-low-waters.csv")));
-        ebbwise::run::harmonics::predict_file(constants, t0, t1, step_min * 60.0, &out, &ex)
+        Ok(ebbwise::run::harmonics::predict_file(
+            constants,
+            t0,
+            t1,
+            step_min * 60.0,
+            &out,
+            &ex,
+        )?)
     };
     match run() {
         Ok(o) => {

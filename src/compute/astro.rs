@@ -355,16 +355,13 @@ pub fn constituent(name: &str) -> Option<&'static Constituent> {
     })
 }
 
-/// `": did you mean 'M2'?"` for the one tabulated name or alias nearest to a name the table
-/// lacks, else nothing (the table is too long to list).
-pub fn constituent_hint(name: &str) -> String {
+/// The one tabulated name or alias nearest to a name the table lacks, for a "did you mean" hint
+/// (the table is too long to list in a message).
+pub fn nearest_constituent(name: &str) -> Option<&'static str> {
     let names = CONSTITUENTS
         .iter()
         .flat_map(|c| std::iter::once(c.name).chain(c.aliases.iter().copied()));
-    match super::names::nearest(name, names) {
-        Some(n) => format!(": did you mean '{n}'?"),
-        None => String::new(),
-    }
+    super::names::nearest(name, names)
 }
 
 /// Angular speed from the Doodson coefficients and the J2000 rates of τ, s, h, p, N′, p₁,

@@ -35,6 +35,13 @@ pub fn nearest<'a>(word: &str, candidates: impl IntoIterator<Item = &'a str>) ->
     best.filter(|_| !tie).map(|(_, c)| c)
 }
 
+/// `": did you mean 'x'?"`, or nothing without a suggestion (for error messages that carry one).
+pub fn did_you_mean(suggestion: Option<&str>) -> String {
+    suggestion
+        .map(|n| format!(": did you mean '{n}'?"))
+        .unwrap_or_default()
+}
+
 /// `": did you mean 'x'?"` for the nearest candidate, or `" (expected one of: a, b, c)"`.
 pub fn hint<'a>(word: &str, candidates: impl IntoIterator<Item = &'a str> + Clone) -> String {
     match nearest(word, candidates.clone()) {

@@ -200,7 +200,9 @@ impl ConstantsFile {
                     format!(
                         "unknown constituent '{}'{}",
                         e.name,
-                        crate::compute::astro::constituent_hint(&e.name)
+                        crate::compute::names::did_you_mean(
+                            crate::compute::astro::nearest_constituent(&e.name)
+                        )
                     ),
                 )
             })?;

@@ -74,11 +74,11 @@ pub enum IoError {
 }
 
 impl IoError {
-    /// A content error at a position.
-    pub fn content(at: Position, message: impl Into<String>) -> Self {
+    /// A content error at a position; the message is any text or error.
+    pub fn content(at: Position, message: impl fmt::Display) -> Self {
         IoError::Content {
             at,
-            message: message.into(),
+            message: message.to_string(),
         }
     }
     /// A file error.
@@ -154,19 +154,19 @@ pub enum Severity {
 
 impl Finding {
     /// An error finding.
-    pub fn error(at: impl fmt::Display, message: impl Into<String>) -> Self {
+    pub fn error(at: impl fmt::Display, message: impl fmt::Display) -> Self {
         Finding {
             severity: Severity::Error,
             at: at.to_string(),
-            message: message.into(),
+            message: message.to_string(),
         }
     }
     /// A warning finding.
-    pub fn warning(at: impl fmt::Display, message: impl Into<String>) -> Self {
+    pub fn warning(at: impl fmt::Display, message: impl fmt::Display) -> Self {
         Finding {
             severity: Severity::Warning,
             at: at.to_string(),
-            message: message.into(),
+            message: message.to_string(),
         }
     }
 }

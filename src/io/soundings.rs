@@ -434,7 +434,7 @@ impl SoundingLayout {
                 message: if t_txt.len() > 60 {
                     format!("expected a time, found '{}'", clip(t_txt))
                 } else {
-                    m
+                    m.to_string()
                 },
             })?;
         let x = number(self.x, "a coordinate")?;

@@ -9,8 +9,8 @@ use crate::compute::uncertainty::{
     s44_orders, GaugeUncertainty, SoundingUncertaintyModel, SurveyOrder, ZoneUncertainty,
 };
 use crate::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
-use crate::io::crs::Transformer;
-use crate::io::error::{Finding, IoError, Position};
+use crate::io::crs::{CrsError, Transformer};
+use crate::io::error::{Finding, Position};
 use crate::io::gauge_csv::{read_gauge_record, GaugeRecord};
 use crate::io::project::{GaugeSpec, InterpolationChoice, InterpolationSpec, Project, QcSpec};
 use crate::io::zoning_geojson::{read_zoning, ZoningSpec};
@@ -632,23 +632,38 @@ pub fn plausibility(g: &crate::io::project::GaugeSpec, r: &GaugeRecord) -> Optio
     }
 }
 
+/// Why the zoning cannot be placed in a soundings group's CRS.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum LocatorError {
+    /// The CRS is unknown, or PROJ has no transformation into it.
+    #[error(transparent)]
+    Crs(#[from] CrsError),
+    /// A zone's outline does not transform.
+    #[error("zone '{zone}': {error}")]
+    Zone {
+        /// The zone id.
+        zone: String,
+        /// What failed.
+        error: CrsError,
+    },
+}
+
 /// Builds the zone locator for one CRS (the zoning transformed into it).
-pub fn locator_for_crs(zoning: &ZoningSpec, crs: &str) -> Result<ZoneLocator, String> {
+pub fn locator_for_crs(zoning: &ZoningSpec, crs: &str) -> Result<ZoneLocator, LocatorError> {
     let t = Transformer::new("EPSG:4326", crs)?;
     let polys = zoning
         .zones
         .iter()
         .map(|z| {
             t.polygon_from_lonlat(&z.polygon_lonlat)
-                .map_err(|e| format!("zone '{}': {e}", z.id))
+                .map_err(|error| LocatorError::Zone {
+                    zone: z.id.clone(),
+                    error,
+                })
         })
         .collect::<Result<Vec<_>, _>>()?;
     Ok(ZoneLocator::new(polys))
-}
-
-/// Turns an I/O error into findings (helper for callers collecting findings).
-pub fn finding(e: IoError) -> Finding {
-    e.into()
 }
 
 #[cfg(test)]
