@@ -132,17 +132,36 @@ fn toml_message(message: &str) -> String {
 }
 
 /// A problem found by a validation pass: an error stops a run, a warning does not.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+///
+/// It prints as `error: file:line: field 'x': message`; serialised (`ebbwise check --json`) it
+/// is `{"severity", "at", "file", "line", "field", "message"}`, `at` being the position as
+/// printed and `line` and `field` `null` when not known.
+#[derive(Debug, Clone, PartialEq)]
 pub struct Finding {
     /// `error` or `warning`.
     pub severity: Severity,
-    /// File, line and field, as text.
-    pub at: String,
+    /// File, line and field.
+    pub at: Position,
     /// What is wrong.
     pub message: String,
 }
 
-/// How serious a finding is.
+impl serde::Serialize for Finding {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeStruct;
+        let mut m = s.serialize_struct("Finding", 6)?;
+        m.serialize_field("severity", &self.severity)?;
+        m.serialize_field("at", &self.at.to_string())?;
+        m.serialize_field("file", &self.at.path.to_string_lossy())?;
+        m.serialize_field("line", &self.at.line)?;
+        m.serialize_field("field", &self.at.field)?;
+        m.serialize_field("message", &self.message)?;
+        m.end()
+    }
+}
+
+/// How serious a finding is. Two levels on purpose: an error stops a reduction (and makes
+/// `ebbwise check` exit 1), a warning does not; a third level would have no exit code to mean.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, serde::Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Severity {
@@ -153,19 +172,19 @@ pub enum Severity {
 }
 
 impl Finding {
-    /// An error finding.
-    pub fn error(at: impl fmt::Display, message: impl fmt::Display) -> Self {
+    /// An error finding; the message is any text or error.
+    pub fn error(at: Position, message: impl fmt::Display) -> Self {
         Finding {
             severity: Severity::Error,
-            at: at.to_string(),
+            at,
             message: message.to_string(),
         }
     }
-    /// A warning finding.
-    pub fn warning(at: impl fmt::Display, message: impl fmt::Display) -> Self {
+    /// A warning finding; the message is any text or error.
+    pub fn warning(at: Position, message: impl fmt::Display) -> Self {
         Finding {
             severity: Severity::Warning,
-            at: at.to_string(),
+            at,
             message: message.to_string(),
         }
     }
@@ -175,7 +194,7 @@ impl From<IoError> for Finding {
     fn from(e: IoError) -> Self {
         match e {
             IoError::Content { at, message } => Finding::error(at, message),
-            IoError::File { path, error } => Finding::error(path.display(), error.to_string()),
+            IoError::File { path, error } => Finding::error(Position::file(&path), error),
         }
     }
 }
@@ -210,5 +229,31 @@ mod tests {
             "unknown key 'x'"
         );
         assert_eq!(toml_message("invalid type: string"), "invalid type: string");
+    }
+
+    #[test]
+    fn a_finding_prints_its_position_and_serialises_it_in_parts() {
+        let f = Finding::warning(
+            Position::file(Path::new("g1.csv")).line(4).field("time"),
+            "time '2026-06-14T00:06:00Z' is duplicated",
+        );
+        assert_eq!(
+            f.to_string(),
+            "warning: g1.csv:4: field 'time': time '2026-06-14T00:06:00Z' is duplicated"
+        );
+        assert_eq!(
+            serde_json::to_value(&f).unwrap(),
+            serde_json::json!({
+                "severity": "warning",
+                "at": "g1.csv:4: field 'time'",
+                "file": "g1.csv",
+                "line": 4,
+                "field": "time",
+                "message": "time '2026-06-14T00:06:00Z' is duplicated"
+            })
+        );
+        let g = Finding::error(Position::file(Path::new("s.csv")), "the file is empty");
+        let v = serde_json::to_value(&g).unwrap();
+        assert_eq!((v["line"].is_null(), v["field"].is_null()), (true, true));
     }
 }
