@@ -8,7 +8,7 @@
 //! Times are ISO 8601 UTC; tide is water level above chart datum in metres, positive up,
 //! written as the shortest decimal that reads back to the same number; `u_tide_m` is its standard
 //! uncertainty (1σ, empty when not computed); `status` is `observed`, `interpolated`,
-//! `gap_filled` or `missing` (per zone) or the sounding's status (per sounding). A missing value
+//! `missing` or `flagged` (per zone) or the sounding's status (per sounding). A missing value
 //! leaves the tide empty: nothing is invented.
 
 use std::collections::HashMap;
@@ -96,6 +96,7 @@ pub type SoundingRows = HashMap<(String, i64), SoundingRow>;
 
 /// A correction file as read.
 #[derive(Debug)]
+#[non_exhaustive]
 pub enum CorrectionFile {
     /// Per-zone series, by zone id, sorted by time.
     Zones(HashMap<String, Vec<Corrector>>),
@@ -160,7 +161,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                 IoError::content(
                     at("status"),
                     format!(
-                        "expected observed, interpolated, gap_filled, missing or flagged, found '{}'",
+                        "expected observed, interpolated, missing or flagged, found '{}'",
                         &rec[4]
                     ),
                 )
@@ -240,7 +241,7 @@ fn parse_line_rows<R: Read>(
             IoError::content(
                 at("status"),
                 format!(
-                    "expected observed, interpolated, gap_filled, missing or flagged, found '{}'",
+                    "expected observed, interpolated, missing or flagged, found '{}'",
                     &rec[5]
                 ),
             )
