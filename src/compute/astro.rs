@@ -176,6 +176,7 @@ pub fn astro_at(t_s: f64) -> Astro {
 /// How a constituent's nodal factor f and angle u are computed (Schureman 1958; see the module
 /// documentation for the formulas).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
 pub enum NodalFamily {
     /// f = 1, u = 0.
     Unity,

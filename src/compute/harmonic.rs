@@ -50,6 +50,7 @@ use super::astro::{
 
 /// Where the nodal corrections are evaluated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
 pub enum NodalMode {
     /// At every sample (default).
     PerSample,

@@ -164,6 +164,7 @@ impl Default for InterpolationSpec {
 /// A gauge's time interpolation.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
 #[serde(rename_all = "snake_case")]
+#[non_exhaustive]
 pub enum InterpolationChoice {
     /// Linear for records stepping `cubic_above_step_min` or less, natural cubic spline above.
     #[default]
@@ -279,6 +280,7 @@ fn default_out_dir() -> PathBuf {
 
 /// Units of a gauge record's heights.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
+#[non_exhaustive]
 pub enum HeightUnit {
     /// Metres.
     #[serde(rename = "m")]
@@ -427,6 +429,7 @@ fn default_good_flags() -> Vec<String> {
 /// Field separator of a soundings file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
 #[serde(rename_all = "snake_case")]
+#[non_exhaustive]
 pub enum Delimiter {
     /// `,`
     Comma,

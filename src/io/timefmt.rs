@@ -13,6 +13,7 @@ use chrono::{DateTime, FixedOffset, NaiveDateTime};
 /// How a time column is written.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Deserialize, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
+#[non_exhaustive]
 pub enum TimeFormat {
     /// ISO 8601 / RFC 3339 text.
     Iso8601,

@@ -329,33 +329,77 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
     Ok(ZoningSpec { zones, warnings })
 }
 
-fn ring(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<geo::LineString<f64>, String> {
+/// What is wrong with a zone's geometry; the reader puts it at `features[i].geometry` with the
+/// zone id. `ring` and `polygon` say which part, e.g. "polygon 1 hole 0".
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+enum GeometryError {
+    #[error("geometry has no coordinates")]
+    NoCoordinates,
+    #[error("expected a Polygon or MultiPolygon geometry, found '{kind}'")]
+    NotAPolygon { kind: String },
+    #[error("expected a list of polygons")]
+    NotPolygons,
+    #[error("{polygon}: expected a list of rings")]
+    NotRings { polygon: String },
+    #[error("{polygon}: polygon has no ring")]
+    NoRing { polygon: String },
+    #[error("{ring}: expected a list of positions")]
+    NotPositions { ring: String },
+    #[error("{ring}: position {k} is not [longitude, latitude]")]
+    NotAPosition { ring: String, k: usize },
+    #[error("{ring}: position {k} is not two finite numbers")]
+    NotFinite { ring: String, k: usize },
+    #[error("{ring}: position {k} [{x}, {y}] is not a longitude/latitude (GeoJSON is [lon, lat] in degrees)")]
+    NotLonLat {
+        ring: String,
+        k: usize,
+        x: f64,
+        y: f64,
+    },
+    #[error("{ring}: a ring needs at least 3 positions, found {n}")]
+    TooFewPositions { ring: String, n: usize },
+}
+
+fn ring(
+    v: &Value,
+    what: &str,
+    unclosed: &mut Vec<String>,
+) -> Result<geo::LineString<f64>, GeometryError> {
     let Value::Array(pts) = v else {
-        return Err(format!("{what}: expected a list of positions"));
+        return Err(GeometryError::NotPositions { ring: what.into() });
     };
     let mut coords = Vec::with_capacity(pts.len());
     for (k, p) in pts.iter().enumerate() {
-        let xy = p
-            .as_array()
-            .filter(|a| a.len() >= 2)
-            .ok_or_else(|| format!("{what}: position {k} is not [longitude, latitude]"))?;
+        let xy =
+            p.as_array()
+                .filter(|a| a.len() >= 2)
+                .ok_or_else(|| GeometryError::NotAPosition {
+                    ring: what.into(),
+                    k,
+                })?;
         let x = xy[0].as_f64().filter(|v| v.is_finite());
         let y = xy[1].as_f64().filter(|v| v.is_finite());
         let (Some(x), Some(y)) = (x, y) else {
-            return Err(format!("{what}: position {k} is not two finite numbers"));
+            return Err(GeometryError::NotFinite {
+                ring: what.into(),
+                k,
+            });
         };
         if !(-180.0..=180.0).contains(&x) || !(-90.0..=90.0).contains(&y) {
-            return Err(format!(
-                "{what}: position {k} [{x}, {y}] is not a longitude/latitude (GeoJSON is [lon, lat] in degrees)"
-            ));
+            return Err(GeometryError::NotLonLat {
+                ring: what.into(),
+                k,
+                x,
+                y,
+            });
         }
         coords.push(geo::Coord { x, y });
     }
     if coords.len() < 3 {
-        return Err(format!(
-            "{what}: a ring needs at least 3 positions, found {}",
-            coords.len()
-        ));
+        return Err(GeometryError::TooFewPositions {
+            ring: what.into(),
+            n: coords.len(),
+        });
     }
     if coords.first() != coords.last() {
         unclosed.push(what.to_string());
@@ -363,12 +407,20 @@ fn ring(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<geo::LineSt
     Ok(geo::LineString::new(coords))
 }
 
-fn polygon(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<Polygon<f64>, String> {
+fn polygon(
+    v: &Value,
+    what: &str,
+    unclosed: &mut Vec<String>,
+) -> Result<Polygon<f64>, GeometryError> {
     let Value::Array(rings) = v else {
-        return Err(format!("{what}: expected a list of rings"));
+        return Err(GeometryError::NotRings {
+            polygon: what.into(),
+        });
     };
     if rings.is_empty() {
-        return Err(format!("{what}: polygon has no ring"));
+        return Err(GeometryError::NoRing {
+            polygon: what.into(),
+        });
     }
     let ext = ring(&rings[0], &format!("{what} exterior ring"), unclosed)?;
     let holes = rings[1..]
@@ -379,15 +431,15 @@ fn polygon(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<Polygon<
     Ok(Polygon::new(ext, holes))
 }
 
-fn geometry(g: &Value) -> Result<(MultiPolygon<f64>, Vec<String>), String> {
+fn geometry(g: &Value) -> Result<(MultiPolygon<f64>, Vec<String>), GeometryError> {
     let mut unclosed = Vec::new();
     let kind = g.get("type").and_then(Value::as_str).unwrap_or("");
-    let coords = g.get("coordinates").ok_or("geometry has no coordinates")?;
+    let coords = g.get("coordinates").ok_or(GeometryError::NoCoordinates)?;
     let mp = match kind {
         "Polygon" => MultiPolygon(vec![polygon(coords, "polygon", &mut unclosed)?]),
         "MultiPolygon" => {
             let Value::Array(parts) = coords else {
-                return Err("expected a list of polygons".into());
+                return Err(GeometryError::NotPolygons);
             };
             MultiPolygon(
                 parts
@@ -397,11 +449,7 @@ fn geometry(g: &Value) -> Result<(MultiPolygon<f64>, Vec<String>), String> {
                     .collect::<Result<_, _>>()?,
             )
         }
-        other => {
-            return Err(format!(
-                "expected a Polygon or MultiPolygon geometry, found '{other}'"
-            ))
-        }
+        other => return Err(GeometryError::NotAPolygon { kind: other.into() }),
     };
     Ok((mp, unclosed))
 }

@@ -76,6 +76,7 @@ pub struct ReduceOptions<'a> {
 
 /// What a streaming run computes and writes.
 #[derive(Debug, Clone, Copy)]
+#[non_exhaustive]
 pub enum RunKind<'a> {
     /// Reduce with the zoning: `<stem>.reduced.csv`.
     Reduce,
@@ -87,6 +88,7 @@ pub enum RunKind<'a> {
 
 /// The tide source of an apply run.
 #[derive(Debug, Clone, Copy)]
+#[non_exhaustive]
 pub enum ApplyModel<'a> {
     /// Per-zone corrector series, by zone index.
     Zones(&'a [Vec<crate::compute::correctors::Corrector>]),

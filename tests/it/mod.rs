@@ -7,6 +7,7 @@ mod correctors;
 mod crs_reference;
 mod demo_recovery;
 mod harmonics;
+mod layers;
 mod outputs;
 mod properties;
 mod qa_report;
