@@ -329,8 +329,8 @@ fn check_gauge_spans(loaded: &super::load::Loaded, t0: f64, t1: f64, out: &mut V
         }
         let Some((a, b)) = need else {
             out.push(Finding::warning(
-                Position::file(&loaded.project.path).field(format!("gauge '{}'", g.id)),
-                "no zone uses this gauge",
+                Position::file(&loaded.project.path).field(format!("gauge[{gi}]")),
+                format!("no zone uses gauge '{}'", g.id),
             ));
             continue;
         };

@@ -298,7 +298,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     let mut gauges = Vec::new();
     let mut qc = Vec::new();
     let mut methods = Vec::new();
-    for (g, r) in project.spec.gauges.iter().zip(&records) {
+    for (gi, (g, r)) in project.spec.gauges.iter().zip(&records).enumerate() {
         let prepared = prepare_series(&project.spec.qc, &project.spec.interpolation, g, r);
         if let Some(q) = &prepared.qc {
             use crate::compute::qc::QcFlag;
@@ -358,9 +358,10 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         if let Some(c) = g.lowpass_cutoff_min {
             if c <= 2.0 * prepared.method.nominal_step_min {
                 findings.push(Finding::warning(
-                    Position::file(&project.path).field(format!("gauge '{}'.lowpass_cutoff_min", g.id)),
+                    Position::file(&project.path).field(format!("gauge[{gi}].lowpass_cutoff_min")),
                     format!(
-                        "a cut-off of {c} min is not longer than two steps of this {:.1}-min record: the filter leaves it unchanged",
+                        "gauge '{}': a cut-off of {c} min is not longer than two steps of this {:.1}-min record: the filter leaves it unchanged",
+                        g.id,
                         prepared.method.nominal_step_min
                     ),
                 ));
