@@ -14,7 +14,8 @@
 //! | `u_range_ratio` | optional standard uncertainty of the range ratio(s) |
 //! | `u_zone_m` | optional spatial standard uncertainty the zoning does not capture, metres |
 //!
-//! Problems are reported as `file: field 'features[i].properties.name'` with the zone id.
+//! Problems are reported as `file: field 'features[i].properties.name': zone 'id': …`, and
+//! geometry problems at `features[i].geometry`.
 
 use std::path::Path;
 
@@ -140,6 +141,7 @@ fn near_misses(
     obj: &Map<String, Value>,
     known: &[&str],
     at: &dyn Fn(&str) -> Position,
+    zone: &str,
     out: &mut Vec<Finding>,
 ) {
     for k in obj.keys().filter(|k| !known.contains(&k.as_str())) {
@@ -147,7 +149,7 @@ fn near_misses(
             if !obj.contains_key(n) {
                 out.push(Finding::warning(
                     at(k),
-                    format!("unknown property '{k}', ignored: did you mean '{n}'?"),
+                    format!("zone '{zone}': unknown property '{k}', ignored: did you mean '{n}'?"),
                 ));
             }
         }
@@ -198,111 +200,26 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
         let id = text(props, "zone", &ZONE_PROPERTIES, &|k| {
             pos(&format!("properties.{k}"))
         })?;
-        let at = |k: &str| pos(&format!("properties.{k}")).clone();
-        let at_named = |k: &str| {
-            let mut p = at(k);
-            p.field = p.field.map(|f| format!("{f} (zone '{id}')"));
-            p
-        };
-        near_misses(props, &ZONE_PROPERTIES, &at_named, &mut warnings);
+        let at = |k: &str| pos(&format!("properties.{k}"));
         if let Some(prev) = ids.insert(id.clone(), i) {
             return Err(IoError::content(
                 at("zone"),
                 format!("zone id '{id}' is used by features {prev} and {i}"),
             ));
         }
-        let feeds = match props.get("feeds") {
-            Some(Value::Array(list)) => {
-                if props.contains_key("gauge") {
-                    return Err(IoError::content(
-                        at_named("gauge"),
-                        "give either 'gauge' with its correctors or 'feeds', not both",
-                    ));
-                }
-                if list.is_empty() {
-                    return Err(IoError::content(
-                        at_named("feeds"),
-                        "expected at least one feed",
-                    ));
-                }
-                let mut out = Vec::new();
-                for (k, item) in list.iter().enumerate() {
-                    let Value::Object(m) = item else {
-                        return Err(IoError::content(
-                            at_named(&format!("feeds[{k}]")),
-                            "expected an object {gauge, weight, time_corrector_min, range_ratio}",
-                        ));
-                    };
-                    let fat = |key: &str| at_named(&format!("feeds[{k}].{key}"));
-                    near_misses(m, &FEED_MEMBERS, &fat, &mut warnings);
-                    out.push(FeedSpec {
-                        gauge: text(m, "gauge", &FEED_MEMBERS, &fat)?,
-                        weight: num(m, "weight", &FEED_MEMBERS, &fat)?,
-                        time_corrector_min: num(m, "time_corrector_min", &FEED_MEMBERS, &fat)?,
-                        range_ratio: num(m, "range_ratio", &FEED_MEMBERS, &fat)?,
-                    });
-                }
-                out
+        near_misses(props, &ZONE_PROPERTIES, &at, &id, &mut warnings);
+        let ZoneProperties {
+            feeds,
+            mean_level_above_datum_m,
+            u_time_corrector_min,
+            u_range_ratio,
+            u_zone_m,
+        } = zone_properties(props, &at, &id, &mut warnings).map_err(|e| match e {
+            IoError::Content { at, message } => {
+                IoError::content(at, format!("zone '{id}': {message}"))
             }
-            Some(_) => return Err(IoError::content(at_named("feeds"), "expected a list")),
-            None => vec![FeedSpec {
-                gauge: text(props, "gauge", &ZONE_PROPERTIES, &at_named)?,
-                weight: 1.0,
-                time_corrector_min: num(props, "time_corrector_min", &ZONE_PROPERTIES, &at_named)?,
-                range_ratio: num(props, "range_ratio", &ZONE_PROPERTIES, &at_named)?,
-            }],
-        };
-        for (k, fd) in feeds.iter().enumerate() {
-            if fd.range_ratio.is_nan() || fd.range_ratio <= 0.0 {
-                return Err(IoError::content(
-                    at_named(if props.contains_key("feeds") {
-                        "feeds"
-                    } else {
-                        "range_ratio"
-                    }),
-                    format!(
-                        "range ratio must be positive, found {} (feed {k})",
-                        fd.range_ratio
-                    ),
-                ));
-            }
-            if fd.weight < 0.0 {
-                return Err(IoError::content(
-                    at_named("feeds"),
-                    format!(
-                        "weight must not be negative, found {} (feed {k})",
-                        fd.weight
-                    ),
-                ));
-            }
-        }
-        let mean_level_above_datum_m = match props.get("mean_level_above_datum_m") {
-            None | Some(Value::Null) => None,
-            Some(_) => Some(num(
-                props,
-                "mean_level_above_datum_m",
-                &ZONE_PROPERTIES,
-                &at_named,
-            )?),
-        };
-        let opt_u = |k: &str| -> Result<Option<f64>, IoError> {
-            match props.get(k) {
-                None | Some(Value::Null) => Ok(None),
-                Some(_) => {
-                    let v = num(props, k, &ZONE_PROPERTIES, &at_named)?;
-                    if v < 0.0 {
-                        return Err(IoError::content(
-                            at_named(k),
-                            format!("a standard uncertainty cannot be negative, found {v}"),
-                        ));
-                    }
-                    Ok(Some(v))
-                }
-            }
-        };
-        let u_time_corrector_min = opt_u("u_time_corrector_min")?;
-        let u_range_ratio = opt_u("u_range_ratio")?;
-        let u_zone_m = opt_u("u_zone_m")?;
+            other => other,
+        })?;
         let geom = f.get("geometry").ok_or_else(|| {
             IoError::content(pos("geometry"), format!("zone '{id}' has no geometry"))
         })?;
@@ -327,6 +244,116 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
         ));
     }
     Ok(ZoningSpec { zones, warnings })
+}
+
+/// A zone's properties other than its id.
+struct ZoneProperties {
+    feeds: Vec<FeedSpec>,
+    mean_level_above_datum_m: Option<f64>,
+    u_time_corrector_min: Option<f64>,
+    u_range_ratio: Option<f64>,
+    u_zone_m: Option<f64>,
+}
+
+/// Reads a zone's properties other than its id (the messages say nothing of the zone: the
+/// caller adds its id).
+fn zone_properties(
+    props: &Map<String, Value>,
+    at: &dyn Fn(&str) -> Position,
+    id: &str,
+    warnings: &mut Vec<Finding>,
+) -> Result<ZoneProperties, IoError> {
+    let feeds = match props.get("feeds") {
+        Some(Value::Array(list)) => {
+            if props.contains_key("gauge") {
+                return Err(IoError::content(
+                    at("gauge"),
+                    "give either 'gauge' with its correctors or 'feeds', not both",
+                ));
+            }
+            if list.is_empty() {
+                return Err(IoError::content(at("feeds"), "expected at least one feed"));
+            }
+            let mut out = Vec::new();
+            for (k, item) in list.iter().enumerate() {
+                let fat = |key: &str| at(&format!("feeds[{k}].{key}"));
+                let Value::Object(m) = item else {
+                    return Err(IoError::content(
+                        at(&format!("feeds[{k}]")),
+                        "expected an object {gauge, weight, time_corrector_min, range_ratio}",
+                    ));
+                };
+                near_misses(m, &FEED_MEMBERS, &fat, id, warnings);
+                let feed = FeedSpec {
+                    gauge: text(m, "gauge", &FEED_MEMBERS, &fat)?,
+                    weight: num(m, "weight", &FEED_MEMBERS, &fat)?,
+                    time_corrector_min: num(m, "time_corrector_min", &FEED_MEMBERS, &fat)?,
+                    range_ratio: num(m, "range_ratio", &FEED_MEMBERS, &fat)?,
+                };
+                if feed.weight < 0.0 {
+                    return Err(IoError::content(
+                        fat("weight"),
+                        format!("weight must not be negative, found {}", feed.weight),
+                    ));
+                }
+                if feed.range_ratio <= 0.0 {
+                    return Err(IoError::content(
+                        fat("range_ratio"),
+                        format!("range ratio must be positive, found {}", feed.range_ratio),
+                    ));
+                }
+                out.push(feed);
+            }
+            out
+        }
+        Some(_) => return Err(IoError::content(at("feeds"), "expected a list")),
+        None => {
+            let feed = FeedSpec {
+                gauge: text(props, "gauge", &ZONE_PROPERTIES, at)?,
+                weight: 1.0,
+                time_corrector_min: num(props, "time_corrector_min", &ZONE_PROPERTIES, at)?,
+                range_ratio: num(props, "range_ratio", &ZONE_PROPERTIES, at)?,
+            };
+            if feed.range_ratio <= 0.0 {
+                return Err(IoError::content(
+                    at("range_ratio"),
+                    format!("range ratio must be positive, found {}", feed.range_ratio),
+                ));
+            }
+            vec![feed]
+        }
+    };
+    let mean_level_above_datum_m = match props.get("mean_level_above_datum_m") {
+        None | Some(Value::Null) => None,
+        Some(_) => Some(num(
+            props,
+            "mean_level_above_datum_m",
+            &ZONE_PROPERTIES,
+            at,
+        )?),
+    };
+    let opt_u = |k: &str| -> Result<Option<f64>, IoError> {
+        match props.get(k) {
+            None | Some(Value::Null) => Ok(None),
+            Some(_) => {
+                let v = num(props, k, &ZONE_PROPERTIES, at)?;
+                if v < 0.0 {
+                    return Err(IoError::content(
+                        at(k),
+                        format!("a standard uncertainty cannot be negative, found {v}"),
+                    ));
+                }
+                Ok(Some(v))
+            }
+        }
+    };
+    Ok(ZoneProperties {
+        feeds,
+        mean_level_above_datum_m,
+        u_time_corrector_min: opt_u("u_time_corrector_min")?,
+        u_range_ratio: opt_u("u_range_ratio")?,
+        u_zone_m: opt_u("u_zone_m")?,
+    })
 }
 
 /// What is wrong with a zone's geometry; the reader puts it at `features[i].geometry` with the
@@ -487,7 +514,7 @@ mod tests {
         let e = parse(&ONE.replace("\"range_ratio\":1.05", "\"range_ratio\":\"big\"")).unwrap_err();
         assert_eq!(
             e.to_string(),
-            "z.geojson: field 'features[0].properties.range_ratio (zone 'A')': expected a number, found \"big\""
+            "z.geojson: field 'features[0].properties.range_ratio': zone 'A': expected a number, found \"big\""
         );
         let e = parse(&ONE.replace(
             "[[[0,0],[1,0],[1,1],[0,0]]]",
