@@ -18,6 +18,7 @@
 //! come from the responsible hydrographic authority's specifications, and local regulations and
 //! licensed practice take precedence.
 #![deny(missing_docs)]
+#![forbid(unsafe_code)]
 
 pub mod compute;
 pub mod io;

@@ -1,5 +1,7 @@
 //! The `ebbwise` command: parses options and hands off to the library's `run` layer.
 
+#![forbid(unsafe_code)]
+
 mod cli;
 
 fn main() {

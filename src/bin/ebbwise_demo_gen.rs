@@ -14,6 +14,8 @@
 //! the left looking up-estuary). `xi = along_m / LENGTH_M` runs from 0 at the mouth to 1 at the
 //! head. Heights are positive up, depths positive down, times UTC.
 
+#![forbid(unsafe_code)]
+
 use std::f64::consts::TAU;
 use std::fmt::Write as _;
 

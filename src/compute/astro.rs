@@ -176,6 +176,7 @@ pub fn astro_at(t_s: f64) -> Astro {
 /// How a constituent's nodal factor f and angle u are computed (Schureman 1958; see the module
 /// documentation for the formulas).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
 pub enum NodalFamily {
     /// f = 1, u = 0.
     Unity,
@@ -353,6 +354,15 @@ pub fn constituent(name: &str) -> Option<&'static Constituent> {
     CONSTITUENTS.iter().find(|c| {
         c.name.eq_ignore_ascii_case(name) || c.aliases.iter().any(|a| a.eq_ignore_ascii_case(name))
     })
+}
+
+/// The one tabulated name or alias nearest to a name the table lacks, for a "did you mean" hint
+/// (the table is too long to list in a message).
+pub fn nearest_constituent(name: &str) -> Option<&'static str> {
+    let names = CONSTITUENTS
+        .iter()
+        .flat_map(|c| std::iter::once(c.name).chain(c.aliases.iter().copied()));
+    super::names::nearest(name, names)
 }
 
 /// Angular speed from the Doodson coefficients and the J2000 rates of τ, s, h, p, N′, p₁,

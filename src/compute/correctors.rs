@@ -15,13 +15,12 @@ use super::zoning::{FeedState, Gauge, Zone};
 
 /// How a corrector value was obtained.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
 pub enum CorrectorStatus {
     /// Every feeding gauge has a sample exactly at its corrected time.
     Observed,
     /// At least one feeding gauge was interpolated between samples (within its maximum gap).
     Interpolated,
-    /// Filled from a prediction across a gap (not produced yet: ebbwise does not fill gaps).
-    GapFilled,
     /// No value: a feeding gauge has no level at the corrected time.
     Missing,
     /// No value: a feeding gauge's samples around the corrected time enclose one that quality
@@ -30,12 +29,19 @@ pub enum CorrectorStatus {
 }
 
 impl CorrectorStatus {
+    /// Every status, in the order of the summary.
+    pub const ALL: [CorrectorStatus; 4] = [
+        CorrectorStatus::Observed,
+        CorrectorStatus::Interpolated,
+        CorrectorStatus::Missing,
+        CorrectorStatus::Flagged,
+    ];
+
     /// The word written in files.
     pub fn as_str(self) -> &'static str {
         match self {
             CorrectorStatus::Observed => "observed",
             CorrectorStatus::Interpolated => "interpolated",
-            CorrectorStatus::GapFilled => "gap_filled",
             CorrectorStatus::Missing => "missing",
             CorrectorStatus::Flagged => "flagged",
         }
@@ -45,7 +51,6 @@ impl CorrectorStatus {
         Some(match s {
             "observed" => CorrectorStatus::Observed,
             "interpolated" => CorrectorStatus::Interpolated,
-            "gap_filled" => CorrectorStatus::GapFilled,
             "missing" => CorrectorStatus::Missing,
             "flagged" => CorrectorStatus::Flagged,
             _ => return None,
@@ -324,6 +329,16 @@ impl TideModel for SoundingTableModel {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn every_status_reads_back_and_indexes_its_count() {
+        for (i, s) in CorrectorStatus::ALL.iter().enumerate() {
+            assert_eq!(CorrectorStatus::parse(s.as_str()), Some(*s));
+            // Summaries count statuses in an array indexed by the discriminant.
+            assert_eq!(*s as usize, i);
+        }
+        assert_eq!(CorrectorStatus::parse("gap_filled"), None);
+    }
     use crate::compute::series::Linear;
     use crate::compute::zoning::{GaugeFeed, MeanLevelForm};
 

@@ -50,6 +50,7 @@ use super::astro::{
 
 /// Where the nodal corrections are evaluated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
 pub enum NodalMode {
     /// At every sample (default).
     PerSample,
@@ -310,12 +311,49 @@ fn arguments(cons: &[&'static Constituent], t_s: f64, nodal_at_s: f64, out: &mut
     }
 }
 
+/// Why an analysis cannot be made.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[non_exhaustive]
+pub enum AnalysisError {
+    /// Fewer than 3 samples with a finite time and height.
+    #[error("{usable} usable samples: too few to analyse")]
+    TooFewSamples {
+        /// Samples with a finite time and height.
+        usable: usize,
+    },
+    /// A constituent of the list is not in the table.
+    #[error("unknown constituent '{name}'{}", crate::compute::names::did_you_mean(.did_you_mean.as_deref()))]
+    UnknownConstituent {
+        /// The name as given.
+        name: String,
+        /// The tabulated name nearest to it, when one is near.
+        did_you_mean: Option<&'static str>,
+    },
+    /// A constituent is listed twice (by name or alias).
+    #[error("constituent '{name}' given twice")]
+    DuplicateConstituent {
+        /// The name as given the second time.
+        name: String,
+    },
+    /// No more samples than unknowns.
+    #[error("{usable} usable samples for {unknowns} unknowns: the record is too short")]
+    TooShort {
+        /// Samples with a finite time and height.
+        usable: usize,
+        /// Unknowns of the fit (1 + 2 × constituents).
+        unknowns: usize,
+    },
+    /// The normal equations have no unique solution.
+    #[error("the normal equations are singular: constituents too close for this record (check the Rayleigh factor or the list)")]
+    Singular,
+}
+
 /// Analyses a record (times UTC seconds, heights metres). Non-finite heights are skipped.
 pub fn analyse(
     times_s: &[f64],
     heights_m: &[f64],
     settings: &AnalysisSettings,
-) -> Result<Analysis, String> {
+) -> Result<Analysis, AnalysisError> {
     solve(&design(times_s, heights_m, settings)?)
 }
 
@@ -353,7 +391,7 @@ pub fn design(
     times_s: &[f64],
     heights_m: &[f64],
     settings: &AnalysisSettings,
-) -> Result<Design, String> {
+) -> Result<Design, AnalysisError> {
     let (t, y): (Vec<f64>, Vec<f64>) = times_s
         .iter()
         .zip(heights_m)
@@ -362,7 +400,7 @@ pub fn design(
         .unzip();
     let n = t.len();
     if n < 3 {
-        return Err(format!("{n} usable samples: too few to analyse"));
+        return Err(AnalysisError::TooFewSamples { usable: n });
     }
     let (t_first, t_last) = t
         .iter()
@@ -374,12 +412,15 @@ pub fn design(
         Some(names) => {
             let mut v = Vec::new();
             for name in names {
-                let c = constituent(name).ok_or_else(|| format!("unknown constituent '{name}'"))?;
+                let c = constituent(name).ok_or_else(|| AnalysisError::UnknownConstituent {
+                    name: name.clone(),
+                    did_you_mean: crate::compute::astro::nearest_constituent(name),
+                })?;
                 if c.name == "Z0" {
                     continue;
                 }
                 if v.iter().any(|x: &&Constituent| x.name == c.name) {
-                    return Err(format!("constituent '{name}' given twice"));
+                    return Err(AnalysisError::DuplicateConstituent { name: name.clone() });
                 }
                 v.push(c);
             }
@@ -437,9 +478,10 @@ pub fn design(
     let k = fitted_cons.len();
     let p = 1 + 2 * k;
     if n <= p {
-        return Err(format!(
-            "{n} usable samples for {p} unknowns: the record is too short"
-        ));
+        return Err(AnalysisError::TooShort {
+            usable: n,
+            unknowns: p,
+        });
     }
     // Columns of the inferred constituents, attached to their reference's index.
     let inferred_of: Vec<Option<(usize, f64)>> = fitted_cons
@@ -496,7 +538,7 @@ pub fn design(
 }
 
 /// Solves the least-squares problem: normal equations, Cholesky, residuals, uncertainties.
-pub fn solve(d: &Design) -> Result<Analysis, String> {
+pub fn solve(d: &Design) -> Result<Analysis, AnalysisError> {
     let (a, y, fitted_cons, inferences, inferred_of) =
         (&d.a, &d.y, &d.fitted_cons, &d.inferences, &d.inferred_of);
     let (n, p) = (y.len(), d.p);
@@ -567,9 +609,7 @@ pub fn solve(d: &Design) -> Result<Analysis, String> {
             ata_upper[j * p + i]
         }
     });
-    let chol = ata
-        .cholesky()
-        .ok_or("the normal equations are singular: constituents too close for this record (check the Rayleigh factor or the list)")?;
+    let chol = ata.cholesky().ok_or(AnalysisError::Singular)?;
     let x = chol.solve(&aty);
     let resid = DVector::<f64>::from_iterator(
         n,
@@ -810,6 +850,52 @@ pub fn high_low_waters(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn what_cannot_be_analysed_is_said() {
+        let hourly: Vec<f64> = (0..48).map(|i| i as f64 * 3600.0).collect();
+        let flat = vec![1.0; 48];
+        // Two samples (one height is NaN and is skipped) are fewer than the three an analysis
+        // needs.
+        assert_eq!(
+            analyse(
+                &hourly[..3],
+                &[1.0, f64::NAN, 1.0],
+                &AnalysisSettings::default()
+            ),
+            Err(AnalysisError::TooFewSamples { usable: 2 })
+        );
+        let list = |names: &[&str]| AnalysisSettings {
+            constituents: Some(names.iter().map(|n| n.to_string()).collect()),
+            ..AnalysisSettings::default()
+        };
+        // "M2x" is "M2" with one letter too many; no other tabulated name is one edit from it.
+        assert_eq!(
+            analyse(&hourly, &flat, &list(&["M2x"])).unwrap_err(),
+            AnalysisError::UnknownConstituent {
+                name: "M2x".into(),
+                did_you_mean: Some("M2")
+            }
+        );
+        assert_eq!(
+            analyse(&hourly, &flat, &list(&["M2x"]))
+                .unwrap_err()
+                .to_string(),
+            "unknown constituent 'M2x': did you mean 'M2'?"
+        );
+        assert_eq!(
+            analyse(&hourly, &flat, &list(&["M2", "m2"])).unwrap_err(),
+            AnalysisError::DuplicateConstituent { name: "m2".into() }
+        );
+        // 1 + 2 × 2 = 5 unknowns for 4 samples.
+        assert_eq!(
+            analyse(&hourly[..4], &flat[..4], &list(&["M2", "K1"])).unwrap_err(),
+            AnalysisError::TooShort {
+                usable: 4,
+                unknowns: 5
+            }
+        );
+    }
 
     fn known() -> HarmonicConstants {
         let c = |n: &str| constituent(n).unwrap();

@@ -17,6 +17,7 @@
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
+//! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
 pub mod compare;
@@ -24,6 +25,7 @@ pub mod correctors;
 pub mod harmonic;
 pub mod locate;
 pub mod lowpass;
+pub mod names;
 pub mod qa;
 pub mod qa_report;
 pub mod qc;

@@ -38,6 +38,7 @@
 
 /// One reason a sample is suspect.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+#[non_exhaustive]
 pub enum QcFlag {
     /// The time is earlier than an earlier sample's.
     TimeOrder,

@@ -12,6 +12,7 @@ use super::zoning::{FeedState, Gauge, NoZoneTide, Zone};
 
 /// What became of one input row. Every row of every input gets exactly one.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+#[non_exhaustive]
 pub enum SoundingStatus {
     /// Reduced to chart datum.
     Reduced,

@@ -37,6 +37,7 @@ pub struct LevelAt {
 
 /// Why a series has no level at an instant (`io::text` words it).
 #[derive(Debug, Clone, Copy, PartialEq)]
+#[non_exhaustive]
 pub enum NoLevel {
     /// The series holds no sample at all.
     EmptyRecord,

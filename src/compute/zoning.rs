@@ -44,6 +44,7 @@ pub struct GaugeFeed {
 
 /// Which of the two zoning formulas a zone uses.
 #[derive(Debug, Clone, Copy, PartialEq)]
+#[non_exhaustive]
 pub enum MeanLevelForm {
     /// `tide = M_z + Σ w R (h − M_g)`, with the zone's own mean level above chart datum.
     ZoneMean {
@@ -92,9 +93,6 @@ pub struct NoZoneTide {
     /// Why.
     pub why: NoLevel,
 }
-
-/// Up to this many gauges feed one zone without heap allocation in the hot loop.
-pub const MAX_FEEDS_INLINE: usize = 4;
 
 impl Zone {
     /// Tide above chart datum in this zone at UTC time `t_s`, metres.

@@ -202,7 +202,16 @@ impl ConstantsFile {
         let mut out = Vec::new();
         for (i, e) in self.constituents.iter().enumerate() {
             let c = constituent(&e.name).ok_or_else(|| {
-                IoError::content(at(i, "name"), format!("unknown constituent '{}'", e.name))
+                IoError::content(
+                    at(i, "name"),
+                    format!(
+                        "unknown constituent '{}'{}",
+                        e.name,
+                        crate::compute::names::did_you_mean(
+                            crate::compute::astro::nearest_constituent(&e.name)
+                        )
+                    ),
+                )
             })?;
             if c.name == "Z0" {
                 return Err(IoError::content(
@@ -257,14 +266,8 @@ use crate::compute::astro::Constituent;
 /// Reads a constants file.
 pub fn read_constants(path: &Path) -> Result<(ConstantsFile, HarmonicConstants), IoError> {
     let text = std::fs::read_to_string(path).map_err(|e| IoError::file(path, e))?;
-    let file: ConstantsFile = toml::from_str(&text).map_err(|e| {
-        let line = e
-            .span()
-            .map(|s| text[..s.start.min(text.len())].matches('\n').count() as u64 + 1);
-        let mut at = Position::file(path);
-        at.line = line;
-        IoError::content(at, e.message().to_string())
-    })?;
+    let file: ConstantsFile =
+        toml::from_str(&text).map_err(|e| IoError::from_toml(&e, &text, path))?;
     if file.format != CONSTANTS_FORMAT {
         return Err(IoError::content(
             Position::file(path).field("format"),

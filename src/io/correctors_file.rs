@@ -9,9 +9,9 @@
 //! Times are ISO 8601 UTC to the millisecond (to the microsecond when a sounding's time is finer);
 //! `tide_m` is the water level above chart datum in metres, positive up, with 4 decimals, and
 //! `u_tide_m` its standard uncertainty (1σ, 4 decimals, empty when not computed), as in the
-//! reduced files; `status` is `observed`, `interpolated`, `gap_filled`, `missing` or `flagged`
-//! (per zone and per line) or the sounding's status (per sounding). A missing value leaves the
-//! tide empty: nothing is invented.
+//! reduced files; `status` is `observed`, `interpolated`, `missing` or `flagged` (per zone and per
+//! line) or the sounding's status (per sounding). A missing value leaves the tide empty: nothing
+//! is invented.
 
 use std::collections::HashMap;
 use std::io::Read;
@@ -106,6 +106,7 @@ pub type SoundingRows = HashMap<(String, i64), SoundingRow>;
 
 /// A correction file as read.
 #[derive(Debug)]
+#[non_exhaustive]
 pub enum CorrectionFile {
     /// Per-zone series, by zone id, sorted by time.
     Zones(HashMap<String, Vec<Corrector>>),
@@ -170,7 +171,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                 IoError::content(
                     at("status"),
                     format!(
-                        "expected observed, interpolated, gap_filled, missing or flagged, found '{}'",
+                        "expected observed, interpolated, missing or flagged, found '{}'",
                         &rec[4]
                     ),
                 )
@@ -250,7 +251,7 @@ fn parse_line_rows<R: Read>(
             IoError::content(
                 at("status"),
                 format!(
-                    "expected observed, interpolated, gap_filled, missing or flagged, found '{}'",
+                    "expected observed, interpolated, missing or flagged, found '{}'",
                     &rec[5]
                 ),
             )

@@ -21,6 +21,51 @@ pub fn is_wgs84_lonlat(crs: &str) -> bool {
     c == "EPSG:4326" || c == "OGC:CRS84" || c == "CRS:84"
 }
 
+/// Why a CRS cannot be used or a point cannot be transformed.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum CrsError {
+    /// The CRS text is empty.
+    #[error("no CRS given (expected e.g. EPSG:32629)")]
+    Missing,
+    /// PROJ does not know the CRS.
+    #[error("unknown CRS '{crs}' (PROJ's database has no such code)")]
+    Unknown {
+        /// The CRS as given (trimmed).
+        crs: String,
+    },
+    /// PROJ knows both CRSs but has no transformation between them.
+    #[error("cannot transform {from} to {to}: {reason}")]
+    NoTransformation {
+        /// Source CRS.
+        from: String,
+        /// Target CRS.
+        to: String,
+        /// PROJ's words.
+        reason: String,
+    },
+    /// PROJ failed on a point.
+    #[error("cannot transform ({x}, {y}): {reason}")]
+    Point {
+        /// The point's x.
+        x: f64,
+        /// The point's y.
+        y: f64,
+        /// PROJ's words.
+        reason: String,
+    },
+    /// The point has no finite image in the target CRS.
+    #[error("({x}, {y}) has no image in {to}")]
+    NoImage {
+        /// The point's x.
+        x: f64,
+        /// The point's y.
+        y: f64,
+        /// Target CRS.
+        to: String,
+    },
+}
+
 /// A coordinate transformation between two CRSs, with (x = easting/longitude,
 /// y = northing/latitude) axis order on both sides whatever the CRS definitions say.
 pub struct Transformer {
@@ -39,7 +84,7 @@ impl std::fmt::Debug for Transformer {
 
 impl Transformer {
     /// Builds a transformation; an unknown CRS is an error naming it.
-    pub fn new(from: &str, to: &str) -> Result<Self, String> {
+    pub fn new(from: &str, to: &str) -> Result<Self, CrsError> {
         check_crs(from)?;
         check_crs(to)?;
         let identity = from.trim().eq_ignore_ascii_case(to.trim())
@@ -48,8 +93,11 @@ impl Transformer {
             None
         } else {
             Some(
-                Proj::new_known_crs(from, to, None)
-                    .map_err(|e| format!("cannot transform {from} to {to}: {e}"))?,
+                Proj::new_known_crs(from, to, None).map_err(|e| CrsError::NoTransformation {
+                    from: from.into(),
+                    to: to.into(),
+                    reason: e.to_string(),
+                })?,
             )
         };
         Ok(Transformer {
@@ -60,17 +108,23 @@ impl Transformer {
     }
 
     /// Transforms one point.
-    pub fn convert(&self, x: f64, y: f64) -> Result<(f64, f64), String> {
+    pub fn convert(&self, x: f64, y: f64) -> Result<(f64, f64), CrsError> {
         match &self.proj {
             None => Ok((x, y)),
             Some(p) => {
-                let (ox, oy) = p
-                    .convert((x, y))
-                    .map_err(|e| format!("cannot transform ({x}, {y}): {e}"))?;
+                let (ox, oy) = p.convert((x, y)).map_err(|e| CrsError::Point {
+                    x,
+                    y,
+                    reason: e.to_string(),
+                })?;
                 if ox.is_finite() && oy.is_finite() {
                     Ok((ox, oy))
                 } else {
-                    Err(format!("({x}, {y}) has no image in {}", self.to))
+                    Err(CrsError::NoImage {
+                        x,
+                        y,
+                        to: self.to.clone(),
+                    })
                 }
             }
         }
@@ -82,12 +136,15 @@ impl Transformer {
     }
 
     /// Transforms a WGS 84 lon/lat zone polygon into the target CRS, densifying its edges first.
-    pub fn polygon_from_lonlat(&self, mp: &MultiPolygon<f64>) -> Result<MultiPolygon<f64>, String> {
+    pub fn polygon_from_lonlat(
+        &self,
+        mp: &MultiPolygon<f64>,
+    ) -> Result<MultiPolygon<f64>, CrsError> {
         if self.is_identity() {
             return Ok(mp.clone());
         }
         let dense: MultiPolygon<f64> = mp.densify::<Euclidean>(DENSIFY_MAX_DEG);
-        let ring = |ls: &LineString<f64>| -> Result<LineString<f64>, String> {
+        let ring = |ls: &LineString<f64>| -> Result<LineString<f64>, CrsError> {
             ls.0.iter()
                 .map(|c| self.convert(c.x, c.y).map(|(x, y)| Coord { x, y }))
                 .collect::<Result<Vec<_>, _>>()
@@ -102,23 +159,23 @@ impl Transformer {
                     p.interiors()
                         .iter()
                         .map(ring)
-                        .collect::<Result<_, String>>()?,
+                        .collect::<Result<_, CrsError>>()?,
                 ))
             })
-            .collect::<Result<Vec<_>, String>>()?;
+            .collect::<Result<Vec<_>, CrsError>>()?;
         Ok(MultiPolygon(polys))
     }
 }
 
 /// Checks that PROJ knows a CRS; the message names it.
-pub fn check_crs(crs: &str) -> Result<(), String> {
+pub fn check_crs(crs: &str) -> Result<(), CrsError> {
     let t = crs.trim();
     if t.is_empty() {
-        return Err("no CRS given (expected e.g. EPSG:32629)".into());
+        return Err(CrsError::Missing);
     }
     Proj::new(t)
         .map(|_| ())
-        .map_err(|_| format!("unknown CRS '{t}' (PROJ's database has no such code)"))
+        .map_err(|_| CrsError::Unknown { crs: t.into() })
 }
 
 #[cfg(test)]
@@ -129,7 +186,16 @@ mod tests {
     #[test]
     fn unknown_epsg_is_named() {
         let e = Transformer::new("EPSG:4326", "EPSG:999999").unwrap_err();
-        assert!(e.contains("unknown CRS 'EPSG:999999'"), "{e}");
+        assert_eq!(
+            e,
+            CrsError::Unknown {
+                crs: "EPSG:999999".into()
+            }
+        );
+        assert_eq!(
+            e.to_string(),
+            "unknown CRS 'EPSG:999999' (PROJ's database has no such code)"
+        );
         assert!(check_crs("EPSG:32629").is_ok());
     }
 

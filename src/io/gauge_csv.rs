@@ -60,7 +60,11 @@ fn column(headers: &csv::StringRecord, name: &str, path: &Path) -> Result<usize,
             IoError::content(
                 Position::file(path).line(1).field(name),
                 format!(
-                    "no such column in the header (columns: {})",
+                    "no such column in the header{} (columns: {})",
+                    crate::compute::names::did_you_mean(crate::compute::names::nearest(
+                        name,
+                        headers.iter().map(str::trim)
+                    )),
                     headers.iter().collect::<Vec<_>>().join(", ")
                 ),
             )

@@ -164,6 +164,7 @@ impl Default for InterpolationSpec {
 /// A gauge's time interpolation.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
 #[serde(rename_all = "snake_case")]
+#[non_exhaustive]
 pub enum InterpolationChoice {
     /// Linear for records stepping `cubic_above_step_min` or less, natural cubic spline above.
     #[default]
@@ -279,6 +280,7 @@ fn default_out_dir() -> PathBuf {
 
 /// Units of a gauge record's heights.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
+#[non_exhaustive]
 pub enum HeightUnit {
     /// Metres.
     #[serde(rename = "m")]
@@ -427,6 +429,7 @@ fn default_good_flags() -> Vec<String> {
 /// Field separator of a soundings file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
 #[serde(rename_all = "snake_case")]
+#[non_exhaustive]
 pub enum Delimiter {
     /// `,`
     Comma,
@@ -527,22 +530,14 @@ impl Project {
 
     /// Parses project text as if read from `path`.
     pub fn from_str_at(text: &str, path: &Path) -> Result<Project, IoError> {
-        let mut spec: ProjectFile = toml::from_str(text).map_err(|e| {
-            let line = e
-                .span()
-                .map(|s| text[..s.start.min(text.len())].matches('\n').count() as u64 + 1);
-            let mut at = Position::file(path);
-            at.line = line;
-            IoError::content(at, e.message().to_string())
-        })?;
-        let dir = path
-            .parent()
-            .map(Path::to_path_buf)
-            .unwrap_or_else(|| PathBuf::from("."));
-        let dir = if dir.as_os_str().is_empty() {
+        let mut spec: ProjectFile =
+            toml::from_str(text).map_err(|e| IoError::from_toml(&e, text, path))?;
+        // The folder as the user wrote it ("" for a bare file name): paths are shown as typed.
+        let parent = path.parent().unwrap_or(Path::new(""));
+        let dir = if parent.as_os_str().is_empty() {
             PathBuf::from(".")
         } else {
-            dir
+            parent.to_path_buf()
         };
         let at = |field: &str| Position::file(path).field(field.to_string());
         let naive_offset = match &spec.naive_time_utc_offset {
@@ -702,17 +697,17 @@ impl Project {
                 ));
             }
         }
-        spec.zoning = dir.join(&spec.zoning);
-        spec.output.dir = dir.join(&spec.output.dir);
+        spec.zoning = resolve(parent, &spec.zoning);
+        spec.output.dir = resolve(parent, &spec.output.dir);
         for g in &mut spec.gauges {
-            g.record = dir.join(&g.record);
+            g.record = resolve(parent, &g.record);
             if let Some(c) = &g.constants {
-                g.constants = Some(dir.join(c));
+                g.constants = Some(resolve(parent, c));
             }
         }
         for s in &mut spec.soundings {
             for f in &mut s.files {
-                *f = dir.join(&*f);
+                *f = resolve(parent, f);
             }
         }
         Ok(Project {
@@ -732,9 +727,52 @@ impl Project {
     }
 }
 
+/// A path of the project file read from the project file's folder `dir` (as the user wrote it,
+/// empty for a bare file name): an absolute path and a path beside a bare file name stay as
+/// written; otherwise the folder is joined on without a doubled `./` (`./p.toml` and `./a.csv`
+/// give `./a.csv`, not `././a.csv`). Nothing is canonicalised.
+fn resolve(dir: &Path, p: &Path) -> PathBuf {
+    if p.is_absolute() || dir.as_os_str().is_empty() {
+        return p.to_path_buf();
+    }
+    let rest: PathBuf = p
+        .components()
+        .skip_while(|c| matches!(c, std::path::Component::CurDir))
+        .collect();
+    if rest.as_os_str().is_empty() {
+        dir.to_path_buf()
+    } else {
+        dir.join(rest)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn paths_are_joined_as_typed_without_a_doubled_dot() {
+        // (project file, path written in it) -> the path the run uses and prints.
+        for (project, written, want) in [
+            ("project.toml", "./a.csv", "./a.csv"),
+            ("project.toml", "a.csv", "a.csv"),
+            ("./project.toml", "./a.csv", "./a.csv"),
+            ("./project.toml", "a.csv", "./a.csv"),
+            ("day1/project.toml", "./gauges/a.csv", "day1/gauges/a.csv"),
+            ("day1/project.toml", "../a.csv", "day1/../a.csv"),
+            ("day1/project.toml", ".", "day1"),
+            ("day1/project.toml", "/data/a.csv", "/data/a.csv"),
+        ] {
+            let text = MINIMAL.replace("\"a.csv\"", &format!("{written:?}"));
+            let p = Project::from_str_at(&text, Path::new(project)).unwrap();
+            assert_eq!(
+                p.spec.gauges[0].record,
+                PathBuf::from(want),
+                "{project} + {written}"
+            );
+            assert_eq!(p.spec.gauges[0].record.display().to_string(), want);
+        }
+    }
 
     const MINIMAL: &str = r#"
 name = "t"

@@ -359,7 +359,11 @@ impl SoundingLayout {
                 IoError::content(
                     Position::file(path).line(1).field(want),
                     format!(
-                        "no such column for '{key}' in the header (columns: {})",
+                        "no such column for '{key}' in the header{} (columns: {})",
+                        crate::compute::names::did_you_mean(crate::compute::names::nearest(
+                            want,
+                            names.iter().map(String::as_str)
+                        )),
                         names.join(", ")
                     ),
                 )
@@ -434,7 +438,7 @@ impl SoundingLayout {
                 message: if t_txt.len() > 60 {
                     format!("expected a time, found '{}'", clip(t_txt))
                 } else {
-                    m
+                    m.to_string()
                 },
             })?;
         let x = number(self.x, "a coordinate")?;
@@ -657,5 +661,17 @@ mod tests {
         )
         .unwrap_err();
         assert!(e.to_string().contains("delimiter"), "{e}");
+        // A header that differs from the mapping only in case (or a letter) is suggested.
+        let e = SoundingLayout::resolve(
+            &spec(Delimiter::Comma),
+            Some("time,lon,lat,Depht,line"),
+            None,
+            p,
+        )
+        .unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "s.csv:1: field 'depth': no such column for 'depth' in the header: did you mean 'Depht'? (columns: time, lon, lat, Depht, line)"
+        );
     }
 }

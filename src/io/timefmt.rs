@@ -20,6 +20,7 @@ use chrono::{DateTime, Datelike, FixedOffset, NaiveDateTime, Timelike};
 /// How a time column is written.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Deserialize, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
+#[non_exhaustive]
 pub enum TimeFormat {
     /// ISO 8601 / RFC 3339 text.
     Iso8601,
@@ -27,38 +28,82 @@ pub enum TimeFormat {
     UnixS,
 }
 
+/// Why a time or an offset cannot be read. The texts quote what was found.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[non_exhaustive]
+pub enum TimeError {
+    /// Not an offset of the accepted forms.
+    #[error("expected a UTC offset like +01:00 or -03:30, found '{found}'")]
+    BadOffset {
+        /// The text.
+        found: String,
+    },
+    /// More than 18 hours, or more than 59 minutes.
+    #[error("UTC offset out of range: '{found}'")]
+    OffsetOutOfRange {
+        /// The text.
+        found: String,
+    },
+    /// Not a number of Unix seconds.
+    #[error("expected Unix seconds, found '{found}'")]
+    NotUnixSeconds {
+        /// The text.
+        found: String,
+    },
+    /// A number of Unix seconds that is not finite.
+    #[error("expected finite Unix seconds, found '{found}'")]
+    NonFiniteUnixSeconds {
+        /// The text.
+        found: String,
+    },
+    /// An empty field where an ISO 8601 time was expected.
+    #[error("expected an ISO 8601 time, found an empty field")]
+    Empty,
+    /// Not an ISO 8601 time.
+    #[error("expected an ISO 8601 time like 2026-06-14T09:30:00Z, found '{found}'")]
+    NotIso8601 {
+        /// The text.
+        found: String,
+    },
+    /// A time without an offset, and none to read it with.
+    #[error("time '{time}' has no UTC offset and none is configured (set naive_time_utc_offset)")]
+    NoOffset {
+        /// The text.
+        time: String,
+    },
+    /// A time without an offset that does not exist at the configured offset.
+    #[error("time '{time}' cannot be placed at offset {offset}")]
+    NotAtOffset {
+        /// The text.
+        time: String,
+        /// The configured offset.
+        offset: FixedOffset,
+    },
+}
+
 /// Parses a UTC offset written `+01:00`, `-03:30`, `+0100`, `Z` or `UTC`.
-pub fn parse_offset(s: &str) -> Result<FixedOffset, String> {
+pub fn parse_offset(s: &str) -> Result<FixedOffset, TimeError> {
     let t = s.trim();
     if t.eq_ignore_ascii_case("z") || t.eq_ignore_ascii_case("utc") {
         return Ok(FixedOffset::east_opt(0).expect("zero offset"));
     }
+    let bad = || TimeError::BadOffset { found: s.into() };
     let (sign, rest) = match t.as_bytes().first() {
         Some(b'+') => (1, &t[1..]),
         Some(b'-') => (-1, &t[1..]),
-        _ => {
-            return Err(format!(
-                "expected a UTC offset like +01:00 or -03:30, found '{s}'"
-            ))
-        }
+        _ => return Err(bad()),
     };
     let digits: String = rest.chars().filter(|c| *c != ':').collect();
     if digits.len() != 4 || !digits.chars().all(|c| c.is_ascii_digit()) {
-        return Err(format!(
-            "expected a UTC offset like +01:00 or -03:30, found '{s}'"
-        ));
+        return Err(bad());
     }
-    let h: i32 = digits[..2]
-        .parse()
-        .map_err(|_| format!("bad hours in '{s}'"))?;
-    let m: i32 = digits[2..]
-        .parse()
-        .map_err(|_| format!("bad minutes in '{s}'"))?;
+    let h: i32 = digits[..2].parse().map_err(|_| bad())?;
+    let m: i32 = digits[2..].parse().map_err(|_| bad())?;
+    let out_of_range = || TimeError::OffsetOutOfRange { found: s.into() };
     if h > 18 || m > 59 {
-        return Err(format!("UTC offset out of range: '{s}'"));
+        return Err(out_of_range());
     }
-    FixedOffset::east_opt(sign * (h * 3600 + m * 60))
-        .ok_or_else(|| format!("UTC offset out of range: '{s}'"))
+    FixedOffset::east_opt(sign * (h * 3600 + m * 60)).ok_or_else(out_of_range)
 }
 
 fn to_seconds(dt: DateTime<FixedOffset>) -> f64 {
@@ -73,15 +118,15 @@ pub fn parse_time(
     field: &str,
     format: TimeFormat,
     naive_offset: Option<FixedOffset>,
-) -> Result<f64, String> {
+) -> Result<f64, TimeError> {
     let s = field.trim();
     match format {
         TimeFormat::UnixS => {
             let v: f64 = s
                 .parse()
-                .map_err(|_| format!("expected Unix seconds, found '{s}'"))?;
+                .map_err(|_| TimeError::NotUnixSeconds { found: s.into() })?;
             if !v.is_finite() {
-                return Err(format!("expected finite Unix seconds, found '{s}'"));
+                return Err(TimeError::NonFiniteUnixSeconds { found: s.into() });
             }
             Ok(v)
         }
@@ -89,9 +134,9 @@ pub fn parse_time(
     }
 }
 
-fn parse_iso(s: &str, naive_offset: Option<FixedOffset>) -> Result<f64, String> {
+fn parse_iso(s: &str, naive_offset: Option<FixedOffset>) -> Result<f64, TimeError> {
     if s.is_empty() {
-        return Err("expected an ISO 8601 time, found an empty field".into());
+        return Err(TimeError::Empty);
     }
     if let Ok(dt) = DateTime::parse_from_rfc3339(s) {
         return Ok(to_seconds(dt));
@@ -106,16 +151,17 @@ fn parse_iso(s: &str, naive_offset: Option<FixedOffset>) -> Result<f64, String> 
     }
     let naive = NaiveDateTime::parse_from_str(&normal, "%Y-%m-%dT%H:%M:%S%.f")
         .or_else(|_| NaiveDateTime::parse_from_str(&normal, "%Y-%m-%dT%H:%M"))
-        .map_err(|_| format!("expected an ISO 8601 time like 2026-06-14T09:30:00Z, found '{s}'"))?;
+        .map_err(|_| TimeError::NotIso8601 { found: s.into() })?;
     let Some(off) = naive_offset else {
-        return Err(format!(
-            "time '{s}' has no UTC offset and none is configured (set naive_time_utc_offset)"
-        ));
+        return Err(TimeError::NoOffset { time: s.into() });
     };
     let dt = naive
         .and_local_timezone(off)
         .single()
-        .ok_or_else(|| format!("time '{s}' cannot be placed at offset {off}"))?;
+        .ok_or_else(|| TimeError::NotAtOffset {
+            time: s.into(),
+            offset: off,
+        })?;
     Ok(to_seconds(dt))
 }
 
@@ -282,7 +328,16 @@ mod tests {
     #[test]
     fn naive_time_without_configured_offset_is_an_error() {
         let e = parse_time("2026-06-14T09:30:00", TimeFormat::Iso8601, None).unwrap_err();
-        assert!(e.contains("no UTC offset"), "{e}");
+        assert_eq!(
+            e,
+            TimeError::NoOffset {
+                time: "2026-06-14T09:30:00".into()
+            }
+        );
+        assert_eq!(
+            e.to_string(),
+            "time '2026-06-14T09:30:00' has no UTC offset and none is configured (set naive_time_utc_offset)"
+        );
     }
 
     #[test]

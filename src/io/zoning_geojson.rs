@@ -14,14 +14,15 @@
 //! | `u_range_ratio` | optional standard uncertainty of the range ratio(s) |
 //! | `u_zone_m` | optional spatial standard uncertainty the zoning does not capture, metres |
 //!
-//! Problems are reported as `file: field 'features[i].properties.name'` with the zone id.
+//! Problems are reported as `file: field 'features[i].properties.name': zone 'id': …`, and
+//! geometry problems at `features[i].geometry`.
 
 use std::path::Path;
 
 use geo::{MultiPolygon, Polygon};
 use serde_json::{Map, Value};
 
-use super::error::{IoError, Position};
+use super::error::{Finding, IoError, Position};
 
 /// One gauge's correctors for a zone, as written (gauge by id).
 #[derive(Debug, Clone, PartialEq)]
@@ -65,11 +66,43 @@ pub struct ZoneSpec {
 pub struct ZoningSpec {
     /// Zones in file order.
     pub zones: Vec<ZoneSpec>,
+    /// Members that are not read but look like a misspelling of one that is (warnings).
+    pub warnings: Vec<Finding>,
+}
+
+/// The properties of a zone that ebbwise reads.
+pub const ZONE_PROPERTIES: [&str; 9] = [
+    "zone",
+    "gauge",
+    "time_corrector_min",
+    "range_ratio",
+    "feeds",
+    "mean_level_above_datum_m",
+    "u_time_corrector_min",
+    "u_range_ratio",
+    "u_zone_m",
+];
+
+/// The members of one entry of `feeds`.
+pub const FEED_MEMBERS: [&str; 4] = ["gauge", "weight", "time_corrector_min", "range_ratio"];
+
+/// `key` is missing from `props`: "missing", with the present unknown member that looks like a
+/// misspelling of it (`known` are the members read here).
+fn missing(props: &Map<String, Value>, key: &str, known: &[&str]) -> String {
+    let near = props
+        .keys()
+        .filter(|k| !known.contains(&k.as_str()))
+        .find(|k| crate::compute::names::nearest(k, [key]).is_some());
+    match near {
+        Some(k) => format!("missing; unknown property '{k}': did you mean '{key}'?"),
+        None => "missing".into(),
+    }
 }
 
 fn num(
     props: &Map<String, Value>,
     key: &str,
+    known: &[&str],
     at: &dyn Fn(&str) -> Position,
 ) -> Result<f64, IoError> {
     match props.get(key) {
@@ -81,13 +114,14 @@ fn num(
             at(key),
             format!("expected a number, found {other}"),
         )),
-        None => Err(IoError::content(at(key), "missing")),
+        None => Err(IoError::content(at(key), missing(props, key, known))),
     }
 }
 
 fn text(
     props: &Map<String, Value>,
     key: &str,
+    known: &[&str],
     at: &dyn Fn(&str) -> Position,
 ) -> Result<String, IoError> {
     match props.get(key) {
@@ -96,7 +130,29 @@ fn text(
             at(key),
             format!("expected a non-empty text, found {other}"),
         )),
-        None => Err(IoError::content(at(key), "missing")),
+        None => Err(IoError::content(at(key), missing(props, key, known))),
+    }
+}
+
+/// Warnings for members of `obj` that ebbwise does not read but that look like a misspelling
+/// of one it reads and that is absent (other members are free: GeoJSON properties often carry
+/// names and styles from the tool that drew the zoning).
+fn near_misses(
+    obj: &Map<String, Value>,
+    known: &[&str],
+    at: &dyn Fn(&str) -> Position,
+    zone: &str,
+    out: &mut Vec<Finding>,
+) {
+    for k in obj.keys().filter(|k| !known.contains(&k.as_str())) {
+        if let Some(n) = crate::compute::names::nearest(k, known.iter().copied()) {
+            if !obj.contains_key(n) {
+                out.push(Finding::warning(
+                    at(k),
+                    format!("zone '{zone}': unknown property '{k}', ignored: did you mean '{n}'?"),
+                ));
+            }
+        }
     }
 }
 
@@ -128,6 +184,7 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
         }
     };
     let mut zones = Vec::with_capacity(features.len());
+    let mut warnings = Vec::new();
     let mut ids = std::collections::HashMap::new();
     for (i, f) in features.iter().enumerate() {
         let pos = |k: &str| Position::file(path).field(format!("features[{i}].{k}"));
@@ -140,105 +197,29 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
                 ))
             }
         };
-        let id = text(props, "zone", &|k| pos(&format!("properties.{k}")))?;
-        let at = |k: &str| pos(&format!("properties.{k}")).clone();
-        let at_named = |k: &str| {
-            let mut p = at(k);
-            p.field = p.field.map(|f| format!("{f} (zone '{id}')"));
-            p
-        };
+        let id = text(props, "zone", &ZONE_PROPERTIES, &|k| {
+            pos(&format!("properties.{k}"))
+        })?;
+        let at = |k: &str| pos(&format!("properties.{k}"));
         if let Some(prev) = ids.insert(id.clone(), i) {
             return Err(IoError::content(
                 at("zone"),
                 format!("zone id '{id}' is used by features {prev} and {i}"),
             ));
         }
-        let feeds = match props.get("feeds") {
-            Some(Value::Array(list)) => {
-                if props.contains_key("gauge") {
-                    return Err(IoError::content(
-                        at_named("gauge"),
-                        "give either 'gauge' with its correctors or 'feeds', not both",
-                    ));
-                }
-                if list.is_empty() {
-                    return Err(IoError::content(
-                        at_named("feeds"),
-                        "expected at least one feed",
-                    ));
-                }
-                let mut out = Vec::new();
-                for (k, item) in list.iter().enumerate() {
-                    let Value::Object(m) = item else {
-                        return Err(IoError::content(
-                            at_named(&format!("feeds[{k}]")),
-                            "expected an object {gauge, weight, time_corrector_min, range_ratio}",
-                        ));
-                    };
-                    let fat = |key: &str| at_named(&format!("feeds[{k}].{key}"));
-                    out.push(FeedSpec {
-                        gauge: text(m, "gauge", &fat)?,
-                        weight: num(m, "weight", &fat)?,
-                        time_corrector_min: num(m, "time_corrector_min", &fat)?,
-                        range_ratio: num(m, "range_ratio", &fat)?,
-                    });
-                }
-                out
+        near_misses(props, &ZONE_PROPERTIES, &at, &id, &mut warnings);
+        let ZoneProperties {
+            feeds,
+            mean_level_above_datum_m,
+            u_time_corrector_min,
+            u_range_ratio,
+            u_zone_m,
+        } = zone_properties(props, &at, &id, &mut warnings).map_err(|e| match e {
+            IoError::Content { at, message } => {
+                IoError::content(at, format!("zone '{id}': {message}"))
             }
-            Some(_) => return Err(IoError::content(at_named("feeds"), "expected a list")),
-            None => vec![FeedSpec {
-                gauge: text(props, "gauge", &at_named)?,
-                weight: 1.0,
-                time_corrector_min: num(props, "time_corrector_min", &at_named)?,
-                range_ratio: num(props, "range_ratio", &at_named)?,
-            }],
-        };
-        for (k, fd) in feeds.iter().enumerate() {
-            if fd.range_ratio.is_nan() || fd.range_ratio <= 0.0 {
-                return Err(IoError::content(
-                    at_named(if props.contains_key("feeds") {
-                        "feeds"
-                    } else {
-                        "range_ratio"
-                    }),
-                    format!(
-                        "range ratio must be positive, found {} (feed {k})",
-                        fd.range_ratio
-                    ),
-                ));
-            }
-            if fd.weight < 0.0 {
-                return Err(IoError::content(
-                    at_named("feeds"),
-                    format!(
-                        "weight must not be negative, found {} (feed {k})",
-                        fd.weight
-                    ),
-                ));
-            }
-        }
-        let mean_level_above_datum_m = match props.get("mean_level_above_datum_m") {
-            None | Some(Value::Null) => None,
-            Some(_) => Some(num(props, "mean_level_above_datum_m", &at_named)?),
-        };
-        let opt_u = |k: &str| -> Result<Option<f64>, IoError> {
-            match props.get(k) {
-                None | Some(Value::Null) => Ok(None),
-                Some(_) => {
-                    let v = num(props, k, &at_named)?;
-                    if v < 0.0 {
-                        return Err(IoError::content(
-                            at_named(k),
-                            format!("a standard uncertainty cannot be negative, found {v}"),
-                        ));
-                    }
-                    Ok(Some(v))
-                }
-            }
-        };
-        let u_time_corrector_min = opt_u("u_time_corrector_min")?;
-        let u_range_ratio = opt_u("u_range_ratio")?;
-        let u_zone_m = opt_u("u_zone_m")?;
+            other => other,
+        })?;
         let geom = f.get("geometry").ok_or_else(|| {
             IoError::content(pos("geometry"), format!("zone '{id}' has no geometry"))
         })?;
@@ -262,36 +243,190 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
             "the zoning holds no zone",
         ));
     }
-    Ok(ZoningSpec { zones })
+    Ok(ZoningSpec { zones, warnings })
 }
 
-fn ring(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<geo::LineString<f64>, String> {
+/// A zone's properties other than its id.
+struct ZoneProperties {
+    feeds: Vec<FeedSpec>,
+    mean_level_above_datum_m: Option<f64>,
+    u_time_corrector_min: Option<f64>,
+    u_range_ratio: Option<f64>,
+    u_zone_m: Option<f64>,
+}
+
+/// Reads a zone's properties other than its id (the messages say nothing of the zone: the
+/// caller adds its id).
+fn zone_properties(
+    props: &Map<String, Value>,
+    at: &dyn Fn(&str) -> Position,
+    id: &str,
+    warnings: &mut Vec<Finding>,
+) -> Result<ZoneProperties, IoError> {
+    let feeds = match props.get("feeds") {
+        Some(Value::Array(list)) => {
+            if props.contains_key("gauge") {
+                return Err(IoError::content(
+                    at("gauge"),
+                    "give either 'gauge' with its correctors or 'feeds', not both",
+                ));
+            }
+            if list.is_empty() {
+                return Err(IoError::content(at("feeds"), "expected at least one feed"));
+            }
+            let mut out = Vec::new();
+            for (k, item) in list.iter().enumerate() {
+                let fat = |key: &str| at(&format!("feeds[{k}].{key}"));
+                let Value::Object(m) = item else {
+                    return Err(IoError::content(
+                        at(&format!("feeds[{k}]")),
+                        "expected an object {gauge, weight, time_corrector_min, range_ratio}",
+                    ));
+                };
+                near_misses(m, &FEED_MEMBERS, &fat, id, warnings);
+                let feed = FeedSpec {
+                    gauge: text(m, "gauge", &FEED_MEMBERS, &fat)?,
+                    weight: num(m, "weight", &FEED_MEMBERS, &fat)?,
+                    time_corrector_min: num(m, "time_corrector_min", &FEED_MEMBERS, &fat)?,
+                    range_ratio: num(m, "range_ratio", &FEED_MEMBERS, &fat)?,
+                };
+                if feed.weight < 0.0 {
+                    return Err(IoError::content(
+                        fat("weight"),
+                        format!("weight must not be negative, found {}", feed.weight),
+                    ));
+                }
+                if feed.range_ratio <= 0.0 {
+                    return Err(IoError::content(
+                        fat("range_ratio"),
+                        format!("range ratio must be positive, found {}", feed.range_ratio),
+                    ));
+                }
+                out.push(feed);
+            }
+            out
+        }
+        Some(_) => return Err(IoError::content(at("feeds"), "expected a list")),
+        None => {
+            let feed = FeedSpec {
+                gauge: text(props, "gauge", &ZONE_PROPERTIES, at)?,
+                weight: 1.0,
+                time_corrector_min: num(props, "time_corrector_min", &ZONE_PROPERTIES, at)?,
+                range_ratio: num(props, "range_ratio", &ZONE_PROPERTIES, at)?,
+            };
+            if feed.range_ratio <= 0.0 {
+                return Err(IoError::content(
+                    at("range_ratio"),
+                    format!("range ratio must be positive, found {}", feed.range_ratio),
+                ));
+            }
+            vec![feed]
+        }
+    };
+    let mean_level_above_datum_m = match props.get("mean_level_above_datum_m") {
+        None | Some(Value::Null) => None,
+        Some(_) => Some(num(
+            props,
+            "mean_level_above_datum_m",
+            &ZONE_PROPERTIES,
+            at,
+        )?),
+    };
+    let opt_u = |k: &str| -> Result<Option<f64>, IoError> {
+        match props.get(k) {
+            None | Some(Value::Null) => Ok(None),
+            Some(_) => {
+                let v = num(props, k, &ZONE_PROPERTIES, at)?;
+                if v < 0.0 {
+                    return Err(IoError::content(
+                        at(k),
+                        format!("a standard uncertainty cannot be negative, found {v}"),
+                    ));
+                }
+                Ok(Some(v))
+            }
+        }
+    };
+    Ok(ZoneProperties {
+        feeds,
+        mean_level_above_datum_m,
+        u_time_corrector_min: opt_u("u_time_corrector_min")?,
+        u_range_ratio: opt_u("u_range_ratio")?,
+        u_zone_m: opt_u("u_zone_m")?,
+    })
+}
+
+/// What is wrong with a zone's geometry; the reader puts it at `features[i].geometry` with the
+/// zone id. `ring` and `polygon` say which part, e.g. "polygon 1 hole 0".
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+enum GeometryError {
+    #[error("geometry has no coordinates")]
+    NoCoordinates,
+    #[error("expected a Polygon or MultiPolygon geometry, found '{kind}'")]
+    NotAPolygon { kind: String },
+    #[error("expected a list of polygons")]
+    NotPolygons,
+    #[error("{polygon}: expected a list of rings")]
+    NotRings { polygon: String },
+    #[error("{polygon}: polygon has no ring")]
+    NoRing { polygon: String },
+    #[error("{ring}: expected a list of positions")]
+    NotPositions { ring: String },
+    #[error("{ring}: position {k} is not [longitude, latitude]")]
+    NotAPosition { ring: String, k: usize },
+    #[error("{ring}: position {k} is not two finite numbers")]
+    NotFinite { ring: String, k: usize },
+    #[error("{ring}: position {k} [{x}, {y}] is not a longitude/latitude (GeoJSON is [lon, lat] in degrees)")]
+    NotLonLat {
+        ring: String,
+        k: usize,
+        x: f64,
+        y: f64,
+    },
+    #[error("{ring}: a ring needs at least 3 positions, found {n}")]
+    TooFewPositions { ring: String, n: usize },
+}
+
+fn ring(
+    v: &Value,
+    what: &str,
+    unclosed: &mut Vec<String>,
+) -> Result<geo::LineString<f64>, GeometryError> {
     let Value::Array(pts) = v else {
-        return Err(format!("{what}: expected a list of positions"));
+        return Err(GeometryError::NotPositions { ring: what.into() });
     };
     let mut coords = Vec::with_capacity(pts.len());
     for (k, p) in pts.iter().enumerate() {
-        let xy = p
-            .as_array()
-            .filter(|a| a.len() >= 2)
-            .ok_or_else(|| format!("{what}: position {k} is not [longitude, latitude]"))?;
+        let xy =
+            p.as_array()
+                .filter(|a| a.len() >= 2)
+                .ok_or_else(|| GeometryError::NotAPosition {
+                    ring: what.into(),
+                    k,
+                })?;
         let x = xy[0].as_f64().filter(|v| v.is_finite());
         let y = xy[1].as_f64().filter(|v| v.is_finite());
         let (Some(x), Some(y)) = (x, y) else {
-            return Err(format!("{what}: position {k} is not two finite numbers"));
+            return Err(GeometryError::NotFinite {
+                ring: what.into(),
+                k,
+            });
         };
         if !(-180.0..=180.0).contains(&x) || !(-90.0..=90.0).contains(&y) {
-            return Err(format!(
-                "{what}: position {k} [{x}, {y}] is not a longitude/latitude (GeoJSON is [lon, lat] in degrees)"
-            ));
+            return Err(GeometryError::NotLonLat {
+                ring: what.into(),
+                k,
+                x,
+                y,
+            });
         }
         coords.push(geo::Coord { x, y });
     }
     if coords.len() < 3 {
-        return Err(format!(
-            "{what}: a ring needs at least 3 positions, found {}",
-            coords.len()
-        ));
+        return Err(GeometryError::TooFewPositions {
+            ring: what.into(),
+            n: coords.len(),
+        });
     }
     if coords.first() != coords.last() {
         unclosed.push(what.to_string());
@@ -299,12 +434,20 @@ fn ring(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<geo::LineSt
     Ok(geo::LineString::new(coords))
 }
 
-fn polygon(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<Polygon<f64>, String> {
+fn polygon(
+    v: &Value,
+    what: &str,
+    unclosed: &mut Vec<String>,
+) -> Result<Polygon<f64>, GeometryError> {
     let Value::Array(rings) = v else {
-        return Err(format!("{what}: expected a list of rings"));
+        return Err(GeometryError::NotRings {
+            polygon: what.into(),
+        });
     };
     if rings.is_empty() {
-        return Err(format!("{what}: polygon has no ring"));
+        return Err(GeometryError::NoRing {
+            polygon: what.into(),
+        });
     }
     let ext = ring(&rings[0], &format!("{what} exterior ring"), unclosed)?;
     let holes = rings[1..]
@@ -315,15 +458,15 @@ fn polygon(v: &Value, what: &str, unclosed: &mut Vec<String>) -> Result<Polygon<
     Ok(Polygon::new(ext, holes))
 }
 
-fn geometry(g: &Value) -> Result<(MultiPolygon<f64>, Vec<String>), String> {
+fn geometry(g: &Value) -> Result<(MultiPolygon<f64>, Vec<String>), GeometryError> {
     let mut unclosed = Vec::new();
     let kind = g.get("type").and_then(Value::as_str).unwrap_or("");
-    let coords = g.get("coordinates").ok_or("geometry has no coordinates")?;
+    let coords = g.get("coordinates").ok_or(GeometryError::NoCoordinates)?;
     let mp = match kind {
         "Polygon" => MultiPolygon(vec![polygon(coords, "polygon", &mut unclosed)?]),
         "MultiPolygon" => {
             let Value::Array(parts) = coords else {
-                return Err("expected a list of polygons".into());
+                return Err(GeometryError::NotPolygons);
             };
             MultiPolygon(
                 parts
@@ -333,11 +476,7 @@ fn geometry(g: &Value) -> Result<(MultiPolygon<f64>, Vec<String>), String> {
                     .collect::<Result<_, _>>()?,
             )
         }
-        other => {
-            return Err(format!(
-                "expected a Polygon or MultiPolygon geometry, found '{other}'"
-            ))
-        }
+        other => return Err(GeometryError::NotAPolygon { kind: other.into() }),
     };
     Ok((mp, unclosed))
 }
@@ -375,7 +514,7 @@ mod tests {
         let e = parse(&ONE.replace("\"range_ratio\":1.05", "\"range_ratio\":\"big\"")).unwrap_err();
         assert_eq!(
             e.to_string(),
-            "z.geojson: field 'features[0].properties.range_ratio (zone 'A')': expected a number, found \"big\""
+            "z.geojson: field 'features[0].properties.range_ratio': zone 'A': expected a number, found \"big\""
         );
         let e = parse(&ONE.replace(
             "[[[0,0],[1,0],[1,1],[0,0]]]",

@@ -161,7 +161,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                 Err(e) => {
                     report
                         .findings
-                        .push(Finding::error(path.display(), e.to_string()));
+                        .push(Finding::error(Position::file(path), e.to_string()));
                     continue;
                 }
             };
@@ -179,7 +179,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                     Err(e) => {
                         report
                             .findings
-                            .push(Finding::error(path.display(), e.to_string()));
+                            .push(Finding::error(Position::file(path), e.to_string()));
                         break;
                     }
                 };
@@ -251,7 +251,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             }
             if problems > ROW_PROBLEMS_LISTED {
                 report.findings.push(Finding::error(
-                    path.display(),
+                    Position::file(path),
                     format!("{} more unreadable rows", problems - ROW_PROBLEMS_LISTED),
                 ));
             }
@@ -266,7 +266,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                 if let Some(area) = uncovered_area_m2(&hull, &group.crs, &zoning_union) {
                     if area > 1.0 {
                         report.findings.push(Finding::warning(
-                            path.display(),
+                            Position::file(path),
                             format!(
                                 "{area:.0} m² of the soundings' extent (convex hull) is covered by no zone"
                             ),
@@ -329,8 +329,8 @@ fn check_gauge_spans(loaded: &super::load::Loaded, t0: f64, t1: f64, out: &mut V
         }
         let Some((a, b)) = need else {
             out.push(Finding::warning(
-                Position::file(&loaded.project.path).field(format!("gauge '{}'", g.id)),
-                "no zone uses this gauge",
+                Position::file(&loaded.project.path).field(format!("gauge[{gi}]")),
+                format!("no zone uses gauge '{}'", g.id),
             ));
             continue;
         };

@@ -399,7 +399,8 @@ pub fn write_correctors(
     let mut text = String::with_capacity(n * loaded.zones.len() * 48 + 128);
     text.push_str(&ZONE_CORRECTOR_COLUMNS.join(","));
     text.push('\n');
-    let mut counts = [0usize; 5];
+    use crate::compute::correctors::CorrectorStatus;
+    let mut counts = [0usize; CorrectorStatus::ALL.len()];
     for (z, rows) in loaded.zones.iter().zip(&per_zone) {
         push_zone_rows(&mut text, &z.id, rows);
         for r in rows {
@@ -458,20 +459,13 @@ pub fn write_correctors(
             ));
         }
     }
-    use crate::compute::correctors::CorrectorStatus as S;
     Ok(CorrectorsOutcome {
         warnings,
         written,
-        zone_rows_by_status: [
-            S::Observed,
-            S::Interpolated,
-            S::GapFilled,
-            S::Missing,
-            S::Flagged,
-        ]
-        .iter()
-        .map(|s| (s.as_str(), counts[*s as usize]))
-        .collect(),
+        zone_rows_by_status: CorrectorStatus::ALL
+            .iter()
+            .map(|s| (s.as_str(), counts[*s as usize]))
+            .collect(),
         span_s: (from, from + (n - 1) as f64 * step_s),
         soundings,
     })
@@ -485,7 +479,7 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
                 "time_utc" => "ISO 8601 time, UTC, to the millisecond (to the microsecond when a sounding's time is finer)",
                 "tide_m" => "tide: water level above chart datum, metres, positive up, 4 decimals; empty when missing",
                 "u_tide_m" => "standard uncertainty (1 sigma) of the tide, metres, 4 decimals; empty when not computed",
-                "status" => "observed | interpolated | gap_filled | missing | flagged (per zone); the sounding's status (per sounding)",
+                "status" => "observed | interpolated | missing | flagged (per zone and per line); the sounding's status (per sounding)",
                 "line" => "survey line",
                 "source_file" => "soundings file the row comes from",
                 "source_line" => "1-based line of the sounding in its file",

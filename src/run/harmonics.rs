@@ -6,7 +6,7 @@ use std::path::{Path, PathBuf};
 
 use super::load::prepare_series;
 use crate::compute::harmonic::{
-    analyse, high_low_waters, predict_grid, Analysis, AnalysisSettings, HighLowWater,
+    analyse, high_low_waters, predict_grid, Analysis, AnalysisError, AnalysisSettings, HighLowWater,
 };
 use crate::io::atomic::{Sink, SinkWriter};
 use crate::io::constants::{read_constants, ConstantsFile, LEVELS_CHART_DATUM, LEVELS_RECORD_ZERO};
@@ -15,6 +15,43 @@ use crate::io::gauge_csv::read_gauge_record;
 use crate::io::numfmt::{push_fixed, HEIGHT_DECIMALS};
 use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
 use crate::io::timefmt::push_utc_bytes;
+
+/// Why `ebbwise analyse` or `ebbwise predict` could not be done.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum HarmonicsError {
+    /// A file could not be read or written, or its content is wrong.
+    #[error(transparent)]
+    Io(#[from] IoError),
+    /// The record cannot be analysed.
+    #[error("{}: {error}", record.display())]
+    Analysis {
+        /// The record.
+        record: PathBuf,
+        /// Why.
+        error: AnalysisError,
+    },
+    /// The output file is the input file.
+    #[error("the output would overwrite the {what} {}", path.display())]
+    WouldOverwrite {
+        /// The file.
+        path: PathBuf,
+        /// `record` or `constants file`.
+        what: &'static str,
+    },
+    /// The prediction span is empty or reversed, or the step is not positive.
+    #[error("the span must not be empty and the step must be positive")]
+    EmptySpan,
+    /// The prediction grid would exceed [`MAX_PREDICTED_VALUES`].
+    #[error("{n} values: more than 50 million; use a longer step or a shorter span")]
+    TooManyValues {
+        /// Values the grid would hold.
+        n: usize,
+    },
+}
+
+/// Most values `predict_file` writes in one grid.
+pub const MAX_PREDICTED_VALUES: usize = 50_000_000;
 
 /// What `ebbwise analyse` did.
 #[derive(Debug)]
@@ -41,7 +78,7 @@ pub fn analyse_gauge(
     gauge_id: Option<String>,
     levels: &str,
     out: Sink<'_>,
-) -> Result<AnalyseOutcome, anyhow::Error> {
+) -> Result<AnalyseOutcome, HarmonicsError> {
     let r = read_gauge_record(spec, naive_offset)?;
     let (times, heights, set_aside) = match qc {
         Some(q) => {
@@ -57,8 +94,11 @@ pub fn analyse_gauge(
             (s.times_s, s.heights_m, r.times_s.len() - n)
         }
     };
-    let analysis = analyse(&times, &heights, settings)
-        .map_err(|m| anyhow::anyhow!("{}: {m}", spec.record.display()))?;
+    let analysis =
+        analyse(&times, &heights, settings).map_err(|error| HarmonicsError::Analysis {
+            record: spec.record.clone(),
+            error,
+        })?;
     let file = ConstantsFile::from_analysis(
         &analysis,
         Some(spec.record.display().to_string()),
@@ -67,7 +107,10 @@ pub fn analyse_gauge(
     );
     if let Some(path) = out.path() {
         if path == spec.record {
-            anyhow::bail!("the output would overwrite the record {}", path.display());
+            return Err(HarmonicsError::WouldOverwrite {
+                path: path.to_path_buf(),
+                what: "record",
+            });
         }
         if let Some(d) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
             std::fs::create_dir_all(d).map_err(|e| IoError::file(d, e))?;
@@ -121,7 +164,7 @@ pub fn predict_file(
     step_s: f64,
     out: &Path,
     high_low_waters_out: &Path,
-) -> Result<PredictOutcome, anyhow::Error> {
+) -> Result<PredictOutcome, HarmonicsError> {
     predict_to(
         constants,
         t0_s,
@@ -140,13 +183,13 @@ pub fn predict_to(
     step_s: f64,
     out: Sink<'_>,
     high_low_waters_out: Sink<'_>,
-) -> Result<PredictOutcome, anyhow::Error> {
+) -> Result<PredictOutcome, HarmonicsError> {
     if step_s.is_nan() || step_s <= 0.0 || t1_s.is_nan() || t0_s.is_nan() || t1_s < t0_s {
-        anyhow::bail!("the span must not be empty and the step must be positive");
+        return Err(HarmonicsError::EmptySpan);
     }
     let n = ((t1_s - t0_s) / step_s).floor() as usize + 1;
-    if n > 50_000_000 {
-        anyhow::bail!("{n} values: more than 50 million; use a longer step or a shorter span");
+    if n > MAX_PREDICTED_VALUES {
+        return Err(HarmonicsError::TooManyValues { n });
     }
     let (file, k) = read_constants(constants)?;
     for p in [out.path(), high_low_waters_out.path()]
@@ -154,10 +197,10 @@ pub fn predict_to(
         .flatten()
     {
         if p == constants {
-            anyhow::bail!(
-                "the output would overwrite the constants file {}",
-                p.display()
-            );
+            return Err(HarmonicsError::WouldOverwrite {
+                path: p.to_path_buf(),
+                what: "constants file",
+            });
         }
     }
     let clock = std::time::Instant::now();

@@ -9,8 +9,8 @@ use crate::compute::uncertainty::{
     s44_orders, GaugeUncertainty, SoundingUncertaintyModel, SurveyOrder, ZoneUncertainty,
 };
 use crate::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
-use crate::io::crs::Transformer;
-use crate::io::error::{Finding, IoError, Position};
+use crate::io::crs::{CrsError, Transformer};
+use crate::io::error::{Finding, Position};
 use crate::io::gauge_csv::{read_gauge_record, GaugeRecord};
 use crate::io::project::{GaugeSpec, InterpolationChoice, InterpolationSpec, Project, QcSpec};
 use crate::io::zoning_geojson::{read_zoning, ZoningSpec};
@@ -38,6 +38,10 @@ pub struct Loaded {
     pub uncertainty: Option<UncertaintyConfig>,
     /// Problems found while loading that do not stop a run.
     pub warnings: Vec<Finding>,
+    /// The zoning lies away from every gauge but, with its positions read as [latitude,
+    /// longitude], around all of them: its axes look swapped ([`zoning_looks_swapped`]; a warning
+    /// says so, and the hint for a sounding outside every zone names the zoning file).
+    pub zoning_looks_swapped: bool,
 }
 
 /// Uncertainty inputs resolved for every gauge and zone.
@@ -116,6 +120,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             return Err(findings);
         }
     };
+    findings.extend(zoning.warnings.iter().cloned());
     let index: HashMap<&str, usize> = project
         .spec
         .gauges
@@ -127,12 +132,17 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     for z in &zoning.zones {
         let at = Position::file(&project.spec.zoning)
             .field(format!("features[{}].properties", z.feature_index));
+        let at_geometry = Position::file(&project.spec.zoning)
+            .field(format!("features[{}].geometry", z.feature_index));
         if let Some(m) = self_intersection(&z.polygon_lonlat) {
-            findings.push(Finding::error(at.clone(), format!("zone '{}': {m}", z.id)));
+            findings.push(Finding::error(
+                at_geometry.clone(),
+                format!("zone '{}': {m}", z.id),
+            ));
         }
         for ring in &z.unclosed_rings {
             findings.push(Finding::error(
-                at.clone(),
+                at_geometry.clone(),
                 format!(
                     "zone '{}': {ring} is not closed (first and last positions differ)",
                     z.id
@@ -151,16 +161,10 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 None => findings.push(Finding::error(
                     at.clone(),
                     format!(
-                        "zone '{}' names gauge '{}', which the project does not define (gauges: {})",
+                        "zone '{}' names gauge '{}', which the project does not define{}",
                         z.id,
                         f.gauge,
-                        project
-                            .spec
-                            .gauges
-                            .iter()
-                            .map(|g| g.id.as_str())
-                            .collect::<Vec<_>>()
-                            .join(", ")
+                        gauge_hint(&project, &f.gauge)
                     ),
                 )),
             }
@@ -178,8 +182,9 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         let w: f64 = z.feeds.iter().map(|f| f.weight).sum();
         if (w - 1.0).abs() > 1e-6 && !zone.feeds.is_empty() {
             findings.push(Finding::error(
-                at.clone(),
-                format!("zone '{}': gauge weights sum to {w}, not 1", z.id),
+                Position::file(&project.spec.zoning)
+                    .field(format!("features[{}].properties.feeds", z.feature_index)),
+                format!("zone '{}': gauge weights sum to {w:.6}, not 1", z.id),
             ));
         }
         zones.push(zone);
@@ -189,6 +194,17 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         .any(|f| f.severity == crate::io::error::Severity::Error)
     {
         return Err(findings);
+    }
+    let gauge_lonlat: Vec<(f64, f64)> =
+        project.spec.gauges.iter().map(|g| (g.lon, g.lat)).collect();
+    let swapped = zoning_looks_swapped(&zoning, &gauge_lonlat);
+    if let Some(d_deg) = swapped {
+        findings.push(Finding::warning(
+            Position::file(&project.spec.zoning),
+            format!(
+                "the zoning lies {d_deg:.1}° from the nearest gauge, but with each position read as [latitude, longitude] it would lie around the gauges: GeoJSON positions are [longitude, latitude]; are they swapped in the zoning file?"
+            ),
+        ));
     }
     let uncertainty = match &project.spec.uncertainty {
         None => None,
@@ -251,22 +267,17 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 .iter()
                 .position(|o| o.name.eq_ignore_ascii_case(want))
             else {
-                // Blame where the name came from: the command line or the project file.
+                // Blame where the name came from: the command line (the option stands where a
+                // file would) or the project file's key.
                 let at = match order_override {
-                    Some(_) => "--order".to_string(),
-                    None => Position::file(&project.path)
-                        .field("uncertainty.order")
-                        .to_string(),
+                    Some(_) => Position::file(std::path::Path::new("--order")),
+                    None => Position::file(&project.path).field("uncertainty.order"),
                 };
                 findings.push(Finding::error(
                     at,
                     format!(
-                        "unknown survey order '{want}' (known: {})",
-                        orders
-                            .iter()
-                            .map(|o| o.name.as_str())
-                            .collect::<Vec<_>>()
-                            .join(", ")
+                        "unknown survey order '{want}'{}",
+                        crate::compute::names::hint(want, orders.iter().map(|o| o.name.as_str()))
                     ),
                 ));
                 return Err(findings);
@@ -290,7 +301,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     let mut gauges = Vec::new();
     let mut qc = Vec::new();
     let mut methods = Vec::new();
-    for (g, r) in project.spec.gauges.iter().zip(&records) {
+    for (gi, (g, r)) in project.spec.gauges.iter().zip(&records).enumerate() {
         let prepared = prepare_series(&project.spec.qc, &project.spec.interpolation, g, r);
         if let Some(q) = &prepared.qc {
             use crate::compute::qc::{QcFlag, QcReason};
@@ -350,9 +361,10 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         if let Some(c) = g.lowpass_cutoff_min {
             if c <= 2.0 * prepared.method.nominal_step_min {
                 findings.push(Finding::warning(
-                    Position::file(&project.path).field(format!("gauge '{}'.lowpass_cutoff_min", g.id)),
+                    Position::file(&project.path).field(format!("gauge[{gi}].lowpass_cutoff_min")),
                     format!(
-                        "a cut-off of {c} min is not longer than two steps of this {:.1}-min record: the filter leaves it unchanged",
+                        "gauge '{}': a cut-off of {c} min is not longer than two steps of this {:.1}-min record: the filter leaves it unchanged",
+                        g.id,
                         prepared.method.nominal_step_min
                     ),
                 ));
@@ -384,7 +396,55 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         methods,
         uncertainty,
         warnings: findings,
+        zoning_looks_swapped: swapped.is_some(),
     })
+}
+
+/// `": did you mean 'g1'?"` for the project's gauge nearest to `id`, or `" (gauges: g1, g2)"`.
+pub fn gauge_hint(project: &Project, id: &str) -> String {
+    let ids = project.spec.gauges.iter().map(|g| g.id.as_str());
+    match crate::compute::names::nearest(id, ids.clone()) {
+        Some(n) => format!(": did you mean '{n}'?"),
+        None => format!(" (gauges: {})", ids.collect::<Vec<_>>().join(", ")),
+    }
+}
+
+/// Whether a zoning's positions look written as [latitude, longitude]: no gauge lies near the
+/// zoning's bounding box, and every gauge lies near the box with its axes swapped. "Near" is
+/// within the box's diagonal or 0.1°, whichever is larger (a gauge may stand a little outside
+/// the zones it feeds). Returns the distance, degrees, from the box to the nearest gauge.
+pub fn zoning_looks_swapped(zoning: &ZoningSpec, gauge_lonlat: &[(f64, f64)]) -> Option<f64> {
+    use geo::BoundingRect;
+    let mut rects = zoning
+        .zones
+        .iter()
+        .filter_map(|z| z.polygon_lonlat.bounding_rect());
+    let first = rects.next()?;
+    let (mut x0, mut y0, mut x1, mut y1) =
+        (first.min().x, first.min().y, first.max().x, first.max().y);
+    for r in rects {
+        x0 = x0.min(r.min().x);
+        y0 = y0.min(r.min().y);
+        x1 = x1.max(r.max().x);
+        y1 = y1.max(r.max().y);
+    }
+    if gauge_lonlat.is_empty() {
+        return None;
+    }
+    let near_deg = (x1 - x0).hypot(y1 - y0).max(0.1);
+    let distance = |(x, y): (f64, f64), (x0, y0, x1, y1): (f64, f64, f64, f64)| {
+        let dx = (x0 - x).max(x - x1).max(0.0);
+        let dy = (y0 - y).max(y - y1).max(0.0);
+        dx.hypot(dy)
+    };
+    let nearest = gauge_lonlat
+        .iter()
+        .map(|&g| distance(g, (x0, y0, x1, y1)))
+        .fold(f64::INFINITY, f64::min);
+    let all_near_swapped = gauge_lonlat
+        .iter()
+        .all(|&g| distance(g, (y0, x0, y1, x1)) <= near_deg);
+    (nearest > near_deg && all_near_swapped).then_some(nearest)
 }
 
 /// A gauge's series as the reducer uses it, with what was done to it.
@@ -577,21 +637,68 @@ pub fn plausibility(g: &crate::io::project::GaugeSpec, r: &GaugeRecord) -> Optio
     }
 }
 
+/// Why the zoning cannot be placed in a soundings group's CRS.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum LocatorError {
+    /// The CRS is unknown, or PROJ has no transformation into it.
+    #[error(transparent)]
+    Crs(#[from] CrsError),
+    /// A zone's outline does not transform.
+    #[error("zone '{zone}': {error}")]
+    Zone {
+        /// The zone id.
+        zone: String,
+        /// What failed.
+        error: CrsError,
+    },
+}
+
 /// Builds the zone locator for one CRS (the zoning transformed into it).
-pub fn locator_for_crs(zoning: &ZoningSpec, crs: &str) -> Result<ZoneLocator, String> {
+pub fn locator_for_crs(zoning: &ZoningSpec, crs: &str) -> Result<ZoneLocator, LocatorError> {
     let t = Transformer::new("EPSG:4326", crs)?;
     let polys = zoning
         .zones
         .iter()
         .map(|z| {
             t.polygon_from_lonlat(&z.polygon_lonlat)
-                .map_err(|e| format!("zone '{}': {e}", z.id))
+                .map_err(|error| LocatorError::Zone {
+                    zone: z.id.clone(),
+                    error,
+                })
         })
         .collect::<Result<Vec<_>, _>>()?;
     Ok(ZoneLocator::new(polys))
 }
 
-/// Turns an I/O error into findings (helper for callers collecting findings).
-pub fn finding(e: IoError) -> Finding {
-    e.into()
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::io::zoning_geojson::parse_zoning;
+
+    fn zoning(coords: &str) -> ZoningSpec {
+        let text = format!(
+            r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{"zone":"A","gauge":"g","time_corrector_min":0,"range_ratio":1}},"geometry":{{"type":"Polygon","coordinates":[{coords}]}}}}]}}"#
+        );
+        parse_zoning(text.as_bytes(), std::path::Path::new("z.geojson")).unwrap()
+    }
+
+    #[test]
+    fn a_zoning_written_latitude_first_is_recognised_by_the_gauges() {
+        // A 0.1° square at 4..4.1° E, 52..52.1° N; a gauge at 4.05° E, 52.12° N (0.02° north of
+        // it, within the 0.1° margin).
+        let right = zoning("[[4,52],[4.1,52],[4.1,52.1],[4,52.1],[4,52]]");
+        let swapped = zoning("[[52,4],[52,4.1],[52.1,4.1],[52.1,4],[52,4]]");
+        let gauge = [(4.05, 52.12)];
+        assert_eq!(zoning_looks_swapped(&right, &gauge), None);
+        // The swapped box is 52..52.1 by 4..4.1: the gauge lies 52 − 4.05 = 47.95° west and
+        // 52.12 − 4.1 = 48.02° north of it.
+        let d = zoning_looks_swapped(&swapped, &gauge).unwrap();
+        assert!((d - 47.95f64.hypot(48.02)).abs() < 1e-9, "{d}");
+        // A gauge far from both boxes says nothing about the axes.
+        assert_eq!(
+            zoning_looks_swapped(&swapped, &[(4.05, 52.12), (-60.0, -10.0)]),
+            None
+        );
+    }
 }

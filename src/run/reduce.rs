@@ -93,6 +93,7 @@ pub trait Progress: Sync {
 
 /// What a streaming run computes and writes.
 #[derive(Debug, Clone, Copy)]
+#[non_exhaustive]
 pub enum RunKind<'a> {
     /// Reduce with the zoning: `<stem>.reduced.csv`.
     Reduce,
@@ -104,6 +105,7 @@ pub enum RunKind<'a> {
 
 /// The tide source of an apply run.
 #[derive(Debug, Clone, Copy)]
+#[non_exhaustive]
 pub enum ApplyModel<'a> {
     /// Per-zone corrector series, by zone index.
     Zones(&'a [Vec<crate::compute::correctors::Corrector>]),
@@ -942,7 +944,12 @@ fn process_chunk(
                             {
                                 detail.push_str(" (with x and y swapped it would be in zone '");
                                 detail.push_str(ctx.zone_ids[z]);
-                                detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
+                                if ctx.loaded.zoning_looks_swapped {
+                                    // The gauges say the zoning, not the soundings, is swapped.
+                                    detail.push_str("': the zoning file's positions look swapped; GeoJSON positions are [longitude, latitude])");
+                                } else {
+                                    detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
+                                }
                             }
                             SoundingStatus::OutsideZoning
                         }

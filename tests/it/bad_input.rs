@@ -191,3 +191,88 @@ fn swapped_longitude_and_latitude_are_named() {
     let d = &rows[0][h.iter().position(|c| c == "status_detail").unwrap()];
     assert_eq!(d, "position is outside every zone (with x and y swapped it would be in zone 'Z1': check the column mapping, x = longitude or easting, y = latitude or northing)");
 }
+
+/// A file that cannot be opened is named once with the operating system's words once: the
+/// project file itself, a soundings file the project names, and the record `analyse` is given.
+#[test]
+fn a_missing_file_is_reported_once() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let missing_project = p.path("nothere.toml").to_string_lossy().into_owned();
+    std::fs::remove_file(p.path("s.csv")).unwrap();
+    let missing_record = p.path("nothere.csv").to_string_lossy().into_owned();
+    for (args, file) in [
+        (vec!["reduce", missing_project.as_str()], "nothere.toml"),
+        (vec!["reduce", &p.project(), "--no-progress"], "s.csv"),
+        (vec!["analyse", missing_record.as_str()], "nothere.csv"),
+    ] {
+        let o = ebbwise(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        let err = stderr(&o);
+        let line = err
+            .lines()
+            .find(|l| l.starts_with("ebbwise: "))
+            .unwrap_or_else(|| panic!("{args:?}: {err}"));
+        // The OS error of a missing file (ENOENT) is "No such file or directory (os error 2)" on
+        // Linux and macOS; whatever the words, they end in "(os error N)" once.
+        assert!(line.contains(&format!("{file}: ")), "{line}");
+        assert_eq!(line.matches("(os error").count(), 1, "{line}");
+    }
+}
+
+/// Paths are printed as the project file's folder joined with what the file says, without a
+/// doubled `./`: run from the project's folder on `project.toml`, a record written
+/// `./missing.csv` is reported as `./missing.csv`.
+#[test]
+fn paths_are_printed_as_written() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let text = std::fs::read_to_string(p.path("project.toml")).unwrap();
+    p.write(
+        "project.toml",
+        &text.replace("record = \"g1.csv\"", "record = \"./missing.csv\""),
+    );
+    for project in ["project.toml", "./project.toml"] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ebbwise"))
+            .args(["check", project])
+            .current_dir(p.dir.path())
+            .output()
+            .unwrap();
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(1), "{err}");
+        assert!(err.contains("error: ./missing.csv: "), "{project}: {err}");
+        assert!(!err.contains("././"), "{project}: {err}");
+    }
+}
+
+/// A misspelt survey order is named with the nearest one (`specal` is one letter short of
+/// `special`), in the project file and with `--order`; two equally near orders (`1c`: `1a`
+/// and `1b`) are no hint, so the valid ones are listed.
+#[test]
+fn a_misspelt_order_suggests_the_nearest() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let text = std::fs::read_to_string(p.path("project.toml")).unwrap();
+    p.write(
+        "project.toml",
+        &format!("{text}[uncertainty]\norder = \"specal\"\n"),
+    );
+    let o = ebbwise(&["check", &p.project()]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        stderr(&o).contains(
+            "project.toml: field 'uncertainty.order': unknown survey order 'specal': did you mean 'special'?"
+        ),
+        "{}",
+        stderr(&o)
+    );
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress", "--order", "1c"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains(
+            "error: --order: unknown survey order '1c' (expected one of: exclusive, special, 1a, 1b, 2)"
+        ),
+        "{}",
+        stderr(&o)
+    );
+}

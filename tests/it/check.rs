@@ -26,13 +26,15 @@ fn unknown_gauge_and_bad_weights() {
     let p = MiniProject::new(GOOD);
     p.write("zoning.geojson", &MINI_ZONING.replace(
         r#""gauge":"g1","time_corrector_min":6,"range_ratio":0.5"#,
-        r#""feeds":[{"gauge":"g1","weight":0.5,"time_corrector_min":6,"range_ratio":0.5},{"gauge":"g9","weight":0.4,"time_corrector_min":0,"range_ratio":1}]"#,
+        r#""feeds":[{"gauge":"g1","weight":0.6,"time_corrector_min":6,"range_ratio":0.5},{"gauge":"g9","weight":0.3,"time_corrector_min":0,"range_ratio":1}]"#,
     ));
     let (code, err) = check(&p);
     assert_eq!(code, Some(1), "{err}");
-    assert!(err.contains("zoning.geojson: field 'features[1].properties': zone 'Z2' names gauge 'g9', which the project does not define (gauges: g1)"), "{err}");
+    assert!(err.contains("zoning.geojson: field 'features[1].properties': zone 'Z2' names gauge 'g9', which the project does not define: did you mean 'g1'?"), "{err}");
+    // 0.6 + 0.3 is 0.8999999999999999 in binary floating point; the sum is printed to the
+    // 1e-6 tolerance of the check.
     assert!(
-        err.contains("zone 'Z2': gauge weights sum to 0.9, not 1"),
+        err.contains("zoning.geojson: field 'features[1].properties.feeds': zone 'Z2': gauge weights sum to 0.900000, not 1"),
         "{err}"
     );
 }
@@ -131,5 +133,43 @@ fn unknown_epsg_and_bad_rows() {
     assert!(
         err.contains("s.csv:2: field 'depth': expected a depth in metres, found 'deep'"),
         "{err}"
+    );
+}
+
+/// `check --json` gives each finding's position in parts as well as printed: a height that is
+/// not a number on line 3 of the gauge record, and a zone ring that is not closed (no line).
+#[test]
+fn json_findings_carry_file_line_and_field() {
+    let p = MiniProject::new(GOOD);
+    p.write(
+        "g1.csv",
+        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,x\n",
+    );
+    p.write(
+        "zoning.geojson",
+        &MINI_ZONING.replace("[10.0,50.01],[10.0,50.0]]]}},", "[10.0,50.01]]]}},"),
+    );
+    let out = ebbwise(&["check", &p.project(), "--json", "-"]);
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let findings = v["findings"].as_array().unwrap();
+    let height = findings
+        .iter()
+        .find(|f| f["field"] == "height")
+        .unwrap_or_else(|| panic!("{v:#}"));
+    let g1 = p.path("g1.csv").to_string_lossy().into_owned();
+    assert_eq!(height["severity"], "error");
+    assert_eq!(height["file"], g1.as_str());
+    assert_eq!(height["line"], 3);
+    assert_eq!(height["at"], format!("{g1}:3: field 'height'").as_str());
+    assert_eq!(height["message"], "expected a number, found 'x'");
+    let ring = findings
+        .iter()
+        .find(|f| f["field"] == "features[0].geometry")
+        .unwrap_or_else(|| panic!("{v:#}"));
+    assert!(ring["line"].is_null(), "{ring}");
+    assert_eq!(
+        ring["file"],
+        p.path("zoning.geojson").to_string_lossy().as_ref()
     );
 }

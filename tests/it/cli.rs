@@ -343,7 +343,7 @@ fn an_unknown_order_is_blamed_on_where_it_was_given() {
     assert_eq!(o.status.code(), Some(2));
     let e = stderr(&o);
     assert!(
-        e.contains("error: --order: unknown survey order '3x' (known: "),
+        e.contains("error: --order: unknown survey order '3x' (expected one of: "),
         "{e}"
     );
     assert!(!e.contains("uncertainty.order"), "{e}");

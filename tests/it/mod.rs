@@ -8,6 +8,7 @@ mod correctors;
 mod crs_reference;
 mod demo_recovery;
 mod harmonics;
+mod layers;
 mod output_table;
 mod outputs;
 mod properties;
