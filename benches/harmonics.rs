@@ -270,15 +270,21 @@ fn upper_by_gemm_blocks(a: &DMatrix<f64>, w: usize) -> DMatrix<f64> {
     m
 }
 
-/// Runs an `ebbwise` command, its standard output to /dev/null, and asserts that it succeeded.
+/// Runs an `ebbwise` command with its standard output to /dev/null and its summary (standard
+/// error) kept, and asserts that it succeeded; the summary is shown only when it did not.
 fn run_quietly(cmd: &mut Command) {
-    let status = cmd
+    let out = cmd
         .stdout(Stdio::null())
-        .stderr(Stdio::inherit())
-        .status()
+        .stderr(Stdio::piped())
+        .output()
         .expect("ebbwise starts");
     let subcommand = cmd.get_args().next().unwrap_or_default().to_string_lossy();
-    assert!(status.success(), "ebbwise {subcommand}: {status}");
+    assert!(
+        out.status.success(),
+        "ebbwise {subcommand}: {}\n{}",
+        out.status,
+        String::from_utf8_lossy(&out.stderr)
+    );
 }
 
 /// The defaults of `--runs`, `--retries` (per run) and `--wait-idle` (before each measurement

@@ -247,7 +247,9 @@ impl Runner {
 /// Hidden mode `--child-rss PROGRAM ARGS…`: runs the program (output to /dev/null) and prints
 /// its exit code and peak resident set in KiB (`ru_maxrss` from `wait4`).
 ///
-/// The program is started from this small process, not from the bench itself: a child started
+/// The child's summary (standard error) is discarded: the exit code, which the parent checks,
+/// says whether it ran. The program is started from this small process, not from the bench
+/// itself: a child started
 /// with `vfork` semantics (as `Command` does) shares its parent's memory until `exec`, and Linux
 /// counts the parent's resident set in the child's `ru_maxrss`.
 fn child_rss(args: Vec<String>) {
@@ -255,7 +257,7 @@ fn child_rss(args: Vec<String>) {
         Command::new(&args[0])
             .args(&args[1..])
             .stdout(Stdio::null())
-            .stderr(Stdio::inherit()),
+            .stderr(Stdio::null()),
     )
     .unwrap_or_else(|e| panic!("{e}"));
     println!("{} {}", r.exit_code.unwrap_or(-1), r.peak_rss_kib);
