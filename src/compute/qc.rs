@@ -889,7 +889,7 @@ fn cubic_step_fit(x: &[f64], y: &[f64]) -> Option<f64> {
     ata.cholesky().map(|c| c.solve(&aty)[4])
 }
 
-/// The step statistic `J` at each junction `k` (between clean[k-1] and clean[k]), or NaN where
+/// The step statistic `J` at each junction `k` (between `clean[k-1]` and `clean[k]`), or NaN where
 /// the windows are not available.
 ///
 /// `J` is the step term of one least-squares fit across the junction: a cubic in time plus a
