@@ -222,7 +222,8 @@ pub struct RunSummary {
     /// QA counts, when uncertainty was computed.
     #[serde(skip)]
     pub qa: Option<QaAccumulator>,
-    /// First and last reduced-sounding time over all files, UTC seconds.
+    /// First and last time of every sounding row that could be read (whatever its status), over all
+    /// files, UTC seconds.
     #[serde(skip)]
     pub time_range_s: Option<(f64, f64)>,
 }
