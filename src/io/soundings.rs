@@ -2,7 +2,8 @@
 //!
 //! A soundings file is CSV (comma, semicolon or tab) or whitespace-delimited text, one sounding
 //! per line, with or without a header. The column mapping comes from the project file; a column is
-//! named by its header text or as `#N` (1-based). A UTF-8 byte-order mark is ignored and CRLF line
+//! named by its header text or as `#N` (1-based); a name two columns carry is refused. A UTF-8
+//! byte-order mark is ignored, a first line with NUL bytes (UTF-16) is refused, and CRLF line
 //! ends are accepted. A quoted field may contain the delimiter but not a line break.
 //!
 //! Files are read in chunks of whole lines ([`ChunkReader`]) so that chunks can be parsed in
