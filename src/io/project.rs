@@ -491,8 +491,23 @@ pub struct SoundingsSpec {
     /// Depth sign convention.
     #[serde(default = "default_depth_sign")]
     pub depth_sign: DepthSign,
+    /// Whether rows may have more fields than the header (`"refused"` by default: such a row is
+    /// `bad_input`, since a split field, e.g. an unquoted `1,015.65`, shifts the columns).
+    #[serde(default)]
+    pub extra_trailing_fields: ExtraFields,
     /// Column mapping.
     pub columns: ColumnMap,
+}
+
+/// What a soundings row with more fields than the header is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ExtraFields {
+    /// The row is `bad_input` (the default).
+    #[default]
+    Refused,
+    /// Fields after the header's last column are expected: ignored, and noted in the row.
+    Allowed,
 }
 
 fn default_delimiter() -> Delimiter {

@@ -2,7 +2,8 @@
 //!
 //! A soundings file is CSV (comma, semicolon or tab) or whitespace-delimited text, one sounding
 //! per line, with or without a header. The column mapping comes from the project file; a column is
-//! named by its header text or as `#N` (1-based). A UTF-8 byte-order mark is ignored and CRLF line
+//! named by its header text or as `#N` (1-based); a name two columns carry is refused. A UTF-8
+//! byte-order mark is ignored, a first line with NUL bytes (UTF-16) is refused, and CRLF line
 //! ends are accepted. A quoted field may contain the delimiter but not a line break.
 //!
 //! Files are read in chunks of whole lines ([`ChunkReader`]) so that chunks can be parsed in
@@ -14,7 +15,7 @@ use std::path::Path;
 use chrono::FixedOffset;
 
 use super::error::{IoError, Position};
-use super::project::{Delimiter, DepthSign, SoundingsSpec};
+use super::project::{Delimiter, DepthSign, ExtraFields, SoundingsSpec};
 use super::timefmt::{parse_time, TimeFormat};
 
 /// Bytes per chunk handed to a worker (a chunk is cut at the last line end before this size).
@@ -261,6 +262,23 @@ pub struct SoundingValues<'a> {
 /// knowledge), so anything beyond 12 km is a broken value.
 pub const MAX_PLAUSIBLE_DEPTH_M: f64 = 12_000.0;
 
+/// Earliest plausible sounding time, UTC seconds: 1980-01-01T00:00:00Z, the start of GPS time
+/// (common practice: positioned, timestamped soundings need satellite positioning).
+pub const MIN_PLAUSIBLE_TIME_S: f64 = 315_532_800.0;
+
+/// Latest plausible sounding time, UTC seconds: 2100-01-01T00:00:00Z. A fixed bound (not the
+/// clock of the run) keeps reruns byte-identical; it catches times in milliseconds or a
+/// logger's broken clock.
+pub const MAX_PLAUSIBLE_TIME_S: f64 = 4_102_444_800.0;
+
+/// Largest coordinate magnitude that a projected CRS gives on Earth, metres (half the
+/// equator is about 20 000 km): a value beyond ±180° but within this looks projected.
+const MAX_PROJECTED_M: f64 = 2.0e7;
+
+/// Smallest coordinate magnitude taken to look projected, metres: below it a value beyond the
+/// geographic range is more likely a typing error than an easting or northing.
+const MIN_PROJECTED_M: f64 = 1000.0;
+
 /// A field value as quoted in a message: at most 40 characters.
 pub fn clip(s: &str) -> String {
     if s.chars().count() <= 40 {
@@ -298,6 +316,31 @@ pub struct SoundingLayout {
     time_format: TimeFormat,
     depth_sign: DepthSign,
     naive_offset: Option<FixedOffset>,
+    extra_allowed: bool,
+    /// The CRS text when it is geographic (longitude, latitude), for the range check.
+    geographic_crs: Option<String>,
+}
+
+/// The encoding a first line with NUL bytes looks like (lossily decoded: a byte-order mark
+/// shows as replacement characters).
+fn nul_encoding(first_line: &str) -> &'static str {
+    let body = first_line.trim_start_matches('\u{FFFD}');
+    if body.contains("\0\0\0") {
+        "UTF-32"
+    } else if body.starts_with('\0') {
+        "UTF-16 BE"
+    } else {
+        "UTF-16 LE"
+    }
+}
+
+/// "4 and 5", "4, 5 and 7": 1-based column positions.
+fn positions_text(pos: &[usize]) -> String {
+    let n: Vec<String> = pos.iter().map(|i| (i + 1).to_string()).collect();
+    match n.split_last() {
+        Some((last, rest)) if !rest.is_empty() => format!("{} and {last}", rest.join(", ")),
+        _ => n.join(""),
+    }
 }
 
 impl SoundingLayout {
@@ -310,6 +353,15 @@ impl SoundingLayout {
     ) -> Result<Self, IoError> {
         let first_line = first_line
             .ok_or_else(|| IoError::content(Position::file(path), "the file is empty"))?;
+        if first_line.contains('\0') {
+            return Err(IoError::content(
+                Position::file(path).line(1),
+                format!(
+                    "the line holds NUL bytes: the file looks like {} text, not UTF-8; save it as UTF-8",
+                    nul_encoding(first_line)
+                ),
+            ));
+        }
         let mut f = Fields::default();
         f.split(first_line, spec.delimiter);
         let names: Vec<String> = if spec.header {
@@ -355,7 +407,18 @@ impl SoundingLayout {
                 }
                 return Ok(i - 1);
             }
-            names.iter().position(|h| h == want).ok_or_else(|| {
+            let found: Vec<usize> = (0..names.len()).filter(|&i| names[i] == want).collect();
+            if found.len() > 1 {
+                return Err(IoError::content(
+                    Position::file(path).line(1).field(want),
+                    format!(
+                        "the mapping for '{key}' is ambiguous: columns {} of the header have the same name '{want}'; rename all but one, or map one by position (e.g. \"#{}\")",
+                        positions_text(&found),
+                        found[0] + 1
+                    ),
+                ));
+            }
+            found.first().copied().ok_or_else(|| {
                 IoError::content(
                     Position::file(path).line(1).field(want),
                     format!(
@@ -386,6 +449,8 @@ impl SoundingLayout {
             time_format: spec.time_format,
             depth_sign: spec.depth_sign,
             naive_offset,
+            extra_allowed: spec.extra_trailing_fields == ExtraFields::Allowed,
+            geographic_crs: crate::io::crs::is_wgs84_lonlat(&spec.crs).then(|| spec.crs.clone()),
             column_names: names,
         })
     }
@@ -393,6 +458,11 @@ impl SoundingLayout {
     /// Index of the survey-line column, when mapped.
     pub fn line_column(&self) -> Option<usize> {
         self.line
+    }
+
+    /// Whether rows may have fields after the header's last column.
+    pub fn extra_fields_allowed(&self) -> bool {
+        self.extra_allowed
     }
 
     /// Whether the file has a per-sounding depth uncertainty column.
@@ -431,6 +501,21 @@ impl SoundingLayout {
                 })
             }
         };
+        let (n, h) = (fields.len(), self.column_names.len());
+        if n < h {
+            return Err(RowProblem {
+                field: self.column_names[n].clone(),
+                message: format!("missing: the row has {n} fields, the header {h}"),
+            });
+        }
+        if n > h && !self.extra_allowed {
+            return Err(RowProblem {
+                field: format!("#{}", h + 1),
+                message: format!(
+                    "the row has {n} fields, the header {h}: was a field split (an unquoted thousands separator or decimal comma)? If trailing fields are expected, set extra_trailing_fields = \"allowed\""
+                ),
+            });
+        }
         let t_txt = get(self.time)?;
         let t_s =
             parse_time(t_txt, self.time_format, self.naive_offset).map_err(|m| RowProblem {
@@ -441,8 +526,47 @@ impl SoundingLayout {
                     m.to_string()
                 },
             })?;
+        if !(MIN_PLAUSIBLE_TIME_S..MAX_PLAUSIBLE_TIME_S).contains(&t_s) {
+            let plausible = |t: f64| (MIN_PLAUSIBLE_TIME_S..MAX_PLAUSIBLE_TIME_S).contains(&t);
+            let hint = if plausible(t_s / 1000.0) {
+                let as_ms = chrono::DateTime::from_timestamp_millis(t_s as i64)
+                    .map(|d| d.format("%Y-%m-%dT%H:%M:%SZ").to_string())
+                    .unwrap_or_default();
+                format!(": Unix milliseconds? (divided by 1000 it would be {as_ms})")
+            } else {
+                String::new()
+            };
+            return Err(RowProblem {
+                field: self.column_names[self.time].clone(),
+                message: format!(
+                    "time '{}' is outside the plausible span 1980-01-01 to 2100-01-01{hint}",
+                    clip(t_txt)
+                ),
+            });
+        }
         let x = number(self.x, "a coordinate")?;
         let y = number(self.y, "a coordinate")?;
+        if let Some(crs) = &self.geographic_crs {
+            for (i, v, what, lim) in [
+                (self.x, x, "longitude", 180.0),
+                (self.y, y, "latitude", 90.0),
+            ] {
+                if v.abs() > lim {
+                    let hint = if (MIN_PROJECTED_M..=MAX_PROJECTED_M).contains(&v.abs()) {
+                        ": the values look projected (easting, northing); is the group's crs right?"
+                    } else {
+                        ""
+                    };
+                    return Err(RowProblem {
+                        field: self.column_names[i].clone(),
+                        message: format!(
+                            "'{}' cannot be a {what} in {crs} (beyond ±{lim}°){hint}",
+                            clip(get(i)?)
+                        ),
+                    });
+                }
+            }
+        }
         let mut depth_m = number(self.depth, "a depth in metres")?;
         if self.depth_sign == DepthSign::PositiveUp {
             depth_m = -depth_m;
@@ -528,6 +652,7 @@ mod tests {
             header: true,
             time_format: TimeFormat::Iso8601,
             depth_sign: DepthSign::PositiveDown,
+            extra_trailing_fields: ExtraFields::Refused,
             columns: ColumnMap {
                 time: "time".into(),
                 x: "lon".into(),
@@ -673,5 +798,76 @@ mod tests {
             e.to_string(),
             "s.csv:1: field 'depth': no such column for 'depth' in the header: did you mean 'Depht'? (columns: time, lon, lat, Depht, line)"
         );
+    }
+
+    #[test]
+    fn nul_bytes_name_the_encoding_and_repeated_names_their_positions() {
+        // Lossy decodings of "ti" in UTF-16 LE and BE with their byte-order marks, and in UTF-32 LE.
+        assert_eq!(nul_encoding("\u{FFFD}\u{FFFD}t\0i\0"), "UTF-16 LE");
+        assert_eq!(nul_encoding("\u{FFFD}\u{FFFD}\0t\0i"), "UTF-16 BE");
+        assert_eq!(nul_encoding("t\0\0\0i\0\0\0"), "UTF-32");
+        assert_eq!(positions_text(&[3, 4]), "4 and 5");
+        assert_eq!(positions_text(&[0, 3, 6]), "1, 4 and 7");
+        let e = SoundingLayout::resolve(
+            &spec(Delimiter::Comma),
+            Some("time,lon,lat,depth,line,depth,depth"),
+            None,
+            Path::new("s.csv"),
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("columns 4, 6 and 7"), "{e}");
+        // By position the mapping is not ambiguous.
+        let mut sp = spec(Delimiter::Comma);
+        sp.columns.depth = "#6".into();
+        assert!(SoundingLayout::resolve(
+            &sp,
+            Some("time,lon,lat,depth,line,depth"),
+            None,
+            Path::new("s.csv")
+        )
+        .is_ok());
+    }
+
+    #[test]
+    fn times_are_refused_outside_the_plausible_span_only() {
+        let mut sp = spec(Delimiter::Comma);
+        sp.time_format = TimeFormat::UnixS;
+        let lay = SoundingLayout::resolve(
+            &sp,
+            Some("time,lon,lat,depth,line"),
+            None,
+            Path::new("s.csv"),
+        )
+        .unwrap();
+        let mut f = Fields::default();
+        // The bounds: 1980-01-01T00:00:00Z is 315532800 s, 2100-01-01T00:00:00Z 4102444800 s.
+        for (t, ok) in [
+            ("315532800", true),
+            ("315532799", false),
+            ("4102444799", true),
+            ("4102444800", false),
+        ] {
+            let line = format!("{t},10,50,3,L");
+            f.split(&line, Delimiter::Comma);
+            assert_eq!(lay.parse(&line, &f).is_ok(), ok, "{t}");
+        }
+        // 315532800000 ms is 1980-01-01: the hint fits; 1e12 s divided by 1000 (1e9) is 2001.
+        let line = "1000000000000,10,50,3,L";
+        f.split(line, Delimiter::Comma);
+        let e = lay.parse(line, &f).unwrap_err();
+        assert!(
+            e.message
+                .ends_with("(divided by 1000 it would be 2001-09-09T01:46:40Z)"),
+            "{}",
+            e.message
+        );
+        // 1e20 divided by 1000 is still far beyond 2100: no hint.
+        let line = "1e20,10,50,3,L";
+        f.split(line, Delimiter::Comma);
+        assert!(!lay
+            .parse(line, &f)
+            .unwrap_err()
+            .message
+            .contains("milliseconds"));
     }
 }

@@ -987,7 +987,7 @@ fn process_chunk(
                 }
             }
         };
-        if fields.len() > n_cols {
+        if fields.len() > n_cols && ctx.layout.extra_fields_allowed() {
             if !detail.is_empty() {
                 detail.push_str("; ");
             }

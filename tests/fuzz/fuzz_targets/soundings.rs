@@ -2,7 +2,7 @@
 //! line and every other line is split and parsed; a parsed sounding has finite values.
 #![no_main]
 use libfuzzer_sys::fuzz_target;
-use ebbwise::io::project::{ColumnMap, Delimiter, DepthSign, SoundingsSpec};
+use ebbwise::io::project::{ColumnMap, Delimiter, DepthSign, ExtraFields, SoundingsSpec};
 use ebbwise::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
 use ebbwise::io::timefmt::TimeFormat;
 
@@ -20,6 +20,7 @@ fuzz_target!(|data: &[u8]| {
         header: true,
         time_format: if data.get(1).is_some_and(|b| b % 2 == 0) { TimeFormat::Iso8601 } else { TimeFormat::UnixS },
         depth_sign: DepthSign::PositiveDown,
+        extra_trailing_fields: if data.get(1).is_some_and(|b| b % 4 < 2) { ExtraFields::Allowed } else { ExtraFields::Refused },
         columns: ColumnMap {
             time: "time".into(),
             x: "x".into(),
