@@ -68,7 +68,7 @@ fn main() {
         u_range_ratio: 0.03,
         u_zone_m: 0.08,
     };
-    let rates: Vec<LevelSeries> = gauges.iter().map(|g| rate_series(g, &Linear)).collect();
+    let rates: Vec<_> = gauges.iter().map(|g| rate_series(g, &Linear)).collect();
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("correctors-zones.csv");
     let mut times = Vec::new();

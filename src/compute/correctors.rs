@@ -9,7 +9,7 @@ use std::collections::HashMap;
 
 use super::locate::ZoneLocator;
 use super::reduce::{TideModel, TideOutcome};
-use super::series::{LevelSeries, TimeInterpolation};
+use super::series::TimeInterpolation;
 use super::uncertainty::{tide_budget, GaugeUncertainty, ZoneUncertainty};
 use super::zoning::{FeedState, Gauge, Zone};
 
@@ -78,8 +78,8 @@ pub struct CorrectorUncertainty<'a> {
     pub gauge_u: &'a [GaugeUncertainty],
     /// The zone's.
     pub zone_u: &'a ZoneUncertainty,
-    /// Each gauge's rate series.
-    pub rates: &'a [LevelSeries],
+    /// Each gauge's rate and curvature.
+    pub rates: &'a [super::uncertainty::GaugeSlopes],
 }
 
 /// A zone's tide on the grid `t0, t0 + step, …` (n values).
@@ -339,7 +339,7 @@ mod tests {
         }
         assert_eq!(CorrectorStatus::parse("gap_filled"), None);
     }
-    use crate::compute::series::Linear;
+    use crate::compute::series::{LevelSeries, Linear};
     use crate::compute::zoning::{GaugeFeed, MeanLevelForm};
 
     fn gauge() -> Gauge {

@@ -7,25 +7,29 @@
 //! written values ([`judge_as_written`]).
 //!
 //! For a zone fed by gauges `i` (weights `w_i`, range ratios `R_i`, time correctors `Δt_i`), with
-//! `g_i = h_i(t − Δt_i)` the gauge level at the corrected time and `ġ_i` its rate, the variance of
-//! the zone tide is the sum of five components (all inputs independent standard uncertainties):
+//! `g_i = h_i(t − Δt_i)` the gauge level at the corrected time, `ġ_i` its rate and `g̈_i` its
+//! curvature, the variance of the zone tide is the sum of five components. Gauge and datum
+//! inputs of different gauges are independent; the zone's range-ratio error and time-corrector
+//! error are each one error common to every feed (correlation 1), so their sensitivities are
+//! summed before squaring:
 //!
 //! ```text
 //! gauge:   Σ (w_i R_i)² u²_gauge,i
-//! datum:   Σ  w_i²      u²_datum,i                  (chart datum at the zone, inherited per gauge)
-//! range:   Σ (w_i r_i)² u²_R          r_i = g_i − M_i (zone-mean form) or g_i (scaled form)
-//! timing:  Σ (w_i R_i ġ_i)² u²_Δt
+//! datum:   Σ  c_i²      u²_datum,i    c_i = w_i (zone-mean form) or w_i R_i (scaled form)
+//! range:   (Σ w_i r_i)² u²_R          r_i = g_i − M_i (zone-mean form) or g_i (scaled form)
+//! timing:  (Σ w_i R_i ġ_i)² u²_Δt + ½ (Σ w_i R_i g̈_i)² u⁴_Δt
 //! zone:    u²_zone
 //! ```
 //!
-//! For a single gauge this is the discrete-zone formula
-//! `u²(tide) = R² u²_gauge + u²_datum + (g − M_g)² u²_R + (R ġ)² u²_Δt + u²_zone`.
+//! The second timing term is the second-order term of the time corrector (GUM §5.1.2), which
+//! keeps the timing term from vanishing at high and low water.
 //!
-//! The rate `ġ` is a central difference of the interpolated record over ±[`RATE_HALF_WINDOW_S`]
-//! (a one-sample slope of a noisy 1-min record is mostly noise).
+//! The rate and the curvature are differences of the interpolated record over ±[`RATE_HALF_WINDOW_S`]
+//! and ±[`CURVATURE_HALF_WINDOW_S`] inside each sample's unbroken segment ([`rate_series`]).
 //!
 //! # References
-//! JCGM 100:2008 (GUM), §5.1 (law of propagation of uncertainty for uncorrelated inputs), §6
+//! JCGM 100:2008 (GUM), §5.1 (law of propagation of uncertainty for uncorrelated inputs), §5.1.2
+//! (higher-order terms), §5.2 (correlated inputs), §6
 //! (expanded uncertainty; k = 1.96 for 95 % of a normal distribution).
 //! IHO S-44 Edition 6.1.0 (2022), Table 1: `TVU_max(d) = sqrt(a² + (b·d)²)` at 95 %.
 
@@ -80,56 +84,142 @@ impl TideBudget {
     }
 }
 
-/// Rate of change of a gauge's level at `t_s`, m/s: central difference over
-/// ±[`RATE_HALF_WINDOW_S`], narrowed to the usable record; `fallback` when no window fits.
-pub fn robust_rate_m_per_s(
-    gauge: &Gauge,
-    interp: &dyn TimeInterpolation,
-    t_s: f64,
-    fallback: f64,
-) -> f64 {
-    let mut w = RATE_HALF_WINDOW_S;
-    while w >= 60.0 {
-        if let (Ok(a), Ok(b)) = (
-            interp.level_at(&gauge.series, t_s - w),
-            interp.level_at(&gauge.series, t_s + w),
-        ) {
-            return (b.height_m - a.height_m) / (2.0 * w);
-        }
-        w /= 2.0;
-    }
-    fallback
+/// Each gauge's rate of change and curvature at its own samples, computed once per gauge so the
+/// hot loop needs no extra interpolation ([`rate_series`]). Both are interpolated linearly
+/// between the two samples that bracket an instant ([`GaugeSlopes::at`]).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct GaugeSlopes {
+    /// The gauge's sample times, UTC seconds (the same as its series').
+    pub times_s: Vec<f64>,
+    /// Rate of change of the level at each sample, m/s.
+    pub rate_m_per_s: Vec<f64>,
+    /// Second derivative of the level at each sample, m/s².
+    pub curvature_m_per_s2: Vec<f64>,
 }
 
-/// Each gauge's rate of change at its own samples ([`robust_rate_m_per_s`]), as a series that
-/// interpolates to the rate at any time: computed once per gauge so the hot loop needs no extra
-/// interpolation. Heights of the returned series are rates in m/s.
-pub fn rate_series(gauge: &Gauge, interp: &dyn TimeInterpolation) -> super::series::LevelSeries {
+impl GaugeSlopes {
+    /// Rate (m/s) and curvature (m/s²) at `t_s`, between samples `i` and `i + 1` (the bracket
+    /// the level was found in).
+    pub fn at(&self, i: usize, t_s: f64) -> (f64, f64) {
+        let n = self.times_s.len();
+        if n < 2 {
+            return (
+                self.rate_m_per_s.first().copied().unwrap_or(0.0),
+                self.curvature_m_per_s2.first().copied().unwrap_or(0.0),
+            );
+        }
+        let i = i.min(n - 2);
+        let (t0, t1) = (self.times_s[i], self.times_s[i + 1]);
+        let f = ((t_s - t0) / (t1 - t0)).clamp(0.0, 1.0);
+        let lerp = |v: &[f64]| v[i] + (v[i + 1] - v[i]) * f;
+        (lerp(&self.rate_m_per_s), lerp(&self.curvature_m_per_s2))
+    }
+}
+
+/// Half-width of the window for the gauge's curvature, seconds (30 min).
+pub const CURVATURE_HALF_WINDOW_S: f64 = 1800.0;
+
+/// `(first, last)` sample time of the unbroken segment around each sample: the run of samples
+/// joined by intervals that interpolation may bridge ([`LevelSeries::unbridged`]).
+fn segment_spans(s: &super::series::LevelSeries) -> Vec<(usize, usize)> {
+    let n = s.times_s.len();
+    let broken = s.unbridged();
+    let mut spans = vec![(0, 0); n];
+    let mut a = 0;
+    for k in 0..n {
+        if k + 1 == n || broken[k] {
+            for span in &mut spans[a..=k] {
+                *span = (a, k);
+            }
+            a = k + 1;
+        }
+    }
+    spans
+}
+
+/// Each gauge's rate of change and curvature at its own samples, from the interpolated record
+/// and never across a break (a gap longer than the maximum gap, or a sample set aside): every
+/// window lies inside the sample's unbroken segment.
+///
+/// * Rate: central difference over ±[`RATE_HALF_WINDOW_S`] (a one-sample slope of a noisy 1-min
+///   record is mostly noise). Where the segment ends within the half-window on one side, the
+///   one-sided difference over the half-window on the other side; where it ends on both sides,
+///   the half-window is halved (down to 60 s); then the slope to the neighbouring sample of the
+///   segment, and 0 for a sample alone in its segment.
+/// * Curvature: second difference over ±[`CURVATURE_HALF_WINDOW_S`],
+///   `(h(t + W) − 2 h(t) + h(t − W)) / W²`, centred on the sample, or on the nearest instant of
+///   the segment where the window fits; `W` is halved (down to 60 s) when the segment is shorter
+///   than `2W`; then the divided second difference of three neighbouring samples, and 0 for a
+///   segment of fewer than three samples.
+pub fn rate_series(gauge: &Gauge, interp: &dyn TimeInterpolation) -> GaugeSlopes {
     let s = &gauge.series;
-    let rates = s
-        .times_s
-        .iter()
-        .enumerate()
-        .map(|(i, &t)| {
-            let fallback = if s.times_s.len() < 2 {
-                0.0
-            } else {
-                let j = i.min(s.times_s.len() - 2);
-                (s.heights_m[j + 1] - s.heights_m[j]) / (s.times_s[j + 1] - s.times_s[j])
+    let n = s.times_s.len();
+    let spans = segment_spans(s);
+    let level = |t: f64| interp.level_at(s, t).map(|l| l.height_m).ok();
+    let mut rate = Vec::with_capacity(n);
+    let mut curv = Vec::with_capacity(n);
+    for (k, &(ia, ib)) in spans.iter().enumerate() {
+        let (a, b) = (s.times_s[ia], s.times_s[ib]);
+        let t = s.times_s[k];
+        let h = s.heights_m[k];
+        // Rate.
+        let mut r = None;
+        let mut w = RATE_HALF_WINDOW_S;
+        while r.is_none() && w >= 60.0 {
+            r = match (t - w >= a, t + w <= b) {
+                (true, true) => level(t - w)
+                    .zip(level(t + w))
+                    .map(|(lo, hi)| (hi - lo) / (2.0 * w)),
+                (true, false) => level(t - w).map(|lo| (h - lo) / w),
+                (false, true) => level(t + w).map(|hi| (hi - h) / w),
+                (false, false) => None,
             };
-            robust_rate_m_per_s(gauge, interp, t, fallback)
-        })
-        .collect();
-    super::series::LevelSeries {
+            w /= 2.0;
+        }
+        let neighbour =
+            |j: usize, m: usize| (s.heights_m[m] - s.heights_m[j]) / (s.times_s[m] - s.times_s[j]);
+        rate.push(r.unwrap_or(if k > ia {
+            neighbour(k - 1, k)
+        } else if k < ib {
+            neighbour(k, k + 1)
+        } else {
+            0.0
+        }));
+        // Curvature.
+        let mut c = None;
+        let mut w = CURVATURE_HALF_WINDOW_S;
+        while c.is_none() && w >= 60.0 {
+            if b - a >= 2.0 * w {
+                let m = t.clamp(a + w, b - w);
+                c = match (level(m - w), level(m), level(m + w)) {
+                    (Some(lo), Some(mid), Some(hi)) => Some((hi - 2.0 * mid + lo) / (w * w)),
+                    _ => None,
+                };
+            }
+            w /= 2.0;
+        }
+        curv.push(c.unwrap_or_else(|| {
+            if ib - ia < 2 {
+                return 0.0;
+            }
+            let j = k.clamp(ia + 1, ib - 1);
+            2.0 * (neighbour(j, j + 1) - neighbour(j - 1, j))
+                / (s.times_s[j + 1] - s.times_s[j - 1])
+        }));
+    }
+    GaugeSlopes {
         times_s: s.times_s.clone(),
-        heights_m: rates,
-        max_gap_s: s.max_gap_s,
-        ..Default::default()
+        rate_m_per_s: rate,
+        curvature_m_per_s2: curv,
     }
 }
 
 /// Tide uncertainty budget of `zone` at UTC `t_s`, given the feed states its tide used and each
 /// gauge's [`rate_series`].
+///
+/// The zone's range-ratio and time-corrector errors are one error each, common to every feed:
+/// their sensitivities are summed over the feeds before squaring (correlation 1). The timing
+/// component adds the second-order term of the time corrector, `½ (Σ w_i R_i g̈_i)² u⁴_Δt`.
 ///
 /// # Units
 /// Inputs as in [`GaugeUncertainty`] and [`ZoneUncertainty`]; variances in m².
@@ -138,32 +228,40 @@ pub fn tide_budget(
     gauges: &[Gauge],
     gauge_u: &[GaugeUncertainty],
     zone_u: &ZoneUncertainty,
-    rates: &[super::series::LevelSeries],
+    rates: &[GaugeSlopes],
     t_s: f64,
     states: &[FeedState],
 ) -> TideBudget {
     let mut v = [0.0; 5];
     let u_dt_s = zone_u.u_time_corrector_min * 60.0;
+    // Sensitivities to the common range-ratio error, the common time-corrector error (first
+    // and second derivative).
+    let (mut c_range, mut c_time, mut c_time2) = (0.0, 0.0, 0.0);
     for (feed, st) in zone.feeds.iter().zip(states) {
         let g = &gauges[feed.gauge];
         let gu = &gauge_u[feed.gauge];
         let wr = feed.weight * feed.range_ratio;
-        let r = match zone.mean_level {
-            MeanLevelForm::ZoneMean { .. } => st.level.height_m - g.mean_level_above_datum_m,
-            MeanLevelForm::Scaled => st.level.height_m,
+        let (r, c_datum) = match zone.mean_level {
+            MeanLevelForm::ZoneMean { .. } => {
+                (st.level.height_m - g.mean_level_above_datum_m, feed.weight)
+            }
+            MeanLevelForm::Scaled => (st.level.height_m, wr),
         };
         let shifted = t_s - feed.time_corrector_min * 60.0;
         let rs = &rates[feed.gauge];
-        let rate = if rs.times_s.len() == g.series.times_s.len() {
-            rs.linear_in_bracket(st.level.bracket, shifted)
+        let (rate, curvature) = if rs.times_s.len() == g.series.times_s.len() {
+            rs.at(st.level.bracket, shifted)
         } else {
-            st.level.rate_m_per_s
+            (st.level.rate_m_per_s, 0.0)
         };
         v[0] += (wr * gu.u_gauge_m).powi(2);
-        v[1] += (feed.weight * gu.u_datum_m).powi(2);
-        v[2] += (feed.weight * r * zone_u.u_range_ratio).powi(2);
-        v[3] += (wr * rate * u_dt_s).powi(2);
+        v[1] += (c_datum * gu.u_datum_m).powi(2);
+        c_range += feed.weight * r;
+        c_time += wr * rate;
+        c_time2 += wr * curvature;
     }
+    v[2] = (c_range * zone_u.u_range_ratio).powi(2);
+    v[3] = (c_time * u_dt_s).powi(2) + 0.5 * (c_time2 * u_dt_s * u_dt_s).powi(2);
     v[4] = zone_u.u_zone_m.powi(2);
     TideBudget { variances_m2: v }
 }
@@ -383,7 +481,7 @@ mod tests {
         assert_eq!(s44_order("special").unwrap().tvu_max95_m(-1.2), 0.25);
     }
 
-    fn rates(g: &[Gauge]) -> Vec<LevelSeries> {
+    fn rates(g: &[Gauge]) -> Vec<GaugeSlopes> {
         g.iter().map(|g| rate_series(g, &Linear)).collect()
     }
 
@@ -508,13 +606,24 @@ mod tests {
         let t_hw = period_s + 1200.0;
         zone.tide_at(&g, &Linear, t_hw, &mut st).unwrap();
         let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t_hw, &st).components_m();
-        assert!(c[3] < 1e-3, "timing vanishes at high water: {c:?}");
+        // There the first-order term vanishes and the second-order one is left:
+        // R A ω² u²_Δt / √2, times 2 (1 − cos x) / x² (x = ω · 30 min) for the ±30-min second
+        // difference of a cosine: 1.1 × 1.5 × ω² × (600 s)² / √2 = 8.29 mm.
+        let omega = 28.984_104_2_f64.to_radians() / 3600.0;
+        let x = omega * CURVATURE_HALF_WINDOW_S;
+        let expected = 1.1 * 1.5 * omega.powi(2) * 600f64.powi(2) / 2f64.sqrt()
+            * (2.0 * (1.0 - x.cos()) / (x * x));
+        assert_relative_eq!(c[3], expected, max_relative = 1e-2);
+        assert!(c[3] < 0.01, "timing is small at high water: {c:?}");
     }
 
     /// The whole propagation against an independent Monte Carlo of the same model (JCGM 101:2008
     /// propagation of distributions): every input drawn from its normal distribution, the zone
     /// tide evaluated with the analytic gauge curve (not the interpolated record), 200 000 draws.
-    /// First-order GUM and Monte Carlo must agree on u_tide within 2 %.
+    /// The zone's range-ratio and time-corrector errors are drawn once per trial and applied to
+    /// every feed (one zone-level error each); the datum error of a scaled zone is an error of
+    /// the level, scaled with it. The propagation and the Monte Carlo must agree on u_tide
+    /// within 2 %.
     #[test]
     fn propagation_agrees_with_monte_carlo() {
         use rand::SeedableRng;
@@ -584,20 +693,19 @@ mod tests {
                 let (mut sum, mut sum2) = (0.0, 0.0);
                 for _ in 0..draws {
                     let mut tide = 0.0;
+                    let e_r = zu.u_range_ratio * n01.sample(&mut rng);
+                    let e_dt_s = zu.u_time_corrector_min * 60.0 * n01.sample(&mut rng);
                     for f in &zone.feeds {
                         let i = f.gauge;
-                        let r = f.range_ratio + zu.u_range_ratio * n01.sample(&mut rng);
-                        let dt_s = (f.time_corrector_min
-                            + zu.u_time_corrector_min * n01.sample(&mut rng))
-                            * 60.0;
+                        let r = f.range_ratio + e_r;
+                        let dt_s = f.time_corrector_min * 60.0 + e_dt_s;
                         let level = h(i, t - dt_s) + gu[i].u_gauge_m * n01.sample(&mut rng);
                         let datum = gu[i].u_datum_m * n01.sample(&mut rng);
                         tide += f.weight
                             * match zone.mean_level {
-                                MeanLevelForm::ZoneMean { .. } => r * (level - curves[i].0),
-                                MeanLevelForm::Scaled => r * level,
-                            }
-                            + f.weight * datum;
+                                MeanLevelForm::ZoneMean { .. } => r * (level - curves[i].0) + datum,
+                                MeanLevelForm::Scaled => r * (level + datum),
+                            };
                     }
                     tide += zu.u_zone_m * n01.sample(&mut rng);
                     sum += tide;
@@ -612,6 +720,189 @@ mod tests {
                 );
             }
         }
+    }
+
+    /// Two feeds, one common corrector error each, by hand.
+    ///
+    /// Gauges h₁ = 2.5 + 1.5 cos ωt and h₂ = 2.2 + 1.1 cos ωt (M2, in phase); weights 0.6 and
+    /// 0.4, range ratios 1.15 and 0.9, time correctors 0; u_Δt = 10 min, u_R = 0.03.
+    /// * Mid-tide (t = T/4): ġ₁ = −1.5 ω, ġ₂ = −1.1 ω. Timing = |0.6·1.15·1.5 + 0.4·0.9·1.1| ω
+    ///   u_Δt = 1.431 × 0.00843113 /min × 10 min = 0.120649 m, times 0.99600 for the ±15-min
+    ///   difference = 0.120167 m. Summed as independent it would be
+    ///   sqrt(1.035² + 0.396²) ω u_Δt = 0.09343 m.
+    /// * High water (t = T), zone-mean form: r₁ = 1.5, r₂ = 1.1. Range = (0.6·1.5 + 0.4·1.1) u_R
+    ///   = 1.34 × 0.03 = 0.0402 m (independent: 0.03005 m).
+    #[test]
+    fn common_corrector_errors_add_linearly_over_feeds() {
+        let g = vec![sine_gauge(2.5, 1.5), sine_gauge(2.2, 1.1)];
+        let period_s = 360.0 / 28.984_104_2 * 3600.0;
+        let zu = ZoneUncertainty {
+            u_time_corrector_min: 10.0,
+            u_range_ratio: 0.03,
+            u_zone_m: 0.0,
+        };
+        let gu = [GaugeUncertainty {
+            u_gauge_m: 0.0,
+            u_datum_m: 0.0,
+        }; 2];
+        let feed = |gauge, weight, range_ratio| GaugeFeed {
+            gauge,
+            weight,
+            time_corrector_min: 0.0,
+            range_ratio,
+        };
+        let zone = Zone {
+            id: "Z".into(),
+            feeds: vec![feed(0, 0.6, 1.15), feed(1, 0.4, 0.9)],
+            mean_level: MeanLevelForm::ZoneMean {
+                zone_mean_level_above_datum_m: 2.4,
+            },
+        };
+        let mut st = Vec::new();
+        let t = period_s / 4.0;
+        zone.tide_at(&g, &Linear, t, &mut st).unwrap();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        assert_relative_eq!(c[3], 0.120167, max_relative = 2e-3);
+        assert!(c[3] > 0.1, "not the independent sum 0.09343 m: {}", c[3]);
+        let t = period_s;
+        zone.tide_at(&g, &Linear, t, &mut st).unwrap();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        assert_relative_eq!(c[2], 0.0402, max_relative = 1e-3);
+    }
+
+    /// Standard deviation of Monte Carlo draws and its standard error,
+    /// sqrt((m₄ − σ⁴) / N) / (2σ) (the delta method on the sample variance).
+    fn sd_and_error(draws: &[f64]) -> (f64, f64) {
+        let n = draws.len() as f64;
+        let mean = draws.iter().sum::<f64>() / n;
+        let var = draws.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n;
+        let m4 = draws.iter().map(|x| (x - mean).powi(4)).sum::<f64>() / n;
+        let sd = var.sqrt();
+        (sd, ((m4 - var * var) / n).sqrt() / (2.0 * sd))
+    }
+
+    /// At high and low water of a pure M2 tide (A = 1.5 m, one feed, R = 1) with u_Δt = 30 min
+    /// and no other uncertainty, the propagated u_tide (first and second order) against a Monte
+    /// Carlo (JCGM 101: Δt drawn from N(0, 30 min), the analytic curve evaluated, 400 000
+    /// draws). Expected: the exact standard deviation of A cos(ω δ) with δ ~ N(0, u) is
+    /// A sqrt((1 + e^(−2s²))/2 − e^(−s²)), s = ω u = 0.25293: 0.04382 A; the second-order term is
+    /// A s² / √2 = 0.04524 A, times 0.99467 for the ±30-min second difference: 0.04500 A, 2.7 %
+    /// above. The propagated value must be within 5 % of the Monte Carlo's and never below it by
+    /// more than one standard error of the Monte Carlo. At mid-tide the exact value is
+    /// A sqrt((1 − e^(−2s²))/2) = 0.24505 A and the first-order one A s = 0.25293 A (times
+    /// 0.99600 for the ±15-min difference: 0.25192 A, 2.8 % above, the negative fourth-order
+    /// term ġ ⃛g u⁴ being left out): the same two checks hold.
+    #[test]
+    fn turning_points_agree_with_monte_carlo() {
+        use rand::SeedableRng;
+        use rand_distr::{Distribution, Normal};
+        let (mean, amp) = (2.5, 1.5);
+        let omega = 28.984_104_2_f64.to_radians() / 3600.0;
+        let period_s = 360.0 / 28.984_104_2 * 3600.0;
+        let g = vec![sine_gauge(mean, amp)];
+        let zu = ZoneUncertainty {
+            u_time_corrector_min: 30.0,
+            u_range_ratio: 0.0,
+            u_zone_m: 0.0,
+        };
+        let gu = [GaugeUncertainty {
+            u_gauge_m: 0.0,
+            u_datum_m: 0.0,
+        }];
+        let zone = one_feed_zone(0.0, 1.0, MeanLevelForm::Scaled);
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(20_261_202);
+        let normal = Normal::new(0.0, 1800.0).unwrap();
+        let s = omega * 1800.0;
+        let exact = amp * ((1.0 + (-2.0 * s * s).exp()) / 2.0 - (-s * s).exp()).sqrt();
+        let exact_mid = amp * ((1.0 - (-2.0 * s * s).exp()) / 2.0).sqrt();
+        // High water, low water, high water, and mid-tide.
+        for (t, turning) in [
+            (period_s, true),
+            (1.5 * period_s, true),
+            (0.5 * period_s, true),
+            (0.75 * period_s, false),
+        ] {
+            let mut st = Vec::new();
+            zone.tide_at(&g, &Linear, t, &mut st).unwrap();
+            let gum = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).u_tide_m();
+            let draws: Vec<f64> = (0..400_000)
+                .map(|_| mean + amp * (omega * (t - normal.sample(&mut rng))).cos())
+                .collect();
+            let (mc, se) = sd_and_error(&draws);
+            let msg =
+                format!("t = {t:.0} s: propagated {gum:.5} m, Monte Carlo {mc:.5} ± {se:.5} m");
+            // The Monte Carlo itself against the closed form, within 3 standard errors.
+            let exact = if turning { exact } else { exact_mid };
+            assert!((mc - exact).abs() < 3.0 * se, "{msg}, exact {exact:.5} m");
+            assert!(((gum - mc) / mc).abs() < 0.05, "{msg}");
+            assert!(gum >= mc - se, "{msg}");
+        }
+    }
+
+    /// A stuck sensor set aside for 90 min around high water (from HW − 20 min to HW + 70 min):
+    /// the rate at the samples either side comes from their own side, not from the chord across
+    /// the run. Expected: the true rate −A ω sin(ω t'), within the one-sided difference's bound
+    /// A ω² w / 2 (w = 15 min) = 1.33e-5 m/s. The chord would be (h(HW + 71) − h(HW − 21)) /
+    /// 92 min = −4.3e-5 m/s, of the wrong sign before high water.
+    #[test]
+    fn the_rate_beside_a_flagged_run_comes_from_its_own_side() {
+        let (mean, amp) = (2.5, 1.5);
+        let omega = 28.984_104_2_f64.to_radians() / 3600.0;
+        let mut g = sine_gauge(mean, amp);
+        // High water at t = 720 min (12.42 h is the period; 720 min is near the second HW at
+        // 745.2 min): use the sample nearest to it as the centre.
+        let hw_min = (360.0 / 28.984_104_2 * 60.0_f64).round();
+        let (from, to) = (hw_min - 20.0, hw_min + 70.0);
+        let s = &mut g.series;
+        let keep: Vec<bool> = s
+            .times_s
+            .iter()
+            .map(|t| *t / 60.0 < from || *t / 60.0 > to)
+            .collect();
+        s.flagged_times_s = s
+            .times_s
+            .iter()
+            .zip(&keep)
+            .filter(|(_, k)| !**k)
+            .map(|(t, _)| *t)
+            .collect();
+        let mut i = 0;
+        s.heights_m.retain(|_| {
+            i += 1;
+            keep[i - 1]
+        });
+        s.times_s.retain(|t| *t / 60.0 < from || *t / 60.0 > to);
+        let slopes = rate_series(&g, &Linear);
+        let bound = amp * omega * omega * RATE_HALF_WINDOW_S / 2.0 + 1e-9;
+        for t_min in [from - 1.0, to + 1.0] {
+            let k = g
+                .series
+                .times_s
+                .iter()
+                .position(|&t| t == t_min * 60.0)
+                .unwrap();
+            let truth = -amp * omega * (omega * t_min * 60.0).sin();
+            let got = slopes.rate_m_per_s[k];
+            assert!(
+                (got - truth).abs() <= bound,
+                "at {t_min} min: {got:e} against {truth:e}"
+            );
+        }
+        // The timing term just before the run, with u_Δt = 10 min: R |ġ| u_Δt ≤ (|truth| + bound)
+        // × 600 s = 30.3 mm, against 26 mm from the chord's −4.3e-5 m/s… of the wrong sign.
+        let t_before = (from - 1.0) * 60.0;
+        let truth = -amp * omega * (omega * t_before).sin();
+        assert!(truth > 0.0, "rising before high water");
+        let k = g
+            .series
+            .times_s
+            .iter()
+            .position(|&t| t == t_before)
+            .unwrap();
+        assert!(
+            slopes.rate_m_per_s[k] > 0.0,
+            "the chord's sign is not taken"
+        );
     }
 
     #[test]

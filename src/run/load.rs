@@ -63,8 +63,8 @@ pub struct UncertaintyConfig {
     pub acceptance_share: f64,
     /// Inputs that fell back to the project's defaults: `"gauge orlick: u_gauge_m"`, ….
     pub defaulted: Vec<String>,
-    /// Each gauge's rate of change as a series (for the timing term).
-    pub gauge_rates: Vec<crate::compute::series::LevelSeries>,
+    /// Each gauge's rate of change and curvature (for the timing term).
+    pub gauge_rates: Vec<crate::compute::uncertainty::GaugeSlopes>,
 }
 
 /// Reads gauges and zoning. Problems that make a reduction impossible are errors.
