@@ -308,6 +308,12 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             })
         }
     };
+    if !project.spec.qc.enabled {
+        findings.push(Finding::warning(
+            Position::file(&project.path).field("qc.enabled"),
+            "quality control is off: reversed or repeated times and spikes in the gauge records reach the soundings unchecked",
+        ));
+    }
     let mut gauges = Vec::new();
     let mut qc = Vec::new();
     let mut methods = Vec::new();
