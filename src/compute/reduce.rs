@@ -170,6 +170,13 @@ impl TideModel for DiscreteZoning<'_> {
             return TideOutcome::Outside;
         };
         match self.zones[zone].tide_at(self.gauges, self.interp, t_s, states) {
+            // A tide that is not a finite number is never applied (the zoning's bounds make it
+            // unlikely; a huge stated mean level could still overflow).
+            Ok(tide_m) if !tide_m.is_finite() => TideOutcome::NoCorrection {
+                zone: Some(zone),
+                why: "the zone tide is not a finite number: check the zone's correctors and the gauges' mean levels",
+                flagged: false,
+            },
             Ok(tide_m) => TideOutcome::Tide { zone, tide_m },
             Err(why) => TideOutcome::NoData { zone, why },
         }

@@ -18,6 +18,22 @@
 
 use super::series::{LevelAt, LevelSeries, NoLevel, TimeInterpolation};
 
+/// Largest time corrector accepted, minutes (|Δt|). A time corrector carries the tide across a
+/// survey area; beyond a quarter of a semidiurnal period (about 3 h) the zone's tide is no longer
+/// a shifted copy of the gauge's, and 6 h (half a period, so the sign of the tide is turned)
+/// cannot be a zoning value but a mistake of units (hours, seconds) or sign. Common practice.
+pub const TIME_CORRECTOR_REFUSED_ABOVE_MIN: f64 = 360.0;
+
+/// Time correctors larger than this, minutes (|Δt|), are accepted with a warning: two hours is
+/// already far beyond the correctors of a zoning around one gauge (minutes to tens of minutes).
+/// Common practice.
+pub const TIME_CORRECTOR_WARNED_ABOVE_MIN: f64 = 120.0;
+
+/// Smallest and largest range ratio accepted. A zone's range a fifth or five times its gauge's
+/// is already the edge of what a discrete zoning around a gauge can carry; outside it the ratio
+/// is a mistake (a percentage, a range instead of a ratio). Common practice.
+pub const RANGE_RATIO_BAND: (f64, f64) = (0.2, 5.0);
+
 /// A tide gauge as the computation needs it.
 #[derive(Debug, Clone)]
 pub struct Gauge {

@@ -296,12 +296,7 @@ fn zone_properties(
                         format!("weight must not be negative, found {}", feed.weight),
                     ));
                 }
-                if feed.range_ratio <= 0.0 {
-                    return Err(IoError::content(
-                        fat("range_ratio"),
-                        format!("range ratio must be positive, found {}", feed.range_ratio),
-                    ));
-                }
+                plausible_correctors(&feed, &fat, id, warnings)?;
                 out.push(feed);
             }
             out
@@ -314,12 +309,7 @@ fn zone_properties(
                 time_corrector_min: num(props, "time_corrector_min", &ZONE_PROPERTIES, at)?,
                 range_ratio: num(props, "range_ratio", &ZONE_PROPERTIES, at)?,
             };
-            if feed.range_ratio <= 0.0 {
-                return Err(IoError::content(
-                    at("range_ratio"),
-                    format!("range ratio must be positive, found {}", feed.range_ratio),
-                ));
-            }
+            plausible_correctors(&feed, at, id, warnings)?;
             vec![feed]
         }
     };
@@ -354,6 +344,59 @@ fn zone_properties(
         u_range_ratio: opt_u("u_range_ratio")?,
         u_zone_m: opt_u("u_zone_m")?,
     })
+}
+
+/// Refuses a feed's time corrector or range ratio beyond the plausibility bounds of
+/// [`crate::compute::zoning`] and warns on a large time corrector.
+fn plausible_correctors(
+    feed: &FeedSpec,
+    at: &dyn Fn(&str) -> Position,
+    id: &str,
+    warnings: &mut Vec<Finding>,
+) -> Result<(), IoError> {
+    use crate::compute::zoning::{
+        RANGE_RATIO_BAND, TIME_CORRECTOR_REFUSED_ABOVE_MIN, TIME_CORRECTOR_WARNED_ABOVE_MIN,
+    };
+    let dt = feed.time_corrector_min;
+    if dt.abs() > TIME_CORRECTOR_REFUSED_ABOVE_MIN {
+        return Err(IoError::content(
+            at("time_corrector_min"),
+            format!(
+                "time corrector {} min is beyond the plausible ±{TIME_CORRECTOR_REFUSED_ABOVE_MIN} min (hours or seconds instead of minutes?)",
+                short(dt)
+            ),
+        ));
+    }
+    if dt.abs() > TIME_CORRECTOR_WARNED_ABOVE_MIN {
+        warnings.push(Finding::warning(
+            at("time_corrector_min"),
+            format!(
+                "zone '{id}': time corrector {} min is larger than ±{TIME_CORRECTOR_WARNED_ABOVE_MIN} min: check it",
+                short(dt)
+            ),
+        ));
+    }
+    let (lo, hi) = RANGE_RATIO_BAND;
+    let r = feed.range_ratio;
+    if !(lo..=hi).contains(&r) {
+        return Err(IoError::content(
+            at("range_ratio"),
+            format!(
+                "range ratio {} is outside the plausible band {lo} to {hi}",
+                short(r)
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// A number as written in a message: plain, or in exponent form when very large or very small.
+fn short(v: f64) -> String {
+    if v != 0.0 && !(1e-3..1e6).contains(&v.abs()) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
 }
 
 /// What is wrong with a zone's geometry; the reader puts it at `features[i].geometry` with the

@@ -1,7 +1,7 @@
 //! `ebbwise check`: reads everything a reduction would and reports problems before any reduction,
 //! each with file, line and field where there is one.
 //!
-//! Errors (the run would be wrong or impossible): unreadable or malformed files, unknown gauges in
+//! Errors (the run would be wrong or impossible; those of `load` stop every command alike): unreadable or malformed files, unknown gauges in
 //! zones, weights not summing to 1, unclosed rings, overlapping zones (with the overlap area),
 //! unknown CRS codes, gauge records out of time order or not spanning the soundings' times, rows
 //! that cannot be read. Warnings: soundings outside every zone and the uncovered area, gauge gaps
@@ -9,11 +9,7 @@
 
 use std::fs::File;
 
-use geo::orient::Direction;
-use geo::{
-    BooleanOps, BoundingRect, ConvexHull, Coord, GeodesicArea, Intersects, MultiPoint,
-    MultiPolygon, Orient, Point, Polygon,
-};
+use geo::{BooleanOps, ConvexHull, Coord, MultiPoint, MultiPolygon, Point, Polygon};
 use serde::Serialize;
 
 use super::load::{load, locator_for_crs};
@@ -23,8 +19,7 @@ use crate::io::project::Project;
 use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
 use crate::io::timefmt::utc_label;
 
-/// Overlaps smaller than this are reported as warnings (rounding slivers), larger as errors.
-pub const OVERLAP_ERROR_M2: f64 = 1.0;
+pub use super::load::{geodesic_area_m2, OVERLAP_ERROR_M2};
 
 /// Most row problems listed per file (the rest are counted).
 const ROW_PROBLEMS_LISTED: usize = 20;
@@ -96,34 +91,8 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
         finish(&mut report);
         return report;
     };
-    // Overlapping zones.
+    // Overlapping zones are found by `load`, for every command alike.
     let zones = &loaded.zoning.zones;
-    for i in 0..zones.len() {
-        for j in i + 1..zones.len() {
-            let (a, b) = (&zones[i].polygon_lonlat, &zones[j].polygon_lonlat);
-            let (Some(ra), Some(rb)) = (a.bounding_rect(), b.bounding_rect()) else {
-                continue;
-            };
-            if !ra.intersects(&rb) {
-                continue;
-            }
-            let inter = a.intersection(b);
-            let area = geodesic_area_m2(&inter);
-            if area > 0.0 {
-                let at = Position::file(&project.spec.zoning)
-                    .field(format!("features[{}]", zones[j].feature_index));
-                let msg = format!(
-                    "zones '{}' and '{}' overlap by {area:.0} m² (points in the overlap go to '{}', the first in the file)",
-                    zones[i].id, zones[j].id, zones[i].id
-                );
-                report.findings.push(if area >= OVERLAP_ERROR_M2 {
-                    Finding::error(at, msg)
-                } else {
-                    Finding::warning(at, msg)
-                });
-            }
-        }
-    }
     // Gauge skips.
     for (g, r) in project.spec.gauges.iter().zip(&loaded.records) {
         if r.skipped_null + r.skipped_flagged > 0 {
@@ -299,18 +268,6 @@ fn uncovered_area_m2(
         .ok()?;
     let hull_ll = MultiPolygon(vec![Polygon::new(pts.into(), vec![])]);
     Some(geodesic_area_m2(&hull_ll.difference(zoning_union)))
-}
-
-/// Geodesic area of a lon/lat multipolygon, m², whatever the winding of its rings (rings are
-/// oriented counter-clockwise first: the geodesic area of a clockwise ring is the rest of the
-/// globe).
-///
-/// # References
-/// Karney (2013), *Algorithms for geodesics*, through geo's `GeodesicArea`.
-pub fn geodesic_area_m2(mp: &MultiPolygon<f64>) -> f64 {
-    mp.0.iter()
-        .map(|p| p.orient(Direction::Default).geodesic_area_unsigned())
-        .sum()
 }
 
 fn check_gauge_spans(loaded: &super::load::Loaded, t0: f64, t1: f64, out: &mut Vec<Finding>) {

@@ -140,6 +140,15 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 format!("zone '{}': {m}", z.id),
             ));
         }
+        if approx_area_m2(&z.polygon_lonlat) < ZONE_AREA_MIN_M2 {
+            findings.push(Finding::error(
+                at_geometry.clone(),
+                format!(
+                    "zone '{}': the polygon encloses no area (less than {ZONE_AREA_MIN_M2} m²: its positions lie on a line or a point)",
+                    z.id
+                ),
+            ));
+        }
         for ring in &z.unclosed_rings {
             findings.push(Finding::error(
                 at_geometry.clone(),
@@ -189,6 +198,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         }
         zones.push(zone);
     }
+    findings.extend(zone_overlaps(&zoning, &project.spec.zoning));
     if findings
         .iter()
         .any(|f| f.severity == crate::io::error::Severity::Error)
@@ -298,6 +308,12 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             })
         }
     };
+    if !project.spec.qc.enabled {
+        findings.push(Finding::warning(
+            Position::file(&project.path).field("qc.enabled"),
+            "quality control is off: reversed or repeated times and spikes in the gauge records reach the soundings unchecked",
+        ));
+    }
     let mut gauges = Vec::new();
     let mut qc = Vec::new();
     let mut methods = Vec::new();
@@ -398,6 +414,73 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         warnings: findings,
         zoning_looks_swapped: swapped.is_some(),
     })
+}
+
+/// Overlaps smaller than this are reported as warnings (rounding slivers), larger as errors.
+pub const OVERLAP_ERROR_M2: f64 = 1.0;
+
+/// A zone enclosing less than this is refused: its soundings could never lie in it.
+pub const ZONE_AREA_MIN_M2: f64 = 1.0;
+
+/// Every pair of zones that overlap, with the overlap area: an error from
+/// [`OVERLAP_ERROR_M2`] up, a warning below (the point goes to the first zone in the file).
+pub fn zone_overlaps(zoning: &ZoningSpec, path: &std::path::Path) -> Vec<Finding> {
+    use geo::{BooleanOps, BoundingRect, Intersects};
+    let mut out = Vec::new();
+    let zones = &zoning.zones;
+    for i in 0..zones.len() {
+        for j in i + 1..zones.len() {
+            let (a, b) = (&zones[i].polygon_lonlat, &zones[j].polygon_lonlat);
+            let (Some(ra), Some(rb)) = (a.bounding_rect(), b.bounding_rect()) else {
+                continue;
+            };
+            if !ra.intersects(&rb) {
+                continue;
+            }
+            let area = geodesic_area_m2(&a.intersection(b));
+            if area > 0.0 {
+                let at =
+                    Position::file(path).field(format!("features[{}]", zones[j].feature_index));
+                let msg = format!(
+                    "zones '{}' and '{}' overlap by {area:.0} m² (points in the overlap go to '{}', the first in the file)",
+                    zones[i].id, zones[j].id, zones[i].id
+                );
+                out.push(if area >= OVERLAP_ERROR_M2 {
+                    Finding::error(at, msg)
+                } else {
+                    Finding::warning(at, msg)
+                });
+            }
+        }
+    }
+    out
+}
+
+/// Area of a lon/lat multipolygon, m², taken in the plane of longitude and latitude and scaled
+/// by 111 320 m per degree (longitude × cos latitude): enough to tell a polygon with no area
+/// (positions on one line or one point) from a real one. The geodesic area cannot: the edges of
+/// a "polygon" along one parallel are great-circle arcs that do enclose an area.
+pub fn approx_area_m2(mp: &geo::MultiPolygon<f64>) -> f64 {
+    use geo::{Area, BoundingRect};
+    let Some(r) = mp.bounding_rect() else {
+        return 0.0;
+    };
+    let lat_rad = (0.5 * (r.min().y + r.max().y)).to_radians();
+    mp.unsigned_area() * 111_320.0_f64.powi(2) * lat_rad.cos().abs()
+}
+
+/// Geodesic area of a lon/lat multipolygon, m², whatever the winding of its rings (rings are
+/// oriented counter-clockwise first: the geodesic area of a clockwise ring is the rest of the
+/// globe).
+///
+/// # References
+/// Karney (2013), *Algorithms for geodesics*, through geo's `GeodesicArea`.
+pub fn geodesic_area_m2(mp: &geo::MultiPolygon<f64>) -> f64 {
+    use geo::orient::Direction;
+    use geo::{GeodesicArea, Orient};
+    mp.0.iter()
+        .map(|p| p.orient(Direction::Default).geodesic_area_unsigned())
+        .sum()
 }
 
 /// `": did you mean 'g1'?"` for the project's gauge nearest to `id`, or `" (gauges: g1, g2)"`.

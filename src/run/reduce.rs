@@ -211,6 +211,8 @@ pub struct RunSummary {
     pub project: PathBuf,
     /// Time interpolation method.
     pub interpolation: &'static str,
+    /// Whether gauge quality control ran (`[qc] enabled`).
+    pub qc_ran: bool,
     /// Rows per status over all files.
     pub rows_by_status: StatusCounts,
     /// Per file.
@@ -442,6 +444,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
     Ok(RunSummary {
         ebbwise_version: env!("CARGO_PKG_VERSION"),
         project: loaded.project.path.clone(),
+        qc_ran: loaded.project.spec.qc.enabled,
         interpolation: loaded.interp.name(),
         rows_by_status: StatusCounts(totals),
         files,
