@@ -177,6 +177,8 @@ pub fn lines_of(chunk: &Chunk) -> impl Iterator<Item = (u64, &[u8])> {
 pub struct Fields {
     ranges: Vec<(usize, usize)>,
     quoted: Option<csv::StringRecord>,
+    /// Index of the field whose opening quote is never closed on the line.
+    unclosed_quote: Option<usize>,
 }
 
 impl Fields {
@@ -184,6 +186,7 @@ impl Fields {
     pub fn split(&mut self, line: &str, delim: Delimiter) {
         self.ranges.clear();
         self.quoted = None;
+        self.unclosed_quote = None;
         let sep = match delim {
             Delimiter::Whitespace => {
                 let base = line.as_ptr() as usize;
@@ -198,6 +201,7 @@ impl Fields {
             Delimiter::Tab => b'\t',
         };
         if line.as_bytes().contains(&b'"') {
+            self.unclosed_quote = unclosed_quote_field(line.as_bytes(), sep);
             let mut rdr = csv::ReaderBuilder::new()
                 .has_headers(false)
                 .delimiter(sep)
@@ -217,6 +221,11 @@ impl Fields {
             }
         }
         self.ranges.push((start, line.len()));
+    }
+
+    /// Index of the field whose opening quote is never closed, when one is not.
+    pub fn unclosed_quote(&self) -> Option<usize> {
+        self.unclosed_quote
     }
 
     /// Number of fields.
@@ -239,6 +248,32 @@ impl Fields {
             None => self.ranges.get(i).map(|&(s, e)| line[s..e].trim_ascii()),
         }
     }
+}
+
+/// The index of the field in which a quote opens that the line never closes (a doubled quote
+/// inside a quoted field is an escaped quote, RFC 4180).
+fn unclosed_quote_field(line: &[u8], sep: u8) -> Option<usize> {
+    let (mut field, mut in_quote, mut opened_in) = (0usize, false, 0usize);
+    let mut i = 0;
+    while i < line.len() {
+        let c = line[i];
+        if in_quote {
+            if c == b'"' {
+                if line.get(i + 1) == Some(&b'"') {
+                    i += 1;
+                } else {
+                    in_quote = false;
+                }
+            }
+        } else if c == b'"' {
+            in_quote = true;
+            opened_in = field;
+        } else if c == sep {
+            field += 1;
+        }
+        i += 1;
+    }
+    in_quote.then_some(opened_in)
 }
 
 /// A sounding's values as parsed from its line.
@@ -502,6 +537,16 @@ impl SoundingLayout {
             }
         };
         let (n, h) = (fields.len(), self.column_names.len());
+        if let Some(i) = fields.unclosed_quote() {
+            return Err(RowProblem {
+                field: self
+                    .column_names
+                    .get(i)
+                    .cloned()
+                    .unwrap_or_else(|| format!("#{}", i + 1)),
+                message: "a quote opens here that the line never closes: the rest of the line would be read as one field".into(),
+            });
+        }
         if n < h {
             return Err(RowProblem {
                 field: self.column_names[n].clone(),
@@ -643,6 +688,16 @@ mod tests {
     use super::*;
     use crate::io::project::ColumnMap;
     use std::path::PathBuf;
+
+    #[test]
+    fn an_unclosed_quote_is_found_in_its_field() {
+        // RFC 4180: a doubled quote inside a quoted field is a quote, not its end.
+        assert_eq!(unclosed_quote_field(b"a,\"b,c", b','), Some(1));
+        assert_eq!(unclosed_quote_field(b"a,\"b,c\",d", b','), None);
+        assert_eq!(unclosed_quote_field(b"\"x\"\"y\",\"z", b','), Some(1));
+        assert_eq!(unclosed_quote_field(b"\"x\"\"y,z", b','), Some(0));
+        assert_eq!(unclosed_quote_field(b"a;b;\"c", b';'), Some(2));
+    }
 
     fn spec(delim: Delimiter) -> SoundingsSpec {
         SoundingsSpec {

@@ -87,3 +87,45 @@ fn a_megabyte_line_is_one_bad_row_with_a_short_message() {
         "reduced"
     );
 }
+
+#[test]
+fn docs_robustness_lists_every_case_with_its_outcome_and_messages() {
+    let doc = std::fs::read_to_string(repo().join("docs/robustness.md")).unwrap();
+    let dir = repo().join("tests/bad-input");
+    let mut missing = Vec::new();
+    for case in std::fs::read_dir(&dir).unwrap() {
+        let case = case.unwrap().path();
+        let name = case.file_name().unwrap().to_string_lossy().into_owned();
+        let expect: Expect =
+            toml::from_str(&std::fs::read_to_string(case.join("expect.toml")).unwrap()).unwrap();
+        let head = format!(
+            "| `{name}` | `ebbwise {}` → {} |",
+            expect.command, expect.exit
+        );
+        let Some(row) = doc.lines().find(|l| l.starts_with(&head)) else {
+            missing.push(format!("{name}: no row starting '{head}'"));
+            continue;
+        };
+        // Each message the case expects is shown (its first 40 characters at least); excerpts
+        // of the run summary's table (aligned columns) are not messages.
+        let messages = expect
+            .stderr
+            .iter()
+            .filter(|m| !m.contains("   "))
+            .cloned()
+            .chain(
+                expect
+                    .rows
+                    .iter()
+                    .flatten()
+                    .map(|(_, detail)| detail.clone()),
+            );
+        for m in messages.filter(|m| !m.is_empty()) {
+            let start: String = m.chars().take(40).collect();
+            if !row.contains(&start) {
+                missing.push(format!("{name}: row lacks '{start}'"));
+            }
+        }
+    }
+    assert!(missing.is_empty(), "{}", missing.join("\n"));
+}

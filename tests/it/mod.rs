@@ -9,6 +9,7 @@ mod crs_reference;
 mod demo_recovery;
 mod harmonics;
 mod layers;
+mod one_bad_row;
 mod output_table;
 mod outputs;
 mod properties;
