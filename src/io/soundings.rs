@@ -250,6 +250,19 @@ impl Fields {
     }
 }
 
+/// A hint for a coordinate written in degrees and minutes or with a hemisphere letter.
+fn sexagesimal_hint(s: &str) -> &'static str {
+    let t = s.trim_end();
+    let lettered = t.len() > 1
+        && t.ends_with(['N', 'S', 'E', 'W', 'n', 's', 'e', 'w'])
+        && t[..t.len() - 1].trim_end().parse::<f64>().is_ok();
+    if s.contains(['°', '\'', '"']) || lettered {
+        ": write decimal degrees, negative west and south (e.g. -36.1), not degrees-minutes or a hemisphere letter"
+    } else {
+        ""
+    }
+}
+
 /// The index of the field in which a quote opens that the line never closes (a doubled quote
 /// inside a quoted field is an escaped quote, RFC 4180).
 fn unclosed_quote_field(line: &[u8], sep: u8) -> Option<usize> {
@@ -525,7 +538,11 @@ impl SoundingLayout {
             let s = get(i)?;
             let v: f64 = s.parse().map_err(|_| RowProblem {
                 field: self.column_names[i].clone(),
-                message: format!("expected {what}, found '{}'", clip(s)),
+                message: format!(
+                    "expected {what}, found '{}'{}",
+                    clip(s),
+                    sexagesimal_hint(s)
+                ),
             })?;
             if v.is_finite() {
                 Ok(v)
@@ -808,7 +825,17 @@ mod tests {
             (
                 "2026-06-14T09:30:00Z,abc,-47.5,3,L",
                 "lon",
-                "expected a coordinate",
+                "expected a coordinate, found 'abc'",
+            ),
+            (
+                "2026-06-14T09:30:00Z,36°06.0'W,-47.5,3,L",
+                "lon",
+                "write decimal degrees, negative west and south",
+            ),
+            (
+                "2026-06-14T09:30:00Z,-36.1,47.5S,3,L",
+                "lat",
+                "write decimal degrees, negative west and south",
             ),
         ] {
             f.split(line, Delimiter::Comma);

@@ -65,6 +65,13 @@ pub enum TimeError {
         /// The text.
         found: String,
     },
+    /// A leap second (second 60) where none can be: only the last second of 30 June or 31
+    /// December UTC can be one.
+    #[error("time '{found}' has second 60, a leap second, which can only be 23:59:60 UTC on 30 June or 31 December")]
+    NoSuchLeapSecond {
+        /// The text.
+        found: String,
+    },
     /// A time without an offset, and none to read it with.
     #[error("time '{time}' has no UTC offset and none is configured (set naive_time_utc_offset)")]
     NoOffset {
@@ -135,6 +142,26 @@ pub fn parse_time(
 }
 
 fn parse_iso(s: &str, naive_offset: Option<FixedOffset>) -> Result<f64, TimeError> {
+    let t_s = parse_iso_any_second(s, naive_offset)?;
+    // chrono reads second 60 at the end of any minute; a leap second is only ever inserted at
+    // the end of a UTC day in June or December (IERS practice; in fact all have been on 30 June
+    // or 31 December). It is read as the first instant of the next day.
+    if s.contains(":60") {
+        use chrono::Datelike;
+        let day = chrono::DateTime::from_timestamp(t_s.floor() as i64 - 1, 0);
+        let ok = day.is_some_and(|d| {
+            let (m, dd) = (d.month(), d.day());
+            d.format("%H:%M:%S").to_string() == "23:59:59"
+                && ((m, dd) == (6, 30) || (m, dd) == (12, 31))
+        });
+        if !ok {
+            return Err(TimeError::NoSuchLeapSecond { found: s.into() });
+        }
+    }
+    Ok(t_s)
+}
+
+fn parse_iso_any_second(s: &str, naive_offset: Option<FixedOffset>) -> Result<f64, TimeError> {
     if s.is_empty() {
         return Err(TimeError::Empty);
     }
@@ -262,6 +289,28 @@ mod tests {
     // 2026-06-14T09:30:00Z = 1781429400 s (20618 days × 86400 + 34200; 20618 days from
     // 1970-01-01 to 2026-06-14 counted with 14 leap days 1972..2024).
     const T0: f64 = 1_781_429_400.0;
+
+    #[test]
+    fn a_leap_second_only_where_one_can_be() {
+        let iso = |s: &str| parse_time(s, TimeFormat::Iso8601, None);
+        // 2016-12-31T23:59:60Z was a leap second (IERS Bulletin C 52, from memory); it reads
+        // as the next day's first instant, 2017-01-01T00:00:00Z = 1483228800 s.
+        assert_eq!(iso("2016-12-31T23:59:60Z").unwrap(), 1_483_228_800.0);
+        // The same instant written at +02:00.
+        assert_eq!(iso("2017-01-01T01:59:60+02:00").unwrap(), 1_483_228_800.0);
+        assert_eq!(iso("2015-06-30T23:59:60.5Z").unwrap(), 1_435_708_800.5);
+        for bad in [
+            "2026-06-14T23:59:60Z",
+            "2026-06-30T12:59:60Z",
+            "2026-12-31T23:58:60Z",
+        ] {
+            assert!(
+                matches!(iso(bad), Err(TimeError::NoSuchLeapSecond { .. })),
+                "{bad}: {:?}",
+                iso(bad)
+            );
+        }
+    }
 
     #[test]
     fn offsets_and_forms() {
