@@ -508,6 +508,11 @@ impl SoundingLayout {
         self.line
     }
 
+    /// Whether the group's CRS is WGS 84 longitude and latitude.
+    pub fn is_lonlat(&self) -> bool {
+        self.geographic_crs.is_some()
+    }
+
     /// Whether rows may have fields after the header's last column.
     pub fn extra_fields_allowed(&self) -> bool {
         self.extra_allowed

@@ -241,6 +241,24 @@ impl RunSummary {
     }
 }
 
+/// The zone whose outline (in longitude and latitude) holds `(lon, lat)`, when one does.
+fn zone_at_lonlat(
+    zoning: &crate::io::zoning_geojson::ZoningSpec,
+    lon: f64,
+    lat: f64,
+) -> Option<&str> {
+    use geo::Contains;
+    if lon.abs() > 180.0 || lat.abs() > 90.0 {
+        return None;
+    }
+    let p = geo::Point::new(lon, lat);
+    zoning
+        .zones
+        .iter()
+        .find(|z| z.polygon_lonlat.contains(&p))
+        .map(|z| z.id.as_str())
+}
+
 struct FileCtx<'a> {
     kind: RunKind<'a>,
     source_name: String,
@@ -953,6 +971,16 @@ fn process_chunk(
                                     detail.push_str("': the zoning file's positions look swapped; GeoJSON positions are [longitude, latitude])");
                                 } else {
                                     detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
+                                }
+                            } else if !ctx.layout.is_lonlat() {
+                                // Degrees given to a projected CRS: read as longitude and
+                                // latitude, the position would lie in a zone.
+                                if let Some(id) = zone_at_lonlat(&ctx.loaded.zoning, v.x, v.y) {
+                                    detail.push_str(" (read as longitude and latitude in degrees it would be in zone '");
+                                    detail.push_str(id);
+                                    detail.push_str(
+                                        "': the values look geographic; is the group's crs right?)",
+                                    );
                                 }
                             }
                             SoundingStatus::OutsideZoning
