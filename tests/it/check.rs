@@ -99,17 +99,23 @@ fn gauge_times_out_of_order_and_nan_heights() {
     let (code, err) = check(&p);
     assert_eq!(code, Some(1));
     assert!(
-        err.contains("g1.csv:4: field 'time': time '2026-06-14T00:06:00Z' is duplicated"),
+        err.contains("g1.csv:4: field 'time': time '2026-06-14T00:06:00Z' and its reading repeat line 3: quality control sets the sample aside"),
         "{err}"
     );
-    assert!(err.contains("g1.csv:5: field 'time': time '2026-06-14T00:03:00Z' is earlier than the previous sample"), "{err}");
+    // The kept sample before line 5 is line 3 (line 4 is the repeat set aside).
+    assert!(err.contains("g1.csv:5: field 'time': time '2026-06-14T00:03:00Z' is earlier than that of line 3 ('2026-06-14T00:06:00Z') before it"), "{err}");
+    // A NaN reading is named and set aside; the check does not stop at it.
     p.write(
         "g1.csv",
-        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,NaN\n",
+        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,NaN\n2026-06-14T00:12:00Z,1.2\n",
     );
     let (_, err) = check(&p);
     assert!(
-        err.contains("g1.csv:3: field 'height': expected a finite number, found 'NaN'"),
+        err.contains("g1.csv:3: field 'height': reading 'NaN' is not a finite number: quality control sets the sample aside"),
+        "{err}"
+    );
+    assert!(
+        err.contains("quality control set aside 1 of 3 samples (1 out_of_band)"),
         "{err}"
     );
 }
