@@ -97,7 +97,7 @@ impl QcFlag {
     pub fn meaning(self) -> &'static str {
         match self {
             QcFlag::TimeOrder => "time earlier than a previous sample's",
-            QcFlag::DuplicateTime => "time equal to a previous sample's",
+            QcFlag::DuplicateTime => "time equal to another sample's",
             QcFlag::OutOfBand => "level outside the plausible band",
             QcFlag::FlatLine => "same reading repeated too long (stuck sensor)",
             QcFlag::Spike => "far from the level its neighbours predict",
