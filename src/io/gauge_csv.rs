@@ -48,13 +48,14 @@ impl GaugeRecord {
             max_gap_s: self.max_gap_s,
             ..Default::default()
         };
-        let mut conflicting = vec![false; self.times_s.len()];
-        for c in conflicting_duplicates(&self.times_s, &self.heights_m) {
-            conflicting[c.first] = true;
-            conflicting[c.later] = true;
-        }
-        for (i, (&t, &h)) in self.times_s.iter().zip(&self.heights_m).enumerate() {
-            if conflicting[i] || !h.is_finite() {
+        // Every copy of a time with two readings, a third copy repeating one of them included.
+        let mut conflicting: Vec<f64> = conflicting_duplicates(&self.times_s, &self.heights_m)
+            .iter()
+            .map(|c| self.times_s[c.first])
+            .collect();
+        conflicting.sort_by(f64::total_cmp);
+        for (&t, &h) in self.times_s.iter().zip(&self.heights_m) {
+            if !h.is_finite() || conflicting.binary_search_by(|c| c.total_cmp(&t)).is_ok() {
                 continue;
             }
             if s.times_s.last().map_or(true, |&p| t > p) {
@@ -291,13 +292,17 @@ mod tests {
             2026-06-14T00:12:00Z,inf,0\n\
             2026-06-14T00:18:00Z,-inf,0\n\
             2026-06-14T00:24:00Z,3.6,0\n\
-            2026-06-14T00:24:00Z,3.6,0\n";
+            2026-06-14T00:24:00Z,3.6,0\n\
+            2026-06-14T00:30:00Z,3.7,0\n\
+            2026-06-14T00:30:00Z,3.8,0\n\
+            2026-06-14T00:30:00Z,3.7,0\n";
         let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap();
-        assert_eq!(r.lines, vec![2, 3, 4, 5, 6, 7]);
+        assert_eq!(r.lines, vec![2, 3, 4, 5, 6, 7, 8, 9, 10]);
         assert!(r.heights_m[1].is_nan());
         assert_eq!(r.heights_m[2], f64::INFINITY);
         assert_eq!(r.heights_m[3], f64::NEG_INFINITY);
-        // Without QC: the finite readings, and one copy of the row written twice.
+        // Without QC: the finite readings and one copy of the row written twice; no copy of
+        // 00:30, which has two readings (the third copy repeats the first).
         let s = r.increasing_series();
         assert_eq!(s.heights_m, vec![3.5 - 1.5, 3.6 - 1.5]);
     }
