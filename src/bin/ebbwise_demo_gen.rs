@@ -514,7 +514,7 @@ fn empty_height_ms() -> [i64; 2] {
 }
 
 /// Skellan's sensor faults: a spike (+0.52 m at 09:48), a stuck float (the 11:24 reading
-/// repeated until 12:48) and the 16:00 row written twice.
+/// repeated until 12:48) and the 16:00 row written twice with different readings.
 fn skellan_spike_ms() -> i64 {
     utc_ms(14, 9, 48, 0)
 }
@@ -981,8 +981,11 @@ columns = { time = "unix_s", x = "lon", y = "lat", depth = "depth", line = "line
 # ---------------------------------------------------------------------------------------------
 # Gauge-record quality control runs on every record before use, with the defaults of docs/qc.md
 # (from memory / common practice: set them from your specification). The reducer never
-# interpolates across a flagged sample. Uncomment to change a threshold, e.g.:
-# [qc]
+# interpolates across a flagged sample. Skellan's record has its 16:00 row written twice with
+# different readings: no rule can tell which is right, so the record would be refused; this
+# project chooses to set both copies aside instead. Uncomment to change a threshold, e.g.:
+[qc]
+duplicate_time_conflict = "set_both_aside"
 # spike_k = 6                  # spike threshold, robust standard deviations
 # flat_min_duration_min = 60   # a reading repeated this long is a stuck sensor
 # max_rate_m_per_h = 3.0       # fastest plausible change of level
@@ -1074,7 +1077,8 @@ Deliberate faults, as real surveys have them:
   30 minutes interpolation may bridge) and two empty readings; {gap_a} soundings of launch A and
   {gap_b} of launch B lie in zones it feeds at times that fall in the gap;
 * `skellan`'s sensor misbehaves three times: a spike of +0.52 m at 09:48, a stuck float
-  (the 11:24 reading repeated until 12:48) and the 16:00 row written twice. `ebbwise qc` finds
+  (the 11:24 reading repeated until 12:48) and the 16:00 row written twice with different
+  readings (the project sets both copies aside). `ebbwise qc` finds
   each; the reducer does not interpolate across the flagged samples, so {flt_a} soundings of
   launch A and {flt_b} of launch B, in zones skellan feeds, get status `gauge_flagged`;
 * one line of launch A overshoots the shore by 100 m: {out} soundings lie outside every zone;

@@ -176,10 +176,15 @@ impl From<Units> for HeightUnit {
 /// The median of a record's heights, metres; `None` for an empty record. Centres the plausible
 /// band when there is no project to give a mean level.
 pub fn median_m(heights_m: &[f64]) -> Option<f64> {
-    if heights_m.is_empty() {
+    // Readings that are not finite numbers (set aside by QC) do not move the median.
+    let mut v: Vec<f64> = heights_m
+        .iter()
+        .copied()
+        .filter(|h| h.is_finite())
+        .collect();
+    if v.is_empty() {
         return None;
     }
-    let mut v = heights_m.to_vec();
     let mid = v.len() / 2;
     Some(*v.select_nth_unstable_by(mid, f64::total_cmp).1)
 }

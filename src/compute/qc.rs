@@ -8,9 +8,14 @@
 //!
 //! The tests, run in this order on the samples still clean:
 //!
-//! 1. **Time order** — a time not later than the latest time before it is `time_order` (earlier)
-//!    or `duplicate_time` (equal). Later tests see only samples in increasing time.
-//! 2. **Plausible band** — a level outside `[band_min_m, band_max_m]` above chart datum.
+//! 1. **Time order** — the longest run of strictly increasing times is kept; every other sample
+//!    is `time_order` (out of order) or `duplicate_time` (its time equals a kept sample's). A
+//!    duplicate with the kept copy's reading is a repeated row and only the later copy is set
+//!    aside; one with a different reading is a conflict no rule settles, and both copies are
+//!    set aside ([`QcReason::ConflictingDuplicate`]; the loader refuses such a record unless the
+//!    project chooses this). Later tests see only samples in increasing time.
+//! 2. **Plausible band** — a reading that is not a finite number, or a level outside
+//!    `[band_min_m, band_max_m]` above chart datum, is `out_of_band`.
 //! 3. **Flat line** — the same reading repeated over at least `flat_min_samples` samples and
 //!    `flat_min_duration_min` (a stuck sensor). The first reading of the run is kept.
 //! 4. **Spike** — the sample is predicted from each side by a least-squares line through the
@@ -92,7 +97,7 @@ impl QcFlag {
     pub fn meaning(self) -> &'static str {
         match self {
             QcFlag::TimeOrder => "time earlier than a previous sample's",
-            QcFlag::DuplicateTime => "time equal to a previous sample's",
+            QcFlag::DuplicateTime => "time equal to another sample's",
             QcFlag::OutOfBand => "level outside the plausible band",
             QcFlag::FlatLine => "same reading repeated too long (stuck sensor)",
             QcFlag::Spike => "far from the level its neighbours predict",
@@ -243,10 +248,23 @@ pub struct QcNote {
 /// The evidence for one flag, as numbers. Times are UTC seconds, levels metres.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum QcReason {
-    /// `duplicate_time`: the time equals a kept sample's.
+    /// `duplicate_time`: the time and the reading equal a kept sample's (a repeated row: the
+    /// kept copy carries the same level, so nothing is lost).
     DuplicateTime {
         /// The sample's time.
         t_s: f64,
+        /// The kept sample with the same time and reading (index, file order).
+        kept: usize,
+    },
+    /// `duplicate_time`: the time equals another sample's but the reading differs. No rule
+    /// can tell which is right, so both copies are set aside.
+    ConflictingDuplicate {
+        /// The sample's time.
+        t_s: f64,
+        /// The other sample with this time (index, file order).
+        other: usize,
+        /// The other sample's level, metres.
+        other_level_m: f64,
     },
     /// `time_order`: the time is earlier than the kept sample before it.
     EarlierThanPrevious {
@@ -254,6 +272,9 @@ pub enum QcReason {
         t_s: f64,
         /// How much earlier, seconds.
         by_s: f64,
+        /// The kept sample before it in the file (index, file order), which need not be the
+        /// row just above it.
+        previous: usize,
     },
     /// `time_order`: the time is later than the kept sample after it.
     LaterThanNext {
@@ -261,6 +282,8 @@ pub enum QcReason {
         t_s: f64,
         /// How much later, seconds.
         by_s: f64,
+        /// The kept sample after it in the file (index, file order).
+        next: usize,
     },
     /// `time_order`: out of order otherwise.
     OutOfOrder {
@@ -273,6 +296,11 @@ pub enum QcReason {
         interval_s: f64,
         /// The record's nominal step, seconds.
         nominal_step_s: f64,
+    },
+    /// `out_of_band`: the reading is not a finite number (`NaN`, `inf` in the file).
+    NotFinite {
+        /// The value as read (NaN or ±infinity).
+        level_m: f64,
     },
     /// `out_of_band`: the level is outside the plausible band.
     OutOfBand {
@@ -579,6 +607,7 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     // 1. Time order: keep the longest run of strictly increasing times (in file order) and flag
     // the rest, so that one mistyped time is blamed alone instead of everything after it.
     let ordered = longest_increasing(times_s);
+    let mut conflicts: Vec<(usize, usize)> = Vec::new(); // (kept, later copy), different readings
     {
         let mut keep = vec![false; n];
         for &i in &ordered {
@@ -591,26 +620,52 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
             let t = times_s[i];
             // The kept samples around position i in file order.
             let k = ordered.partition_point(|&q| q < i);
-            let before = k.checked_sub(1).map(|q| times_s[ordered[q]]);
-            let after = ordered.get(k).map(|&q| times_s[q]);
-            let dup = ordered
+            let before = k.checked_sub(1).map(|q| ordered[q]);
+            let after = ordered.get(k).copied();
+            let twin = ordered
                 .binary_search_by(|&q| times_s[q].total_cmp(&t))
-                .is_ok();
-            if dup {
-                fl.flag(i, QcFlag::DuplicateTime, QcReason::DuplicateTime { t_s: t });
+                .ok()
+                .map(|p| ordered[p]);
+            if let Some(q) = twin {
+                let (h, hq) = (heights_m[i], heights_m[q]);
+                if h == hq || h.to_bits() == hq.to_bits() {
+                    fl.flag(
+                        i,
+                        QcFlag::DuplicateTime,
+                        QcReason::DuplicateTime { t_s: t, kept: q },
+                    );
+                } else {
+                    // Neither copy can be trusted over the other: both are set aside.
+                    conflicts.push((q, i));
+                }
             } else {
                 let why = match (before, after) {
-                    (Some(b), _) if t < b => QcReason::EarlierThanPrevious {
+                    (Some(b), _) if t < times_s[b] => QcReason::EarlierThanPrevious {
                         t_s: t,
-                        by_s: b - t,
+                        by_s: times_s[b] - t,
+                        previous: b,
                     },
-                    (_, Some(a)) if t > a => QcReason::LaterThanNext {
+                    (_, Some(a)) if t > times_s[a] => QcReason::LaterThanNext {
                         t_s: t,
-                        by_s: t - a,
+                        by_s: t - times_s[a],
+                        next: a,
                     },
                     _ => QcReason::OutOfOrder { t_s: t },
                 };
                 fl.flag(i, QcFlag::TimeOrder, why);
+            }
+        }
+        for &(q, i) in &conflicts {
+            for (a, b) in [(i, q), (q, i)] {
+                fl.flag(
+                    a,
+                    QcFlag::DuplicateTime,
+                    QcReason::ConflictingDuplicate {
+                        t_s: times_s[a],
+                        other: b,
+                        other_level_m: heights_m[b],
+                    },
+                );
             }
         }
     }
@@ -645,7 +700,12 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     let mut clean: Vec<usize> = Vec::with_capacity(ordered.len());
     for &i in &ordered {
         let h = heights_m[i];
-        if h < th.band_min_m || h > th.band_max_m {
+        if !fl.flags[i].usable() {
+            continue; // a kept copy of a conflicting duplicate time
+        }
+        if !h.is_finite() {
+            fl.flag(i, QcFlag::OutOfBand, QcReason::NotFinite { level_m: h });
+        } else if h < th.band_min_m || h > th.band_max_m {
             fl.flag(
                 i,
                 QcFlag::OutOfBand,
@@ -814,6 +874,49 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         noise_sigma_m,
         counts,
     }
+}
+
+/// Two samples with the same time and different readings: `(first, later)` indices in file
+/// order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct DuplicateConflict {
+    /// The first sample in the file with this time.
+    pub first: usize,
+    /// A later sample with the same time and another reading.
+    pub later: usize,
+}
+
+/// Every sample whose time equals an earlier sample's while its reading differs from that
+/// sample's, paired with the first sample of that time (file order, sorted by `later`). Equal
+/// readings (a row written twice) are not conflicts; NaN equals NaN here. Non-finite times are
+/// left to the reader.
+///
+/// # Units
+/// `times_s` UTC seconds, `heights_m` metres.
+pub fn conflicting_duplicates(times_s: &[f64], heights_m: &[f64]) -> Vec<DuplicateConflict> {
+    let mut idx: Vec<usize> = (0..times_s.len())
+        .filter(|&i| times_s[i].is_finite())
+        .collect();
+    idx.sort_by(|&a, &b| times_s[a].total_cmp(&times_s[b]).then(a.cmp(&b)));
+    let mut out = Vec::new();
+    let mut k = 0;
+    while k < idx.len() {
+        let first = idx[k];
+        let mut e = k + 1;
+        while e < idx.len() && times_s[idx[e]] == times_s[first] {
+            let (h, h0) = (heights_m[idx[e]], heights_m[first]);
+            if !(h == h0 || h.to_bits() == h0.to_bits()) {
+                out.push(DuplicateConflict {
+                    first,
+                    later: idx[e],
+                });
+            }
+            e += 1;
+        }
+        k = e;
+    }
+    out.sort_by_key(|c| c.later);
+    out
 }
 
 /// Indices (in file order) of a longest strictly increasing subsequence of `t` (patience
@@ -1205,8 +1308,9 @@ mod tests {
         // A 3-hour gap after sample 4200.
         t.drain(4201..4231);
         h.drain(4201..4231);
-        // A duplicated time and one going backwards.
+        // A row written twice (same time, same reading) and a time going backwards.
         t[4500] = t[4499];
+        h[4500] = h[4499];
         t[4600] = t[4598] - 1.0;
         let r = run_qc(&t, &h, &th());
         assert_eq!(r.flagged(QcFlag::Spike), vec![500, 1500]);
@@ -1363,5 +1467,105 @@ mod tests {
         s.insert(QcFlag::Spike);
         assert!(s.blocks_interpolation());
         assert_eq!(s.label(), "duplicate_time;spike;gap_before");
+    }
+
+    /// A time written twice: with the same reading only the repeat is set aside and the kept
+    /// copy named; with different readings both are, each naming the other; the conflict list
+    /// pairs the first copy with every differing later one. Hand-built 6-min record.
+    #[test]
+    fn duplicate_times_by_their_readings() {
+        let t: Vec<f64> = [0.0, 360.0, 360.0, 720.0, 1080.0, 1080.0, 1440.0, 1080.0].to_vec();
+        let h = [1.0, 1.1, 1.1, 1.2, 1.3, 1.35, 1.4, 1.3];
+        let r = run_qc(&t, &h, &QcThresholds::default());
+        assert_eq!(r.flagged(QcFlag::DuplicateTime), vec![2, 4, 5, 7]);
+        assert_eq!(
+            r.notes_of(2)[0].reason,
+            QcReason::DuplicateTime {
+                t_s: 360.0,
+                kept: 1
+            }
+        );
+        assert_eq!(
+            r.notes_of(4)[0].reason,
+            QcReason::ConflictingDuplicate {
+                t_s: 1080.0,
+                other: 5,
+                other_level_m: 1.35
+            }
+        );
+        assert_eq!(
+            r.notes_of(5)[0].reason,
+            QcReason::ConflictingDuplicate {
+                t_s: 1080.0,
+                other: 4,
+                other_level_m: 1.3
+            }
+        );
+        // Sample 7 repeats sample 4's reading: a repeated row, though 4 is itself in conflict.
+        assert_eq!(
+            r.notes_of(7)[0].reason,
+            QcReason::DuplicateTime {
+                t_s: 1080.0,
+                kept: 4
+            }
+        );
+        assert!(r.flags[1].usable() && !r.flags[4].usable() && !r.flags[5].usable());
+        // Timing flags do not block interpolation: the conflicting time is bridged like a
+        // missing reading.
+        assert!(!r.flags[4].blocks_interpolation());
+        assert_eq!(
+            conflicting_duplicates(&t, &h),
+            vec![DuplicateConflict { first: 4, later: 5 }]
+        );
+    }
+
+    /// A time earlier than the kept sample before it names that sample, which is not the row
+    /// just above it when that row is itself set aside.
+    #[test]
+    fn a_backward_time_names_the_kept_sample_before_it() {
+        let t = [0.0, 360.0, 360.0, 180.0, 720.0];
+        let h = [1.0, 1.1, 1.1, 1.1, 1.2];
+        let r = run_qc(&t, &h, &QcThresholds::default());
+        assert_eq!(
+            r.notes_of(3)[0].reason,
+            QcReason::EarlierThanPrevious {
+                t_s: 180.0,
+                by_s: 180.0,
+                previous: 1
+            }
+        );
+    }
+
+    /// NaN and infinite readings are set aside as out of band, like a finite reading outside
+    /// the band, and counted; the samples around them stay usable.
+    #[test]
+    fn readings_that_are_not_finite_are_out_of_band() {
+        let t: Vec<f64> = (0..12).map(|i| i as f64 * 360.0).collect();
+        let mut h: Vec<f64> = (0..12).map(|i| 2.0 + 0.01 * i as f64).collect();
+        h[3] = f64::NAN;
+        h[6] = f64::INFINITY;
+        h[9] = 1e308;
+        let th = QcThresholds {
+            band_min_m: -8.0,
+            band_max_m: 12.0,
+            ..QcThresholds::default()
+        };
+        let r = run_qc(&t, &h, &th);
+        assert_eq!(r.flagged(QcFlag::OutOfBand), vec![3, 6, 9]);
+        assert_eq!(r.count(QcFlag::OutOfBand), 3);
+        assert!(
+            matches!(r.notes_of(3)[0].reason, QcReason::NotFinite { level_m } if level_m.is_nan())
+        );
+        assert_eq!(
+            r.notes_of(6)[0].reason,
+            QcReason::NotFinite {
+                level_m: f64::INFINITY
+            }
+        );
+        assert!(matches!(
+            r.notes_of(9)[0].reason,
+            QcReason::OutOfBand { .. }
+        ));
+        assert_eq!(r.usable_count(), 9);
     }
 }

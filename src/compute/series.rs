@@ -115,21 +115,31 @@ impl LevelSeries {
         }
         let first = self.times_s[0];
         let last = self.times_s[n - 1];
+        // The record spans its flagged samples too: before the earliest (after the latest) of
+        // them there is no record at all, between it and the first (last) usable sample the
+        // record is set aside.
+        let start = self
+            .flagged_times_s
+            .first()
+            .map_or(first, |&f| f.min(first));
+        let end = self.flagged_times_s.last().map_or(last, |&f| f.max(last));
         if t_s < first {
-            // Samples set aside before the first usable one: their span is flagged, not absent.
-            // (the record goes on there, set aside: the tide would rest on it).
-            let k = self.flagged_times_s.partition_point(|&f| f < first);
-            if let Some(&f) = k.checked_sub(1).map(|k| &self.flagged_times_s[k]) {
-                return Err(NoLevel::Flagged { at_s: f });
+            if t_s < start {
+                return Err(NoLevel::BeforeRecord { by_s: start - t_s });
             }
-            return Err(NoLevel::BeforeRecord { by_s: first - t_s });
+            // Named: the flagged sample next to the first usable one (one exists, as the
+            // record starts before `first`).
+            let k = self.flagged_times_s.partition_point(|&f| f < first);
+            let f = self.flagged_times_s[k - 1];
+            return Err(NoLevel::Flagged { at_s: f });
         }
         if t_s > last {
-            let k = self.flagged_times_s.partition_point(|&f| f <= last);
-            if let Some(&f) = self.flagged_times_s.get(k) {
-                return Err(NoLevel::Flagged { at_s: f });
+            if t_s > end {
+                return Err(NoLevel::AfterRecord { by_s: t_s - end });
             }
-            return Err(NoLevel::AfterRecord { by_s: t_s - last });
+            let k = self.flagged_times_s.partition_point(|&f| f <= last);
+            let f = self.flagged_times_s[k];
+            return Err(NoLevel::Flagged { at_s: f });
         }
         if n == 1 {
             return Ok(0);
@@ -323,6 +333,31 @@ mod tests {
         assert_relative_eq!(Linear.level_at(&s, 720.0).unwrap().height_m, 1.3);
         assert_relative_eq!(Linear.level_at(&s, 180.0).unwrap().height_m, 1.3);
         assert_eq!(s.unbridged(), vec![false, true, true]);
+    }
+
+    /// Samples set aside at the record's ends: an instant between them and the usable samples
+    /// is flagged, an instant beyond them is outside the record, measured from the record's
+    /// own first (last) sample.
+    #[test]
+    fn beyond_the_flagged_ends_the_record_is_absent_not_flagged() {
+        let mut s = series(); // usable samples 0 .. 4320 s
+        s.flagged_times_s = vec![-720.0, -360.0, 4680.0];
+        assert_eq!(
+            Linear.level_at(&s, -500.0),
+            Err(NoLevel::Flagged { at_s: -360.0 })
+        );
+        assert_eq!(
+            Linear.level_at(&s, -780.0),
+            Err(NoLevel::BeforeRecord { by_s: 60.0 })
+        );
+        assert_eq!(
+            Linear.level_at(&s, 4500.0),
+            Err(NoLevel::Flagged { at_s: 4680.0 })
+        );
+        assert_eq!(
+            Linear.level_at(&s, 4700.0),
+            Err(NoLevel::AfterRecord { by_s: 20.0 })
+        );
     }
 
     #[test]

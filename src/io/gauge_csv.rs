@@ -3,7 +3,9 @@
 //! Times: RFC 3339 / ISO 8601 with `Z` or an offset; naive times only with a configured offset.
 //! Heights: in the gauge's declared unit, converted to metres and then to height above chart datum
 //! with the gauge's `zero_above_datum_m`. Empty heights, heights listed in `null_values`, and rows
-//! whose quality flag is not a good flag are skipped and counted, never invented.
+//! whose quality flag is not a good flag are skipped and counted, never invented. `NaN` and `inf`
+//! are kept as samples for quality control to set aside by line (`out_of_band`), so that one bad
+//! reading does not stop a run; [`GaugeRecord::increasing_series`] leaves them out too.
 
 use std::path::Path;
 
@@ -12,6 +14,7 @@ use chrono::FixedOffset;
 use super::error::{IoError, Position};
 use super::project::GaugeSpec;
 use super::timefmt::{parse_time, TimeFormat};
+use crate::compute::qc::conflicting_duplicates;
 use crate::compute::series::LevelSeries;
 
 /// A gauge record as read: every sample with a time and a reading, in file order (times may
@@ -20,7 +23,8 @@ use crate::compute::series::LevelSeries;
 pub struct GaugeRecord {
     /// Sample times, UTC seconds, file order.
     pub times_s: Vec<f64>,
-    /// Levels above chart datum, metres, file order.
+    /// Levels above chart datum, metres, file order; `NaN` or ±infinity where the file has such a
+    /// reading.
     pub heights_m: Vec<f64>,
     /// 1-based line of each sample in the file.
     pub lines: Vec<u64>,
@@ -35,14 +39,25 @@ pub struct GaugeRecord {
 }
 
 impl GaugeRecord {
-    /// The samples whose time is later than every time before it, as a series (no other quality
-    /// control): what a record gives when read without QC.
+    /// The samples whose time is later than every time before it, as a series: what a record
+    /// gives when read without QC. Even so, a reading that is not a finite number never enters
+    /// it, nor does either copy of a time written twice with different readings (keeping the
+    /// first would be a guess).
     pub fn increasing_series(&self) -> LevelSeries {
         let mut s = LevelSeries {
             max_gap_s: self.max_gap_s,
             ..Default::default()
         };
+        // Every copy of a time with two readings, a third copy repeating one of them included.
+        let mut conflicting: Vec<f64> = conflicting_duplicates(&self.times_s, &self.heights_m)
+            .iter()
+            .map(|c| self.times_s[c.first])
+            .collect();
+        conflicting.sort_by(f64::total_cmp);
         for (&t, &h) in self.times_s.iter().zip(&self.heights_m) {
+            if !h.is_finite() || conflicting.binary_search_by(|c| c.total_cmp(&t)).is_ok() {
+                continue;
+            }
             if s.times_s.last().map_or(true, |&p| t > p) {
                 s.times_s.push(t);
                 s.heights_m.push(h);
@@ -155,12 +170,6 @@ pub fn parse_gauge_record<R: std::io::Read>(
                 format!("expected a number, found '{h_txt}'"),
             )
         })?;
-        if !h.is_finite() {
-            return Err(IoError::content(
-                at(&spec.height_column),
-                format!("expected a finite number, found '{h_txt}'"),
-            ));
-        }
         out.times_s.push(t);
         out.heights_m.push(h * scale + spec.zero_above_datum_m);
         out.lines.push(line);
@@ -268,8 +277,33 @@ mod tests {
         let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap();
         assert_eq!(r.times_s.len(), 4);
         assert_eq!(r.lines, vec![2, 3, 4, 5]);
+        // Read without QC: 00:06 is written twice with different readings, so neither copy is
+        // used; 00:00 comes after it in the file but is then the earliest time.
         let s = r.increasing_series();
-        assert_eq!(s.times_s.len(), 2);
-        assert_eq!(s.heights_m, vec![3.5 - 1.5, 3.7 - 1.5]);
+        assert_eq!(s.heights_m, vec![3.6 - 1.5, 3.7 - 1.5]);
+        assert_eq!(s.times_s[1] - s.times_s[0], 12.0 * 60.0);
+    }
+
+    #[test]
+    fn readings_that_are_not_finite_are_kept_for_quality_control_but_never_used_without_it() {
+        let text = "time,height,qc\n\
+            2026-06-14T00:00:00Z,3.5,0\n\
+            2026-06-14T00:06:00Z,NaN,0\n\
+            2026-06-14T00:12:00Z,inf,0\n\
+            2026-06-14T00:18:00Z,-inf,0\n\
+            2026-06-14T00:24:00Z,3.6,0\n\
+            2026-06-14T00:24:00Z,3.6,0\n\
+            2026-06-14T00:30:00Z,3.7,0\n\
+            2026-06-14T00:30:00Z,3.8,0\n\
+            2026-06-14T00:30:00Z,3.7,0\n";
+        let r = parse_gauge_record(text.as_bytes(), Path::new("g.csv"), &spec(), None).unwrap();
+        assert_eq!(r.lines, vec![2, 3, 4, 5, 6, 7, 8, 9, 10]);
+        assert!(r.heights_m[1].is_nan());
+        assert_eq!(r.heights_m[2], f64::INFINITY);
+        assert_eq!(r.heights_m[3], f64::NEG_INFINITY);
+        // Without QC: the finite readings and one copy of the row written twice; no copy of
+        // 00:30, which has two readings (the third copy repeats the first).
+        let s = r.increasing_series();
+        assert_eq!(s.heights_m, vec![3.5 - 1.5, 3.6 - 1.5]);
     }
 }

@@ -51,6 +51,9 @@ pub struct ProjectFile {
 pub struct QcSpec {
     /// Run QC when loading gauges for `reduce`, `check`, `correctors` (default true).
     pub enabled: bool,
+    /// What a time written twice in a gauge record with different readings does (default
+    /// refuse). Applies with QC off too.
+    pub duplicate_time_conflict: DuplicateTimeConflict,
     /// Gap threshold in nominal steps.
     pub gap_factor: f64,
     /// Spike test window, minutes.
@@ -91,11 +94,27 @@ pub struct QcSpec {
     pub compare_shift_window_min: f64,
 }
 
+/// What to do with a gauge-record time written twice with different readings: no rule can tell
+/// which reading is right.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize, serde::Serialize)]
+#[non_exhaustive]
+pub enum DuplicateTimeConflict {
+    /// The record is refused: an error names the file and both lines (the default).
+    #[default]
+    #[serde(rename = "refuse")]
+    Refuse,
+    /// Both copies are set aside (`duplicate_time`) and the run goes on; the time is then
+    /// bridged like a missing reading, within the gauge's `max_gap_min`.
+    #[serde(rename = "set_both_aside")]
+    SetBothAside,
+}
+
 impl Default for QcSpec {
     fn default() -> Self {
         let t = crate::compute::qc::QcThresholds::default();
         QcSpec {
             enabled: true,
+            duplicate_time_conflict: DuplicateTimeConflict::Refuse,
             gap_factor: t.gap_factor,
             spike_window_min: t.spike_window_min,
             spike_k: t.spike_k,
@@ -143,6 +162,13 @@ impl QcSpec {
         }
     }
 }
+
+/// Largest plausible |`zero_above_datum_m`| and |`mean_level_above_datum_m`| of a gauge,
+/// metres. Chart datum lies near the lowest tide, so a mean level sits at most about half the
+/// largest tidal range (some 16 m) above it, and a gauge zero within metres of it; 100 m leaves
+/// room for any datum choice while refusing a value typed in millimetres or centimetres (common
+/// practice; the 16 m range from memory).
+pub const GAUGE_LEVEL_LIMIT_M: f64 = 100.0;
 
 /// `[interpolation]`: how gauge records are interpolated in time.
 #[derive(Debug, Clone, Deserialize)]
@@ -586,6 +612,24 @@ impl Project {
                     return Err(IoError::content(f(k), "expected a finite number"));
                 }
             }
+            for (k, v) in [
+                ("zero_above_datum_m", g.zero_above_datum_m),
+                ("mean_level_above_datum_m", g.mean_level_above_datum_m),
+            ] {
+                if v.abs() > GAUGE_LEVEL_LIMIT_M {
+                    let shown = if v.abs() < 1e6 {
+                        format!("{v}")
+                    } else {
+                        format!("{v:e}")
+                    };
+                    return Err(IoError::content(
+                        f(k),
+                        format!(
+                            "{shown} m is not a plausible height relative to chart datum (beyond ±{GAUGE_LEVEL_LIMIT_M} m): is it in millimetres or centimetres, or mistyped?"
+                        ),
+                    ));
+                }
+            }
             if !(g.max_gap_min.is_finite() && g.max_gap_min > 0.0) {
                 return Err(IoError::content(
                     f("max_gap_min"),
@@ -745,7 +789,9 @@ impl Project {
 /// A path of the project file read from the project file's folder `dir` (as the user wrote it,
 /// empty for a bare file name): an absolute path and a path beside a bare file name stay as
 /// written; otherwise the folder is joined on without a doubled `./` (`./p.toml` and `./a.csv`
-/// give `./a.csv`, not `././a.csv`). Nothing is canonicalised.
+/// give `./a.csv`, not `././a.csv`), and a path that climbs out of the current folder keeps no
+/// `./` before its `..` (`./p.toml` and `../s/x.csv` give `../s/x.csv`). Nothing is
+/// canonicalised.
 fn resolve(dir: &Path, p: &Path) -> PathBuf {
     if p.is_absolute() || dir.as_os_str().is_empty() {
         return p.to_path_buf();
@@ -754,8 +800,19 @@ fn resolve(dir: &Path, p: &Path) -> PathBuf {
         .components()
         .skip_while(|c| matches!(c, std::path::Component::CurDir))
         .collect();
+    let dir_is_here = dir
+        .components()
+        .all(|c| matches!(c, std::path::Component::CurDir));
     if rest.as_os_str().is_empty() {
         dir.to_path_buf()
+    } else if dir_is_here
+        && matches!(
+            rest.components().next(),
+            Some(std::path::Component::ParentDir)
+        )
+    {
+        // `./` before `..` says nothing: `../s/x.csv`, not `./../s/x.csv`.
+        rest
     } else {
         dir.join(rest)
     }
@@ -775,6 +832,9 @@ mod tests {
             ("./project.toml", "a.csv", "./a.csv"),
             ("day1/project.toml", "./gauges/a.csv", "day1/gauges/a.csv"),
             ("day1/project.toml", "../a.csv", "day1/../a.csv"),
+            ("./project.toml", "../../s/a.csv", "../../s/a.csv"),
+            ("./project.toml", "./../s/a.csv", "../s/a.csv"),
+            ("project.toml", "../s/a.csv", "../s/a.csv"),
             ("day1/project.toml", ".", "day1"),
             ("day1/project.toml", "/data/a.csv", "/data/a.csv"),
         ] {

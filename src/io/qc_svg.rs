@@ -285,12 +285,13 @@ pub fn render_qc_svg(p: &QcPlot) -> String {
                 }
                 _ => {
                     let v = p.heights_m[i];
-                    if v > hi || v < lo {
-                        // Off the plot: a triangle at the edge pointing the way.
-                        let (yy, d) = if v > hi {
-                            (mt + 2.0, -1.0)
-                        } else {
+                    if !(v >= lo && v <= hi) {
+                        // Off the plot: a triangle at the edge pointing the way (a reading that
+                        // is not a number at the top).
+                        let (yy, d) = if v < lo {
                             (mt + ph - 2.0, 1.0)
+                        } else {
+                            (mt + 2.0, -1.0)
                         };
                         let _ = write!(
                             out,

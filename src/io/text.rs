@@ -36,23 +36,72 @@ impl fmt::Display for NoLevel {
     }
 }
 
+/// A QC reason with the record's line numbers, so that the other sample a reason names is
+/// named by its line (`line 4`); without lines it is named by its place in the file
+/// (`sample 3`). `QcReason`'s own `Display` is this without lines.
+#[derive(Debug, Clone, Copy)]
+pub struct QcDetail<'a> {
+    /// The reason.
+    pub reason: &'a QcReason,
+    /// 1-based line of each sample in the record file (may be empty).
+    pub lines: &'a [u64],
+}
+
+impl QcDetail<'_> {
+    fn sample(&self, i: usize) -> String {
+        match self.lines.get(i) {
+            Some(l) => format!("line {l}"),
+            None => format!("sample {}", i + 1),
+        }
+    }
+}
+
 impl fmt::Display for QcReason {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match *self {
-            QcReason::DuplicateTime { t_s } => {
-                write!(f, "time equals that of another sample ({})", utc_label(t_s))
-            }
-            QcReason::EarlierThanPrevious { t_s, by_s } => write!(
+        QcDetail {
+            reason: self,
+            lines: &[],
+        }
+        .fmt(f)
+    }
+}
+
+impl fmt::Display for QcDetail<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match *self.reason {
+            QcReason::DuplicateTime { t_s, kept } => write!(
                 f,
-                "time {} is {:.1} min earlier than the sample before it",
+                "time {} and its reading repeat {}: the repeated row is set aside",
                 utc_label(t_s),
-                by_s / 60.0
+                self.sample(kept)
             ),
-            QcReason::LaterThanNext { t_s, by_s } => write!(
+            QcReason::ConflictingDuplicate {
+                t_s,
+                other,
+                other_level_m,
+            } => write!(
                 f,
-                "time {} is {:.1} min later than the sample after it",
+                "time {} is also that of {}, whose level differs ({other_level_m:.3} m): both are set aside",
                 utc_label(t_s),
-                by_s / 60.0
+                self.sample(other)
+            ),
+            QcReason::EarlierThanPrevious { t_s, by_s, previous } => write!(
+                f,
+                "time {} is {:.1} min earlier than {} before it",
+                utc_label(t_s),
+                by_s / 60.0,
+                self.sample(previous)
+            ),
+            QcReason::LaterThanNext { t_s, by_s, next } => write!(
+                f,
+                "time {} is {:.1} min later than {} after it",
+                utc_label(t_s),
+                by_s / 60.0,
+                self.sample(next)
+            ),
+            QcReason::NotFinite { level_m } => write!(
+                f,
+                "the reading is not a finite number ({level_m})"
             ),
             QcReason::OutOfOrder { t_s } => write!(f, "time {} is out of order", utc_label(t_s)),
             QcReason::GapBefore {

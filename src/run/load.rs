@@ -3,7 +3,7 @@
 use std::collections::HashMap;
 
 use crate::compute::locate::ZoneLocator;
-use crate::compute::qc::{run_qc, QcResult};
+use crate::compute::qc::{conflicting_duplicates, run_qc, QcResult};
 use crate::compute::series::{Configured, LevelSeries, TimeInterpolation};
 use crate::compute::uncertainty::{
     s44_orders, GaugeUncertainty, SoundingUncertaintyModel, SurveyOrder, ZoneUncertainty,
@@ -12,7 +12,9 @@ use crate::compute::zoning::{Gauge, GaugeFeed, MeanLevelForm, Zone};
 use crate::io::crs::{CrsError, Transformer};
 use crate::io::error::{Finding, Position};
 use crate::io::gauge_csv::{read_gauge_record, GaugeRecord};
-use crate::io::project::{GaugeSpec, InterpolationChoice, InterpolationSpec, Project, QcSpec};
+use crate::io::project::{
+    DuplicateTimeConflict, GaugeSpec, InterpolationChoice, InterpolationSpec, Project, QcSpec,
+};
 use crate::io::zoning_geojson::{read_zoning, ZoningSpec};
 
 /// Everything a reduction needs, loaded and checked.
@@ -79,6 +81,11 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 if let Some(f) = plausibility(g, &r) {
                     findings.push(f);
                 }
+                findings.extend(duplicate_findings(
+                    g,
+                    &r,
+                    project.spec.qc.duplicate_time_conflict,
+                ));
                 if r.times_s.is_empty() {
                     findings.push(Finding::error(
                         Position::file(&g.record),
@@ -319,43 +326,8 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
     let mut methods = Vec::new();
     for (gi, (g, r)) in project.spec.gauges.iter().zip(&records).enumerate() {
         let prepared = prepare_series(&project.spec.qc, &project.spec.interpolation, g, r);
+        findings.extend(sample_findings(g, r, prepared.qc.as_ref()));
         if let Some(q) = &prepared.qc {
-            use crate::compute::qc::{QcFlag, QcReason};
-            let mut shown = 0;
-            for (i, f) in q.flags.iter().enumerate() {
-                let later = q
-                    .notes_of(i)
-                    .iter()
-                    .any(|n| matches!(n.reason, QcReason::LaterThanNext { .. }));
-                let what = if f.contains(QcFlag::DuplicateTime) {
-                    "is duplicated"
-                } else if f.contains(QcFlag::TimeOrder) && later {
-                    "is later than the samples after it"
-                } else if f.contains(QcFlag::TimeOrder) {
-                    "is earlier than the previous sample"
-                } else {
-                    continue;
-                };
-                shown += 1;
-                if shown > 20 {
-                    continue;
-                }
-                findings.push(Finding::warning(
-                    Position::file(&g.record)
-                        .line(r.lines[i])
-                        .field(&g.time_column),
-                    format!(
-                        "time '{}' {what}: quality control sets the sample aside",
-                        crate::io::timefmt::utc_label(r.times_s[i])
-                    ),
-                ));
-            }
-            if shown > 20 {
-                findings.push(Finding::warning(
-                    Position::file(&g.record),
-                    format!("{} more times out of order", shown - 20),
-                ));
-            }
             let flagged: Vec<String> = crate::compute::qc::QcFlag::ALL
                 .iter()
                 .filter(|f| f.excludes() && q.count(**f) > 0)
@@ -414,6 +386,171 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         warnings: findings,
         zoning_looks_swapped: swapped.is_some(),
     })
+}
+
+/// Most samples named one by one per gauge and kind (times, readings); the rest are counted.
+pub const SAMPLES_NAMED_MAX: usize = 20;
+
+/// Every time written twice with different readings in a gauge record: an error naming both
+/// lines when `policy` refuses them, else a warning that both copies are set aside.
+pub fn duplicate_findings(
+    g: &GaugeSpec,
+    r: &GaugeRecord,
+    policy: DuplicateTimeConflict,
+) -> Vec<Finding> {
+    let mut out = Vec::new();
+    for c in conflicting_duplicates(&r.times_s, &r.heights_m) {
+        let at = Position::file(&g.record)
+            .line(r.lines[c.later])
+            .field(&g.time_column);
+        let what = format!(
+            "time '{}' is also at line {} with another reading (levels {} and {} m above chart datum)",
+            crate::io::timefmt::utc_label(r.times_s[c.later]),
+            r.lines[c.first],
+            level_words(r.heights_m[c.first]),
+            level_words(r.heights_m[c.later]),
+        );
+        out.push(match policy {
+            DuplicateTimeConflict::SetBothAside => Finding::warning(
+                at,
+                format!("{what}: both copies are set aside ([qc] duplicate_time_conflict = \"set_both_aside\")"),
+            ),
+            _ => Finding::error(
+                at,
+                format!("{what}: no rule can tell which is right; correct the record, or set [qc] duplicate_time_conflict = \"set_both_aside\" to set both copies aside"),
+            ),
+        });
+    }
+    out
+}
+
+/// A level for a message: three decimals, or the exponent form when it is huge (`1e308`).
+fn level_words(h_m: f64) -> String {
+    if h_m.is_finite() && h_m.abs() < 1e6 {
+        format!("{h_m:.3}")
+    } else {
+        format!("{h_m:e}")
+    }
+}
+
+/// One warning per sample that quality control sets aside for its time or its reading (up to
+/// [`SAMPLES_NAMED_MAX`] of each, then a count), naming its line and field. Conflicting
+/// duplicate times are left to [`duplicate_findings`]. Without QC (`qc` is `None`), readings that
+/// are not finite numbers are still named: they are left out of the series all the same.
+pub fn sample_findings(g: &GaugeSpec, r: &GaugeRecord, qc: Option<&QcResult>) -> Vec<Finding> {
+    use crate::compute::qc::QcReason;
+    use crate::io::timefmt::utc_label;
+    let mut out = Vec::new();
+    let (mut times, mut readings) = (0usize, 0usize);
+    let at = |i: usize, field: &str| Position::file(&g.record).line(r.lines[i]).field(field);
+    let mut push = |count: &mut usize, f: Finding| {
+        *count += 1;
+        if *count <= SAMPLES_NAMED_MAX {
+            out.push(f);
+        }
+    };
+    let Some(q) = qc else {
+        for (i, h) in r.heights_m.iter().enumerate() {
+            if !h.is_finite() {
+                push(
+                    &mut readings,
+                    Finding::warning(
+                        at(i, &g.height_column),
+                        format!("reading '{h}' is not a finite number: the sample is left out (quality control is off)"),
+                    ),
+                );
+            }
+        }
+        if readings > SAMPLES_NAMED_MAX {
+            out.push(Finding::warning(
+                Position::file(&g.record),
+                format!(
+                    "{} more readings that are not finite numbers",
+                    readings - SAMPLES_NAMED_MAX
+                ),
+            ));
+        }
+        return out;
+    };
+    const ASIDE: &str = "quality control sets the sample aside";
+    for n in &q.notes {
+        let i = n.sample;
+        let t = utc_label(r.times_s[i]);
+        let line = |k: usize| r.lines[k];
+        match n.reason {
+            QcReason::DuplicateTime { kept, .. } => push(
+                &mut times,
+                Finding::warning(
+                    at(i, &g.time_column),
+                    format!("time '{t}' and its reading repeat line {}: {ASIDE}", line(kept)),
+                ),
+            ),
+            QcReason::EarlierThanPrevious { previous, .. } => push(
+                &mut times,
+                Finding::warning(
+                    at(i, &g.time_column),
+                    format!(
+                        "time '{t}' is earlier than that of line {} ('{}') before it: {ASIDE}",
+                        line(previous),
+                        utc_label(r.times_s[previous])
+                    ),
+                ),
+            ),
+            QcReason::LaterThanNext { next, .. } => push(
+                &mut times,
+                Finding::warning(
+                    at(i, &g.time_column),
+                    format!(
+                        "time '{t}' is later than that of line {} ('{}') after it: {ASIDE}",
+                        line(next),
+                        utc_label(r.times_s[next])
+                    ),
+                ),
+            ),
+            QcReason::OutOfOrder { .. } => push(
+                &mut times,
+                Finding::warning(at(i, &g.time_column), format!("time '{t}' is out of order: {ASIDE}")),
+            ),
+            QcReason::NotFinite { level_m } => push(
+                &mut readings,
+                Finding::warning(
+                    at(i, &g.height_column),
+                    format!("reading '{level_m}' is not a finite number: {ASIDE}"),
+                ),
+            ),
+            QcReason::OutOfBand {
+                level_m,
+                band_min_m,
+                band_max_m,
+            } => push(
+                &mut readings,
+                Finding::warning(
+                    at(i, &g.height_column),
+                    format!(
+                        "level {} m above chart datum is outside the plausible band {band_min_m:.2} to {band_max_m:.2} m: {ASIDE}",
+                        level_words(level_m)
+                    ),
+                ),
+            ),
+            _ => {}
+        }
+    }
+    if times > SAMPLES_NAMED_MAX {
+        out.push(Finding::warning(
+            Position::file(&g.record),
+            format!("{} more times out of order", times - SAMPLES_NAMED_MAX),
+        ));
+    }
+    if readings > SAMPLES_NAMED_MAX {
+        out.push(Finding::warning(
+            Position::file(&g.record),
+            format!(
+                "{} more readings outside the plausible band or not finite",
+                readings - SAMPLES_NAMED_MAX
+            ),
+        ));
+    }
+    out
 }
 
 /// Overlaps smaller than this are reported as warnings (rounding slivers), larger as errors.
@@ -677,47 +814,101 @@ pub fn self_intersection(mp: &geo::MultiPolygon<f64>) -> Option<String> {
     None
 }
 
-/// Checks a record's mean level against the gauge's stated mean level above chart datum.
+/// The record's level must agree with the stated mean level within this, metres, or more than
+/// [`MEAN_LEVEL_WARN_M`] is a warning (see [`plausibility`]).
+pub const MEAN_LEVEL_WARN_M: f64 = 0.5;
+
+/// Beyond this many metres (or half the record's robust range, if larger) between the record's
+/// median level and the stated mean level, the record is refused (see [`plausibility`]).
+pub const MEAN_LEVEL_ERROR_M: f64 = 1.0;
+
+/// One rule for "the record's level disagrees with the gauge's stated mean level".
 ///
-/// A record whose mean lies far from the stated mean (more than 0.5 m and more than a quarter of
-/// its range: a day's mean lies within a few decimetres of mean sea level, common practice) is a
-/// warning; when reading the heights as international feet would fit the stated mean three times
-/// better, the record is taken to be in feet without saying so, and that is an error.
+/// The record's level is its median over the finite readings (robust to the few bad readings
+/// quality control sets aside), its spread `R` the 5th to 95th percentile range. Let `d` be
+/// |median − `mean_level_above_datum_m`|:
+///
+/// * `d ≤ max(0.5 m, R / 4)`: agreement. A day's median lies within a few decimetres of mean
+///   level (common practice).
+/// * `d > max(1.0 m, R / 2)`: an error. A record of any length lies mostly within half its range
+///   of mean level, and a surge rarely moves a day's level by a metre (from memory): a
+///   disagreement this large is a units or datum mistake that would shift every depth.
+/// * in between: a warning.
+///
+/// Both name the usual causes whose re-reading would agree (`d ≤ max(0.5 m, R'/4)` with the
+/// re-read record): the heights in feet (or metres, when feet are declared), in centimetres or
+/// millimetres, and `zero_above_datum_m` given with the wrong sign.
 pub fn plausibility(g: &crate::io::project::GaugeSpec, r: &GaugeRecord) -> Option<Finding> {
-    let h = &r.heights_m;
+    use crate::io::project::HeightUnit;
+    let mut h: Vec<f64> = r
+        .heights_m
+        .iter()
+        .copied()
+        .filter(|x| x.is_finite())
+        .collect();
     if h.len() < 10 {
         return None;
     }
-    let mean = h.iter().sum::<f64>() / h.len() as f64;
-    let (lo, hi) = h
-        .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
-            (a.min(*x), b.max(*x))
-        });
-    let off = (mean - g.mean_level_above_datum_m).abs();
-    if off <= 0.5_f64.max(0.25 * (hi - lo)) {
+    h.sort_by(f64::total_cmp);
+    let pick = |p: f64| h[((h.len() - 1) as f64 * p).round() as usize];
+    let median = pick(0.5);
+    let spread = pick(0.95) - pick(0.05);
+    let stated = g.mean_level_above_datum_m;
+    let zero = g.zero_above_datum_m;
+    let agrees =
+        |level: f64, spread: f64| (level - stated).abs() <= MEAN_LEVEL_WARN_M.max(0.25 * spread);
+    if agrees(median, spread) {
         return None;
     }
-    let at = Position::file(&g.record).field(g.height_column.clone());
-    // The readings in the declared unit, re-read as feet.
-    let reading_mean = (mean - g.zero_above_datum_m) / g.units.metres_per_unit();
-    let as_feet = reading_mean * 0.3048 + g.zero_above_datum_m;
-    let off_feet = (as_feet - g.mean_level_above_datum_m).abs();
-    let msg = format!(
-        "the record's mean level is {mean:.2} m above chart datum, but gauge '{}' states mean_level_above_datum_m = {:.2} m",
-        g.id, g.mean_level_above_datum_m
-    );
-    if g.units != crate::io::project::HeightUnit::Foot && off_feet * 3.0 < off {
-        Some(Finding::error(
-            at,
-            format!("{msg}; read as feet it would be {as_feet:.2} m: are the heights in feet? (set units = \"ft\")"),
-        ))
-    } else {
-        Some(Finding::warning(
-            at,
-            format!("{msg}: check units, zero_above_datum_m and the stated mean"),
-        ))
+    let off = (median - stated).abs();
+    let scale = g.units.metres_per_unit();
+    // The median reading in the declared unit, and the readings re-read other ways.
+    let reading = (median - zero) / scale;
+    let mut hints = Vec::new();
+    let mut try_unit = |factor_m: f64, words: &str, fix: &str| {
+        let level = reading * factor_m + zero;
+        if agrees(level, spread / scale * factor_m) {
+            hints.push(format!(
+                "read as {words} it would be {level:.2} m: are the heights in {words}? ({fix})"
+            ));
+        }
+    };
+    if g.units != HeightUnit::Foot {
+        try_unit(0.3048, "feet", "set units = \"ft\"");
     }
+    if g.units != HeightUnit::Metre {
+        try_unit(1.0, "metres", "set units = \"m\"");
+    }
+    try_unit(0.01, "centimetres", "convert the record to metres");
+    try_unit(0.001, "millimetres", "convert the record to metres");
+    if zero != 0.0 {
+        let level = median - 2.0 * zero;
+        if agrees(level, spread) {
+            hints.push(format!(
+                "with zero_above_datum_m = {:.2} it would be {level:.2} m: is the gauge zero's sign wrong? (the zero's height above chart datum is positive when the zero lies above it)",
+                -zero
+            ));
+        }
+    }
+    let at = Position::file(&g.record).field(g.height_column.clone());
+    let msg = format!(
+        "the record's median level is {median:.2} m above chart datum, but gauge '{}' states mean_level_above_datum_m = {stated:.2} m ({off:.2} m apart)",
+        g.id
+    );
+    let hint = if hints.is_empty() {
+        ": check units, zero_above_datum_m and the stated mean".to_string()
+    } else {
+        format!("; {}", hints.join("; "))
+    };
+    let bound = MEAN_LEVEL_ERROR_M.max(0.5 * spread);
+    Some(if off > bound {
+        Finding::error(
+            at,
+            format!("{msg}, more than the {bound:.2} m a record can lie from its mean level{hint}"),
+        )
+    } else {
+        Finding::warning(at, format!("{msg}{hint}"))
+    })
 }
 
 /// Why the zoning cannot be placed in a soundings group's CRS.
@@ -764,6 +955,76 @@ mod tests {
             r#"{{"type":"FeatureCollection","features":[{{"type":"Feature","properties":{{"zone":"A","gauge":"g","time_corrector_min":0,"range_ratio":1}},"geometry":{{"type":"Polygon","coordinates":[{coords}]}}}}]}}"#
         );
         parse_zoning(text.as_bytes(), std::path::Path::new("z.geojson")).unwrap()
+    }
+
+    /// A 2-day record every 30 min of levels `2.0 + sin(2π t / 12 h)` above chart datum (median 2.0
+    /// m, robust range about 2 m), read back through a gauge declared with `units` and `zero`:
+    /// `readings` turns each true level into what the file holds.
+    fn record_of(
+        units: crate::io::project::HeightUnit,
+        zero: f64,
+        readings: impl Fn(f64) -> f64,
+    ) -> (GaugeSpec, GaugeRecord) {
+        let mut g = GaugeSpec::for_record(std::path::Path::new("g.csv"), units, zero);
+        g.id = "g".into();
+        g.mean_level_above_datum_m = 2.0;
+        let mut r = GaugeRecord::default();
+        for k in 0..96 {
+            let level = 2.0 + (k as f64 * std::f64::consts::TAU / 24.0).sin();
+            r.times_s.push(k as f64 * 1800.0);
+            r.heights_m
+                .push(readings(level) * units.metres_per_unit() + zero);
+            r.lines.push(k + 2);
+        }
+        (g, r)
+    }
+
+    /// One rule, its two bounds and the hints, each case worked by hand from `record_of`.
+    #[test]
+    fn the_record_level_and_the_stated_mean_level_follow_one_rule() {
+        use crate::io::project::HeightUnit;
+        // Readings above a zero 0.8 m below chart datum, read right: agreement.
+        let (g, r) = record_of(HeightUnit::Metre, -0.8, |l| l + 0.8);
+        assert!(plausibility(&g, &r).is_none());
+        // A NaN and a 1e308 reading move the median by nothing.
+        let (g, mut r) = record_of(HeightUnit::Metre, -0.8, |l| l + 0.8);
+        r.heights_m[5] = f64::NAN;
+        r.heights_m[6] = 1e308;
+        assert!(plausibility(&g, &r).is_none());
+        // The zero given as +3.25 where it is −3.25: levels come out 6.5 m high (median near
+        // 8.5 m against 2.0 m), an error; with −3.25 they fit.
+        let (g, r) = record_of(HeightUnit::Metre, 3.25, |l| l + 3.25);
+        let f = plausibility(&g, &r).unwrap();
+        assert_eq!(f.severity, crate::io::error::Severity::Error);
+        let m = f.message.to_string();
+        assert!(
+            m.contains("with zero_above_datum_m = -3.25 it would be 2.0"),
+            "{m}"
+        );
+        assert!(!m.contains("feet") && !m.contains("millimetres"), "{m}");
+        // Readings in millimetres above a zero 0.5 m below chart datum, declared metres.
+        let (g, r) = record_of(HeightUnit::Metre, -0.5, |l| (l + 0.5) * 1000.0);
+        let f = plausibility(&g, &r).unwrap();
+        let m = f.message.to_string();
+        assert_eq!(f.severity, crate::io::error::Severity::Error);
+        assert!(m.contains("read as millimetres it would be 2.0"), "{m}");
+        assert!(!m.contains("centimetres") && !m.contains("feet"), "{m}");
+        // Readings in feet (0.3048 m) declared metres, zero at chart datum: levels 3.28 × too
+        // large (median 6.56 m, 4.56 m off).
+        let (g, r) = record_of(HeightUnit::Metre, 0.0, |l| l / 0.3048);
+        let m = plausibility(&g, &r).unwrap().message.to_string();
+        assert!(m.contains("read as feet it would be 2.0"), "{m}");
+        assert!(m.contains("set units = \"ft\""), "{m}");
+        // 0.7 m off with a 2 m range: beyond max(0.5, 2/4) = 0.5 m, within max(1.0, 2/2) =
+        // 1.0 m: a warning, and no re-reading fits.
+        let (g, r) = record_of(HeightUnit::Metre, -0.8, |l| l + 0.8 + 0.7);
+        let f = plausibility(&g, &r).unwrap();
+        assert_eq!(f.severity, crate::io::error::Severity::Warning);
+        assert!(
+            f.message.to_string().contains("check units"),
+            "{}",
+            f.message
+        );
     }
 
     #[test]

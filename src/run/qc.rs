@@ -9,6 +9,7 @@
 //! A run limited to one gauge X writes X's files, `gauge-differences.X.csv` and
 //! `qc-summary.X.json` ([`summary_file_name`]), and leaves the whole project's files alone.
 
+use crate::io::text::QcDetail;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
@@ -265,7 +266,16 @@ pub fn write_gauge_qc(
         if !notes.is_empty() {
             let d: Vec<String> = notes
                 .iter()
-                .map(|n| format!("{}: {}", n.flag.as_str(), n.reason))
+                .map(|n| {
+                    format!(
+                        "{}: {}",
+                        n.flag.as_str(),
+                        QcDetail {
+                            reason: &n.reason,
+                            lines: &r.lines
+                        }
+                    )
+                })
                 .collect();
             crate::io::soundings::push_csv_field_string(&mut text, &d.join("; "));
         }
@@ -312,7 +322,11 @@ pub fn write_gauge_qc(
             tide_m: levels_above_datum.then_some(r.heights_m[n.sample]),
             level_above_record_zero_m: (!levels_above_datum).then_some(r.heights_m[n.sample]),
             flag: n.flag.as_str(),
-            detail: n.reason.to_string(),
+            detail: QcDetail {
+                reason: &n.reason,
+                lines: &r.lines,
+            }
+            .to_string(),
         })
         .collect();
     Ok(GaugeQcSummary {

@@ -158,7 +158,7 @@ fn unusable_inputs_stop_the_run_with_file_line_and_field() {
 fn a_gauge_record_in_feet_without_saying_so_is_caught() {
     let p =
         MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
-    // Readings of about 1.1 m written in feet (÷ 0.3048 ≈ 3.6): the record's mean level above
+    // Readings of about 1.1 m written in feet (÷ 0.3048 ≈ 3.6): the record's median level above
     // chart datum comes out near 4.6 m against the stated 2.1 m; read as feet it is 2.1 m.
     let mut g = String::from("time,height\n");
     for m in (0..=240).step_by(6) {
@@ -174,7 +174,7 @@ fn a_gauge_record_in_feet_without_saying_so_is_caught() {
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
     let err = stderr(&o);
     assert!(
-        err.contains("g1.csv: field 'height': the record's mean level is 4.6"),
+        err.contains("g1.csv: field 'height': the record's median level is 4.6"),
         "{err}"
     );
     assert!(err.contains("read as feet it would be 2.1"), "{err}");

@@ -1,6 +1,6 @@
 //! `ebbwise check` reports each problem with file, line and field, and fails only on errors.
 
-use super::{ebbwise, stderr, MiniProject, MINI_PROJECT, MINI_ZONING};
+use super::{ebbwise, ebbwise_in, stderr, MiniProject, MINI_PROJECT, MINI_ZONING};
 
 const GOOD: &str = "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n2026-06-14T01:10:00Z,10.015,50.005,10.0,L1\n";
 
@@ -99,19 +99,57 @@ fn gauge_times_out_of_order_and_nan_heights() {
     let (code, err) = check(&p);
     assert_eq!(code, Some(1));
     assert!(
-        err.contains("g1.csv:4: field 'time': time '2026-06-14T00:06:00Z' is duplicated"),
+        err.contains("g1.csv:4: field 'time': time '2026-06-14T00:06:00Z' and its reading repeat line 3: quality control sets the sample aside"),
         "{err}"
     );
-    assert!(err.contains("g1.csv:5: field 'time': time '2026-06-14T00:03:00Z' is earlier than the previous sample"), "{err}");
+    // The kept sample before line 5 is line 3 (line 4 is the repeat set aside).
+    assert!(err.contains("g1.csv:5: field 'time': time '2026-06-14T00:03:00Z' is earlier than that of line 3 ('2026-06-14T00:06:00Z') before it"), "{err}");
+    // A NaN reading is named and set aside; the check does not stop at it.
     p.write(
         "g1.csv",
-        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,NaN\n",
+        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,NaN\n2026-06-14T00:12:00Z,1.2\n",
     );
     let (_, err) = check(&p);
     assert!(
-        err.contains("g1.csv:3: field 'height': expected a finite number, found 'NaN'"),
+        err.contains("g1.csv:3: field 'height': reading 'NaN' is not a finite number: quality control sets the sample aside"),
         "{err}"
     );
+    assert!(
+        err.contains("quality control set aside 1 of 3 samples (1 out_of_band)"),
+        "{err}"
+    );
+}
+
+/// A project run as `./project.toml` whose record lies in a sibling folder (`../shared/g1.csv`):
+/// messages name the record as written, without a `./` before the `..`.
+#[test]
+fn a_path_out_of_the_project_folder_is_printed_as_written() {
+    let p = MiniProject::new(GOOD);
+    let day = p.path("day");
+    let shared = p.path("shared");
+    std::fs::create_dir_all(&day).unwrap();
+    std::fs::create_dir_all(&shared).unwrap();
+    let record = std::fs::read_to_string(p.path("g1.csv")).unwrap();
+    // A NaN reading at 00:12 (line 4), so that a warning names the record.
+    let record = record.replace("2026-06-14T00:12:00Z,1.012", "2026-06-14T00:12:00Z,NaN");
+    std::fs::write(shared.join("g1.csv"), record).unwrap();
+    for f in ["zoning.geojson", "s.csv"] {
+        std::fs::copy(p.path(f), day.join(f)).unwrap();
+    }
+    std::fs::write(
+        day.join("project.toml"),
+        MINI_PROJECT.replace("record = \"g1.csv\"", "record = \"./../shared/g1.csv\""),
+    )
+    .unwrap();
+    let o = ebbwise_in(&day, &["check", "./project.toml"]);
+    let err = stderr(&o);
+    assert!(
+        err.contains(
+            "warning: ../shared/g1.csv:4: field 'height': reading 'NaN' is not a finite number"
+        ),
+        "{err}"
+    );
+    assert!(!err.contains("./../"), "{err}");
 }
 
 #[test]

@@ -224,8 +224,9 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
     let dup_utc = f["duplicated_time_utc"].as_str().unwrap();
 
     // The expected flags per file line, from reading the record ourselves (line 1 is the
-    // header). Design (docs/qc.md): the first reading of a flat run stays; of two rows with the
-    // same time the later one is the duplicate.
+    // header). Design (docs/qc.md): the first reading of a flat run stays; two rows with the
+    // same time and different readings are both set aside (the demo project chooses
+    // `duplicate_time_conflict = "set_both_aside"`).
     let text = std::fs::read_to_string(root.join("gauges/skellan.csv")).unwrap();
     let rows: Vec<(u64, &str, f64)> = text
         .lines()
@@ -260,6 +261,8 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
     }
     let dups: Vec<_> = rows.iter().filter(|r| r.1 == dup_utc).collect();
     assert_eq!(dups.len(), 2);
+    assert_ne!(dups[0].2, dups[1].2, "the two readings differ");
+    expected.insert(dups[0].0, "duplicate_time".to_string());
     expected.insert(dups[1].0, "duplicate_time".to_string());
 
     let skellan_csv = out.path().join("skellan.qc.csv");
@@ -340,7 +343,7 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
     let sk = gauge_summary(&s, "skellan");
     assert_eq!(sk["flags"]["spike"], 1);
     assert_eq!(sk["flags"]["flat_line"], (stuck.len() - 1) as u64);
-    assert_eq!(sk["flags"]["duplicate_time"], 1);
+    assert_eq!(sk["flags"]["duplicate_time"], 2);
     let first = &sk["first_flagged"][0];
     assert_eq!(
         (first["line"].as_u64(), first["flag"].as_str()),
@@ -353,7 +356,7 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
     for (flag, n) in [
         ("spike", 1),
         ("flat_line", stuck.len() - 1),
-        ("duplicate_time", 1),
+        ("duplicate_time", 2),
         ("level_shift", 0),
     ] {
         let entry = format!(">{flag} ({n})</text>");

@@ -1,6 +1,6 @@
 //! Fuzz target: the gauge-record reader, with a flag column and null values configured, then
-//! quality control and the series the reducer would use: it must hold only finite, strictly
-//! increasing samples, and QC must give one flag set per sample.
+//! quality control and the series the reducer would use, with and without QC: each must hold
+//! only finite, strictly increasing samples, and QC must give one flag set per sample.
 #![no_main]
 use libfuzzer_sys::fuzz_target;
 use ebbwise::io::project::{GaugeSpec, HeightUnit};
@@ -32,7 +32,10 @@ fuzz_target!(|data: &[u8]| {
     };
     let offset = chrono::FixedOffset::east_opt(3600);
     if let Ok(r) = ebbwise::io::gauge_csv::parse_gauge_record(data, std::path::Path::new("g.csv"), &spec, offset) {
-        assert!(r.heights_m.iter().all(|h| h.is_finite()));
+        // Readings may be NaN or infinite (QC sets them aside); the series never holds one.
+        let s = r.increasing_series();
+        assert!(s.times_s.windows(2).all(|w| w[0] < w[1]));
+        assert!(s.heights_m.iter().all(|h| h.is_finite()));
         let qc = ebbwise::io::project::QcSpec::default();
         let p = ebbwise::run::load::prepare_series(
             &qc,
