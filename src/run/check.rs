@@ -6,6 +6,11 @@
 //! unknown CRS codes, gauge records out of time order or not spanning the soundings' times, rows
 //! that cannot be read. Warnings: soundings outside every zone and the uncovered area, gauge gaps
 //! longer than the maximum gap inside the survey period, skipped gauge samples.
+//!
+//! One problem hides no other: every value of the project file and every feature of the zoning
+//! is checked, the soundings are read even when the zoning or the gauges have errors, and a
+//! warning names what could not be checked because of them. The outputs a reduction would write
+//! are checked against the inputs and each other before anything is written.
 
 use std::fs::File;
 
