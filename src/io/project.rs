@@ -965,6 +965,46 @@ columns = { time = "time", x = "lon", y = "lat", depth = "depth" }
         assert!(msg.contains("zero_offset"), "{msg}");
     }
 
+    /// Every value out of its bounds is reported, in file order, not only the first; each bound
+    /// accepts its limit and refuses just beyond it (limits: the constants above and those of
+    /// `compute::uncertainty`, common practice).
+    #[test]
+    fn every_bad_value_is_reported_and_each_bound_is_inclusive() {
+        let text = MINIMAL
+            .replace("lat = 50.0", "lat = -90.5")
+            .replace("units = \"m\"", "units = \"m\"\nmax_gap_min = 361\nu_datum_m = 1.5")
+            + "[qc]\nshift_window_min = 1441\n[uncertainty]\nsounding_b = 0.5\ndefault_u_range_ratio = 0.51\n";
+        let errors = Project::from_str_all(&text, Path::new("p.toml")).unwrap_err();
+        let got: Vec<String> = errors.iter().map(|e| e.to_string()).collect();
+        assert_eq!(
+            got,
+            vec![
+                "p.toml: field 'gauge[0].lat': latitude -90.5 is beyond ±90° (WGS 84 degrees)",
+                "p.toml: field 'gauge[0].max_gap_min': 361 min is beyond the plausible 360 min: a longer gap holds a whole high or low water that interpolation cannot see",
+                "p.toml: field 'gauge[0].u_datum_m': standard uncertainty 1.5 m is beyond the plausible 1 m (centimetres or millimetres instead of metres?)",
+                "p.toml: field 'qc.shift_window_min': 1441 min is beyond the plausible 1440 min: a window longer than a day no longer describes one part of a tide",
+                "p.toml: field 'uncertainty.sounding_b': standard uncertainty 0.5 is beyond the plausible 0.05 (a percentage instead of a fraction?)",
+                "p.toml: field 'uncertainty.default_u_range_ratio': standard uncertainty 0.51 is beyond the plausible 0.5 (a percentage instead of a ratio?)",
+            ]
+        );
+        // The first of them is `from_str_at`'s error.
+        assert_eq!(
+            Project::from_str_at(&text, Path::new("p.toml"))
+                .unwrap_err()
+                .to_string(),
+            got[0]
+        );
+        // At the limits, everything is accepted.
+        let text = MINIMAL
+            .replace("lat = 50.0", "lat = -90.0")
+            .replace(
+                "units = \"m\"",
+                "units = \"m\"\nmax_gap_min = 360\nu_datum_m = 1.0\nlowpass_cutoff_min = 180",
+            )
+            + "[qc]\nshift_window_min = 1440\n[uncertainty]\nsounding_b = 0.05\ndefault_u_range_ratio = 0.5\ndefault_u_time_corrector_min = 60\n[[uncertainty.custom_order]]\nname = \"loose\"\na_m = 2.0\nb = 0.05\n";
+        Project::from_str_all(&text, Path::new("p.toml")).unwrap();
+    }
+
     #[test]
     fn bad_units_and_offset_are_named() {
         let text = MINIMAL.replace("units = \"m\"", "units = \"yards\"");

@@ -746,6 +746,64 @@ mod tests {
         );
     }
 
+    /// Problems in several properties of several features are all reported, each at its
+    /// feature and field; the features with problems are left out, the others kept.
+    #[test]
+    fn every_problem_of_every_feature_is_reported() {
+        let text = ONE
+            .replace(
+                "\"range_ratio\":1.05",
+                "\"range_ratio\":\"big\",\"u_zone_m\":-0.1",
+            )
+            .replace("\"weight\":0.3", "\"weight\":0")
+            .replace("\"range_ratio\":0.9", "\"range_ratio\":0.9,\"gauge2\":1");
+        let z = parse_zoning_all(text.as_bytes(), Path::new("z.geojson")).unwrap();
+        let got: Vec<String> = z.errors.iter().map(|f| f.to_string()).collect();
+        assert_eq!(
+            got,
+            vec![
+                "error: z.geojson: field 'features[0].properties.range_ratio': zone 'A': expected a number, found \"big\"",
+                "error: z.geojson: field 'features[0].properties.u_zone_m': zone 'A': a standard uncertainty cannot be negative, found -0.1",
+                "error: z.geojson: field 'features[1].properties.feeds[1].weight': zone 'B': a weight must be above 0, found 0 (a feed that adds nothing still needs the gauge's level: remove it)",
+            ]
+        );
+        assert_eq!(z.left_out, vec![0, 1]);
+        assert!(z.zones.is_empty());
+        // The strict reader's error is the first of them.
+        assert_eq!(format!("error: {}", parse(&text).unwrap_err()), got[0]);
+        // One feature fixed: it is kept, the other still left out.
+        let text = text.replace(
+            "\"range_ratio\":\"big\",\"u_zone_m\":-0.1",
+            "\"range_ratio\":1.05",
+        );
+        let z = parse_zoning_all(text.as_bytes(), Path::new("z.geojson")).unwrap();
+        assert_eq!((z.errors.len(), z.left_out.clone()), (1, vec![1]));
+        assert_eq!(z.zones[0].id, "A");
+    }
+
+    /// Each bound of a zone's numbers accepts its limit and refuses just beyond it (limits of
+    /// `compute::zoning` and `compute::uncertainty`, common practice).
+    #[test]
+    fn zone_bounds_are_inclusive() {
+        for (props, refused) in [
+            ("\"mean_level_above_datum_m\":-100", false),
+            ("\"mean_level_above_datum_m\":-100.5", true),
+            ("\"u_time_corrector_min\":60", false),
+            ("\"u_time_corrector_min\":60.5", true),
+            ("\"u_range_ratio\":0.5", false),
+            ("\"u_range_ratio\":0.6", true),
+            ("\"u_zone_m\":1", false),
+            ("\"u_zone_m\":1.01", true),
+        ] {
+            let text = ONE.replace(
+                "\"range_ratio\":1.05",
+                &format!("\"range_ratio\":1.05,{props}"),
+            );
+            let z = parse_zoning_all(text.as_bytes(), Path::new("z.geojson")).unwrap();
+            assert_eq!(!z.errors.is_empty(), refused, "{props}: {:?}", z.errors);
+        }
+    }
+
     #[test]
     fn unclosed_rings_are_recorded() {
         let z = parse(&ONE.replace("[[[0,0],[1,0],[1,1],[0,0]]]", "[[[0,0],[1,0],[1,1],[0,1]]]"))
