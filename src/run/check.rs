@@ -25,6 +25,7 @@ use crate::io::error::{Finding, Position, Severity};
 use crate::io::project::Project;
 use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
 use crate::io::timefmt::utc_label;
+use crate::io::zoning_geojson::{read_zoning_all, ZoningSpec};
 
 pub use super::load::{geodesic_area_m2, OVERLAP_ERROR_M2};
 
@@ -117,13 +118,27 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             ));
         }
     }
+    // The zoning the soundings are located in: the loaded one, or, when the project did not
+    // load for other reasons (a gauge record, a zone naming an unknown gauge), the zoning read
+    // on its own if it has no error itself.
+    let zoning: Option<ZoningSpec> = match &loaded {
+        Some(l) => Some(l.zoning.clone()),
+        None => read_zoning_all(&project.spec.zoning)
+            .ok()
+            .filter(|z| z.errors.is_empty()),
+    };
     if let Some(l) = &loaded {
         report.findings.extend(l.warnings.iter().cloned());
     } else {
-        // The soundings are still read below (layout, every row), without the zoning.
+        // The soundings are still read below (layout, every row), with the zoning when it can be.
+        let what = if zoning.is_some() {
+            "whether the gauge records span the survey and have gaps inside it"
+        } else {
+            "whether the soundings lie inside the zoning, the soundings' extent no zone covers, and whether the gauge records span the survey and have gaps inside it"
+        };
         report.findings.push(Finding::warning(
             Position::file(&project.path),
-            "not checked because of the errors above: whether the soundings lie inside the zoning, the soundings' extent no zone covers, and whether the gauge records span the survey and have gaps inside it",
+            format!("not checked because of the errors above: {what}"),
         ));
     }
     if let Some(loaded) = &loaded {
@@ -141,9 +156,8 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
         }
     }
     // Overlapping zones are found by `load`, for every command alike.
-    let zoning_union: Option<MultiPolygon<f64>> = loaded.as_ref().map(|l| {
-        l.zoning
-            .zones
+    let zoning_union: Option<MultiPolygon<f64>> = zoning.as_ref().map(|z| {
+        z.zones
             .iter()
             .fold(MultiPolygon(vec![]), |acc, z| acc.union(&z.polygon_lonlat))
     });
@@ -152,10 +166,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
         if !crs_ok[gi] {
             continue;
         }
-        let locator = match loaded
-            .as_ref()
-            .map(|l| locator_for_crs(&l.zoning, &group.crs))
-        {
+        let locator = match zoning.as_ref().map(|z| locator_for_crs(z, &group.crs)) {
             None => None,
             Some(Ok(l)) => Some(l),
             Some(Err(m)) => {

@@ -329,3 +329,35 @@ fn check_lists_every_zoning_problem_and_what_it_could_not_check() {
         "{err}"
     );
 }
+
+/// A gauge record that cannot be read stops the load, but not the soundings pass: with a zoning
+/// that has no error of its own, the soundings are still located (one of the two lies outside
+/// every zone), and only the gauge spans are named as not checked.
+#[test]
+fn a_bad_gauge_record_does_not_hide_the_soundings_outside_the_zoning() {
+    let p = MiniProject::new(
+        "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n2026-06-14T01:10:00Z,10.5,50.005,10.0,L1\n",
+    );
+    p.write(
+        "g1.csv",
+        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,x\n",
+    );
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1), "{err}");
+    assert!(
+        err.contains("g1.csv:3: field 'height': expected a number, found 'x'"),
+        "{err}"
+    );
+    assert!(
+        err.contains("s.csv:3: 1 sounding(s) lie outside every zone (first on this line)"),
+        "{err}"
+    );
+    assert!(
+        err.contains("not checked because of the errors above: whether the gauge records span the survey and have gaps inside it"),
+        "{err}"
+    );
+    assert!(
+        !err.contains("whether the soundings lie inside the zoning"),
+        "{err}"
+    );
+}
