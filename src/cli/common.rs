@@ -20,13 +20,33 @@ pub fn print_findings(findings: &[Finding]) {
 
 /// Loads a project and its inputs; on errors prints them and fails with [`Reported`].
 pub fn load_or_report(project_path: &Path) -> anyhow::Result<Loaded> {
-    let project = Project::load(project_path)?;
+    let project = load_project_or_report(project_path, "run")?;
     match load(project, None) {
         Ok(l) => Ok(l),
         Err(findings) => {
             print_findings(&findings);
             eprintln!(
                 "ebbwise: cannot run: fix the errors above (`ebbwise check` lists every problem)"
+            );
+            Err(Reported.into())
+        }
+    }
+}
+
+/// Reads the project file; on failure prints every problem of it and that `what` cannot go on.
+pub fn load_project_or_report(project_path: &Path, what: &str) -> anyhow::Result<Project> {
+    match Project::load_all(project_path) {
+        Ok(p) => Ok(p),
+        // One problem (a missing or unreadable file, a TOML error) is said as the error itself.
+        Err(mut errors) if errors.len() == 1 => Err(errors.remove(0).into()),
+        Err(errors) => {
+            let findings: Vec<_> = errors
+                .into_iter()
+                .map(ebbwise::io::error::Finding::from)
+                .collect();
+            print_findings(&findings);
+            eprintln!(
+                "ebbwise: cannot {what}: fix the errors above (`ebbwise check` lists every problem)"
             );
             Err(Reported.into())
         }

@@ -93,14 +93,21 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
 /// The QC summary, on stderr.
 fn print_qc(s: &QcSummary) {
     let mut o = std::io::stderr().lock();
+    if s.qc_in_reductions == Some(false) {
+        let _ = writeln!(
+            o,
+            "warning: quality control ran on the records here, but the project sets [qc] enabled = false: its reductions use every sample unchecked, including those set aside below"
+        );
+    }
     for g in &s.gauges {
         let _ = writeln!(
             o,
-            "gauge {}: {} samples every {:.1} min, {} usable; noise σ {:.4} m; interpolation {}{}",
+            "gauge {}: {} samples every {:.1} min, {} usable, {} set aside by quality control; noise σ {:.4} m; interpolation {}{}",
             g.gauge,
             g.samples,
             g.method.nominal_step_min,
             g.usable,
+            g.set_aside,
             g.noise_sigma_m,
             g.method.interpolation,
             g.method

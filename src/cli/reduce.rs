@@ -5,14 +5,13 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use ebbwise::io::atomic::write_atomic;
-use ebbwise::io::project::Project;
 use ebbwise::io::report_html::render_html;
-use ebbwise::run::load::load;
+use ebbwise::run::load::{load, output_clashes};
 use ebbwise::run::qa_report::build_qa_report;
-use ebbwise::run::reduce::{reduce_project, ReduceOptions, RunKind, RunSummary};
+use ebbwise::run::reduce::{reduce_project, run_outputs, ReduceOptions, RunKind, RunSummary};
 use ebbwise::CAUTION;
 
-use super::common::{out_folder, print_findings};
+use super::common::{load_project_or_report, out_folder, print_findings};
 use super::progress::TerminalBar;
 use super::{Outcome, Reported};
 
@@ -67,7 +66,7 @@ pub fn reduce_and_report(
     order: Option<&str>,
     no_uncertainty: bool,
 ) -> anyhow::Result<(RunSummary, PathBuf)> {
-    let project = Project::load(project_path)?;
+    let project = load_project_or_report(project_path, "reduce")?;
     let out_dir = out.unwrap_or_else(|| project.spec.output.dir.clone());
     let name = project.spec.name.clone();
     let loaded = match load(project, order) {
@@ -89,6 +88,18 @@ pub fn reduce_and_report(
             return Err(Reported.into());
         }
     };
+    let clashes = output_clashes(
+        &loaded.project,
+        &run_outputs(&loaded.project, &out_dir, RunKind::Reduce, None),
+        &[],
+    );
+    if !clashes.is_empty() {
+        print_findings(&clashes);
+        eprintln!(
+            "ebbwise: cannot reduce: fix the errors above (`ebbwise check` lists every problem)"
+        );
+        return Err(Reported.into());
+    }
     print_findings(&loaded.warnings);
     let bar = TerminalBar::default();
     let summary = reduce_project(

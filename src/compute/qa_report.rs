@@ -146,12 +146,28 @@ pub struct QaReport {
     pub tide_series: Vec<ZoneTideSeries>,
     /// The uncertainty inputs used.
     pub inputs: UncertaintyInputs,
+    /// Whether gauge quality control ran in this reduction (`[qc] enabled`).
+    pub qc_ran: bool,
+    /// Per gauge, project order: how many samples quality control set aside.
+    pub qc_gauges: Vec<GaugeQc>,
     /// Map points (HTML only).
     #[serde(skip)]
     pub map_points: Vec<MapPoint>,
     /// Zone polygons, lon/lat (HTML only).
     #[serde(skip)]
     pub zone_polygons: Vec<(String, geo::MultiPolygon<f64>)>,
+}
+
+/// What quality control did to one gauge's record in the reduction.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct GaugeQc {
+    /// Gauge id.
+    pub gauge: String,
+    /// Samples in the record (rows with a time and a reading).
+    pub samples: usize,
+    /// Samples quality control set aside (not used, and none flagged for its level is
+    /// interpolated across); `None` when QC did not run, and every sample was used unchecked.
+    pub set_aside: Option<usize>,
 }
 
 /// The entry of `failing_zones` or `failing_lines` for a group that has soundings and does

@@ -36,6 +36,35 @@
 use super::series::TimeInterpolation;
 use super::zoning::{FeedState, Gauge, MeanLevelForm, Zone};
 
+/// Largest standard uncertainty of a height input accepted, metres (`u_gauge_m`, `u_datum_m`,
+/// `u_zone_m`, `sounding_a_m` and their defaults). S-44's loosest order (Order 2) allows
+/// a = 1.0 m at 95 %, about 0.5 m standard for the whole vertical budget: one component of
+/// more than 1 m standard fails every order at every depth and is a slip of units (centimetres
+/// or millimetres written as metres). Common practice, with S-44 Edition 6.1.0 Table 1.
+pub const U_HEIGHT_REFUSED_ABOVE_M: f64 = 1.0;
+
+/// Largest standard uncertainty of a time corrector accepted, minutes. Time correctors are
+/// themselves refused beyond ±360 min and warned beyond ±120 min; an uncertainty above an hour
+/// is a slip of units (seconds written as minutes). Common practice.
+pub const U_TIME_CORRECTOR_REFUSED_ABOVE_MIN: f64 = 60.0;
+
+/// Largest standard uncertainty of a range ratio accepted (dimensionless). Range ratios lie in
+/// 0.2 to 5; an uncertainty above 0.5 is a percentage written as a ratio (3 for 0.03). Common
+/// practice.
+pub const U_RANGE_RATIO_REFUSED_ABOVE: f64 = 0.5;
+
+/// Largest depth-proportional standard uncertainty `b` of the sounding model accepted
+/// (dimensionless): 5 % of the depth, standard, is more than four times S-44 Order 2's
+/// b = 0.023 at 95 %; a larger value is a percentage written as a fraction. Common practice,
+/// with S-44 Edition 6.1.0 Table 1.
+pub const U_SOUNDING_B_REFUSED_ABOVE: f64 = 0.05;
+
+/// Largest `a` (metres, 95 %) and `b` (95 %) of a custom survey order accepted: twice S-44's
+/// loosest order (Order 2: a = 1.0 m, b = 0.023). A looser order judges nothing, and such values
+/// are slips of units (centimetres for metres, percent for fractions). Common practice, with
+/// S-44 Edition 6.1.0 Table 1.
+pub const CUSTOM_ORDER_REFUSED_ABOVE: (f64, f64) = (2.0, 0.05);
+
 /// Coverage factor for a 95 % interval of a one-dimensional normal quantity (GUM §6.3, G.1).
 pub const K95: f64 = 1.96;
 

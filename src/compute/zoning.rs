@@ -34,6 +34,18 @@ pub const TIME_CORRECTOR_WARNED_ABOVE_MIN: f64 = 120.0;
 /// is a mistake (a percentage, a range instead of a ratio). Common practice.
 pub const RANGE_RATIO_BAND: (f64, f64) = (0.2, 5.0);
 
+/// Largest zone mean level accepted, metres (|M_z| above chart datum). The greatest tidal
+/// ranges on Earth are about 16 m, and chart datums lie near the lowest tides, so a mean level
+/// more than 100 m from chart datum is a slip of units (centimetres, millimetres) or of sign.
+/// Common practice.
+pub const ZONE_MEAN_LEVEL_REFUSED_ABOVE_M: f64 = 100.0;
+
+/// Smallest gauge weight accepted in a zone fed by several gauges. A weight of zero adds nothing
+/// to the tide but still needs a level from the gauge at every time (a gap there would leave the
+/// sounding without tide), so it is refused: remove the feed instead. Weights must be above this
+/// and sum to 1.
+pub const FEED_WEIGHT_MIN_EXCLUSIVE: f64 = 0.0;
+
 /// A tide gauge as the computation needs it.
 #[derive(Debug, Clone)]
 pub struct Gauge {

@@ -563,16 +563,29 @@ pub struct Project {
 }
 
 impl Project {
-    /// Reads and checks a project file.
+    /// Reads and checks a project file; the first problem is the error (see [`Project::load_all`]).
     pub fn load(path: &Path) -> Result<Project, IoError> {
-        let text = std::fs::read_to_string(path).map_err(|e| IoError::file(path, e))?;
-        Self::from_str_at(&text, path)
+        Self::load_all(path).map_err(first)
     }
 
-    /// Parses project text as if read from `path`.
+    /// Reads and checks a project file, reporting every problem of its values: a file that is
+    /// not TOML or has an unknown key gives that one error; otherwise every value out of its
+    /// bounds is listed.
+    pub fn load_all(path: &Path) -> Result<Project, Vec<IoError>> {
+        let text = std::fs::read_to_string(path).map_err(|e| vec![IoError::file(path, e)])?;
+        Self::from_str_all(&text, path)
+    }
+
+    /// Parses project text as if read from `path`; the first problem is the error.
     pub fn from_str_at(text: &str, path: &Path) -> Result<Project, IoError> {
+        Self::from_str_all(text, path).map_err(first)
+    }
+
+    /// Parses project text as if read from `path`, reporting every problem (see
+    /// [`Project::load_all`]).
+    pub fn from_str_all(text: &str, path: &Path) -> Result<Project, Vec<IoError>> {
         let mut spec: ProjectFile =
-            toml::from_str(text).map_err(|e| IoError::from_toml(&e, text, path))?;
+            toml::from_str(text).map_err(|e| vec![IoError::from_toml(&e, text, path)])?;
         // The folder as the user wrote it ("" for a bare file name): paths are shown as typed.
         let parent = path.parent().unwrap_or(Path::new(""));
         let dir = if parent.as_os_str().is_empty() {
@@ -580,181 +593,23 @@ impl Project {
         } else {
             parent.to_path_buf()
         };
-        let at = |field: &str| Position::file(path).field(field.to_string());
+        let mut errors = Vec::new();
         let naive_offset = match &spec.naive_time_utc_offset {
-            Some(s) => Some(
-                parse_offset(s).map_err(|m| IoError::content(at("naive_time_utc_offset"), m))?,
-            ),
+            Some(s) => match parse_offset(s) {
+                Ok(o) => Some(o),
+                Err(m) => {
+                    errors.push(IoError::content(
+                        Position::file(path).field("naive_time_utc_offset"),
+                        m,
+                    ));
+                    None
+                }
+            },
             None => None,
         };
-        if spec.gauges.is_empty() {
-            return Err(IoError::content(
-                at("gauge"),
-                "the project names no gauge ([[gauge]] tables)",
-            ));
-        }
-        let mut seen = std::collections::HashSet::new();
-        for (i, g) in spec.gauges.iter().enumerate() {
-            let f = |k: &str| at(&format!("gauge[{i}].{k}"));
-            if !seen.insert(g.id.clone()) {
-                return Err(IoError::content(
-                    f("id"),
-                    format!("gauge id '{}' is used twice", g.id),
-                ));
-            }
-            for (k, v) in [
-                ("zero_above_datum_m", g.zero_above_datum_m),
-                ("mean_level_above_datum_m", g.mean_level_above_datum_m),
-                ("lon", g.lon),
-                ("lat", g.lat),
-            ] {
-                if !v.is_finite() {
-                    return Err(IoError::content(f(k), "expected a finite number"));
-                }
-            }
-            for (k, v) in [
-                ("zero_above_datum_m", g.zero_above_datum_m),
-                ("mean_level_above_datum_m", g.mean_level_above_datum_m),
-            ] {
-                if v.abs() > GAUGE_LEVEL_LIMIT_M {
-                    let shown = if v.abs() < 1e6 {
-                        format!("{v}")
-                    } else {
-                        format!("{v:e}")
-                    };
-                    return Err(IoError::content(
-                        f(k),
-                        format!(
-                            "{shown} m is not a plausible height relative to chart datum (beyond ±{GAUGE_LEVEL_LIMIT_M} m): is it in millimetres or centimetres, or mistyped?"
-                        ),
-                    ));
-                }
-            }
-            if !(g.max_gap_min.is_finite() && g.max_gap_min > 0.0) {
-                return Err(IoError::content(
-                    f("max_gap_min"),
-                    format!(
-                        "expected a positive number of minutes, found {}",
-                        g.max_gap_min
-                    ),
-                ));
-            }
-            if let Some(o) = &g.naive_time_utc_offset {
-                parse_offset(o).map_err(|m| IoError::content(f("naive_time_utc_offset"), m))?;
-            }
-            if let Some(c) = g.lowpass_cutoff_min {
-                if !(c.is_finite() && c > 0.0) {
-                    return Err(IoError::content(
-                        f("lowpass_cutoff_min"),
-                        format!("expected a positive number of minutes, found {c}"),
-                    ));
-                }
-            }
-            for (k, v) in [("band_min_m", g.band_min_m), ("band_max_m", g.band_max_m)] {
-                if v.is_some_and(|v| !v.is_finite()) {
-                    return Err(IoError::content(f(k), "expected a finite number"));
-                }
-            }
-            if let (Some(a), Some(b)) = (g.band_min_m, g.band_max_m) {
-                if a >= b {
-                    return Err(IoError::content(
-                        f("band_max_m"),
-                        format!("the plausible band is empty: band_min_m {a} is not below band_max_m {b}"),
-                    ));
-                }
-            }
-        }
-        {
-            let q = &spec.qc;
-            let f = |k: &str| at(&format!("qc.{k}"));
-            for (k, v) in [
-                ("gap_factor", q.gap_factor),
-                ("spike_window_min", q.spike_window_min),
-                ("spike_k", q.spike_k),
-                ("spike_min_m", q.spike_min_m),
-                ("max_rate_m_per_h", q.max_rate_m_per_h),
-                ("rate_allowance_m", q.rate_allowance_m),
-                ("flat_min_duration_min", q.flat_min_duration_min),
-                ("shift_window_min", q.shift_window_min),
-                ("shift_k", q.shift_k),
-                ("shift_min_m", q.shift_min_m),
-                ("band_half_width_m", q.band_half_width_m),
-                ("compare_max_mean_m", q.compare_max_mean_m),
-                ("compare_max_drift_m_per_day", q.compare_max_drift_m_per_day),
-                ("compare_max_lag_min", q.compare_max_lag_min),
-                ("compare_lag_search_min", q.compare_lag_search_min),
-                ("compare_shift_window_min", q.compare_shift_window_min),
-            ] {
-                if !(v.is_finite() && v > 0.0) {
-                    return Err(IoError::content(
-                        f(k),
-                        format!("expected a positive number, found {v}"),
-                    ));
-                }
-            }
-        }
-        let c = spec.interpolation.cubic_above_step_min;
-        if !(c.is_finite() && c > 0.0) {
-            return Err(IoError::content(
-                at("interpolation.cubic_above_step_min"),
-                format!("expected a positive number of minutes, found {c}"),
-            ));
-        }
-        if let Some(u) = &spec.uncertainty {
-            let f = |k: &str| at(&format!("uncertainty.{k}"));
-            for (k, v) in [
-                ("sounding_a_m", u.sounding_a_m),
-                ("sounding_b", u.sounding_b),
-                ("default_u_gauge_m", u.default_u_gauge_m),
-                ("default_u_datum_m", u.default_u_datum_m),
-                (
-                    "default_u_time_corrector_min",
-                    u.default_u_time_corrector_min,
-                ),
-                ("default_u_range_ratio", u.default_u_range_ratio),
-                ("default_u_zone_m", u.default_u_zone_m),
-            ] {
-                if !(v.is_finite() && v >= 0.0) {
-                    return Err(IoError::content(
-                        f(k),
-                        format!("expected a standard uncertainty ≥ 0, found {v}"),
-                    ));
-                }
-            }
-            if !(u.acceptance_share > 0.0 && u.acceptance_share <= 1.0) {
-                return Err(IoError::content(
-                    f("acceptance_share"),
-                    format!("expected a share in (0, 1], found {}", u.acceptance_share),
-                ));
-            }
-            for (i, c) in u.custom_orders.iter().enumerate() {
-                if !(c.a_m.is_finite() && c.a_m > 0.0 && c.b.is_finite() && c.b >= 0.0) {
-                    return Err(IoError::content(
-                        f(&format!("custom_order[{i}]")),
-                        "expected a_m > 0 and b ≥ 0 (metres, 95 %)",
-                    ));
-                }
-            }
-        }
-        for (i, g) in spec.gauges.iter().enumerate() {
-            for (k, v) in [("u_gauge_m", g.u_gauge_m), ("u_datum_m", g.u_datum_m)] {
-                if let Some(v) = v {
-                    if !(v.is_finite() && v >= 0.0) {
-                        return Err(IoError::content(
-                            at(&format!("gauge[{i}].{k}")),
-                            format!("expected a standard uncertainty ≥ 0, found {v}"),
-                        ));
-                    }
-                }
-            }
-        }
-        for (i, s) in spec.soundings.iter().enumerate() {
-            if s.files.is_empty() {
-                return Err(IoError::content(
-                    at(&format!("soundings[{i}].files")),
-                    "expected at least one file",
-                ));
-            }
+        validate(&spec, path, &mut errors);
+        if !errors.is_empty() {
+            return Err(errors);
         }
         spec.zoning = resolve(parent, &spec.zoning);
         spec.output.dir = resolve(parent, &spec.output.dir);
@@ -783,6 +638,288 @@ impl Project {
             .as_deref()
             .and_then(|s| parse_offset(s).ok())
             .or(self.naive_offset)
+    }
+}
+
+/// The first of a non-empty list of errors.
+fn first(errors: Vec<IoError>) -> IoError {
+    errors
+        .into_iter()
+        .next()
+        .expect("a failed project check reports at least one error")
+}
+
+/// Longest `max_gap_min` accepted, minutes: a gap of more than 6 h (half a semidiurnal
+/// period) holds a whole high or low water that no interpolation across it can see. Common
+/// practice.
+pub const MAX_GAP_REFUSED_ABOVE_MIN: f64 = 360.0;
+
+/// Longest `lowpass_cutoff_min` accepted, minutes: a low-pass filter removes periods shorter
+/// than its cut-off, and the shallow-water harmonics of the tide itself have periods from about
+/// 3 h (M8, 3.1 h); a longer cut-off would smooth the tide, not the noise. Common practice.
+pub const LOWPASS_CUTOFF_REFUSED_ABOVE_MIN: f64 = 180.0;
+
+/// Longest window or interval setting of `[qc]` and `[interpolation]` accepted, minutes: a day
+/// spans two semidiurnal tides, and a test window or step longer than that no longer describes
+/// one part of a tide. Common practice.
+pub const INTERVAL_REFUSED_ABOVE_MIN: f64 = 1440.0;
+
+/// Every problem of a parsed project file's values, in file order.
+fn validate(spec: &ProjectFile, path: &Path, errors: &mut Vec<IoError>) {
+    use crate::compute::uncertainty::{
+        CUSTOM_ORDER_REFUSED_ABOVE, U_HEIGHT_REFUSED_ABOVE_M, U_RANGE_RATIO_REFUSED_ABOVE,
+        U_SOUNDING_B_REFUSED_ABOVE, U_TIME_CORRECTOR_REFUSED_ABOVE_MIN,
+    };
+    let at = |field: &str| Position::file(path).field(field.to_string());
+    let mut err = |field: String, m: String| errors.push(IoError::content(at(&field), m));
+    if spec.gauges.is_empty() {
+        err(
+            "gauge".into(),
+            "the project names no gauge ([[gauge]] tables)".into(),
+        );
+    }
+    // A standard uncertainty: finite, ≥ 0 and at most `max` (with the likely slip named).
+    let u_check = |v: f64, max: f64, unit: &str, hint: &str| -> Option<String> {
+        if !(v.is_finite() && v >= 0.0) {
+            Some(format!("expected a standard uncertainty ≥ 0, found {v}"))
+        } else if v > max {
+            Some(format!(
+                "standard uncertainty {v}{unit} is beyond the plausible {max}{unit} ({hint}?)"
+            ))
+        } else {
+            None
+        }
+    };
+    const CM: &str = "centimetres or millimetres instead of metres";
+    // An interval in minutes: finite, > 0 and at most `max`.
+    let interval = |v: f64, max: f64, why: &str| -> Option<String> {
+        if !(v.is_finite() && v > 0.0) {
+            Some(format!("expected a positive number of minutes, found {v}"))
+        } else if v > max {
+            Some(format!("{v} min is beyond the plausible {max} min: {why}"))
+        } else {
+            None
+        }
+    };
+    let mut seen = std::collections::HashSet::new();
+    for (i, g) in spec.gauges.iter().enumerate() {
+        let f = |k: &str| format!("gauge[{i}].{k}");
+        if !seen.insert(g.id.clone()) {
+            err(f("id"), format!("gauge id '{}' is used twice", g.id));
+        }
+        for (k, v) in [
+            ("zero_above_datum_m", g.zero_above_datum_m),
+            ("mean_level_above_datum_m", g.mean_level_above_datum_m),
+            ("lon", g.lon),
+            ("lat", g.lat),
+        ] {
+            if !v.is_finite() {
+                err(f(k), "expected a finite number".into());
+            }
+        }
+        for (k, v) in [
+            ("zero_above_datum_m", g.zero_above_datum_m),
+            ("mean_level_above_datum_m", g.mean_level_above_datum_m),
+        ] {
+            if v.is_finite() && v.abs() > GAUGE_LEVEL_LIMIT_M {
+                let shown = if v.abs() < 1e6 {
+                    format!("{v}")
+                } else {
+                    format!("{v:e}")
+                };
+                err(
+                    f(k),
+                    format!(
+                        "{shown} m is not a plausible height relative to chart datum (beyond ±{GAUGE_LEVEL_LIMIT_M} m): is it in millimetres or centimetres, or mistyped?"
+                    ),
+                );
+            }
+        }
+        if g.lon.is_finite() && !(-180.0..=180.0).contains(&g.lon) {
+            err(
+                f("lon"),
+                format!("longitude {} is beyond ±180° (WGS 84 degrees)", g.lon),
+            );
+        }
+        if g.lat.is_finite() && !(-90.0..=90.0).contains(&g.lat) {
+            err(
+                f("lat"),
+                format!("latitude {} is beyond ±90° (WGS 84 degrees)", g.lat),
+            );
+        }
+        if let Some(m) = interval(
+            g.max_gap_min,
+            MAX_GAP_REFUSED_ABOVE_MIN,
+            "a longer gap holds a whole high or low water that interpolation cannot see",
+        ) {
+            err(f("max_gap_min"), m);
+        }
+        if let Some(o) = &g.naive_time_utc_offset {
+            if let Err(m) = parse_offset(o) {
+                err(f("naive_time_utc_offset"), m.to_string());
+            }
+        }
+        if let Some(c) = g.lowpass_cutoff_min {
+            if let Some(m) = interval(
+                c,
+                LOWPASS_CUTOFF_REFUSED_ABOVE_MIN,
+                "a longer cut-off period smooths the tide itself (its shallow-water harmonics have periods from about 3 h)",
+            ) {
+                err(f("lowpass_cutoff_min"), m);
+            }
+        }
+        for (k, v) in [("band_min_m", g.band_min_m), ("band_max_m", g.band_max_m)] {
+            if v.is_some_and(|v| !v.is_finite()) {
+                err(f(k), "expected a finite number".into());
+            }
+        }
+        if let (Some(a), Some(b)) = (g.band_min_m, g.band_max_m) {
+            if a >= b {
+                err(
+                    f("band_max_m"),
+                    format!(
+                        "the plausible band is empty: band_min_m {a} is not below band_max_m {b}"
+                    ),
+                );
+            }
+        }
+        for (k, v) in [("u_gauge_m", g.u_gauge_m), ("u_datum_m", g.u_datum_m)] {
+            if let Some(m) = v.and_then(|v| u_check(v, U_HEIGHT_REFUSED_ABOVE_M, " m", CM)) {
+                err(f(k), m);
+            }
+        }
+    }
+    {
+        let q = &spec.qc;
+        let f = |k: &str| format!("qc.{k}");
+        for (k, v) in [
+            ("gap_factor", q.gap_factor),
+            ("spike_k", q.spike_k),
+            ("spike_min_m", q.spike_min_m),
+            ("max_rate_m_per_h", q.max_rate_m_per_h),
+            ("rate_allowance_m", q.rate_allowance_m),
+            ("shift_k", q.shift_k),
+            ("shift_min_m", q.shift_min_m),
+            ("band_half_width_m", q.band_half_width_m),
+            ("compare_max_mean_m", q.compare_max_mean_m),
+            ("compare_max_drift_m_per_day", q.compare_max_drift_m_per_day),
+        ] {
+            if !(v.is_finite() && v > 0.0) {
+                err(f(k), format!("expected a positive number, found {v}"));
+            }
+        }
+        for (k, v) in [
+            ("spike_window_min", q.spike_window_min),
+            ("flat_min_duration_min", q.flat_min_duration_min),
+            ("shift_window_min", q.shift_window_min),
+            ("compare_max_lag_min", q.compare_max_lag_min),
+            ("compare_lag_search_min", q.compare_lag_search_min),
+            ("compare_shift_window_min", q.compare_shift_window_min),
+        ] {
+            if let Some(m) = interval(
+                v,
+                INTERVAL_REFUSED_ABOVE_MIN,
+                "a window longer than a day no longer describes one part of a tide",
+            ) {
+                err(f(k), m);
+            }
+        }
+    }
+    if let Some(m) = interval(
+        spec.interpolation.cubic_above_step_min,
+        INTERVAL_REFUSED_ABOVE_MIN,
+        "a record step longer than a day cannot be interpolated into a tide",
+    ) {
+        err("interpolation.cubic_above_step_min".into(), m);
+    }
+    if let Some(u) = &spec.uncertainty {
+        let f = |k: &str| format!("uncertainty.{k}");
+        for (k, v, max, unit, hint) in [
+            (
+                "sounding_a_m",
+                u.sounding_a_m,
+                U_HEIGHT_REFUSED_ABOVE_M,
+                " m",
+                CM,
+            ),
+            (
+                "sounding_b",
+                u.sounding_b,
+                U_SOUNDING_B_REFUSED_ABOVE,
+                "",
+                "a percentage instead of a fraction",
+            ),
+            (
+                "default_u_gauge_m",
+                u.default_u_gauge_m,
+                U_HEIGHT_REFUSED_ABOVE_M,
+                " m",
+                CM,
+            ),
+            (
+                "default_u_datum_m",
+                u.default_u_datum_m,
+                U_HEIGHT_REFUSED_ABOVE_M,
+                " m",
+                CM,
+            ),
+            (
+                "default_u_time_corrector_min",
+                u.default_u_time_corrector_min,
+                U_TIME_CORRECTOR_REFUSED_ABOVE_MIN,
+                " min",
+                "seconds instead of minutes",
+            ),
+            (
+                "default_u_range_ratio",
+                u.default_u_range_ratio,
+                U_RANGE_RATIO_REFUSED_ABOVE,
+                "",
+                "a percentage instead of a ratio",
+            ),
+            (
+                "default_u_zone_m",
+                u.default_u_zone_m,
+                U_HEIGHT_REFUSED_ABOVE_M,
+                " m",
+                CM,
+            ),
+        ] {
+            if let Some(m) = u_check(v, max, unit, hint) {
+                err(f(k), m);
+            }
+        }
+        if !(u.acceptance_share > 0.0 && u.acceptance_share <= 1.0) {
+            err(
+                f("acceptance_share"),
+                format!("expected a share in (0, 1], found {}", u.acceptance_share),
+            );
+        }
+        let (a_max, b_max) = CUSTOM_ORDER_REFUSED_ABOVE;
+        for (i, c) in u.custom_orders.iter().enumerate() {
+            if !(c.a_m.is_finite() && c.a_m > 0.0 && c.b.is_finite() && c.b >= 0.0) {
+                err(
+                    f(&format!("custom_order[{i}]")),
+                    "expected a_m > 0 and b ≥ 0 (metres, 95 %)".into(),
+                );
+            } else if c.a_m > a_max || c.b > b_max {
+                err(
+                    f(&format!("custom_order[{i}]")),
+                    format!(
+                        "a_m = {} m, b = {} is looser than the plausible a_m ≤ {a_max} m, b ≤ {b_max} (twice S-44 Order 2; centimetres or percent?)",
+                        c.a_m, c.b
+                    ),
+                );
+            }
+        }
+    }
+    for (i, s) in spec.soundings.iter().enumerate() {
+        if s.files.is_empty() {
+            err(
+                format!("soundings[{i}].files"),
+                "expected at least one file".into(),
+            );
+        }
     }
 }
 
@@ -886,6 +1023,46 @@ columns = { time = "time", x = "lon", y = "lat", depth = "depth" }
         let msg = e.to_string();
         assert!(msg.starts_with("p.toml:10"), "{msg}");
         assert!(msg.contains("zero_offset"), "{msg}");
+    }
+
+    /// Every value out of its bounds is reported, in file order, not only the first; each bound
+    /// accepts its limit and refuses just beyond it (limits: the constants above and those of
+    /// `compute::uncertainty`, common practice).
+    #[test]
+    fn every_bad_value_is_reported_and_each_bound_is_inclusive() {
+        let text = MINIMAL
+            .replace("lat = 50.0", "lat = -90.5")
+            .replace("units = \"m\"", "units = \"m\"\nmax_gap_min = 361\nu_datum_m = 1.5")
+            + "[qc]\nshift_window_min = 1441\n[uncertainty]\nsounding_b = 0.5\ndefault_u_range_ratio = 0.51\n";
+        let errors = Project::from_str_all(&text, Path::new("p.toml")).unwrap_err();
+        let got: Vec<String> = errors.iter().map(|e| e.to_string()).collect();
+        assert_eq!(
+            got,
+            vec![
+                "p.toml: field 'gauge[0].lat': latitude -90.5 is beyond ±90° (WGS 84 degrees)",
+                "p.toml: field 'gauge[0].max_gap_min': 361 min is beyond the plausible 360 min: a longer gap holds a whole high or low water that interpolation cannot see",
+                "p.toml: field 'gauge[0].u_datum_m': standard uncertainty 1.5 m is beyond the plausible 1 m (centimetres or millimetres instead of metres?)",
+                "p.toml: field 'qc.shift_window_min': 1441 min is beyond the plausible 1440 min: a window longer than a day no longer describes one part of a tide",
+                "p.toml: field 'uncertainty.sounding_b': standard uncertainty 0.5 is beyond the plausible 0.05 (a percentage instead of a fraction?)",
+                "p.toml: field 'uncertainty.default_u_range_ratio': standard uncertainty 0.51 is beyond the plausible 0.5 (a percentage instead of a ratio?)",
+            ]
+        );
+        // The first of them is `from_str_at`'s error.
+        assert_eq!(
+            Project::from_str_at(&text, Path::new("p.toml"))
+                .unwrap_err()
+                .to_string(),
+            got[0]
+        );
+        // At the limits, everything is accepted.
+        let text = MINIMAL
+            .replace("lat = 50.0", "lat = -90.0")
+            .replace(
+                "units = \"m\"",
+                "units = \"m\"\nmax_gap_min = 360\nu_datum_m = 1.0\nlowpass_cutoff_min = 180",
+            )
+            + "[qc]\nshift_window_min = 1440\n[uncertainty]\nsounding_b = 0.05\ndefault_u_range_ratio = 0.5\ndefault_u_time_corrector_min = 60\n[[uncertainty.custom_order]]\nname = \"loose\"\na_m = 2.0\nb = 0.05\n";
+        Project::from_str_all(&text, Path::new("p.toml")).unwrap();
     }
 
     #[test]

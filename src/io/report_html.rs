@@ -529,6 +529,30 @@ fn histogram_svg(r: &QaReport, out: &mut String) {
     out.push_str("</svg>");
 }
 
+/// Whether quality control ran on the gauge records, and per gauge how many samples it set
+/// aside.
+fn push_qc(o: &mut String, r: &QaReport) {
+    if r.qc_ran {
+        o.push_str(r#"<p class="qc">Gauge quality control <b>ran</b>: no tide is interpolated across a sample it set aside.</p>"#);
+    } else {
+        o.push_str(r#"<p class="qc fail">Gauge quality control <b>did not run</b> (<code>[qc] enabled = false</code>): reversed or repeated times and spikes in the gauge records reach the soundings unchecked.</p>"#);
+    }
+    o.push_str("<table><tr><th>gauge</th><th>samples</th><th>set aside by QC</th></tr>");
+    for g in &r.qc_gauges {
+        let set_aside = g
+            .set_aside
+            .map_or_else(|| "not checked".to_string(), |n| n.to_string());
+        let _ = write!(
+            o,
+            "<tr><td>{}</td><td>{}</td><td>{}</td></tr>",
+            esc(&g.gauge),
+            g.samples,
+            set_aside
+        );
+    }
+    o.push_str("</table>");
+}
+
 /// Renders the report as one HTML page.
 pub fn render_html(r: &QaReport) -> String {
     let mut o = String::with_capacity(256 * 1024);
@@ -547,6 +571,7 @@ header h1 {{ margin: 0 0 4px; font-size: 22px; }}
 main {{ padding: 8px 28px 40px; max-width: 1100px; }}
 .verdict {{ font-size: 18px; padding: 12px 16px; border-left: 6px solid #2e8b57; background: #eef7f1; margin: 16px 0; }}
 .verdict.fail {{ border-color: #c0262d; background: #fbeeee; }}
+p.qc.fail {{ color: #c0262d; }}
 .caution {{ font-size: 13px; background: #fff7e0; border: 1px solid #e9c46a; padding: 8px 12px; }}
 table {{ border-collapse: collapse; margin: 8px 0 18px; font-size: 13px; }}
 th, td {{ border-bottom: 1px solid #dde3ea; padding: 4px 10px; text-align: right; }}
@@ -580,6 +605,7 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         esc(achieved),
         esc(&r.dominant_component)
     );
+    push_qc(&mut o, r);
     o.push_str("<table><tr><th>status</th><th>soundings</th></tr>");
     for (s, n) in r.rows_by_status.iter() {
         let _ = write!(o, "<tr><td>{s}</td><td>{n}</td></tr>");

@@ -68,6 +68,11 @@ pub struct ZoningSpec {
     pub zones: Vec<ZoneSpec>,
     /// Members that are not read but look like a misspelling of one that is (warnings).
     pub warnings: Vec<Finding>,
+    /// Every problem of every feature ([`read_zoning_all`]); [`read_zoning`] and
+    /// [`parse_zoning`] return the first as their error instead.
+    pub errors: Vec<Finding>,
+    /// The 0-based index of every feature left out of `zones` because of its errors.
+    pub left_out: Vec<usize>,
 }
 
 /// The properties of a zone that ebbwise reads.
@@ -99,38 +104,70 @@ fn missing(props: &Map<String, Value>, key: &str, known: &[&str]) -> String {
     }
 }
 
-fn num(
-    props: &Map<String, Value>,
-    key: &str,
-    known: &[&str],
-    at: &dyn Fn(&str) -> Position,
-) -> Result<f64, IoError> {
-    match props.get(key) {
-        Some(Value::Number(n)) => n
-            .as_f64()
-            .filter(|v| v.is_finite())
-            .ok_or_else(|| IoError::content(at(key), "expected a finite number")),
-        Some(other) => Err(IoError::content(
-            at(key),
-            format!("expected a number, found {other}"),
-        )),
-        None => Err(IoError::content(at(key), missing(props, key, known))),
-    }
+/// Reads the properties of one zone (or one entry of `feeds`), collecting every problem instead
+/// of stopping at the first: each is an error at the property's position, its message prefixed
+/// with the zone's name when it is known.
+struct Props<'a> {
+    obj: &'a Map<String, Value>,
+    known: &'a [&'a str],
+    at: &'a dyn Fn(&str) -> Position,
+    /// `"zone 'Z1': "`, or empty when the zone has no usable id.
+    prefix: &'a str,
+    errors: &'a mut Vec<Finding>,
 }
 
-fn text(
-    props: &Map<String, Value>,
-    key: &str,
-    known: &[&str],
-    at: &dyn Fn(&str) -> Position,
-) -> Result<String, IoError> {
-    match props.get(key) {
-        Some(Value::String(s)) if !s.trim().is_empty() => Ok(s.clone()),
-        Some(other) => Err(IoError::content(
-            at(key),
-            format!("expected a non-empty text, found {other}"),
-        )),
-        None => Err(IoError::content(at(key), missing(props, key, known))),
+impl Props<'_> {
+    fn error(&mut self, key: &str, message: impl std::fmt::Display) {
+        self.errors.push(Finding::error(
+            (self.at)(key),
+            format!("{}{message}", self.prefix),
+        ));
+    }
+
+    /// A required finite number.
+    fn num(&mut self, key: &str) -> Option<f64> {
+        match self.obj.get(key) {
+            Some(Value::Number(n)) => {
+                let v = n.as_f64().filter(|v| v.is_finite());
+                if v.is_none() {
+                    self.error(key, "expected a finite number");
+                }
+                v
+            }
+            Some(other) => {
+                self.error(key, format!("expected a number, found {other}"));
+                None
+            }
+            None => {
+                let m = missing(self.obj, key, self.known);
+                self.error(key, m);
+                None
+            }
+        }
+    }
+
+    /// An optional finite number (absent or `null`: `Some(None)`); `None` after an error.
+    fn opt_num(&mut self, key: &str) -> Option<Option<f64>> {
+        match self.obj.get(key) {
+            None | Some(Value::Null) => Some(None),
+            Some(_) => self.num(key).map(Some),
+        }
+    }
+
+    /// A required non-empty text.
+    fn text(&mut self, key: &str) -> Option<String> {
+        match self.obj.get(key) {
+            Some(Value::String(s)) if !s.trim().is_empty() => Some(s.clone()),
+            Some(other) => {
+                self.error(key, format!("expected a non-empty text, found {other}"));
+                None
+            }
+            None => {
+                let m = missing(self.obj, key, self.known);
+                self.error(key, m);
+                None
+            }
+        }
     }
 }
 
@@ -141,7 +178,7 @@ fn near_misses(
     obj: &Map<String, Value>,
     known: &[&str],
     at: &dyn Fn(&str) -> Position,
-    zone: &str,
+    prefix: &str,
     out: &mut Vec<Finding>,
 ) {
     for k in obj.keys().filter(|k| !known.contains(&k.as_str())) {
@@ -149,21 +186,39 @@ fn near_misses(
             if !obj.contains_key(n) {
                 out.push(Finding::warning(
                     at(k),
-                    format!("zone '{zone}': unknown property '{k}', ignored: did you mean '{n}'?"),
+                    format!("{prefix}unknown property '{k}', ignored: did you mean '{n}'?"),
                 ));
             }
         }
     }
 }
 
-/// Reads a zoning file.
+/// Reads a zoning file, stopping at its first problem (see [`read_zoning_all`] for every one).
 pub fn read_zoning(path: &Path) -> Result<ZoningSpec, IoError> {
     let bytes = std::fs::read(path).map_err(|e| IoError::file(path, e))?;
     parse_zoning(&bytes, path)
 }
 
-/// Parses zoning bytes as if read from `path`.
+/// Reads a zoning file and checks every feature: `Err` only when the file as a whole cannot be
+/// read (not JSON, not a FeatureCollection); a feature's problems are in
+/// [`ZoningSpec::errors`], and a feature with any is left out of [`ZoningSpec::zones`].
+pub fn read_zoning_all(path: &Path) -> Result<ZoningSpec, IoError> {
+    let bytes = std::fs::read(path).map_err(|e| IoError::file(path, e))?;
+    parse_zoning_all(&bytes, path)
+}
+
+/// Parses zoning bytes as if read from `path`; the first problem is the error.
 pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
+    let z = parse_zoning_all(bytes, path)?;
+    match z.errors.first() {
+        Some(f) => Err(IoError::content(f.at.clone(), &f.message)),
+        None => Ok(z),
+    }
+}
+
+/// Parses zoning bytes as if read from `path`, checking every feature (see
+/// [`read_zoning_all`]).
+pub fn parse_zoning_all(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
     let root: Value = serde_json::from_slice(bytes).map_err(|e| {
         IoError::content(
             Position::file(path).line(e.line() as u64),
@@ -185,65 +240,109 @@ pub fn parse_zoning(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError> {
     };
     let mut zones = Vec::with_capacity(features.len());
     let mut warnings = Vec::new();
+    let mut errors = Vec::new();
+    let mut left_out = Vec::new();
     let mut ids = std::collections::HashMap::new();
     for (i, f) in features.iter().enumerate() {
+        let errors_before = errors.len();
         let pos = |k: &str| Position::file(path).field(format!("features[{i}].{k}"));
+        let at = |k: &str| pos(&format!("properties.{k}"));
+        let empty = Map::new();
         let props = match f.get("properties") {
-            Some(Value::Object(m)) => m,
+            Some(Value::Object(m)) => Some(m),
             _ => {
-                return Err(IoError::content(
+                errors.push(Finding::error(
                     pos("properties"),
                     "expected an object of zone properties",
-                ))
+                ));
+                None
             }
         };
-        let id = text(props, "zone", &ZONE_PROPERTIES, &|k| {
-            pos(&format!("properties.{k}"))
-        })?;
-        let at = |k: &str| pos(&format!("properties.{k}"));
-        if let Some(prev) = ids.insert(id.clone(), i) {
-            return Err(IoError::content(
-                at("zone"),
-                format!("zone id '{id}' is used by features {prev} and {i}"),
-            ));
-        }
-        near_misses(props, &ZONE_PROPERTIES, &at, &id, &mut warnings);
-        let ZoneProperties {
-            feeds,
-            mean_level_above_datum_m,
-            u_time_corrector_min,
-            u_range_ratio,
-            u_zone_m,
-        } = zone_properties(props, &at, &id, &mut warnings).map_err(|e| match e {
-            IoError::Content { at, message } => {
-                IoError::content(at, format!("zone '{id}': {message}"))
+        let id = props.and_then(|props| {
+            Props {
+                obj: props,
+                known: &ZONE_PROPERTIES,
+                at: &at,
+                prefix: "",
+                errors: &mut errors,
             }
-            other => other,
-        })?;
-        let geom = f.get("geometry").ok_or_else(|| {
-            IoError::content(pos("geometry"), format!("zone '{id}' has no geometry"))
-        })?;
-        let (polygon_lonlat, unclosed_rings) = geometry(geom)
-            .map_err(|m| IoError::content(pos("geometry"), format!("zone '{id}': {m}")))?;
-        zones.push(ZoneSpec {
-            id,
-            feature_index: i,
-            polygon_lonlat,
-            feeds,
-            mean_level_above_datum_m,
-            u_time_corrector_min,
-            u_range_ratio,
-            u_zone_m,
-            unclosed_rings,
+            .text("zone")
         });
+        if let Some(id) = &id {
+            if let Some(prev) = ids.insert(id.clone(), i) {
+                errors.push(Finding::error(
+                    at("zone"),
+                    format!("zone id '{id}' is used by features {prev} and {i}"),
+                ));
+            }
+        }
+        let prefix = id
+            .as_ref()
+            .map(|id| format!("zone '{id}': "))
+            .unwrap_or_default();
+        let props = props.unwrap_or(&empty);
+        let properties = if f.get("properties").is_some_and(Value::is_object) {
+            near_misses(props, &ZONE_PROPERTIES, &at, &prefix, &mut warnings);
+            zone_properties(
+                &mut Props {
+                    obj: props,
+                    known: &ZONE_PROPERTIES,
+                    at: &at,
+                    prefix: &prefix,
+                    errors: &mut errors,
+                },
+                &mut warnings,
+            )
+        } else {
+            None
+        };
+        let shape = match f.get("geometry") {
+            None => {
+                errors.push(Finding::error(
+                    pos("geometry"),
+                    format!("{prefix}the feature has no geometry"),
+                ));
+                None
+            }
+            Some(geom) => match geometry(geom) {
+                Ok(g) => Some(g),
+                Err(m) => {
+                    errors.push(Finding::error(pos("geometry"), format!("{prefix}{m}")));
+                    None
+                }
+            },
+        };
+        match (id, properties, shape) {
+            (Some(id), Some(p), Some((polygon_lonlat, unclosed_rings)))
+                if errors.len() == errors_before =>
+            {
+                zones.push(ZoneSpec {
+                    id,
+                    feature_index: i,
+                    polygon_lonlat,
+                    feeds: p.feeds,
+                    mean_level_above_datum_m: p.mean_level_above_datum_m,
+                    u_time_corrector_min: p.u_time_corrector_min,
+                    u_range_ratio: p.u_range_ratio,
+                    u_zone_m: p.u_zone_m,
+                    unclosed_rings,
+                })
+            }
+            _ => left_out.push(i),
+        }
     }
-    if zones.is_empty() {
+    if features.is_empty() {
         return Err(IoError::content(
             Position::file(path),
             "the zoning holds no zone",
         ));
     }
-    Ok(ZoningSpec { zones, warnings })
+    Ok(ZoningSpec {
+        zones,
+        warnings,
+        errors,
+        left_out,
+    })
 }
 
 /// A zone's properties other than its id.
@@ -255,139 +354,214 @@ struct ZoneProperties {
     u_zone_m: Option<f64>,
 }
 
-/// Reads a zone's properties other than its id (the messages say nothing of the zone: the
-/// caller adds its id).
-fn zone_properties(
-    props: &Map<String, Value>,
-    at: &dyn Fn(&str) -> Position,
-    id: &str,
-    warnings: &mut Vec<Finding>,
-) -> Result<ZoneProperties, IoError> {
-    let feeds = match props.get("feeds") {
+/// Reads a zone's properties other than its id, every one of them: `None` when any has a
+/// problem (each is in `p.errors`).
+fn zone_properties(p: &mut Props, warnings: &mut Vec<Finding>) -> Option<ZoneProperties> {
+    use crate::compute::uncertainty::{
+        U_HEIGHT_REFUSED_ABOVE_M, U_RANGE_RATIO_REFUSED_ABOVE, U_TIME_CORRECTOR_REFUSED_ABOVE_MIN,
+    };
+    use crate::compute::zoning::{FEED_WEIGHT_MIN_EXCLUSIVE, ZONE_MEAN_LEVEL_REFUSED_ABOVE_M};
+    let errors_before = p.errors.len();
+    let feeds = match p.obj.get("feeds") {
         Some(Value::Array(list)) => {
-            if props.contains_key("gauge") {
-                return Err(IoError::content(
-                    at("gauge"),
+            if p.obj.contains_key("gauge") {
+                p.error(
+                    "gauge",
                     "give either 'gauge' with its correctors or 'feeds', not both",
-                ));
+                );
             }
             if list.is_empty() {
-                return Err(IoError::content(at("feeds"), "expected at least one feed"));
+                p.error("feeds", "expected at least one feed");
             }
             let mut out = Vec::new();
             for (k, item) in list.iter().enumerate() {
+                let at = p.at;
                 let fat = |key: &str| at(&format!("feeds[{k}].{key}"));
                 let Value::Object(m) = item else {
-                    return Err(IoError::content(
-                        at(&format!("feeds[{k}]")),
+                    p.error(
+                        &format!("feeds[{k}]"),
                         "expected an object {gauge, weight, time_corrector_min, range_ratio}",
-                    ));
+                    );
+                    continue;
                 };
-                near_misses(m, &FEED_MEMBERS, &fat, id, warnings);
-                let feed = FeedSpec {
-                    gauge: text(m, "gauge", &FEED_MEMBERS, &fat)?,
-                    weight: num(m, "weight", &FEED_MEMBERS, &fat)?,
-                    time_corrector_min: num(m, "time_corrector_min", &FEED_MEMBERS, &fat)?,
-                    range_ratio: num(m, "range_ratio", &FEED_MEMBERS, &fat)?,
+                near_misses(m, &FEED_MEMBERS, &fat, p.prefix, warnings);
+                let mut fp = Props {
+                    obj: m,
+                    known: &FEED_MEMBERS,
+                    at: &fat,
+                    prefix: p.prefix,
+                    errors: &mut *p.errors,
                 };
-                if feed.weight < 0.0 {
-                    return Err(IoError::content(
-                        fat("weight"),
-                        format!("weight must not be negative, found {}", feed.weight),
-                    ));
+                let gauge = fp.text("gauge");
+                let weight = fp.num("weight");
+                let time_corrector_min = fp.num("time_corrector_min");
+                let range_ratio = fp.num("range_ratio");
+                if let Some(w) = weight {
+                    if w <= FEED_WEIGHT_MIN_EXCLUSIVE {
+                        fp.error(
+                            "weight",
+                            format!(
+                                "a weight must be above 0, found {}{}",
+                                short(w),
+                                if w == 0.0 {
+                                    " (a feed that adds nothing still needs the gauge's level: remove it)"
+                                } else {
+                                    ""
+                                }
+                            ),
+                        );
+                    }
                 }
-                plausible_correctors(&feed, &fat, id, warnings)?;
-                out.push(feed);
+                if let Some(dt) = time_corrector_min {
+                    plausible_time_corrector(dt, &mut fp, warnings);
+                }
+                if let Some(r) = range_ratio {
+                    plausible_range_ratio(r, &mut fp);
+                }
+                if let (Some(gauge), Some(weight), Some(time_corrector_min), Some(range_ratio)) =
+                    (gauge, weight, time_corrector_min, range_ratio)
+                {
+                    out.push(FeedSpec {
+                        gauge,
+                        weight,
+                        time_corrector_min,
+                        range_ratio,
+                    });
+                }
             }
             out
         }
-        Some(_) => return Err(IoError::content(at("feeds"), "expected a list")),
-        None => {
-            let feed = FeedSpec {
-                gauge: text(props, "gauge", &ZONE_PROPERTIES, at)?,
-                weight: 1.0,
-                time_corrector_min: num(props, "time_corrector_min", &ZONE_PROPERTIES, at)?,
-                range_ratio: num(props, "range_ratio", &ZONE_PROPERTIES, at)?,
-            };
-            plausible_correctors(&feed, at, id, warnings)?;
-            vec![feed]
+        Some(_) => {
+            p.error("feeds", "expected a list");
+            Vec::new()
         }
-    };
-    let mean_level_above_datum_m = match props.get("mean_level_above_datum_m") {
-        None | Some(Value::Null) => None,
-        Some(_) => Some(num(
-            props,
-            "mean_level_above_datum_m",
-            &ZONE_PROPERTIES,
-            at,
-        )?),
-    };
-    let opt_u = |k: &str| -> Result<Option<f64>, IoError> {
-        match props.get(k) {
-            None | Some(Value::Null) => Ok(None),
-            Some(_) => {
-                let v = num(props, k, &ZONE_PROPERTIES, at)?;
-                if v < 0.0 {
-                    return Err(IoError::content(
-                        at(k),
-                        format!("a standard uncertainty cannot be negative, found {v}"),
-                    ));
-                }
-                Ok(Some(v))
+        None => {
+            let gauge = p.text("gauge");
+            let time_corrector_min = p.num("time_corrector_min");
+            let range_ratio = p.num("range_ratio");
+            if let Some(dt) = time_corrector_min {
+                plausible_time_corrector(dt, p, warnings);
+            }
+            if let Some(r) = range_ratio {
+                plausible_range_ratio(r, p);
+            }
+            match (gauge, time_corrector_min, range_ratio) {
+                (Some(gauge), Some(time_corrector_min), Some(range_ratio)) => vec![FeedSpec {
+                    gauge,
+                    weight: 1.0,
+                    time_corrector_min,
+                    range_ratio,
+                }],
+                _ => Vec::new(),
             }
         }
     };
-    Ok(ZoneProperties {
+    let mean_level_above_datum_m = p.opt_num("mean_level_above_datum_m");
+    if let Some(Some(m)) = mean_level_above_datum_m {
+        if m.abs() > ZONE_MEAN_LEVEL_REFUSED_ABOVE_M {
+            p.error(
+                "mean_level_above_datum_m",
+                format!(
+                    "zone mean level {} m is beyond the plausible ±{ZONE_MEAN_LEVEL_REFUSED_ABOVE_M} m from chart datum (centimetres or millimetres instead of metres?)",
+                    short(m)
+                ),
+            );
+        }
+    }
+    let mut opt_u = |k: &str, max: f64, unit: &str, hint: &str| -> Option<Option<f64>> {
+        let v = p.opt_num(k)?;
+        if let Some(v) = v {
+            if v < 0.0 {
+                p.error(
+                    k,
+                    format!(
+                        "a standard uncertainty cannot be negative, found {}",
+                        short(v)
+                    ),
+                );
+            } else if v > max {
+                p.error(
+                    k,
+                    format!(
+                        "standard uncertainty {}{unit} is beyond the plausible {max}{unit} ({hint}?)",
+                        short(v)
+                    ),
+                );
+            }
+        }
+        Some(v)
+    };
+    let u_time_corrector_min = opt_u(
+        "u_time_corrector_min",
+        U_TIME_CORRECTOR_REFUSED_ABOVE_MIN,
+        " min",
+        "seconds instead of minutes",
+    );
+    let u_range_ratio = opt_u(
+        "u_range_ratio",
+        U_RANGE_RATIO_REFUSED_ABOVE,
+        "",
+        "a percentage instead of a ratio",
+    );
+    let u_zone_m = opt_u(
+        "u_zone_m",
+        U_HEIGHT_REFUSED_ABOVE_M,
+        " m",
+        "centimetres or millimetres instead of metres",
+    );
+    if p.errors.len() > errors_before {
+        return None;
+    }
+    Some(ZoneProperties {
         feeds,
-        mean_level_above_datum_m,
-        u_time_corrector_min: opt_u("u_time_corrector_min")?,
-        u_range_ratio: opt_u("u_range_ratio")?,
-        u_zone_m: opt_u("u_zone_m")?,
+        mean_level_above_datum_m: mean_level_above_datum_m.flatten(),
+        u_time_corrector_min: u_time_corrector_min.flatten(),
+        u_range_ratio: u_range_ratio.flatten(),
+        u_zone_m: u_zone_m.flatten(),
     })
 }
 
-/// Refuses a feed's time corrector or range ratio beyond the plausibility bounds of
-/// [`crate::compute::zoning`] and warns on a large time corrector.
-fn plausible_correctors(
-    feed: &FeedSpec,
-    at: &dyn Fn(&str) -> Position,
-    id: &str,
-    warnings: &mut Vec<Finding>,
-) -> Result<(), IoError> {
+/// Refuses a time corrector beyond [`TIME_CORRECTOR_REFUSED_ABOVE_MIN`] and warns on one
+/// beyond [`TIME_CORRECTOR_WARNED_ABOVE_MIN`] (bounds of [`crate::compute::zoning`]).
+///
+/// [`TIME_CORRECTOR_REFUSED_ABOVE_MIN`]: crate::compute::zoning::TIME_CORRECTOR_REFUSED_ABOVE_MIN
+/// [`TIME_CORRECTOR_WARNED_ABOVE_MIN`]: crate::compute::zoning::TIME_CORRECTOR_WARNED_ABOVE_MIN
+fn plausible_time_corrector(dt: f64, p: &mut Props, warnings: &mut Vec<Finding>) {
     use crate::compute::zoning::{
-        RANGE_RATIO_BAND, TIME_CORRECTOR_REFUSED_ABOVE_MIN, TIME_CORRECTOR_WARNED_ABOVE_MIN,
+        TIME_CORRECTOR_REFUSED_ABOVE_MIN, TIME_CORRECTOR_WARNED_ABOVE_MIN,
     };
-    let dt = feed.time_corrector_min;
     if dt.abs() > TIME_CORRECTOR_REFUSED_ABOVE_MIN {
-        return Err(IoError::content(
-            at("time_corrector_min"),
+        p.error(
+            "time_corrector_min",
             format!(
                 "time corrector {} min is beyond the plausible ±{TIME_CORRECTOR_REFUSED_ABOVE_MIN} min (hours or seconds instead of minutes?)",
                 short(dt)
             ),
-        ));
-    }
-    if dt.abs() > TIME_CORRECTOR_WARNED_ABOVE_MIN {
+        );
+    } else if dt.abs() > TIME_CORRECTOR_WARNED_ABOVE_MIN {
         warnings.push(Finding::warning(
-            at("time_corrector_min"),
+            (p.at)("time_corrector_min"),
             format!(
-                "zone '{id}': time corrector {} min is larger than ±{TIME_CORRECTOR_WARNED_ABOVE_MIN} min: check it",
+                "{}time corrector {} min is larger than ±{TIME_CORRECTOR_WARNED_ABOVE_MIN} min: check it",
+                p.prefix,
                 short(dt)
             ),
         ));
     }
-    let (lo, hi) = RANGE_RATIO_BAND;
-    let r = feed.range_ratio;
+}
+
+/// Refuses a range ratio outside [`crate::compute::zoning::RANGE_RATIO_BAND`].
+fn plausible_range_ratio(r: f64, p: &mut Props) {
+    let (lo, hi) = crate::compute::zoning::RANGE_RATIO_BAND;
     if !(lo..=hi).contains(&r) {
-        return Err(IoError::content(
-            at("range_ratio"),
+        p.error(
+            "range_ratio",
             format!(
                 "range ratio {} is outside the plausible band {lo} to {hi}",
                 short(r)
             ),
-        ));
+        );
     }
-    Ok(())
 }
 
 /// A number as written in a message: plain, or in exponent form when very large or very small.
@@ -570,6 +744,64 @@ mod tests {
             e.to_string().starts_with("z.geojson:2: not valid JSON"),
             "{e}"
         );
+    }
+
+    /// Problems in several properties of several features are all reported, each at its
+    /// feature and field; the features with problems are left out, the others kept.
+    #[test]
+    fn every_problem_of_every_feature_is_reported() {
+        let text = ONE
+            .replace(
+                "\"range_ratio\":1.05",
+                "\"range_ratio\":\"big\",\"u_zone_m\":-0.1",
+            )
+            .replace("\"weight\":0.3", "\"weight\":0")
+            .replace("\"range_ratio\":0.9", "\"range_ratio\":0.9,\"gauge2\":1");
+        let z = parse_zoning_all(text.as_bytes(), Path::new("z.geojson")).unwrap();
+        let got: Vec<String> = z.errors.iter().map(|f| f.to_string()).collect();
+        assert_eq!(
+            got,
+            vec![
+                "error: z.geojson: field 'features[0].properties.range_ratio': zone 'A': expected a number, found \"big\"",
+                "error: z.geojson: field 'features[0].properties.u_zone_m': zone 'A': a standard uncertainty cannot be negative, found -0.1",
+                "error: z.geojson: field 'features[1].properties.feeds[1].weight': zone 'B': a weight must be above 0, found 0 (a feed that adds nothing still needs the gauge's level: remove it)",
+            ]
+        );
+        assert_eq!(z.left_out, vec![0, 1]);
+        assert!(z.zones.is_empty());
+        // The strict reader's error is the first of them.
+        assert_eq!(format!("error: {}", parse(&text).unwrap_err()), got[0]);
+        // One feature fixed: it is kept, the other still left out.
+        let text = text.replace(
+            "\"range_ratio\":\"big\",\"u_zone_m\":-0.1",
+            "\"range_ratio\":1.05",
+        );
+        let z = parse_zoning_all(text.as_bytes(), Path::new("z.geojson")).unwrap();
+        assert_eq!((z.errors.len(), z.left_out.clone()), (1, vec![1]));
+        assert_eq!(z.zones[0].id, "A");
+    }
+
+    /// Each bound of a zone's numbers accepts its limit and refuses just beyond it (limits of
+    /// `compute::zoning` and `compute::uncertainty`, common practice).
+    #[test]
+    fn zone_bounds_are_inclusive() {
+        for (props, refused) in [
+            ("\"mean_level_above_datum_m\":-100", false),
+            ("\"mean_level_above_datum_m\":-100.5", true),
+            ("\"u_time_corrector_min\":60", false),
+            ("\"u_time_corrector_min\":60.5", true),
+            ("\"u_range_ratio\":0.5", false),
+            ("\"u_range_ratio\":0.6", true),
+            ("\"u_zone_m\":1", false),
+            ("\"u_zone_m\":1.01", true),
+        ] {
+            let text = ONE.replace(
+                "\"range_ratio\":1.05",
+                &format!("\"range_ratio\":1.05,{props}"),
+            );
+            let z = parse_zoning_all(text.as_bytes(), Path::new("z.geojson")).unwrap();
+            assert_eq!(!z.errors.is_empty(), refused, "{props}: {:?}", z.errors);
+        }
     }
 
     #[test]

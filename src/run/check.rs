@@ -6,18 +6,26 @@
 //! unknown CRS codes, gauge records out of time order or not spanning the soundings' times, rows
 //! that cannot be read. Warnings: soundings outside every zone and the uncovered area, gauge gaps
 //! longer than the maximum gap inside the survey period, skipped gauge samples.
+//!
+//! One problem hides no other: every value of the project file and every feature of the zoning
+//! is checked, the soundings are read even when the zoning or the gauges have errors, and a
+//! warning names what could not be checked because of them. The outputs a reduction would write
+//! are checked against the inputs and each other before anything is written.
 
 use std::fs::File;
 
 use geo::{BooleanOps, ConvexHull, Coord, MultiPoint, MultiPolygon, Point, Polygon};
 use serde::Serialize;
 
-use super::load::{load, locator_for_crs};
+use super::correctors::correctors_outputs;
+use super::load::{load, locator_for_crs, output_clashes};
+use super::reduce::{run_outputs, RunKind};
 use crate::io::crs::Transformer;
 use crate::io::error::{Finding, Position, Severity};
 use crate::io::project::Project;
 use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
 use crate::io::timefmt::utc_label;
+use crate::io::zoning_geojson::{read_zoning_all, ZoningSpec};
 
 pub use super::load::{geodesic_area_m2, OVERLAP_ERROR_M2};
 
@@ -59,10 +67,17 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
         sounding_rows: 0,
         sounding_span: None,
     };
-    let project = match Project::load(project_path) {
+    let project = match Project::load_all(project_path) {
         Ok(p) => p,
-        Err(e) => {
-            report.findings.push(e.into());
+        Err(errors) => {
+            report
+                .findings
+                .extend(errors.into_iter().map(Finding::from));
+            report.findings.push(Finding::warning(
+                Position::file(project_path),
+                "not checked because of the errors above: the gauge records, the zoning and the soundings (the project file names them and says how to read them)",
+            ));
+            finish(&mut report);
             return report;
         }
     };
@@ -73,6 +88,25 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             None
         }
     };
+    // Outputs that would overwrite an input or each other: errors for a reduction into the
+    // project's output folder, warnings for the correction files (`ebbwise correctors` with
+    // every option) since only that command writes them.
+    let out_dir = &project.spec.output.dir;
+    report.findings.extend(output_clashes(
+        &project,
+        &run_outputs(&project, out_dir, RunKind::Reduce, None),
+        &[],
+    ));
+    for f in output_clashes(
+        &project,
+        &correctors_outputs(&project, out_dir, true, true),
+        &[],
+    ) {
+        report.findings.push(Finding::warning(
+            f.at,
+            format!("`ebbwise correctors` would refuse to run: {}", f.message),
+        ));
+    }
     // CRS codes.
     let mut crs_ok = vec![true; project.spec.soundings.len()];
     for (i, g) in project.spec.soundings.iter().enumerate() {
@@ -84,39 +118,58 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             ));
         }
     }
+    // The zoning the soundings are located in: the loaded one, or, when the project did not
+    // load for other reasons (a gauge record, a zone naming an unknown gauge), the zoning read
+    // on its own if it has no error itself.
+    let zoning: Option<ZoningSpec> = match &loaded {
+        Some(l) => Some(l.zoning.clone()),
+        None => read_zoning_all(&project.spec.zoning)
+            .ok()
+            .filter(|z| z.errors.is_empty()),
+    };
     if let Some(l) = &loaded {
         report.findings.extend(l.warnings.iter().cloned());
+    } else {
+        // The soundings are still read below (layout, every row), with the zoning when it can be.
+        let what = if zoning.is_some() {
+            "whether the gauge records span the survey and have gaps inside it"
+        } else {
+            "whether the soundings lie inside the zoning, the soundings' extent no zone covers, and whether the gauge records span the survey and have gaps inside it"
+        };
+        report.findings.push(Finding::warning(
+            Position::file(&project.path),
+            format!("not checked because of the errors above: {what}"),
+        ));
     }
-    let Some(loaded) = loaded else {
-        finish(&mut report);
-        return report;
-    };
-    // Overlapping zones are found by `load`, for every command alike.
-    let zones = &loaded.zoning.zones;
-    // Gauge skips.
-    for (g, r) in project.spec.gauges.iter().zip(&loaded.records) {
-        if r.skipped_null + r.skipped_flagged > 0 {
-            report.findings.push(Finding::warning(
-                Position::file(&g.record),
-                format!(
-                    "{} sample(s) with no height and {} flagged sample(s) skipped",
-                    r.skipped_null, r.skipped_flagged
-                ),
-            ));
+    if let Some(loaded) = &loaded {
+        // Gauge skips.
+        for (g, r) in project.spec.gauges.iter().zip(&loaded.records) {
+            if r.skipped_null + r.skipped_flagged > 0 {
+                report.findings.push(Finding::warning(
+                    Position::file(&g.record),
+                    format!(
+                        "{} sample(s) with no height and {} flagged sample(s) skipped",
+                        r.skipped_null, r.skipped_flagged
+                    ),
+                ));
+            }
         }
     }
-    // Soundings pass.
-    let zoning_union: MultiPolygon<f64> = zones
-        .iter()
-        .fold(MultiPolygon(vec![]), |acc, z| acc.union(&z.polygon_lonlat));
+    // Overlapping zones are found by `load`, for every command alike.
+    let zoning_union: Option<MultiPolygon<f64>> = zoning.as_ref().map(|z| {
+        z.zones
+            .iter()
+            .fold(MultiPolygon(vec![]), |acc, z| acc.union(&z.polygon_lonlat))
+    });
     let mut t_range: Option<(f64, f64)> = None;
     for (gi, group) in project.spec.soundings.iter().enumerate() {
         if !crs_ok[gi] {
             continue;
         }
-        let locator = match locator_for_crs(&loaded.zoning, &group.crs) {
-            Ok(l) => l,
-            Err(m) => {
+        let locator = match zoning.as_ref().map(|z| locator_for_crs(z, &group.crs)) {
+            None => None,
+            Some(Ok(l)) => Some(l),
+            Some(Err(m)) => {
                 report.findings.push(Finding::error(
                     Position::file(&project.path).field(format!("soundings[{gi}].crs")),
                     m,
@@ -202,6 +255,9 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                                 None => (v.t_s, v.t_s),
                                 Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
                             });
+                            let Some(locator) = &locator else {
+                                continue;
+                            };
                             if locator.locate(v.x, v.y).is_none() {
                                 outside += 1;
                                 first_outside.get_or_insert(n);
@@ -230,9 +286,9 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                     format!("{outside} sounding(s) lie outside every zone (first on this line)"),
                 ));
             }
-            if hull_pts.len() >= 3 {
+            if let (true, Some(zoning_union)) = (hull_pts.len() >= 3, &zoning_union) {
                 let hull = MultiPoint(hull_pts).convex_hull();
-                if let Some(area) = uncovered_area_m2(&hull, &group.crs, &zoning_union) {
+                if let Some(area) = uncovered_area_m2(&hull, &group.crs, zoning_union) {
                     if area > 1.0 {
                         report.findings.push(Finding::warning(
                             Position::file(path),
@@ -247,7 +303,9 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
     }
     if let Some((t0, t1)) = t_range {
         report.sounding_span = Some((utc_label(t0), utc_label(t1)));
-        check_gauge_spans(&loaded, t0, t1, &mut report.findings);
+        if let Some(loaded) = &loaded {
+            check_gauge_spans(loaded, t0, t1, &mut report.findings);
+        }
     }
     finish(&mut report);
     report

@@ -6,8 +6,8 @@ use std::path::{Path, PathBuf};
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::load::Loaded;
-use super::reduce::{reduce_project, ApplyModel, ReduceOptions, RunKind, RunSummary};
+use super::load::{output_clashes, Loaded, PlannedOutput};
+use super::reduce::{reduce_project, run_outputs, ApplyModel, ReduceOptions, RunKind, RunSummary};
 use crate::compute::correctors::{
     zone_corrector_at, zone_correctors, Corrector, CorrectorUncertainty, LineSeriesModel,
     SoundingTableModel,
@@ -339,6 +339,55 @@ fn write_sidecar(csv_path: &Path, prov: &Provenance) -> Result<PathBuf, IoError>
     write_atomic(&path, &bytes)
 }
 
+/// Every file `ebbwise correctors` writes into `out_dir`: the per-zone file and its sidecar,
+/// and when asked the per-line file and the per-sounding files, each with its sidecar.
+pub fn correctors_outputs(
+    project: &crate::io::project::Project,
+    out_dir: &Path,
+    per_sounding: bool,
+    per_line: bool,
+) -> Vec<PlannedOutput> {
+    let mut out = Vec::new();
+    let mut file = |name: &str, what: &str| {
+        out.push(PlannedOutput {
+            path: out_dir.join(name),
+            what: format!("the {what} correction file"),
+        });
+        out.push(PlannedOutput {
+            path: out_dir.join(format!("{name}.json")),
+            what: format!("the sidecar of the {what} correction file"),
+        });
+    };
+    file(ZONE_FILE, "per-zone");
+    if per_line {
+        file(LINE_FILE, "per-line");
+    }
+    if per_sounding {
+        out.extend(run_outputs(
+            project,
+            out_dir,
+            RunKind::SoundingCorrectors,
+            None,
+        ));
+    }
+    out
+}
+
+/// The first clash of `outputs` with the inputs or each other, as the error that stops a run.
+fn refuse_clashes(
+    loaded: &Loaded,
+    outputs: &[PlannedOutput],
+    extra_inputs: &[(PathBuf, String)],
+) -> Result<(), IoError> {
+    match output_clashes(&loaded.project, outputs, extra_inputs)
+        .into_iter()
+        .next()
+    {
+        Some(f) => Err(IoError::content(f.at, f.message)),
+        None => Ok(()),
+    }
+}
+
 /// Writes the per-zone corrector file (and per-sounding files when asked), each with its sidecar.
 pub fn write_correctors(
     loaded: &Loaded,
@@ -350,6 +399,16 @@ pub fn write_correctors(
             "the step must be a positive number of minutes",
         ));
     }
+    refuse_clashes(
+        loaded,
+        &correctors_outputs(
+            &loaded.project,
+            &opts.out_dir,
+            opts.per_sounding,
+            opts.per_line,
+        ),
+        &[],
+    )?;
     let step_s = (opts.step_min * 60.0 * 1000.0).round() / 1000.0;
     let (from, to) = match (opts.from_s, opts.to_s) {
         (Some(a), Some(b)) => (a, b),
@@ -551,6 +610,29 @@ pub fn apply_corrections(
     soundings: Vec<PathBuf>,
     out_dir: PathBuf,
 ) -> Result<RunSummary, IoError> {
+    let mut sidecar = corrections
+        .file_name()
+        .map(|n| n.to_os_string())
+        .unwrap_or_default();
+    sidecar.push(".json");
+    let extra = [
+        (corrections.to_path_buf(), "the correction file".to_string()),
+        (
+            corrections.with_file_name(sidecar),
+            "the correction file's sidecar".to_string(),
+        ),
+    ];
+    let only_files = (!soundings.is_empty()).then_some(soundings.as_slice());
+    refuse_clashes(
+        loaded,
+        &run_outputs(
+            &loaded.project,
+            &out_dir,
+            RunKind::Apply(ApplyModel::Zones(&[])),
+            only_files,
+        ),
+        &extra,
+    )?;
     let file = read_correction_file(corrections)?;
     let zone_ids: Vec<&str> = loaded.zones.iter().map(|z| z.id.as_str()).collect();
     let only = if soundings.is_empty() {

@@ -15,7 +15,7 @@ use crate::io::gauge_csv::{read_gauge_record, GaugeRecord};
 use crate::io::project::{
     DuplicateTimeConflict, GaugeSpec, InterpolationChoice, InterpolationSpec, Project, QcSpec,
 };
-use crate::io::zoning_geojson::{read_zoning, ZoningSpec};
+use crate::io::zoning_geojson::{read_zoning_all, ZoningSpec};
 
 /// Everything a reduction needs, loaded and checked.
 #[derive(Debug)]
@@ -120,14 +120,18 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             }
         }
     }
-    let zoning = match read_zoning(&project.spec.zoning) {
+    let zoning = match read_zoning_all(&project.spec.zoning) {
         Ok(z) => z,
         Err(e) => {
             findings.push(e.into());
             return Err(findings);
         }
     };
+    findings.extend(zoning.errors.iter().cloned());
     findings.extend(zoning.warnings.iter().cloned());
+    if let Some(note) = left_out_note(&zoning, &project.spec.zoning) {
+        findings.push(note);
+    }
     let index: HashMap<&str, usize> = project
         .spec
         .gauges
@@ -197,10 +201,15 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         };
         let w: f64 = z.feeds.iter().map(|f| f.weight).sum();
         if (w - 1.0).abs() > 1e-6 && !zone.feeds.is_empty() {
+            let hint = if (w - 100.0).abs() <= 1e-4 {
+                " (percentages? write the weights as fractions of 1)"
+            } else {
+                ""
+            };
             findings.push(Finding::error(
                 Position::file(&project.spec.zoning)
                     .field(format!("features[{}].properties.feeds", z.feature_index)),
-                format!("zone '{}': gauge weights sum to {w:.6}, not 1", z.id),
+                format!("zone '{}': gauge weights sum to {w:.6}, not 1{hint}", z.id),
             ));
         }
         zones.push(zone);
@@ -551,6 +560,127 @@ pub fn sample_findings(g: &GaugeSpec, r: &GaugeRecord, qc: Option<&QcResult>) ->
         ));
     }
     out
+}
+
+/// A file a command is about to write, and what it is ("the reduced file of day.csv").
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlannedOutput {
+    /// Where it goes.
+    pub path: std::path::PathBuf,
+    /// What it is, for messages.
+    pub what: String,
+}
+
+/// Every input a project names, with what it is: the project file, the zoning, the gauge
+/// records and constants, and the soundings files of every group.
+pub fn project_inputs(project: &Project) -> Vec<(std::path::PathBuf, String)> {
+    let mut out = vec![
+        (project.path.clone(), "the project file".to_string()),
+        (project.spec.zoning.clone(), "the zoning".to_string()),
+    ];
+    for g in &project.spec.gauges {
+        out.push((g.record.clone(), format!("the record of gauge '{}'", g.id)));
+        if let Some(c) = &g.constants {
+            out.push((c.clone(), format!("the constants of gauge '{}'", g.id)));
+        }
+    }
+    for group in &project.spec.soundings {
+        for f in &group.files {
+            out.push((f.clone(), "the soundings file".to_string()));
+        }
+    }
+    out
+}
+
+/// A path made comparable with others without needing it to exist: the canonical path when it
+/// exists, else its canonical folder joined with its name, else the absolute path with `.` and
+/// `..` taken away by their names.
+fn comparable(p: &std::path::Path) -> std::path::PathBuf {
+    use std::path::{Component, PathBuf};
+    if let Ok(c) = p.canonicalize() {
+        return c;
+    }
+    let abs = if p.is_absolute() {
+        p.to_path_buf()
+    } else {
+        std::env::current_dir()
+            .map(|d| d.join(p))
+            .unwrap_or_else(|_| p.to_path_buf())
+    };
+    if let (Some(dir), Some(name)) = (abs.parent(), abs.file_name()) {
+        if let Ok(c) = dir.canonicalize() {
+            return c.join(name);
+        }
+    }
+    let mut out = PathBuf::new();
+    for c in abs.components() {
+        match c {
+            Component::CurDir => {}
+            Component::ParentDir => {
+                out.pop();
+            }
+            other => out.push(other),
+        }
+    }
+    out
+}
+
+/// Every clash of the outputs a command plans with its inputs (the project's and `extra_inputs`,
+/// e.g. a correction file) and with each other, as errors naming both files. Run before any
+/// output is opened: inputs are never overwritten, and a refused run writes nothing.
+pub fn output_clashes(
+    project: &Project,
+    outputs: &[PlannedOutput],
+    extra_inputs: &[(std::path::PathBuf, String)],
+) -> Vec<Finding> {
+    const FIX: &str =
+        "choose another output folder ([output] dir or --out) or rename one of the files";
+    let mut inputs: Vec<(std::path::PathBuf, std::path::PathBuf, &str)> = Vec::new();
+    let all = project_inputs(project);
+    for (p, what) in all.iter().chain(extra_inputs) {
+        inputs.push((comparable(p), p.clone(), what.as_str()));
+    }
+    let mut out = Vec::new();
+    let mut seen: HashMap<std::path::PathBuf, &PlannedOutput> = HashMap::new();
+    for o in outputs {
+        let key = comparable(&o.path);
+        if let Some((_, input, what)) = inputs.iter().find(|(k, _, _)| *k == key) {
+            out.push(Finding::error(
+                Position::file(input),
+                format!(
+                    "{what} would be overwritten by {}: inputs are never overwritten; {FIX}",
+                    o.what
+                ),
+            ));
+        } else if let Some(prev) = seen.get(&key) {
+            out.push(Finding::error(
+                Position::file(&o.path),
+                format!(
+                    "{} and {} would both be written here, one over the other; {FIX}",
+                    prev.what, o.what
+                ),
+            ));
+        } else {
+            seen.insert(key, o);
+        }
+    }
+    out
+}
+
+/// What could not be checked because features of the zoning have errors: they take no part in
+/// the checks of geometry against other zones (overlaps), and soundings are not located in them.
+fn left_out_note(zoning: &ZoningSpec, path: &std::path::Path) -> Option<Finding> {
+    if zoning.left_out.is_empty() {
+        return None;
+    }
+    let list: Vec<String> = zoning.left_out.iter().map(|i| i.to_string()).collect();
+    Some(Finding::warning(
+        Position::file(path),
+        format!(
+            "not checked because of the errors above: feature(s) {} take no part in the overlap check, and no sounding is located in the zoning until they are fixed",
+            list.join(", ")
+        ),
+    ))
 }
 
 /// Overlaps smaller than this are reported as warnings (rounding slivers), larger as errors.

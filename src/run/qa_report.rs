@@ -9,7 +9,7 @@ use crate::compute::qa::{
     round_nearest, summarise_group, GroupSummary, METRE_DECIMALS, RATIO_BINS, RATIO_BIN_WIDTH,
 };
 use crate::compute::qa_report::{
-    failing, GaugeInput, MapPoint, QaReport, RatioHistogram, UncertaintyInputs, ZoneInput,
+    failing, GaugeInput, GaugeQc, MapPoint, QaReport, RatioHistogram, UncertaintyInputs, ZoneInput,
     ZoneTideSeries, QA_SCHEMA,
 };
 use crate::compute::uncertainty::{tide_budget, K95};
@@ -82,6 +82,18 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         zones,
         lines,
         tide_series,
+        qc_ran: loaded.project.spec.qc.enabled,
+        qc_gauges: loaded
+            .gauges
+            .iter()
+            .zip(&loaded.records)
+            .zip(&loaded.qc)
+            .map(|((g, r), q)| GaugeQc {
+                gauge: g.id.clone(),
+                samples: r.times_s.len(),
+                set_aside: q.as_ref().map(|q| q.flags.len() - q.usable_count()),
+            })
+            .collect(),
         inputs: UncertaintyInputs {
             gauges: loaded
                 .gauges

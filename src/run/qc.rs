@@ -78,6 +78,9 @@ pub struct GaugeQcSummary {
     pub samples: usize,
     /// Samples usable after QC.
     pub usable: usize,
+    /// Samples QC set aside (`samples − usable`): a reduction with `[qc] enabled` does not use
+    /// them, and interpolates across none that is flagged for its level.
+    pub set_aside: usize,
     /// Rows without a reading (empty or a null value), not samples.
     pub rows_without_reading: usize,
     /// Rows whose own quality flag was not good, not samples.
@@ -159,6 +162,11 @@ pub struct QcSummary {
     pub ebbwise_version: &'static str,
     /// The caution.
     pub caution: &'static str,
+    /// Quality control ran on every record of this run (`ebbwise qc` always runs it).
+    pub qc_ran: bool,
+    /// Whether the project's reductions (`reduce`, `check`, `correctors`, `apply`) run it too
+    /// (`[qc] enabled`); `None` for a record checked outside a project.
+    pub qc_in_reductions: Option<bool>,
     /// Per gauge.
     pub gauges: Vec<GaugeQcSummary>,
     /// Comparisons.
@@ -334,6 +342,7 @@ pub fn write_gauge_qc(
         record: g.record.clone(),
         samples: r.times_s.len(),
         usable: q.usable_count(),
+        set_aside: q.flags.len() - q.usable_count(),
         rows_without_reading: r.skipped_null,
         rows_flagged_in_file: r.skipped_flagged,
         nominal_step_min: q.nominal_step_s / 60.0,
@@ -370,6 +379,8 @@ pub fn qc_single_record(
         out_dir,
     )?;
     let summary = QcSummary {
+        qc_ran: true,
+        qc_in_reductions: None,
         schema: QC_SCHEMA,
         ebbwise_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
@@ -411,6 +422,8 @@ pub fn qc_records_only(
         )?);
     }
     let summary = QcSummary {
+        qc_ran: true,
+        qc_in_reductions: Some(project.spec.qc.enabled),
         schema: QC_SCHEMA,
         ebbwise_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
@@ -633,6 +646,8 @@ pub fn qc_project(
         )?);
     }
     let summary = QcSummary {
+        qc_ran: true,
+        qc_in_reductions: Some(spec.qc.enabled),
         schema: QC_SCHEMA,
         ebbwise_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,

@@ -12,7 +12,7 @@ use std::path::{Path, PathBuf};
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::load::{locator_for_crs, Loaded};
+use super::load::{locator_for_crs, output_clashes, Loaded, PlannedOutput};
 use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
     applied_tide_m, reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel,
@@ -301,6 +301,62 @@ pub fn output_name(input: &Path, suffix: &str) -> String {
     format!("{stem}.{suffix}.csv")
 }
 
+/// Every file a streaming run of `kind` writes into `out_dir` (on all the project's soundings
+/// files, or `only_files`): one per soundings file, and the run's summary and reports (for a
+/// reduction also the QA report, written or removed), or each per-sounding file's sidecar.
+pub fn run_outputs(
+    project: &crate::io::project::Project,
+    out_dir: &Path,
+    kind: RunKind,
+    only_files: Option<&[PathBuf]>,
+) -> Vec<PlannedOutput> {
+    let mut out = Vec::new();
+    let what = match kind {
+        RunKind::Reduce => "the reduced file",
+        RunKind::SoundingCorrectors => "the per-sounding correction file",
+        RunKind::Apply(_) => "the applied file",
+    };
+    for group in &project.spec.soundings {
+        for f in &group.files {
+            if only_files.is_some_and(|only| !only.iter().any(|o| same_file(o, f))) {
+                continue;
+            }
+            let path = out_dir.join(output_name(f, kind.suffix()));
+            out.push(PlannedOutput {
+                path: path.clone(),
+                what: format!("{what} of {}", f.display()),
+            });
+            if let RunKind::SoundingCorrectors = kind {
+                let mut name = path.file_name().unwrap_or_default().to_os_string();
+                name.push(".json");
+                out.push(PlannedOutput {
+                    path: path.with_file_name(name),
+                    what: format!(
+                        "the sidecar of the per-sounding correction file of {}",
+                        f.display()
+                    ),
+                });
+            }
+        }
+    }
+    let summaries: &[(&str, &str)] = match kind {
+        RunKind::Reduce => &[
+            ("reduce-summary.json", "the run summary"),
+            ("qa-report.json", "the QA report"),
+            ("qa-report.html", "the QA report page"),
+        ],
+        RunKind::SoundingCorrectors => &[],
+        RunKind::Apply(_) => &[("apply-summary.json", "the run summary")],
+    };
+    for (name, what) in summaries {
+        out.push(PlannedOutput {
+            path: out_dir.join(name),
+            what: (*what).to_string(),
+        });
+    }
+    out
+}
+
 /// Reduces every soundings file of a loaded project.
 pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummary, IoError> {
     if let Some(only) = &opts.only_files {
@@ -322,10 +378,21 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
             }
         }
     }
+    let planned = run_outputs(
+        &loaded.project,
+        &opts.out_dir,
+        opts.kind,
+        opts.only_files.as_deref(),
+    );
+    if let Some(clash) = output_clashes(&loaded.project, &planned, &[])
+        .into_iter()
+        .next()
+    {
+        return Err(IoError::content(clash.at, clash.message));
+    }
     std::fs::create_dir_all(&opts.out_dir).map_err(|e| IoError::file(&opts.out_dir, e))?;
     let stale = remove_stale_partials(&opts.out_dir);
     let mut jobs: Vec<(usize, &SoundingsSpec, &PathBuf, PathBuf)> = Vec::new();
-    let mut seen = std::collections::HashMap::new();
     for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
         for f in &group.files {
             if let Some(only) = &opts.only_files {
@@ -334,16 +401,6 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 }
             }
             let out = opts.out_dir.join(output_name(f, opts.kind.suffix()));
-            if let Some(prev) = seen.insert(out.clone(), f.clone()) {
-                return Err(IoError::content(
-                    Position::file(f),
-                    format!(
-                        "would write the same output {} as {}: rename one input",
-                        out.display(),
-                        Path::new(&prev).display()
-                    ),
-                ));
-            }
             jobs.push((gi, group, f, out));
         }
     }

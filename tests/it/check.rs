@@ -211,3 +211,191 @@ fn json_findings_carry_file_line_and_field() {
         p.path("zoning.geojson").to_string_lossy().as_ref()
     );
 }
+
+/// The soundings `day.csv` and `day.reduced.csv` reduced into their own folder: `day.csv`'s
+/// output would be written over `day.reduced.csv`. `check` names both; `reduce`, `correctors
+/// --per-sounding` and `apply` refuse before any output is opened, so no output appears at all
+/// (not even `day.reduced.reduced.csv`, which would not clash) and the input is unchanged.
+#[test]
+fn an_output_over_an_input_is_refused_before_anything_is_written() {
+    let p = MiniProject::new(GOOD);
+    p.write(
+        "project.toml",
+        &MINI_PROJECT
+            .replace("dir = \"out\"", "dir = \".\"")
+            .replace(
+                "files = [\"s.csv\"]",
+                "files = [\"day.csv\", \"day.reduced.csv\"]",
+            ),
+    );
+    p.write("day.csv", GOOD);
+    p.write("day.reduced.csv", GOOD);
+    let day = p.path("day.csv").to_string_lossy().into_owned();
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1), "{err}");
+    let want = format!(
+        "error: {}: the soundings file would be overwritten by the reduced file of {day}",
+        p.path("day.reduced.csv").display()
+    );
+    assert!(err.contains(&want), "{err}");
+    let listing = || {
+        let mut names: Vec<String> = std::fs::read_dir(p.dir.path())
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        names.sort();
+        names
+    };
+    let before = listing();
+    for _ in 0..5 {
+        let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+        assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+        assert!(stderr(&o).contains(&want), "{}", stderr(&o));
+        assert_eq!(listing(), before);
+        assert_eq!(
+            std::fs::read_to_string(p.path("day.reduced.csv")).unwrap(),
+            GOOD
+        );
+    }
+    // The per-sounding correction files: `day.correctors.csv` would be written over an input
+    // of that name.
+    p.write(
+        "project.toml",
+        &MINI_PROJECT
+            .replace("dir = \"out\"", "dir = \".\"")
+            .replace(
+                "files = [\"s.csv\"]",
+                "files = [\"day.csv\", \"day.correctors.csv\"]",
+            ),
+    );
+    p.write("day.correctors.csv", GOOD);
+    let before = listing();
+    let o = ebbwise(&["correctors", &p.project(), "--per-sounding"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains(
+            "the soundings file would be overwritten by the per-sounding correction file of"
+        ),
+        "{}",
+        stderr(&o)
+    );
+    assert_eq!(listing(), before);
+    // `apply` never writes over the correction file it reads.
+    let corr_dir = p.path("corr").to_string_lossy().into_owned();
+    let o = ebbwise(&["correctors", &p.project(), "--out", &corr_dir]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let corr = p.path("corr/correctors-zones.csv");
+    std::fs::rename(&corr, p.path("day.applied.csv")).unwrap();
+    let applied = std::fs::read(p.path("day.applied.csv")).unwrap();
+    let o = ebbwise(&[
+        "apply",
+        &p.path("day.applied.csv").to_string_lossy(),
+        &day,
+        "--project",
+        &p.project(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("the correction file would be overwritten by the applied file of"),
+        "{}",
+        stderr(&o)
+    );
+    assert_eq!(std::fs::read(p.path("day.applied.csv")).unwrap(), applied);
+    assert!(!p.path("apply-summary.json").exists());
+}
+
+/// One bad value in each of two zones and a bad project does not hide the others: `check` lists
+/// every one, with its feature and field, and the JSON findings carry them all.
+#[test]
+fn check_lists_every_zoning_problem_and_what_it_could_not_check() {
+    let p = MiniProject::new(GOOD);
+    p.write(
+        "zoning.geojson",
+        &MINI_ZONING
+            .replace(
+                "\"range_ratio\":1.0",
+                "\"range_ratio\":1.0,\"u_time_corrector_min\":-1,\"weight\":2",
+            )
+            .replace(
+                "\"range_ratio\":0.5",
+                "\"range_ratio\":50,\"u_time_corrector_min\":600",
+            ),
+    );
+    let out = ebbwise(&["check", &p.project(), "--json", "-"]);
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let errors: Vec<(String, String)> = v["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["severity"] == "error")
+        .map(|f| {
+            (
+                f["field"].as_str().unwrap_or("").to_string(),
+                f["message"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    assert_eq!(
+        errors,
+        vec![
+            (
+                "features[0].properties.u_time_corrector_min".to_string(),
+                "zone 'Z1': a standard uncertainty cannot be negative, found -1".to_string()
+            ),
+            (
+                "features[1].properties.range_ratio".to_string(),
+                "zone 'Z2': range ratio 50 is outside the plausible band 0.2 to 5".to_string()
+            ),
+            (
+                "features[1].properties.u_time_corrector_min".to_string(),
+                "zone 'Z2': standard uncertainty 600 min is beyond the plausible 60 min (seconds instead of minutes?)".to_string()
+            ),
+        ]
+    );
+    // The soundings were still read, and check says what it left out.
+    assert_eq!(v["sounding_rows"], 2);
+    let err = stderr(&out);
+    assert!(
+        err.contains("feature(s) 0, 1 take no part in the overlap check"),
+        "{err}"
+    );
+    assert!(
+        err.contains(
+            "not checked because of the errors above: whether the soundings lie inside the zoning"
+        ),
+        "{err}"
+    );
+}
+
+/// A gauge record that cannot be read stops the load, but not the soundings pass: with a zoning
+/// that has no error of its own, the soundings are still located (one of the two lies outside
+/// every zone), and only the gauge spans are named as not checked.
+#[test]
+fn a_bad_gauge_record_does_not_hide_the_soundings_outside_the_zoning() {
+    let p = MiniProject::new(
+        "time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n2026-06-14T01:10:00Z,10.5,50.005,10.0,L1\n",
+    );
+    p.write(
+        "g1.csv",
+        "time,height\n2026-06-14T00:00:00Z,1.0\n2026-06-14T00:06:00Z,x\n",
+    );
+    let (code, err) = check(&p);
+    assert_eq!(code, Some(1), "{err}");
+    assert!(
+        err.contains("g1.csv:3: field 'height': expected a number, found 'x'"),
+        "{err}"
+    );
+    assert!(
+        err.contains("s.csv:3: 1 sounding(s) lie outside every zone (first on this line)"),
+        "{err}"
+    );
+    assert!(
+        err.contains("not checked because of the errors above: whether the gauge records span the survey and have gaps inside it"),
+        "{err}"
+    );
+    assert!(
+        !err.contains("whether the soundings lie inside the zoning"),
+        "{err}"
+    );
+}

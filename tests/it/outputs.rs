@@ -32,7 +32,8 @@ fn rerun_is_byte_identical_and_stale_temporaries_are_removed() {
 #[test]
 fn output_folder_equal_to_input_folder_never_overwrites_inputs() {
     // A soundings file named like an output of another: s.csv → s.reduced.csv, and an input
-    // called s.reduced.csv in the same folder would be overwritten: ebbwise refuses.
+    // called s.reduced.csv in the same folder would be overwritten: ebbwise refuses, before
+    // writing anything.
     let p = MiniProject::new(S);
     std::fs::write(p.path("s.reduced.csv"), S).unwrap();
     p.write(
@@ -47,11 +48,14 @@ fn output_folder_equal_to_input_folder_never_overwrites_inputs() {
     let out = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(out.status.code(), Some(2), "{}", stderr(&out));
     assert!(
-        stderr(&out).contains("refusing to overwrite an input file"),
+        stderr(&out).contains("the soundings file would be overwritten by the reduced file of"),
         "{}",
         stderr(&out)
     );
     assert_eq!(std::fs::read_to_string(p.path("s.reduced.csv")).unwrap(), S);
+    // Refused before any output is opened: the other input's output does not appear either.
+    assert!(!p.path("s.reduced.reduced.csv").exists());
+    assert!(!p.path("reduce-summary.json").exists());
 }
 
 #[test]

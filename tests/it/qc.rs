@@ -1081,3 +1081,74 @@ fn qc_of_one_gauge_leaves_the_project_summary_alone() {
         diffs
     );
 }
+
+/// Whether QC ran, and per gauge how many samples it set aside, in every output that depends on
+/// it: the QA report (JSON and page) of a reduction, and `ebbwise qc`'s summary and text. The
+/// faulty record has 121 samples, 00:00 to 12:00 every 6 min; QC sets aside the spike at 03:00
+/// (1 sample) and, for the level shift at 08:00, the record from 08:00 to its end (08:00 to
+/// 12:00 every 6 min: 41 samples), 42 in all (see `faulty_record` and `FAULT_SOUNDINGS`).
+#[test]
+fn qc_ran_or_not_and_what_it_set_aside_is_stated_everywhere() {
+    for qc_enabled in [true, false] {
+        let (p, rec) = fault_project(qc_enabled);
+        assert_eq!(rec.len(), 121);
+        let text = std::fs::read_to_string(p.path("project.toml")).unwrap();
+        p.write(
+            "project.toml",
+            &format!("{text}\n[uncertainty]\norder = \"2\"\n"),
+        );
+        let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+        assert!(matches!(o.status.code(), Some(0 | 1)), "{}", stderr(&o));
+        let report: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(p.path("out/qa-report.json")).unwrap()).unwrap();
+        assert_eq!(report["qc_ran"], qc_enabled, "{report:#}");
+        let want_set_aside = if qc_enabled {
+            serde_json::json!(42)
+        } else {
+            serde_json::Value::Null
+        };
+        assert_eq!(
+            report["qc_gauges"],
+            serde_json::json!([{"gauge": "g1", "samples": 121, "set_aside": want_set_aside}])
+        );
+        let html = std::fs::read_to_string(p.path("out/qa-report.html")).unwrap();
+        let (said, not_said) = if qc_enabled {
+            ("Gauge quality control <b>ran</b>", "<b>did not run</b>")
+        } else {
+            ("Gauge quality control <b>did not run</b>", "<b>ran</b>")
+        };
+        assert!(
+            html.contains(said) && !html.contains(not_said),
+            "{qc_enabled}"
+        );
+        let row = if qc_enabled {
+            "<tr><td>g1</td><td>121</td><td>42</td></tr>"
+        } else {
+            "<tr><td>g1</td><td>121</td><td>not checked</td></tr>"
+        };
+        assert!(html.contains(row), "{qc_enabled}");
+        // `ebbwise qc` always runs QC, and says whether the project's reductions do.
+        let out = p.path("qcout").to_string_lossy().into_owned();
+        let o = ebbwise(&["qc", &p.project(), "--out", &out]);
+        assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+        let s = summary(&p.path("qcout"));
+        assert_eq!(s["qc_ran"], true);
+        assert_eq!(s["qc_in_reductions"], qc_enabled);
+        let g = gauge_summary(&s, "g1");
+        assert_eq!(
+            (g["samples"].as_u64(), g["set_aside"].as_u64()),
+            (Some(121), Some(42))
+        );
+        let err = stderr(&o);
+        assert!(
+            err.contains("121 samples every 6.0 min, 79 usable"),
+            "{err}"
+        );
+        assert!(err.contains("42 set aside by quality control"), "{err}");
+        assert_eq!(
+            err.contains("but the project sets [qc] enabled = false"),
+            !qc_enabled,
+            "{err}"
+        );
+    }
+}
