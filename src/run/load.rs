@@ -952,11 +952,16 @@ pub const MEAN_LEVEL_WARN_M: f64 = 0.5;
 /// median level and the stated mean level, the record is refused (see [`plausibility`]).
 pub const MEAN_LEVEL_ERROR_M: f64 = 1.0;
 
+/// The largest tidal range on Earth, about 16 m (from memory): a record's spread counts at most
+/// this much in [`plausibility`]'s bounds, so that a record in the wrong unit (whose spread is
+/// inflated with it) does not widen them.
+pub const TIDAL_RANGE_MAX_M: f64 = 16.0;
+
 /// One rule for "the record's level disagrees with the gauge's stated mean level".
 ///
 /// The record's level is its median over the finite readings (robust to the few bad readings
 /// quality control sets aside), its spread `R` the 5th to 95th percentile range. Let `d` be
-/// |median − `mean_level_above_datum_m`|:
+/// |median − `mean_level_above_datum_m`|, with `R` counted at most [`TIDAL_RANGE_MAX_M`]:
 ///
 /// * `d ≤ max(0.5 m, R / 4)`: agreement. A day's median lies within a few decimetres of mean
 ///   level (common practice).
@@ -985,8 +990,9 @@ pub fn plausibility(g: &crate::io::project::GaugeSpec, r: &GaugeRecord) -> Optio
     let spread = pick(0.95) - pick(0.05);
     let stated = g.mean_level_above_datum_m;
     let zero = g.zero_above_datum_m;
-    let agrees =
-        |level: f64, spread: f64| (level - stated).abs() <= MEAN_LEVEL_WARN_M.max(0.25 * spread);
+    let agrees = |level: f64, spread: f64| {
+        (level - stated).abs() <= MEAN_LEVEL_WARN_M.max(0.25 * spread.min(TIDAL_RANGE_MAX_M))
+    };
     if agrees(median, spread) {
         return None;
     }
@@ -1030,7 +1036,7 @@ pub fn plausibility(g: &crate::io::project::GaugeSpec, r: &GaugeRecord) -> Optio
     } else {
         format!("; {}", hints.join("; "))
     };
-    let bound = MEAN_LEVEL_ERROR_M.max(0.5 * spread);
+    let bound = MEAN_LEVEL_ERROR_M.max(0.5 * spread.min(TIDAL_RANGE_MAX_M));
     Some(if off > bound {
         Finding::error(
             at,
