@@ -212,6 +212,20 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                 format!("zone '{}': gauge weights sum to {w:.6}, not 1{hint}", z.id),
             ));
         }
+        // The same gauge in two feeds is well defined (a blend of two lags) but is most often a
+        // feed copied and not edited: say so.
+        for (k, f) in z.feeds.iter().enumerate() {
+            if let Some(j) = z.feeds[..k].iter().position(|e| e.gauge == f.gauge) {
+                findings.push(Finding::warning(
+                    Position::file(&project.spec.zoning)
+                        .field(format!("features[{}].properties.feeds[{k}].gauge", z.feature_index)),
+                    format!(
+                        "zone '{}': gauge '{}' feeds the zone twice (feeds {j} and {k}): a feed copied and not edited? Both are used, blended by their weights",
+                        z.id, f.gauge
+                    ),
+                ));
+            }
+        }
         zones.push(zone);
     }
     findings.extend(zone_overlaps(&zoning, &project.spec.zoning));
