@@ -140,6 +140,7 @@ impl QcSpec {
             band_max_m: g
                 .band_max_m
                 .unwrap_or(g.mean_level_above_datum_m + self.band_half_width_m),
+            ..Default::default()
         }
     }
 }

@@ -144,6 +144,58 @@ impl fmt::Display for QcReason {
                 utc_label(other_s),
                 change_m.abs() / interval_h,
             ),
+            QcReason::BoundaryShift {
+                size_m,
+                u_size_m,
+                boundary_from_s,
+                boundary_until_s,
+                step_at_s,
+                set_aside_from_s,
+                limit_m,
+                window_min,
+            } => {
+                write!(
+                    f,
+                    "step of {size_m:+.3} m ± {u_size_m:.3} m across the hole from {} to {}, fitted best at {}; ",
+                    utc_label(boundary_from_s),
+                    utc_label(boundary_until_s),
+                    utc_label(step_at_s),
+                )?;
+                if set_aside_from_s < step_at_s {
+                    write!(
+                        f,
+                        "it may start as early as {}, so the record is set aside from there ",
+                        utc_label(set_aside_from_s)
+                    )?;
+                } else {
+                    write!(f, "the record is set aside from it ")?;
+                }
+                write!(
+                    f,
+                    "(local tidal model fitted over {window_min:.0} min each side; limit {limit_m:.3} m)"
+                )
+            }
+            QcReason::TimeLag {
+                lag_min,
+                from_s,
+                until_s,
+                rms_without_m,
+                rms_with_m,
+            } => {
+                write!(
+                    f,
+                    "times {lag_min:+.0} min off against the record before {} (clock jump): ",
+                    utc_label(from_s)
+                )?;
+                match until_s {
+                    Some(u) => write!(f, "set aside until {}", utc_label(u))?,
+                    None => write!(f, "set aside to the record's end")?,
+                }
+                write!(
+                    f,
+                    " (local tidal model residual {rms_without_m:.3} m RMS without the lag, {rms_with_m:.3} m with it)"
+                )
+            }
         }
     }
 }
