@@ -222,8 +222,6 @@ pub struct QcThresholds {
     /// Smallest lag of a run against the record before it that is a timing fault, minutes
     /// (default 10: below it a lag hardly changes a reduced depth; from memory).
     pub lag_min_min: f64,
-    /// Lags searched at a boundary, ± minutes (default 180).
-    pub lag_search_min: f64,
     /// A lag is accepted when the fit's residual sum of squares falls by more than `lag_k²`
     /// times the residual variance (a likelihood-ratio test with a wide margin; default 10).
     pub lag_k: f64,
@@ -249,8 +247,7 @@ impl Default for QcThresholds {
             boundary_window_min: 360.0,
             boundary_shift_k: 6.0,
             lag_min_min: 10.0,
-            lag_search_min: 180.0,
-            lag_k: 10.0,
+            lag_k: 4.0,
         }
     }
 }
@@ -1231,7 +1228,8 @@ fn local_fits(rows: &[[f64; NB]], y: &[f64], splits: &[usize]) -> Vec<LocalFit> 
                 m[(c, NB)] = suf_r[p][c];
                 m[(NB, c)] = suf_r[p][c];
             }
-            m[(NB, NB)] = (n - p) as f64;
+            // No sample after the split: no step (its row and column reduce to the identity).
+            m[(NB, NB)] = if p >= n { 1.0 } else { (n - p) as f64 };
             v[NB] = suf_y[p];
             let ch = m.cholesky()?;
             let beta = ch.solve(&v);
@@ -1257,6 +1255,11 @@ struct Boundary {
     /// Window: `clean[lo..hi]`.
     lo: usize,
     hi: usize,
+    /// Lags a clock jump here would have, minutes: the hole's length less one step (a jump
+    /// ahead leaves a hole of its size; a jump back whose repeated times were all set aside
+    /// too), either sign, and minus the span of times set aside in between (a jump back whose
+    /// repeated times were taken out by the time-order test).
+    lag_candidates_min: Vec<f64>,
 }
 
 /// The boundaries of `clean` and their windows. A boundary is an interval longer than
@@ -1271,14 +1274,17 @@ fn boundaries(
     timing_out: &[bool],
     nominal_step_s: f64,
     th: &QcThresholds,
+    window_min: f64,
 ) -> Vec<Boundary> {
     let m = clean.len();
-    let w_s = th.boundary_window_min * 60.0;
+    let w_s = window_min * 60.0;
+    let max_hole_s = th.boundary_window_min * 60.0;
     let min_hole_s = (th.gap_factor * nominal_step_s).max(900.0);
     let ks: Vec<usize> = (1..m)
         .filter(|&k| {
             let dt = times_s[clean[k]] - times_s[clean[k - 1]];
-            (dt > min_hole_s && dt <= w_s) || (clean[k - 1] + 1..clean[k]).any(|q| timing_out[q])
+            (dt > min_hole_s && dt <= max_hole_s)
+                || (clean[k - 1] + 1..clean[k]).any(|q| timing_out[q])
         })
         .collect();
     let mut out = Vec::new();
@@ -1292,7 +1298,27 @@ fn boundaries(
         let left_ok = k - lo >= 8 && t_left - times_s[clean[lo]] >= 3600.0;
         let right_ok = hi - k >= 8 && times_s[clean[hi - 1]] - t_right >= 3600.0;
         if left_ok && right_ok {
-            out.push(Boundary { k, lo, hi });
+            let mut lag_candidates_min = Vec::new();
+            let hole_min = (t_right - t_left - nominal_step_s) / 60.0;
+            if hole_min >= th.lag_min_min {
+                lag_candidates_min.extend([hole_min, -hole_min]);
+            }
+            let out_times = (clean[k - 1] + 1..clean[k])
+                .filter(|&q| timing_out[q] && times_s[q].is_finite())
+                .map(|q| times_s[q]);
+            let (lo_t, hi_t) = out_times.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+                (a.min(x), b.max(x))
+            });
+            let span_min = (hi_t - lo_t + nominal_step_s) / 60.0;
+            if span_min.is_finite() && span_min >= th.lag_min_min {
+                lag_candidates_min.push(-span_min);
+            }
+            out.push(Boundary {
+                k,
+                lo,
+                hi,
+                lag_candidates_min,
+            });
         }
     }
     out
@@ -1305,8 +1331,8 @@ struct BoundaryFit {
     /// Earliest split whose fit is as good as the best one within 4 residual σ (the step could
     /// start there).
     earliest_split: usize,
-    /// Fit with the step at the boundary and no lag.
-    at_boundary: LocalFit,
+    /// Fit with neither step nor lag.
+    plain: LocalFit,
     /// Best lag of the run after the boundary, minutes, and the fit with it (step at the
     /// boundary).
     lag: Option<(f64, LocalFit)>,
@@ -1327,7 +1353,7 @@ fn fit_boundary(
     let n = win.len();
     let pb = b.k - b.lo;
     let t_mid = 0.5 * (times_s[clean[b.k - 1]] + times_s[clean[b.k]]);
-    let half_h = th.boundary_window_min / 60.0 + 0.5 * (times_s[clean[b.k]] - t_mid) / 3600.0;
+    let half_h = (times_s[clean[b.hi - 1]] - times_s[clean[b.lo]]) / 7200.0;
     let x: Vec<f64> = win.iter().map(|&i| (times_s[i] - t_mid) / 3600.0).collect();
     let y: Vec<f64> = win.iter().map(|&i| heights_m[i]).collect();
     let rows: Vec<[f64; NB]> = x.iter().map(|&xh| local_row(xh, half_h)).collect();
@@ -1340,7 +1366,7 @@ fn fit_boundary(
         .collect();
     let fits = local_fits(&rows, &y, &splits);
     let best = *fits.iter().min_by(|a, c| a.rss.total_cmp(&c.rss))?;
-    let at_boundary = *fits.iter().find(|f| f.split == pb)?;
+    let plain = *local_fits(&rows, &y, &[n]).first()?;
     let var = best.rss / n.saturating_sub(NB + 1).max(1) as f64;
     let earliest_split = fits
         .iter()
@@ -1348,58 +1374,27 @@ fn fit_boundary(
         .map(|f| f.split)
         .min()
         .unwrap_or(best.split);
+    // A lag: the run after the boundary moved by one of the boundary's candidate lags, with no
+    // step (a clock jump leaves the level alone).
     let lag = if with_lag {
-        // Coarse search on at most ~240 samples, then 1-min refinement around the best.
-        let stride = (n / 240).max(1);
-        let sub: Vec<usize> = (0..n).step_by(stride).collect();
-        let sub_pb = sub.partition_point(|&q| q < pb);
-        let ys: Vec<f64> = sub.iter().map(|&q| y[q]).collect();
-        let rss_at = |lag_min: f64, idx: &[usize], ys: &[f64], split: usize| -> Option<LocalFit> {
-            let rows: Vec<[f64; NB]> = idx
-                .iter()
-                .enumerate()
-                .map(|(j, &q)| {
-                    let xh = if j >= split {
-                        x[q] - lag_min / 60.0
-                    } else {
-                        x[q]
-                    };
-                    local_row(xh, half_h)
-                })
-                .collect();
-            local_fits(&rows, ys, &[split]).first().copied()
-        };
-        let coarse = 5.0;
-        let nl = (th.lag_search_min / coarse).floor() as i64;
-        let mut best_lag: Option<(f64, f64)> = None;
-        for q in -nl..=nl {
-            let l = q as f64 * coarse;
-            if let Some(f) = rss_at(l, &sub, &ys, sub_pb) {
-                if best_lag.map_or(true, |(_, r)| f.rss < r) {
-                    best_lag = Some((l, f.rss));
-                }
-            }
-        }
-        best_lag.and_then(|(l0, _)| {
-            let all: Vec<usize> = (0..n).collect();
-            let mut bl: Option<(f64, LocalFit)> = None;
-            for q in -5..=5 {
-                let l = l0 + q as f64;
-                if let Some(f) = rss_at(l, &all, &y, pb) {
-                    if bl.map_or(true, |(_, g)| f.rss < g.rss) {
-                        bl = Some((l, f));
-                    }
-                }
-            }
-            bl
-        })
+        b.lag_candidates_min
+            .iter()
+            .filter_map(|&l| {
+                let rows: Vec<[f64; NB]> = x
+                    .iter()
+                    .enumerate()
+                    .map(|(j, &xh)| local_row(if j >= pb { xh - l / 60.0 } else { xh }, half_h))
+                    .collect();
+                local_fits(&rows, &y, &[n]).first().map(|f| (l, *f))
+            })
+            .min_by(|p, q| p.1.rss.total_cmp(&q.1.rss))
     } else {
         None
     };
     Some(BoundaryFit {
         step: best,
         earliest_split,
-        at_boundary,
+        plain,
         lag,
         n,
     })
@@ -1417,7 +1412,10 @@ fn boundary_lags(
     th: &QcThresholds,
     fl: &mut Flagger,
 ) {
-    let bs = boundaries(times_s, clean, timing_out, nominal_step_s, th);
+    // Twice the window: a lag changes the phase of every cycle after the boundary, and the
+    // longer the run compared the less of that the model's slow modulation can take up.
+    let w = 2.0 * th.boundary_window_min;
+    let bs = boundaries(times_s, clean, timing_out, nominal_step_s, th, w);
     let mut lags: Vec<(usize, f64, f64, f64)> = Vec::new(); // (k, lag, rms without, rms with)
     for b in &bs {
         let Some(f) = fit_boundary(times_s, heights_m, clean, b, nominal_step_s, th, true) else {
@@ -1426,20 +1424,19 @@ fn boundary_lags(
         let Some((lag_min, lf)) = f.lag else {
             continue;
         };
+        // The lag must explain much of what the plain model leaves, and about as well as the
+        // best step: near mid-tide a clock jump looks locally like a step of the rate times the
+        // lag, and the lag (one value the hole itself gives) is the simpler explanation.
         let var = lf.rss.min(f.step.rss) / f.n.saturating_sub(NB + 2).max(1) as f64;
-        let gain = (f.at_boundary.rss - lf.rss) / var.max(1e-12);
-        if std::env::var("QCDBG").is_ok() {
-            eprintln!(
-                "lag boundary {} lag {lag_min} gain {gain:.1} rss lag {:.4} step {:.4} at_b {:.4}",
-                b.k, lf.rss, f.step.rss, f.at_boundary.rss
-            );
-        }
-        if lag_min.abs() >= th.lag_min_min && gain > th.lag_k * th.lag_k && lf.rss < f.step.rss {
+        let k2 = th.lag_k * th.lag_k;
+        let gain = (f.plain.rss - lf.rss) / var.max(1e-12);
+        let worse = (lf.rss - f.step.rss) / var.max(1e-12);
+        if gain > k2 && worse < k2 {
             let nf = f.n as f64;
             lags.push((
                 b.k,
                 lag_min,
-                (f.at_boundary.rss / nf).sqrt(),
+                (f.plain.rss / nf).sqrt(),
                 (lf.rss / nf).sqrt(),
             ));
         }
@@ -1480,15 +1477,19 @@ fn boundary_shifts(
     th: &QcThresholds,
     fl: &mut Flagger,
 ) {
-    let bs = boundaries(times_s, clean, timing_out, nominal_step_s, th);
+    let bs = boundaries(
+        times_s,
+        clean,
+        timing_out,
+        nominal_step_s,
+        th,
+        th.boundary_window_min,
+    );
     for b in &bs {
         let Some(f) = fit_boundary(times_s, heights_m, clean, b, nominal_step_s, th, false) else {
             continue;
         };
         let limit = (th.boundary_shift_k * f.step.u_step_m).max(th.shift_min_m);
-        if std::env::var("QCDBG").is_ok() {
-            eprintln!("gap {:.0} boundary {} n {} best split {} (pb {}) step {:.4} u {:.4} rss {:.4} at_b step {:.4} u {:.4} rss {:.4}", (times_s[clean[b.k]] - times_s[clean[b.k - 1]]) / 60.0, b.k, f.n, f.step.split, b.k - b.lo, f.step.step_m, f.step.u_step_m, f.step.rss, f.at_boundary.step_m, f.at_boundary.u_step_m, f.at_boundary.rss);
-        }
         if f.step.step_m.abs() <= limit {
             continue;
         }
@@ -1937,6 +1938,76 @@ mod tests {
                         "set aside from {} h before the shift",
                         (shift_from - t[first]) / 3600.0
                     );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn clock_jump_for_a_day_is_found_at_every_phase() {
+        // The logger's clock jumps 1 h ahead for a day and is then set back: the day's samples
+        // carry times 1 h late, and at the set-back an hour of times repeats. The jump's start
+        // is swept over 25 h in 30-min steps, and also put just after each low water of a day.
+        let low_waters: Vec<f64> = {
+            let (t, _) = rich_record(60.0, 3.0, 0.0, 0);
+            (1..t.len() - 1)
+                .filter(|&i| {
+                    t[i] > t[0] + 86_400.0
+                        && t[i] < t[0] + 2.0 * 86_400.0
+                        && rich_tide(t[i]) < rich_tide(t[i - 1])
+                        && rich_tide(t[i]) <= rich_tide(t[i + 1])
+                })
+                .map(|i| t[i] + 600.0)
+                .collect()
+        };
+        assert_eq!(low_waters.len(), 2);
+        for (step, sd, seed) in [(60.0, 0.01, 61), (360.0, 0.01, 62), (360.0, 0.02, 63)] {
+            let t0 = rich_record(step, 0.1, 0.0, 0).0[0];
+            let starts = (0..50)
+                .map(|q| t0 + 86_400.0 + q as f64 * 1800.0)
+                .chain(low_waters.iter().copied());
+            for (q, jump) in starts.enumerate() {
+                let (genuine, h) = rich_record(step, 4.0, sd, seed + q as u64);
+                let late = |tg: f64| tg >= jump && tg < jump + 86_400.0;
+                let t: Vec<f64> = genuine
+                    .iter()
+                    .map(|&tg| if late(tg) { tg + 3600.0 } else { tg })
+                    .collect();
+                let r = run_qc(&t, &h, &th());
+                let what = || {
+                    format!(
+                        "step {step} s, σ {sd}, jump {q}: {:?}",
+                        distinct_reasons(&r)
+                    )
+                };
+                // Every sample with a wrong time is set aside.
+                for (i, &tg) in genuine.iter().enumerate() {
+                    if late(tg) {
+                        assert!(!r.flags[i].usable(), "{} kept; {}", i, what());
+                    }
+                }
+                // The lag is named, within a few minutes of the hour.
+                let lag = r.notes.iter().find_map(|n| match n.reason {
+                    QcReason::TimeLag { lag_min, .. } => Some(lag_min),
+                    _ => None,
+                });
+                assert!(
+                    lag.is_some_and(|l| (l - 60.0).abs() <= 3.0),
+                    "lag {lag:?}; {}",
+                    what()
+                );
+                // The genuine record before the jump and after the repeated hour stays in use
+                // (but for the spike test's rare false alarms on noise, a property of that test).
+                for (i, &tg) in genuine.iter().enumerate() {
+                    if tg < jump || tg >= jump + 86_400.0 + 3600.0 {
+                        let f = r.flags[i];
+                        assert!(
+                            f.iter()
+                                .all(|x| matches!(x, QcFlag::Spike | QcFlag::GapBefore)),
+                            "genuine sample {i} set aside; {}",
+                            what()
+                        );
+                    }
                 }
             }
         }
