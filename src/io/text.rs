@@ -222,6 +222,18 @@ impl fmt::Display for CompareFinding {
                 f,
                 "the two agree best with {best_lag_min:+.1} min more time corrector (σ {std_at_best_lag_m:.3} m instead of {std_m:.3} m): check both gauges' clocks and time zones, and the time corrector"
             ),
+            CompareFinding::WindowDrift {
+                drift,
+                limit_m_per_day,
+            } => write!(
+                f,
+                "drift of {:+.4} m/day ± {:.4} between {} and {} (limit {limit_m_per_day:.4} m/day over {:.1}-day windows): a drifting or settling sensor",
+                drift.rate_m_per_day,
+                drift.u_rate_m_per_day,
+                utc_label(drift.from_s),
+                utc_label(drift.until_s),
+                (drift.until_s - drift.from_s) / 86400.0
+            ),
             CompareFinding::Step(st) => write!(
                 f,
                 "step of {:+.3} m in the difference at {}: one of the gauges moved or was re-levelled",
