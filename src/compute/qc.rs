@@ -18,15 +18,25 @@
 //!    of the two. A spike is one whose residual exceeds `spike_k` robust standard deviations
 //!    (1.4826 × the median absolute residual over the record) and `spike_min_m`. Taking the
 //!    smaller side keeps steps, gap edges and the neighbours of a spike from raising alarms.
-//! 5. **Level shift** — at each junction between two samples, a cubic in time plus a step is
+//! 5. **Boundary tests** — at each hole (longer than `gap_factor` steps and 15 min, at most
+//!    `boundary_window_min`) and each junction with samples set aside for their time in between,
+//!    a local tidal model (mean, slope, an M2-speed sinusoid and its slow modulation, K1- and
+//!    M4-speed sinusoids) is fitted to both sides. `time_lag`: the run after the boundary fits
+//!    with its times moved back by the hole's own length (a clock jump) clearly better than
+//!    without, and about as well as with the best step; it is set aside up to the boundary with
+//!    the opposite lag or the record's end. Then `level_shift` across the hole: the model's step
+//!    at the best junction within `shift_window_min` of the hole exceeds `boundary_shift_k`
+//!    standard errors and `shift_min_m`; the record is set aside from the earliest junction whose
+//!    fit is as good within 4 σ (a step that cannot be dated is never let through).
+//! 6. **Level shift** — at each junction between two samples, a cubic in time plus a step is
 //!    fitted by least squares to the `shift_window_min` of samples on each side; the step `J` is
 //!    the statistic. A junction whose `|J|` exceeds `shift_k` robust standard deviations of `J`
 //!    over the record and `shift_min_m`, and is the largest within a window, flags the first
 //!    sample after it. The cubic follows the tide; what it leaves is of fourth order and nearly
 //!    symmetric about the junction, so it hardly enters `J`.
-//! 6. **Rate** — between consecutive clean samples, `|Δh| > max_rate · Δt + rate_allowance_m`;
+//! 7. **Rate** — between consecutive clean samples, `|Δh| > max_rate · Δt + rate_allowance_m`;
 //!    the one of the pair with the larger spike residual is flagged.
-//! 7. **Gap** — an interval longer than `gap_factor` × the record's nominal step (median interval)
+//! 8. **Gap** — an interval longer than `gap_factor` × the record's nominal step (median interval)
 //!    flags the sample after it as `gap_before`; informational, the sample stays usable (the
 //!    reducer's maximum-gap rule decides what is bridged).
 //!

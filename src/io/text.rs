@@ -309,6 +309,44 @@ mod tests {
             "-0.600 m in 6.0 min to/from 2026-06-14T09:30:00Z (6.00 m/h; limit 3.00 m/h + 0.050 m)"
         );
         assert_eq!(
+            QcReason::TimeLag {
+                lag_min: 60.0,
+                from_s: T0,
+                until_s: Some(T0 + 86_400.0),
+                rms_without_m: 0.0212,
+                rms_with_m: 0.0098
+            }
+            .to_string(),
+            "times +60 min off against the record before 2026-06-14T09:30:00Z (clock jump): set aside until 2026-06-15T09:30:00Z (local tidal model residual 0.021 m RMS without the lag, 0.010 m with it)"
+        );
+        assert_eq!(
+            QcReason::BoundaryShift {
+                size_m: 0.15,
+                u_size_m: 0.004,
+                boundary_from_s: T0,
+                boundary_until_s: T0 + 2940.0,
+                step_at_s: T0 + 9060.0,
+                set_aside_from_s: T0 + 8940.0,
+                limit_m: 0.05,
+                window_min: 360.0
+            }
+            .to_string(),
+            "step of +0.150 m ± 0.004 m across the hole from 2026-06-14T09:30:00Z to 2026-06-14T10:19:00Z, fitted best at 2026-06-14T12:01:00Z; it may start as early as 2026-06-14T11:59:00Z, so the record is set aside from there (local tidal model fitted over 360 min each side; limit 0.050 m)"
+        );
+        assert_eq!(
+            CompareFinding::WindowDrift {
+                drift: crate::compute::compare::WindowDrift {
+                    from_s: T0,
+                    until_s: T0 + 4.0 * 86_400.0,
+                    rate_m_per_day: 0.0112,
+                    u_rate_m_per_day: 0.0008
+                },
+                limit_m_per_day: 0.005
+            }
+            .to_string(),
+            "drift of +0.0112 m/day ± 0.0008 between 2026-06-14T09:30:00Z and 2026-06-18T09:30:00Z (limit 0.0050 m/day over 4.0-day windows): a drifting or settling sensor"
+        );
+        assert_eq!(
             CompareFinding::Step(Step {
                 at_s: T0,
                 size_m: 0.1
