@@ -1078,3 +1078,64 @@ fn qc_of_one_gauge_leaves_the_project_summary_alone() {
         diffs
     );
 }
+
+/// A logger clock 1 h ahead for a day (a six-minute record over three days of `tide` with 5 mm
+/// noise, the clock jumping at 2026-06-15T00:00Z and set back a day later): QC flags the day's
+/// samples `time_lag` naming the lag, and a sounding in that day is `gauge_flagged`, while the
+/// days before and after are reduced.
+#[test]
+fn reducer_sets_aside_a_day_of_clock_jump() {
+    let t0 = ts("2026-06-14T00:00:00Z");
+    let (jump, back) = (ts("2026-06-15T00:00:00Z"), ts("2026-06-16T00:00:00Z"));
+    let mut noise = Noise::new(0.005, 71);
+    let samples: Vec<(i64, f64)> = (0..=720)
+        .map(|i| {
+            let t = t0 + i * 360;
+            let h = tide(t as f64) - 1.0 + noise.next();
+            (if t >= jump && t < back { t + 3600 } else { t }, h)
+        })
+        .collect();
+    let (text, _) = record_csv(&samples);
+    let sounding_times = [
+        ("2026-06-14T12:00:00Z", "reduced"),
+        ("2026-06-15T12:00:00Z", "gauge_flagged"),
+        ("2026-06-16T12:00:00Z", "reduced"),
+    ];
+    let mut s = String::from("time,lon,lat,depth,line\n");
+    for (t, _) in sounding_times {
+        s.push_str(&format!("{t},10.005,50.005,15.0,L1\n"));
+    }
+    let p = MiniProject::new(&s);
+    p.write("g1.csv", &text);
+
+    let qc_out = p.path("qc");
+    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&qc_out.join("g1.qc.csv"));
+    // Sample i is line i + 2; the jumped samples are 240..480.
+    for r in &rows {
+        let line: i64 = col(&h, r, "line").parse().unwrap();
+        let flags = col(&h, r, "qc_flags");
+        let jumped = (242..482).contains(&line);
+        assert_eq!(flags.contains("time_lag"), jumped, "line {line}: {flags}");
+        if jumped {
+            assert!(
+                col(&h, r, "qc_detail").contains("+60 min"),
+                "line {line}: {}",
+                col(&h, r, "qc_detail")
+            );
+        }
+    }
+
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
+    for (r, (t, status)) in rows.iter().zip(sounding_times) {
+        assert_eq!(
+            col(&h, r, "status"),
+            status,
+            "{t}: {}",
+            col(&h, r, "status_detail")
+        );
+    }
+}
