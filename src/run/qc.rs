@@ -556,8 +556,8 @@ pub fn qc_project(
         shift_window_min: spec.qc.compare_shift_window_min,
         shift_k: spec.qc.shift_k,
         shift_min_m: spec.qc.shift_min_m,
-        drift_window_days: CompareSettings::DRIFT_WINDOW_DAYS,
-        max_window_drift_m_per_day: CompareSettings::MAX_WINDOW_DRIFT_M_PER_DAY,
+        drift_window_days: spec.qc.compare_drift_window_days,
+        max_window_drift_m_per_day: spec.qc.compare_max_window_drift_m_per_day,
     };
     let plans = planned_comparisons(loaded);
     let plans: Vec<_> = plans
