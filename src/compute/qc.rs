@@ -1976,17 +1976,31 @@ mod tests {
             let starts = (0..50)
                 .map(|q| t0 + 86_400.0 + q as f64 * 1800.0)
                 .chain(low_waters.iter().copied());
-            for (q, jump) in starts.enumerate() {
+            // Both ways a record can reach QC: with the repeated hour's two copies as written,
+            // and with both copies already taken out (as when both are refused).
+            let cases = starts.enumerate().flat_map(|c| [(c, false), (c, true)]);
+            for ((q, jump), drop_repeats) in cases {
                 let (genuine, h) = rich_record(step, 4.0, sd, seed + q as u64);
                 let late = |tg: f64| tg >= jump && tg < jump + 86_400.0;
-                let t: Vec<f64> = genuine
+                let label = |tg: f64| if late(tg) { tg + 3600.0 } else { tg };
+                let repeated =
+                    |tg: f64| label(tg) >= jump + 86_400.0 && label(tg) < jump + 90_000.0;
+                let keep: Vec<bool> = genuine
                     .iter()
-                    .map(|&tg| if late(tg) { tg + 3600.0 } else { tg })
+                    .map(|&tg| !(drop_repeats && repeated(tg)))
                     .collect();
+                let mut kk = keep.iter();
+                let h: Vec<f64> = h.into_iter().filter(|_| *kk.next().unwrap()).collect();
+                let mut kk = keep.iter();
+                let genuine: Vec<f64> = genuine
+                    .into_iter()
+                    .filter(|_| *kk.next().unwrap())
+                    .collect();
+                let t: Vec<f64> = genuine.iter().map(|&tg| label(tg)).collect();
                 let r = run_qc(&t, &h, &th());
                 let what = || {
                     format!(
-                        "step {step} s, σ {sd}, jump {q}: {:?}",
+                        "step {step} s, σ {sd}, jump {q}, repeats dropped {drop_repeats}: {:?}",
                         distinct_reasons(&r)
                     )
                 };
