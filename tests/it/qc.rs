@@ -1139,3 +1139,61 @@ fn reducer_sets_aside_a_day_of_clock_jump() {
         );
     }
 }
+
+/// A +0.15 m level shift 1.7 h after a 48-min hole (a one-minute record over two days of `tide`
+/// with 5 mm noise): QC sets aside the record from the shift on, and a sounding after the shift
+/// is `gauge_flagged`, not reduced with a tide 0.15 m too high; one before the hole is reduced.
+/// (With the boundary tests off, `[qc] boundary_window_min = 1`, this shift passes QC.)
+#[test]
+fn reducer_sets_aside_a_shift_next_to_a_hole() {
+    let t0 = ts("2026-06-14T00:00:00Z");
+    let (hole, hole_end) = (ts("2026-06-14T16:00:00Z"), ts("2026-06-14T16:48:00Z"));
+    let shift = hole_end + 102 * 60;
+    let mut noise = Noise::new(0.005, 72);
+    let samples: Vec<(i64, f64)> = (0..=2880)
+        .map(|i| {
+            let t = t0 + i * 60;
+            let h = tide(t as f64) - 1.0 + noise.next();
+            (t, if t >= shift { h + 0.15 } else { h })
+        })
+        .filter(|&(t, _)| t < hole || t >= hole_end)
+        .collect();
+    let (text, _) = record_csv(&samples);
+    let soundings = [
+        ("2026-06-14T12:00:00Z", "reduced"),
+        ("2026-06-14T20:00:00Z", "gauge_flagged"),
+        ("2026-06-15T12:00:00Z", "gauge_flagged"),
+    ];
+    let mut s = String::from("time,lon,lat,depth,line\n");
+    for (t, _) in soundings {
+        s.push_str(&format!("{t},10.005,50.005,15.0,L1\n"));
+    }
+    let p = MiniProject::new(&s);
+    p.write("g1.csv", &text);
+
+    let qc_out = p.path("qc");
+    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&qc_out.join("g1.qc.csv"));
+    for r in &rows {
+        let t = ts(col(&h, r, "time_utc"));
+        let flags = col(&h, r, "qc_flags");
+        if t >= shift {
+            assert!(flags.contains("level_shift"), "{}: {flags}", utc(t));
+        } else if t < hole - 6 * 3600 {
+            assert_eq!(flags, "", "{}", utc(t));
+        }
+    }
+
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
+    for (r, (t, status)) in rows.iter().zip(soundings) {
+        assert_eq!(
+            col(&h, r, "status"),
+            status,
+            "{t}: {}",
+            col(&h, r, "status_detail")
+        );
+    }
+}
