@@ -1410,9 +1410,10 @@ fn fit_boundary(
     })
 }
 
-/// Timing faults at boundaries: a run after a boundary whose best lag against the run before
-/// it is at least `lag_min_min` and explains the two sides better than any step. The run is set
-/// aside up to a boundary with the opposite lag (the clock set back), else to the record's end.
+/// Timing faults at boundaries: a run after a boundary that, moved by one of the boundary's
+/// candidate lags, fits the local model much better than unmoved and about as well as with the
+/// best step. The run is set aside up to a boundary with the opposite lag (the clock set back),
+/// else to the record's end.
 fn boundary_lags(
     times_s: &[f64],
     heights_m: &[f64],
