@@ -23,15 +23,25 @@
 //!    of the two. A spike is one whose residual exceeds `spike_k` robust standard deviations
 //!    (1.4826 × the median absolute residual over the record) and `spike_min_m`. Taking the
 //!    smaller side keeps steps, gap edges and the neighbours of a spike from raising alarms.
-//! 5. **Level shift** — at each junction between two samples, a cubic in time plus a step is
+//! 5. **Boundary tests** — at each hole (longer than `gap_factor` steps and 15 min, at most
+//!    `boundary_window_min`) and each junction with samples set aside for their time in between,
+//!    a local tidal model (mean, slope, an M2-speed sinusoid and its slow modulation, K1- and
+//!    M4-speed sinusoids) is fitted to both sides. `time_lag`: the run after the boundary fits
+//!    with its times moved back by the hole's own length (a clock jump) clearly better than
+//!    without, and about as well as with the best step; it is set aside up to the boundary with
+//!    the opposite lag or the record's end. Then `level_shift` across the hole: the model's step
+//!    at the best junction within `shift_window_min` of the hole exceeds `boundary_shift_k`
+//!    standard errors and `shift_min_m`; the record is set aside from the earliest junction whose
+//!    fit is as good within 4 σ (a step that cannot be dated is never let through).
+//! 6. **Level shift** — at each junction between two samples, a cubic in time plus a step is
 //!    fitted by least squares to the `shift_window_min` of samples on each side; the step `J` is
 //!    the statistic. A junction whose `|J|` exceeds `shift_k` robust standard deviations of `J`
 //!    over the record and `shift_min_m`, and is the largest within a window, flags the first
 //!    sample after it. The cubic follows the tide; what it leaves is of fourth order and nearly
 //!    symmetric about the junction, so it hardly enters `J`.
-//! 6. **Rate** — between consecutive clean samples, `|Δh| > max_rate · Δt + rate_allowance_m`;
+//! 7. **Rate** — between consecutive clean samples, `|Δh| > max_rate · Δt + rate_allowance_m`;
 //!    the one of the pair with the larger spike residual is flagged.
-//! 7. **Gap** — an interval longer than `gap_factor` × the record's nominal step (median interval)
+//! 8. **Gap** — an interval longer than `gap_factor` × the record's nominal step (median interval)
 //!    flags the sample after it as `gap_before`; informational, the sample stays usable (the
 //!    reducer's maximum-gap rule decides what is bridged).
 //!
@@ -59,12 +69,14 @@ pub enum QcFlag {
     Rate,
     /// A step in the level (the first sample after it).
     LevelShift,
+    /// A run whose times are shifted against the record around it (a logger clock jump).
+    TimeLag,
     /// A gap longer than the threshold precedes this sample (informational).
     GapBefore,
 }
 
 /// Number of [`QcFlag`] kinds.
-pub const N_FLAGS: usize = 8;
+pub const N_FLAGS: usize = 9;
 
 impl QcFlag {
     /// All flags, in report order.
@@ -76,6 +88,7 @@ impl QcFlag {
         QcFlag::Spike,
         QcFlag::Rate,
         QcFlag::LevelShift,
+        QcFlag::TimeLag,
         QcFlag::GapBefore,
     ];
 
@@ -89,6 +102,7 @@ impl QcFlag {
             QcFlag::Spike => "spike",
             QcFlag::Rate => "rate",
             QcFlag::LevelShift => "level_shift",
+            QcFlag::TimeLag => "time_lag",
             QcFlag::GapBefore => "gap_before",
         }
     }
@@ -103,6 +117,7 @@ impl QcFlag {
             QcFlag::Spike => "far from the level its neighbours predict",
             QcFlag::Rate => "level changes faster than the maximum rate",
             QcFlag::LevelShift => "step in the level (first sample after it)",
+            QcFlag::TimeLag => "times shifted against the record around it (clock jump)",
             QcFlag::GapBefore => "gap longer than the threshold before this sample",
         }
     }
@@ -119,6 +134,8 @@ impl QcFlag {
 
     /// Whether the flag concerns the sample's time rather than its level: such samples are not
     /// on the record's timeline, so they do not block interpolation between their neighbours.
+    /// [`QcFlag::TimeLag`] is not one of them: its samples cover a stretch of the timeline whose
+    /// true level is not in the record, so they block interpolation like a level flag.
     pub fn is_timing(self) -> bool {
         matches!(self, QcFlag::TimeOrder | QcFlag::DuplicateTime)
     }
@@ -210,6 +227,19 @@ pub struct QcThresholds {
     pub band_min_m: f64,
     /// Highest plausible level above chart datum, metres (default mean level + 10 m).
     pub band_max_m: f64,
+    /// Window on each side of a boundary (a hole in the record or a place where the time-order
+    /// test took samples out) for the local tidal model of the boundary tests, minutes (default
+    /// 360: half a day in all, one semidiurnal cycle, enough to pin the harmonics' phases).
+    pub boundary_window_min: f64,
+    /// Step across a boundary: threshold in standard errors of the fitted step (default 6; the
+    /// floor `shift_min_m` applies too).
+    pub boundary_shift_k: f64,
+    /// Smallest lag of a run against the record before it that is a timing fault, minutes
+    /// (default 10: below it a lag hardly changes a reduced depth; from memory).
+    pub lag_min_min: f64,
+    /// A lag is accepted when the fit's residual sum of squares falls by more than `lag_k²`
+    /// times the residual variance (a likelihood-ratio test with a wide margin; default 10).
+    pub lag_k: f64,
 }
 
 impl Default for QcThresholds {
@@ -229,6 +259,10 @@ impl Default for QcThresholds {
             shift_sets_aside_after: true,
             band_min_m: f64::NEG_INFINITY,
             band_max_m: f64::INFINITY,
+            boundary_window_min: 360.0,
+            boundary_shift_k: 6.0,
+            lag_min_min: 10.0,
+            lag_k: 4.0,
         }
     }
 }
@@ -255,6 +289,16 @@ pub enum QcReason {
         t_s: f64,
         /// The kept sample with the same time and reading (index, file order).
         kept: usize,
+    },
+    /// `duplicate_time`: the time and the reading equal another sample's, but the two are not
+    /// neighbours in the file (other rows lie between them): not a repeated row but a time
+    /// written again later, as when a logger's clock is set back, whose equal reading is a
+    /// coincidence. Both copies are set aside.
+    DistantDuplicate {
+        /// The sample's time.
+        t_s: f64,
+        /// The other sample with this time and reading (index, file order).
+        other: usize,
     },
     /// `duplicate_time`: the time equals another sample's but the reading differs. No rule
     /// can tell which is right, so both copies are set aside.
@@ -343,6 +387,40 @@ pub enum QcReason {
         limit_m: f64,
         /// The robust σ of the step statistic, metres.
         sigma_m: f64,
+    },
+    /// `level_shift`: a step across a boundary (a hole in the record), found by the local tidal
+    /// model fitted on both sides.
+    BoundaryShift {
+        /// The fitted step, metres (after − before).
+        size_m: f64,
+        /// Its standard error, metres.
+        u_size_m: f64,
+        /// Time of the last sample before the boundary.
+        boundary_from_s: f64,
+        /// Time of the first sample after the boundary.
+        boundary_until_s: f64,
+        /// Time of the first sample after the step as fitted best.
+        step_at_s: f64,
+        /// Time of the first sample set aside: earlier than `step_at_s` when the fit cannot tell
+        /// where the step starts.
+        set_aside_from_s: f64,
+        /// The limit, metres.
+        limit_m: f64,
+        /// The model's window each side, minutes.
+        window_min: f64,
+    },
+    /// `time_lag`: the run after a boundary is shifted in time against the run before it.
+    TimeLag {
+        /// The lag, minutes: the run's times are this much later than the tide they record.
+        lag_min: f64,
+        /// Time of the first sample of the run.
+        from_s: f64,
+        /// Time of the first sample after the run (None: to the record's end).
+        until_s: Option<f64>,
+        /// RMS residual of the local tidal model without the lag, metres.
+        rms_without_m: f64,
+        /// RMS residual with it, metres.
+        rms_with_m: f64,
     },
     /// `rate`: the level changes faster than allowed.
     Rate {
@@ -608,6 +686,7 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     // the rest, so that one mistyped time is blamed alone instead of everything after it.
     let ordered = longest_increasing(times_s);
     let mut conflicts: Vec<(usize, usize)> = Vec::new(); // (kept, later copy), different readings
+    let mut distant: Vec<(usize, usize)> = Vec::new(); // (kept, later copy), equal readings apart
     {
         let mut keep = vec![false; n];
         for &i in &ordered {
@@ -628,7 +707,12 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
                 .map(|p| ordered[p]);
             if let Some(q) = twin {
                 let (h, hq) = (heights_m[i], heights_m[q]);
-                if h == hq || h.to_bits() == hq.to_bits() {
+                // A repeated row: only copies of the same time lie between the two in the file.
+                let (a, b) = (q.min(i), q.max(i));
+                let neighbours = (a + 1..b).all(|r| times_s[r].total_cmp(&t).is_eq());
+                if (h == hq || h.to_bits() == hq.to_bits()) && !neighbours {
+                    distant.push((q, i));
+                } else if h == hq || h.to_bits() == hq.to_bits() {
                     fl.flag(
                         i,
                         QcFlag::DuplicateTime,
@@ -664,6 +748,18 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
                         t_s: times_s[a],
                         other: b,
                         other_level_m: heights_m[b],
+                    },
+                );
+            }
+        }
+        for &(q, i) in &distant {
+            for (a, b) in [(i, q), (q, i)] {
+                fl.flag(
+                    a,
+                    QcFlag::DuplicateTime,
+                    QcReason::DistantDuplicate {
+                        t_s: times_s[a],
+                        other: b,
                     },
                 );
             }
@@ -797,7 +893,32 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     }
     clean.retain(|&i| fl.flags[i].usable());
 
-    // 5. Level shifts.
+    // 5. Timing faults at boundaries, then level shifts: across holes, then away from them.
+    let timing_out: Vec<bool> = fl
+        .flags
+        .iter()
+        .map(|f| f.contains(QcFlag::TimeOrder) || f.contains(QcFlag::DuplicateTime))
+        .collect();
+    boundary_lags(
+        times_s,
+        heights_m,
+        &clean,
+        &timing_out,
+        nominal_step_s,
+        th,
+        &mut fl,
+    );
+    clean.retain(|&i| fl.flags[i].usable());
+    boundary_shifts(
+        times_s,
+        heights_m,
+        &clean,
+        &timing_out,
+        nominal_step_s,
+        th,
+        &mut fl,
+    );
+    clean.retain(|&i| fl.flags[i].usable());
     level_shifts(times_s, heights_m, &clean, nominal_step_s, th, &mut fl);
     clean.retain(|&i| fl.flags[i].usable());
 
@@ -1169,6 +1290,377 @@ fn level_shifts(
     }
 }
 
+// ---------------------------------------------------------------------------------------------
+// Boundary tests: a local tidal model fitted across a hole in the record.
+
+/// Columns of the local tidal model.
+const NB: usize = 10;
+
+/// One row of the local tidal model at `x_h` hours from the boundary (`half_h` scales the
+/// polynomial terms): mean, slope, an M2-speed sinusoid and its slow modulation (which takes up
+/// S2 and N2 over half a day), K1- and M4-speed sinusoids.
+fn local_row(x_h: f64, half_h: f64) -> [f64; NB] {
+    // Speeds from the constituent table, °/h (M2 28.984, K1 15.041, M4 57.968).
+    let (m2, k1, m4) = (
+        28.984_104_2f64.to_radians(),
+        15.041_068_6f64.to_radians(),
+        57.968_208_4f64.to_radians(),
+    );
+    let u = x_h / half_h;
+    let (s2, c2) = (m2 * x_h).sin_cos();
+    let (s1, c1) = (k1 * x_h).sin_cos();
+    let (s4, c4) = (m4 * x_h).sin_cos();
+    [1.0, u, c2, s2, u * c2, u * s2, c1, s1, c4, s4]
+}
+
+/// A least-squares fit of the local model plus a step.
+#[derive(Debug, Clone, Copy)]
+struct LocalFit {
+    /// Split position: the step applies to samples from this one on.
+    split: usize,
+    rss: f64,
+    step_m: f64,
+    /// Standard error of the step, from the fit's own residual variance.
+    u_step_m: f64,
+}
+
+/// Fits the local model plus a step at each of `splits` (positions in `rows`, which are in time
+/// order) in one pass: the step column's products are suffix sums of the rows.
+fn local_fits(rows: &[[f64; NB]], y: &[f64], splits: &[usize]) -> Vec<LocalFit> {
+    type M = nalgebra::SMatrix<f64, { NB + 1 }, { NB + 1 }>;
+    type V = nalgebra::SVector<f64, { NB + 1 }>;
+    let n = rows.len();
+    let ybar = y.iter().sum::<f64>() / n.max(1) as f64;
+    let mut ata = M::zeros();
+    let mut aty = V::zeros();
+    let mut yty = 0.0;
+    // suffix sums of the rows and of y, from position p on
+    let mut suf_r = vec![[0.0f64; NB]; n + 1];
+    let mut suf_y = vec![0.0f64; n + 1];
+    for i in (0..n).rev() {
+        let yi = y[i] - ybar;
+        for c in 0..NB {
+            suf_r[i][c] = suf_r[i + 1][c] + rows[i][c];
+        }
+        suf_y[i] = suf_y[i + 1] + yi;
+    }
+    for (r, &yv) in rows.iter().zip(y) {
+        let yi = yv - ybar;
+        for a in 0..NB {
+            for b in a..NB {
+                ata[(a, b)] += r[a] * r[b];
+            }
+            aty[a] += r[a] * yi;
+        }
+        yty += yi * yi;
+    }
+    for a in 0..NB {
+        for b in 0..a {
+            ata[(a, b)] = ata[(b, a)];
+        }
+    }
+    let dof = n.saturating_sub(NB + 1).max(1) as f64;
+    splits
+        .iter()
+        .filter_map(|&p| {
+            let mut m = ata;
+            let mut v = aty;
+            for c in 0..NB {
+                m[(c, NB)] = suf_r[p][c];
+                m[(NB, c)] = suf_r[p][c];
+            }
+            // No sample after the split: no step (its row and column reduce to the identity).
+            m[(NB, NB)] = if p >= n { 1.0 } else { (n - p) as f64 };
+            v[NB] = suf_y[p];
+            let ch = m.cholesky()?;
+            let beta = ch.solve(&v);
+            let rss = (yty - beta.dot(&v)).max(0.0);
+            let mut e = V::zeros();
+            e[NB] = 1.0;
+            let var_step = ch.solve(&e)[NB];
+            Some(LocalFit {
+                split: p,
+                rss,
+                step_m: beta[NB],
+                u_step_m: (rss / dof * var_step).max(0.0).sqrt(),
+            })
+        })
+        .collect()
+}
+
+/// A junction of the clean samples where the record has a hole or where the time-order test
+/// took samples out, with the samples around it that the local model uses.
+struct Boundary {
+    /// Junction: between `clean[k - 1]` and `clean[k]`.
+    k: usize,
+    /// Window: `clean[lo..hi]`.
+    lo: usize,
+    hi: usize,
+    /// Lags a clock jump here would have, minutes: the hole's length less one step (a jump
+    /// ahead leaves a hole of its size; a jump back whose repeated times were all set aside
+    /// too), either sign, and minus the span of times set aside in between (a jump back whose
+    /// repeated times were taken out by the time-order test).
+    lag_candidates_min: Vec<f64>,
+}
+
+/// The boundaries of `clean` and their windows. A boundary is an interval longer than
+/// `gap_factor` nominal steps and 15 min (shorter holes are fitted through by the level-shift
+/// test) but no longer than the window, or a junction between samples with samples set aside
+/// for their time in between (in file order). A window reaches `boundary_window_min` each side
+/// but stops at the neighbouring boundaries; a side shorter than 60 min or 8 samples leaves the
+/// boundary untested.
+fn boundaries(
+    times_s: &[f64],
+    clean: &[usize],
+    timing_out: &[bool],
+    nominal_step_s: f64,
+    th: &QcThresholds,
+    window_min: f64,
+) -> Vec<Boundary> {
+    let m = clean.len();
+    let w_s = window_min * 60.0;
+    let max_hole_s = th.boundary_window_min * 60.0;
+    let min_hole_s = (th.gap_factor * nominal_step_s).max(900.0);
+    let ks: Vec<usize> = (1..m)
+        .filter(|&k| {
+            let dt = times_s[clean[k]] - times_s[clean[k - 1]];
+            (dt > min_hole_s && dt <= max_hole_s)
+                || (clean[k - 1] + 1..clean[k]).any(|q| timing_out[q])
+        })
+        .collect();
+    let mut out = Vec::new();
+    for (q, &k) in ks.iter().enumerate() {
+        let floor = if q > 0 { ks[q - 1] } else { 0 };
+        let ceil = ks.get(q + 1).copied().unwrap_or(m);
+        let t_left = times_s[clean[k - 1]];
+        let t_right = times_s[clean[k]];
+        let lo = floor + clean[floor..k].partition_point(|&i| times_s[i] < t_left - w_s);
+        let hi = k + clean[k..ceil].partition_point(|&i| times_s[i] <= t_right + w_s);
+        let left_ok = k - lo >= 8 && t_left - times_s[clean[lo]] >= 3600.0;
+        let right_ok = hi - k >= 8 && times_s[clean[hi - 1]] - t_right >= 3600.0;
+        if left_ok && right_ok {
+            let mut lag_candidates_min = Vec::new();
+            let hole_min = (t_right - t_left - nominal_step_s) / 60.0;
+            if hole_min >= th.lag_min_min {
+                lag_candidates_min.extend([hole_min, -hole_min]);
+            }
+            let out_times = (clean[k - 1] + 1..clean[k])
+                .filter(|&q| timing_out[q] && times_s[q].is_finite())
+                .map(|q| times_s[q]);
+            let (lo_t, hi_t) = out_times.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+                (a.min(x), b.max(x))
+            });
+            let span_min = (hi_t - lo_t + nominal_step_s) / 60.0;
+            if span_min.is_finite() && span_min >= th.lag_min_min {
+                lag_candidates_min.push(-span_min);
+            }
+            out.push(Boundary {
+                k,
+                lo,
+                hi,
+                lag_candidates_min,
+            });
+        }
+    }
+    out
+}
+
+/// What the local model says about one boundary.
+struct BoundaryFit {
+    /// Best fit with the step at any junction of the window (no lag).
+    step: LocalFit,
+    /// Earliest split whose fit is as good as the best one within 4 residual σ (the step could
+    /// start there).
+    earliest_split: usize,
+    /// Fit with neither step nor lag.
+    plain: LocalFit,
+    /// Best lag of the run after the boundary, minutes, and the fit with it (step at the
+    /// boundary).
+    lag: Option<(f64, LocalFit)>,
+    /// Samples in the window.
+    n: usize,
+}
+
+fn fit_boundary(
+    times_s: &[f64],
+    heights_m: &[f64],
+    clean: &[usize],
+    b: &Boundary,
+    nominal_step_s: f64,
+    th: &QcThresholds,
+    with_lag: bool,
+) -> Option<BoundaryFit> {
+    let win = &clean[b.lo..b.hi];
+    let n = win.len();
+    let pb = b.k - b.lo;
+    let t_mid = 0.5 * (times_s[clean[b.k - 1]] + times_s[clean[b.k]]);
+    let half_h = (times_s[clean[b.hi - 1]] - times_s[clean[b.lo]]) / 7200.0;
+    let x: Vec<f64> = win.iter().map(|&i| (times_s[i] - t_mid) / 3600.0).collect();
+    let y: Vec<f64> = win.iter().map(|&i| heights_m[i]).collect();
+    let rows: Vec<[f64; NB]> = x.iter().map(|&xh| local_row(xh, half_h)).collect();
+    // Steps tested at every junction with 8 samples on each side, up to the level-shift test's
+    // window from the boundary (beyond it that test sees the step without crossing the hole).
+    let reach_h = (th.shift_window_min * 60.0 + nominal_step_s) / 3600.0;
+    let (x_left, x_right) = (x[pb - 1], x[pb]);
+    let splits: Vec<usize> = (8..=n.saturating_sub(8))
+        .filter(|&p| x[p] >= x_left - reach_h && x[p - 1] <= x_right + reach_h)
+        .collect();
+    let fits = local_fits(&rows, &y, &splits);
+    let best = *fits.iter().min_by(|a, c| a.rss.total_cmp(&c.rss))?;
+    let plain = *local_fits(&rows, &y, &[n]).first()?;
+    let var = best.rss / n.saturating_sub(NB + 1).max(1) as f64;
+    let earliest_split = fits
+        .iter()
+        .filter(|f| f.rss - best.rss <= 16.0 * var)
+        .map(|f| f.split)
+        .min()
+        .unwrap_or(best.split);
+    // A lag: the run after the boundary moved by one of the boundary's candidate lags, with no
+    // step (a clock jump leaves the level alone).
+    let lag = if with_lag {
+        b.lag_candidates_min
+            .iter()
+            .filter_map(|&l| {
+                let rows: Vec<[f64; NB]> = x
+                    .iter()
+                    .enumerate()
+                    .map(|(j, &xh)| local_row(if j >= pb { xh - l / 60.0 } else { xh }, half_h))
+                    .collect();
+                local_fits(&rows, &y, &[n]).first().map(|f| (l, *f))
+            })
+            .min_by(|p, q| p.1.rss.total_cmp(&q.1.rss))
+    } else {
+        None
+    };
+    Some(BoundaryFit {
+        step: best,
+        earliest_split,
+        plain,
+        lag,
+        n,
+    })
+}
+
+/// Timing faults at boundaries: a run after a boundary that, moved by one of the boundary's
+/// candidate lags, fits the local model much better than unmoved and about as well as with the
+/// best step. The run is set aside up to a boundary with the opposite lag (the clock set back),
+/// else to the record's end.
+fn boundary_lags(
+    times_s: &[f64],
+    heights_m: &[f64],
+    clean: &[usize],
+    timing_out: &[bool],
+    nominal_step_s: f64,
+    th: &QcThresholds,
+    fl: &mut Flagger,
+) {
+    // Twice the window: a lag changes the phase of every cycle after the boundary, and the
+    // longer the run compared the less of that the model's slow modulation can take up.
+    let w = 2.0 * th.boundary_window_min;
+    let bs = boundaries(times_s, clean, timing_out, nominal_step_s, th, w);
+    let mut lags: Vec<(usize, f64, f64, f64)> = Vec::new(); // (k, lag, rms without, rms with)
+    for b in &bs {
+        let Some(f) = fit_boundary(times_s, heights_m, clean, b, nominal_step_s, th, true) else {
+            continue;
+        };
+        let Some((lag_min, lf)) = f.lag else {
+            continue;
+        };
+        // The lag must explain much of what the plain model leaves, and about as well as the
+        // best step: near mid-tide a clock jump looks locally like a step of the rate times the
+        // lag, and the lag (one value the hole itself gives) is the simpler explanation.
+        let var = lf.rss.min(f.step.rss) / f.n.saturating_sub(NB + 2).max(1) as f64;
+        let k2 = th.lag_k * th.lag_k;
+        let gain = (f.plain.rss - lf.rss) / var.max(1e-12);
+        let worse = (lf.rss - f.step.rss) / var.max(1e-12);
+        if gain > k2 && worse < k2 {
+            let nf = f.n as f64;
+            lags.push((
+                b.k,
+                lag_min,
+                (f.plain.rss / nf).sqrt(),
+                (lf.rss / nf).sqrt(),
+            ));
+        }
+    }
+    let m = clean.len();
+    let mut q = 0;
+    while q < lags.len() {
+        let (k1, l1, rms0, rms1) = lags[q];
+        let back = lags.get(q + 1).filter(|&&(_, l2, _, _)| {
+            l1 * l2 < 0.0 && (l1 + l2).abs() < 0.5 * l1.abs().max(l2.abs())
+        });
+        let end = back.map_or(m, |b| b.0);
+        let reason = QcReason::TimeLag {
+            lag_min: l1,
+            from_s: times_s[clean[k1]],
+            until_s: back.map(|b| times_s[clean[b.0]]),
+            rms_without_m: rms0,
+            rms_with_m: rms1,
+        };
+        for &i in &clean[k1..end] {
+            fl.flag(i, QcFlag::TimeLag, reason);
+        }
+        q += if back.is_some() { 2 } else { 1 };
+    }
+}
+
+/// Level shifts across boundaries, where the level-shift test's windows do not reach: the step
+/// of the local model at the best junction of the window, accepted when it exceeds
+/// `boundary_shift_k` standard errors and `shift_min_m`. The record is set aside from the
+/// earliest junction where the step could start (up to the next level shift already found, or
+/// the record's end; with `shift_sets_aside_after = false`, up to the best junction's sample).
+fn boundary_shifts(
+    times_s: &[f64],
+    heights_m: &[f64],
+    clean: &[usize],
+    timing_out: &[bool],
+    nominal_step_s: f64,
+    th: &QcThresholds,
+    fl: &mut Flagger,
+) {
+    let bs = boundaries(
+        times_s,
+        clean,
+        timing_out,
+        nominal_step_s,
+        th,
+        th.boundary_window_min,
+    );
+    for b in &bs {
+        let Some(f) = fit_boundary(times_s, heights_m, clean, b, nominal_step_s, th, false) else {
+            continue;
+        };
+        let limit = (th.boundary_shift_k * f.step.u_step_m).max(th.shift_min_m);
+        if f.step.step_m.abs() <= limit {
+            continue;
+        }
+        let from = b.lo + f.earliest_split.min(f.step.split);
+        let at = b.lo + f.step.split;
+        let end = if th.shift_sets_aside_after {
+            // Samples are in file order; a level shift found earlier starts a new stretch.
+            (clean[at] + 1..fl.flags.len())
+                .find(|&r| fl.flags[r].contains(QcFlag::LevelShift))
+                .map_or(clean.len(), |r| clean.partition_point(|&i| i < r))
+        } else {
+            at + 1
+        };
+        let reason = QcReason::BoundaryShift {
+            size_m: f.step.step_m,
+            u_size_m: f.step.u_step_m,
+            boundary_from_s: times_s[clean[b.k - 1]],
+            boundary_until_s: times_s[clean[b.k]],
+            step_at_s: times_s[clean[at]],
+            set_aside_from_s: times_s[clean[from]],
+            limit_m: limit,
+            window_min: th.boundary_window_min,
+        };
+        for &i in &clean[from..end] {
+            fl.flag(i, QcFlag::LevelShift, reason);
+        }
+    }
+}
+
 /// A step found in a step statistic.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FoundStep {
@@ -1453,6 +1945,232 @@ mod tests {
         );
     }
 
+    /// A richer tide than [`tide`]: M2 1.5, S2 0.5, N2 0.3, K2 0.14, K1 0.15, O1 0.1, P1 0.05,
+    /// M4 0.06, MS4 0.03 m (speeds from the constituent table, °/h) around 2.5 m.
+    fn rich_tide(t_s: f64) -> f64 {
+        let h = t_s / 3600.0;
+        let c =
+            |a: f64, speed_deg_h: f64, g_deg: f64| a * (speed_deg_h * h - g_deg).to_radians().cos();
+        2.5 + c(1.5, 28.984_104_2, 40.0)
+            + c(0.5, 30.0, 75.0)
+            + c(0.3, 28.439_729_5, 20.0)
+            + c(0.14, 30.082_137_3, 80.0)
+            + c(0.15, 15.041_068_6, 200.0)
+            + c(0.1, 13.943_035_6, 180.0)
+            + c(0.05, 14.958_931_4, 190.0)
+            + c(0.06, 57.968_208_4, 100.0)
+            + c(0.03, 58.984_104_2, 140.0)
+    }
+
+    /// Genuine times (every `step_s` for `days` from `t0`), levels of [`rich_tide`] with
+    /// Gaussian noise `sigma_m`, rounded to 1 mm.
+    fn rich_record(step_s: f64, days: f64, sigma_m: f64, seed: u64) -> (Vec<f64>, Vec<f64>) {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+        let noise = Normal::new(0.0, sigma_m.max(1e-12)).unwrap();
+        let n = (days * 86400.0 / step_s) as usize;
+        let t: Vec<f64> = (0..n).map(|i| 1.78e9 + i as f64 * step_s).collect();
+        let h = t
+            .iter()
+            .map(|&t| ((rich_tide(t) + noise.sample(&mut rng)) * 1000.0).round() / 1000.0)
+            .collect();
+        (t, h)
+    }
+
+    /// The different reasons given, but for gap_before.
+    fn distinct_reasons(r: &QcResult) -> Vec<(usize, QcReason)> {
+        let mut out: Vec<(usize, QcReason)> = Vec::new();
+        for n in r.notes.iter().filter(|n| n.flag != QcFlag::GapBefore) {
+            if !out.iter().any(|(_, x)| *x == n.reason) {
+                out.push((n.sample, n.reason));
+            }
+        }
+        out
+    }
+
+    /// Removes the samples with times in `[from_s, from_s + len_s)`.
+    fn cut(t: &mut Vec<f64>, h: &mut Vec<f64>, from_s: f64, len_s: f64) {
+        let keep: Vec<bool> = t
+            .iter()
+            .map(|&x| x < from_s || x >= from_s + len_s)
+            .collect();
+        let mut k = keep.iter();
+        h.retain(|_| *k.next().unwrap());
+        let mut k = keep.iter();
+        t.retain(|_| *k.next().unwrap());
+    }
+
+    #[test]
+    fn clean_records_with_gaps_raise_no_alarm() {
+        // Gaps of 20 min to 5 h, one every 25.5 h so that their start sweeps the tide's phase in
+        // 30-min steps; 1-min records with noise σ 0.5 and 1 cm, 6-min ones with 1 and 2 cm
+        // (common practice for a sheltered to an exposed gauge). Nothing but gap_before may be flagged.
+        for (step, sd, seed) in [
+            (60.0, 0.01, 41),
+            (60.0, 0.005, 43),
+            (360.0, 0.01, 44),
+            (360.0, 0.02, 45),
+        ] {
+            for gap_min in [20.0, 48.0, 120.0, 300.0] {
+                let (mut t, mut h) = rich_record(step, 54.0, sd, seed);
+                let t0 = t[0];
+                for q in 0..50 {
+                    let from = t0 + 43_200.0 + q as f64 * 25.5 * 3600.0;
+                    cut(&mut t, &mut h, from, gap_min * 60.0);
+                }
+                let r = run_qc(&t, &h, &th());
+                // With 2 cm noise the spike test's 6 σ limit is passed now and then by noise
+                // alone (a known property of that test); the tests across gaps must stay silent.
+                let bad: Vec<_> = r
+                    .notes
+                    .iter()
+                    .filter(|n| n.flag != QcFlag::GapBefore)
+                    .filter(|n| sd <= 0.01 || n.flag != QcFlag::Spike)
+                    .take(3)
+                    .collect();
+                assert!(
+                    bad.is_empty(),
+                    "step {step} s, σ {sd} m, gaps {gap_min} min: {bad:?}"
+                );
+                assert_eq!(r.count(QcFlag::GapBefore), 50);
+            }
+        }
+    }
+
+    #[test]
+    fn level_shift_next_to_a_gap_is_found_at_every_phase() {
+        // A +0.15 m shift starting some time after (or before) a 48-min gap, the pair swept over
+        // 25 h in 30-min steps: every shifted sample is set aside, and nothing more than the
+        // boundary window before the gap.
+        for (step, sd, seed) in [(60.0, 0.01, 51), (60.0, 0.02, 52), (360.0, 0.01, 53)] {
+            for after_gap_h in [0.0, 0.5, 1.7, 3.0, -1.0] {
+                for q in 0..50 {
+                    let (mut t, mut h) = rich_record(step, 4.0, sd, seed + q);
+                    let gap_from = t[0] + 86_400.0 + q as f64 * 1800.0;
+                    let gap_len = 48.0 * 60.0;
+                    let shift_from = if after_gap_h == 0.0 {
+                        gap_from
+                    } else if after_gap_h > 0.0 {
+                        gap_from + gap_len + after_gap_h * 3600.0
+                    } else {
+                        gap_from + after_gap_h * 3600.0
+                    };
+                    for (x, &tt) in h.iter_mut().zip(&t) {
+                        if tt >= shift_from {
+                            *x += 0.15;
+                        }
+                    }
+                    cut(&mut t, &mut h, gap_from, gap_len);
+                    let r = run_qc(&t, &h, &th());
+                    let shifted_kept = (0..t.len())
+                        .filter(|&i| t[i] >= shift_from && r.flags[i].usable())
+                        .count();
+                    assert_eq!(
+                        shifted_kept,
+                        0,
+                        "step {step} s, σ {sd}, {after_gap_h} h from the gap, start {q}: {:?}",
+                        distinct_reasons(&r)
+                    );
+                    let first = (0..t.len())
+                        .find(|&i| {
+                            r.flags[i].contains(QcFlag::LevelShift)
+                                || r.flags[i].contains(QcFlag::TimeLag)
+                        })
+                        .unwrap();
+                    assert!(
+                        t[first] >= shift_from.min(gap_from) - 6.0 * 3600.0,
+                        "set aside from {} h before the shift",
+                        (shift_from - t[first]) / 3600.0
+                    );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn clock_jump_for_a_day_is_found_at_every_phase() {
+        // The logger's clock jumps 1 h ahead for a day and is then set back: the day's samples
+        // carry times 1 h late, and at the set-back an hour of times repeats. The jump's start
+        // is swept over 25 h in 30-min steps, and also put just after each low water of a day.
+        let low_waters: Vec<f64> = {
+            let (t, _) = rich_record(60.0, 3.0, 0.0, 0);
+            (1..t.len() - 1)
+                .filter(|&i| {
+                    t[i] > t[0] + 86_400.0
+                        && t[i] < t[0] + 2.0 * 86_400.0
+                        && rich_tide(t[i]) < rich_tide(t[i - 1])
+                        && rich_tide(t[i]) <= rich_tide(t[i + 1])
+                })
+                .map(|i| t[i] + 600.0)
+                .collect()
+        };
+        assert_eq!(low_waters.len(), 2);
+        for (step, sd, seed) in [(60.0, 0.01, 61), (360.0, 0.01, 62), (360.0, 0.02, 63)] {
+            let t0 = rich_record(step, 0.1, 0.0, 0).0[0];
+            let starts = (0..50)
+                .map(|q| t0 + 86_400.0 + q as f64 * 1800.0)
+                .chain(low_waters.iter().copied());
+            // Both ways a record can reach QC: with the repeated hour's two copies as written,
+            // and with both copies already taken out (as when both are refused).
+            let cases = starts.enumerate().flat_map(|c| [(c, false), (c, true)]);
+            for ((q, jump), drop_repeats) in cases {
+                let (genuine, h) = rich_record(step, 4.0, sd, seed + q as u64);
+                let late = |tg: f64| tg >= jump && tg < jump + 86_400.0;
+                let label = |tg: f64| if late(tg) { tg + 3600.0 } else { tg };
+                let repeated =
+                    |tg: f64| label(tg) >= jump + 86_400.0 && label(tg) < jump + 90_000.0;
+                let keep: Vec<bool> = genuine
+                    .iter()
+                    .map(|&tg| !(drop_repeats && repeated(tg)))
+                    .collect();
+                let mut kk = keep.iter();
+                let h: Vec<f64> = h.into_iter().filter(|_| *kk.next().unwrap()).collect();
+                let mut kk = keep.iter();
+                let genuine: Vec<f64> = genuine
+                    .into_iter()
+                    .filter(|_| *kk.next().unwrap())
+                    .collect();
+                let t: Vec<f64> = genuine.iter().map(|&tg| label(tg)).collect();
+                let r = run_qc(&t, &h, &th());
+                let what = || {
+                    format!(
+                        "step {step} s, σ {sd}, jump {q}, repeats dropped {drop_repeats}: {:?}",
+                        distinct_reasons(&r)
+                    )
+                };
+                // Every sample with a wrong time is set aside.
+                for (i, &tg) in genuine.iter().enumerate() {
+                    if late(tg) {
+                        assert!(!r.flags[i].usable(), "{} kept; {}", i, what());
+                    }
+                }
+                // The lag is named, within a few minutes of the hour.
+                let lag = r.notes.iter().find_map(|n| match n.reason {
+                    QcReason::TimeLag { lag_min, .. } => Some(lag_min),
+                    _ => None,
+                });
+                assert!(
+                    lag.is_some_and(|l| (l - 60.0).abs() <= 3.0),
+                    "lag {lag:?}; {}",
+                    what()
+                );
+                // The genuine record before the jump and after the repeated hour stays in use
+                // (but for the spike test's rare false alarms on noise, a property of that test).
+                for (i, &tg) in genuine.iter().enumerate() {
+                    if tg < jump || tg >= jump + 86_400.0 + 3600.0 {
+                        let f = r.flags[i];
+                        assert!(
+                            f.iter()
+                                .all(|x| matches!(x, QcFlag::Spike | QcFlag::GapBefore)),
+                            "genuine sample {i} set aside ({}); {}",
+                            f.label(),
+                            what()
+                        );
+                    }
+                }
+            }
+        }
+    }
+
     #[test]
     fn flag_words_round_trip() {
         for f in QcFlag::ALL {
@@ -1469,8 +2187,9 @@ mod tests {
         assert_eq!(s.label(), "duplicate_time;spike;gap_before");
     }
 
-    /// A time written twice: with the same reading only the repeat is set aside and the kept
-    /// copy named; with different readings both are, each naming the other; the conflict list
+    /// A time written twice: with the same reading in the next row (a repeated row) only the
+    /// repeat is set aside and the kept copy named; with the same reading after other rows, or
+    /// with different readings, both are, each naming the other; the conflict list
     /// pairs the first copy with every differing later one. Hand-built 6-min record.
     #[test]
     fn duplicate_times_by_their_readings() {
@@ -1501,12 +2220,27 @@ mod tests {
                 other_level_m: 1.3
             }
         );
-        // Sample 7 repeats sample 4's reading: a repeated row, though 4 is itself in conflict.
+        // Sample 7 repeats sample 4's time and reading two rows later, past another time: not
+        // a repeated row but a time written again (a clock set back), so both are set aside.
         assert_eq!(
             r.notes_of(7)[0].reason,
-            QcReason::DuplicateTime {
+            QcReason::DistantDuplicate {
                 t_s: 1080.0,
-                kept: 4
+                other: 4
+            }
+        );
+        // The same alone: a time and reading written again after other rows.
+        let r2 = run_qc(
+            &[0.0, 360.0, 720.0, 360.0],
+            &[1.0, 1.1, 1.2, 1.1],
+            &QcThresholds::default(),
+        );
+        assert_eq!(r2.flagged(QcFlag::DuplicateTime), vec![1, 3]);
+        assert_eq!(
+            r2.notes_of(1)[0].reason,
+            QcReason::DistantDuplicate {
+                t_s: 360.0,
+                other: 3
             }
         );
         assert!(r.flags[1].usable() && !r.flags[4].usable() && !r.flags[5].usable());

@@ -92,6 +92,19 @@ pub struct QcSpec {
     pub compare_lag_search_min: f64,
     /// Gauge comparison: step-search window each side, minutes (default 180).
     pub compare_shift_window_min: f64,
+    /// Boundary tests: local tidal model window each side of a hole, minutes (default 360).
+    pub boundary_window_min: f64,
+    /// Boundary tests: step threshold, standard errors (default 6).
+    pub boundary_shift_k: f64,
+    /// Boundary tests: smallest lag called a clock jump, minutes (default 10).
+    pub lag_min_min: f64,
+    /// Boundary tests: lag acceptance margin, √(residual variances) (default 4).
+    pub lag_k: f64,
+    /// Gauge comparison: moving-window drift, window length in days (default 4).
+    pub compare_drift_window_days: f64,
+    /// Gauge comparison: largest acceptable drift within a window, metres per day (default
+    /// 0.005).
+    pub compare_max_window_drift_m_per_day: f64,
 }
 
 /// What to do with a gauge-record time written twice with different readings: no rule can tell
@@ -133,6 +146,13 @@ impl Default for QcSpec {
             compare_max_lag_min: 10.0,
             compare_lag_search_min: 90.0,
             compare_shift_window_min: 180.0,
+            boundary_window_min: t.boundary_window_min,
+            boundary_shift_k: t.boundary_shift_k,
+            lag_min_min: t.lag_min_min,
+            lag_k: t.lag_k,
+            compare_drift_window_days: crate::compute::compare::CompareSettings::DRIFT_WINDOW_DAYS,
+            compare_max_window_drift_m_per_day:
+                crate::compute::compare::CompareSettings::MAX_WINDOW_DRIFT_M_PER_DAY,
         }
     }
 }
@@ -159,6 +179,10 @@ impl QcSpec {
             band_max_m: g
                 .band_max_m
                 .unwrap_or(g.mean_level_above_datum_m + self.band_half_width_m),
+            boundary_window_min: self.boundary_window_min,
+            boundary_shift_k: self.boundary_shift_k,
+            lag_min_min: self.lag_min_min,
+            lag_k: self.lag_k,
         }
     }
 }
@@ -803,6 +827,13 @@ fn validate(spec: &ProjectFile, path: &Path, errors: &mut Vec<IoError>) {
             ("band_half_width_m", q.band_half_width_m),
             ("compare_max_mean_m", q.compare_max_mean_m),
             ("compare_max_drift_m_per_day", q.compare_max_drift_m_per_day),
+            ("boundary_shift_k", q.boundary_shift_k),
+            ("lag_k", q.lag_k),
+            ("compare_drift_window_days", q.compare_drift_window_days),
+            (
+                "compare_max_window_drift_m_per_day",
+                q.compare_max_window_drift_m_per_day,
+            ),
         ] {
             if !(v.is_finite() && v > 0.0) {
                 err(f(k), format!("expected a positive number, found {v}"));
@@ -815,6 +846,8 @@ fn validate(spec: &ProjectFile, path: &Path, errors: &mut Vec<IoError>) {
             ("compare_max_lag_min", q.compare_max_lag_min),
             ("compare_lag_search_min", q.compare_lag_search_min),
             ("compare_shift_window_min", q.compare_shift_window_min),
+            ("boundary_window_min", q.boundary_window_min),
+            ("lag_min_min", q.lag_min_min),
         ] {
             if let Some(m) = interval(
                 v,

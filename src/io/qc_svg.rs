@@ -39,6 +39,7 @@ fn style(f: QcFlag) -> (&'static str, char) {
         QcFlag::Rate => ("#f77f00", 't'),
         QcFlag::FlatLine => ("#7b2cbf", 's'),
         QcFlag::LevelShift => ("#0077b6", 'd'),
+        QcFlag::TimeLag => ("#2a9d8f", 'b'),
         QcFlag::OutOfBand => ("#111111", 'x'),
         QcFlag::TimeOrder => ("#8d5524", 'b'),
         QcFlag::DuplicateTime => ("#b5838d", 'b'),

@@ -75,6 +75,12 @@ impl fmt::Display for QcDetail<'_> {
                 utc_label(t_s),
                 self.sample(kept)
             ),
+            QcReason::DistantDuplicate { t_s, other } => write!(
+                f,
+                "time {} and its reading are also those of {}, with other rows between: not a repeated row (a clock set back?): both are set aside",
+                utc_label(t_s),
+                self.sample(other)
+            ),
             QcReason::ConflictingDuplicate {
                 t_s,
                 other,
@@ -193,6 +199,58 @@ impl fmt::Display for QcDetail<'_> {
                 utc_label(other_s),
                 change_m.abs() / interval_h,
             ),
+            QcReason::BoundaryShift {
+                size_m,
+                u_size_m,
+                boundary_from_s,
+                boundary_until_s,
+                step_at_s,
+                set_aside_from_s,
+                limit_m,
+                window_min,
+            } => {
+                write!(
+                    f,
+                    "step of {size_m:+.3} m ± {u_size_m:.3} m across the hole from {} to {}, fitted best at {}; ",
+                    utc_label(boundary_from_s),
+                    utc_label(boundary_until_s),
+                    utc_label(step_at_s),
+                )?;
+                if set_aside_from_s < step_at_s {
+                    write!(
+                        f,
+                        "it may start as early as {}, so the record is set aside from there ",
+                        utc_label(set_aside_from_s)
+                    )?;
+                } else {
+                    write!(f, "the record is set aside from it ")?;
+                }
+                write!(
+                    f,
+                    "(local tidal model fitted over {window_min:.0} min each side; limit {limit_m:.3} m)"
+                )
+            }
+            QcReason::TimeLag {
+                lag_min,
+                from_s,
+                until_s,
+                rms_without_m,
+                rms_with_m,
+            } => {
+                write!(
+                    f,
+                    "times {lag_min:+.0} min off against the record before {} (clock jump): ",
+                    utc_label(from_s)
+                )?;
+                match until_s {
+                    Some(u) => write!(f, "set aside until {}", utc_label(u))?,
+                    None => write!(f, "set aside to the record's end")?,
+                }
+                write!(
+                    f,
+                    " (local tidal model residual {rms_without_m:.3} m RMS without the lag, {rms_with_m:.3} m with it)"
+                )
+            }
         }
     }
 }
@@ -218,6 +276,18 @@ impl fmt::Display for CompareFinding {
             } => write!(
                 f,
                 "the two agree best with {best_lag_min:+.1} min more time corrector (σ {std_at_best_lag_m:.3} m instead of {std_m:.3} m): check both gauges' clocks and time zones, and the time corrector"
+            ),
+            CompareFinding::WindowDrift {
+                drift,
+                limit_m_per_day,
+            } => write!(
+                f,
+                "drift of {:+.4} m/day ± {:.4} between {} and {} (limit {limit_m_per_day:.4} m/day over {:.1}-day windows): a drifting or settling sensor",
+                drift.rate_m_per_day,
+                drift.u_rate_m_per_day,
+                utc_label(drift.from_s),
+                utc_label(drift.until_s),
+                (drift.until_s - drift.from_s) / 86400.0
             ),
             CompareFinding::Step(st) => write!(
                 f,
@@ -292,6 +362,44 @@ mod tests {
             .to_string(),
             // 0.6 m in 6 min is 6 m/h.
             "-0.600 m in 6.0 min to/from 2026-06-14T09:30:00Z (6.00 m/h; limit 3.00 m/h + 0.050 m)"
+        );
+        assert_eq!(
+            QcReason::TimeLag {
+                lag_min: 60.0,
+                from_s: T0,
+                until_s: Some(T0 + 86_400.0),
+                rms_without_m: 0.0212,
+                rms_with_m: 0.0098
+            }
+            .to_string(),
+            "times +60 min off against the record before 2026-06-14T09:30:00Z (clock jump): set aside until 2026-06-15T09:30:00Z (local tidal model residual 0.021 m RMS without the lag, 0.010 m with it)"
+        );
+        assert_eq!(
+            QcReason::BoundaryShift {
+                size_m: 0.15,
+                u_size_m: 0.004,
+                boundary_from_s: T0,
+                boundary_until_s: T0 + 2940.0,
+                step_at_s: T0 + 9060.0,
+                set_aside_from_s: T0 + 8940.0,
+                limit_m: 0.05,
+                window_min: 360.0
+            }
+            .to_string(),
+            "step of +0.150 m ± 0.004 m across the hole from 2026-06-14T09:30:00Z to 2026-06-14T10:19:00Z, fitted best at 2026-06-14T12:01:00Z; it may start as early as 2026-06-14T11:59:00Z, so the record is set aside from there (local tidal model fitted over 360 min each side; limit 0.050 m)"
+        );
+        assert_eq!(
+            CompareFinding::WindowDrift {
+                drift: crate::compute::compare::WindowDrift {
+                    from_s: T0,
+                    until_s: T0 + 4.0 * 86_400.0,
+                    rate_m_per_day: 0.0112,
+                    u_rate_m_per_day: 0.0008
+                },
+                limit_m_per_day: 0.005
+            }
+            .to_string(),
+            "drift of +0.0112 m/day ± 0.0008 between 2026-06-14T09:30:00Z and 2026-06-18T09:30:00Z (limit 0.0050 m/day over 4.0-day windows): a drifting or settling sensor"
         );
         assert_eq!(
             CompareFinding::Step(Step {

@@ -508,6 +508,16 @@ pub fn sample_findings(g: &GaugeSpec, r: &GaugeRecord, qc: Option<&QcResult>) ->
                     format!("time '{t}' and its reading repeat line {}: {ASIDE}", line(kept)),
                 ),
             ),
+            QcReason::DistantDuplicate { other, .. } => push(
+                &mut times,
+                Finding::warning(
+                    at(i, &g.time_column),
+                    format!(
+                        "time '{t}' and its reading are also at line {}, with other rows between: not a repeated row (a clock set back?): {ASIDE}",
+                        line(other)
+                    ),
+                ),
+            ),
             QcReason::EarlierThanPrevious { previous, .. } => push(
                 &mut times,
                 Finding::warning(

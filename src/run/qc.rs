@@ -18,7 +18,7 @@ use std::fmt::Write as _;
 use serde::Serialize;
 
 use super::load::{prepare_series, GaugeMethod, Loaded};
-use crate::compute::compare::{compare, CompareSettings, Comparison, Prediction};
+use crate::compute::compare::{compare, CompareFinding, CompareSettings, Comparison, Prediction};
 use crate::compute::locate::ZoneLocator;
 use crate::compute::qc::{QcFlag, QcResult};
 use crate::compute::zoning::{GaugeFeed, Zone};
@@ -137,10 +137,29 @@ pub struct ComparisonSummary {
     pub std_at_best_lag_m: f64,
     /// Step found in the difference.
     pub step: Option<StepSummary>,
+    /// The moving window with the steepest drift.
+    pub window_drift: Option<WindowDriftSummary>,
     /// Whether the pair is flagged.
     pub flagged: bool,
     /// Why.
     pub findings: Vec<String>,
+}
+
+/// The steepest moving-window drift of a difference series, for the summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct WindowDriftSummary {
+    /// Start of the window, UTC.
+    pub from_utc: String,
+    /// End of the window, UTC.
+    pub until_utc: String,
+    /// Slope of the difference in the window, metres per day.
+    #[serde(serialize_with = "crate::io::numfmt::ser_height")]
+    pub rate_m_per_day: f64,
+    /// Its standard error, metres per day.
+    #[serde(serialize_with = "crate::io::numfmt::ser_uncertainty")]
+    pub u_rate_m_per_day: f64,
+    /// Whether it exceeds the limit (the pair is then flagged for it).
+    pub flagged: bool,
 }
 
 /// A step found in a difference series, for the summary.
@@ -564,6 +583,8 @@ pub fn qc_project(
         shift_window_min: spec.qc.compare_shift_window_min,
         shift_k: spec.qc.shift_k,
         shift_min_m: spec.qc.shift_min_m,
+        drift_window_days: spec.qc.compare_drift_window_days,
+        max_window_drift_m_per_day: spec.qc.compare_max_window_drift_m_per_day,
     };
     let plans = planned_comparisons(loaded);
     let plans: Vec<_> = plans
@@ -617,6 +638,16 @@ pub fn qc_project(
             step: c.step.map(|s| StepSummary {
                 time_utc: utc_time(s.at_s),
                 size_m: s.size_m,
+            }),
+            window_drift: c.window_drift.map(|w| WindowDriftSummary {
+                from_utc: utc_time(w.from_s),
+                until_utc: utc_time(w.until_s),
+                rate_m_per_day: w.rate_m_per_day,
+                u_rate_m_per_day: w.u_rate_m_per_day,
+                flagged: c
+                    .findings
+                    .iter()
+                    .any(|f| matches!(f, CompareFinding::WindowDrift { .. })),
             }),
             flagged: !c.findings.is_empty(),
             findings: c.findings.iter().map(|f| f.to_string()).collect(),

@@ -328,7 +328,7 @@ fn demo_qc_finds_skellans_planted_faults_and_nothing_else() {
         assert_eq!(no_reading, if g == "pendrath" { 2 } else { 0 }, "{g}");
         assert_eq!(gs["usable"], usable, "{g}");
         let listed = gs["flags"].as_object().unwrap();
-        assert_eq!(listed.len(), 8, "every flag listed: {listed:?}");
+        assert_eq!(listed.len(), 9, "every flag listed: {listed:?}");
         for (flag, n) in listed {
             assert_eq!(
                 n.as_u64().unwrap(),
@@ -1149,6 +1149,148 @@ fn qc_ran_or_not_and_what_it_set_aside_is_stated_everywhere() {
             err.contains("but the project sets [qc] enabled = false"),
             !qc_enabled,
             "{err}"
+        );
+    }
+}
+
+/// A logger clock 1 h ahead for a day (a six-minute record over three days of `tide` with 5 mm
+/// noise, the clock jumping at 2026-06-15T00:00Z and set back a day later): QC flags the day's
+/// samples `time_lag` naming the lag, and a sounding in that day is `gauge_flagged`, while the
+/// days before and after are reduced.
+#[test]
+fn reducer_sets_aside_a_day_of_clock_jump() {
+    let t0 = ts("2026-06-14T00:00:00Z");
+    let (jump, back) = (ts("2026-06-15T00:00:00Z"), ts("2026-06-16T00:00:00Z"));
+    let mut noise = Noise::new(0.005, 71);
+    let samples: Vec<(i64, f64)> = (0..=720)
+        .map(|i| {
+            let t = t0 + i * 360;
+            let h = tide(t as f64) - 1.0 + noise.next();
+            (if t >= jump && t < back { t + 3600 } else { t }, h)
+        })
+        .collect();
+    let (text, _) = record_csv(&samples);
+    let sounding_times = [
+        ("2026-06-14T12:00:00Z", "reduced"),
+        ("2026-06-15T12:00:00Z", "gauge_flagged"),
+        ("2026-06-16T12:00:00Z", "reduced"),
+    ];
+    let mut s = String::from("time,lon,lat,depth,line\n");
+    for (t, _) in sounding_times {
+        s.push_str(&format!("{t},10.005,50.005,15.0,L1\n"));
+    }
+    let p = MiniProject::new(&s);
+    p.write("g1.csv", &text);
+
+    let qc_out = p.path("qc");
+    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&qc_out.join("g1.qc.csv"));
+    // Sample i is line i + 2; the jumped samples are 240..480.
+    for r in &rows {
+        let line: i64 = col(&h, r, "line").parse().unwrap();
+        let flags = col(&h, r, "qc_flags");
+        let jumped = (242..482).contains(&line);
+        // The last jumped hour (lines 472..482) carries the times the genuine hour after it
+        // (lines 482..492) repeats: both copies of each such time are set aside as
+        // duplicate_time, the rest of the jumped day as time_lag.
+        let repeated = (472..492).contains(&line);
+        assert_eq!(
+            flags.contains("time_lag"),
+            jumped && !repeated,
+            "line {line}: {flags}"
+        );
+        assert_eq!(flags.contains("duplicate_time"), repeated, "line {line}: {flags}");
+        if jumped && !repeated {
+            assert!(
+                col(&h, r, "qc_detail").contains("+60 min"),
+                "line {line}: {}",
+                col(&h, r, "qc_detail")
+            );
+        }
+    }
+
+    // The repeated hour holds times written twice with different readings: by default the
+    // reduction refuses the record, naming both lines; the project may set both copies aside.
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("g1.csv:482: field 'time': time '2026-06-16T00:00:00Z' is also at line 472 with another reading"),
+        "{}",
+        stderr(&o)
+    );
+    let text = std::fs::read_to_string(p.path("project.toml")).unwrap();
+    p.write(
+        "project.toml",
+        &format!("{text}\n[qc]\nduplicate_time_conflict = \"set_both_aside\"\n"),
+    );
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
+    for (r, (t, status)) in rows.iter().zip(sounding_times) {
+        assert_eq!(
+            col(&h, r, "status"),
+            status,
+            "{t}: {}",
+            col(&h, r, "status_detail")
+        );
+    }
+}
+
+/// A +0.15 m level shift 1.7 h after a 48-min hole (a one-minute record over two days of `tide`
+/// with 5 mm noise): QC sets aside the record from the shift on, and a sounding after the shift
+/// is `gauge_flagged`, not reduced with a tide 0.15 m too high; one before the hole is reduced.
+/// (With the boundary tests off, `[qc] boundary_window_min = 1`, this shift passes QC.)
+#[test]
+fn reducer_sets_aside_a_shift_next_to_a_hole() {
+    let t0 = ts("2026-06-14T00:00:00Z");
+    let (hole, hole_end) = (ts("2026-06-14T16:00:00Z"), ts("2026-06-14T16:48:00Z"));
+    let shift = hole_end + 102 * 60;
+    let mut noise = Noise::new(0.005, 72);
+    let samples: Vec<(i64, f64)> = (0..=2880)
+        .map(|i| {
+            let t = t0 + i * 60;
+            let h = tide(t as f64) - 1.0 + noise.next();
+            (t, if t >= shift { h + 0.15 } else { h })
+        })
+        .filter(|&(t, _)| t < hole || t >= hole_end)
+        .collect();
+    let (text, _) = record_csv(&samples);
+    let soundings = [
+        ("2026-06-14T12:00:00Z", "reduced"),
+        ("2026-06-14T20:00:00Z", "gauge_flagged"),
+        ("2026-06-15T12:00:00Z", "gauge_flagged"),
+    ];
+    let mut s = String::from("time,lon,lat,depth,line\n");
+    for (t, _) in soundings {
+        s.push_str(&format!("{t},10.005,50.005,15.0,L1\n"));
+    }
+    let p = MiniProject::new(&s);
+    p.write("g1.csv", &text);
+
+    let qc_out = p.path("qc");
+    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&qc_out.join("g1.qc.csv"));
+    for r in &rows {
+        let t = ts(col(&h, r, "time_utc"));
+        let flags = col(&h, r, "qc_flags");
+        if t >= shift {
+            assert!(flags.contains("level_shift"), "{}: {flags}", utc(t));
+        } else if t < hole - 6 * 3600 {
+            assert_eq!(flags, "", "{}", utc(t));
+        }
+    }
+
+    let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
+    for (r, (t, status)) in rows.iter().zip(soundings) {
+        assert_eq!(
+            col(&h, r, "status"),
+            status,
+            "{t}: {}",
+            col(&h, r, "status_detail")
         );
     }
 }
