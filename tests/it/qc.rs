@@ -1200,7 +1200,11 @@ fn reducer_sets_aside_a_day_of_clock_jump() {
             jumped && !repeated,
             "line {line}: {flags}"
         );
-        assert_eq!(flags.contains("duplicate_time"), repeated, "line {line}: {flags}");
+        assert_eq!(
+            flags.contains("duplicate_time"),
+            repeated,
+            "line {line}: {flags}"
+        );
         if jumped && !repeated {
             assert!(
                 col(&h, r, "qc_detail").contains("+60 min"),
