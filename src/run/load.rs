@@ -75,11 +75,24 @@ pub struct UncertaintyConfig {
 pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Vec<Finding>> {
     let mut findings = Vec::new();
     let mut records = Vec::new();
-    for g in &project.spec.gauges {
+    for (i, g) in project.spec.gauges.iter().enumerate() {
         match read_gauge_record(g, project.gauge_naive_offset(g)) {
             Ok(r) => {
                 if let Some(f) = plausibility(g, &r) {
                     findings.push(f);
+                }
+                if let Some(step_min) = max_gap_below_step(g, &r) {
+                    findings.push(Finding::error(
+                        Position::file(&project.path).field(format!("gauge[{i}].max_gap_min")),
+                        format!(
+                            "gauge '{}': max_gap_min = {} is shorter than the record's own step of {} min: every interval would be a gap and no sounding would get a tide from it; set max_gap_min to at least {}; {} (2.5 steps) also bridges one missing reading",
+                            g.id,
+                            g.max_gap_min,
+                            clean_minutes(step_min),
+                            clean_minutes(step_min),
+                            clean_minutes(2.5 * step_min)
+                        ),
+                    ));
                 }
                 findings.extend(duplicate_findings(
                     g,
@@ -966,6 +979,28 @@ pub fn self_intersection(mp: &geo::MultiPolygon<f64>) -> Option<String> {
         }
     }
     None
+}
+
+/// The record's nominal step (the median interval between increasing times), minutes, when it
+/// is longer than the gauge's `max_gap_min`: then interpolation could bridge no interval at all.
+pub fn max_gap_below_step(g: &GaugeSpec, r: &GaugeRecord) -> Option<f64> {
+    let s = r.increasing_series();
+    let mut steps: Vec<f64> = s.times_s.windows(2).map(|w| w[1] - w[0]).collect();
+    if steps.is_empty() {
+        return None;
+    }
+    steps.sort_by(f64::total_cmp);
+    let step_min = steps[steps.len() / 2] / 60.0;
+    (step_min > g.max_gap_min).then_some(step_min)
+}
+
+/// Minutes for a message: whole when whole, else to 0.1 min.
+fn clean_minutes(m: f64) -> String {
+    if (m - m.round()).abs() < 1e-9 {
+        format!("{}", m.round())
+    } else {
+        format!("{m:.1}")
+    }
 }
 
 /// The record's level must agree with the stated mean level within this, metres, or more than
