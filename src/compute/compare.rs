@@ -426,6 +426,20 @@ pub fn compare(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A gauge of a test pair: its samples, a 30-min maximum gap and its mean level.
+    fn pair_gauge(id: &str, t: Vec<f64>, h: Vec<f64>, m: f64) -> Gauge {
+        Gauge {
+            id: id.into(),
+            series: LevelSeries {
+                times_s: t,
+                heights_m: h,
+                max_gap_s: 1800.0,
+                ..Default::default()
+            },
+            mean_level_above_datum_m: m,
+        }
+    }
     use crate::compute::series::{LevelSeries, Linear};
     use crate::compute::zoning::{GaugeFeed, MeanLevelForm};
     use rand::SeedableRng;
@@ -455,17 +469,7 @@ mod tests {
                 fault(t, h)
             })
             .unzip();
-        let mk = |id: &str, t: Vec<f64>, h: Vec<f64>, m: f64| Gauge {
-            id: id.into(),
-            series: LevelSeries {
-                times_s: t,
-                heights_m: h,
-                max_gap_s: 1800.0,
-                ..Default::default()
-            },
-            mean_level_above_datum_m: m,
-        };
-        vec![mk("a", t, ha, 2.6), mk("b", tb, hb, 2.9)]
+        vec![pair_gauge("a", t, ha, 2.6), pair_gauge("b", tb, hb, 2.9)]
     }
 
     fn preds() -> (Prediction, Prediction) {
@@ -607,17 +611,7 @@ mod tests {
             .filter(|&(t, _)| !hole(t))
             .map(|(t, h)| (t, fault(t, h)))
             .unzip();
-        let mk = |id: &str, t: Vec<f64>, h: Vec<f64>, m: f64| Gauge {
-            id: id.into(),
-            series: LevelSeries {
-                times_s: t,
-                heights_m: h,
-                max_gap_s: 1800.0,
-                ..Default::default()
-            },
-            mean_level_above_datum_m: m,
-        };
-        vec![mk("a", t, ha, 2.6), mk("b", tb, hb, 2.9)]
+        vec![pair_gauge("a", t, ha, 2.6), pair_gauge("b", tb, hb, 2.9)]
     }
 
     #[test]

@@ -1153,6 +1153,39 @@ fn qc_ran_or_not_and_what_it_set_aside_is_stated_everywhere() {
     }
 }
 
+/// A mini project whose gauge record is `record_text` and whose soundings lie in zone Z1 at the
+/// given times; runs `ebbwise qc` (exit 1: faults found) and returns the project and the QC file.
+fn qc_of_record_with_soundings(
+    record_text: &str,
+    soundings: &[(&str, &str)],
+) -> (MiniProject, Vec<String>, Vec<Vec<String>>) {
+    let mut s = String::from("time,lon,lat,depth,line\n");
+    for (t, _) in soundings {
+        s.push_str(&format!("{t},10.005,50.005,15.0,L1\n"));
+    }
+    let p = MiniProject::new(&s);
+    p.write("g1.csv", record_text);
+    let qc_out = p.path("qc");
+    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let (h, rows) = read_csv(&qc_out.join("g1.qc.csv"));
+    (p, h, rows)
+}
+
+/// Each sounding of the last reduction has the status paired with its time.
+fn assert_statuses(p: &MiniProject, soundings: &[(&str, &str)]) {
+    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
+    assert_eq!(rows.len(), soundings.len());
+    for (r, (t, status)) in rows.iter().zip(soundings) {
+        assert_eq!(
+            col(&h, r, "status"),
+            *status,
+            "{t}: {}",
+            col(&h, r, "status_detail")
+        );
+    }
+}
+
 /// A logger clock 1 h ahead for a day (a six-minute record over three days of `tide` with 5 mm
 /// noise, the clock jumping at 2026-06-15T00:00Z and set back a day later): QC flags the day's
 /// samples `time_lag` naming the lag, and a sounding in that day is `gauge_flagged`, while the
@@ -1175,17 +1208,7 @@ fn reducer_sets_aside_a_day_of_clock_jump() {
         ("2026-06-15T12:00:00Z", "gauge_flagged"),
         ("2026-06-16T12:00:00Z", "reduced"),
     ];
-    let mut s = String::from("time,lon,lat,depth,line\n");
-    for (t, _) in sounding_times {
-        s.push_str(&format!("{t},10.005,50.005,15.0,L1\n"));
-    }
-    let p = MiniProject::new(&s);
-    p.write("g1.csv", &text);
-
-    let qc_out = p.path("qc");
-    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
-    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
-    let (h, rows) = read_csv(&qc_out.join("g1.qc.csv"));
+    let (p, h, rows) = qc_of_record_with_soundings(&text, &sounding_times);
     // Sample i is line i + 2; the jumped samples are 240..480.
     for r in &rows {
         let line: i64 = col(&h, r, "line").parse().unwrap();
@@ -1230,15 +1253,7 @@ fn reducer_sets_aside_a_day_of_clock_jump() {
     );
     let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
-    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
-    for (r, (t, status)) in rows.iter().zip(sounding_times) {
-        assert_eq!(
-            col(&h, r, "status"),
-            status,
-            "{t}: {}",
-            col(&h, r, "status_detail")
-        );
-    }
+    assert_statuses(&p, &sounding_times);
 }
 
 /// A +0.15 m level shift 1.7 h after a 48-min hole (a one-minute record over two days of `tide`
@@ -1265,17 +1280,7 @@ fn reducer_sets_aside_a_shift_next_to_a_hole() {
         ("2026-06-14T20:00:00Z", "gauge_flagged"),
         ("2026-06-15T12:00:00Z", "gauge_flagged"),
     ];
-    let mut s = String::from("time,lon,lat,depth,line\n");
-    for (t, _) in soundings {
-        s.push_str(&format!("{t},10.005,50.005,15.0,L1\n"));
-    }
-    let p = MiniProject::new(&s);
-    p.write("g1.csv", &text);
-
-    let qc_out = p.path("qc");
-    let o = ebbwise(&["qc", &p.project(), "--out", qc_out.to_str().unwrap()]);
-    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
-    let (h, rows) = read_csv(&qc_out.join("g1.qc.csv"));
+    let (p, h, rows) = qc_of_record_with_soundings(&text, &soundings);
     for r in &rows {
         let t = ts(col(&h, r, "time_utc"));
         let flags = col(&h, r, "qc_flags");
@@ -1288,13 +1293,5 @@ fn reducer_sets_aside_a_shift_next_to_a_hole() {
 
     let o = ebbwise(&["reduce", &p.project(), "--no-progress"]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
-    let (h, rows) = read_csv(&p.path("out/s.reduced.csv"));
-    for (r, (t, status)) in rows.iter().zip(soundings) {
-        assert_eq!(
-            col(&h, r, "status"),
-            status,
-            "{t}: {}",
-            col(&h, r, "status_detail")
-        );
-    }
+    assert_statuses(&p, &soundings);
 }
