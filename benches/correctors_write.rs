@@ -67,6 +67,7 @@ fn main() {
         u_time_corrector_min: 6.0,
         u_range_ratio: 0.03,
         u_zone_m: 0.08,
+        u_datum_m: None,
     };
     let rates: Vec<_> = gauges.iter().map(|g| rate_series(g, &Linear)).collect();
     let dir = tempfile::tempdir().unwrap();

@@ -68,6 +68,14 @@ pub struct ZoneInput {
     pub u_range_ratio: f64,
     /// Spatial standard uncertainty, metres.
     pub u_zone_m: f64,
+    /// Standard uncertainty of chart datum at the zone as the budget uses it, metres: the
+    /// zone's own, or carried from its gauges (`√Σ (w_i u_datum,i)²`, or `√Σ (w_i R_i u_datum,i)²`
+    /// in the scaled form).
+    pub u_datum_m: f64,
+    /// Where `u_datum_m` comes from: `zone` (the zone's own `u_datum_m`), `gauges` (zone-mean
+    /// form, carried from the gauges with coefficient `w_i`), `gauges_scaled` (scaled form,
+    /// coefficient `w_i R_i`).
+    pub datum_from: &'static str,
 }
 
 /// Inputs of the budget as used.

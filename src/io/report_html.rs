@@ -702,15 +702,21 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
             given(g.u_datum_m)
         );
     }
-    o.push_str("</table><table><tr><th>zone</th><th>u_time_corrector (min)</th><th>u_range_ratio</th><th>u_zone (m)</th></tr>");
+    o.push_str("</table><table><tr><th>zone</th><th>u_time_corrector (min)</th><th>u_range_ratio</th><th>u_zone (m)</th><th>u_datum at the zone (m)</th></tr>");
     for z in &r.inputs.zones {
+        let from = match z.datum_from {
+            "zone" => "the zone's own",
+            "gauges" => "from its gauges",
+            _ => "from its gauges, scaled form",
+        };
         let _ = write!(
             o,
-            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{} ({from})</td></tr>",
             esc(&z.zone),
             given(z.u_time_corrector_min),
             given(z.u_range_ratio),
-            given(z.u_zone_m)
+            given(z.u_zone_m),
+            given(z.u_datum_m)
         );
     }
     let _ = write!(

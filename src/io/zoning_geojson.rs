@@ -13,6 +13,7 @@
 //! | `u_time_corrector_min` | optional standard uncertainty of the time corrector(s), minutes |
 //! | `u_range_ratio` | optional standard uncertainty of the range ratio(s) |
 //! | `u_zone_m` | optional spatial standard uncertainty the zoning does not capture, metres |
+//! | `u_datum_m` | optional standard uncertainty of chart datum at the zone (of `M_z`), metres; zone-mean form only |
 //!
 //! Problems are reported as `file: field 'features[i].properties.name': zone 'id': …`, and
 //! geometry problems at `features[i].geometry`.
@@ -56,6 +57,8 @@ pub struct ZoneSpec {
     pub u_range_ratio: Option<f64>,
     /// Spatial standard uncertainty, metres, when given.
     pub u_zone_m: Option<f64>,
+    /// Standard uncertainty of chart datum at the zone (of `M_z`), metres, when given.
+    pub u_datum_m: Option<f64>,
     /// Rings that were not closed in the file (first position ≠ last): feature-relative
     /// descriptions, for validation.
     pub unclosed_rings: Vec<String>,
@@ -76,7 +79,7 @@ pub struct ZoningSpec {
 }
 
 /// The properties of a zone that ebbwise reads.
-pub const ZONE_PROPERTIES: [&str; 9] = [
+pub const ZONE_PROPERTIES: [&str; 10] = [
     "zone",
     "gauge",
     "time_corrector_min",
@@ -86,6 +89,7 @@ pub const ZONE_PROPERTIES: [&str; 9] = [
     "u_time_corrector_min",
     "u_range_ratio",
     "u_zone_m",
+    "u_datum_m",
 ];
 
 /// The members of one entry of `feeds`.
@@ -325,6 +329,7 @@ pub fn parse_zoning_all(bytes: &[u8], path: &Path) -> Result<ZoningSpec, IoError
                     u_time_corrector_min: p.u_time_corrector_min,
                     u_range_ratio: p.u_range_ratio,
                     u_zone_m: p.u_zone_m,
+                    u_datum_m: p.u_datum_m,
                     unclosed_rings,
                 })
             }
@@ -352,6 +357,7 @@ struct ZoneProperties {
     u_time_corrector_min: Option<f64>,
     u_range_ratio: Option<f64>,
     u_zone_m: Option<f64>,
+    u_datum_m: Option<f64>,
 }
 
 /// Reads a zone's properties other than its id, every one of them: `None` when any has a
@@ -509,6 +515,21 @@ fn zone_properties(p: &mut Props, warnings: &mut Vec<Finding>) -> Option<ZonePro
         " m",
         "centimetres or millimetres instead of metres",
     );
+    let u_datum_m = opt_u(
+        "u_datum_m",
+        U_HEIGHT_REFUSED_ABOVE_M,
+        " m",
+        "centimetres or millimetres instead of metres",
+    );
+    if let (Some(Some(_)), Some(None)) = (u_datum_m, mean_level_above_datum_m) {
+        warnings.push(Finding::warning(
+            (p.at)("u_datum_m"),
+            format!(
+                "{}not used: the zone has no mean_level_above_datum_m, so its tide is in the scaled form, where chart datum at the zone is the gauges' own carried by the range ratio and its uncertainty is the gauges' u_datum_m",
+                p.prefix
+            ),
+        ));
+    }
     if p.errors.len() > errors_before {
         return None;
     }
@@ -518,6 +539,7 @@ fn zone_properties(p: &mut Props, warnings: &mut Vec<Finding>) -> Option<ZonePro
         u_time_corrector_min: u_time_corrector_min.flatten(),
         u_range_ratio: u_range_ratio.flatten(),
         u_zone_m: u_zone_m.flatten(),
+        u_datum_m: u_datum_m.flatten(),
     })
 }
 
@@ -713,6 +735,40 @@ mod tests {
         "feeds":[{"gauge":"g1","weight":0.7,"time_corrector_min":5,"range_ratio":1.0},
                  {"gauge":"g2","weight":0.3,"time_corrector_min":-3,"range_ratio":0.9}]},
        "geometry":{"type":"MultiPolygon","coordinates":[[[[1,0],[2,0],[2,1],[1,0]]]]}}]}"#;
+
+    /// A zone's chart-datum uncertainty: read in the zone-mean form, warned as unused in the
+    /// scaled form, refused above the height bound.
+    #[test]
+    fn zone_datum_uncertainty_is_read_warned_or_refused() {
+        let both = ONE
+            .replace(
+                "\"range_ratio\":1.05}",
+                "\"range_ratio\":1.05,\"u_datum_m\":0.05}",
+            )
+            .replace(
+                "\"mean_level_above_datum_m\":2.1,",
+                "\"mean_level_above_datum_m\":2.1,\"u_datum_m\":0.06,",
+            );
+        let z = parse(&both).unwrap();
+        assert_eq!(z.zones[0].u_datum_m, Some(0.05));
+        assert_eq!(z.zones[1].u_datum_m, Some(0.06));
+        let w: Vec<String> = z.warnings.iter().map(|w| w.to_string()).collect();
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert!(
+            w[0].contains("features[0].properties.u_datum_m")
+                && w[0].contains("zone 'A': not used")
+                && w[0].contains("scaled form"),
+            "{}",
+            w[0]
+        );
+        let e = parse(&both.replace("\"u_datum_m\":0.06", "\"u_datum_m\":6")).unwrap_err();
+        assert!(
+            e.to_string().contains("features[1].properties.u_datum_m")
+                && e.to_string().contains("beyond the plausible 1 m"),
+            "{e}"
+        );
+        assert_eq!(parse(ONE).unwrap().zones[1].u_datum_m, None);
+    }
 
     #[test]
     fn reads_single_and_multi_gauge_zones() {

@@ -302,6 +302,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                             "u_range_ratio",
                         ),
                         u_zone_m: pick(z.u_zone_m, u.default_u_zone_m, "u_zone_m"),
+                        u_datum_m: z.u_datum_m,
                     }
                 })
                 .collect();

@@ -12,7 +12,7 @@ use crate::compute::qa_report::{
     failing, GaugeInput, GaugeQc, MapPoint, QaReport, RatioHistogram, UncertaintyInputs, ZoneInput,
     ZoneTideSeries, QA_SCHEMA,
 };
-use crate::compute::uncertainty::{tide_budget, K95};
+use crate::compute::uncertainty::{tide_budget, zone_datum_u, K95};
 use crate::io::crs::Transformer;
 use crate::io::timefmt::utc_label;
 
@@ -109,11 +109,16 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
                 .zones
                 .iter()
                 .zip(&u.zone_u)
-                .map(|(z, x)| ZoneInput {
-                    zone: z.id.clone(),
-                    u_time_corrector_min: x.u_time_corrector_min,
-                    u_range_ratio: x.u_range_ratio,
-                    u_zone_m: x.u_zone_m,
+                .map(|(z, x)| {
+                    let (u_datum_m, from) = zone_datum_u(z, &u.gauge_u, x);
+                    ZoneInput {
+                        zone: z.id.clone(),
+                        u_time_corrector_min: x.u_time_corrector_min,
+                        u_range_ratio: x.u_range_ratio,
+                        u_zone_m: x.u_zone_m,
+                        u_datum_m,
+                        datum_from: from.as_str(),
+                    }
                 })
                 .collect(),
             sounding_a_m: u.sounding_model.a_m,

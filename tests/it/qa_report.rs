@@ -53,6 +53,39 @@ fn json_report_is_schema_valid_and_consistent() {
         // Each of the six is rounded to 0.001 on its own (docs/outputs.md): within 6 × 0.0005.
         assert!((total - 1.0).abs() <= 0.003 + 1e-9, "{}: {total}", g["id"]);
     }
+    // Each zone's chart-datum value as the report states it is the one in every reduced
+    // sounding's datum column; the demo's zone-mean zones carry it from their gauges.
+    let datum_of: std::collections::HashMap<String, (f64, String)> = report["inputs"]["zones"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|z| {
+            (
+                z["zone"].as_str().unwrap().to_string(),
+                (
+                    z["u_datum_m"].as_f64().unwrap(),
+                    z["datum_from"].as_str().unwrap().to_string(),
+                ),
+            )
+        })
+        .collect();
+    let froms: std::collections::BTreeSet<&str> =
+        datum_of.values().map(|(_, f)| f.as_str()).collect();
+    assert_eq!(
+        froms,
+        ["gauges", "gauges_scaled"].into_iter().collect(),
+        "{datum_of:?}"
+    );
+    let (header, rows) = read_csv(&out.path().join("launch-a.reduced.csv"));
+    let col = |n: &str| header.iter().position(|h| h == n).unwrap();
+    let (zone, status, datum) = (col("zone"), col("status"), col("u_tide_datum_m"));
+    let mut checked = 0;
+    for r in rows.iter().filter(|r| r[status] == "reduced") {
+        let (u, _) = &datum_of[&r[zone]];
+        assert_eq!(r[datum], format!("{u:.4}"), "zone {}", r[zone]);
+        checked += 1;
+    }
+    assert!(checked > 1000, "{checked}");
     let reduced = report["rows_by_status"]["reduced"].as_u64().unwrap();
     assert_eq!(report["survey"]["soundings"].as_u64(), Some(reduced));
     let zone_sum: u64 = report["zones"]
