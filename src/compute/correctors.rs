@@ -286,6 +286,54 @@ pub fn sounding_key(line: &str, t_s: f64) -> (String, i64) {
     (line.to_string(), (t_s * 1e6).round() as i64)
 }
 
+/// Soundings whose per-sounding key ([`sounding_key`]: line and time) is shared with another
+/// sounding that lies in a different zone (or outside every zone), as the beams of one
+/// multibeam ping straddling a zone edge do. Such keys cannot tell the soundings' tides apart,
+/// so a per-sounding correction file cannot hold them; a zone's tide at one time is one value,
+/// so soundings sharing a key and a zone never clash.
+///
+/// Memory is one entry per distinct key: a 64-bit hash of the line and the time in whole
+/// microseconds with the zone (two different keys share a hash with probability about
+/// `n² / 2⁶⁵`, e.g. 3 × 10⁻⁴ for 10⁸ soundings, which could only add a clash).
+#[derive(Debug, Default)]
+pub struct KeyClashes {
+    zone_of: HashMap<u64, u32>,
+    /// Soundings whose key was met before with a different zone.
+    pub soundings: u64,
+    /// Distinct keys with soundings in more than one zone.
+    pub keys: u64,
+    clashed: std::collections::HashSet<u64>,
+    /// The first clash met: line and time, UTC seconds.
+    pub first: Option<(String, f64)>,
+}
+
+impl KeyClashes {
+    /// Adds one sounding: its line, time (UTC seconds) and zone (`None`: outside every zone).
+    pub fn add(&mut self, line: &str, t_s: f64, zone: Option<usize>) {
+        use std::hash::{Hash, Hasher};
+        let (line_key, micros) = (line, (t_s * 1e6).round() as i64);
+        let mut h = std::collections::hash_map::DefaultHasher::new();
+        line_key.hash(&mut h);
+        micros.hash(&mut h);
+        let key = h.finish();
+        let z = zone.map_or(0, |z| z as u32 + 1);
+        match self.zone_of.entry(key) {
+            std::collections::hash_map::Entry::Vacant(e) => {
+                e.insert(z);
+            }
+            std::collections::hash_map::Entry::Occupied(e) => {
+                if *e.get() != z {
+                    self.soundings += 1;
+                    if self.clashed.insert(key) {
+                        self.keys += 1;
+                    }
+                    self.first.get_or_insert_with(|| (line.to_string(), t_s));
+                }
+            }
+        }
+    }
+}
+
 /// Tide looked up per sounding by its survey line and time.
 #[derive(Debug, Default)]
 pub struct SoundingTableModel {
@@ -329,6 +377,23 @@ impl TideModel for SoundingTableModel {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Beams of one ping in two zones clash; beams in one zone, or pings at other times or on
+    /// other lines, do not.
+    #[test]
+    fn key_clashes_count_pings_across_a_zone_edge() {
+        let mut c = KeyClashes::default();
+        for beam in 0..10 {
+            c.add("L1", 100.25, Some(usize::from(beam >= 6)));
+        }
+        for beam in 0..10 {
+            c.add("L1", 100.5, Some(0));
+            c.add("L2", 100.25, if beam < 3 { None } else { Some(0) });
+        }
+        c.add("L3", 100.25, Some(2));
+        assert_eq!((c.keys, c.soundings), (2, 11));
+        assert_eq!(c.first, Some(("L1".to_string(), 100.25)));
+    }
 
     #[test]
     fn every_status_reads_back_and_indexes_its_count() {

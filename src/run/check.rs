@@ -20,6 +20,7 @@ use serde::Serialize;
 use super::correctors::correctors_outputs;
 use super::load::{load, locator_for_crs, output_clashes};
 use super::reduce::{run_outputs, RunKind};
+use crate::compute::correctors::KeyClashes;
 use crate::io::crs::Transformer;
 use crate::io::error::{Finding, Position, Severity};
 use crate::io::project::Project;
@@ -194,6 +195,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             let mut outside = 0u64;
             let mut first_outside = None;
             let mut hull_pts: Vec<Point<f64>> = Vec::new();
+            let mut clashes = KeyClashes::default();
             loop {
                 let chunk = match reader.next_chunk(Vec::new()) {
                     Ok(Some(c)) => c,
@@ -258,10 +260,12 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                             let Some(locator) = &locator else {
                                 continue;
                             };
-                            if locator.locate(v.x, v.y).is_none() {
+                            let zone = locator.locate(v.x, v.y);
+                            if zone.is_none() {
                                 outside += 1;
                                 first_outside.get_or_insert(n);
                             }
+                            clashes.add(v.line_id, v.t_s, zone);
                             hull_pts.push(Point::new(v.x, v.y));
                             if hull_pts.len() >= 200_000 {
                                 let h = MultiPoint(std::mem::take(&mut hull_pts)).convex_hull();
@@ -284,6 +288,17 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                 report.findings.push(Finding::warning(
                     Position::file(path).line(first_outside.unwrap_or(0)),
                     format!("{outside} sounding(s) lie outside every zone (first on this line)"),
+                ));
+            }
+            if let Some((line, t)) = &clashes.first {
+                report.findings.push(Finding::warning(
+                    Position::file(path),
+                    format!(
+                        "{} sounding(s) share a line and time with a sounding in another zone ({} line-and-time key(s), first line '{line}' at {}), as the beams of a ping across a zone edge do: a per-sounding correction file (`ebbwise correctors --per-sounding`) cannot hold them and `ebbwise apply` would refuse it; use the per-zone correction file",
+                        clashes.soundings,
+                        clashes.keys,
+                        utc_label(*t)
+                    ),
                 ));
             }
             if let (true, Some(zoning_union)) = (hull_pts.len() >= 3, &zoning_union) {

@@ -458,3 +458,33 @@ fn per_sounding_times_keep_their_precision_and_find_their_rows() {
         ["Z1", "Z2", "Z1"]
     );
 }
+
+/// A multibeam-like file: each ping's beams share line and time, and the pings of line L1 cross
+/// the edge between Z1 and Z2 (lon 10.01: four beams each side). `check` warns before anything
+/// is written, with the count of soundings and keys, and points to the per-zone file; the same
+/// pings moved wholly inside Z1 get no such warning.
+#[test]
+fn check_warns_of_pings_across_a_zone_edge() {
+    let pings = |first_beam_lon: f64| {
+        let mut csv = String::from("time,lon,lat,depth,line\n");
+        for ping in 0..5 {
+            for beam in 0..8 {
+                csv.push_str(&format!(
+                    "2026-06-14T01:00:0{ping}.500Z,{:.5},50.005,10.0,L1\n",
+                    first_beam_lon + 0.0001 * beam as f64
+                ));
+            }
+        }
+        csv
+    };
+    let p = MiniProject::new(&pings(10.00965));
+    let err = stderr(&ebbwise(&["check", &p.project()]));
+    assert!(
+        err.contains("s.csv: 20 sounding(s) share a line and time with a sounding in another zone (5 line-and-time key(s), first line 'L1' at 2026-06-14T01:00:00.500Z)")
+            && err.contains("use the per-zone correction file"),
+        "{err}"
+    );
+    p.write("s.csv", &pings(10.00105));
+    let err = stderr(&ebbwise(&["check", &p.project()]));
+    assert!(!err.contains("share a line and time"), "{err}");
+}
