@@ -12,7 +12,7 @@ use super::error::{IoError, Position};
 use super::timefmt::{parse_offset, TimeFormat};
 
 /// The project file as written.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct ProjectFile {
     /// A name for reports.
@@ -46,7 +46,7 @@ pub struct ProjectFile {
 /// `[qc]`: gauge-record quality control. The reducer does not interpolate through a flagged
 /// sample. Defaults: see `compute::qc::QcThresholds` (from memory / common practice, documented in
 /// docs/qc.md).
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct QcSpec {
     /// Run QC when loading gauges for `reduce`, `check`, `correctors` (default true).
@@ -195,7 +195,7 @@ impl QcSpec {
 pub const GAUGE_LEVEL_LIMIT_M: f64 = 100.0;
 
 /// `[interpolation]`: how gauge records are interpolated in time.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct InterpolationSpec {
     /// With `interpolation = "auto"` (the default per gauge), records whose nominal step is
@@ -212,7 +212,7 @@ impl Default for InterpolationSpec {
 }
 
 /// A gauge's time interpolation.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize, Default)]
 #[serde(rename_all = "snake_case")]
 #[non_exhaustive]
 pub enum InterpolationChoice {
@@ -230,7 +230,7 @@ pub enum InterpolationChoice {
 /// The `default_*` values apply to gauges and zones that do not give their own. Their built-in
 /// defaults are **demo values** (typical magnitudes, not authority-approved numbers): replace them
 /// with the values of your survey specification.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct UncertaintySpec {
     /// Survey order judged per sounding: `exclusive`, `special`, `1a`, `1b`, `2` (IHO S-44
@@ -268,7 +268,7 @@ pub struct UncertaintySpec {
 }
 
 /// A user-defined survey order: allowed TVU at 95 % `sqrt(a² + (b·d)²)`.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct CustomOrderSpec {
     /// Name.
@@ -308,7 +308,7 @@ fn default_u_zone() -> f64 {
 }
 
 /// Where and how results are written.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct OutputSpec {
     /// Output directory, relative to the project file (created when missing).
@@ -358,7 +358,7 @@ impl HeightUnit {
 }
 
 /// One tide gauge.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct GaugeSpec {
     /// Identifier used by the zoning.
@@ -477,7 +477,7 @@ fn default_good_flags() -> Vec<String> {
 }
 
 /// Field separator of a soundings file.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 #[non_exhaustive]
 pub enum Delimiter {
@@ -492,7 +492,7 @@ pub enum Delimiter {
 }
 
 /// Sign convention of a depth column.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum DepthSign {
     /// Depths positive down (the usual).
@@ -502,7 +502,7 @@ pub enum DepthSign {
 }
 
 /// Which columns hold what. Each value is a header name, or `#N` for the N-th column (1-based).
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct ColumnMap {
     /// Time of the sounding.
@@ -522,7 +522,7 @@ pub struct ColumnMap {
 }
 
 /// A group of sounding files with one layout.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct SoundingsSpec {
     /// The files.
@@ -550,7 +550,7 @@ pub struct SoundingsSpec {
 }
 
 /// What a soundings row with more fields than the header is.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum ExtraFields {
     /// The row is `bad_input` (the default).

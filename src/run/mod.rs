@@ -8,12 +8,14 @@
 //! * [`correctors`] — tide-correction files with provenance, and applying them.
 //! * [`harmonics`] — harmonic analysis of a record into a constants file; prediction.
 //! * [`qc`] — gauge-record quality control and gauge-to-gauge comparison.
+//! * [`provenance`] — every input that can change a tide, recorded and compared.
 //! * [`qa_report`] — the QA report of a reduction (survey orders, budgets, tide bands).
 
 pub mod check;
 pub mod correctors;
 pub mod harmonics;
 pub mod load;
+pub mod provenance;
 pub mod qa_report;
 pub mod qc;
 pub mod reduce;

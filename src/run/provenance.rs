@@ -1,0 +1,218 @@
+//! What a correction file's tides were made from, and how a project now differs from it.
+//!
+//! [`tide_inputs`] gathers every input of a project that can change a tide — the zoning (its
+//! SHA-256 and each zone's form, mean level and feeds), every gauge's record (SHA-256), datum
+//! relation, mean level, units, reading of the record, gap, band, filter and interpolation
+//! settings, the project's naive-time offset, quality control and interpolation settings — apart
+//! from the uncertainty inputs (which change a tide's uncertainty, not the tide) and from what
+//! changes neither (the project's name, output folder and soundings groups, gauge names and
+//! positions, file paths). [`differences`] compares two such records item by item.
+//!
+//! Paths are left out on purpose: a project folder copied elsewhere makes the same tides, and the
+//! files' contents are compared by their SHA-256.
+
+use serde_json::{json, Map, Value};
+
+use super::load::Loaded;
+use crate::io::correctors_file::sha256_file;
+use crate::io::error::IoError;
+
+/// The three parts of a project's inputs, as recorded in a correction file's sidecar.
+pub const PARTS: [&str; 3] = ["tide", "uncertainty", "other"];
+
+/// Every input of `loaded`'s project, in three parts: `tide` (changes a tide), `uncertainty`
+/// (changes a tide's uncertainty) and `other` (changes neither).
+pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
+    let spec = &loaded.project.spec;
+    let mut gauges = Map::new();
+    let mut gauge_u = Map::new();
+    let mut gauge_other = Map::new();
+    for (i, g) in spec.gauges.iter().enumerate() {
+        let mut v = serde_json::to_value(g).expect("a gauge spec serialises");
+        let o = v.as_object_mut().expect("a gauge spec is a table");
+        let mut other = Map::new();
+        for k in ["name", "lon", "lat", "record", "id"] {
+            if let Some(x) = o.remove(k) {
+                other.insert(k.to_string(), x);
+            }
+        }
+        let mut u = Map::new();
+        for k in ["u_gauge_m", "u_datum_m"] {
+            if let Some(x) = o.remove(k) {
+                u.insert(k.to_string(), x);
+            }
+        }
+        o.insert("record_sha256".into(), json!(sha256_file(&g.record)?));
+        if let Some(m) = loaded.methods.get(i) {
+            o.insert(
+                "method".into(),
+                serde_json::to_value(m).expect("a method serialises"),
+            );
+        }
+        gauges.insert(g.id.clone(), v);
+        gauge_u.insert(g.id.clone(), Value::Object(u));
+        gauge_other.insert(g.id.clone(), Value::Object(other));
+    }
+    let mut zones = Map::new();
+    let mut zone_u = Map::new();
+    for (z, zs) in loaded.zones.iter().zip(&loaded.zoning.zones) {
+        zones.insert(
+            z.id.clone(),
+            json!({
+                "mean_level_form": z.mean_level.label(),
+                "mean_level_above_datum_m": zs.mean_level_above_datum_m,
+                "feeds": z.feeds.iter().map(|f| json!({
+                    "gauge": loaded.gauges[f.gauge].id,
+                    "weight": f.weight,
+                    "time_corrector_min": f.time_corrector_min,
+                    "range_ratio": f.range_ratio,
+                })).collect::<Vec<_>>(),
+            }),
+        );
+        zone_u.insert(
+            z.id.clone(),
+            json!({
+                "u_time_corrector_min": zs.u_time_corrector_min,
+                "u_range_ratio": zs.u_range_ratio,
+                "u_zone_m": zs.u_zone_m,
+                "u_datum_m": zs.u_datum_m,
+            }),
+        );
+    }
+    Ok(json!({
+        "tide": {
+            "zoning_sha256": sha256_file(&spec.zoning)?,
+            "zones": zones,
+            "gauges": gauges,
+            "naive_time_utc_offset": spec.naive_time_utc_offset,
+            "qc": serde_json::to_value(&spec.qc).expect("qc settings serialise"),
+            "interpolation": serde_json::to_value(&spec.interpolation).expect("interpolation settings serialise"),
+        },
+        "uncertainty": {
+            "project": serde_json::to_value(&spec.uncertainty).expect("uncertainty settings serialise"),
+            "gauges": gauge_u,
+            "zones": zone_u,
+        },
+        "other": {
+            "name": spec.name,
+            "output": serde_json::to_value(&spec.output).expect("output settings serialise"),
+            "soundings": serde_json::to_value(&spec.soundings).expect("soundings groups serialise"),
+            "gauges": gauge_other,
+            "zoning_path": spec.zoning,
+        },
+    }))
+}
+
+/// One input that differs between a correction file's record and the project now.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct InputDifference {
+    /// `tide`, `uncertainty` or `other` ([`PARTS`]).
+    pub part: &'static str,
+    /// The item, e.g. `gauges.orlick.zero_above_datum_m`.
+    pub item: String,
+    /// As recorded (JSON text; `absent` when the record lacks it).
+    pub recorded: String,
+    /// In the project now (JSON text; `absent` when the project lacks it).
+    pub current: String,
+}
+
+impl std::fmt::Display for InputDifference {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "{}: {} in the correction file, {} now",
+            self.item, self.recorded, self.current
+        )
+    }
+}
+
+/// Leaves of `v` by dotted path (array elements by index, objects by key).
+fn leaves(prefix: &str, v: &Value, out: &mut Vec<(String, String)>) {
+    let join = |k: &str| {
+        if prefix.is_empty() {
+            k.to_string()
+        } else {
+            format!("{prefix}.{k}")
+        }
+    };
+    match v {
+        Value::Object(m) if !m.is_empty() => {
+            for (k, x) in m {
+                leaves(&join(k), x, out);
+            }
+        }
+        Value::Array(a) if !a.is_empty() => {
+            for (k, x) in a.iter().enumerate() {
+                leaves(&join(&k.to_string()), x, out);
+            }
+        }
+        other => out.push((prefix.to_string(), other.to_string())),
+    }
+}
+
+/// Every item of `current` that differs from `recorded`, part by part ([`PARTS`]), in path
+/// order. Numbers are compared as written by JSON (the same value always writes the same text).
+pub fn differences(recorded: &Value, current: &Value) -> Vec<InputDifference> {
+    let mut out = Vec::new();
+    for part in PARTS {
+        let (mut a, mut b) = (Vec::new(), Vec::new());
+        leaves("", &recorded[part], &mut a);
+        leaves("", &current[part], &mut b);
+        let a: std::collections::BTreeMap<_, _> = a.into_iter().collect();
+        let b: std::collections::BTreeMap<_, _> = b.into_iter().collect();
+        let keys: std::collections::BTreeSet<&String> = a.keys().chain(b.keys()).collect();
+        for k in keys {
+            let (x, y) = (a.get(k), b.get(k));
+            if x != y {
+                out.push(InputDifference {
+                    part,
+                    item: k.clone(),
+                    recorded: x.cloned().unwrap_or_else(|| "absent".into()),
+                    current: y.cloned().unwrap_or_else(|| "absent".into()),
+                });
+            }
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn differences_name_each_leaf_and_its_part() {
+        let a = json!({
+            "tide": {"gauges": {"g1": {"zero_above_datum_m": 1.0, "units": "m"}}, "qc": {"enabled": true}},
+            "uncertainty": {"gauges": {"g1": {"u_datum_m": 0.03}}},
+            "other": {"name": "a"},
+        });
+        assert!(differences(&a, &a).is_empty());
+        let mut b = a.clone();
+        b["tide"]["gauges"]["g1"]["zero_above_datum_m"] = json!(1.1);
+        b["tide"]["qc"]["spike_k"] = json!(4.0);
+        b["uncertainty"]["gauges"]["g1"]["u_datum_m"] = Value::Null;
+        b["other"]["name"] = json!("b");
+        let d = differences(&a, &b);
+        let named: Vec<(&str, &str, &str, &str)> = d
+            .iter()
+            .map(|d| {
+                (
+                    d.part,
+                    d.item.as_str(),
+                    d.recorded.as_str(),
+                    d.current.as_str(),
+                )
+            })
+            .collect();
+        assert_eq!(
+            named,
+            [
+                ("tide", "gauges.g1.zero_above_datum_m", "1.0", "1.1"),
+                ("tide", "qc.spike_k", "absent", "4.0"),
+                ("uncertainty", "gauges.g1.u_datum_m", "0.03", "null"),
+                ("other", "name", "\"a\"", "\"b\""),
+            ]
+        );
+    }
+}
