@@ -925,7 +925,8 @@ dir = "out"
 #                             zone-mean form of the zoning).
 #   max_gap_min               longest gap between samples that interpolation may bridge; soundings
 #                             whose (time-corrected) time falls in a longer gap get no tide.
-#   u_gauge_m                 standard uncertainty (1 sigma) of the level: sensor + interpolation.
+#   u_gauge_m                 standard uncertainty (1 sigma) of the level from the sensor; ebbwise
+#                             adds the error of interpolating between samples from the record.
 #   u_datum_m                 standard uncertainty (1 sigma) of chart datum carried by the gauge
 #                             (levelling, datum determination, transfer).
 "#,
