@@ -991,7 +991,7 @@ duplicate_time_conflict = "set_both_aside"
 # flat_min_duration_min = 60   # a reading repeated this long is a stuck sensor
 # max_rate_m_per_h = 3.0       # fastest plausible change of level
 # [interpolation]
-# cubic_above_step_min = 10    # records sparser than this use a natural cubic spline
+# cubic_above_step_min = 10    # records sparser than this use a not-a-knot cubic spline
 
 # ---------------------------------------------------------------------------------------------
 # Uncertainty (GUM, standard uncertainties = 1 sigma) and the survey order the soundings are

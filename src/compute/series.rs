@@ -17,7 +17,7 @@ pub struct LevelSeries {
     /// Times of samples that quality control set aside (sorted, UTC seconds). They are not in
     /// `times_s`; interpolation never spans one of them.
     pub flagged_times_s: Vec<f64>,
-    /// Second derivatives of the natural cubic spline at each sample, m/s², when this gauge is
+    /// Second derivatives of the not-a-knot cubic spline at each sample, m/s², when this gauge is
     /// interpolated by spline ([`Configured`]); empty for linear interpolation.
     pub spline_m_per_s2: Vec<f64>,
 }
@@ -210,7 +210,7 @@ impl TimeInterpolation for Linear {
     }
 }
 
-/// Each gauge as configured: natural cubic spline when the series carries spline coefficients
+/// Each gauge as configured: not-a-knot cubic spline when the series carries spline coefficients
 /// (`spline_m_per_s2` not empty), otherwise [`Linear`]. The maximum-gap rule and the rule that no
 /// flagged sample is interpolated through hold for both (the spline is built per unbroken segment).
 #[derive(Debug, Clone, Copy, Default)]
@@ -241,7 +241,7 @@ impl TimeInterpolation for Configured {
     }
 
     fn name(&self) -> &'static str {
-        "per gauge: linear, or natural cubic spline for sparse records"
+        "per gauge: linear, or not-a-knot cubic spline for sparse records"
     }
 }
 
