@@ -1194,6 +1194,75 @@ mod tests {
         assert!(failed.is_empty(), "{failed:#?}");
     }
 
+    /// The gauge component carries the interpolation error in quadrature, scaled by `R`: an
+    /// hourly record of `h = 2.5 + 1.5 cos ωt` (M2), interpolated linearly, at high water half-way
+    /// between two samples. Expected: `e = ½ g̈ Δt² / 4` with `g̈` the ±1-h second difference of
+    /// the samples, `−A ω² · 2 (1 − cos x) / x²` (x = ωΔt) averaged linearly between the two
+    /// samples (each `cos(x/2)` of the high-water value): 1.5 × ω² × 0.97886 × 0.96818 × 3600² / 8
+    /// = 45.47 mm; gauge component `R sqrt(u_gauge² + e²)` with `R` = 1.2, `u_gauge` = 0.02 m.
+    /// The actual error, the chord's midpoint below high water, is `A (1 − cos(x/2))` = 47.73 mm:
+    /// the estimate is 4.7 % low (the two factors, and the Taylor terms beyond the second).
+    #[test]
+    fn gauge_component_adds_the_interpolation_error_in_quadrature() {
+        let (mean, amp) = (2.5, 1.5);
+        let omega = 28.984_104_2_f64.to_radians() / 3600.0;
+        let period_s = 360.0 / 28.984_104_2 * 3600.0;
+        // Samples every hour, placed so that a high water (t = 2T) falls half-way between two.
+        let times: Vec<f64> = (0..=48)
+            .map(|k| 2.0 * period_s - 24.5 * 3600.0 + k as f64 * 3600.0)
+            .collect();
+        let g = vec![Gauge {
+            id: "h".into(),
+            series: LevelSeries {
+                heights_m: times
+                    .iter()
+                    .map(|t| mean + amp * (omega * t).cos())
+                    .collect(),
+                times_s: times,
+                max_gap_s: 3600.0,
+                ..Default::default()
+            },
+            mean_level_above_datum_m: mean,
+        }];
+        let zu = ZoneUncertainty {
+            u_time_corrector_min: 0.0,
+            u_range_ratio: 0.0,
+            u_zone_m: 0.0,
+        };
+        let gu = [GaugeUncertainty {
+            u_gauge_m: 0.02,
+            u_datum_m: 0.0,
+        }];
+        let zone = one_feed_zone(0.0, 1.2, MeanLevelForm::Scaled);
+        let t = 2.0 * period_s;
+        let mut st = Vec::new();
+        zone.tide_at(&g, &Linear, t, &mut st).unwrap();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        let x = omega * 3600.0;
+        let e = amp
+            * omega
+            * omega
+            * (2.0 * (1.0 - x.cos()) / (x * x))
+            * (x / 2.0).cos()
+            * 3600f64.powi(2)
+            / 8.0;
+        assert_relative_eq!(e, 0.04547, max_relative = 1e-3);
+        assert_relative_eq!(
+            c[0],
+            1.2 * (0.02f64.powi(2) + e * e).sqrt(),
+            max_relative = 1e-9
+        );
+        // The actual error there: the chord's midpoint against the high water, A (1 − cos(x/2)).
+        let actual = amp * (1.0 - (x / 2.0).cos());
+        assert_relative_eq!(e, actual, max_relative = 0.06);
+        assert_relative_eq!(actual, 0.04773, max_relative = 1e-3);
+        // At a sample the term is 0 and the component is the sensor's alone.
+        let t = g[0].series.times_s[20];
+        zone.tide_at(&g, &Linear, t, &mut st).unwrap();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        assert_relative_eq!(c[0], 1.2 * 0.02, max_relative = 1e-12);
+    }
+
     #[test]
     fn combined_is_never_below_a_component() {
         let b = TideBudget {
