@@ -20,7 +20,7 @@
 //!
 //! 1. `ebbwise::compute::qc::run_qc` on the samples in memory;
 //! 2. `ebbwise::run::load::prepare_series` with QC on: linear interpolation, a 10-min low-pass,
-//!    a forced natural cubic spline, and both;
+//!    a forced not-a-knot cubic spline, and both;
 //! 3. the phases of `ebbwise qc --record` in this process: reading the CSV
 //!    (`read_gauge_record`), writing `<stem>.qc.csv` and `<stem>.qc.svg` (`write_gauge_qc`), and
 //!    rendering the SVG alone (the QC phase is measurement 2, linear);

@@ -925,7 +925,8 @@ dir = "out"
 #                             zone-mean form of the zoning).
 #   max_gap_min               longest gap between samples that interpolation may bridge; soundings
 #                             whose (time-corrected) time falls in a longer gap get no tide.
-#   u_gauge_m                 standard uncertainty (1 sigma) of the level: sensor + interpolation.
+#   u_gauge_m                 standard uncertainty (1 sigma) of the level from the sensor; ebbwise
+#                             adds the error of interpolating between samples from the record.
 #   u_datum_m                 standard uncertainty (1 sigma) of chart datum carried by the gauge
 #                             (levelling, datum determination, transfer).
 "#,
@@ -990,7 +991,7 @@ duplicate_time_conflict = "set_both_aside"
 # flat_min_duration_min = 60   # a reading repeated this long is a stuck sensor
 # max_rate_m_per_h = 3.0       # fastest plausible change of level
 # [interpolation]
-# cubic_above_step_min = 10    # records sparser than this use a natural cubic spline
+# cubic_above_step_min = 10    # records sparser than this use a not-a-knot cubic spline
 
 # ---------------------------------------------------------------------------------------------
 # Uncertainty (GUM, standard uncertainties = 1 sigma) and the survey order the soundings are

@@ -12,7 +12,7 @@
 //! * [`quantile`] — a mergeable percentile sketch with a stated error bound.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
-//! * [`spline`] — natural cubic spline interpolation in time, per unbroken segment.
+//! * [`spline`] — not-a-knot cubic spline interpolation in time, per unbroken segment.
 //! * [`lowpass`] — zero-phase low-pass filter for noisy 1-minute records.
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.

@@ -17,7 +17,7 @@ pub struct LevelSeries {
     /// Times of samples that quality control set aside (sorted, UTC seconds). They are not in
     /// `times_s`; interpolation never spans one of them.
     pub flagged_times_s: Vec<f64>,
-    /// Second derivatives of the natural cubic spline at each sample, m/s², when this gauge is
+    /// Second derivatives of the not-a-knot cubic spline at each sample, m/s², when this gauge is
     /// interpolated by spline ([`Configured`]); empty for linear interpolation.
     pub spline_m_per_s2: Vec<f64>,
 }
@@ -210,7 +210,7 @@ impl TimeInterpolation for Linear {
     }
 }
 
-/// Each gauge as configured: natural cubic spline when the series carries spline coefficients
+/// Each gauge as configured: not-a-knot cubic spline when the series carries spline coefficients
 /// (`spline_m_per_s2` not empty), otherwise [`Linear`]. The maximum-gap rule and the rule that no
 /// flagged sample is interpolated through hold for both (the spline is built per unbroken segment).
 #[derive(Debug, Clone, Copy, Default)]
@@ -222,6 +222,12 @@ impl TimeInterpolation for Configured {
             return Linear.level_at(series, t_s);
         }
         let i = series.usable_bracket(t_s)?;
+        if series.interval_unbridged(i) {
+            // At a sample beside a gap or a flagged sample: the two ends' second derivatives
+            // belong to different segments, so the cubic between them means nothing; the
+            // sample's level and the chord's slope, as linear interpolation gives them.
+            return Linear.level_at(series, t_s);
+        }
         let (height_m, rate_m_per_s) = super::spline::spline_in_bracket(
             &series.times_s,
             &series.heights_m,
@@ -241,7 +247,7 @@ impl TimeInterpolation for Configured {
     }
 
     fn name(&self) -> &'static str {
-        "per gauge: linear, or natural cubic spline for sparse records"
+        "per gauge: linear, or not-a-knot cubic spline for sparse records"
     }
 }
 
@@ -249,16 +255,20 @@ impl LevelSeries {
     /// Which intervals must not be interpolated: longer than the maximum gap, or enclosing a
     /// flagged sample. `result[i]` is about the interval from sample `i` to `i + 1`.
     pub fn unbridged(&self) -> Vec<bool> {
-        self.times_s
-            .windows(2)
-            .map(|w| {
-                if w[1] - w[0] > self.max_gap_s {
-                    return true;
-                }
-                let k = self.flagged_times_s.partition_point(|&f| f <= w[0]);
-                self.flagged_times_s.get(k).is_some_and(|&f| f < w[1])
-            })
+        (0..self.times_s.len().saturating_sub(1))
+            .map(|i| self.interval_unbridged(i))
             .collect()
+    }
+
+    /// Whether the interval from sample `i` to `i + 1` must not be interpolated (see
+    /// [`LevelSeries::unbridged`]). Requires `i + 1 < times_s.len()`.
+    pub fn interval_unbridged(&self, i: usize) -> bool {
+        let (t0, t1) = (self.times_s[i], self.times_s[i + 1]);
+        if t1 - t0 > self.max_gap_s {
+            return true;
+        }
+        let k = self.flagged_times_s.partition_point(|&f| f <= t0);
+        self.flagged_times_s.get(k).is_some_and(|&f| f < t1)
     }
 }
 
@@ -357,6 +367,52 @@ mod tests {
         assert_eq!(
             Linear.level_at(&s, 4700.0),
             Err(NoLevel::AfterRecord { by_s: 20.0 })
+        );
+    }
+
+    /// A not-a-knot spline's second derivatives are not 0 at segment ends, so at the sample
+    /// that opens a gap (whose bracket is the gap) the level and rate are the linear ones (the
+    /// sample's level, the chord's slope), never a cubic across the gap; inside a segment the
+    /// spline is used.
+    #[test]
+    fn spline_at_a_sample_beside_a_gap_is_the_linear_result() {
+        let times: Vec<f64> = [
+            0.0, 3600.0, 7200.0, 10800.0, 21600.0, 25200.0, 28800.0, 32400.0,
+        ]
+        .to_vec();
+        let mut s = LevelSeries {
+            heights_m: times.iter().map(|t| 2.0 + (t / 9000.0).sin()).collect(),
+            times_s: times,
+            max_gap_s: 3600.0,
+            ..Default::default()
+        };
+        s.spline_m_per_s2 = crate::compute::spline::spline_second_derivatives(
+            &s.times_s,
+            &s.heights_m,
+            &s.unbridged(),
+            crate::compute::spline::SplineEnds::NotAKnot,
+        );
+        assert!(s.spline_m_per_s2[3] != 0.0 && s.spline_m_per_s2[4] != 0.0);
+        // 10 800 s opens the gap: its bracket is the gap itself.
+        assert_eq!(s.usable_bracket(10800.0), Ok(3));
+        assert_eq!(
+            Configured.level_at(&s, 10800.0),
+            Linear.level_at(&s, 10800.0)
+        );
+        // 21 600 s closes it and brackets into its own segment: the spline's level and rate.
+        let (h, r) = crate::compute::spline::spline_in_bracket(
+            &s.times_s,
+            &s.heights_m,
+            &s.spline_m_per_s2,
+            4,
+            21600.0,
+        );
+        let at = Configured.level_at(&s, 21600.0).unwrap();
+        assert_eq!((at.height_m, at.rate_m_per_s, at.bracket), (h, r, 4));
+        let inside = 5400.0;
+        assert_ne!(
+            Configured.level_at(&s, inside).unwrap().height_m,
+            Linear.level_at(&s, inside).unwrap().height_m
         );
     }
 

@@ -199,7 +199,7 @@ pub const GAUGE_LEVEL_LIMIT_M: f64 = 100.0;
 #[serde(deny_unknown_fields, default)]
 pub struct InterpolationSpec {
     /// With `interpolation = "auto"` (the default per gauge), records whose nominal step is
-    /// longer than this many minutes use a natural cubic spline, others linear (default 10).
+    /// longer than this many minutes use a not-a-knot cubic spline, others linear (default 10).
     pub cubic_above_step_min: f64,
 }
 
@@ -216,12 +216,12 @@ impl Default for InterpolationSpec {
 #[serde(rename_all = "snake_case")]
 #[non_exhaustive]
 pub enum InterpolationChoice {
-    /// Linear for records stepping `cubic_above_step_min` or less, natural cubic spline above.
+    /// Linear for records stepping `cubic_above_step_min` or less, not-a-knot cubic spline above.
     #[default]
     Auto,
     /// Always linear.
     Linear,
-    /// Always a natural cubic spline.
+    /// Always a not-a-knot cubic spline.
     Cubic,
 }
 

@@ -849,7 +849,7 @@ pub struct PreparedSeries {
 /// How a gauge's record is used.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct GaugeMethod {
-    /// `linear` or `natural_cubic_spline`.
+    /// `linear` or `cubic_spline_not_a_knot`.
     pub interpolation: &'static str,
     /// Nominal step of the record, minutes.
     #[serde(serialize_with = "crate::io::numfmt::ser_minutes")]
@@ -908,10 +908,11 @@ pub fn prepare_series(
     };
     if cubic {
         let unbridged = series.unbridged();
-        series.spline_m_per_s2 = crate::compute::spline::natural_spline_second_derivatives(
+        series.spline_m_per_s2 = crate::compute::spline::spline_second_derivatives(
             &series.times_s,
             &series.heights_m,
             &unbridged,
+            crate::compute::spline::SplineEnds::NotAKnot,
         );
     }
     PreparedSeries {
@@ -919,7 +920,7 @@ pub fn prepare_series(
         qc,
         method: GaugeMethod {
             interpolation: if cubic {
-                "natural_cubic_spline"
+                "cubic_spline_not_a_knot"
             } else {
                 "linear"
             },
