@@ -17,7 +17,9 @@
 //! 2. **Plausible band** — a reading that is not a finite number, or a level outside
 //!    `[band_min_m, band_max_m]` above chart datum, is `out_of_band`.
 //! 3. **Flat line** — the same reading repeated over at least `flat_min_samples` samples and
-//!    `flat_min_duration_min` (a stuck sensor). The first reading of the run is kept.
+//!    `flat_min_duration_min` (a stuck sensor). The first reading of the run is kept. With the
+//!    rule left at its defaults, a run that a quadratic fitted to the record on both sides of it
+//!    explains as a stand at a turning point is excused.
 //! 4. **Spike** — the sample is predicted from each side by a least-squares line through the
 //!    neighbours within `spike_window_min / 2` (at least 2 samples); its residual is the smaller
 //!    of the two. A spike is one whose residual exceeds `spike_k` robust standard deviations
@@ -40,7 +42,9 @@
 //!    sample after it. The cubic follows the tide; what it leaves is of fourth order and nearly
 //!    symmetric about the junction, so it hardly enters `J`.
 //! 7. **Rate** — between consecutive clean samples, `|Δh| > max_rate · Δt + rate_allowance_m`;
-//!    the one of the pair with the larger spike residual is flagged.
+//!    the one of the pair with the larger spike residual is flagged. Unless set, `max_rate` is
+//!    taken from the record: [`RATE_RECORD_FACTOR`] × its 99th-percentile half-hour rate, at
+//!    least [`RATE_FLOOR_M_PER_H`]. The limits used are in [`QcResult::limits`].
 //! 8. **Gap** — an interval longer than `gap_factor` × the record's nominal step (median interval)
 //!    flags the sample after it as `gap_before`; informational, the sample stays usable (the
 //!    reducer's maximum-gap rule decides what is bridged).
