@@ -1194,7 +1194,8 @@ fn record_fast_rate(t: &[f64], h: &[f64], clean: &[usize], step_s: f64) -> Optio
 /// (within half the run's duration of it, at least 60 and at most 180 min; at least 3 samples
 /// each side). The run is a stand when, at every one of its samples, the quadratic is within
 /// `q + 3·se` of the repeated reading, `q` the readings' resolution and `se` the fitted curve's
-/// standard error there (from the fit's residuals, at least those of rounding to `q`). A stuck
+/// standard error there (from the fit's residuals, at least those of rounding to `q`; flank
+/// samples beyond 5 robust σ of the first fit are left out of a second). A stuck
 /// sensor at mid-tide leaves the curve with the tide's slope across the run; one stuck through
 /// a turning point for longer than a stand lasts leaves the curve's extreme beyond the reading;
 /// one that freezes and later resumes elsewhere leaves no curve that joins both sides.
@@ -1217,26 +1218,58 @@ fn is_stand(t: &[f64], h: &[f64], clean: &[usize], k: usize, e: usize, q: f64) -
         let x = (ti - tm) / sc;
         nalgebra::SVector::<f64, 3>::new(1.0, x, x * x)
     };
-    let flank = clean[k - before..k].iter().chain(&clean[e..e + after]);
-    let mut ata = nalgebra::SMatrix::<f64, 3, 3>::zeros();
-    let mut aty = nalgebra::SVector::<f64, 3>::zeros();
-    for &i in flank.clone() {
-        let r = row(t[i]);
-        ata += r * r.transpose();
-        aty += r * h[i];
-    }
-    let Some(inv) = ata.try_inverse() else {
+    let flank: Vec<usize> = clean[k - before..k]
+        .iter()
+        .chain(&clean[e..e + after])
+        .copied()
+        .collect();
+    // Least squares over the flank samples kept; the coefficients, (XᵀX)⁻¹ and the residuals.
+    type Fit = (
+        nalgebra::SVector<f64, 3>,
+        nalgebra::SMatrix<f64, 3, 3>,
+        Vec<f64>,
+    );
+    let fit = |keep: &dyn Fn(usize) -> bool| -> Option<Fit> {
+        let mut ata = nalgebra::SMatrix::<f64, 3, 3>::zeros();
+        let mut aty = nalgebra::SVector::<f64, 3>::zeros();
+        for (j, &i) in flank.iter().enumerate() {
+            if keep(j) {
+                let r = row(t[i]);
+                ata += r * r.transpose();
+                aty += r * h[i];
+            }
+        }
+        let inv = ata.try_inverse()?;
+        let c = inv * aty;
+        let res = flank.iter().map(|&i| h[i] - c.dot(&row(t[i]))).collect();
+        Some((c, inv, res))
+    };
+    let Some((c, inv, res)) = fit(&|_| true) else {
         return false;
     };
-    let c = inv * aty;
-    let n = (before + after) as f64;
-    let rss: f64 = flank
-        .map(|&i| {
-            let d = h[i] - c.dot(&row(t[i]));
-            d * d
-        })
-        .sum();
-    let var = (rss / (n - 3.0)).max(q * q / 12.0);
+    // One refit without flank samples far from the curve (a spike beside the run would
+    // otherwise widen the tolerance): beyond 5 robust σ, at least the rounding's.
+    let floor = q / 12f64.sqrt();
+    let cut = 5.0 * robust_sigma(res.iter().copied()).max(floor);
+    let outlier = |j: usize| res[j].abs() > cut;
+    let kept_before = (0..before).filter(|&j| !outlier(j)).count();
+    let kept_after = (before..before + after).filter(|&j| !outlier(j)).count();
+    let (c, inv, res, n) = if kept_before + kept_after == before + after {
+        (c, inv, res, before + after)
+    } else if kept_before < 3 || kept_after < 3 {
+        return false;
+    } else {
+        let Some((c2, inv2, res2)) = fit(&|j| !outlier(j)) else {
+            return false;
+        };
+        let res2: Vec<f64> = (0..res2.len())
+            .filter(|&j| !outlier(j))
+            .map(|j| res2[j])
+            .collect();
+        (c2, inv2, res2, kept_before + kept_after)
+    };
+    let rss: f64 = res.iter().map(|d| d * d).sum();
+    let var = (rss / (n as f64 - 3.0)).max(floor * floor);
     clean[k..e].iter().all(|&i| {
         let r = row(t[i]);
         let se = (var * (r.transpose() * inv * r)[0]).sqrt();
@@ -2390,7 +2423,8 @@ mod tests {
     /// frozen at high water for 4 h (far longer than the stand, about 1 h for the semidiurnal
     /// tide: 2·acos(1 − 0.01/0.33)/ω), and frozen on the rise 5 cm (five reading steps) below
     /// high water until the tide falls back to the frozen reading (a clipped high water: the
-    /// run's ends join the record, only its length and the tide's curvature tell).
+    /// run's ends join the record, only its length and the tide's curvature tell); and frozen at
+    /// mid-tide with a +0.3 m spike two samples after the run (which the fit leaves out).
     #[test]
     fn stuck_sensors_in_small_tides_are_found() {
         let semi = [(0.25, M2, 40.0), (0.08, S2, 75.0)];
@@ -2423,10 +2457,16 @@ mod tests {
                 let a = (0..top).rev().find(|&i| h0[i] <= h0[top] - 0.05).unwrap();
                 let back = (top..top + day / 2).find(|&i| h0[i] < h0[a]).unwrap() - 1;
                 cases.push(("clipped high water", a, back));
+                // Mid-tide again, with a +0.3 m spike among the samples just after the run.
+                let a = high(8) + (q * per_h) as usize;
+                cases.push(("mid-tide beside a spike", a, a + (1.5 * per_h) as usize));
                 for (case, a, b) in cases {
                     let mut h = h0.clone();
                     for x in &mut h[a + 1..=b] {
                         *x = h0[a];
+                    }
+                    if case == "mid-tide beside a spike" {
+                        h[b + 2] += 0.3;
                     }
                     let r = run_qc(&t, &h, &th);
                     let flat = r.flagged(QcFlag::FlatLine);
