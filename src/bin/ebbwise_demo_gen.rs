@@ -988,8 +988,9 @@ columns = { time = "unix_s", x = "lon", y = "lat", depth = "depth", line = "line
 [qc]
 duplicate_time_conflict = "set_both_aside"
 # spike_k = 6                  # spike threshold, robust standard deviations
-# flat_min_duration_min = 60   # a reading repeated this long is a stuck sensor
-# max_rate_m_per_h = 3.0       # fastest plausible change of level
+# flat_min_duration_min = 60   # a reading repeated this long is a stuck sensor (set: no
+#                              # stand at a turning point is excused)
+# max_rate_m_per_h = 3.0       # fastest plausible change of level (absent: from each record)
 # [interpolation]
 # cubic_above_step_min = 10    # records sparser than this use a not-a-knot cubic spline
 

@@ -115,6 +115,36 @@ fn print_qc(s: &QcSummary) {
                 .map(|c| format!(", low-pass {c} min"))
                 .unwrap_or_default()
         );
+        let l = &g.limits;
+        let _ = writeln!(
+            o,
+            "  rate limit {:.2} m/h ({}); flat line {} readings over {:.0} min ({}){}",
+            l.max_rate_m_per_h,
+            match l.max_rate_from {
+                "record" => format!(
+                    "{} × the record's own {:.2} m/h",
+                    ebbwise::compute::qc::RATE_RECORD_FACTOR,
+                    l.record_fast_rate_m_per_h.unwrap_or(f64::NAN)
+                ),
+                "project" => "set in [qc]".to_string(),
+                _ => "the default floor".to_string(),
+            },
+            l.flat_min_samples,
+            l.flat_min_duration_min,
+            if l.flat_rule_from == "project" {
+                "set in [qc]"
+            } else {
+                "default"
+            },
+            if l.stands_excused {
+                format!(
+                    ", stands at turning points excused ({} found; readings to {:.4} m)",
+                    l.stands, l.reading_resolution_m
+                )
+            } else {
+                String::new()
+            }
+        );
         for flag in QcFlag::ALL {
             let n = g.flags[flag.as_str()];
             if n == 0 {

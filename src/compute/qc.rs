@@ -17,7 +17,9 @@
 //! 2. **Plausible band** — a reading that is not a finite number, or a level outside
 //!    `[band_min_m, band_max_m]` above chart datum, is `out_of_band`.
 //! 3. **Flat line** — the same reading repeated over at least `flat_min_samples` samples and
-//!    `flat_min_duration_min` (a stuck sensor). The first reading of the run is kept.
+//!    `flat_min_duration_min` (a stuck sensor). The first reading of the run is kept. With the
+//!    rule left at its defaults, a run that a quadratic fitted to the record on both sides of it
+//!    explains as a stand at a turning point is excused.
 //! 4. **Spike** — the sample is predicted from each side by a least-squares line through the
 //!    neighbours within `spike_window_min / 2` (at least 2 samples); its residual is the smaller
 //!    of the two. A spike is one whose residual exceeds `spike_k` robust standard deviations
@@ -40,7 +42,9 @@
 //!    sample after it. The cubic follows the tide; what it leaves is of fourth order and nearly
 //!    symmetric about the junction, so it hardly enters `J`.
 //! 7. **Rate** — between consecutive clean samples, `|Δh| > max_rate · Δt + rate_allowance_m`;
-//!    the one of the pair with the larger spike residual is flagged.
+//!    the one of the pair with the larger spike residual is flagged. Unless set, `max_rate` is
+//!    taken from the record: [`RATE_RECORD_FACTOR`] × its 99th-percentile half-hour rate, at
+//!    least [`RATE_FLOOR_M_PER_H`]. The limits used are in [`QcResult::limits`].
 //! 8. **Gap** — an interval longer than `gap_factor` × the record's nominal step (median interval)
 //!    flags the sample after it as `gap_before`; informational, the sample stays usable (the
 //!    reducer's maximum-gap rule decides what is bridged).
@@ -198,17 +202,21 @@ pub struct QcThresholds {
     pub spike_k: f64,
     /// Smallest deviation from the predicted level called a spike, metres (default 0.05).
     pub spike_min_m: f64,
-    /// Fastest plausible rate of change of the level, metres per hour (default 3.0: a
-    /// semidiurnal tide of 11 m range peaks near 2.8 m/h; from memory — raise it in macrotidal
-    /// places).
-    pub max_rate_m_per_h: f64,
+    /// Fastest plausible rate of change of the level, metres per hour. `None` (the default):
+    /// derived from the record, [`RATE_RECORD_FACTOR`] × its own fast rate (the 99th percentile
+    /// of |Δh/Δt| over [`RATE_BASELINE_MIN`] among the samples the earlier tests left clean),
+    /// and never below [`RATE_FLOOR_M_PER_H`]; see [`QcLimits`].
+    pub max_rate_m_per_h: Option<f64>,
     /// Allowance for noise in the rate test, metres (default 0.05).
     pub rate_allowance_m: f64,
-    /// Fewest repeated readings that make a flat line (default 5).
-    pub flat_min_samples: usize,
-    /// Shortest duration of repeated readings that makes a flat line, minutes (default 60: near
-    /// slack water a 1 cm-resolution record can repeat for tens of minutes; common practice).
-    pub flat_min_duration_min: f64,
+    /// Fewest repeated readings that make a flat line (`None`: [`FLAT_MIN_SAMPLES`], 5).
+    pub flat_min_samples: Option<usize>,
+    /// Shortest duration of repeated readings that makes a flat line, minutes (`None`:
+    /// [`FLAT_MIN_DURATION_MIN`], 60 min: near slack water a 1 cm-resolution record can repeat
+    /// for tens of minutes; common practice). When neither this nor `flat_min_samples` is set, a
+    /// run that the record's own tide explains as a stand at a turning point is excused (see
+    /// [`QcLimits::stands_excused`]); when either is set, the rule is exactly as set.
+    pub flat_min_duration_min: Option<f64>,
     /// Window on each side of a junction for the level-shift fit, minutes (default 120; at least
     /// 8 samples are used). Longer windows average more noise but let more of the tide into the
     /// statistic: on a 6-min record with 1 cm noise the step statistic's robust σ is 12 mm at
@@ -249,10 +257,10 @@ impl Default for QcThresholds {
             spike_window_min: 30.0,
             spike_k: 6.0,
             spike_min_m: 0.05,
-            max_rate_m_per_h: 3.0,
+            max_rate_m_per_h: None,
             rate_allowance_m: 0.05,
-            flat_min_samples: 5,
-            flat_min_duration_min: 60.0,
+            flat_min_samples: None,
+            flat_min_duration_min: None,
             shift_window_min: 120.0,
             shift_k: 8.0,
             shift_min_m: 0.05,
@@ -265,6 +273,82 @@ impl Default for QcThresholds {
             lag_k: 4.0,
         }
     }
+}
+
+/// Least rate limit when `max_rate_m_per_h` is not set, metres per hour: about the peak rate of
+/// a semidiurnal tide of 12 m range (A·ω with A = 6 m, ω = 0.506 rad/h is 3.0 m/h; from memory).
+pub const RATE_FLOOR_M_PER_H: f64 = 3.0;
+
+/// The derived rate limit is this many times the record's own fast rate (common practice to
+/// leave a wide margin; chosen so that a surge or a steeper flood than any in the record does
+/// not pass for a fault: the record's 99th percentile is within a few per cent of its peak for a
+/// tide, and shallow-water distortion is already in it).
+pub const RATE_RECORD_FACTOR: f64 = 1.5;
+
+/// Baseline of the record's own rate, minutes: differences over about half an hour average the
+/// readings' noise (2 cm noise adds 0.06 m/h) while a semidiurnal tide's peak rate is kept
+/// within 1 % (sin(ωΔt/2)/(ωΔt/2) = 0.997 for M2).
+pub const RATE_BASELINE_MIN: f64 = 30.0;
+
+/// Fewest baselines from which the record's own rate is taken; below, the floor is used.
+pub const RATE_MIN_BASELINES: usize = 50;
+
+/// Default of `flat_min_samples`.
+pub const FLAT_MIN_SAMPLES: usize = 5;
+
+/// Default of `flat_min_duration_min`, minutes.
+pub const FLAT_MIN_DURATION_MIN: f64 = 60.0;
+
+/// Where a limit used on a record came from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum LimitSource {
+    /// Set in the thresholds (the project's `[qc]` table).
+    Set,
+    /// The documented default (for the rate, the floor: the record's own rate × the factor is
+    /// below it, or the record is too short to give one).
+    Default,
+    /// Derived from the record itself.
+    Record,
+}
+
+impl LimitSource {
+    /// The word written in the QC summary.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            LimitSource::Set => "project",
+            LimitSource::Default => "default",
+            LimitSource::Record => "record",
+        }
+    }
+}
+
+/// The rate and flat-line limits used on one record, and where each came from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct QcLimits {
+    /// Rate limit used, metres per hour.
+    pub max_rate_m_per_h: f64,
+    /// Where it came from.
+    pub max_rate_source: LimitSource,
+    /// The record's own fast rate (99th percentile of |Δh/Δt| over [`RATE_BASELINE_MIN`]),
+    /// metres per hour; `None` when the limit was set or the record gives too few baselines.
+    pub record_fast_rate_m_per_h: Option<f64>,
+    /// Fewest repeated readings that make a flat line.
+    pub flat_min_samples: usize,
+    /// Shortest flat line, minutes.
+    pub flat_min_duration_min: f64,
+    /// Where the flat-line rule came from ([`LimitSource::Set`] when either key is set).
+    pub flat_source: LimitSource,
+    /// Whether a run of repeated readings that the record's tide explains as a stand at a
+    /// turning point is excused: a quadratic fitted to the clean samples on both sides of the
+    /// run stays, over the whole run, within one reading step plus 3 of its standard errors of
+    /// the repeated reading. True unless the flat-line rule was set.
+    pub stands_excused: bool,
+    /// Resolution of the readings (the 0.1th percentile of the non-zero differences between
+    /// consecutive clean readings), metres.
+    pub reading_resolution_m: f64,
+    /// Runs of repeated readings long enough to be flat lines that were excused as stands.
+    pub stands: usize,
 }
 
 /// Why one sample was flagged: the flag and the evidence behind it.
@@ -474,6 +558,8 @@ pub struct QcResult {
     pub noise_sigma_m: f64,
     /// Samples per flag, [`QcFlag::ALL`] order.
     pub counts: [usize; N_FLAGS],
+    /// The rate and flat-line limits used, and where each came from.
+    pub limits: QcLimits,
 }
 
 impl QcResult {
@@ -816,7 +902,13 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         }
     }
 
-    // 3. Flat lines: runs of equal readings among the clean samples.
+    // 3. Flat lines: runs of equal readings among the clean samples. With the rule left at its
+    // defaults, a run the record's own tide explains as a stand at a turning point is excused.
+    let reading_resolution_m = reading_resolution(heights_m, &clean);
+    let flat_set = th.flat_min_samples.is_some() || th.flat_min_duration_min.is_some();
+    let flat_min_samples = th.flat_min_samples.unwrap_or(FLAT_MIN_SAMPLES);
+    let flat_min_duration_min = th.flat_min_duration_min.unwrap_or(FLAT_MIN_DURATION_MIN);
+    let mut stands = 0usize;
     let mut k = 0;
     while k < clean.len() {
         let mut e = k + 1;
@@ -825,7 +917,12 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         }
         let run = e - k;
         let dur_min = (times_s[clean[e - 1]] - times_s[clean[k]]) / 60.0;
-        if run >= th.flat_min_samples.max(2) && dur_min >= th.flat_min_duration_min {
+        if run >= flat_min_samples.max(2) && dur_min >= flat_min_duration_min {
+            if !flat_set && is_stand(times_s, heights_m, &clean, k, e, reading_resolution_m) {
+                stands += 1;
+                k = e;
+                continue;
+            }
             for &i in &clean[k + 1..e] {
                 fl.flag(
                     i,
@@ -972,13 +1069,28 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
     let allowance = th
         .rate_allowance_m
         .max(6.0 * std::f64::consts::SQRT_2 * noise_sigma_m);
+    // The rate limit: as set, else the record's own fast rate with a margin, never below the
+    // floor. Taken from the samples the earlier tests left clean, over half-hour baselines (so
+    // noise hardly enters), as a 99th percentile (so the few faults left cannot raise it).
+    let (max_rate_m_per_h, max_rate_source, record_fast_rate_m_per_h) = match th.max_rate_m_per_h {
+        Some(r) => (r, LimitSource::Set, None),
+        None => {
+            let own = record_fast_rate(times_s, heights_m, &clean, nominal_step_s);
+            match own {
+                Some(r) if RATE_RECORD_FACTOR * r > RATE_FLOOR_M_PER_H => {
+                    (RATE_RECORD_FACTOR * r, LimitSource::Record, own)
+                }
+                _ => (RATE_FLOOR_M_PER_H, LimitSource::Default, own),
+            }
+        }
+    };
     let score = |r: f64| if r.is_nan() { f64::INFINITY } else { r.abs() };
     let mut last_kept = 0usize; // position in `clean` of the last sample not flagged
     for k in 1..clean.len() {
         let (a, b) = (clean[last_kept], clean[k]);
         let dt_h = (times_s[b] - times_s[a]) / 3600.0;
         let dh = heights_m[b] - heights_m[a];
-        let allowed = th.max_rate_m_per_h * dt_h + allowance;
+        let allowed = max_rate_m_per_h * dt_h + allowance;
         if dh.abs() <= allowed {
             last_kept = k;
             continue;
@@ -994,7 +1106,7 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
                 change_m: dh,
                 interval_h: dt_h,
                 other_s: times_s[other],
-                max_rate_m_per_h: th.max_rate_m_per_h,
+                max_rate_m_per_h,
                 allowance_m: allowance,
             },
         );
@@ -1017,7 +1129,152 @@ pub fn run_qc(times_s: &[f64], heights_m: &[f64], th: &QcThresholds) -> QcResult
         robust_sigma_m,
         noise_sigma_m,
         counts,
+        limits: QcLimits {
+            max_rate_m_per_h,
+            max_rate_source,
+            record_fast_rate_m_per_h,
+            flat_min_samples,
+            flat_min_duration_min,
+            flat_source: if flat_set {
+                LimitSource::Set
+            } else {
+                LimitSource::Default
+            },
+            stands_excused: !flat_set,
+            reading_resolution_m,
+            stands,
+        },
     }
+}
+
+/// Resolution of the readings: the 0.1th percentile of the non-zero |differences| between
+/// consecutive samples of `idx` (0 when there is none). A record written to 1 cm gives 0.01 m;
+/// the percentile rather than the least keeps one stray reading from setting it.
+fn reading_resolution(h: &[f64], idx: &[usize]) -> f64 {
+    let mut d: Vec<f64> = idx
+        .windows(2)
+        .map(|w| (h[w[1]] - h[w[0]]).abs())
+        .filter(|d| *d > 0.0 && d.is_finite())
+        .collect();
+    if d.is_empty() {
+        return 0.0;
+    }
+    let k = d.len() / 1000;
+    *d.select_nth_unstable_by(k, f64::total_cmp).1
+}
+
+/// The record's own fast rate, metres per hour: the 99th percentile of |Δh|/Δt between samples
+/// of `clean` [`RATE_BASELINE_MIN`] apart (at least one step; a baseline across a hole longer
+/// than half its length again is skipped). `None` below [`RATE_MIN_BASELINES`] baselines.
+fn record_fast_rate(t: &[f64], h: &[f64], clean: &[usize], step_s: f64) -> Option<f64> {
+    if step_s <= 0.0 {
+        return None;
+    }
+    let l = ((RATE_BASELINE_MIN * 60.0 / step_s).round() as usize).max(1);
+    let longest_s = 1.5 * l as f64 * step_s + 0.5 * step_s;
+    let mut rates: Vec<f64> = clean
+        .iter()
+        .zip(clean.iter().skip(l))
+        .filter_map(|(&a, &b)| {
+            let dt = t[b] - t[a];
+            (dt > 0.0 && dt <= longest_s).then(|| (h[b] - h[a]).abs() / (dt / 3600.0))
+        })
+        .collect();
+    if rates.len() < RATE_MIN_BASELINES {
+        return None;
+    }
+    let k = ((rates.len() as f64 * 0.99) as usize).min(rates.len() - 1);
+    Some(*rates.select_nth_unstable_by(k, f64::total_cmp).1)
+}
+
+/// Whether the run `clean[k..e]` of one repeated reading is a stand at a turning point of the
+/// record's own tide rather than a stuck sensor.
+///
+/// A quadratic in time is fitted by least squares to the clean samples on both sides of the run
+/// (within half the run's duration of it, at least 60 and at most 180 min; at least 3 samples
+/// each side). The run is a stand when, at every one of its samples, the quadratic is within
+/// `q + 3·se` of the repeated reading, `q` the readings' resolution and `se` the fitted curve's
+/// standard error there (from the fit's residuals, at least those of rounding to `q`; flank
+/// samples beyond 5 robust σ of the first fit are left out of a second). A stuck
+/// sensor at mid-tide leaves the curve with the tide's slope across the run; one stuck through
+/// a turning point for longer than a stand lasts leaves the curve's extreme beyond the reading;
+/// one that freezes and later resumes elsewhere leaves no curve that joins both sides.
+fn is_stand(t: &[f64], h: &[f64], clean: &[usize], k: usize, e: usize, q: f64) -> bool {
+    let v = h[clean[k]];
+    let (ta, tb) = (t[clean[k]], t[clean[e - 1]]);
+    let w_s = (0.5 * (tb - ta)).clamp(3600.0, 10_800.0);
+    let before = clean[..k]
+        .iter()
+        .rev()
+        .take_while(|&&i| t[i] >= ta - w_s)
+        .count();
+    let after = clean[e..].iter().take_while(|&&i| t[i] <= tb + w_s).count();
+    if before < 3 || after < 3 {
+        return false;
+    }
+    let tm = 0.5 * (ta + tb);
+    let sc = 0.5 * (tb - ta) + w_s;
+    let row = |ti: f64| {
+        let x = (ti - tm) / sc;
+        nalgebra::SVector::<f64, 3>::new(1.0, x, x * x)
+    };
+    let flank: Vec<usize> = clean[k - before..k]
+        .iter()
+        .chain(&clean[e..e + after])
+        .copied()
+        .collect();
+    // Least squares over the flank samples kept; the coefficients, (XᵀX)⁻¹ and the residuals.
+    type Fit = (
+        nalgebra::SVector<f64, 3>,
+        nalgebra::SMatrix<f64, 3, 3>,
+        Vec<f64>,
+    );
+    let fit = |keep: &dyn Fn(usize) -> bool| -> Option<Fit> {
+        let mut ata = nalgebra::SMatrix::<f64, 3, 3>::zeros();
+        let mut aty = nalgebra::SVector::<f64, 3>::zeros();
+        for (j, &i) in flank.iter().enumerate() {
+            if keep(j) {
+                let r = row(t[i]);
+                ata += r * r.transpose();
+                aty += r * h[i];
+            }
+        }
+        let inv = ata.try_inverse()?;
+        let c = inv * aty;
+        let res = flank.iter().map(|&i| h[i] - c.dot(&row(t[i]))).collect();
+        Some((c, inv, res))
+    };
+    let Some((c, inv, res)) = fit(&|_| true) else {
+        return false;
+    };
+    // One refit without flank samples far from the curve (a spike beside the run would
+    // otherwise widen the tolerance): beyond 5 robust σ, at least the rounding's.
+    let floor = q / 12f64.sqrt();
+    let cut = 5.0 * robust_sigma(res.iter().copied()).max(floor);
+    let outlier = |j: usize| res[j].abs() > cut;
+    let kept_before = (0..before).filter(|&j| !outlier(j)).count();
+    let kept_after = (before..before + after).filter(|&j| !outlier(j)).count();
+    let (c, inv, res, n) = if kept_before + kept_after == before + after {
+        (c, inv, res, before + after)
+    } else if kept_before < 3 || kept_after < 3 {
+        return false;
+    } else {
+        let Some((c2, inv2, res2)) = fit(&|j| !outlier(j)) else {
+            return false;
+        };
+        let res2: Vec<f64> = (0..res2.len())
+            .filter(|&j| !outlier(j))
+            .map(|j| res2[j])
+            .collect();
+        (c2, inv2, res2, kept_before + kept_after)
+    };
+    let rss: f64 = res.iter().map(|d| d * d).sum();
+    let var = (rss / (n as f64 - 3.0)).max(floor * floor);
+    clean[k..e].iter().all(|&i| {
+        let r = row(t[i]);
+        let se = (var * (r.transpose() * inv * r)[0]).sqrt();
+        (c.dot(&r) - v).abs() <= q + 3.0 * se
+    })
 }
 
 /// Two samples with the same time and different readings: `(first, later)` indices in file
@@ -1959,13 +2216,270 @@ mod tests {
         let r = run_qc(&t, &h, &th());
         assert_eq!(r.count(QcFlag::FlatLine), 0);
         let short = QcThresholds {
-            flat_min_duration_min: 20.0,
+            flat_min_duration_min: Some(20.0),
             ..th()
         };
         assert_eq!(
             run_qc(&t, &h, &short).flagged(QcFlag::FlatLine),
             vec![101, 102, 103, 104]
         );
+    }
+
+    /// Constituent speeds, °/h (the constituent table; common practice).
+    const M2: f64 = 28.984_104_2;
+    const S2: f64 = 30.0;
+    const N2: f64 = 28.439_729_5;
+    const K1: f64 = 15.041_068_6;
+    const O1: f64 = 13.943_035_6;
+    const M4: f64 = 57.968_208_4;
+    const MS4: f64 = 58.984_104_2;
+
+    /// One constituent: amplitude (m), speed (°/h), phase lag (°).
+    type Constituent = (f64, f64, f64);
+
+    /// A record every `step_s` for `days` of `mean + Σ A cos(speed·t − g)` (`(A m, speed °/h,
+    /// g °)`) with Gaussian noise `sigma_m`, rounded to `resolution_m`.
+    fn constituent_record(
+        constituents: &[(f64, f64, f64)],
+        mean_m: f64,
+        step_s: f64,
+        days: f64,
+        sigma_m: f64,
+        resolution_m: f64,
+        seed: u64,
+    ) -> (Vec<f64>, Vec<f64>) {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+        let noise = Normal::new(0.0, sigma_m.max(1e-12)).unwrap();
+        let n = (days * 86400.0 / step_s) as usize;
+        let t: Vec<f64> = (0..n).map(|i| 1.78e9 + i as f64 * step_s).collect();
+        let h = t
+            .iter()
+            .map(|&t| {
+                let hr = t / 3600.0;
+                let tide: f64 = constituents
+                    .iter()
+                    .map(|&(a, w, g)| a * (w * hr - g).to_radians().cos())
+                    .sum();
+                ((mean_m + tide + noise.sample(&mut rng)) / resolution_m).round() * resolution_m
+            })
+            .collect();
+        (t, h)
+    }
+
+    /// A macrotidal semidiurnal tide: M2 6.5, S2 1.0, N2 1.2, M4 0.4, MS4 0.2, K1 0.1, O1 0.08 m
+    /// around 8 m (spring range near 15 m, about the largest known; peak rate about 4.5 m/h, the
+    /// flood shortened by M4; from memory).
+    const MACRO: [(f64, f64, f64); 7] = [
+        (6.5, M2, 40.0),
+        (1.0, S2, 75.0),
+        (1.2, N2, 20.0),
+        (0.4, M4, 170.0),
+        (0.2, MS4, 200.0),
+        (0.1, K1, 200.0),
+        (0.08, O1, 180.0),
+    ];
+
+    fn macro_th() -> QcThresholds {
+        QcThresholds {
+            band_min_m: 8.0 - 10.0,
+            band_max_m: 8.0 + 10.0,
+            ..QcThresholds::default()
+        }
+    }
+
+    /// Macrotidal records at the default thresholds: 1-min (30 days) and 6-min (60 days), noise
+    /// 1 and 2 cm (a sheltered to an exposed gauge; common practice), readings to 1 mm. Nothing
+    /// is flagged, and the rate limit is the record's own (peak rate of the tide above: about
+    /// 6.5·0.506 + 1.0·0.524 + 1.2·0.496 + 0.4·1.012 + 0.2·1.03 ≈ 5.0 m/h at the rare
+    /// alignment, 4–4.5 m/h at ordinary springs). At the old fixed 3 m/h the 6-min records are
+    /// flagged (what the derived limit fixes; the check can fail).
+    #[test]
+    fn macrotidal_records_raise_no_alarm_at_defaults() {
+        for (step, days, sd, seed) in [
+            (60.0, 30.0, 0.01, 71),
+            (60.0, 30.0, 0.02, 72),
+            (360.0, 60.0, 0.01, 73),
+            (360.0, 60.0, 0.02, 74),
+        ] {
+            let (t, h) = constituent_record(&MACRO, 8.0, step, days, sd, 0.001, seed);
+            let r = run_qc(&t, &h, &macro_th());
+            let what = format!("step {step} s, σ {sd}: {:?}", distinct_reasons(&r).first());
+            assert_eq!(r.counts, [0; N_FLAGS], "{what}");
+            let l = r.limits;
+            assert_eq!(l.max_rate_source, LimitSource::Record, "{what}");
+            let own = l.record_fast_rate_m_per_h.unwrap();
+            assert!((3.8..5.2).contains(&own), "own rate {own} m/h; {what}");
+            assert!((l.max_rate_m_per_h - RATE_RECORD_FACTOR * own).abs() < 1e-12);
+            if step == 360.0 {
+                let old = QcThresholds {
+                    max_rate_m_per_h: Some(3.0),
+                    ..macro_th()
+                };
+                let r3 = run_qc(&t, &h, &old);
+                assert!(r3.count(QcFlag::Rate) > 100, "{}", r3.count(QcFlag::Rate));
+                assert_eq!(r3.limits.max_rate_source, LimitSource::Set);
+                assert_eq!(r3.limits.record_fast_rate_m_per_h, None);
+            }
+        }
+    }
+
+    /// On macrotidal records the planted faults are still found at the derived limits: two
+    /// spikes (+0.40, −0.30 m), a stuck sensor for 90 min at mid-flood, and, with the spike and
+    /// level-shift tests switched off, 1.0 m spikes by the rate test alone, in one sample in 200,
+    /// which leave
+    /// the derived limit within 1 % of the clean record's (a 99th percentile).
+    #[test]
+    fn macrotidal_faults_are_still_found() {
+        for (step, seed) in [(60.0, 75), (360.0, 76)] {
+            let (t, clean_h) = constituent_record(&MACRO, 8.0, step, 20.0, 0.01, 0.001, seed);
+            let mut h = clean_h.clone();
+            h[1000] += 0.40;
+            h[3000] -= 0.30;
+            // Mid-flood: the sample after the lowest reading of the third day.
+            let day = (86_400.0 / step) as usize;
+            let low = (2 * day..3 * day)
+                .min_by(|&a, &b| h[a].total_cmp(&h[b]))
+                .unwrap();
+            let stuck0 = low + (3.0 * 3600.0 / step) as usize;
+            let stuck_n = (90.0 * 60.0 / step) as usize;
+            for i in stuck0 + 1..=stuck0 + stuck_n {
+                h[i] = h[stuck0];
+            }
+            let r = run_qc(&t, &h, &macro_th());
+            assert_eq!(r.flagged(QcFlag::Spike), vec![1000, 3000], "step {step}");
+            assert_eq!(
+                r.flagged(QcFlag::FlatLine),
+                (stuck0 + 1..=stuck0 + stuck_n).collect::<Vec<_>>(),
+                "step {step}"
+            );
+            assert_eq!(r.usable_count(), t.len() - 2 - stuck_n, "step {step}");
+
+            let own_clean = run_qc(&t, &clean_h, &macro_th()).limits.max_rate_m_per_h;
+            let mut h = clean_h.clone();
+            let planted: Vec<usize> = (100..t.len() - 100).step_by(200).collect();
+            for (q, &i) in planted.iter().enumerate() {
+                h[i] += if q % 2 == 0 { 1.0 } else { -1.0 };
+            }
+            // (The level-shift test, which sees a lone 1 m spike on 6-min records as a
+            // one-sample offset, is switched off too: its floor is `shift_min_m`.)
+            let no_spike_test = QcThresholds {
+                spike_min_m: 100.0,
+                shift_min_m: 100.0,
+                ..macro_th()
+            };
+            let r = run_qc(&t, &h, &no_spike_test);
+            // Every planted spike is set aside by the rate test, and nothing else.
+            let set_aside: Vec<usize> = (0..t.len()).filter(|&i| !r.flags[i].usable()).collect();
+            assert_eq!(set_aside, planted, "step {step}");
+            assert_eq!(r.flagged(QcFlag::Rate), planted, "step {step}");
+            assert!((r.limits.max_rate_m_per_h / own_clean - 1.0).abs() < 0.01);
+        }
+    }
+
+    /// Small tides read to 1 cm, 30 days each: semidiurnal (M2 0.25, S2 0.08 m), diurnal (K1
+    /// 0.2, O1 0.15 m: a diurnal tide of small range) and mixed (M2 0.12, K1 0.15, O1 0.12 m,
+    /// whose lesser high water is nearly a stand of hours), 1-min and 6-min, with 2 mm noise (a
+    /// stilling well; common practice). Readings repeat for one to several hours at turning
+    /// points: at the default rule these stands are excused and nothing is flagged; a rule set
+    /// explicitly to the same 60 min flags them (the explicit value wins; the check can fail).
+    #[test]
+    fn small_tides_with_stands_raise_no_alarm_at_defaults() {
+        let semi = [(0.25, M2, 40.0), (0.08, S2, 75.0)];
+        let diurnal = [(0.2, K1, 200.0), (0.15, O1, 180.0)];
+        let mixed = [(0.12, M2, 40.0), (0.15, K1, 200.0), (0.12, O1, 180.0)];
+        let sets: [(&str, &[Constituent]); 3] = [
+            ("semidiurnal", &semi),
+            ("diurnal", &diurnal),
+            ("mixed", &mixed),
+        ];
+        for (name, c) in sets {
+            for (step, seed) in [(60.0, 81), (360.0, 82)] {
+                let (t, h) = constituent_record(c, 1.0, step, 30.0, 0.002, 0.01, seed);
+                let th = QcThresholds {
+                    band_min_m: -9.0,
+                    band_max_m: 11.0,
+                    ..QcThresholds::default()
+                };
+                let r = run_qc(&t, &h, &th);
+                let what = format!("{name}, step {step} s: {:?}", distinct_reasons(&r).first());
+                assert_eq!(r.counts, [0; N_FLAGS], "{what}");
+                assert!(r.limits.stands > 0, "no stand to excuse; {what}");
+                assert!(
+                    (r.limits.reading_resolution_m - 0.01).abs() < 1e-9,
+                    "{what}"
+                );
+                let set = QcThresholds {
+                    flat_min_duration_min: Some(60.0),
+                    ..th
+                };
+                let r60 = run_qc(&t, &h, &set);
+                assert!(r60.count(QcFlag::FlatLine) > 0, "{name}, step {step}");
+                assert!(!r60.limits.stands_excused && r60.limits.stands == 0);
+            }
+        }
+    }
+
+    /// In the same small tides a stuck sensor is still found: frozen for 90 min at mid-tide,
+    /// frozen at high water for 4 h (far longer than the stand, about 1 h for the semidiurnal
+    /// tide: 2·acos(1 − 0.01/0.33)/ω), and frozen on the rise 5 cm (five reading steps) below
+    /// high water until the tide falls back to the frozen reading (a clipped high water: the
+    /// run's ends join the record, only its length and the tide's curvature tell); and frozen at
+    /// mid-tide with a +0.3 m spike two samples after the run (which the fit leaves out).
+    #[test]
+    fn stuck_sensors_in_small_tides_are_found() {
+        let semi = [(0.25, M2, 40.0), (0.08, S2, 75.0)];
+        let diurnal = [(0.2, K1, 200.0), (0.15, O1, 180.0)];
+        let sets: [(&str, &[Constituent]); 2] = [("semidiurnal", &semi), ("diurnal", &diurnal)];
+        for (name, c) in sets {
+            for (step, seed) in [(60.0, 83), (360.0, 84)] {
+                let (t, h0) = constituent_record(c, 1.0, step, 10.0, 0.002, 0.01, seed);
+                let day = (86_400.0 / step) as usize;
+                let per_h = 3600.0 / step;
+                let th = QcThresholds {
+                    band_min_m: -9.0,
+                    band_max_m: 11.0,
+                    ..QcThresholds::default()
+                };
+                // The highest reading of day `d` (its first sample at the top).
+                let high = |d: usize| {
+                    (d * day..(d + 1) * day)
+                        .max_by(|&a, &b| h0[a].total_cmp(&h0[b]).then(b.cmp(&a)))
+                        .unwrap()
+                };
+                let mut cases: Vec<(&str, usize, usize)> = Vec::new();
+                // Mid-tide: a quarter period after day 2's high water.
+                let q = if name == "diurnal" { 6.0 } else { 3.1 };
+                let a = high(2) + (q * per_h) as usize;
+                cases.push(("mid-tide", a, a + (1.5 * per_h) as usize));
+                let a = high(4);
+                cases.push(("4 h at high water", a, a + (4.0 * per_h) as usize));
+                let top = high(6);
+                let a = (0..top).rev().find(|&i| h0[i] <= h0[top] - 0.05).unwrap();
+                let back = (top..top + day / 2).find(|&i| h0[i] < h0[a]).unwrap() - 1;
+                cases.push(("clipped high water", a, back));
+                // Mid-tide again, with a +0.3 m spike among the samples just after the run.
+                let a = high(8) + (q * per_h) as usize;
+                cases.push(("mid-tide beside a spike", a, a + (1.5 * per_h) as usize));
+                for (case, a, b) in cases {
+                    let mut h = h0.clone();
+                    for x in &mut h[a + 1..=b] {
+                        *x = h0[a];
+                    }
+                    if case == "mid-tide beside a spike" {
+                        h[b + 2] += 0.3;
+                    }
+                    let r = run_qc(&t, &h, &th);
+                    let flat = r.flagged(QcFlag::FlatLine);
+                    assert!(
+                        (a + 1..=b).all(|i| flat.contains(&i)),
+                        "{name}, step {step}, {case} ({} min): {} of {} flagged",
+                        (t[b] - t[a]) / 60.0,
+                        flat.len(),
+                        b - a
+                    );
+                }
+            }
+        }
     }
 
     /// A richer tide than [`tide`]: M2 1.5, S2 0.5, N2 0.3, K2 0.14, K1 0.15, O1 0.1, P1 0.05,

@@ -62,14 +62,15 @@ pub struct QcSpec {
     pub spike_k: f64,
     /// Smallest spike, metres.
     pub spike_min_m: f64,
-    /// Fastest plausible rate, metres per hour.
-    pub max_rate_m_per_h: f64,
+    /// Fastest plausible rate, metres per hour (absent: derived from each record, see
+    /// `compute::qc::QcLimits`).
+    pub max_rate_m_per_h: Option<f64>,
     /// Noise allowance of the rate test, metres.
     pub rate_allowance_m: f64,
-    /// Fewest repeated readings that make a flat line.
-    pub flat_min_samples: usize,
-    /// Shortest flat line, minutes.
-    pub flat_min_duration_min: f64,
+    /// Fewest repeated readings that make a flat line (absent: 5, and stands excused).
+    pub flat_min_samples: Option<usize>,
+    /// Shortest flat line, minutes (absent: 60, and stands excused).
+    pub flat_min_duration_min: Option<f64>,
     /// Level-shift fit window each side, minutes.
     pub shift_window_min: f64,
     /// Level-shift threshold, robust standard deviations.
@@ -820,7 +821,7 @@ fn validate(spec: &ProjectFile, path: &Path, errors: &mut Vec<IoError>) {
             ("gap_factor", q.gap_factor),
             ("spike_k", q.spike_k),
             ("spike_min_m", q.spike_min_m),
-            ("max_rate_m_per_h", q.max_rate_m_per_h),
+            ("max_rate_m_per_h", q.max_rate_m_per_h.unwrap_or(1.0)), // absent: derived
             ("rate_allowance_m", q.rate_allowance_m),
             ("shift_k", q.shift_k),
             ("shift_min_m", q.shift_min_m),
@@ -841,7 +842,10 @@ fn validate(spec: &ProjectFile, path: &Path, errors: &mut Vec<IoError>) {
         }
         for (k, v) in [
             ("spike_window_min", q.spike_window_min),
-            ("flat_min_duration_min", q.flat_min_duration_min),
+            (
+                "flat_min_duration_min",
+                q.flat_min_duration_min.unwrap_or(1.0),
+            ),
             ("shift_window_min", q.shift_window_min),
             ("compare_max_lag_min", q.compare_max_lag_min),
             ("compare_lag_search_min", q.compare_lag_search_min),

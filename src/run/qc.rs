@@ -94,6 +94,8 @@ pub struct GaugeQcSummary {
     /// Noise of the readings (robust, from second differences), metres.
     #[serde(serialize_with = "crate::io::numfmt::ser_uncertainty")]
     pub noise_sigma_m: f64,
+    /// The rate and flat-line limits used on this record, and where each came from.
+    pub limits: LimitsSummary,
     /// Samples per flag (every flag listed).
     pub flags: BTreeMap<&'static str, usize>,
     /// The first flagged samples (up to 10 per flag), in file order.
@@ -102,6 +104,52 @@ pub struct GaugeQcSummary {
     pub method: GaugeMethod,
     /// Files written.
     pub outputs: Vec<PathBuf>,
+}
+
+/// The rate and flat-line limits QC used on one record ([`crate::compute::qc::QcLimits`]).
+#[derive(Debug, Clone, Serialize)]
+pub struct LimitsSummary {
+    /// Rate limit used, metres per hour.
+    #[serde(serialize_with = "crate::io::numfmt::ser_height")]
+    pub max_rate_m_per_h: f64,
+    /// `project` (the `[qc]` key), `record` (1.5 × the record's own fast rate) or `default`
+    /// (the 3 m/h floor).
+    pub max_rate_from: &'static str,
+    /// The record's own fast rate (99th percentile over 30-min baselines), metres per hour;
+    /// `null` when the limit was set or the record is too short.
+    #[serde(serialize_with = "crate::io::numfmt::ser_opt_height")]
+    pub record_fast_rate_m_per_h: Option<f64>,
+    /// Fewest repeated readings that make a flat line.
+    pub flat_min_samples: usize,
+    /// Shortest flat line, minutes.
+    #[serde(serialize_with = "crate::io::numfmt::ser_minutes")]
+    pub flat_min_duration_min: f64,
+    /// `project` (either flat-line key set) or `default`.
+    pub flat_rule_from: &'static str,
+    /// Whether runs the record's tide explains as stands at a turning point are excused.
+    pub stands_excused: bool,
+    /// Resolution of the readings, metres.
+    #[serde(serialize_with = "crate::io::numfmt::ser_height")]
+    pub reading_resolution_m: f64,
+    /// Runs long enough to be flat lines that were excused as stands.
+    pub stands: usize,
+}
+
+impl LimitsSummary {
+    /// The summary of the limits QC used.
+    pub fn of(l: &crate::compute::qc::QcLimits) -> LimitsSummary {
+        LimitsSummary {
+            max_rate_m_per_h: l.max_rate_m_per_h,
+            max_rate_from: l.max_rate_source.as_str(),
+            record_fast_rate_m_per_h: l.record_fast_rate_m_per_h,
+            flat_min_samples: l.flat_min_samples,
+            flat_min_duration_min: l.flat_min_duration_min,
+            flat_rule_from: l.flat_source.as_str(),
+            stands_excused: l.stands_excused,
+            reading_resolution_m: l.reading_resolution_m,
+            stands: l.stands,
+        }
+    }
 }
 
 /// A gauge-to-gauge comparison, for the summary.
@@ -367,6 +415,7 @@ pub fn write_gauge_qc(
         nominal_step_min: q.nominal_step_s / 60.0,
         robust_sigma_m: q.robust_sigma_m,
         noise_sigma_m: q.noise_sigma_m,
+        limits: LimitsSummary::of(&q.limits),
         flags,
         first_flagged,
         method,

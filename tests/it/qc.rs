@@ -1295,3 +1295,78 @@ fn reducer_sets_aside_a_shift_next_to_a_hole() {
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
     assert_statuses(&p, &soundings);
 }
+
+// ---------------------------------------------------------------------------------------------
+// 7. Limits taken from the record, and the project's own
+
+/// A 3-day 6-min record of a macrotidal tide (M2 6.5, S2 1.0, M4 0.4 m around 8 m; peak rate
+/// about 4.3 m/h, from A·ω summed over the constituents) with 1 cm noise, in the mini project
+/// (gauge zero 1.0 m, mean level set to 8 m). At the default `[qc]` the rate limit is taken from
+/// the record and nothing is flagged; with `max_rate_m_per_h = 3.0` and `flat_min_duration_min =
+/// 60` written in `[qc]` those values are used as written (the project's value wins) and the
+/// tide's own rise is flagged `rate`. Both runs report the limits and where they came from in
+/// `qc-summary.json` and on stderr.
+#[test]
+fn rate_limit_comes_from_the_record_unless_the_project_sets_it() {
+    let t0 = ts("2026-06-14T00:00:00Z");
+    let mut noise = Noise::new(0.01, 91);
+    let level = |t: i64| {
+        let h = (t - t0) as f64 / 3600.0;
+        8.0 + [
+            (6.5, 28.984_104_2, 40.0),
+            (1.0, 30.0, 75.0),
+            (0.4, 57.968_208_4, 170.0),
+        ]
+        .iter()
+        .map(|&(a, w, g): &(f64, f64, f64)| a * (w * h - g).to_radians().cos())
+        .sum::<f64>()
+    };
+    let samples: Vec<(i64, f64)> = (0..3 * 240)
+        .map(|i| {
+            let t = t0 + i * 360;
+            (t, level(t) - 1.0 + noise.next())
+        })
+        .collect();
+    let (text, _) = record_csv(&samples);
+    let p = MiniProject::new("time,lon,lat,depth,line\n");
+    p.write("g1.csv", &text);
+    let macro_project = MINI_PROJECT.replace(
+        "mean_level_above_datum_m = 2.1",
+        "mean_level_above_datum_m = 8.0",
+    );
+    for (qc_table, code) in [
+        ("", 0),
+        (
+            "[qc]\nmax_rate_m_per_h = 3.0\nflat_min_duration_min = 60\n",
+            1,
+        ),
+    ] {
+        p.write("project.toml", &format!("{macro_project}\n{qc_table}"));
+        let out = p.path("qc");
+        let o = ebbwise(&["qc", &p.project(), "--out", out.to_str().unwrap()]);
+        assert_eq!(o.status.code(), Some(code), "{}", stderr(&o));
+        let s = summary(&out);
+        let g = gauge_summary(&s, "g1");
+        let l = &g["limits"];
+        let rate = l["max_rate_m_per_h"].as_f64().unwrap();
+        if qc_table.is_empty() {
+            assert_eq!(g["set_aside"], 0, "{g}");
+            assert_eq!(l["max_rate_from"], "record", "{l}");
+            let own = l["record_fast_rate_m_per_h"].as_f64().unwrap();
+            assert!((3.5..4.6).contains(&own), "{l}");
+            assert!((rate - 1.5 * own).abs() < 2e-4, "{l}");
+            assert_eq!(l["flat_rule_from"], "default");
+            assert_eq!(l["stands_excused"], true);
+            assert!(stderr(&o).contains("rate limit"), "{}", stderr(&o));
+        } else {
+            assert_eq!(l["max_rate_from"], "project", "{l}");
+            assert_eq!(rate, 3.0);
+            assert!(l["record_fast_rate_m_per_h"].is_null(), "{l}");
+            assert_eq!(l["flat_rule_from"], "project");
+            assert_eq!(l["flat_min_duration_min"], 60.0);
+            assert_eq!(l["stands_excused"], false);
+            assert!(g["flags"]["rate"].as_u64().unwrap() > 10, "{g}");
+            assert!(stderr(&o).contains("set in [qc]"), "{}", stderr(&o));
+        }
+    }
+}
