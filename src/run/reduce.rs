@@ -22,7 +22,7 @@ use crate::compute::uncertainty::{judge_as_written, tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
-use crate::io::numfmt::{push_fixed, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
+use crate::io::numfmt::{push_fixed, round_to, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use crate::io::project::{Delimiter, SoundingsSpec};
 use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
 
@@ -999,7 +999,13 @@ fn process_chunk(
                                         v.t_s,
                                         &states,
                                     );
-                                    Some((b.components_m(), b.variances_m2, b.u_tide_m()))
+                                    // Propagated as written (4 decimals), like the tide:
+                                    // a change of at most 0.05 mm that makes a reduction from a
+                                    // correction file, which holds the written values, give
+                                    // the same TVU, verdicts and QA report.
+                                    let w = |x: f64| round_to(x, UNCERTAINTY_DECIMALS);
+                                    let comps = b.components_m().map(w);
+                                    Some((comps, comps.map(|x| x * x), w(b.u_tide_m())))
                                 }
                             };
                             if let (Some(u), Some((comps, bv, u_tide))) = (unc, budget) {
@@ -1093,8 +1099,8 @@ fn process_chunk(
                                 detail,
                                 "the correction file {} has no row between {} and {} ({} min apart), longer than its step of {} min ({}): the tide is not interpolated across it",
                                 file,
-                                crate::io::timefmt::utc_time(from_s),
-                                crate::io::timefmt::utc_time(to_s),
+                                crate::io::timefmt::utc_label(from_s),
+                                crate::io::timefmt::utc_label(to_s),
                                 crate::io::numfmt::round_to((to_s - from_s) / 60.0, 3),
                                 crate::io::numfmt::round_to(step_s / 60.0, 3),
                                 match step_from {
