@@ -10,7 +10,7 @@ use super::load::{output_clashes, Loaded, PlannedOutput};
 use super::reduce::{reduce_project, run_outputs, ApplyModel, ReduceOptions, RunKind, RunSummary};
 use crate::compute::correctors::{
     modal_step_s, zone_corrector_at, zone_correctors, Corrector, CorrectorUncertainty, LineSeries,
-    LineSeriesModel, SoundingTableModel,
+    LineSeriesModel, SoundingTableModel, BRIDGE_TOLERANCE_S,
 };
 use crate::compute::reduce::StepSource;
 use crate::io::atomic::write_atomic;
@@ -748,6 +748,24 @@ pub fn apply_corrections(
                 .map(|z| map.get(*z).cloned().unwrap_or_default())
                 .collect();
             let steps: Vec<f64> = series.iter().map(|s| step_of(s)).collect();
+            // A gauge gap shorter than the step leaves no `missing` row: say so.
+            for (z, step_s) in loaded.zones.iter().zip(&steps) {
+                let gap_s = z
+                    .feeds
+                    .iter()
+                    .map(|f| loaded.gauges[f.gauge].series.max_gap_s)
+                    .fold(f64::INFINITY, f64::min);
+                if step_s.is_finite() && *step_s > gap_s + BRIDGE_TOLERANCE_S {
+                    warnings.push(format!(
+                        "zone '{}': the step of {} ({} min) is longer than the max_gap_min of a gauge feeding it ({} min): a gauge gap between two rows is not seen and is bridged; write the file with a step no longer than {} min",
+                        z.id,
+                        corrections.display(),
+                        step_s / 60.0,
+                        gap_s / 60.0,
+                        gap_s / 60.0
+                    ));
+                }
+            }
             if step_from == StepSource::Series {
                 warnings.push(step_note("zone"));
             }
