@@ -543,4 +543,72 @@ mod tests {
         assert_eq!(interpolate_correctors(&c, -1.0), None);
         assert_eq!(interpolate_correctors(&c, 720.0), Some(1.3));
     }
+    fn row(t_s: f64, tide: f64, u: f64) -> Corrector {
+        Corrector {
+            t_s,
+            tide_m: Some(tide),
+            u_tide_m: Some(u),
+            u_parts_m: Some([u, 0.0, 0.0, 0.0, 0.0]),
+            status: CorrectorStatus::Interpolated,
+        }
+    }
+
+    #[test]
+    fn rows_further_apart_than_the_step_are_not_bridged() {
+        // 1-min rows, then a 3-min interval (two rows removed), then 1-min rows again.
+        let s = vec![
+            row(0.0, 1.0, 0.10),
+            row(60.0, 1.2, 0.20),
+            row(240.0, 1.8, 0.30),
+            row(300.0, 2.0, 0.40),
+        ];
+        assert_eq!(modal_step_s(&s), Some(60.0));
+        // Within a step: the tide and each uncertainty interpolated linearly.
+        match series_value(&s, 30.0, 60.0) {
+            SeriesValue::Tide { tide_m, carried_u } => {
+                assert!((tide_m - 1.1).abs() < 1e-12);
+                let c = carried_u.unwrap();
+                assert!((c.u_tide_m - 0.15).abs() < 1e-12);
+                assert!((c.parts_m[0] - 0.15).abs() < 1e-12);
+            }
+            v => panic!("{v:?}"),
+        }
+        // Inside the 3-min interval: not bridged, with both times.
+        assert_eq!(
+            series_value(&s, 150.0, 60.0),
+            SeriesValue::Unbridged {
+                from_s: 60.0,
+                to_s: 240.0
+            }
+        );
+        // At a row's own time its value stands, whatever its neighbours.
+        assert!(matches!(
+            series_value(&s, 240.0, 60.0),
+            SeriesValue::Tide { tide_m, .. } if tide_m == 1.8
+        ));
+        // A rounding of the written times (1 ms) is within the tolerance.
+        let t = vec![row(0.0, 1.0, 0.1), row(60.001, 1.2, 0.1)];
+        assert!(matches!(
+            series_value(&t, 30.0, 60.0),
+            SeriesValue::Tide { .. }
+        ));
+        let t = vec![row(0.0, 1.0, 0.1), row(60.003, 1.2, 0.1)];
+        assert!(matches!(
+            series_value(&t, 30.0, 60.0),
+            SeriesValue::Unbridged { .. }
+        ));
+        // With no step limit the interval is bridged (the tide of the earlier reader).
+        assert!((interpolate_correctors(&s, 150.0).unwrap() - 1.5).abs() < 1e-12);
+        // A row without components: the tide, but no carried uncertainty.
+        let mut u = s.clone();
+        u[1].u_parts_m = None;
+        assert!(matches!(
+            series_value(&u, 30.0, 60.0),
+            SeriesValue::Tide {
+                carried_u: None,
+                ..
+            }
+        ));
+        assert_eq!(modal_step_s(&s[..1]), None);
+    }
 }

@@ -445,3 +445,56 @@ pub fn sounding_corrections(
         })
         .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse(text: &str) -> Result<CorrectionFile, IoError> {
+        parse_correction_file(text.as_bytes(), Path::new("c.csv"))
+    }
+
+    #[test]
+    fn layout_2_reads_with_components_empty_and_layout_3_with_them() {
+        let v2 =
+            "zone,time_utc,tide_m,u_tide_m,status\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed\n";
+        let CorrectionFile::Zones(m) = parse(v2).unwrap() else {
+            panic!("per zone")
+        };
+        assert_eq!(m["Z"][0].u_tide_m, Some(0.08));
+        assert_eq!(m["Z"][0].u_parts_m, None);
+        let v3 = format!(
+            "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,0.0100,0.0200,0.0300,0.0400,0.0500\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        );
+        let CorrectionFile::Zones(m) = parse(&v3).unwrap() else {
+            panic!("per zone")
+        };
+        assert_eq!(m["Z"][0].u_parts_m, Some([0.01, 0.02, 0.03, 0.04, 0.05]));
+        // Some components but not all: refused at the line and the first component's column.
+        let bad = format!(
+            "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,0.0100,,0.0300,0.0400,0.0500\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        );
+        let e = parse(&bad).unwrap_err().to_string();
+        assert!(e.contains("c.csv:2") && e.contains("u_tide_gauge_m"), "{e}");
+        // Per sounding, layout 2 and 3.
+        let s2 = "line,time_utc,source_file,source_line,zone,tide_m,u_tide_m,status\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,0.0800,reduced\n";
+        let CorrectionFile::Soundings(r) = parse(s2).unwrap() else {
+            panic!("per sounding")
+        };
+        let row = r.values().next().unwrap();
+        assert_eq!((row.u_tide_m, row.u_parts_m), (Some(0.08), None));
+        let s3 = format!(
+            "{}\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,0.0800,reduced,0.0100,0.0200,0.0300,0.0400,0.0500\n",
+            SOUNDING_CORRECTOR_COLUMNS.join(",")
+        );
+        let CorrectionFile::Soundings(r) = parse(&s3).unwrap() else {
+            panic!("per sounding")
+        };
+        assert_eq!(
+            r.values().next().unwrap().u_parts_m,
+            Some([0.01, 0.02, 0.03, 0.04, 0.05])
+        );
+    }
+}
