@@ -3,11 +3,12 @@
 use std::path::PathBuf;
 
 use ebbwise::io::atomic::write_atomic;
-use ebbwise::run::correctors::{apply_corrections, provenance_mismatches};
+use ebbwise::run::correctors::apply_corrections;
+use ebbwise::run::load::load;
 
-use super::common::{load_or_report, out_folder};
-use super::reduce::print_run_summary;
-use super::Outcome;
+use super::common::{load_project_or_report, out_folder, print_findings};
+use super::reduce::{print_run_summary, write_qa_report};
+use super::{Outcome, Reported};
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
@@ -22,18 +23,51 @@ pub struct Args {
     /// Output folder (default: the project's `[output] dir`).
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
+    /// Survey order to judge against (overrides the project's `[uncertainty] order`):
+    /// exclusive, special, 1a, 1b, 2 or a custom order's name. Refuses a correction file
+    /// without uncertainty.
+    #[arg(long)]
+    order: Option<String>,
+    /// Do not carry uncertainty (no uncertainty columns, no QA report) even when the project
+    /// has an `[uncertainty]` section and the file carries `u_tide_m`.
+    #[arg(long)]
+    no_uncertainty: bool,
 }
 
 pub fn run(a: Args) -> anyhow::Result<Outcome> {
     let out = out_folder(a.out)?;
-    let loaded = load_or_report(&a.project)?;
+    let project = load_project_or_report(&a.project, "apply")?;
+    let mut loaded = match load(project, a.order.as_deref()) {
+        Ok(l) => l,
+        Err(findings) => {
+            print_findings(&findings);
+            eprintln!(
+                "ebbwise: cannot apply: fix the errors above (`ebbwise check` lists every problem)"
+            );
+            return Err(Reported.into());
+        }
+    };
+    if a.no_uncertainty {
+        loaded.uncertainty = None;
+    } else if a.order.is_some() && loaded.uncertainty.is_none() {
+        anyhow::bail!(
+            "--order needs an [uncertainty] section in the project (see docs/project-file.md)"
+        );
+    }
     let out_dir = out.unwrap_or_else(|| loaded.project.spec.output.dir.clone());
-    let summary = apply_corrections(&loaded, &a.corrections, a.soundings, out_dir.clone())?;
+    let summary = apply_corrections(
+        &mut loaded,
+        &a.corrections,
+        a.soundings,
+        out_dir.clone(),
+        a.order.is_some(),
+    )?;
     let summary_path = out_dir.join("apply-summary.json");
     write_atomic(&summary_path, &serde_json::to_vec_pretty(&summary)?)?;
-    for w in provenance_mismatches(&loaded, &a.corrections) {
+    for w in &summary.warnings {
         eprintln!("warning: {w}");
     }
+    let verdict = write_qa_report(&loaded, &summary, &out_dir)?;
     print_run_summary(
         "apply",
         &format!(
@@ -43,7 +77,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
         ),
         &summary,
         &summary_path,
-        None,
+        Some(&verdict),
     );
     Ok(Outcome::of_reduction(&summary))
 }

@@ -113,7 +113,19 @@ pub fn reduce_and_report(
     )?;
     let summary_path = out_dir.join("reduce-summary.json");
     write_atomic(&summary_path, &serde_json::to_vec_pretty(&summary)?)?;
-    let verdict = match build_qa_report(&loaded, &summary) {
+    let verdict = write_qa_report(&loaded, &summary, &out_dir)?;
+    print_run_summary("reduce", &name, &summary, &summary_path, Some(&verdict));
+    Ok((summary, out_dir))
+}
+
+/// With uncertainty, writes the QA report (`qa-report.json` and `.html`) of a run into `out_dir`
+/// and returns the summary's verdict lines; without, removes a report an earlier run left.
+pub fn write_qa_report(
+    loaded: &ebbwise::run::load::Loaded,
+    summary: &RunSummary,
+    out_dir: &Path,
+) -> anyhow::Result<String> {
+    Ok(match build_qa_report(loaded, summary) {
         Some(report) => {
             let json_path = out_dir.join("qa-report.json");
             let html_path = out_dir.join("qa-report.html");
@@ -140,9 +152,7 @@ pub fn reduce_and_report(
             "  uncertainty: not computed (no [uncertainty] section in the project, or --no-uncertainty)"
                 .into()
         }
-    };
-    print_run_summary("reduce", &name, &summary, &summary_path, Some(&verdict));
-    Ok((summary, out_dir))
+    })
 }
 
 /// The summary of a streaming run (`reduce`, `apply`), on stderr.

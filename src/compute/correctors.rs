@@ -8,7 +8,7 @@
 use std::collections::HashMap;
 
 use super::locate::ZoneLocator;
-use super::reduce::{TideModel, TideOutcome};
+use super::reduce::{CarriedTideU, StepSource, TideModel, TideOutcome};
 use super::series::TimeInterpolation;
 use super::uncertainty::{tide_budget, GaugeUncertainty, ZoneUncertainty};
 use super::zoning::{FeedState, Gauge, Zone};
@@ -67,6 +67,9 @@ pub struct Corrector {
     pub tide_m: Option<f64>,
     /// Standard uncertainty of the tide, metres (`None` when missing or not computed).
     pub u_tide_m: Option<f64>,
+    /// The five components of `u_tide_m` in [`super::uncertainty::TIDE_COMPONENTS`] order,
+    /// metres (`None` when `u_tide_m` is, or a file of the earlier layout did not carry them).
+    pub u_parts_m: Option<[f64; 5]>,
     /// How it was obtained.
     pub status: CorrectorStatus,
 }
@@ -121,6 +124,7 @@ pub fn zone_corrector_at(
             t_s: t,
             tide_m: None,
             u_tide_m: None,
+            u_parts_m: None,
             status: if matches!(e.why, super::series::NoLevel::Flagged { .. }) {
                 CorrectorStatus::Flagged
             } else {
@@ -134,13 +138,12 @@ pub fn zone_corrector_at(
                 let i = st.level.bracket;
                 s.times_s.get(i) == Some(&shifted) || s.times_s.get(i + 1) == Some(&shifted)
             });
-            let u = unc.map(|u| {
-                tide_budget(zone, gauges, u.gauge_u, u.zone_u, u.rates, t, states).u_tide_m()
-            });
+            let b = unc.map(|u| tide_budget(zone, gauges, u.gauge_u, u.zone_u, u.rates, t, states));
             Corrector {
                 t_s: t,
                 tide_m: Some(tide),
-                u_tide_m: u,
+                u_tide_m: b.map(|b| b.u_tide_m()),
+                u_parts_m: b.map(|b| b.components_m()),
                 status: if observed {
                     CorrectorStatus::Observed
                 } else {
@@ -151,39 +154,134 @@ pub fn zone_corrector_at(
     }
 }
 
-/// Linear interpolation in a zone's corrector series (sorted by time). Between two values the
-/// tide is interpolated; next to a missing value, or outside the series, there is none.
-pub fn interpolate_correctors(series: &[Corrector], t_s: f64) -> Option<f64> {
-    let i = series.partition_point(|c| c.t_s <= t_s);
-    if i == 0 {
-        return None;
-    }
-    let a = &series[i - 1];
-    if a.t_s == t_s {
-        return a.tide_m;
-    }
-    let b = series.get(i)?;
-    let (ta, tb) = (a.tide_m?, b.tide_m?);
-    Some(ta + (tb - ta) * (t_s - a.t_s) / (b.t_s - a.t_s))
+/// Two consecutive rows of a series further apart than its step by more than this are not
+/// bridged, seconds. Times are written to the millisecond, so an interval read back can differ
+/// from the step by up to 1 ms; 2 ms covers that with a margin.
+pub const BRIDGE_TOLERANCE_S: f64 = 0.002;
+
+/// What a corrector series gives at one time.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SeriesValue {
+    /// A tide (interpolated linearly between two rows), with its uncertainty when both rows
+    /// carry it and its components.
+    Tide {
+        /// Tide above chart datum, metres.
+        tide_m: f64,
+        /// Uncertainty interpolated the same way.
+        carried_u: Option<CarriedTideU>,
+    },
+    /// No value: outside the series or next to a row without a tide.
+    None {
+        /// A neighbouring row is `flagged`.
+        flagged: bool,
+    },
+    /// The rows around the time are further apart than the step: not bridged.
+    Unbridged {
+        /// Time of the row before, UTC seconds.
+        from_s: f64,
+        /// Time of the row after, UTC seconds.
+        to_s: f64,
+    },
 }
 
-/// Whether the correctors around `t_s` that leave it without a value include a `flagged` one.
-pub fn flagged_near(series: &[Corrector], t_s: f64) -> bool {
+fn carried(c: &Corrector) -> Option<CarriedTideU> {
+    Some(CarriedTideU {
+        u_tide_m: c.u_tide_m?,
+        parts_m: c.u_parts_m?,
+    })
+}
+
+/// The value of a corrector series (sorted by time) at `t_s`: a row's own value at its time;
+/// between two rows at most `max_step_s` (+ [`BRIDGE_TOLERANCE_S`]) apart, the tide and each
+/// uncertainty interpolated linearly; next to a row without a tide, outside the series, or
+/// between rows further apart, none.
+pub fn series_value(series: &[Corrector], t_s: f64, max_step_s: f64) -> SeriesValue {
     let i = series.partition_point(|c| c.t_s <= t_s);
-    let near = |k: Option<usize>| {
+    let flagged = |k: Option<usize>| {
         k.and_then(|k| series.get(k))
             .is_some_and(|c| c.status == CorrectorStatus::Flagged)
     };
-    near(i.checked_sub(1)) || near(Some(i))
+    let none = SeriesValue::None {
+        flagged: flagged(i.checked_sub(1)) || flagged(Some(i)),
+    };
+    if i == 0 {
+        return none;
+    }
+    let a = &series[i - 1];
+    if a.t_s == t_s {
+        return match a.tide_m {
+            Some(tide_m) => SeriesValue::Tide {
+                tide_m,
+                carried_u: carried(a),
+            },
+            None => none,
+        };
+    }
+    let Some(b) = series.get(i) else {
+        return none;
+    };
+    if b.t_s - a.t_s > max_step_s + BRIDGE_TOLERANCE_S {
+        return SeriesValue::Unbridged {
+            from_s: a.t_s,
+            to_s: b.t_s,
+        };
+    }
+    let (Some(ta), Some(tb)) = (a.tide_m, b.tide_m) else {
+        return none;
+    };
+    let f = (t_s - a.t_s) / (b.t_s - a.t_s);
+    let lerp = |x: f64, y: f64| x + (y - x) * f;
+    let carried_u = match (carried(a), carried(b)) {
+        (Some(ua), Some(ub)) => Some(CarriedTideU {
+            u_tide_m: lerp(ua.u_tide_m, ub.u_tide_m),
+            parts_m: std::array::from_fn(|k| lerp(ua.parts_m[k], ub.parts_m[k])),
+        }),
+        _ => None,
+    };
+    SeriesValue::Tide {
+        tide_m: lerp(ta, tb),
+        carried_u,
+    }
 }
 
-/// Tide from per-zone corrector series: the zone from the locator, the tide interpolated in time.
+/// Linear interpolation in a corrector series (sorted by time), bridging any interval. Between
+/// two values the tide is interpolated; next to a missing value, or outside the series, there is
+/// none.
+pub fn interpolate_correctors(series: &[Corrector], t_s: f64) -> Option<f64> {
+    match series_value(series, t_s, f64::INFINITY) {
+        SeriesValue::Tide { tide_m, .. } => Some(tide_m),
+        _ => None,
+    }
+}
+
+/// The most common interval between consecutive rows of a series, seconds (to the
+/// millisecond; on a tie the shortest). `None` with fewer than two rows.
+pub fn modal_step_s(series: &[Corrector]) -> Option<f64> {
+    let mut counts: HashMap<i64, usize> = HashMap::new();
+    for w in series.windows(2) {
+        *counts
+            .entry(((w[1].t_s - w[0].t_s) * 1000.0).round() as i64)
+            .or_default() += 1;
+    }
+    counts
+        .into_iter()
+        .max_by(|a, b| a.1.cmp(&b.1).then(b.0.cmp(&a.0)))
+        .map(|(ms, _)| ms as f64 / 1000.0)
+}
+
+/// Tide from per-zone corrector series: the zone from the locator, the tide interpolated in time
+/// between rows no further apart than the zone's step.
 #[derive(Debug)]
 pub struct ZoneSeriesModel<'a> {
     /// Zone polygons (index = zone index).
     pub locator: &'a ZoneLocator,
     /// Corrector series per zone index (empty when the file has none for the zone).
     pub series: &'a [Vec<Corrector>],
+    /// Longest interval bridged per zone index, seconds (infinite for a zone with fewer than
+    /// two rows and no stated step).
+    pub step_s: &'a [f64],
+    /// Where the steps come from.
+    pub step_from: StepSource,
 }
 
 impl TideModel for ZoneSeriesModel<'_> {
@@ -198,27 +296,52 @@ impl TideModel for ZoneSeriesModel<'_> {
         let Some(zone) = self.locator.locate(x, y) else {
             return TideOutcome::Outside;
         };
-        match interpolate_correctors(&self.series[zone], t_s) {
-            Some(tide_m) => TideOutcome::Tide { zone, tide_m },
-            None => TideOutcome::NoCorrection {
+        match series_value(&self.series[zone], t_s, self.step_s[zone]) {
+            SeriesValue::Tide { tide_m, carried_u } => TideOutcome::Tide {
+                zone,
+                tide_m,
+                carried_u,
+            },
+            SeriesValue::Unbridged { from_s, to_s } => TideOutcome::Unbridged {
                 zone: Some(zone),
-                why: if flagged_near(&self.series[zone], t_s) {
+                from_s,
+                to_s,
+                step_s: self.step_s[zone],
+                step_from: self.step_from,
+            },
+            SeriesValue::None { flagged } => TideOutcome::NoCorrection {
+                zone: Some(zone),
+                why: if flagged {
                     "the correction file marks this zone's tide at this time flagged (gauge samples set aside by quality control)"
                 } else {
                     "the correction file has no value for this zone at this time"
                 },
-                flagged: flagged_near(&self.series[zone], t_s),
+                flagged,
             },
         }
     }
 }
 
+/// One survey line's series in a per-line correction file.
+#[derive(Debug, Default, Clone)]
+pub struct LineSeries {
+    /// Correctors sorted by time.
+    pub series: Vec<Corrector>,
+    /// Zone index of each corrector.
+    pub zones: Vec<Option<usize>>,
+    /// Longest interval bridged, seconds.
+    pub step_s: f64,
+}
+
 /// Tide from per-survey-line corrector series: looked up by the sounding's line and
-/// interpolated in time along it; the zone is the one of the nearest corrector time.
-#[derive(Debug, Default)]
+/// interpolated in time along it (between rows no further apart than the step); the zone is the
+/// one of the nearest corrector time.
+#[derive(Debug)]
 pub struct LineSeriesModel {
-    /// Per line: correctors sorted by time, each with its zone index.
-    pub lines: HashMap<String, (Vec<Corrector>, Vec<Option<usize>>)>,
+    /// Per line.
+    pub lines: HashMap<String, LineSeries>,
+    /// Where the steps come from.
+    pub step_from: StepSource,
 }
 
 impl TideModel for LineSeriesModel {
@@ -230,13 +353,14 @@ impl TideModel for LineSeriesModel {
         line: &str,
         _s: &mut Vec<FeedState>,
     ) -> TideOutcome {
-        let Some((series, zones)) = self.lines.get(line) else {
+        let Some(ls) = self.lines.get(line) else {
             return TideOutcome::NoCorrection {
                 zone: None,
                 why: "the correction file has no series for this survey line",
                 flagged: false,
             };
         };
+        let series = &ls.series;
         let i = series.partition_point(|c| c.t_s <= t_s);
         let nearest = match (i.checked_sub(1), series.get(i)) {
             (Some(a), Some(b)) if (t_s - series[a].t_s) > (b.t_s - t_s) => Some(i),
@@ -244,18 +368,32 @@ impl TideModel for LineSeriesModel {
             (None, Some(_)) => Some(i),
             (None, None) => None,
         };
-        let zone = nearest.and_then(|k| zones[k]);
-        match (interpolate_correctors(series, t_s), zone) {
-            (Some(tide_m), Some(zone)) => TideOutcome::Tide { zone, tide_m },
-            _ => TideOutcome::NoCorrection {
+        let zone = nearest.and_then(|k| ls.zones[k]);
+        match (series_value(series, t_s, ls.step_s), zone) {
+            (SeriesValue::Tide { tide_m, carried_u }, Some(zone)) => TideOutcome::Tide {
                 zone,
-                why: if flagged_near(series, t_s) {
-                    "the correction file marks this line's tide at this time flagged (gauge samples set aside by quality control)"
-                } else {
-                    "the correction file has no value for this line at this time"
-                },
-                flagged: flagged_near(series, t_s),
+                tide_m,
+                carried_u,
             },
+            (SeriesValue::Unbridged { from_s, to_s }, _) => TideOutcome::Unbridged {
+                zone,
+                from_s,
+                to_s,
+                step_s: ls.step_s,
+                step_from: self.step_from,
+            },
+            (v, _) => {
+                let flagged = matches!(v, SeriesValue::None { flagged: true });
+                TideOutcome::NoCorrection {
+                    zone,
+                    why: if flagged {
+                        "the correction file marks this line's tide at this time flagged (gauge samples set aside by quality control)"
+                    } else {
+                        "the correction file has no value for this line at this time"
+                    },
+                    flagged,
+                }
+            }
         }
     }
 }
@@ -269,6 +407,8 @@ pub enum SoundingCorrection {
         zone: usize,
         /// Tide above chart datum, metres.
         tide_m: f64,
+        /// Its uncertainty, when the row carries it and its components.
+        carried_u: Option<CarriedTideU>,
     },
     /// The sounding was outside every zone.
     Outside,
@@ -351,9 +491,14 @@ impl TideModel for SoundingTableModel {
         _s: &mut Vec<FeedState>,
     ) -> TideOutcome {
         match self.table.get(&sounding_key(line, t_s)) {
-            Some(SoundingCorrection::Tide { zone, tide_m }) => TideOutcome::Tide {
+            Some(SoundingCorrection::Tide {
+                zone,
+                tide_m,
+                carried_u,
+            }) => TideOutcome::Tide {
                 zone: *zone,
                 tide_m: *tide_m,
+                carried_u: *carried_u,
             },
             Some(SoundingCorrection::Outside) => TideOutcome::Outside,
             Some(SoundingCorrection::None { zone, flagged }) => TideOutcome::NoCorrection {
@@ -462,5 +607,73 @@ mod tests {
         assert_eq!(interpolate_correctors(&c, 750.0), None);
         assert_eq!(interpolate_correctors(&c, -1.0), None);
         assert_eq!(interpolate_correctors(&c, 720.0), Some(1.3));
+    }
+    fn row(t_s: f64, tide: f64, u: f64) -> Corrector {
+        Corrector {
+            t_s,
+            tide_m: Some(tide),
+            u_tide_m: Some(u),
+            u_parts_m: Some([u, 0.0, 0.0, 0.0, 0.0]),
+            status: CorrectorStatus::Interpolated,
+        }
+    }
+
+    #[test]
+    fn rows_further_apart_than_the_step_are_not_bridged() {
+        // 1-min rows, then a 3-min interval (two rows removed), then 1-min rows again.
+        let s = vec![
+            row(0.0, 1.0, 0.10),
+            row(60.0, 1.2, 0.20),
+            row(240.0, 1.8, 0.30),
+            row(300.0, 2.0, 0.40),
+        ];
+        assert_eq!(modal_step_s(&s), Some(60.0));
+        // Within a step: the tide and each uncertainty interpolated linearly.
+        match series_value(&s, 30.0, 60.0) {
+            SeriesValue::Tide { tide_m, carried_u } => {
+                assert!((tide_m - 1.1).abs() < 1e-12);
+                let c = carried_u.unwrap();
+                assert!((c.u_tide_m - 0.15).abs() < 1e-12);
+                assert!((c.parts_m[0] - 0.15).abs() < 1e-12);
+            }
+            v => panic!("{v:?}"),
+        }
+        // Inside the 3-min interval: not bridged, with both times.
+        assert_eq!(
+            series_value(&s, 150.0, 60.0),
+            SeriesValue::Unbridged {
+                from_s: 60.0,
+                to_s: 240.0
+            }
+        );
+        // At a row's own time its value stands, whatever its neighbours.
+        assert!(matches!(
+            series_value(&s, 240.0, 60.0),
+            SeriesValue::Tide { tide_m, .. } if tide_m == 1.8
+        ));
+        // A rounding of the written times (1 ms) is within the tolerance.
+        let t = vec![row(0.0, 1.0, 0.1), row(60.001, 1.2, 0.1)];
+        assert!(matches!(
+            series_value(&t, 30.0, 60.0),
+            SeriesValue::Tide { .. }
+        ));
+        let t = vec![row(0.0, 1.0, 0.1), row(60.003, 1.2, 0.1)];
+        assert!(matches!(
+            series_value(&t, 30.0, 60.0),
+            SeriesValue::Unbridged { .. }
+        ));
+        // With no step limit the interval is bridged (the tide of the earlier reader).
+        assert!((interpolate_correctors(&s, 150.0).unwrap() - 1.5).abs() < 1e-12);
+        // A row without components: the tide, but no carried uncertainty.
+        let mut u = s.clone();
+        u[1].u_parts_m = None;
+        assert!(matches!(
+            series_value(&u, 30.0, 60.0),
+            SeriesValue::Tide {
+                carried_u: None,
+                ..
+            }
+        ));
+        assert_eq!(modal_step_s(&s[..1]), None);
     }
 }

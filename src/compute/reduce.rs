@@ -107,6 +107,9 @@ pub enum TideOutcome {
         zone: usize,
         /// Tide above chart datum, metres, positive up.
         tide_m: f64,
+        /// The tide's standard uncertainty as a source gave it (a correction file); `None` when
+        /// the model computes it from the gauges (or the source has none).
+        carried_u: Option<CarriedTideU>,
     },
     /// The place is outside the model's area.
     Outside,
@@ -117,6 +120,20 @@ pub enum TideOutcome {
         /// Details.
         why: NoZoneTide,
     },
+    /// A correction-based series has values on both sides of the time but further apart than
+    /// its step: the tide is not interpolated across the interval.
+    Unbridged {
+        /// Zone index, when known.
+        zone: Option<usize>,
+        /// Time of the value before, UTC seconds.
+        from_s: f64,
+        /// Time of the value after, UTC seconds.
+        to_s: f64,
+        /// The longest interval bridged, seconds (the series' step).
+        step_s: f64,
+        /// Where the step comes from.
+        step_from: StepSource,
+    },
     /// A correction-based model has no tide for the sounding.
     NoCorrection {
         /// Zone index, when known.
@@ -126,6 +143,25 @@ pub enum TideOutcome {
         /// The source marks the tide there as resting on flagged gauge samples.
         flagged: bool,
     },
+}
+
+/// The standard uncertainty of a tide carried from a correction file: the combined value and
+/// its five components in [`super::uncertainty::TIDE_COMPONENTS`] order (metres, 1σ).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CarriedTideU {
+    /// Combined standard uncertainty of the tide, metres.
+    pub u_tide_m: f64,
+    /// Components, metres (standard uncertainties).
+    pub parts_m: [f64; 5],
+}
+
+/// Where the step of a correction series comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StepSource {
+    /// The file's sidecar states it (`step_min`).
+    Sidecar,
+    /// The most common interval between the series' own consecutive rows (no sidecar).
+    Series,
 }
 
 /// A spatial tide model: tide above chart datum at any place and time of its area.
@@ -177,7 +213,11 @@ impl TideModel for DiscreteZoning<'_> {
                 why: "the zone tide is not a finite number: check the zone's correctors and the gauges' mean levels",
                 flagged: false,
             },
-            Ok(tide_m) => TideOutcome::Tide { zone, tide_m },
+            Ok(tide_m) => TideOutcome::Tide {
+                zone,
+                tide_m,
+                carried_u: None,
+            },
             Err(why) => TideOutcome::NoData { zone, why },
         }
     }
@@ -278,7 +318,8 @@ mod tests {
             m.tide_at(0.9, 0.1, 300.0, "", &mut st),
             TideOutcome::Tide {
                 zone: 0,
-                tide_m: 1.5
+                tide_m: 1.5,
+                carried_u: None
             }
         );
         assert_eq!(

@@ -6,6 +6,8 @@
 //! Per-sounding file (`<stem>.correctors.csv`), one row per sounding:
 //! `line,time_utc,source_file,source_line,zone,tide_m,u_tide_m,status`.
 //! Per-line file (`correctors-lines.csv`): `line,time_utc,zone,tide_m,u_tide_m,status`.
+//! Every file of layout 3 appends the five components of `u_tide_m` after `status`
+//! ([`U_PART_COLUMNS`]); the reader also accepts layout 2, without them.
 //! Times are ISO 8601 UTC to the millisecond (to the microsecond when a sounding's time is finer);
 //! `tide_m` is the water level above chart datum in metres, positive up, with 4 decimals, and
 //! `u_tide_m` its standard uncertainty (1σ, 4 decimals, empty when not computed), as in the
@@ -23,12 +25,34 @@ use super::error::{IoError, Position};
 use super::numfmt::{push_fixed_str, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use super::timefmt::{parse_time, push_utc, TimeFormat};
 use crate::compute::correctors::{sounding_key, Corrector, CorrectorStatus, SoundingCorrection};
+use crate::compute::reduce::CarriedTideU;
+
+/// The five components of `u_tide_m`, appended after `status` in every correction file (layout
+/// 3), in the order of the reduced file's uncertainty columns.
+pub const U_PART_COLUMNS: [&str; 5] = [
+    "u_tide_gauge_m",
+    "u_tide_datum_m",
+    "u_tide_range_m",
+    "u_tide_timing_m",
+    "u_tide_zone_m",
+];
 
 /// Columns of the per-zone file.
-pub const ZONE_CORRECTOR_COLUMNS: [&str; 5] = ["zone", "time_utc", "tide_m", "u_tide_m", "status"];
+pub const ZONE_CORRECTOR_COLUMNS: [&str; 10] = [
+    "zone",
+    "time_utc",
+    "tide_m",
+    "u_tide_m",
+    "status",
+    U_PART_COLUMNS[0],
+    U_PART_COLUMNS[1],
+    U_PART_COLUMNS[2],
+    U_PART_COLUMNS[3],
+    U_PART_COLUMNS[4],
+];
 
 /// Columns of a per-sounding corrector file, in order.
-pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
+pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 13] = [
     "line",
     "time_utc",
     "source_file",
@@ -37,14 +61,31 @@ pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 8] = [
     "tide_m",
     "u_tide_m",
     "status",
+    U_PART_COLUMNS[0],
+    U_PART_COLUMNS[1],
+    U_PART_COLUMNS[2],
+    U_PART_COLUMNS[3],
+    U_PART_COLUMNS[4],
 ];
 
 /// Columns of a per-line corrector file, in order.
-pub const LINE_CORRECTOR_COLUMNS: [&str; 6] =
-    ["line", "time_utc", "zone", "tide_m", "u_tide_m", "status"];
+pub const LINE_CORRECTOR_COLUMNS: [&str; 11] = [
+    "line",
+    "time_utc",
+    "zone",
+    "tide_m",
+    "u_tide_m",
+    "status",
+    U_PART_COLUMNS[0],
+    U_PART_COLUMNS[1],
+    U_PART_COLUMNS[2],
+    U_PART_COLUMNS[3],
+    U_PART_COLUMNS[4],
+];
 
-/// Identifier of the correction-file layout (in the sidecar).
-pub const CORRECTORS_FORMAT: &str = "ebbwise-tide-correctors/2";
+/// Identifier of the correction-file layout (in the sidecar). Layout 2 had the same columns
+/// without the five components; the reader accepts it (components empty).
+pub const CORRECTORS_FORMAT: &str = "ebbwise-tide-correctors/3";
 
 /// SHA-256 of a file, lowercase hex.
 pub fn sha256_file(path: &Path) -> Result<String, IoError> {
@@ -83,7 +124,7 @@ pub fn push_line_row(out: &mut String, line: &str, zone: Option<&str>, c: &Corre
     push_corrector_tail(out, c);
 }
 
-/// `,tide_m,u_tide_m,status` and the line end.
+/// `,tide_m,u_tide_m,status,<five components>` and the line end.
 fn push_corrector_tail(out: &mut String, c: &Corrector) {
     out.push(',');
     if let Some(t) = c.tide_m {
@@ -95,11 +136,37 @@ fn push_corrector_tail(out: &mut String, c: &Corrector) {
     }
     out.push(',');
     out.push_str(c.status.as_str());
+    push_u_parts(out, c.u_parts_m.as_ref());
     out.push('\n');
 }
 
-/// A per-sounding row as read: zone id, tide (m), status word.
-pub type SoundingRow = (Option<String>, Option<f64>, String);
+/// `,gauge,datum,range,timing,zone` components (4 decimals), or five empty fields.
+pub fn push_u_parts(out: &mut String, parts: Option<&[f64; 5]>) {
+    match parts {
+        Some(p) => {
+            for x in p {
+                out.push(',');
+                push_fixed_str(out, *x, UNCERTAINTY_DECIMALS);
+            }
+        }
+        None => out.push_str(",,,,,"),
+    }
+}
+
+/// A per-sounding row as read: zone id, tide (m), status word, `u_tide_m` and its components.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SoundingRow {
+    /// Zone id.
+    pub zone: Option<String>,
+    /// Tide above chart datum, metres.
+    pub tide_m: Option<f64>,
+    /// The sounding's status word.
+    pub status: String,
+    /// Standard uncertainty of the tide, metres.
+    pub u_tide_m: Option<f64>,
+    /// Its five components, metres.
+    pub u_parts_m: Option<[f64; 5]>,
+}
 
 /// Per-sounding rows keyed by (line, time in µs).
 pub type SoundingRows = HashMap<(String, i64), SoundingRow>;
@@ -116,8 +183,36 @@ pub enum CorrectionFile {
     Lines(HashMap<String, Vec<(Corrector, Option<String>)>>),
 }
 
+/// Whether the header is `cols` (layout 3) or `cols` without the five trailing components
+/// (layout 2).
 fn header_is(h: &csv::StringRecord, cols: &[&str]) -> bool {
-    h.len() == cols.len() && h.iter().zip(cols).all(|(a, b)| a == *b)
+    let v2 = cols.len() - U_PART_COLUMNS.len();
+    (h.len() == cols.len() || h.len() == v2) && h.iter().zip(cols).all(|(a, b)| a == *b)
+}
+
+/// The five components from fields `first..first + 5` (absent in layout 2): all given, or
+/// `None` when all are empty; some but not all given is an error.
+fn u_parts(
+    rec: &csv::StringRecord,
+    first: usize,
+    at: &dyn Fn(&str) -> Position,
+) -> Result<Option<[f64; 5]>, IoError> {
+    let mut out = [0.0; 5];
+    let mut given = 0;
+    for (k, name) in U_PART_COLUMNS.iter().enumerate() {
+        if let Some(v) = optional_metres(rec, first + k, &at(name))? {
+            out[k] = v;
+            given += 1;
+        }
+    }
+    match given {
+        0 => Ok(None),
+        5 => Ok(Some(out)),
+        _ => Err(IoError::content(
+            at(U_PART_COLUMNS[0]),
+            "the five uncertainty components must be given together (or all left empty)",
+        )),
+    }
 }
 
 /// Reads a correction file of either kind (told apart by its header line).
@@ -196,6 +291,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                 t_s: t,
                 tide_m: tide,
                 u_tide_m: opt_num(3, "u_tide_m")?,
+                u_parts_m: u_parts(&rec, 5, &at)?,
                 status,
             });
         } else {
@@ -207,7 +303,13 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                 .map_err(|m| IoError::content(at("time_utc"), m))?;
             let zone = (!rec[4].is_empty()).then(|| rec[4].to_string());
             let tide = opt_num(5, "tide_m")?;
-            let row = (zone, tide, rec[7].to_string());
+            let row = SoundingRow {
+                zone,
+                tide_m: tide,
+                status: rec[7].to_string(),
+                u_tide_m: opt_num(6, "u_tide_m")?,
+                u_parts_m: u_parts(&rec, 8, &at)?,
+            };
             if let Some(prev) = by_sounding.insert(sounding_key(&rec[0], t), row.clone()) {
                 if prev != row {
                     // Soundings sharing line and time (e.g. the beams of one multibeam ping) with
@@ -276,6 +378,7 @@ fn parse_line_rows<R: Read>(
                 t_s: t,
                 tide_m: tide,
                 u_tide_m: num(4, "u_tide_m")?,
+                u_parts_m: u_parts(&rec, 6, &at)?,
                 status,
             },
             zone,
@@ -313,10 +416,25 @@ pub fn sounding_corrections(
 ) -> HashMap<(String, i64), SoundingCorrection> {
     let index: HashMap<&str, usize> = zone_ids.iter().enumerate().map(|(i, z)| (*z, i)).collect();
     rows.into_iter()
-        .map(|(k, (zone, tide, status))| {
+        .map(|(k, row)| {
+            let SoundingRow {
+                zone,
+                tide_m: tide,
+                status,
+                u_tide_m,
+                u_parts_m,
+            } = row;
             let z = zone.as_deref().and_then(|z| index.get(z).copied());
+            let carried_u = match (u_tide_m, u_parts_m) {
+                (Some(u_tide_m), Some(parts_m)) => Some(CarriedTideU { u_tide_m, parts_m }),
+                _ => None,
+            };
             let v = match (z, tide) {
-                (Some(zone), Some(tide_m)) => SoundingCorrection::Tide { zone, tide_m },
+                (Some(zone), Some(tide_m)) => SoundingCorrection::Tide {
+                    zone,
+                    tide_m,
+                    carried_u,
+                },
                 _ if status == "outside_zoning" => SoundingCorrection::Outside,
                 _ => SoundingCorrection::None {
                     zone: z,
@@ -326,4 +444,57 @@ pub fn sounding_corrections(
             (k, v)
         })
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse(text: &str) -> Result<CorrectionFile, IoError> {
+        parse_correction_file(text.as_bytes(), Path::new("c.csv"))
+    }
+
+    #[test]
+    fn layout_2_reads_with_components_empty_and_layout_3_with_them() {
+        let v2 =
+            "zone,time_utc,tide_m,u_tide_m,status\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed\n";
+        let CorrectionFile::Zones(m) = parse(v2).unwrap() else {
+            panic!("per zone")
+        };
+        assert_eq!(m["Z"][0].u_tide_m, Some(0.08));
+        assert_eq!(m["Z"][0].u_parts_m, None);
+        let v3 = format!(
+            "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,0.0100,0.0200,0.0300,0.0400,0.0500\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        );
+        let CorrectionFile::Zones(m) = parse(&v3).unwrap() else {
+            panic!("per zone")
+        };
+        assert_eq!(m["Z"][0].u_parts_m, Some([0.01, 0.02, 0.03, 0.04, 0.05]));
+        // Some components but not all: refused at the line and the first component's column.
+        let bad = format!(
+            "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,0.0100,,0.0300,0.0400,0.0500\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        );
+        let e = parse(&bad).unwrap_err().to_string();
+        assert!(e.contains("c.csv:2") && e.contains("u_tide_gauge_m"), "{e}");
+        // Per sounding, layout 2 and 3.
+        let s2 = "line,time_utc,source_file,source_line,zone,tide_m,u_tide_m,status\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,0.0800,reduced\n";
+        let CorrectionFile::Soundings(r) = parse(s2).unwrap() else {
+            panic!("per sounding")
+        };
+        let row = r.values().next().unwrap();
+        assert_eq!((row.u_tide_m, row.u_parts_m), (Some(0.08), None));
+        let s3 = format!(
+            "{}\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,0.0800,reduced,0.0100,0.0200,0.0300,0.0400,0.0500\n",
+            SOUNDING_CORRECTOR_COLUMNS.join(",")
+        );
+        let CorrectionFile::Soundings(r) = parse(&s3).unwrap() else {
+            panic!("per sounding")
+        };
+        assert_eq!(
+            r.values().next().unwrap().u_parts_m,
+            Some([0.01, 0.02, 0.03, 0.04, 0.05])
+        );
+    }
 }

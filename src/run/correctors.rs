@@ -9,9 +9,10 @@ use serde::Serialize;
 use super::load::{output_clashes, Loaded, PlannedOutput};
 use super::reduce::{reduce_project, run_outputs, ApplyModel, ReduceOptions, RunKind, RunSummary};
 use crate::compute::correctors::{
-    zone_corrector_at, zone_correctors, Corrector, CorrectorUncertainty, LineSeriesModel,
-    SoundingTableModel,
+    modal_step_s, zone_corrector_at, zone_correctors, Corrector, CorrectorUncertainty, LineSeries,
+    LineSeriesModel, SoundingTableModel, BRIDGE_TOLERANCE_S,
 };
+use crate::compute::reduce::StepSource;
 use crate::io::atomic::write_atomic;
 use crate::io::correctors_file::{
     push_line_row, push_zone_rows, read_correction_file, sha256_file, sounding_corrections,
@@ -91,6 +92,7 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
                     t_s: t,
                     tide_m: None,
                     u_tide_m: None,
+                    u_parts_m: None,
                     status: crate::compute::correctors::CorrectorStatus::Missing,
                 },
             };
@@ -538,6 +540,7 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
                 "time_utc" => "ISO 8601 time, UTC, to the millisecond (to the microsecond when a sounding's time is finer)",
                 "tide_m" => "tide: water level above chart datum, metres, positive up, 4 decimals; empty when missing",
                 "u_tide_m" => "standard uncertainty (1 sigma) of the tide, metres, 4 decimals; empty when not computed",
+                "u_tide_gauge_m" | "u_tide_datum_m" | "u_tide_range_m" | "u_tide_timing_m" | "u_tide_zone_m" => "one component of u_tide_m (standard, metres, 4 decimals), as in the reduced file; empty when u_tide_m is",
                 "status" => "observed | interpolated | missing | flagged (per zone and per line); the sounding's status (per sounding)",
                 "line" => "survey line",
                 "source_file" => "soundings file the row comes from",
@@ -553,15 +556,10 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
 /// current inputs: one message per input whose SHA-256 differs or that the project no longer has.
 /// A file without sidecar gives one message saying its provenance cannot be checked.
 pub fn provenance_mismatches(loaded: &Loaded, corrections: &Path) -> Vec<String> {
-    let mut name = corrections
-        .file_name()
-        .map(|n| n.to_os_string())
-        .unwrap_or_default();
-    name.push(".json");
-    let sidecar = corrections.with_file_name(name);
+    let sidecar = sidecar_path(corrections);
     let Ok(bytes) = std::fs::read(&sidecar) else {
         return vec![format!(
-            "{} has no sidecar {}: its provenance cannot be checked against this project",
+            "{} has no sidecar {}: its provenance and step cannot be checked against this project",
             corrections.display(),
             sidecar.display()
         )];
@@ -602,23 +600,75 @@ pub fn provenance_mismatches(loaded: &Loaded, corrections: &Path) -> Vec<String>
     out
 }
 
-/// Reduces soundings with tide from a correction file (per zone: interpolated in time within
-/// the sounding's zone; per sounding: looked up by line and time).
-pub fn apply_corrections(
-    loaded: &Loaded,
-    corrections: &Path,
-    soundings: Vec<PathBuf>,
-    out_dir: PathBuf,
-) -> Result<RunSummary, IoError> {
-    let mut sidecar = corrections
+/// The sidecar of a correction file, `<file>.json`.
+fn sidecar_path(corrections: &Path) -> PathBuf {
+    let mut name = corrections
         .file_name()
         .map(|n| n.to_os_string())
         .unwrap_or_default();
-    sidecar.push(".json");
+    name.push(".json");
+    corrections.with_file_name(name)
+}
+
+/// The step a correction file's sidecar states (`step_min`), seconds, when it has one.
+fn sidecar_step_s(corrections: &Path) -> Option<f64> {
+    let bytes = std::fs::read(sidecar_path(corrections)).ok()?;
+    let v: serde_json::Value = serde_json::from_slice(&bytes).ok()?;
+    v["step_min"]
+        .as_f64()
+        .filter(|m| m.is_finite() && *m > 0.0)
+        .map(|m| (m * 60.0 * 1000.0).round() / 1000.0)
+}
+
+/// Whether every row of a correction file that gives a tide also gives `u_tide_m` and its five
+/// components: (rows with a tide, of which without them).
+fn carried_uncertainty(file: &CorrectionFile) -> (usize, usize) {
+    let mut with_tide = 0;
+    let mut without_u = 0;
+    let mut count = |tide: Option<f64>, u: Option<f64>, parts: Option<&[f64; 5]>| {
+        if tide.is_some() {
+            with_tide += 1;
+            if u.is_none() || parts.is_none() {
+                without_u += 1;
+            }
+        }
+    };
+    match file {
+        CorrectionFile::Zones(map) => map
+            .values()
+            .flatten()
+            .for_each(|c| count(c.tide_m, c.u_tide_m, c.u_parts_m.as_ref())),
+        CorrectionFile::Lines(map) => map
+            .values()
+            .flatten()
+            .for_each(|(c, _)| count(c.tide_m, c.u_tide_m, c.u_parts_m.as_ref())),
+        CorrectionFile::Soundings(rows) => rows
+            .values()
+            .for_each(|r| count(r.tide_m, r.u_tide_m, r.u_parts_m.as_ref())),
+        #[allow(unreachable_patterns)]
+        _ => {}
+    }
+    (with_tide, without_u)
+}
+
+/// Reduces soundings with tide from a correction file (per zone: interpolated in time within
+/// the sounding's zone; per line: along the sounding's line; per sounding: looked up by line and
+/// time). Two consecutive rows of a series further apart than the file's step (the sidecar's
+/// `step_min`, else the series' most common interval) are not bridged. With uncertainty in
+/// `loaded`, the file's `u_tide_m` and components are carried into the uncertainty columns; a
+/// file without them gives no uncertainty (a warning), or an error when `uncertainty_asked`.
+/// The summary's warnings say what the user should know (no sidecar, provenance, step source).
+pub fn apply_corrections(
+    loaded: &mut Loaded,
+    corrections: &Path,
+    soundings: Vec<PathBuf>,
+    out_dir: PathBuf,
+    uncertainty_asked: bool,
+) -> Result<RunSummary, IoError> {
     let extra = [
         (corrections.to_path_buf(), "the correction file".to_string()),
         (
-            corrections.with_file_name(sidecar),
+            sidecar_path(corrections),
             "the correction file's sidecar".to_string(),
         ),
     ];
@@ -628,19 +678,59 @@ pub fn apply_corrections(
         &run_outputs(
             &loaded.project,
             &out_dir,
-            RunKind::Apply(ApplyModel::Zones(&[])),
+            RunKind::Apply(ApplyModel::Zones(&[], &[], StepSource::Series), corrections),
             only_files,
         ),
         &extra,
     )?;
     let file = read_correction_file(corrections)?;
+    let mut warnings = provenance_mismatches(loaded, corrections);
+    if loaded.uncertainty.is_some() {
+        let (with_tide, without_u) = carried_uncertainty(&file);
+        if without_u > 0 {
+            let why = format!(
+                "{} of the {} rows of {} that give a tide have no u_tide_m or not all five of its components (written without [uncertainty], or by an earlier layout)",
+                without_u,
+                with_tide,
+                corrections.display()
+            );
+            if uncertainty_asked {
+                return Err(IoError::content(
+                    Position::file(corrections).field("u_tide_m"),
+                    format!("{why}: uncertainty cannot be carried; re-run `ebbwise correctors` with the project's [uncertainty] table, or give --no-uncertainty"),
+                ));
+            }
+            warnings.push(format!(
+                "{why}: no uncertainty columns and no QA report are written (re-run `ebbwise correctors` with [uncertainty] to carry it)"
+            ));
+            loaded.uncertainty = None;
+        }
+    }
+    let loaded: &Loaded = loaded;
+    let stated_step_s = sidecar_step_s(corrections);
+    let step_from = if stated_step_s.is_some() {
+        StepSource::Sidecar
+    } else {
+        StepSource::Series
+    };
+    let step_of = |series: &[Corrector]| {
+        stated_step_s
+            .or_else(|| modal_step_s(series))
+            .unwrap_or(f64::INFINITY)
+    };
     let zone_ids: Vec<&str> = loaded.zones.iter().map(|z| z.id.as_str()).collect();
     let only = if soundings.is_empty() {
         None
     } else {
         Some(soundings)
     };
-    match file {
+    let step_note = |kind: &str| {
+        format!(
+            "{} has no stated step (no sidecar step_min): rows of a {kind} further apart than the most common interval between its rows are not bridged",
+            corrections.display()
+        )
+    };
+    let mut summary = match file {
         CorrectionFile::Zones(map) => {
             for id in map.keys() {
                 if !zone_ids.contains(&id.as_str()) {
@@ -657,20 +747,48 @@ pub fn apply_corrections(
                 .iter()
                 .map(|z| map.get(*z).cloned().unwrap_or_default())
                 .collect();
+            let steps: Vec<f64> = series.iter().map(|s| step_of(s)).collect();
+            // A gauge gap shorter than the step leaves no `missing` row: say so.
+            for (z, step_s) in loaded.zones.iter().zip(&steps) {
+                let gap_s = z
+                    .feeds
+                    .iter()
+                    .map(|f| loaded.gauges[f.gauge].series.max_gap_s)
+                    .fold(f64::INFINITY, f64::min);
+                if step_s.is_finite() && *step_s > gap_s + BRIDGE_TOLERANCE_S {
+                    warnings.push(format!(
+                        "zone '{}': the step of {} ({} min) is longer than the max_gap_min of a gauge feeding it ({} min): a gauge gap between two rows is not seen and is bridged; write the file with a step no longer than {} min",
+                        z.id,
+                        corrections.display(),
+                        step_s / 60.0,
+                        gap_s / 60.0,
+                        gap_s / 60.0
+                    ));
+                }
+            }
+            if step_from == StepSource::Series {
+                warnings.push(step_note("zone"));
+            }
             reduce_project(
                 loaded,
                 &ReduceOptions {
                     out_dir,
                     progress: None,
-                    kind: RunKind::Apply(ApplyModel::Zones(&series)),
+                    kind: RunKind::Apply(
+                        ApplyModel::Zones(&series, &steps, step_from),
+                        corrections,
+                    ),
                     only_files: only,
                 },
-            )
+            )?
         }
         CorrectionFile::Lines(map) => {
             let index: std::collections::HashMap<&str, usize> =
                 zone_ids.iter().enumerate().map(|(i, z)| (*z, i)).collect();
-            let mut model = LineSeriesModel::default();
+            let mut model = LineSeriesModel {
+                lines: Default::default(),
+                step_from,
+            };
             for (line, rows) in map {
                 let mut series = Vec::with_capacity(rows.len());
                 let mut zones = Vec::with_capacity(rows.len());
@@ -690,17 +808,28 @@ pub fn apply_corrections(
                     series.push(c);
                     zones.push(zi);
                 }
-                model.lines.insert(line, (series, zones));
+                let step_s = step_of(&series);
+                model.lines.insert(
+                    line,
+                    LineSeries {
+                        series,
+                        zones,
+                        step_s,
+                    },
+                );
+            }
+            if step_from == StepSource::Series {
+                warnings.push(step_note("survey line"));
             }
             reduce_project(
                 loaded,
                 &ReduceOptions {
                     out_dir,
                     progress: None,
-                    kind: RunKind::Apply(ApplyModel::Lines(&model)),
+                    kind: RunKind::Apply(ApplyModel::Lines(&model), corrections),
                     only_files: only,
                 },
-            )
+            )?
         }
         CorrectionFile::Soundings(rows) => {
             let model = SoundingTableModel {
@@ -711,10 +840,12 @@ pub fn apply_corrections(
                 &ReduceOptions {
                     out_dir,
                     progress: None,
-                    kind: RunKind::Apply(ApplyModel::Soundings(&model)),
+                    kind: RunKind::Apply(ApplyModel::Soundings(&model), corrections),
                     only_files: only,
                 },
-            )
+            )?
         }
-    }
+    };
+    summary.warnings = warnings;
+    Ok(summary)
 }

@@ -22,7 +22,7 @@ use crate::compute::uncertainty::{judge_as_written, tide_budget, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
-use crate::io::numfmt::{push_fixed, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
+use crate::io::numfmt::{push_fixed, round_to, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use crate::io::project::{Delimiter, SoundingsSpec};
 use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
 
@@ -99,16 +99,22 @@ pub enum RunKind<'a> {
     Reduce,
     /// Per-sounding tide correctors with the zoning: `<stem>.correctors.csv`.
     SoundingCorrectors,
-    /// Reduce with tide from a correction file: `<stem>.applied.csv`.
-    Apply(ApplyModel<'a>),
+    /// Reduce with tide from a correction file (the model, and the file named in details):
+    /// `<stem>.applied.csv`.
+    Apply(ApplyModel<'a>, &'a Path),
 }
 
 /// The tide source of an apply run.
 #[derive(Debug, Clone, Copy)]
 #[non_exhaustive]
 pub enum ApplyModel<'a> {
-    /// Per-zone corrector series, by zone index.
-    Zones(&'a [Vec<crate::compute::correctors::Corrector>]),
+    /// Per-zone corrector series by zone index, the longest interval bridged per zone index
+    /// (seconds) and where those steps come from.
+    Zones(
+        &'a [Vec<crate::compute::correctors::Corrector>],
+        &'a [f64],
+        crate::compute::reduce::StepSource,
+    ),
     /// Per-sounding corrections.
     Soundings(&'a crate::compute::correctors::SoundingTableModel),
     /// Per-line series.
@@ -120,7 +126,7 @@ impl RunKind<'_> {
         match self {
             RunKind::Reduce => "reduced",
             RunKind::SoundingCorrectors => "correctors",
-            RunKind::Apply(_) => "applied",
+            RunKind::Apply(..) => "applied",
         }
     }
 }
@@ -221,6 +227,10 @@ pub struct RunSummary {
     pub zones: Vec<ZoneSummary>,
     /// Temporaries of an earlier interrupted run that were removed.
     pub stale_partials_removed: usize,
+    /// What the user should know about the run's inputs (an apply run: the correction file's
+    /// sidecar, provenance and step); omitted when empty.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub warnings: Vec<String>,
     /// QA counts, when uncertainty was computed.
     #[serde(skip)]
     pub qa: Option<QaAccumulator>,
@@ -314,7 +324,7 @@ pub fn run_outputs(
     let what = match kind {
         RunKind::Reduce => "the reduced file",
         RunKind::SoundingCorrectors => "the per-sounding correction file",
-        RunKind::Apply(_) => "the applied file",
+        RunKind::Apply(..) => "the applied file",
     };
     for group in &project.spec.soundings {
         for f in &group.files {
@@ -346,7 +356,11 @@ pub fn run_outputs(
             ("qa-report.html", "the QA report page"),
         ],
         RunKind::SoundingCorrectors => &[],
-        RunKind::Apply(_) => &[("apply-summary.json", "the run summary")],
+        RunKind::Apply(..) => &[
+            ("apply-summary.json", "the run summary"),
+            ("qa-report.json", "the QA report"),
+            ("qa-report.html", "the QA report page"),
+        ],
     };
     for (name, what) in summaries {
         out.push(PlannedOutput {
@@ -450,15 +464,17 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
             let series_model;
             let model: &dyn TideModel = match opts.kind {
                 RunKind::Reduce | RunKind::SoundingCorrectors => &zoning,
-                RunKind::Apply(ApplyModel::Zones(series)) => {
+                RunKind::Apply(ApplyModel::Zones(series, step_s, step_from), _) => {
                     series_model = crate::compute::correctors::ZoneSeriesModel {
                         locator: &locators[*gi],
                         series,
+                        step_s,
+                        step_from,
                     };
                     &series_model
                 }
-                RunKind::Apply(ApplyModel::Soundings(table)) => table,
-                RunKind::Apply(ApplyModel::Lines(lines)) => lines,
+                RunKind::Apply(ApplyModel::Soundings(table), _) => table,
+                RunKind::Apply(ApplyModel::Lines(lines), _) => lines,
             };
             reduce_file(
                 loaded,
@@ -525,6 +541,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         files,
         zones,
         stale_partials_removed: stale,
+        warnings: Vec::new(),
         qa,
         time_range_s,
     })
@@ -575,10 +592,7 @@ fn reduce_file(
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_default(),
-        unc: match kind {
-            RunKind::Apply(_) => None,
-            _ => loaded.uncertainty.as_ref(),
-        },
+        unc: loaded.uncertainty.as_ref(),
         layout,
         zone_ids: loaded.zones.iter().map(|z| z.id.as_str()).collect(),
         gauge_ids: loaded.gauges.iter().map(|g| g.id.as_str()).collect(),
@@ -846,6 +860,15 @@ fn write_corrector_row(
     }
     b.push(b',');
     b.extend_from_slice(status.as_str().as_bytes());
+    match unc_cols {
+        Some((vals, _)) => {
+            for x in &vals[..5] {
+                b.push(b',');
+                push_fixed(b, *x, UNCERTAINTY_DECIMALS);
+            }
+        }
+        None => b.extend_from_slice(b",,,,,"),
+    }
     b.push(b'\n');
 }
 
@@ -950,24 +973,42 @@ fn process_chunk(
                         key = Some((v.t_s, v.line_id.to_string()));
                     }
                     match model.tide_at(v.x, v.y, v.t_s, v.line_id, &mut states) {
-                        TideOutcome::Tide { zone: z, tide_m } => {
+                        TideOutcome::Tide {
+                            zone: z,
+                            tide_m,
+                            carried_u,
+                        } => {
                             zone = Some(z);
                             let tide_m = applied_tide_m(tide_m);
                             let reduced = reduce_depth(v.depth_m, tide_m);
                             tide = Some((tide_m, reduced));
-                            if let Some(u) = unc {
-                                let l = ctx.loaded;
-                                let b = tide_budget(
-                                    &l.zones[z],
-                                    &l.gauges,
-                                    &u.gauge_u,
-                                    &u.zone_u[z],
-                                    &u.gauge_rates,
-                                    v.t_s,
-                                    &states,
-                                );
-                                let comps = b.components_m();
-                                let u_tide = b.u_tide_m();
+                            let l = ctx.loaded;
+                            // The tide's budget: from the gauges, or as a correction file carries
+                            // it (never computed anew for a tide that did not come from them).
+                            let budget = match (unc, ctx.kind) {
+                                (None, _) => None,
+                                (Some(_), RunKind::Apply(..)) => carried_u
+                                    .map(|c| (c.parts_m, c.parts_m.map(|x| x * x), c.u_tide_m)),
+                                (Some(u), _) => {
+                                    let b = tide_budget(
+                                        &l.zones[z],
+                                        &l.gauges,
+                                        &u.gauge_u,
+                                        &u.zone_u[z],
+                                        &u.gauge_rates,
+                                        v.t_s,
+                                        &states,
+                                    );
+                                    // Propagated as written (4 decimals), like the tide:
+                                    // a change of at most 0.05 mm that makes a reduction from a
+                                    // correction file, which holds the written values, give
+                                    // the same TVU, verdicts and QA report.
+                                    let w = |x: f64| round_to(x, UNCERTAINTY_DECIMALS);
+                                    let comps = b.components_m().map(w);
+                                    Some((comps, comps.map(|x| x * x), w(b.u_tide_m())))
+                                }
+                            };
+                            if let (Some(u), Some((comps, bv, u_tide))) = (unc, budget) {
                                 let u_snd = v
                                     .u_depth_m
                                     .unwrap_or_else(|| u.sounding_model.u_m(v.depth_m));
@@ -991,7 +1032,6 @@ fn process_chunk(
                                         .within
                                     }
                                 }));
-                                let bv = b.variances_m2;
                                 let var = [u_snd * u_snd, bv[0], bv[1], bv[2], bv[3], bv[4]];
                                 if let Some(q) = o.qa.as_mut() {
                                     q.add(z, v.line_id, &within, verdict.ratio, &var);
@@ -1041,6 +1081,36 @@ fn process_chunk(
                                 }
                             }
                             SoundingStatus::OutsideZoning
+                        }
+                        TideOutcome::Unbridged {
+                            zone: z,
+                            from_s,
+                            to_s,
+                            step_s,
+                            step_from,
+                        } => {
+                            zone = z;
+                            use std::fmt::Write;
+                            let file = match ctx.kind {
+                                RunKind::Apply(_, path) => path.display().to_string(),
+                                _ => String::new(),
+                            };
+                            let _ = write!(
+                                detail,
+                                "the correction file {} has no row between {} and {} ({} min apart), longer than its step of {} min ({}): the tide is not interpolated across it",
+                                file,
+                                crate::io::timefmt::utc_label(from_s),
+                                crate::io::timefmt::utc_label(to_s),
+                                crate::io::numfmt::round_to((to_s - from_s) / 60.0, 3),
+                                crate::io::numfmt::round_to(step_s / 60.0, 3),
+                                match step_from {
+                                    crate::compute::reduce::StepSource::Sidecar =>
+                                        "stated by its sidecar",
+                                    crate::compute::reduce::StepSource::Series =>
+                                        "the most common interval of its rows; no sidecar states it",
+                                }
+                            );
+                            SoundingStatus::NoGaugeData
                         }
                         TideOutcome::NoCorrection {
                             zone: z,

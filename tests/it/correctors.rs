@@ -142,7 +142,7 @@ fn sidecar_hashes_every_input_and_changes_with_it() {
         v
     };
     let a = run("a");
-    assert_eq!(a["format"], "ebbwise-tide-correctors/2");
+    assert_eq!(a["format"], "ebbwise-tide-correctors/3");
     assert_eq!(a["kind"], "per_zone");
     let roles: Vec<&str> = a["inputs"]
         .as_array()
@@ -203,7 +203,21 @@ fn a_span_without_gauge_data_gives_missing_rows_never_values() {
     ]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let (h, rows) = read_csv(&p.path("c/correctors-zones.csv"));
-    assert_eq!(h, ["zone", "time_utc", "tide_m", "u_tide_m", "status"]);
+    assert_eq!(
+        h,
+        [
+            "zone",
+            "time_utc",
+            "tide_m",
+            "u_tide_m",
+            "status",
+            "u_tide_gauge_m",
+            "u_tide_datum_m",
+            "u_tide_range_m",
+            "u_tide_timing_m",
+            "u_tide_zone_m"
+        ]
+    );
     let z1: Vec<_> = rows.iter().filter(|r| r[0] == "Z1").collect();
     assert_eq!(z1.len(), 53, "23:50 to 04:10 every 5 min: 260 min / 5 + 1");
     for r in &z1 {
@@ -330,7 +344,19 @@ fn per_line_series_round_trip() {
     let (h, rows) = read_csv(&d.path().join("corr/correctors-lines.csv"));
     assert_eq!(
         h,
-        ["line", "time_utc", "zone", "tide_m", "u_tide_m", "status"]
+        [
+            "line",
+            "time_utc",
+            "zone",
+            "tide_m",
+            "u_tide_m",
+            "status",
+            "u_tide_gauge_m",
+            "u_tide_datum_m",
+            "u_tide_range_m",
+            "u_tide_timing_m",
+            "u_tide_zone_m"
+        ]
     );
     assert!(rows.iter().any(|r| r[0] == "A-001") && rows.iter().any(|r| r[0] == "B-001"));
     let o = ebbwise(&[

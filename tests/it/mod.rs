@@ -5,6 +5,7 @@ mod bad_input_suite;
 mod check;
 mod cli;
 mod correctors;
+mod correctors_apply;
 mod crs_reference;
 mod demo_recovery;
 mod harmonics;

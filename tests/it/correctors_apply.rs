@@ -1,0 +1,514 @@
+//! `ebbwise apply` on the demo: holes in correction files are not bridged (per zone with and
+//! without a sidecar, per line, per sounding), a file without sidecar is warned about, and with
+//! uncertainty the applied files and the QA report equal those of `ebbwise reduce`.
+
+use std::path::Path;
+
+use super::{ebbwise, read_csv, repo, stderr};
+
+fn demo() -> String {
+    repo()
+        .join("zoning-demo/project.toml")
+        .to_string_lossy()
+        .into_owned()
+}
+
+fn launch_a() -> String {
+    repo()
+        .join("zoning-demo/soundings/launch-a.csv")
+        .to_string_lossy()
+        .into_owned()
+}
+
+fn s(p: &Path) -> String {
+    p.to_string_lossy().into_owned()
+}
+
+/// Writes a CSV (the test's files have no quoted fields).
+fn write_csv(path: &Path, header: &[String], rows: &[Vec<String>]) {
+    let mut t = header.join(",");
+    t.push('\n');
+    for r in rows {
+        t.push_str(&r.join(","));
+        t.push('\n');
+    }
+    std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+    std::fs::write(path, t).unwrap();
+}
+
+fn col(h: &[String], name: &str) -> usize {
+    h.iter()
+        .position(|x| x == name)
+        .unwrap_or_else(|| panic!("no column {name}"))
+}
+
+/// `2026-06-14T09:30:00.000Z` (a data column) as messages write it, `2026-06-14T09:30:00Z`.
+fn label(t: &str) -> String {
+    t.replace(".000Z", "Z")
+}
+
+/// Runs `ebbwise apply` and returns its stderr (exit 1: the demo always has soundings that are
+/// not reduced).
+fn apply(file: &Path, out: &Path, extra: &[&str]) -> String {
+    let mut args = vec!["apply".to_string(), s(file)];
+    args.extend(extra.iter().map(|x| x.to_string()));
+    args.extend(["--project".into(), demo(), "--out".into(), s(out)]);
+    let a: Vec<&str> = args.iter().map(String::as_str).collect();
+    let o = ebbwise(&a);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    stderr(&o)
+}
+
+fn summary(out: &Path) -> serde_json::Value {
+    serde_json::from_slice(&std::fs::read(out.join("apply-summary.json")).unwrap()).unwrap()
+}
+
+/// The hole test shared by the per-zone and per-line files: with rows of one series removed
+/// (`apart` says how far apart the rows left are), every launch-A sounding strictly inside is then
+/// `no_gauge_data` with the file, both times and the step in its detail, every other row is as
+/// from the whole file, and the summary counts them. Returns the number of soundings in the hole.
+#[allow(clippy::too_many_arguments)]
+fn check_hole(
+    base: &Path,
+    holed_file: &Path,
+    holed_out: &Path,
+    from: &str,
+    to: &str,
+    in_hole: impl Fn(&[String], &[String]) -> bool,
+    (apart, step_phrase): (&str, &str),
+) -> usize {
+    let (h, whole) = read_csv(&base.join("launch-a.applied.csv"));
+    let (h2, holed) = read_csv(&holed_out.join("launch-a.applied.csv"));
+    assert_eq!(h, h2);
+    let (st, det) = (col(&h, "status"), col(&h, "status_detail"));
+    let mut n = 0;
+    for (a, b) in whole.iter().zip(&holed) {
+        if a[st] == "reduced" && in_hole(&h, a) {
+            n += 1;
+            assert_eq!(b[st], "no_gauge_data", "{a:?}");
+            for part in [
+                s(holed_file),
+                label(from),
+                label(to),
+                apart.into(),
+                "step of 1 min".into(),
+                step_phrase.into(),
+            ] {
+                assert!(b[det].contains(&part), "'{}' lacks '{part}'", b[det]);
+            }
+        } else {
+            assert_eq!(a, b, "outside the hole the row is unchanged");
+        }
+    }
+    // Counted like every other status that is not `reduced`.
+    let count = |v: &serde_json::Value, st: &str| {
+        v["files"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["input"].as_str().unwrap().ends_with("launch-a.csv"))
+            .unwrap()["rows_by_status"][st]
+            .as_u64()
+            .unwrap()
+    };
+    let (sw, sh) = (summary(base), summary(holed_out));
+    assert_eq!(
+        count(&sh, "no_gauge_data"),
+        count(&sw, "no_gauge_data") + n as u64
+    );
+    assert_eq!(count(&sh, "reduced"), count(&sw, "reduced") - n as u64);
+    n
+}
+
+/// Removes `before + after` consecutive rows of the series whose `key_col` is `key`: the
+/// `before` rows up to the row at or just before `t` (a data-column time) and the `after` rows
+/// after it; returns the rows left and the times on each side.
+fn cut_hole(
+    h: &[String],
+    rows: &[Vec<String>],
+    (key_col, key): (&str, &str),
+    t: &str,
+    (before, after): (usize, usize),
+) -> (Vec<Vec<String>>, String, String) {
+    let (kc, tc) = (col(h, key_col), col(h, "time_utc"));
+    let idx: Vec<usize> = (0..rows.len()).filter(|&i| rows[i][kc] == key).collect();
+    let k = idx
+        .iter()
+        .rposition(|&i| rows[i][tc].as_str() <= t)
+        .expect("a row before the sounding");
+    assert!(
+        k >= before && k + after + 1 < idx.len(),
+        "the hole fits in the series"
+    );
+    let gone: std::collections::HashSet<usize> =
+        idx[k + 1 - before..=k + after].iter().copied().collect();
+    let kept = (0..rows.len())
+        .filter(|i| !gone.contains(i))
+        .map(|i| rows[i].clone())
+        .collect();
+    (
+        kept,
+        rows[idx[k - before]][tc].clone(),
+        rows[idx[k + after + 1]][tc].clone(),
+    )
+}
+
+/// A reduced sounding of launch A in the middle of the file: (zone, line, time).
+fn middle_sounding(base: &Path) -> (String, String, String) {
+    let (h, rows) = read_csv(&base.join("launch-a.applied.csv"));
+    let r = rows[rows.len() / 2..]
+        .iter()
+        .find(|r| r[col(&h, "status")] == "reduced")
+        .unwrap();
+    (
+        r[col(&h, "zone")].clone(),
+        r[col(&h, "line")].clone(),
+        r[col(&h, "time")].clone(),
+    )
+}
+
+#[test]
+fn a_hole_in_a_per_zone_file_is_not_bridged_with_or_without_sidecar() {
+    let d = tempfile::tempdir().unwrap();
+    let p = |x: &str| d.path().join(x);
+    let o = ebbwise(&[
+        "correctors",
+        &demo(),
+        "--out",
+        &s(&p("c")),
+        "--step-min",
+        "1",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let whole = p("c/correctors-zones.csv");
+    let err = apply(&whole, &p("base"), &[&launch_a()]);
+    assert!(!err.contains("no sidecar"), "{err}");
+    let (zone, _, t) = middle_sounding(&p("base"));
+    let (h, rows) = read_csv(&whole);
+    // 80 rows removed: the rows left on each side are 81 min apart.
+    let (kept, from, to) = cut_hole(&h, &rows, ("zone", &zone), &t, (40, 40));
+    let in_hole = |h: &[String], r: &[String]| {
+        let t = r[col(h, "time")].as_str();
+        r[col(h, "zone")] == zone && t > from.as_str() && t < to.as_str()
+    };
+    // With the sidecar (copied beside the holed file): its step_min is the step.
+    let holed = p("hole/correctors-zones.csv");
+    write_csv(&holed, &h, &kept);
+    std::fs::copy(
+        p("c/correctors-zones.csv.json"),
+        p("hole/correctors-zones.csv.json"),
+    )
+    .unwrap();
+    let err = apply(&holed, &p("out-sidecar"), &[&launch_a()]);
+    assert!(!err.contains("no sidecar"), "{err}");
+    let n = check_hole(
+        &p("base"),
+        &holed,
+        &p("out-sidecar"),
+        &from,
+        &to,
+        in_hole,
+        ("81 min apart", "stated by its sidecar"),
+    );
+    eprintln!("per-zone hole {from} to {to} in zone {zone}: {n} soundings not reduced");
+    assert!(n > 100, "the hole holds soundings: {n}");
+    // Without a sidecar: the step is the rows' most common interval, and apply warns.
+    let bare = p("bare/correctors-zones.csv");
+    write_csv(&bare, &h, &kept);
+    let err = apply(&bare, &p("out-bare"), &[&launch_a()]);
+    let n2 = check_hole(
+        &p("base"),
+        &bare,
+        &p("out-bare"),
+        &from,
+        &to,
+        in_hole,
+        ("81 min apart", "the most common interval of its rows"),
+    );
+    assert_eq!(n, n2);
+    let warnings = summary(&p("out-bare"))["warnings"].clone();
+    for w in ["has no sidecar", "no stated step"] {
+        assert!(err.contains("warning:") && err.contains(w), "{err}");
+        assert!(
+            warnings
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|x| x.as_str().unwrap().contains(w)),
+            "{warnings}"
+        );
+    }
+    // With the sidecar the summary has no warnings at all.
+    assert!(summary(&p("out-sidecar")).get("warnings").is_none());
+}
+
+#[test]
+fn a_hole_in_a_per_line_file_is_not_bridged() {
+    let d = tempfile::tempdir().unwrap();
+    let p = |x: &str| d.path().join(x);
+    let o = ebbwise(&["correctors", &demo(), "--out", &s(&p("c")), "--per-line"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let whole = p("c/correctors-lines.csv");
+    apply(&whole, &p("base"), &[&launch_a()]);
+    // The demo's lines last at most 34 min: rows 07:31 to 08:01 of line A-001 removed leave
+    // rows 32 min apart.
+    let line = "A-001";
+    let (h, rows) = read_csv(&whole);
+    let (kept, from, to) = cut_hole(
+        &h,
+        &rows,
+        ("line", line),
+        "2026-06-14T07:31:00.000Z",
+        (1, 30),
+    );
+    let holed = p("hole/correctors-lines.csv");
+    write_csv(&holed, &h, &kept);
+    std::fs::copy(
+        p("c/correctors-lines.csv.json"),
+        p("hole/correctors-lines.csv.json"),
+    )
+    .unwrap();
+    apply(&holed, &p("out"), &[&launch_a()]);
+    // 32 min between the rows left: longer than the step and than the demo gauges'
+    // max_gap_min of 30.
+    let n = check_hole(
+        &p("base"),
+        &holed,
+        &p("out"),
+        &from,
+        &to,
+        |h, r| {
+            let t = r[col(h, "time")].as_str();
+            r[col(h, "line")] == line && t > from.as_str() && t < to.as_str()
+        },
+        ("32 min apart", "stated by its sidecar"),
+    );
+    eprintln!("per-line hole {from} to {to} on line {line}: {n} soundings not reduced");
+    assert!(n > 100, "{n}");
+}
+
+#[test]
+fn a_hole_in_a_per_sounding_file_leaves_those_soundings_unreduced() {
+    let d = tempfile::tempdir().unwrap();
+    let p = |x: &str| d.path().join(x);
+    let o = ebbwise(&[
+        "correctors",
+        &demo(),
+        "--out",
+        &s(&p("c")),
+        "--per-sounding",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let whole = p("c/launch-a.correctors.csv");
+    apply(&whole, &p("base"), &[&launch_a()]);
+    let (_, line, t) = middle_sounding(&p("base"));
+    // Rows of that line over the 80 minutes after the sounding's time (1-s soundings: far
+    // longer than the gauges' max_gap_min of 30).
+    let (h, rows) = read_csv(&whole);
+    let (lc, tc) = (col(&h, "line"), col(&h, "time_utc"));
+    let t0: String = t.clone();
+    let end = {
+        // 80 minutes later, as text: the demo's launch A runs within one day.
+        let (hh, mm): (u32, u32) = (t0[11..13].parse().unwrap(), t0[14..16].parse().unwrap());
+        let m = hh * 60 + mm + 80;
+        format!("{}{:02}:{:02}{}", &t0[..11], m / 60, m % 60, &t0[16..])
+    };
+    let gone = |r: &Vec<String>| r[lc] == line && r[tc] >= t0 && r[tc] < end;
+    let kept: Vec<Vec<String>> = rows.iter().filter(|r| !gone(r)).cloned().collect();
+    let n_gone = rows.len() - kept.len();
+    let holed = p("hole/launch-a.correctors.csv");
+    write_csv(&holed, &h, &kept);
+    std::fs::copy(
+        p("c/launch-a.correctors.csv.json"),
+        p("hole/launch-a.correctors.csv.json"),
+    )
+    .unwrap();
+    apply(&holed, &p("out"), &[&launch_a()]);
+    let (ha, a) = read_csv(&p("base/launch-a.applied.csv"));
+    let (_, b) = read_csv(&p("out/launch-a.applied.csv"));
+    let (st, det, tt, ll) = (
+        col(&ha, "status"),
+        col(&ha, "status_detail"),
+        col(&ha, "time"),
+        col(&ha, "line"),
+    );
+    let mut n = 0;
+    for (x, y) in a.iter().zip(&b) {
+        if x[ll] == line && x[tt] >= t0 && x[tt] < end {
+            if x[st] == "reduced" {
+                n += 1;
+            }
+            assert_eq!(y[st], "no_gauge_data", "{x:?}");
+            assert!(
+                y[det].contains("no row for this line and time"),
+                "{}",
+                y[det]
+            );
+        } else {
+            assert_eq!(x, y);
+        }
+    }
+    eprintln!("per-sounding hole: {n_gone} rows removed, {n} reduced soundings no longer reduced");
+    assert!(n > 1000, "{n}");
+}
+
+#[test]
+fn apply_with_uncertainty_equals_reduce_in_every_column_and_the_qa_report() {
+    let d = tempfile::tempdir().unwrap();
+    let p = |x: &str| d.path().join(x);
+    let o = ebbwise(&[
+        "reduce",
+        &demo(),
+        "--out",
+        &s(&p("direct")),
+        "--no-progress",
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let o = ebbwise(&[
+        "correctors",
+        &demo(),
+        "--out",
+        &s(&p("c")),
+        "--per-sounding",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    // One per-sounding file for both launches (their lines differ, so the keys do).
+    let (h, mut rows) = read_csv(&p("c/launch-a.correctors.csv"));
+    let (hb, rows_b) = read_csv(&p("c/launch-b.correctors.csv"));
+    assert_eq!(h, hb);
+    rows.extend(rows_b);
+    let merged = p("m/both.correctors.csv");
+    write_csv(&merged, &h, &rows);
+    let err = apply(&merged, &p("sound"), &[]);
+    // The merged file has no sidecar: warned on stderr and in the summary.
+    assert!(
+        err.contains("warning:") && err.contains("has no sidecar"),
+        "{err}"
+    );
+    assert!(summary(&p("sound"))["warnings"][0]
+        .as_str()
+        .unwrap()
+        .contains("has no sidecar"));
+    let o = apply(&p("c/correctors-zones.csv"), &p("zones"), &[]);
+    assert!(!o.contains("has no sidecar"), "{o}");
+    for name in ["launch-a", "launch-b"] {
+        let (hd, direct) = read_csv(&p(&format!("direct/{name}.reduced.csv")));
+        let (hs, sound) = read_csv(&p(&format!("sound/{name}.applied.csv")));
+        let (hz, zones) = read_csv(&p(&format!("zones/{name}.applied.csv")));
+        assert_eq!(hd, hs, "{name}: same columns, uncertainty columns included");
+        assert_eq!(hd, hz);
+        assert!(hd.contains(&"u95_tvu_m".to_string()));
+        let (st, det) = (col(&hd, "status"), col(&hd, "status_detail"));
+        // Per-sounding file: every column equal; the reason of a row not reduced names the
+        // correction file instead of the gauge.
+        let mut reduced = 0;
+        for (a, b) in direct.iter().zip(&sound) {
+            for c in 0..hd.len() {
+                if c != det || a[st] == "reduced" {
+                    assert_eq!(a[c], b[c], "{name}: column {}", hd[c]);
+                }
+            }
+            reduced += usize::from(a[st] == "reduced");
+        }
+        assert!(reduced > 30_000, "{name}: {reduced}");
+        // Per-zone file (1-min step): the tide and each uncertainty interpolated linearly
+        // between rows; bounded as documented in docs/correctors.md (tide within 1 mm,
+        // uncertainties within 0.5 mm, verdicts differing only where u95 or the allowed
+        // value as written differs).
+        let mut worst = vec![0.0f64; hd.len()];
+        let mut verdicts = 0;
+        for (a, b) in direct.iter().zip(&zones) {
+            assert_eq!(a[st], b[st], "{name}: same statuses");
+            if a[st] != "reduced" {
+                continue;
+            }
+            for c in col(&hd, "tide_m")..hd.len() {
+                if let (Ok(x), Ok(y)) = (a[c].parse::<f64>(), b[c].parse::<f64>()) {
+                    worst[c] = worst[c].max((x - y).abs());
+                }
+            }
+            let w = col(&hd, "within_order");
+            if a[w] != b[w] {
+                verdicts += 1;
+                let (u, al) = (col(&hd, "u95_tvu_m"), col(&hd, "allowed_u95_tvu_m"));
+                assert!(a[u] != b[u] || a[al] != b[al], "{name}: {a:?} {b:?}");
+            }
+        }
+        for (c, w) in worst.iter().enumerate() {
+            if *w > 0.0 {
+                eprintln!("{name}: per-zone file, worst {} difference {w:.4}", hd[c]);
+            }
+            let bound = match hd[c].as_str() {
+                "tide_m" | "reduced_depth_m" => 0.001,
+                "u95_tvu_m" | "allowed_u95_tvu_m" => 0.001,
+                _ => 0.0005,
+            };
+            assert!(*w <= bound, "{name}: {} {w}", hd[c]);
+        }
+        eprintln!("{name}: per-zone file, {verdicts} within_order verdicts differ");
+    }
+    // The QA report from the per-sounding file is the reduction's, field for field.
+    let qa = |dir: &str| -> serde_json::Value {
+        serde_json::from_slice(&std::fs::read(p(&format!("{dir}/qa-report.json"))).unwrap())
+            .unwrap()
+    };
+    assert_eq!(qa("direct"), qa("sound"));
+    assert!(p("sound/qa-report.html").exists());
+    // From the per-zone file the survey's counts agree within the verdicts that differ.
+    let (a, b) = (qa("direct"), qa("zones"));
+    assert_eq!(a["survey"]["soundings"], b["survey"]["soundings"]);
+    assert_eq!(a["achieved_order"], b["achieved_order"]);
+}
+
+#[test]
+fn a_file_without_uncertainty_components_gives_no_uncertainty_or_is_refused_when_asked() {
+    let d = tempfile::tempdir().unwrap();
+    let p = |x: &str| d.path().join(x);
+    let o = ebbwise(&["correctors", &demo(), "--out", &s(&p("c"))]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    // The earlier layout: the same file without the five component columns.
+    let (h, rows) = read_csv(&p("c/correctors-zones.csv"));
+    let keep = col(&h, "status") + 1;
+    let old = p("old/correctors-zones.csv");
+    write_csv(
+        &old,
+        &h[..keep],
+        &rows.iter().map(|r| r[..keep].to_vec()).collect::<Vec<_>>(),
+    );
+    let err = apply(&old, &p("out"), &[]);
+    assert!(err.contains("have no u_tide_m or not all five"), "{err}");
+    let (ha, _) = read_csv(&p("out/launch-a.applied.csv"));
+    assert!(!ha.contains(&"u_tvu_m".to_string()), "{ha:?}");
+    assert!(!p("out/qa-report.json").exists());
+    // Read back, the tide is the same as from the full file.
+    let _ = apply(
+        &p("c/correctors-zones.csv"),
+        &p("full"),
+        &["--no-uncertainty"],
+    );
+    let tide = |dir: &str| {
+        let (h, r) = read_csv(&p(&format!("{dir}/launch-a.applied.csv")));
+        let c = col(&h, "tide_m");
+        r.into_iter().map(|x| x[c].clone()).collect::<Vec<_>>()
+    };
+    assert_eq!(tide("out"), tide("full"));
+    let (hf, _) = read_csv(&p("full/launch-a.applied.csv"));
+    assert!(!hf.contains(&"u_tvu_m".to_string()), "--no-uncertainty");
+    // Asked for (--order), uncertainty the file does not carry is refused.
+    let o = ebbwise(&[
+        "apply",
+        &s(&old),
+        "--project",
+        &demo(),
+        "--out",
+        &s(&p("asked")),
+        "--order",
+        "1a",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("uncertainty cannot be carried"),
+        "{}",
+        stderr(&o)
+    );
+}
