@@ -32,6 +32,10 @@ pub struct Args {
     /// has an `[uncertainty]` section and the file carries `u_tide_m`.
     #[arg(long)]
     no_uncertainty: bool,
+    /// Apply the file even though the project has changed since it was made in inputs that
+    /// change a tide or its uncertainty; the differences are written into apply-summary.json.
+    #[arg(long)]
+    accept_changed_inputs: bool,
 }
 
 pub fn run(a: Args) -> anyhow::Result<Outcome> {
@@ -61,6 +65,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
         a.soundings,
         out_dir.clone(),
         a.order.is_some(),
+        a.accept_changed_inputs,
     )?;
     let summary_path = out_dir.join("apply-summary.json");
     write_atomic(&summary_path, &serde_json::to_vec_pretty(&summary)?)?;

@@ -24,7 +24,9 @@ use sha2::{Digest, Sha256};
 use super::error::{IoError, Position};
 use super::numfmt::{push_fixed_str, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use super::timefmt::{parse_time, push_utc, TimeFormat};
-use crate::compute::correctors::{sounding_key, Corrector, CorrectorStatus, SoundingCorrection};
+use crate::compute::correctors::{
+    sounding_key, Corrector, CorrectorStatus, KeyClashes, SoundingCorrection,
+};
 use crate::compute::reduce::CarriedTideU;
 
 /// The five components of `u_tide_m`, appended after `status` in every correction file (layout
@@ -219,6 +221,35 @@ fn u_parts(
 pub fn read_correction_file(path: &Path) -> Result<CorrectionFile, IoError> {
     let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
     parse_correction_file(std::io::BufReader::new(f), path)
+}
+
+/// Counts the rows of a per-sounding correction file that share a line and time with a row of
+/// another zone ([`KeyClashes`]): the rows [`parse_correction_file`] refuses.
+pub fn sounding_key_clashes(path: &Path) -> Result<KeyClashes, IoError> {
+    let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .from_reader(std::io::BufReader::new(f));
+    let mut zones: HashMap<String, usize> = HashMap::new();
+    let mut clashes = KeyClashes::default();
+    let mut rec = csv::StringRecord::new();
+    while rdr
+        .read_record(&mut rec)
+        .map_err(|e| super::gauge_csv::csv_error(e, path))?
+    {
+        if rec.len() < 5 || rec[1].is_empty() {
+            continue;
+        }
+        let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
+            .map_err(|m| IoError::content(Position::file(path).line(line).field("time_utc"), m))?;
+        let zone = (!rec[4].is_empty()).then(|| {
+            let n = zones.len();
+            *zones.entry(rec[4].to_string()).or_insert(n)
+        });
+        clashes.add(&rec[0], t, zone);
+    }
+    Ok(clashes)
 }
 
 /// Parses a correction file from a reader, as if read from `path`.

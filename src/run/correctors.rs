@@ -7,6 +7,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::load::{output_clashes, Loaded, PlannedOutput};
+use super::provenance::{differences, tide_inputs, InputDifference};
 use super::reduce::{reduce_project, run_outputs, ApplyModel, ReduceOptions, RunKind, RunSummary};
 use crate::compute::correctors::{
     modal_step_s, zone_corrector_at, zone_correctors, Corrector, CorrectorUncertainty, LineSeries,
@@ -16,7 +17,8 @@ use crate::compute::reduce::StepSource;
 use crate::io::atomic::write_atomic;
 use crate::io::correctors_file::{
     push_line_row, push_zone_rows, read_correction_file, sha256_file, sounding_corrections,
-    CorrectionFile, CORRECTORS_FORMAT, LINE_CORRECTOR_COLUMNS, ZONE_CORRECTOR_COLUMNS,
+    sounding_key_clashes, CorrectionFile, CORRECTORS_FORMAT, LINE_CORRECTOR_COLUMNS,
+    ZONE_CORRECTOR_COLUMNS,
 };
 use crate::io::error::{IoError, Position};
 use crate::io::soundings::{lines_of, ChunkReader, Fields, SoundingLayout};
@@ -162,6 +164,9 @@ pub struct Provenance {
     pub span_utc: Option<(String, String)>,
     /// Column meanings.
     pub columns: Vec<(String, String)>,
+    /// Every input of the project in three parts (`tide`, `uncertainty`, `other`), as
+    /// [`crate::run::provenance::tide_inputs`] records them: what `ebbwise apply` compares.
+    pub project_inputs: serde_json::Value,
     /// The caution that goes with every result.
     pub caution: &'static str,
 }
@@ -325,6 +330,7 @@ fn provenance(
         step_min: None,
         span_utc: None,
         columns: Vec::new(),
+        project_inputs: super::provenance::tide_inputs(loaded)?,
         caution: crate::CAUTION,
     })
 }
@@ -491,6 +497,7 @@ pub fn write_correctors(
         prov.columns = column_meanings(&LINE_CORRECTOR_COLUMNS);
         written.push(write_sidecar(&path, &prov)?);
     }
+    let mut clash_warnings = Vec::new();
     let soundings = if opts.per_sounding {
         let run = reduce_project(
             loaded,
@@ -506,12 +513,22 @@ pub fn write_correctors(
             prov.columns = column_meanings(&crate::run::reduce::SOUNDING_CORRECTOR_COLUMNS);
             written.push(f.output.clone());
             written.push(write_sidecar(&f.output, &prov)?);
+            let clashes = sounding_key_clashes(&f.output)?;
+            if let Some((line, t)) = &clashes.first {
+                clash_warnings.push(format!(
+                    "{}: {} row(s) share a line and time with a row of another zone ({} line-and-time key(s), first line '{line}' at {}), as the beams of a ping across a zone edge do: `ebbwise apply` will refuse this file; use the per-zone correction file (correctors-zones.csv) for these soundings",
+                    f.output.display(),
+                    clashes.soundings,
+                    clashes.keys,
+                    crate::io::timefmt::utc_label(*t)
+                ));
+            }
         }
         Some(run)
     } else {
         None
     };
-    let mut warnings = Vec::new();
+    let mut warnings = clash_warnings;
     for g in &loaded.project.spec.gauges {
         if opts.step_min > g.max_gap_min {
             warnings.push(format!(
@@ -552,52 +569,101 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
         .collect()
 }
 
-/// Compares the sidecar of a correction file (`<file>.json`, when present) with the project's
-/// current inputs: one message per input whose SHA-256 differs or that the project no longer has.
-/// A file without sidecar gives one message saying its provenance cannot be checked.
-pub fn provenance_mismatches(loaded: &Loaded, corrections: &Path) -> Vec<String> {
+/// What comparing a correction file's sidecar with the project found ([`provenance_check`]).
+#[derive(Debug, Default)]
+pub struct ProvenanceCheck {
+    /// Inputs that differ and can change a tide (or, when uncertainty is carried, its
+    /// uncertainty): `apply` refuses unless they are accepted.
+    pub refused: Vec<InputDifference>,
+    /// Inputs that differ but change neither the tide nor the uncertainty carried: named only.
+    pub named: Vec<InputDifference>,
+    /// Other things to say (no sidecar, a sidecar of an earlier layout).
+    pub notes: Vec<String>,
+}
+
+/// Compares the sidecar of a correction file (`<file>.json`) with the project's current inputs
+/// ([`crate::run::provenance::tide_inputs`]), item by item. `tide` differences are refused;
+/// `uncertainty` differences are refused when `uncertainty_carried`, else named; `other`
+/// differences (name, output folder, soundings groups, gauge names and positions, paths) are
+/// named. A sidecar without recorded inputs (an earlier layout) is compared by the SHA-256 of
+/// the zoning and the gauge records only, and a note says so; a file without sidecar gives a
+/// note that its provenance cannot be checked.
+pub fn provenance_check(
+    loaded: &Loaded,
+    corrections: &Path,
+    uncertainty_carried: bool,
+) -> Result<ProvenanceCheck, IoError> {
+    let mut out = ProvenanceCheck::default();
     let sidecar = sidecar_path(corrections);
     let Ok(bytes) = std::fs::read(&sidecar) else {
-        return vec![format!(
+        out.notes.push(format!(
             "{} has no sidecar {}: its provenance and step cannot be checked against this project",
             corrections.display(),
             sidecar.display()
-        )];
+        ));
+        return Ok(out);
     };
-    let Ok(v) = serde_json::from_slice::<serde_json::Value>(&bytes) else {
-        return vec![format!("{}: not valid JSON", sidecar.display())];
-    };
-    let p = &loaded.project;
-    let mut current: Vec<(String, &Path)> = vec![
-        ("project".into(), p.path.as_path()),
-        ("zoning".into(), p.spec.zoning.as_path()),
-    ];
-    for g in &p.spec.gauges {
-        current.push((format!("gauge record '{}'", g.id), g.record.as_path()));
+    let v: serde_json::Value = serde_json::from_slice(&bytes)
+        .map_err(|e| IoError::content(Position::file(&sidecar), format!("not valid JSON: {e}")))?;
+    let current = tide_inputs(loaded)?;
+    if v["project_inputs"].is_object() {
+        for d in differences(&v["project_inputs"], &current) {
+            let refuse = d.part == "tide" || (d.part == "uncertainty" && uncertainty_carried);
+            if refuse {
+                out.refused.push(d);
+            } else {
+                out.named.push(d);
+            }
+        }
+        if out.refused.is_empty() && out.named.is_empty() {
+            let recorded = v["inputs"]
+                .as_array()
+                .into_iter()
+                .flatten()
+                .find(|i| i["role"] == "project")
+                .and_then(|i| i["sha256"].as_str());
+            if recorded
+                .is_some_and(|h| sha256_file(&loaded.project.path).ok().as_deref() != Some(h))
+            {
+                out.notes.push(format!(
+                    "the project file {} differs from the one the correction file was made with, but in nothing that changes a tide or its uncertainty (a comment or layout)",
+                    loaded.project.path.display()
+                ));
+            }
+        }
+        return Ok(out);
     }
-    let mut out = Vec::new();
+    out.notes.push(format!(
+        "{} records no project inputs (an earlier layout): only the zoning and the gauge records are compared (re-run `ebbwise correctors` for a full check)",
+        sidecar.display()
+    ));
+    let tide = &current["tide"];
     for input in v["inputs"].as_array().into_iter().flatten() {
         let (Some(role), Some(hash)) = (input["role"].as_str(), input["sha256"].as_str()) else {
             continue;
         };
-        if role == "soundings" || role == "project" {
-            // Soundings may legitimately be applied file by file; the project file may differ
-            // in output options only. Both are reported by the data they lead to.
+        let now = if role == "zoning" {
+            tide["zoning_sha256"].as_str().map(str::to_string)
+        } else if let Some(id) = role
+            .strip_prefix("gauge record '")
+            .and_then(|r| r.strip_suffix('\''))
+        {
+            tide["gauges"][id]["record_sha256"]
+                .as_str()
+                .map(str::to_string)
+        } else {
             continue;
-        }
-        match current.iter().find(|(r, _)| r == role) {
-            None => out.push(format!("the correction file was made with a {role} that this project does not have")),
-            Some((_, path)) => match sha256_file(path) {
-                Ok(h) if h == hash => {}
-                Ok(_) => out.push(format!(
-                    "the correction file was made from a different {role} than {} (SHA-256 differs): re-run `ebbwise correctors`",
-                    path.display()
-                )),
-                Err(e) => out.push(e.to_string()),
-            },
+        };
+        if now.as_deref() != Some(hash) {
+            out.refused.push(InputDifference {
+                part: "tide",
+                item: format!("{role} (SHA-256)"),
+                recorded: hash.to_string(),
+                current: now.unwrap_or_else(|| "absent".into()),
+            });
         }
     }
-    out
+    Ok(out)
 }
 
 /// The sidecar of a correction file, `<file>.json`.
@@ -664,6 +730,7 @@ pub fn apply_corrections(
     soundings: Vec<PathBuf>,
     out_dir: PathBuf,
     uncertainty_asked: bool,
+    accept_changed_inputs: bool,
 ) -> Result<RunSummary, IoError> {
     let extra = [
         (corrections.to_path_buf(), "the correction file".to_string()),
@@ -684,7 +751,7 @@ pub fn apply_corrections(
         &extra,
     )?;
     let file = read_correction_file(corrections)?;
-    let mut warnings = provenance_mismatches(loaded, corrections);
+    let mut warnings = Vec::new();
     if loaded.uncertainty.is_some() {
         let (with_tide, without_u) = carried_uncertainty(&file);
         if without_u > 0 {
@@ -706,6 +773,27 @@ pub fn apply_corrections(
             loaded.uncertainty = None;
         }
     }
+    let check = provenance_check(loaded, corrections, loaded.uncertainty.is_some())?;
+    if !check.refused.is_empty() && !accept_changed_inputs {
+        let items: Vec<String> = check.refused.iter().map(|d| format!("  {d}")).collect();
+        return Err(IoError::content(
+            Position::file(&sidecar_path(corrections)),
+            format!(
+                "the project has changed since the correction file was made, in {} input(s) that change a tide or its uncertainty:\n{}\nre-run `ebbwise correctors {}` (with the options the file was made with) to make the file again, or give --accept-changed-inputs to apply it as it is (the differences are then written into apply-summary.json)",
+                check.refused.len(),
+                items.join("\n"),
+                loaded.project.path.display()
+            ),
+        ));
+    }
+    warnings.extend(check.notes);
+    for d in &check.refused {
+        warnings.push(format!("accepted with --accept-changed-inputs: {d}"));
+    }
+    for d in &check.named {
+        warnings.push(format!("differs, but changes no tide: {d}"));
+    }
+    let accepted = check.refused;
     let loaded: &Loaded = loaded;
     let stated_step_s = sidecar_step_s(corrections);
     let step_from = if stated_step_s.is_some() {
@@ -847,5 +935,6 @@ pub fn apply_corrections(
         }
     };
     summary.warnings = warnings;
+    summary.accepted_input_differences = accepted;
     Ok(summary)
 }

@@ -4,9 +4,10 @@
 //! SHA-256 and each zone's form, mean level and feeds), every gauge's record (SHA-256), datum
 //! relation, mean level, units, reading of the record, gap, band, filter and interpolation
 //! settings, the project's naive-time offset, quality control and interpolation settings — apart
-//! from the uncertainty inputs (which change a tide's uncertainty, not the tide) and from what
-//! changes neither (the project's name, output folder and soundings groups, gauge names and
-//! positions, file paths). [`differences`] compares two such records item by item.
+//! from the tide's uncertainty inputs (the `default_u_` values and each gauge's and zone's own,
+//! which change a tide's uncertainty, not the tide) and from what changes neither (the project's
+//! name, output folder and soundings groups, gauge names and positions, file paths, and the
+//! survey order, acceptance share and sounding model, which `apply` applies afresh). [`differences`] compares two such records item by item.
 //!
 //! Paths are left out on purpose: a project folder copied elsewhere makes the same tides, and the
 //! files' contents are compared by their SHA-256.
@@ -24,19 +25,20 @@ pub const PARTS: [&str; 3] = ["tide", "uncertainty", "other"];
 /// (changes a tide's uncertainty) and `other` (changes neither).
 pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
     let spec = &loaded.project.spec;
-    let mut gauges = Map::new();
-    let mut gauge_u = Map::new();
-    let mut gauge_other = Map::new();
+    let (mut gauges, mut gauge_u, mut gauge_other) = (Vec::new(), Vec::new(), Vec::new());
     for (i, g) in spec.gauges.iter().enumerate() {
         let mut v = serde_json::to_value(g).expect("a gauge spec serialises");
         let o = v.as_object_mut().expect("a gauge spec is a table");
         let mut other = Map::new();
-        for k in ["name", "lon", "lat", "record", "id"] {
+        o.remove("id");
+        for k in ["name", "lon", "lat", "record"] {
             if let Some(x) = o.remove(k) {
                 other.insert(k.to_string(), x);
             }
         }
         let mut u = Map::new();
+        u.insert("gauge".into(), json!(g.id));
+        other.insert("gauge".into(), json!(g.id));
         for k in ["u_gauge_m", "u_datum_m"] {
             if let Some(x) = o.remove(k) {
                 u.insert(k.to_string(), x);
@@ -49,35 +51,50 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
                 serde_json::to_value(m).expect("a method serialises"),
             );
         }
-        gauges.insert(g.id.clone(), v);
-        gauge_u.insert(g.id.clone(), Value::Object(u));
-        gauge_other.insert(g.id.clone(), Value::Object(other));
+        let mut keyed = Map::new();
+        keyed.insert("gauge".into(), json!(g.id));
+        keyed.extend(o.clone());
+        gauges.push(Value::Object(keyed));
+        gauge_u.push(Value::Object(u));
+        gauge_other.push(Value::Object(other));
     }
-    let mut zones = Map::new();
-    let mut zone_u = Map::new();
+    let (mut zones, mut zone_u) = (Vec::new(), Vec::new());
     for (z, zs) in loaded.zones.iter().zip(&loaded.zoning.zones) {
-        zones.insert(
-            z.id.clone(),
-            json!({
-                "mean_level_form": z.mean_level.label(),
-                "mean_level_above_datum_m": zs.mean_level_above_datum_m,
-                "feeds": z.feeds.iter().map(|f| json!({
-                    "gauge": loaded.gauges[f.gauge].id,
-                    "weight": f.weight,
-                    "time_corrector_min": f.time_corrector_min,
-                    "range_ratio": f.range_ratio,
-                })).collect::<Vec<_>>(),
-            }),
-        );
-        zone_u.insert(
-            z.id.clone(),
-            json!({
-                "u_time_corrector_min": zs.u_time_corrector_min,
-                "u_range_ratio": zs.u_range_ratio,
-                "u_zone_m": zs.u_zone_m,
-                "u_datum_m": zs.u_datum_m,
-            }),
-        );
+        zones.push(json!({
+            "zone": z.id,
+            "mean_level_form": z.mean_level.label(),
+            "mean_level_above_datum_m": zs.mean_level_above_datum_m,
+            "feeds": z.feeds.iter().map(|f| json!({
+                "gauge": loaded.gauges[f.gauge].id,
+                "weight": f.weight,
+                "time_corrector_min": f.time_corrector_min,
+                "range_ratio": f.range_ratio,
+            })).collect::<Vec<_>>(),
+        }));
+        zone_u.push(json!({
+            "zone": z.id,
+            "u_time_corrector_min": zs.u_time_corrector_min,
+            "u_range_ratio": zs.u_range_ratio,
+            "u_zone_m": zs.u_zone_m,
+            "u_datum_m": zs.u_datum_m,
+        }));
+    }
+    // The tide's uncertainty inputs (the `default_u_` values) are what a correction file's
+    // `u_tide_m` was made from; the order, acceptance share and sounding model are applied
+    // afresh by `apply`.
+    let (mut u_tide, mut u_other) = (Map::new(), Map::new());
+    if let Some(Value::Object(u)) = spec
+        .uncertainty
+        .as_ref()
+        .map(|u| serde_json::to_value(u).expect("uncertainty settings serialise"))
+    {
+        for (k, x) in u {
+            if k.starts_with("default_u_") {
+                u_tide.insert(k, x);
+            } else {
+                u_other.insert(k, x);
+            }
+        }
     }
     Ok(json!({
         "tide": {
@@ -89,11 +106,12 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
             "interpolation": serde_json::to_value(&spec.interpolation).expect("interpolation settings serialise"),
         },
         "uncertainty": {
-            "project": serde_json::to_value(&spec.uncertainty).expect("uncertainty settings serialise"),
+            "project": u_tide,
             "gauges": gauge_u,
             "zones": zone_u,
         },
         "other": {
+            "uncertainty": u_other,
             "name": spec.name,
             "output": serde_json::to_value(&spec.output).expect("output settings serialise"),
             "soundings": serde_json::to_value(&spec.soundings).expect("soundings groups serialise"),
@@ -118,10 +136,22 @@ pub struct InputDifference {
 
 impl std::fmt::Display for InputDifference {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let parts: Vec<&str> = self.item.splitn(3, '.').collect();
+        let item = match parts[..] {
+            ["gauges", id, rest] => format!("gauge '{id}' {rest}"),
+            ["zones", id, rest] => format!("zone '{id}' {rest}"),
+            _ => self.item.clone(),
+        };
         write!(
             f,
-            "{}: {} in the correction file, {} now",
-            self.item, self.recorded, self.current
+            "{} {item}: {} in the correction file, {} now",
+            match self.part {
+                "tide" => "(tide)",
+                "uncertainty" => "(uncertainty)",
+                _ => "(neither)",
+            },
+            self.recorded,
+            self.current
         )
     }
 }
@@ -142,8 +172,24 @@ fn leaves(prefix: &str, v: &Value, out: &mut Vec<(String, String)>) {
             }
         }
         Value::Array(a) if !a.is_empty() => {
+            // Entries named by their `zone` or `gauge` member when every entry has a distinct
+            // one (`gauges.orlick.units`), else by index.
+            let id = |x: &Value| {
+                x.get("zone")
+                    .or_else(|| x.get("gauge"))
+                    .and_then(Value::as_str)
+                    .map(str::to_string)
+            };
+            let ids: Option<Vec<String>> = a.iter().map(id).collect();
+            let distinct = ids.as_ref().is_some_and(|v| {
+                v.iter().collect::<std::collections::BTreeSet<_>>().len() == v.len()
+            });
             for (k, x) in a.iter().enumerate() {
-                leaves(&join(&k.to_string()), x, out);
+                let name = match (&ids, distinct) {
+                    (Some(v), true) => v[k].clone(),
+                    _ => k.to_string(),
+                };
+                leaves(&join(&name), x, out);
             }
         }
         other => out.push((prefix.to_string(), other.to_string())),

@@ -231,6 +231,10 @@ pub struct RunSummary {
     /// sidecar, provenance and step); omitted when empty.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub warnings: Vec<String>,
+    /// Inputs that differ from those a correction file was made with and that were accepted
+    /// with `--accept-changed-inputs` (an apply run); omitted when empty.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub accepted_input_differences: Vec<crate::run::provenance::InputDifference>,
     /// QA counts, when uncertainty was computed.
     #[serde(skip)]
     pub qa: Option<QaAccumulator>,
@@ -542,6 +546,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         zones,
         stale_partials_removed: stale,
         warnings: Vec::new(),
+        accepted_input_differences: Vec::new(),
         qa,
         time_range_s,
     })

@@ -392,42 +392,6 @@ fn per_line_series_round_trip() {
 }
 
 #[test]
-fn apply_warns_when_the_inputs_changed_since_the_correction_file_was_made() {
-    let p =
-        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
-    let c = p.path("c").to_string_lossy().into_owned();
-    assert_eq!(
-        ebbwise(&["correctors", &p.project(), "--out", &c])
-            .status
-            .code(),
-        Some(0)
-    );
-    let file = p
-        .path("c/correctors-zones.csv")
-        .to_string_lossy()
-        .into_owned();
-    let o = ebbwise(&["apply", &file, "--project", &p.project()]);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
-    assert!(!stderr(&o).contains("warning:"), "{}", stderr(&o));
-    assert!(stderr(&o).starts_with("ebbwise apply: "), "{}", stderr(&o));
-    let g = std::fs::read_to_string(p.path("g1.csv"))
-        .unwrap()
-        .replacen("1.000", "1.001", 1);
-    p.write("g1.csv", &g);
-    let o = ebbwise(&["apply", &file, "--project", &p.project()]);
-    assert!(
-        stderr(&o).contains(
-            "warning: the correction file was made from a different gauge record 'g1' than"
-        ),
-        "{}",
-        stderr(&o)
-    );
-    std::fs::remove_file(p.path("c/correctors-zones.csv.json")).unwrap();
-    let o = ebbwise(&["apply", &file, "--project", &p.project()]);
-    assert!(stderr(&o).contains("has no sidecar"), "{}", stderr(&o));
-}
-
-#[test]
 fn per_sounding_times_keep_their_precision_and_find_their_rows() {
     // Two soundings 0.25 ms apart on one line, and one on a whole millisecond: the key of each
     // must read back to its own microsecond, or `apply` would find the wrong row or none.
@@ -510,7 +474,21 @@ fn check_warns_of_pings_across_a_zone_edge() {
             && err.contains("use the per-zone correction file"),
         "{err}"
     );
+    // At write time: `correctors --per-sounding` writes the file and warns with the count.
+    let c = p.path("c").to_string_lossy().into_owned();
+    let o = ebbwise(&["correctors", &p.project(), "--out", &c, "--per-sounding"]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(0), "{err}");
+    assert!(
+        err.contains("20 row(s) share a line and time with a row of another zone (5 line-and-time key(s), first line 'L1' at 2026-06-14T01:00:00.500Z)")
+            && err.contains("`ebbwise apply` will refuse this file; use the per-zone correction file"),
+        "{err}"
+    );
     p.write("s.csv", &pings(10.00105));
     let err = stderr(&ebbwise(&["check", &p.project()]));
+    assert!(!err.contains("share a line and time"), "{err}");
+    let o = ebbwise(&["correctors", &p.project(), "--out", &c, "--per-sounding"]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(0), "{err}");
     assert!(!err.contains("share a line and time"), "{err}");
 }

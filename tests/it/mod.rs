@@ -14,6 +14,7 @@ mod one_bad_row;
 mod output_table;
 mod outputs;
 mod properties;
+mod provenance;
 mod qa_report;
 mod qc;
 mod tidy;
