@@ -4,12 +4,14 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use ebbwise::compute::harmonic::{tide_type, AnalysisSettings, NodalMode};
+use ebbwise::compute::harmonic::{
+    tide_type, AnalysisSettings, InferenceBasis, InferenceRule, NodalMode, U_PHASE_UNIFORM_DEG,
+};
 use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
 use ebbwise::io::timefmt::utc_label;
-use ebbwise::run::harmonics::{analyse_gauge, AnalyseOutcome};
+use ebbwise::run::harmonics::{analyse_gauge, inference_rules_from, AnalyseOutcome};
 use ebbwise::CAUTION;
 
 use super::common::{find_gauge, median_m, DataOut, Stdout, Units};
@@ -64,8 +66,23 @@ pub struct Args {
     #[arg(long, default_value_t = 1.0)]
     rayleigh: f64,
     /// Do not infer unresolved K2, P1, N2, Q1 from S2, K1, M2, O1.
-    #[arg(long)]
+    #[arg(long, conflicts_with_all = ["infer", "infer_from"])]
     no_inference: bool,
+    /// An inference relation instead of the equilibrium one, repeatable:
+    /// INFERRED=REFERENCE:RATIO:PHASE_DIFF_DEG[:U_RATIO:U_PHASE_DEG], e.g. K2=S2:0.27:+3.0
+    /// (amplitude ratio inferred/reference, Greenwich lag difference inferred − reference;
+    /// default uncertainties 10 % of the ratio and 5°).
+    #[arg(long, value_name = "SPEC")]
+    infer: Vec<String>,
+    /// Take the K2/S2, P1/K1, N2/M2 and Q1/O1 relations from a reference station's constants
+    /// file (both of a pair fitted there), with uncertainties from its u(H) and u(G); --infer
+    /// overrides a pair.
+    #[arg(long, value_name = "FILE")]
+    infer_from: Option<PathBuf>,
+    /// Analyse a record shorter than 25.8 h (360° over the M2–K1 speed difference), which is
+    /// otherwise refused; the constants file is marked short_record.
+    #[arg(long)]
+    allow_short_record: bool,
     /// Where the nodal corrections are evaluated.
     #[arg(long, value_enum, default_value = "per-sample")]
     nodal: Nodal,
@@ -86,11 +103,25 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             a.rayleigh
         );
     }
+    let mut inference_rules = match &a.infer_from {
+        Some(path) => inference_rules_from(path)?,
+        None => Vec::new(),
+    };
+    for spec in &a.infer {
+        let rule = parse_infer(spec)?;
+        inference_rules.retain(|r| {
+            !r.inferred.eq_ignore_ascii_case(&rule.inferred)
+                && !r.reference.eq_ignore_ascii_case(&rule.reference)
+        });
+        inference_rules.push(rule);
+    }
     let settings = AnalysisSettings {
         rayleigh_factor: a.rayleigh,
         constituents: a.constituents.clone(),
         infer: !a.no_inference,
+        inference_rules,
         nodal: a.nodal.into(),
+        allow_short: a.allow_short_record,
     };
     let given = a.out.clone().map(DataOut::from_option);
     let mut stdout = Stdout::lock();
@@ -148,11 +179,75 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
     Ok(Outcome::Done)
 }
 
+/// Parses `INFERRED=REFERENCE:RATIO:PHASE_DIFF_DEG[:U_RATIO:U_PHASE_DEG]` (`--infer`).
+fn parse_infer(spec: &str) -> anyhow::Result<InferenceRule> {
+    let bad = |why: &str| {
+        anyhow::anyhow!(
+            "--infer {spec}: {why}; expected INFERRED=REFERENCE:RATIO:PHASE_DIFF_DEG[:U_RATIO:U_PHASE_DEG], e.g. K2=S2:0.27:+3.0"
+        )
+    };
+    let (inferred, rest) = spec.split_once('=').ok_or_else(|| bad("no '='"))?;
+    let parts: Vec<&str> = rest.split(':').collect();
+    if parts.len() != 3 && parts.len() != 5 {
+        return Err(bad(&format!(
+            "{} fields after '=', expected 3 or 5",
+            parts.len()
+        )));
+    }
+    let num = |s: &str, what: &str| -> anyhow::Result<f64> {
+        s.trim()
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite())
+            .ok_or_else(|| bad(&format!("{what}: expected a number, found '{s}'")))
+    };
+    let ratio = num(parts[1], "ratio")?;
+    if ratio <= 0.0 {
+        return Err(bad(&format!(
+            "ratio: expected a positive number, found {ratio}"
+        )));
+    }
+    let phase_diff_deg = num(parts[2], "phase difference")?;
+    let (u_ratio, u_phase_diff_deg) = if parts.len() == 5 {
+        let (ur, up) = (
+            num(parts[3], "u of the ratio")?,
+            num(parts[4], "u of the phase")?,
+        );
+        if ur < 0.0 || up < 0.0 {
+            return Err(bad("uncertainties must not be negative"));
+        }
+        (Some(ur), Some(up))
+    } else {
+        (None, None)
+    };
+    Ok(InferenceRule {
+        inferred: inferred.trim().to_string(),
+        reference: parts[0].trim().to_string(),
+        ratio,
+        phase_diff_deg,
+        u_ratio,
+        u_phase_diff_deg,
+        basis: InferenceBasis::Given,
+    })
+}
+
 fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> Sink<'a> {
     match out {
         DataOut::File(p) => Sink::File(p),
         DataOut::Stdout => Sink::Stream(stdout),
     }
+}
+
+/// "S2 ≈ 0.854 m, MS4 (amplitude unknown)".
+fn absorbed_list(f: &ebbwise::compute::harmonic::Fitted) -> String {
+    f.absorbs
+        .iter()
+        .map(|a| match a.expected_amplitude_m {
+            Some(e) => format!("{} ≈ {e:.4} m", a.constituent.name),
+            None => format!("{} (amplitude unknown)", a.constituent.name),
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// The analysis, on stderr.
@@ -198,9 +293,67 @@ fn print_analysis(o: &AnalyseOutcome) {
             f.u_amplitude_m,
             f.phase_deg,
             f.u_phase_deg,
-            f.inferred_from
-                .map(|(r, k)| format!("  inferred from {r} (×{k:.4})"))
-                .unwrap_or_default()
+            match f.inference {
+                Some(i) => format!(
+                    "  inferred from {} (×{:.4}, {:+.1}°, {})",
+                    i.reference.name,
+                    i.ratio,
+                    i.phase_diff_deg,
+                    i.basis.as_str()
+                ),
+                None if f.contaminated() => format!("  absorbs {}", absorbed_list(f)),
+                None => String::new(),
+            }
+        );
+    }
+    let contaminated: Vec<_> = an
+        .fitted
+        .iter()
+        .filter(|f| f.inference.is_none() && f.contaminated())
+        .collect();
+    if !contaminated.is_empty() {
+        let _ = writeln!(
+            w,
+            "  contaminated: {}; the record cannot separate these, so the constants carry their signal (u(H), u(G) include the expected amplitudes; inferred constituents take their reference's)",
+            contaminated
+                .iter()
+                .map(|f| format!("{} by {}", f.constituent.name, absorbed_list(f)))
+                .collect::<Vec<_>>()
+                .join("; ")
+        );
+    }
+    let into_z0: Vec<&str> = an
+        .unresolved
+        .iter()
+        .filter(|u| u.absorbed_by.name == "Z0")
+        .map(|u| u.constituent.name)
+        .collect();
+    if !into_z0.is_empty() {
+        let _ = writeln!(
+            w,
+            "  Z0 absorbs {} (long-period, not separable from the mean level in this record)",
+            into_z0.join(", ")
+        );
+    }
+    let lost: Vec<&str> = an
+        .fitted
+        .iter()
+        .filter(|f| f.u_phase_deg >= U_PHASE_UNIFORM_DEG - 1e-9)
+        .map(|f| f.constituent.name)
+        .collect();
+    if !lost.is_empty() {
+        let _ = writeln!(
+            w,
+            "  warning: the phase of {} is undetermined (its uncertainty is that of a phase uniform on the circle)",
+            lost.join(", ")
+        );
+    }
+    if an.short_record {
+        let _ = writeln!(
+            w,
+            "  warning: the record spans {:.1} h, shorter than {:.1} h: analysed only because --allow-short-record was given; no species is separated from the next and the constants are not harmonic constants of the place",
+            (an.span_s.1 - an.span_s.0) / 3600.0,
+            ebbwise::compute::harmonic::min_record_h()
         );
     }
     let _ = writeln!(

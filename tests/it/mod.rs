@@ -8,6 +8,7 @@ mod correctors;
 mod crs_reference;
 mod demo_recovery;
 mod harmonics;
+mod harmonics_trust;
 mod layers;
 mod one_bad_row;
 mod output_table;
