@@ -309,12 +309,18 @@ fn print_analysis(o: &AnalyseOutcome) {
     let contaminated: Vec<_> = an
         .fitted
         .iter()
-        .filter(|f| f.inference.is_none() && f.contaminated())
+        .filter(|f| {
+            f.inference.is_none()
+                && f.absorbs.iter().any(|a| {
+                    a.expected_amplitude_m
+                        .map_or(true, |e| e > f.u_amplitude_fit_m)
+                })
+        })
         .collect();
     if !contaminated.is_empty() {
         let _ = writeln!(
             w,
-            "  contaminated: {}; the record cannot separate these, so the constants carry their signal (u(H), u(G) include the expected amplitudes; inferred constituents take their reference's)",
+            "  contaminated: {}; the record cannot separate these, so the constants carry their signal, expected larger than the fit's own uncertainty (u(H), u(G) include the expected amplitudes; inferred constituents take their reference's)",
             contaminated
                 .iter()
                 .map(|f| format!("{} by {}", f.constituent.name, absorbed_list(f)))
@@ -338,13 +344,16 @@ fn print_analysis(o: &AnalyseOutcome) {
     let lost: Vec<&str> = an
         .fitted
         .iter()
-        .filter(|f| f.u_phase_deg >= U_PHASE_UNIFORM_DEG - 1e-9)
+        .filter(|f| {
+            f.u_phase_deg >= U_PHASE_UNIFORM_DEG - 1e-9
+                && f.amplitude_m >= 2.0 * f.u_amplitude_fit_m
+        })
         .map(|f| f.constituent.name)
         .collect();
     if !lost.is_empty() {
         let _ = writeln!(
             w,
-            "  warning: the phase of {} is undetermined (its uncertainty is that of a phase uniform on the circle)",
+            "  warning: the phase of {} is undetermined although the fit finds the constituent (its uncertainty is that of a phase uniform on the circle: the absorbed signal may be as large as it)",
             lost.join(", ")
         );
     }

@@ -386,3 +386,119 @@ fn four_hours_are_refused_unless_asked_and_no_orphan_compound() {
         "{e}"
     );
 }
+
+fn write_record(path: &std::path::Path, t: &[f64], h: &[f64]) {
+    let mut s = String::from("time,height\n");
+    for (t, h) in t.iter().zip(h) {
+        s.push_str(&format!("{},{h:.4}\n", ebbwise::io::timefmt::utc_time(*t)));
+    }
+    std::fs::write(path, s).unwrap();
+}
+
+/// Through the command line: a 3-day record's stderr and constants file say which constants
+/// are contaminated and by what; a 4-hour record is refused (exit 2) unless
+/// `--allow-short-record`, which says so in stderr and in the file; `--infer` and
+/// `--infer-from` (a year of the same truth as the reference station) recover K2 and P1 of a
+/// month whose relations are not the equilibrium ones, and the file records where each relation
+/// came from.
+#[test]
+fn the_command_line_says_what_cannot_be_trusted() {
+    use super::{ebbwise, stderr};
+    use ebbwise::io::constants::read_constants;
+    let d = tempfile::tempdir().unwrap();
+    let run = |rec: &std::path::Path, out: &str, extra: &[&str]| {
+        let out = d.path().join(out);
+        let mut args = vec![
+            "analyse",
+            rec.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+        ];
+        args.extend_from_slice(extra);
+        (ebbwise(&args), out)
+    };
+    let k = constants(None);
+
+    let (t, h) = record(&k, 3.0 * 24.0, 3);
+    let r3 = d.path().join("three.csv");
+    write_record(&r3, &t, &h);
+    let (o, out) = run(&r3, "three.constants.toml", &[]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(
+        err.contains("contaminated: ") && err.contains("M2 by S2"),
+        "{err}"
+    );
+    let (file, _) = read_constants(&out).unwrap();
+    let m2 = file.constituents.iter().find(|e| e.name == "M2").unwrap();
+    assert!(m2.absorbs.iter().any(|n| n == "S2"), "{:?}", m2.absorbs);
+    let s2 = file.unresolved.iter().find(|u| u.name == "S2").unwrap();
+    assert_eq!(s2.absorbed_by, "M2");
+    assert!(s2.expected_amplitude_m.is_some_and(|a| a > 0.1));
+    let n2 = file.constituents.iter().find(|e| e.name == "N2").unwrap();
+    assert_eq!(n2.inference_basis.as_deref(), Some("equilibrium"));
+    assert_eq!(n2.u_inference_phase_diff_deg, Some(20.0));
+
+    let (t, h) = record(&k, 4.0, 4);
+    let r4 = d.path().join("four.csv");
+    write_record(&r4, &t, &h);
+    let (o, out) = run(&r4, "four.constants.toml", &[]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("shorter than 25.8 h"), "{}", stderr(&o));
+    assert!(!out.exists());
+    let (o, out) = run(&r4, "four.constants.toml", &["--allow-short-record"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(stderr(&o).contains("--allow-short-record was given"));
+    let (file, _) = read_constants(&out).unwrap();
+    assert!(file.short_record);
+    assert!(file.constituents.iter().all(|e| e.name != "M8"));
+
+    // A month of M2, S2, K2, K1, O1, P1 and a year of the same constants as the reference.
+    let k6 = constants(Some(&["M2", "S2", "K2", "K1", "O1", "P1"]));
+    let (t, h) = record(&k6, 29.0 * 24.0, 290);
+    let month = d.path().join("month.csv");
+    write_record(&month, &t, &h);
+    let (t, h) = record(&k6, 369.0 * 24.0, 369);
+    let year = d.path().join("year.csv");
+    write_record(&year, &t, &h);
+    let (o, reference) = run(&year, "year.constants.toml", &[]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let (kt, gk) = truth_of("K2");
+    let (st, gs) = truth_of("S2");
+    let spec = format!("K2=S2:{}:{:+}", kt / st, gk - gs);
+    for (label, extra) in [
+        ("given", vec!["--infer", spec.as_str()]),
+        (
+            "reference_station",
+            vec!["--infer-from", reference.to_str().unwrap()],
+        ),
+    ] {
+        let (o, out) = run(&month, &format!("{label}.constants.toml"), &extra);
+        assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+        let (file, _) = read_constants(&out).unwrap();
+        let e = file.constituents.iter().find(|e| e.name == "K2").unwrap();
+        assert_eq!(e.inference_basis.as_deref(), Some(label));
+        assert!(
+            (e.amplitude_m - kt).abs() < 0.002,
+            "{label}: K2 {}",
+            e.amplitude_m
+        );
+        assert!(
+            wrap180(e.phase_deg - gk).abs() < 1.0,
+            "{label}: K2 {}",
+            e.phase_deg
+        );
+        if label == "reference_station" {
+            let (pt, gp) = truth_of("P1");
+            let e = file.constituents.iter().find(|e| e.name == "P1").unwrap();
+            assert!((e.amplitude_m - pt).abs() < 0.002, "P1 {}", e.amplitude_m);
+            assert!(wrap180(e.phase_deg - gp).abs() < 1.0, "P1 {}", e.phase_deg);
+            // The relation's uncertainty comes from the year's own u(H), u(G): far below the
+            // equilibrium default of 20°.
+            assert!(e.u_inference_phase_diff_deg.unwrap() < 2.0);
+        }
+    }
+    let (o, _) = run(&month, "bad.constants.toml", &["--infer", "K2=S2:0.27"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("--infer K2=S2:0.27"), "{}", stderr(&o));
+}
