@@ -10,7 +10,7 @@ use ebbwise::compute::harmonic::{
 use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
-use ebbwise::io::timefmt::utc_label;
+use ebbwise::io::timefmt::{parse_offset, utc_label};
 use ebbwise::run::harmonics::{analyse_gauge, inference_rules_from, AnalyseOutcome};
 use ebbwise::CAUTION;
 
@@ -52,6 +52,10 @@ pub struct Args {
     /// With a record: the height column.
     #[arg(long, default_value = "height")]
     height_column: String,
+    /// With a record: the UTC offset of times written without one, e.g. +01:00, -03:30, Z (as
+    /// a project's naive_time_utc_offset); without it such a time is an error.
+    #[arg(long, value_name = "OFFSET", allow_hyphen_values = true)]
+    naive_time_utc_offset: Option<String>,
     /// With a record: units of the heights.
     #[arg(long, value_enum, default_value = "m")]
     units: Units,
@@ -127,12 +131,19 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
     let mut stdout = Stdout::lock();
     let o = match (&a.record, &a.project) {
         (Some(record), _) => {
+            let naive = match &a.naive_time_utc_offset {
+                Some(o) => Some(
+                    parse_offset(o)
+                        .map_err(|e| anyhow::anyhow!("--naive-time-utc-offset {o}: {e}"))?,
+                ),
+                None => None,
+            };
             let mut spec =
                 GaugeSpec::for_record(record, a.units.into(), a.zero_above_datum_m.unwrap_or(0.0));
             spec.time_column = a.time_column.clone();
             spec.height_column = a.height_column.clone();
             // The plausible band for QC is centred on the record's median.
-            if let Ok(r) = read_gauge_record(&spec, None) {
+            if let Ok(r) = read_gauge_record(&spec, naive) {
                 if let Some(m) = median_m(&r.heights_m) {
                     spec.mean_level_above_datum_m = m;
                 }
@@ -148,13 +159,24 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             let qc = QcSpec::default();
             analyse_gauge(
                 &spec,
-                None,
+                naive,
                 (!a.no_qc).then_some(&qc),
                 &settings,
                 None,
                 levels,
                 sink(&out, &mut stdout),
-            )?
+            )
+            .map_err(|e| {
+                let text = e.to_string();
+                if naive.is_none() && text.contains("has no UTC offset") {
+                    anyhow::anyhow!(
+                        "{}: for a record given on the command line, give --naive-time-utc-offset OFFSET (e.g. +01:00)",
+                        text.replace(" (set naive_time_utc_offset)", "")
+                    )
+                } else {
+                    anyhow::Error::from(e)
+                }
+            })?
         }
         (None, Some(project)) => {
             let p = Project::load(project)?;

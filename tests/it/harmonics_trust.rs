@@ -502,3 +502,70 @@ fn the_command_line_says_what_cannot_be_trusted() {
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("--infer K2=S2:0.27"), "{}", stderr(&o));
 }
+
+/// A plain record with naive local times (UTC+01:00): refused without an offset, with the
+/// option named; with `--naive-time-utc-offset +01:00` read one hour earlier in UTC (the
+/// definition of the offset), giving the same constants as the record written in UTC.
+#[test]
+fn naive_times_of_a_plain_record_take_the_offset_option() {
+    use super::{ebbwise, stderr};
+    use ebbwise::io::constants::read_constants;
+    let d = tempfile::tempdir().unwrap();
+    let (t, h) = record(&constants(None), 3.0 * 24.0, 33);
+    let utc = d.path().join("utc.csv");
+    write_record(&utc, &t, &h);
+    let naive = d.path().join("naive.csv");
+    let mut s = String::from("time,height\n");
+    for (t, h) in t.iter().zip(&h) {
+        let local = ebbwise::io::timefmt::utc_time(t + 3600.0);
+        s.push_str(&format!("{},{h:.4}\n", local.trim_end_matches('Z')));
+    }
+    std::fs::write(&naive, s).unwrap();
+    let out = |n: &str| d.path().join(n);
+    let o = ebbwise(&[
+        "analyse",
+        naive.to_str().unwrap(),
+        "--out",
+        out("n.toml").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("--naive-time-utc-offset"),
+        "{}",
+        stderr(&o)
+    );
+    let o = ebbwise(&[
+        "analyse",
+        naive.to_str().unwrap(),
+        "--naive-time-utc-offset",
+        "+01:00",
+        "--out",
+        out("n.toml").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = ebbwise(&[
+        "analyse",
+        utc.to_str().unwrap(),
+        "--out",
+        out("u.toml").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let (n, _) = read_constants(&out("n.toml")).unwrap();
+    let (u, _) = read_constants(&out("u.toml")).unwrap();
+    assert_eq!(n.record_start_utc, u.record_start_utc);
+    assert_eq!(n.constituents, u.constituents);
+    let o = ebbwise(&[
+        "analyse",
+        naive.to_str().unwrap(),
+        "--naive-time-utc-offset",
+        "+1 hour",
+        "--out",
+        out("x.toml").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("--naive-time-utc-offset +1 hour"),
+        "{}",
+        stderr(&o)
+    );
+}
