@@ -19,14 +19,24 @@
 //!
 //! **Constituent choice.** Either given, or chosen by the Rayleigh criterion: candidates are taken
 //! in order of importance (equilibrium amplitude, then the shallow-water compounds), and one is
-//! admitted when its speed differs from every one already admitted (Z0 included, speed 0) by at
-//! least `factor · 360° / T`, `T` the record length (last − first sample) in hours.
+//! admitted when its speed differs from every one already in the analysis (Z0 included, speed 0,
+//! and the constituents already inferred) by at least `factor · 360° / T`, `T` the record length
+//! (last − first sample) in hours; a compound needs its parents. Records shorter than
+//! [`min_record_h`] are refused unless allowed.
 //!
-//! **Inference.** A constituent of the pairs K2←S2, P1←K1, N2←M2, Q1←O1 that the record cannot
-//! separate from its reference is inferred *within the fit*: the reference's two columns become
-//! `f_r cos(V_r+u_r) + ρ f_i cos(V_i+u_i)` (and the sine), with `ρ` the equilibrium amplitude
-//! ratio, so the inferred constituent has amplitude `ρ·H_r` and the same Greenwich lag
-//! (common practice). Inferred constituents are marked.
+//! **Inference.** A constituent of the pairs K2←S2, P1←K1, N2←M2, Q1←O1 (or of a pair the user
+//! gives) that the record cannot separate from its reference is inferred *within the fit*: the
+//! reference's two columns become `f_r cos(V_r+u_r) + ρ f_i cos(V_i+u_i−Δ)` (and the sine), so the
+//! inferred constituent has amplitude `ρ·H_r` and Greenwich lag `G_r + Δ`. By default `ρ` is the
+//! equilibrium ratio and `Δ = 0` (common practice), with the uncertainties
+//! [`U_REL_EQUILIBRIUM_RATIO`] and [`U_EQUILIBRIUM_PHASE_DIFF_DEG`]; a user's relation
+//! ([`InferenceRule`]) replaces it. Inferred constituents are marked.
+//!
+//! **Unresolved candidates** ([`unresolved_candidates`]) are named with the constituent whose
+//! columns absorb them; their expected amplitudes (equilibrium ratio × nodal factor ratio ×
+//! fitted amplitude) and the inference relations' possible errors reach each fitted
+//! constituent by the leakage `|sin x / x|`, `x = π·Δω·T/360°`, and are combined into its u(H) and
+//! u(G) with the least-squares part (kept apart in `u_amplitude_fit_m`, `u_phase_fit_deg`).
 //!
 //! **Nodal corrections.** Evaluated at every sample by default ([`NodalMode::PerSample`]), or
 //! once at the record's central instant ([`NodalMode::Centre`]; adequate up to about a year).

@@ -457,6 +457,37 @@ mod tests {
         assert!(worst < 1e-4, "{worst}");
     }
 
+    /// A file in the layout written before the unresolved list, the fit's uncertainties and the
+    /// inference relation's keys still reads, and predicts what its constants say (a
+    /// hand-written file: Z0 1 m, M2 0.5 m at 0°; at a time when V + u of M2 is known the level
+    /// is Z0 + f·H·cos(V + u − G)).
+    #[test]
+    fn files_without_the_later_keys_still_read() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("old.toml");
+        std::fs::write(
+            &p,
+            "format = \"ebbwise-harmonic-constants/1\"\nlevels = \"above chart datum\"\nz0_m = 1.0\nu_z0_m = 0.001\nrayleigh_factor = 1.0\n\n[[constituent]]\nname = \"M2\"\nspeed_deg_per_h = 28.9841042\namplitude_m = 0.5\nphase_deg = 0.0\nu_amplitude_m = 0.001\nu_phase_deg = 0.1\n\n[[constituent]]\nname = \"N2\"\nspeed_deg_per_h = 28.4397295\namplitude_m = 0.1\nphase_deg = 0.0\nu_amplitude_m = 0.0002\nu_phase_deg = 0.1\ninferred_from = \"M2\"\ninference_ratio = 0.1915\n",
+        )
+        .unwrap();
+        let (f, k) = read_constants(&p).unwrap();
+        assert!(f.unresolved.is_empty() && !f.short_record);
+        assert_eq!(f.constituents[1].inference_basis, None);
+        assert_eq!(k.constituents.len(), 2);
+        let t = 1_780_000_000.0;
+        let a = crate::compute::astro::astro_at(t);
+        let level = |c: &str, h: f64| {
+            let c = constituent(c).unwrap();
+            let (fc, u) = crate::compute::astro::nodal_fu(c, &a);
+            fc * h
+                * (crate::compute::astro::equilibrium_argument_deg(c, &a) + u)
+                    .to_radians()
+                    .cos()
+        };
+        let expected = 1.0 + level("M2", 0.5) + level("N2", 0.1);
+        assert!((crate::compute::harmonic::predict_at(&k, t) - expected).abs() < 1e-12);
+    }
+
     #[test]
     fn bad_files_are_refused_with_their_field() {
         let dir = tempfile::tempdir().unwrap();
