@@ -4,12 +4,14 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use ebbwise::compute::harmonic::{tide_type, AnalysisSettings, NodalMode};
+use ebbwise::compute::harmonic::{
+    tide_type, AnalysisSettings, InferenceBasis, InferenceRule, NodalMode, U_PHASE_UNIFORM_DEG,
+};
 use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
-use ebbwise::io::timefmt::utc_label;
-use ebbwise::run::harmonics::{analyse_gauge, AnalyseOutcome};
+use ebbwise::io::timefmt::{parse_offset, utc_label};
+use ebbwise::run::harmonics::{analyse_gauge, inference_rules_from, AnalyseOutcome};
 use ebbwise::CAUTION;
 
 use super::common::{find_gauge, median_m, DataOut, Stdout, Units};
@@ -50,6 +52,10 @@ pub struct Args {
     /// With a record: the height column.
     #[arg(long, default_value = "height")]
     height_column: String,
+    /// With a record: the UTC offset of times written without one, e.g. +01:00, -03:30, Z (as
+    /// a project's naive_time_utc_offset); without it such a time is an error.
+    #[arg(long, value_name = "OFFSET", allow_hyphen_values = true)]
+    naive_time_utc_offset: Option<String>,
     /// With a record: units of the heights.
     #[arg(long, value_enum, default_value = "m")]
     units: Units,
@@ -64,8 +70,23 @@ pub struct Args {
     #[arg(long, default_value_t = 1.0)]
     rayleigh: f64,
     /// Do not infer unresolved K2, P1, N2, Q1 from S2, K1, M2, O1.
-    #[arg(long)]
+    #[arg(long, conflicts_with_all = ["infer", "infer_from"])]
     no_inference: bool,
+    /// An inference relation instead of the equilibrium one, repeatable:
+    /// INFERRED=REFERENCE:RATIO:PHASE_DIFF_DEG[:U_RATIO:U_PHASE_DEG], e.g. K2=S2:0.27:+3.0
+    /// (amplitude ratio inferred/reference, Greenwich lag difference inferred − reference;
+    /// default uncertainties 10 % of the ratio and 5°).
+    #[arg(long, value_name = "SPEC")]
+    infer: Vec<String>,
+    /// Take the K2/S2, P1/K1, N2/M2 and Q1/O1 relations from a reference station's constants
+    /// file (both of a pair fitted there), with uncertainties from its u(H) and u(G); --infer
+    /// overrides a pair.
+    #[arg(long, value_name = "FILE")]
+    infer_from: Option<PathBuf>,
+    /// Analyse a record shorter than 25.8 h (360° over the M2–K1 speed difference), which is
+    /// otherwise refused; the constants file is marked short_record.
+    #[arg(long)]
+    allow_short_record: bool,
     /// Where the nodal corrections are evaluated.
     #[arg(long, value_enum, default_value = "per-sample")]
     nodal: Nodal,
@@ -86,22 +107,43 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             a.rayleigh
         );
     }
+    let mut inference_rules = match &a.infer_from {
+        Some(path) => inference_rules_from(path)?,
+        None => Vec::new(),
+    };
+    for spec in &a.infer {
+        let rule = parse_infer(spec)?;
+        inference_rules.retain(|r| {
+            !r.inferred.eq_ignore_ascii_case(&rule.inferred)
+                && !r.reference.eq_ignore_ascii_case(&rule.reference)
+        });
+        inference_rules.push(rule);
+    }
     let settings = AnalysisSettings {
         rayleigh_factor: a.rayleigh,
         constituents: a.constituents.clone(),
         infer: !a.no_inference,
+        inference_rules,
         nodal: a.nodal.into(),
+        allow_short: a.allow_short_record,
     };
     let given = a.out.clone().map(DataOut::from_option);
     let mut stdout = Stdout::lock();
     let o = match (&a.record, &a.project) {
         (Some(record), _) => {
+            let naive = match &a.naive_time_utc_offset {
+                Some(o) => Some(
+                    parse_offset(o)
+                        .map_err(|e| anyhow::anyhow!("--naive-time-utc-offset {o}: {e}"))?,
+                ),
+                None => None,
+            };
             let mut spec =
                 GaugeSpec::for_record(record, a.units.into(), a.zero_above_datum_m.unwrap_or(0.0));
             spec.time_column = a.time_column.clone();
             spec.height_column = a.height_column.clone();
             // The plausible band for QC is centred on the record's median.
-            if let Ok(r) = read_gauge_record(&spec, None) {
+            if let Ok(r) = read_gauge_record(&spec, naive) {
                 if let Some(m) = median_m(&r.heights_m) {
                     spec.mean_level_above_datum_m = m;
                 }
@@ -117,13 +159,24 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             let qc = QcSpec::default();
             analyse_gauge(
                 &spec,
-                None,
+                naive,
                 (!a.no_qc).then_some(&qc),
                 &settings,
                 None,
                 levels,
                 sink(&out, &mut stdout),
-            )?
+            )
+            .map_err(|e| {
+                let text = e.to_string();
+                if naive.is_none() && text.contains("has no UTC offset") {
+                    anyhow::anyhow!(
+                        "{}: for a record given on the command line, give --naive-time-utc-offset OFFSET (e.g. +01:00)",
+                        text.replace(" (set naive_time_utc_offset)", "")
+                    )
+                } else {
+                    anyhow::Error::from(e)
+                }
+            })?
         }
         (None, Some(project)) => {
             let p = Project::load(project)?;
@@ -148,11 +201,75 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
     Ok(Outcome::Done)
 }
 
+/// Parses `INFERRED=REFERENCE:RATIO:PHASE_DIFF_DEG[:U_RATIO:U_PHASE_DEG]` (`--infer`).
+fn parse_infer(spec: &str) -> anyhow::Result<InferenceRule> {
+    let bad = |why: &str| {
+        anyhow::anyhow!(
+            "--infer {spec}: {why}; expected INFERRED=REFERENCE:RATIO:PHASE_DIFF_DEG[:U_RATIO:U_PHASE_DEG], e.g. K2=S2:0.27:+3.0"
+        )
+    };
+    let (inferred, rest) = spec.split_once('=').ok_or_else(|| bad("no '='"))?;
+    let parts: Vec<&str> = rest.split(':').collect();
+    if parts.len() != 3 && parts.len() != 5 {
+        return Err(bad(&format!(
+            "{} fields after '=', expected 3 or 5",
+            parts.len()
+        )));
+    }
+    let num = |s: &str, what: &str| -> anyhow::Result<f64> {
+        s.trim()
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite())
+            .ok_or_else(|| bad(&format!("{what}: expected a number, found '{s}'")))
+    };
+    let ratio = num(parts[1], "ratio")?;
+    if ratio <= 0.0 {
+        return Err(bad(&format!(
+            "ratio: expected a positive number, found {ratio}"
+        )));
+    }
+    let phase_diff_deg = num(parts[2], "phase difference")?;
+    let (u_ratio, u_phase_diff_deg) = if parts.len() == 5 {
+        let (ur, up) = (
+            num(parts[3], "u of the ratio")?,
+            num(parts[4], "u of the phase")?,
+        );
+        if ur < 0.0 || up < 0.0 {
+            return Err(bad("uncertainties must not be negative"));
+        }
+        (Some(ur), Some(up))
+    } else {
+        (None, None)
+    };
+    Ok(InferenceRule {
+        inferred: inferred.trim().to_string(),
+        reference: parts[0].trim().to_string(),
+        ratio,
+        phase_diff_deg,
+        u_ratio,
+        u_phase_diff_deg,
+        basis: InferenceBasis::Given,
+    })
+}
+
 fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> Sink<'a> {
     match out {
         DataOut::File(p) => Sink::File(p),
         DataOut::Stdout => Sink::Stream(stdout),
     }
+}
+
+/// "S2 ≈ 0.854 m, MS4 (amplitude unknown)".
+fn absorbed_list(f: &ebbwise::compute::harmonic::Fitted) -> String {
+    f.absorbs
+        .iter()
+        .map(|a| match a.expected_amplitude_m {
+            Some(e) => format!("{} ≈ {e:.4} m", a.constituent.name),
+            None => format!("{} (amplitude unknown)", a.constituent.name),
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// The analysis, on stderr.
@@ -198,9 +315,76 @@ fn print_analysis(o: &AnalyseOutcome) {
             f.u_amplitude_m,
             f.phase_deg,
             f.u_phase_deg,
-            f.inferred_from
-                .map(|(r, k)| format!("  inferred from {r} (×{k:.4})"))
-                .unwrap_or_default()
+            match f.inference {
+                Some(i) => format!(
+                    "  inferred from {} (×{:.4}, {:+.1}°, {})",
+                    i.reference.name,
+                    i.ratio,
+                    i.phase_diff_deg,
+                    i.basis.as_str()
+                ),
+                None if f.contaminated() => format!("  absorbs {}", absorbed_list(f)),
+                None => String::new(),
+            }
+        );
+    }
+    let contaminated: Vec<_> = an
+        .fitted
+        .iter()
+        .filter(|f| {
+            f.inference.is_none()
+                && f.absorbs.iter().any(|a| {
+                    a.expected_amplitude_m
+                        .map_or(true, |e| e > f.u_amplitude_fit_m)
+                })
+        })
+        .collect();
+    if !contaminated.is_empty() {
+        let _ = writeln!(
+            w,
+            "  contaminated: {}; the record cannot separate these, so the constants carry their signal, expected larger than the fit's own uncertainty (u(H), u(G) include the expected amplitudes; inferred constituents take their reference's)",
+            contaminated
+                .iter()
+                .map(|f| format!("{} by {}", f.constituent.name, absorbed_list(f)))
+                .collect::<Vec<_>>()
+                .join("; ")
+        );
+    }
+    let into_z0: Vec<&str> = an
+        .unresolved
+        .iter()
+        .filter(|u| u.absorbed_by.name == "Z0")
+        .map(|u| u.constituent.name)
+        .collect();
+    if !into_z0.is_empty() {
+        let _ = writeln!(
+            w,
+            "  Z0 absorbs {} (long-period, not separable from the mean level in this record)",
+            into_z0.join(", ")
+        );
+    }
+    let lost: Vec<&str> = an
+        .fitted
+        .iter()
+        .filter(|f| {
+            f.u_phase_deg >= U_PHASE_UNIFORM_DEG - 1e-9
+                && f.amplitude_m >= 2.0 * f.u_amplitude_fit_m
+        })
+        .map(|f| f.constituent.name)
+        .collect();
+    if !lost.is_empty() {
+        let _ = writeln!(
+            w,
+            "  warning: the phase of {} is undetermined although the fit finds the constituent (its uncertainty is that of a phase uniform on the circle: the absorbed signal may be as large as it)",
+            lost.join(", ")
+        );
+    }
+    if an.short_record {
+        let _ = writeln!(
+            w,
+            "  warning: the record spans {:.1} h, shorter than {:.1} h: analysed only because --allow-short-record was given; no species is separated from the next and the constants are not harmonic constants of the place",
+            (an.span_s.1 - an.span_s.0) / 3600.0,
+            ebbwise::compute::harmonic::min_record_h()
         );
     }
     let _ = writeln!(

@@ -28,9 +28,27 @@
 //! phase_deg = 110.123               # G, Greenwich phase lag (UTC)
 //! u_amplitude_m = 0.0011            # standard uncertainties (1σ)
 //! u_phase_deg = 0.05
+//! u_amplitude_fit_m = 0.0011        # their least-squares parts alone
+//! u_phase_fit_deg = 0.05
+//! # absorbs = ["T2"]                # unresolved constituents its constants carry
 //! # inferred_from = "S2"            # for an inferred constituent, with
-//! # inference_ratio = 0.272         # its equilibrium amplitude ratio
+//! # inference_ratio = 0.272         # the amplitude ratio, the phase difference and their
+//! # u_inference_ratio = 0.068       # standard uncertainties, and where the relation comes
+//! # inference_phase_diff_deg = 0.0  # from: "equilibrium", "given" or "reference_station"
+//! # u_inference_phase_diff_deg = 20.0
+//! # inference_basis = "equilibrium"
+//!
+//! [[unresolved]]                    # every constituent the record cannot separate
+//! name = "T2"
+//! next_to = "S2"                    # nearest constituent of the analysis in speed
+//! absorbed_by = "S2"                # the fitted one (or Z0) that carries its signal
+//! expected_amplitude_m = 0.0236     # equilibrium ratio × f ratio × leakage × H, if tabulated
+//! leakage = 0.97                    # |sin x / x|, x = π·Δω·T/360°
 //! ```
+//!
+//! `short_record = true` marks constants from a record shorter than the analysis's minimum,
+//! analysed on request. Every key added after the first files is optional, so older files
+//! still read.
 //!
 //! Reading checks every constituent name against the table of `compute::astro` and its speed
 //! against the table's (to 1e-6 °/h), so a file made with another definition of a constituent is
@@ -43,7 +61,9 @@ use serde::{Deserialize, Serialize};
 use super::error::{IoError, Position};
 use super::numfmt::{round_to as round, AMPLITUDE_DECIMALS, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use crate::compute::astro::constituent;
-use crate::compute::harmonic::{tide_type, Analysis, HarmonicConstants};
+use crate::compute::harmonic::{
+    tide_type, Analysis, HarmonicConstants, InferenceBasis, InferenceRule,
+};
 
 /// Layout name.
 pub const CONSTANTS_FORMAT: &str = "ebbwise-harmonic-constants/1";
@@ -76,9 +96,48 @@ pub struct ConstituentEntry {
     /// Inferred from this constituent.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub inferred_from: Option<String>,
-    /// Equilibrium amplitude ratio used for the inference.
+    /// Amplitude ratio used for the inference (inferred / `inferred_from`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub inference_ratio: Option<f64>,
+    /// Standard uncertainty of that ratio.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_inference_ratio: Option<f64>,
+    /// Phase difference used for the inference, G − G of `inferred_from`, degrees.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inference_phase_diff_deg: Option<f64>,
+    /// Standard uncertainty of that phase difference, degrees.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_inference_phase_diff_deg: Option<f64>,
+    /// Where the inference relation comes from: `equilibrium`, `given` or `reference_station`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inference_basis: Option<String>,
+    /// The least-squares part of `u_amplitude_m`, metres.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_amplitude_fit_m: Option<f64>,
+    /// The least-squares part of `u_phase_deg`, degrees.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_phase_fit_deg: Option<f64>,
+    /// Unresolved constituents whose signal this one's constants carry (see `[[unresolved]]`).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub absorbs: Vec<String>,
+}
+
+/// A constituent the record could not separate, as written (`[[unresolved]]`).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct UnresolvedEntry {
+    /// The constituent left out.
+    pub name: String,
+    /// The nearest constituent in speed of the analysis (fitted, inferred or Z0).
+    pub next_to: String,
+    /// The fitted constituent (or Z0) whose constants carry its signal.
+    pub absorbed_by: String,
+    /// Expected amplitude absorbed, metres (equilibrium ratio × nodal factor ratio × leakage ×
+    /// the fitted amplitude), when an equilibrium ratio is tabulated.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub expected_amplitude_m: Option<f64>,
+    /// Share of its signal a fit over the record absorbs, `|sin x / x|`.
+    pub leakage: f64,
 }
 
 /// A constants file as written.
@@ -131,9 +190,15 @@ pub struct ConstantsFile {
     /// The caution.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub caution: Option<String>,
+    /// The record is shorter than the analysis's minimum and was analysed on request.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub short_record: bool,
     /// The constituents.
     #[serde(rename = "constituent", default)]
     pub constituents: Vec<ConstituentEntry>,
+    /// Every constituent the record could not separate from one of the analysis.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub unresolved: Vec<UnresolvedEntry>,
 }
 
 impl ConstantsFile {
@@ -178,9 +243,85 @@ impl ConstantsFile {
                     u_phase_deg: Some(round(f.u_phase_deg, 3)),
                     inferred_from: f.inferred_from.map(|x| x.0.to_string()),
                     inference_ratio: f.inferred_from.map(|x| round(x.1, 4)),
+                    u_inference_ratio: f.inference.map(|i| round(i.u_ratio, 4)),
+                    inference_phase_diff_deg: f.inference.map(|i| round(i.phase_diff_deg, 3)),
+                    u_inference_phase_diff_deg: f.inference.map(|i| round(i.u_phase_diff_deg, 3)),
+                    inference_basis: f.inference.map(|i| i.basis.as_str().to_string()),
+                    u_amplitude_fit_m: Some(round(f.u_amplitude_fit_m, UNCERTAINTY_DECIMALS)),
+                    u_phase_fit_deg: Some(round(f.u_phase_fit_deg, 3)),
+                    absorbs: f
+                        .absorbs
+                        .iter()
+                        .map(|a| a.constituent.name.to_string())
+                        .collect(),
+                })
+                .collect(),
+            short_record: a.short_record,
+            unresolved: a
+                .unresolved
+                .iter()
+                .map(|u| {
+                    let expected = a
+                        .fitted
+                        .iter()
+                        .find(|f| f.constituent.name == u.absorbed_by.name)
+                        .and_then(|f| u.expected_amplitude_m(f.amplitude_m));
+                    UnresolvedEntry {
+                        name: u.constituent.name.into(),
+                        next_to: u.next_to.name.into(),
+                        absorbed_by: u.absorbed_by.name.into(),
+                        expected_amplitude_m: expected.map(|e| round(e, UNCERTAINTY_DECIMALS)),
+                        leakage: round(u.leakage, 3),
+                    }
                 })
                 .collect(),
         }
+    }
+
+    /// Inference relations taken from these constants (a nearby long-term station's): for each
+    /// pair (inferred, reference) of `pairs` whose two constituents the file has, both fitted
+    /// (not inferred) and the reference's amplitude positive, the ratio H_i/H_r and the phase
+    /// difference G_i − G_r, with standard uncertainties from the file's own u(H) and u(G)
+    /// (first order: `u_ρ = ρ·√((u_Hi/H_i)² + (u_Hr/H_r)²)`, `u_Δ = √(u_Gi² + u_Gr²)`; left to
+    /// the defaults for given relations when the file has none).
+    pub fn inference_rules(&self, pairs: &[(&str, &str)]) -> Vec<InferenceRule> {
+        let get = |n: &str| {
+            let c = constituent(n)?;
+            self.constituents
+                .iter()
+                .find(|e| constituent(&e.name).map(|x| x.name) == Some(c.name))
+                .filter(|e| e.inferred_from.is_none())
+        };
+        let mut out = Vec::new();
+        for (i, r) in pairs {
+            let (Some(ei), Some(er)) = (get(i), get(r)) else {
+                continue;
+            };
+            if er.amplitude_m.is_nan() || er.amplitude_m <= 0.0 {
+                continue;
+            }
+            let ratio = ei.amplitude_m / er.amplitude_m;
+            let u_ratio = match (ei.u_amplitude_m, er.u_amplitude_m) {
+                (Some(ui), Some(ur)) if ei.amplitude_m > 0.0 => Some(
+                    ratio * ((ui / ei.amplitude_m).powi(2) + (ur / er.amplitude_m).powi(2)).sqrt(),
+                ),
+                _ => None,
+            };
+            let u_phase = match (ei.u_phase_deg, er.u_phase_deg) {
+                (Some(a), Some(b)) => Some(a.hypot(b)),
+                _ => None,
+            };
+            out.push(InferenceRule {
+                inferred: ei.name.clone(),
+                reference: er.name.clone(),
+                ratio,
+                phase_diff_deg: (ei.phase_deg - er.phase_deg + 540.0).rem_euclid(360.0) - 180.0,
+                u_ratio,
+                u_phase_diff_deg: u_phase,
+                basis: InferenceBasis::ReferenceStation,
+            });
+        }
+        out
     }
 
     /// TOML text.
@@ -314,6 +455,37 @@ mod tests {
             .zip(&again)
             .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
         assert!(worst < 1e-4, "{worst}");
+    }
+
+    /// A file in the layout written before the unresolved list, the fit's uncertainties and the
+    /// inference relation's keys still reads, and predicts what its constants say (a
+    /// hand-written file: Z0 1 m, M2 0.5 m at 0°; at a time when V + u of M2 is known the level
+    /// is Z0 + f·H·cos(V + u − G)).
+    #[test]
+    fn files_without_the_later_keys_still_read() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("old.toml");
+        std::fs::write(
+            &p,
+            "format = \"ebbwise-harmonic-constants/1\"\nlevels = \"above chart datum\"\nz0_m = 1.0\nu_z0_m = 0.001\nrayleigh_factor = 1.0\n\n[[constituent]]\nname = \"M2\"\nspeed_deg_per_h = 28.9841042\namplitude_m = 0.5\nphase_deg = 0.0\nu_amplitude_m = 0.001\nu_phase_deg = 0.1\n\n[[constituent]]\nname = \"N2\"\nspeed_deg_per_h = 28.4397295\namplitude_m = 0.1\nphase_deg = 0.0\nu_amplitude_m = 0.0002\nu_phase_deg = 0.1\ninferred_from = \"M2\"\ninference_ratio = 0.1915\n",
+        )
+        .unwrap();
+        let (f, k) = read_constants(&p).unwrap();
+        assert!(f.unresolved.is_empty() && !f.short_record);
+        assert_eq!(f.constituents[1].inference_basis, None);
+        assert_eq!(k.constituents.len(), 2);
+        let t = 1_780_000_000.0;
+        let a = crate::compute::astro::astro_at(t);
+        let level = |c: &str, h: f64| {
+            let c = constituent(c).unwrap();
+            let (fc, u) = crate::compute::astro::nodal_fu(c, &a);
+            fc * h
+                * (crate::compute::astro::equilibrium_argument_deg(c, &a) + u)
+                    .to_radians()
+                    .cos()
+        };
+        let expected = 1.0 + level("M2", 0.5) + level("N2", 0.1);
+        assert!((crate::compute::harmonic::predict_at(&k, t) - expected).abs() < 1e-12);
     }
 
     #[test]

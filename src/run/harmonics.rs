@@ -6,11 +6,12 @@ use std::path::{Path, PathBuf};
 
 use super::load::prepare_series;
 use crate::compute::harmonic::{
-    analyse, high_low_waters, predict_grid, Analysis, AnalysisError, AnalysisSettings, HighLowWater,
+    analyse, high_low_waters, predict_grid, Analysis, AnalysisError, AnalysisSettings,
+    HighLowWater, InferenceRule, INFERENCE_PAIRS,
 };
 use crate::io::atomic::{Sink, SinkWriter};
 use crate::io::constants::{read_constants, ConstantsFile, LEVELS_CHART_DATUM, LEVELS_RECORD_ZERO};
-use crate::io::error::IoError;
+use crate::io::error::{IoError, Position};
 use crate::io::gauge_csv::read_gauge_record;
 use crate::io::numfmt::{push_fixed, HEIGHT_DECIMALS};
 use crate::io::project::{GaugeSpec, InterpolationSpec, QcSpec};
@@ -66,6 +67,21 @@ pub struct AnalyseOutcome {
     pub set_aside: usize,
     /// What the levels are above.
     pub levels: String,
+}
+
+/// The K2/S2, P1/K1, N2/M2 and Q1/O1 inference relations of a reference station's constants
+/// file (see [`ConstantsFile::inference_rules`]).
+pub fn inference_rules_from(path: &Path) -> Result<Vec<InferenceRule>, HarmonicsError> {
+    let (file, _) = read_constants(path)?;
+    let rules = file.inference_rules(&INFERENCE_PAIRS);
+    if rules.is_empty() {
+        return Err(IoError::content(
+            Position::file(path),
+            "expected at least one of the pairs K2/S2, P1/K1, N2/M2, Q1/O1 fitted (not inferred) to take an inference relation from, found none",
+        )
+        .into());
+    }
+    Ok(rules)
 }
 
 /// Analyses one gauge's record (read with `spec`), QC first unless `qc` is None, and writes the
