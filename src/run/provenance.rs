@@ -96,15 +96,28 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
             }
         }
     }
+    // Every project table and key not named here is taken as one that can change a tide (the
+    // naive-time offset, `[qc]`, `[interpolation]`, and any added later): a difference there is
+    // refused rather than passed over.
+    let mut tide = match serde_json::to_value(spec).expect("a project serialises") {
+        Value::Object(m) => m,
+        _ => Map::new(),
+    };
+    for k in [
+        "name",
+        "zoning",
+        "output",
+        "gauge",
+        "soundings",
+        "uncertainty",
+    ] {
+        tide.remove(k);
+    }
+    tide.insert("zoning_sha256".into(), json!(sha256_file(&spec.zoning)?));
+    tide.insert("zones".into(), Value::Array(zones));
+    tide.insert("gauges".into(), Value::Array(gauges));
     Ok(json!({
-        "tide": {
-            "zoning_sha256": sha256_file(&spec.zoning)?,
-            "zones": zones,
-            "gauges": gauges,
-            "naive_time_utc_offset": spec.naive_time_utc_offset,
-            "qc": serde_json::to_value(&spec.qc).expect("qc settings serialise"),
-            "interpolation": serde_json::to_value(&spec.interpolation).expect("interpolation settings serialise"),
-        },
+        "tide": tide,
         "uncertainty": {
             "project": u_tide,
             "gauges": gauge_u,
