@@ -333,6 +333,25 @@ pub struct LineSeries {
     pub step_s: f64,
 }
 
+/// A tide model that first locates the sounding in the zoning: a sounding outside every zone is
+/// `Outside`, whatever `inner` would give it (a per-line series carries one zone per time, so a
+/// sounding of the line outside the zoning would otherwise take the line's tide).
+pub struct LocatedFirst<'a> {
+    /// Zone polygons in the soundings' CRS.
+    pub locator: &'a ZoneLocator,
+    /// The model asked for soundings inside a zone.
+    pub inner: &'a dyn TideModel,
+}
+
+impl TideModel for LocatedFirst<'_> {
+    fn tide_at(&self, x: f64, y: f64, t_s: f64, line: &str, s: &mut Vec<FeedState>) -> TideOutcome {
+        if self.locator.locate(x, y).is_none() {
+            return TideOutcome::Outside;
+        }
+        self.inner.tide_at(x, y, t_s, line, s)
+    }
+}
+
 /// Tide from per-survey-line corrector series: looked up by the sounding's line and
 /// interpolated in time along it (between rows no further apart than the step); the zone is the
 /// one of the nearest corrector time.

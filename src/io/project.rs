@@ -464,8 +464,11 @@ impl GaugeSpec {
     }
 }
 
+/// `max_gap_min` of a gauge that does not set it, minutes.
+pub const DEFAULT_MAX_GAP_MIN: f64 = 30.0;
+
 fn default_max_gap_min() -> f64 {
-    30.0
+    DEFAULT_MAX_GAP_MIN
 }
 fn default_time_column() -> String {
     "time".into()

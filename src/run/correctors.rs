@@ -35,12 +35,15 @@ pub const LINE_FILE: &str = "correctors-lines.csv";
 pub const LINE_NEAREST_SOUNDING_S: f64 = 300.0;
 
 /// The per-line corrector file's text: for each survey line, on the step grid over the line's
-/// own time span, the tide in the zone where the launch was (the zone of the sounding nearest in
+/// own time span (from the grid time at or before its first sounding to the one at or after its
+/// last), the tide in the zone where the launch was (the zone of the sounding nearest in
 /// time). Returns the text and the number of lines.
 pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), IoError> {
     use std::collections::BTreeMap;
     // Per line: per grid bin, the first sounding's (time, zone).
     let mut lines: BTreeMap<String, BTreeMap<i64, (f64, Option<usize>)>> = BTreeMap::new();
+    // Per line: its first and last sounding time, so the grid brackets every sounding.
+    let mut spans: BTreeMap<String, (f64, f64)> = BTreeMap::new();
     for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
         let locator = super::load::locator_for_crs(&loaded.zoning, &group.crs).map_err(|m| {
             IoError::content(
@@ -50,6 +53,8 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
         })?;
         for_each_sounding(loaded, group, |v| {
             let bin = (v.t_s / step_s).round() as i64;
+            let span = spans.entry(v.line_id.to_string()).or_insert((v.t_s, v.t_s));
+            *span = (span.0.min(v.t_s), span.1.max(v.t_s));
             lines
                 .entry(v.line_id.to_string())
                 .or_default()
@@ -66,6 +71,11 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
         else {
             continue;
         };
+        // Grid times from the last one at or before the line's first sounding to the first one
+        // at or after its last, so that no sounding lies outside the line's rows.
+        let (t_first, t_last) = spans[line];
+        let b0 = b0.min((t_first / step_s).floor() as i64);
+        let b1 = b1.max((t_last / step_s).ceil() as i64);
         for b in b0..=b1 {
             let t = b as f64 * step_s;
             // The sounding nearest in time among this bin and its neighbours.

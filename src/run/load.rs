@@ -69,6 +69,10 @@ pub struct UncertaintyConfig {
     pub gauge_rates: Vec<crate::compute::uncertainty::GaugeSlopes>,
 }
 
+/// Longest record step, minutes, that quality control's spike and rate tests are built for
+/// (docs/qc.md): above it, a warning says they can miss faults.
+pub const QC_BUILT_FOR_STEP_MIN: f64 = 15.0;
+
 /// Reads gauges and zoning. Problems that make a reduction impossible are errors.
 /// `order_override` is the command line's `--order`: it replaces `[uncertainty] order`, and an
 /// unknown name is reported at `--order`, not at the project file.
@@ -85,9 +89,14 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                     findings.push(Finding::error(
                         Position::file(&project.path).field(format!("gauge[{i}].max_gap_min")),
                         format!(
-                            "gauge '{}': max_gap_min = {} is shorter than the record's own step of {} min: every interval would be a gap and no sounding would get a tide from it; set max_gap_min to at least {}; {} (2.5 steps) also bridges one missing reading",
+                            "gauge '{}': max_gap_min = {}{} is shorter than the record's own step of {} min: every interval would be a gap and no sounding would get a tide from it; set max_gap_min to at least {}; {} (2.5 steps) also bridges one missing reading",
                             g.id,
                             g.max_gap_min,
+                            if g.max_gap_min == crate::io::project::DEFAULT_MAX_GAP_MIN {
+                                " (the default, when the gauge does not set it)"
+                            } else {
+                                ""
+                            },
                             clean_minutes(step_min),
                             clean_minutes(step_min),
                             clean_minutes(2.5 * step_min)
@@ -382,6 +391,17 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                     ),
                 ));
             }
+        }
+        if prepared.qc.is_some() && prepared.method.nominal_step_min > QC_BUILT_FOR_STEP_MIN {
+            findings.push(Finding::warning(
+                Position::file(&g.record),
+                format!(
+                    "gauge '{}': quality control is built for records of 1 to {} min; at this record's {}-min step the spike and rate tests see the tide's own curvature and can miss faults: review the record against its neighbours or its prediction (`ebbwise qc` compares gauges)",
+                    g.id,
+                    QC_BUILT_FOR_STEP_MIN,
+                    clean_minutes(prepared.method.nominal_step_min)
+                ),
+            ));
         }
         if let Some(c) = g.lowpass_cutoff_min {
             if c <= 2.0 * prepared.method.nominal_step_min {

@@ -111,6 +111,8 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
                 .zip(&u.zone_u)
                 .map(|(z, x)| {
                     let (u_datum_m, from) = zone_datum_u(z, &u.gauge_u, x);
+                    // Written to the 4 decimals of every uncertainty (it may be computed).
+                    let u_datum_m = (u_datum_m * 1e4).round() / 1e4;
                     ZoneInput {
                         zone: z.id.clone(),
                         u_time_corrector_min: x.u_time_corrector_min,

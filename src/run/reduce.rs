@@ -466,6 +466,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 interp: loaded.interp.as_ref(),
             };
             let series_model;
+            let located;
             let model: &dyn TideModel = match opts.kind {
                 RunKind::Reduce | RunKind::SoundingCorrectors => &zoning,
                 RunKind::Apply(ApplyModel::Zones(series, step_s, step_from), _) => {
@@ -478,7 +479,13 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                     &series_model
                 }
                 RunKind::Apply(ApplyModel::Soundings(table), _) => table,
-                RunKind::Apply(ApplyModel::Lines(lines), _) => lines,
+                RunKind::Apply(ApplyModel::Lines(lines), _) => {
+                    located = crate::compute::correctors::LocatedFirst {
+                        locator: &locators[*gi],
+                        inner: lines,
+                    };
+                    &located
+                }
             };
             reduce_file(
                 loaded,

@@ -399,3 +399,31 @@ fn a_bad_gauge_record_does_not_hide_the_soundings_outside_the_zoning() {
         "{err}"
     );
 }
+
+/// An hourly record: `check` says quality control is not built for its step (common practice:
+/// spike and rate tests on hourly samples see the tide's own curvature), and a 6-min record gets
+/// no such warning.
+#[test]
+fn quality_control_on_a_sparse_record_is_named() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    let err = stderr(&ebbwise(&["check", &p.project()]));
+    assert!(!err.contains("quality control is built for"), "{err}");
+    let mut g = String::from("time,height\n");
+    for h in 0..=4 {
+        g.push_str(&format!(
+            "2026-06-14T{h:02}:00:00Z,{:.3}\n",
+            1.0 + 0.06 * h as f64
+        ));
+    }
+    p.write("g1.csv", &g);
+    let project = std::fs::read_to_string(p.path("project.toml"))
+        .unwrap()
+        .replace("max_gap_min = 30", "max_gap_min = 150");
+    p.write("project.toml", &project);
+    let err = stderr(&ebbwise(&["check", &p.project()]));
+    assert!(
+        err.contains("gauge 'g1': quality control is built for records of 1 to 15 min; at this record's 60-min step"),
+        "{err}"
+    );
+}

@@ -376,6 +376,25 @@ fn per_line_series_round_trip() {
             column(&via, "reduced_depth_m"),
         );
         let (za, zb) = (column(&direct, "zone"), column(&via, "zone"));
+        // A sounding outside every zone is outside_zoning through the line file too, never given
+        // the line's tide.
+        let (sa, sb) = (column(&direct, "status"), column(&via, "status"));
+        let outside: Vec<usize> = (0..sa.len())
+            .filter(|&k| sa[k] == "outside_zoning")
+            .collect();
+        assert!(
+            name == "launch-b" || outside.len() == 67,
+            "{name}: {}",
+            outside.len()
+        );
+        for &k in &outside {
+            assert_eq!(sb[k], "outside_zoning", "{name} row {k}");
+        }
+        // The line grid brackets each line's first and last sounding: every sounding keeps the
+        // status the direct reduction gives it (none lost at a line's ends).
+        for k in 0..sa.len() {
+            assert_eq!(sa[k], sb[k], "{name} row {k}");
+        }
         let mut compared = 0;
         for k in 0..a.len() {
             if a[k].is_empty() || b[k].is_empty() {
