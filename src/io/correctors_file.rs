@@ -202,7 +202,7 @@ fn u_parts(
     let mut out = [0.0; 5];
     let mut given = 0;
     for (k, name) in U_PART_COLUMNS.iter().enumerate() {
-        if let Some(v) = optional_metres(rec, first + k, &at(name))? {
+        if let Some(v) = optional_uncertainty(rec, first + k, &at(name))? {
             out[k] = v;
             given += 1;
         }
@@ -233,10 +233,7 @@ pub fn sounding_key_clashes(path: &Path) -> Result<KeyClashes, IoError> {
     let mut zones: HashMap<String, usize> = HashMap::new();
     let mut clashes = KeyClashes::default();
     let mut rec = csv::StringRecord::new();
-    while rdr
-        .read_record(&mut rec)
-        .map_err(|e| super::gauge_csv::csv_error(e, path))?
-    {
+    while rdr.read_record(&mut rec).map_err(|e| read_error(e, path))? {
         if rec.len() < 5 || rec[1].is_empty() {
             continue;
         }
@@ -257,10 +254,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
     let mut rdr = csv::ReaderBuilder::new()
         .has_headers(true)
         .from_reader(reader);
-    let h = rdr
-        .headers()
-        .map_err(|e| super::gauge_csv::csv_error(e, path))?
-        .clone();
+    let h = rdr.headers().map_err(|e| read_error(e, path))?.clone();
     let per_sounding = SOUNDING_CORRECTOR_COLUMNS;
     let zones = header_is(&h, &ZONE_CORRECTOR_COLUMNS);
     let lines = header_is(&h, &LINE_CORRECTOR_COLUMNS);
@@ -285,7 +279,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
         match rdr.read_record(&mut rec) {
             Ok(false) => break,
             Ok(true) => {}
-            Err(e) => return Err(super::gauge_csv::csv_error(e, path)),
+            Err(e) => return Err(read_error(e, path)),
         }
         let line = rec.position().map(|p| p.line()).unwrap_or(0);
         let at = |f: &str| Position::file(path).line(line).field(f.to_string());
@@ -311,6 +305,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                     "a tide must be given exactly when the status is neither 'missing' nor 'flagged'",
                 ));
             }
+            let (u_tide_m, u_parts_m) = carried_uncertainty(&rec, 3, 5, &at)?;
             let series = by_zone.entry(rec[0].to_string()).or_default();
             if series.last().is_some_and(|c: &Corrector| c.t_s >= t) {
                 return Err(IoError::content(
@@ -321,8 +316,8 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
             series.push(Corrector {
                 t_s: t,
                 tide_m: tide,
-                u_tide_m: opt_num(3, "u_tide_m")?,
-                u_parts_m: u_parts(&rec, 5, &at)?,
+                u_tide_m,
+                u_parts_m,
                 status,
             });
         } else {
@@ -334,12 +329,13 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                 .map_err(|m| IoError::content(at("time_utc"), m))?;
             let zone = (!rec[4].is_empty()).then(|| rec[4].to_string());
             let tide = opt_num(5, "tide_m")?;
+            let (u_tide_m, u_parts_m) = carried_uncertainty(&rec, 6, 8, &at)?;
             let row = SoundingRow {
                 zone,
                 tide_m: tide,
                 status: rec[7].to_string(),
-                u_tide_m: opt_num(6, "u_tide_m")?,
-                u_parts_m: u_parts(&rec, 8, &at)?,
+                u_tide_m,
+                u_parts_m,
             };
             if let Some(prev) = by_sounding.insert(sounding_key(&rec[0], t), row.clone()) {
                 if prev != row {
@@ -373,7 +369,7 @@ fn parse_line_rows<R: Read>(
         match rdr.read_record(&mut rec) {
             Ok(false) => break,
             Ok(true) => {}
-            Err(e) => return Err(super::gauge_csv::csv_error(e, path)),
+            Err(e) => return Err(read_error(e, path)),
         }
         let line = rec.position().map(|p| p.line()).unwrap_or(0);
         let at = |f: &str| Position::file(path).line(line).field(f.to_string());
@@ -404,12 +400,13 @@ fn parse_line_rows<R: Read>(
             ));
         }
         let zone = (!rec[2].is_empty()).then(|| rec[2].to_string());
+        let (u_tide_m, u_parts_m) = carried_uncertainty(&rec, 4, 6, &at)?;
         series.push((
             Corrector {
                 t_s: t,
                 tide_m: tide,
-                u_tide_m: num(4, "u_tide_m")?,
-                u_parts_m: u_parts(&rec, 6, &at)?,
+                u_tide_m,
+                u_parts_m,
                 status,
             },
             zone,
@@ -438,6 +435,108 @@ fn optional_metres(
                 format!("expected a number in metres, found '{s}'"),
             )
         })
+}
+
+/// Field `i` as a standard uncertainty in metres: as [`optional_metres`], and refused when
+/// negative.
+fn optional_uncertainty(
+    rec: &csv::StringRecord,
+    i: usize,
+    at: &Position,
+) -> Result<Option<f64>, IoError> {
+    let v = optional_metres(rec, i, at)?;
+    match v {
+        Some(x) if x < 0.0 => Err(IoError::content(
+            at.clone(),
+            format!(
+                "a standard uncertainty cannot be negative, found '{}'",
+                rec.get(i).unwrap_or("")
+            ),
+        )),
+        _ => Ok(v),
+    }
+}
+
+/// How far `u_tide_m` may differ from the root sum of squares of its five components, metres,
+/// when all six were written with 4 decimals. Each written value is within half a unit of the
+/// last decimal, h = 0.00005 m, of the value computed. `u_tide_m` moves by at most h; the root sum
+/// of squares is the Euclidean norm of the five components, so moving each by at most h moves it
+/// by at most the norm of the moves, √5 · h (triangle inequality). The bound is their sum,
+/// (1 + √5) · h ≈ 0.000162 m, with 1e-9 m for the decimal-to-binary conversion of six numbers.
+pub const U_SUM_TOLERANCE_M: f64 = (1.0 + 2.236_067_977_499_79) * 0.000_05 + 1e-9;
+
+/// `u_tide_m` (field `u_col`) and its five components (fields `first_part..`), each refused when
+/// negative, and the row refused when both are given and `u_tide_m` is not the root sum of
+/// squares of the components within [`U_SUM_TOLERANCE_M`].
+fn carried_uncertainty(
+    rec: &csv::StringRecord,
+    u_col: usize,
+    first_part: usize,
+    at: &dyn Fn(&str) -> Position,
+) -> Result<(Option<f64>, Option<[f64; 5]>), IoError> {
+    let u = optional_uncertainty(rec, u_col, &at("u_tide_m"))?;
+    let parts = u_parts(rec, first_part, at)?;
+    if let (Some(u), Some(p)) = (u, parts) {
+        let rss = p.iter().map(|x| x * x).sum::<f64>().sqrt();
+        if (u - rss).abs() > U_SUM_TOLERANCE_M {
+            return Err(IoError::content(
+                at("u_tide_m"),
+                format!(
+                    "{u:.4} m is not the root sum of squares of the five components ({rss:.4} m): the components and u_tide_m must come from the same budget"
+                ),
+            ));
+        }
+    }
+    Ok((u, parts))
+}
+
+/// A csv error as a positioned error: a row with a different number of fields from the header
+/// is worded as the other readers word it; everything else as [`super::gauge_csv::csv_error`].
+fn read_error(e: csv::Error, path: &Path) -> IoError {
+    if let csv::ErrorKind::UnequalLengths {
+        pos,
+        expected_len,
+        len,
+    } = e.kind()
+    {
+        let mut at = Position::file(path);
+        at.line = pos.as_ref().map(|p| p.line());
+        return IoError::content(
+            at,
+            format!("the row has {len} fields, the header {expected_len}"),
+        );
+    }
+    super::gauge_csv::csv_error(e, path)
+}
+
+/// Where zone `zone` first appears in the correction file `path`: the file, the line of its first
+/// row and the field `zone`. The line is left out when the file cannot be read again or holds no
+/// row of that zone. For messages about a zone found in a file already read.
+pub fn zone_position(path: &Path, zone: &str) -> Position {
+    let at = Position::file(path);
+    let line = std::fs::File::open(path)
+        .ok()
+        .and_then(|f| first_line_of_zone(std::io::BufReader::new(f), zone));
+    match line {
+        Some(l) => at.line(l).field("zone"),
+        None => at.field("zone"),
+    }
+}
+
+/// The line of the first row whose `zone` field is `zone`, in a correction file of any kind.
+fn first_line_of_zone<R: Read>(reader: R, zone: &str) -> Option<u64> {
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .flexible(true)
+        .from_reader(reader);
+    let col = rdr.headers().ok()?.iter().position(|h| h == "zone")?;
+    let mut rec = csv::StringRecord::new();
+    while rdr.read_record(&mut rec).ok()? {
+        if rec.get(col) == Some(zone) {
+            return rec.position().map(|p| p.line());
+        }
+    }
+    None
 }
 
 /// Turns per-sounding rows into model entries, zone ids resolved against `zone_ids`.
@@ -495,7 +594,7 @@ mod tests {
         assert_eq!(m["Z"][0].u_tide_m, Some(0.08));
         assert_eq!(m["Z"][0].u_parts_m, None);
         let v3 = format!(
-            "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,0.0100,0.0200,0.0300,0.0400,0.0500\n",
+            "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0742,observed,0.0100,0.0200,0.0300,0.0400,0.0500\n",
             ZONE_CORRECTOR_COLUMNS.join(",")
         );
         let CorrectionFile::Zones(m) = parse(&v3).unwrap() else {
@@ -517,7 +616,7 @@ mod tests {
         let row = r.values().next().unwrap();
         assert_eq!((row.u_tide_m, row.u_parts_m), (Some(0.08), None));
         let s3 = format!(
-            "{}\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,0.0800,reduced,0.0100,0.0200,0.0300,0.0400,0.0500\n",
+            "{}\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,0.0742,reduced,0.0100,0.0200,0.0300,0.0400,0.0500\n",
             SOUNDING_CORRECTOR_COLUMNS.join(",")
         );
         let CorrectionFile::Soundings(r) = parse(&s3).unwrap() else {
@@ -526,6 +625,104 @@ mod tests {
         assert_eq!(
             r.values().next().unwrap().u_parts_m,
             Some([0.01, 0.02, 0.03, 0.04, 0.05])
+        );
+    }
+
+    fn zone_row(u: &str, parts: &str) -> String {
+        format!(
+            "{}\nZ,2026-06-14T00:00:00Z,1.2000,{u},observed,{parts}\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        )
+    }
+
+    #[test]
+    fn negative_uncertainties_are_refused_at_their_line_and_field() {
+        // A standard uncertainty is a non-negative number (GUM, JCGM 100:2008, 2.3.1).
+        let e = parse(&zone_row("-0.0800", ",,,,")).unwrap_err().to_string();
+        assert!(
+            e.contains("c.csv:2: field 'u_tide_m'") && e.contains("negative"),
+            "{e}"
+        );
+        let e = parse(&zone_row("0.0800", "0.0100,0.0200,-0.0300,0.0400,0.0500"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("c.csv:2: field 'u_tide_range_m'") && e.contains("negative"),
+            "{e}"
+        );
+        // The same refusal in the per-line and per-sounding files.
+        let l = format!(
+            "{}\nL,2026-06-14T00:00:00Z,Z,1.2000,0.0800,observed,0.0100,0.0200,0.0300,-0.0400,0.0500\n",
+            LINE_CORRECTOR_COLUMNS.join(",")
+        );
+        let e = parse(&l).unwrap_err().to_string();
+        assert!(e.contains("c.csv:2: field 'u_tide_timing_m'"), "{e}");
+        let s = format!(
+            "{}\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,-0.0800,reduced,,,,,\n",
+            SOUNDING_CORRECTOR_COLUMNS.join(",")
+        );
+        let e = parse(&s).unwrap_err().to_string();
+        assert!(e.contains("c.csv:2: field 'u_tide_m'"), "{e}");
+    }
+
+    #[test]
+    fn u_tide_m_must_be_the_root_sum_of_squares_of_its_components() {
+        // 0.01² + 0.02² + 0.03² + 0.04² + 0.05² = 0.0055 m², √ = 0.074162 m: written 0.0742.
+        let parts = "0.0100,0.0200,0.0300,0.0400,0.0500";
+        assert!(parse(&zone_row("0.0742", parts)).is_ok());
+        // One unit of the last decimal off (0.0741, 0.058 mm below) is still within the rounding
+        // bound of 0.162 mm; three units (0.0745, 0.34 mm above) are not.
+        assert!(parse(&zone_row("0.0741", parts)).is_ok());
+        let e = parse(&zone_row("0.0745", parts)).unwrap_err().to_string();
+        assert!(e.contains("c.csv:2: field 'u_tide_m'"), "{e}");
+        // A value clearly from another budget: refused in the per-line file too.
+        let l = format!(
+            "{}\nL,2026-06-14T00:00:00Z,Z,1.2000,0.0800,observed,{parts}\n",
+            LINE_CORRECTOR_COLUMNS.join(",")
+        );
+        let e = parse(&l).unwrap_err().to_string();
+        assert!(
+            e.contains("c.csv:2: field 'u_tide_m'") && e.contains("0.0742"),
+            "{e}"
+        );
+        // The bound (derived at U_SUM_TOLERANCE_M): the worst case of six roundings of 0.00005 m.
+        assert!((U_SUM_TOLERANCE_M - 0.000_161_8).abs() < 1e-7);
+    }
+
+    #[test]
+    fn a_row_with_another_number_of_fields_names_its_line_and_both_counts() {
+        let text = format!(
+            "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,,,,,\nZ,2026-06-14T00:10:00Z,1.2000,0.0800,observed,,,,,,\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        );
+        let e = parse(&text).unwrap_err().to_string();
+        assert_eq!(e, "c.csv:3: the row has 11 fields, the header 10");
+    }
+
+    #[test]
+    fn the_first_line_of_each_zone_is_found_in_every_kind_of_file() {
+        let zones = format!(
+            "{}\nA,2026-06-14T00:00:00Z,1.2000,,observed,,,,,\nB,2026-06-14T00:00:00Z,1.1000,,observed,,,,,\nB,2026-06-14T00:10:00Z,1.1000,,observed,,,,,\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        );
+        assert_eq!(first_line_of_zone(zones.as_bytes(), "B"), Some(3));
+        assert_eq!(first_line_of_zone(zones.as_bytes(), "A"), Some(2));
+        assert_eq!(first_line_of_zone(zones.as_bytes(), "C"), None);
+        let lines = format!(
+            "{}\nL,2026-06-14T00:00:00Z,A,1.2000,,observed,,,,,\nL,2026-06-14T00:10:00Z,B,1.2000,,observed,,,,,\n",
+            LINE_CORRECTOR_COLUMNS.join(",")
+        );
+        assert_eq!(first_line_of_zone(lines.as_bytes(), "B"), Some(3));
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("z.csv");
+        std::fs::write(&p, &zones).unwrap();
+        assert_eq!(
+            zone_position(&p, "B").to_string(),
+            format!("{}:3: field 'zone'", p.display())
+        );
+        assert_eq!(
+            zone_position(&p, "C").to_string(),
+            format!("{}: field 'zone'", p.display())
         );
     }
 }
