@@ -833,7 +833,7 @@ pub fn apply_corrections(
             for id in map.keys() {
                 if !zone_ids.contains(&id.as_str()) {
                     return Err(IoError::content(
-                        Position::file(corrections).field("zone"),
+                        crate::io::correctors_file::zone_position(corrections, id),
                         format!(
                             "zone '{id}' is not in the project's zoning {}",
                             loaded.project.spec.zoning.display()
@@ -894,7 +894,7 @@ pub fn apply_corrections(
                     let zi = match z {
                         Some(id) => Some(*index.get(id.as_str()).ok_or_else(|| {
                             IoError::content(
-                                Position::file(corrections).field("zone"),
+                                crate::io::correctors_file::zone_position(corrections, &id),
                                 format!(
                                     "zone '{id}' is not in the project's zoning {}",
                                     loaded.project.spec.zoning.display()

@@ -511,3 +511,28 @@ fn check_warns_of_pings_across_a_zone_edge() {
     assert_eq!(o.status.code(), Some(0), "{err}");
     assert!(!err.contains("share a line and time"), "{err}");
 }
+
+/// A zone the project's zoning does not have is refused at the line of its first row.
+#[test]
+fn an_unknown_zone_is_refused_at_its_line() {
+    let p =
+        MiniProject::new("time,lon,lat,depth,line\n2026-06-14T01:00:00Z,10.005,50.005,10.0,L1\n");
+    p.write(
+        "c.csv",
+        "zone,time_utc,tide_m,u_tide_m,status\n\
+         Z1,2026-06-14T01:00:00.000Z,2.0600,,observed\n\
+         Z9,2026-06-14T01:00:00.000Z,2.0600,,observed\n",
+    );
+    let o = ebbwise(&[
+        "apply",
+        &p.path("c.csv").to_string_lossy(),
+        "--project",
+        &p.project(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("c.csv:3: field 'zone': zone 'Z9' is not in the project's zoning"),
+        "{}",
+        stderr(&o)
+    );
+}
