@@ -11,7 +11,9 @@ use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
 use ebbwise::io::timefmt::{parse_offset, utc_label};
-use ebbwise::run::harmonics::{analyse_gauge, inference_rules_from, AnalyseOutcome};
+use ebbwise::run::harmonics::{
+    analyse_gauge, inference_rules_from, AnalyseOutcome, AnalyseRequest,
+};
 use ebbwise::CAUTION;
 
 use super::common::{find_gauge, median_m, DataOut, Stdout, Units};
@@ -159,11 +161,14 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             let qc = QcSpec::default();
             analyse_gauge(
                 &spec,
-                naive,
-                (!a.no_qc).then_some(&qc),
-                &settings,
-                None,
-                levels,
+                AnalyseRequest {
+                    naive_offset: naive,
+                    qc: (!a.no_qc).then_some(&qc),
+                    settings: &settings,
+                    gauge_id: None,
+                    levels,
+                    inference_reference_file: a.infer_from.as_deref(),
+                },
                 sink(&out, &mut stdout),
             )
             .map_err(|e| {
@@ -186,11 +191,14 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             });
             analyse_gauge(
                 g,
-                p.gauge_naive_offset(g),
-                (!a.no_qc).then_some(&p.spec.qc),
-                &settings,
-                Some(g.id.clone()),
-                "above chart datum",
+                AnalyseRequest {
+                    naive_offset: p.gauge_naive_offset(g),
+                    qc: (!a.no_qc).then_some(&p.spec.qc),
+                    settings: &settings,
+                    gauge_id: Some(&g.id),
+                    levels: "above chart datum",
+                    inference_reference_file: a.infer_from.as_deref(),
+                },
                 sink(&out, &mut stdout),
             )?
         }

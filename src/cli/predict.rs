@@ -132,6 +132,9 @@ fn print_prediction(a: &Args, o: &PredictOutcome, series_to_stdout: bool, turnin
         highs,
         o.high_low_waters.len() - highs
     );
+    for warning in &o.warnings {
+        let _ = writeln!(w, "  warning: {warning}");
+    }
     if let (Some(lo), Some(hi)) = (
         o.high_low_waters
             .iter()

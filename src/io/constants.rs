@@ -47,13 +47,17 @@
 //! ```
 //!
 //! `short_record = true` marks constants from a record shorter than the analysis's minimum,
-//! analysed on request. Every key added after the first files is optional, so older files
+//! analysed on request. After the analysis's keys come how the record was read and analysed
+//! (`tool_version`, `record_sha256`, `input_time_zone`, `input_units`, `datum`,
+//! `zero_above_datum_m`, `samples_read`, `qc_applied`, the `[qc_set_aside]` counts by flag,
+//! `inference`, `inference_reference_file`, `constituent_choice`; see [`Provenance`]). Every key added after the first files is optional, so older files
 //! still read.
 //!
 //! Reading checks every constituent name against the table of `compute::astro` and its speed
 //! against the table's (to 1e-6 °/h), so a file made with another definition of a constituent is
 //! refused rather than predicted wrongly.
 
+use std::collections::BTreeMap;
 use std::path::Path;
 
 use serde::{Deserialize, Serialize};
@@ -193,6 +197,43 @@ pub struct ConstantsFile {
     /// The record is shorter than the analysis's minimum and was analysed on request.
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub short_record: bool,
+    /// The program that wrote the file, `ebbwise <version>`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tool_version: Option<String>,
+    /// SHA-256 of the record file analysed, lowercase hex.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub record_sha256: Option<String>,
+    /// How the record's times were read: each with its own UTC offset, and the offset given to
+    /// times written without one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub input_time_zone: Option<String>,
+    /// Units of the record's heights (`m`, `ft`, `us_ft`); the constants are in metres.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub input_units: Option<String>,
+    /// What the levels are referred to: `chart datum` or `record zero`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub datum: Option<String>,
+    /// Height of the record's zero above chart datum as given, metres (absent for `record zero`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub zero_above_datum_m: Option<f64>,
+    /// Samples in the record, before QC.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub samples_read: Option<usize>,
+    /// Whether quality control ran before the analysis.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub qc_applied: Option<bool>,
+    /// Samples QC set aside, by flag (a sample with two flags counts under each).
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub qc_set_aside: BTreeMap<String, usize>,
+    /// Whether unresolved K2, P1, N2, Q1 could be inferred (`true`) or not (`--no-inference`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inference: Option<bool>,
+    /// The reference station's constants file the inference relations were taken from.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub inference_reference_file: Option<String>,
+    /// How the constituents were chosen: `rayleigh` (with `rayleigh_factor`) or `given`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub constituent_choice: Option<String>,
     /// The constituents.
     #[serde(rename = "constituent", default)]
     pub constituents: Vec<ConstituentEntry>,
@@ -257,6 +298,25 @@ impl ConstantsFile {
                 })
                 .collect(),
             short_record: a.short_record,
+            tool_version: Some(format!("ebbwise {}", env!("CARGO_PKG_VERSION"))),
+            record_sha256: None,
+            input_time_zone: None,
+            input_units: None,
+            datum: None,
+            zero_above_datum_m: None,
+            samples_read: None,
+            qc_applied: None,
+            qc_set_aside: BTreeMap::new(),
+            inference: None,
+            inference_reference_file: None,
+            constituent_choice: Some(
+                if a.rayleigh_factor.is_some() {
+                    "rayleigh"
+                } else {
+                    "given"
+                }
+                .into(),
+            ),
             unresolved: a
                 .unresolved
                 .iter()
@@ -276,6 +336,59 @@ impl ConstantsFile {
                 })
                 .collect(),
         }
+    }
+
+    /// The file with what was known of the record and of the analysis's choices besides the
+    /// analysis itself.
+    pub fn with_provenance(mut self, p: Provenance) -> ConstantsFile {
+        self.record_sha256 = p.record_sha256;
+        self.input_time_zone = Some(match p.naive_time_utc_offset {
+            Some(o) => format!("each time's own UTC offset; {o} for times written without one"),
+            None => "each time's own UTC offset".into(),
+        });
+        self.input_units = Some(p.input_units.into());
+        match p.zero_above_datum_m {
+            Some(z) => {
+                self.datum = Some("chart datum".into());
+                self.zero_above_datum_m = Some(round(z, HEIGHT_DECIMALS));
+            }
+            None => self.datum = Some("record zero".into()),
+        }
+        self.samples_read = Some(p.samples_read);
+        self.qc_applied = Some(p.qc_set_aside.is_some());
+        self.qc_set_aside = p.qc_set_aside.unwrap_or_default();
+        self.inference = Some(p.inference);
+        self.inference_reference_file = p.inference_reference_file;
+        self
+    }
+
+    /// The fitted (not inferred) constituents whose constants carry an unresolved neighbour's
+    /// signal expected larger than the fit's own uncertainty (or of unknown size), each with the
+    /// names it absorbs: read from `absorbs` and the `[[unresolved]]` entries.
+    pub fn contaminated(&self) -> Vec<(&str, Vec<&str>)> {
+        self.constituents
+            .iter()
+            .filter(|c| c.inferred_from.is_none())
+            .filter_map(|c| {
+                let big: Vec<&str> = c
+                    .absorbs
+                    .iter()
+                    .filter(|n| {
+                        let e = self
+                            .unresolved
+                            .iter()
+                            .find(|u| &u.name == *n)
+                            .and_then(|u| u.expected_amplitude_m);
+                        match (e, c.u_amplitude_fit_m) {
+                            (Some(e), Some(u)) => e > u,
+                            _ => true,
+                        }
+                    })
+                    .map(String::as_str)
+                    .collect();
+                (!big.is_empty()).then_some((c.name.as_str(), big))
+            })
+            .collect()
     }
 
     /// Inference relations taken from these constants (a nearby long-term station's): for each
@@ -404,6 +517,28 @@ impl ConstantsFile {
 
 use crate::compute::astro::Constituent;
 
+/// What the analysis knew of its record and choices beyond the analysis itself
+/// ([`ConstantsFile::with_provenance`]).
+#[derive(Debug, Clone, Default)]
+pub struct Provenance {
+    /// SHA-256 of the record file.
+    pub record_sha256: Option<String>,
+    /// The UTC offset given to times written without one (`+01:00`).
+    pub naive_time_utc_offset: Option<String>,
+    /// Units of the record's heights as written (`m`, `ft`, `us_ft`).
+    pub input_units: &'static str,
+    /// Height of the record's zero above chart datum, metres, when the relation is known.
+    pub zero_above_datum_m: Option<f64>,
+    /// Samples in the record.
+    pub samples_read: usize,
+    /// Samples QC set aside by flag name, `None` when QC did not run.
+    pub qc_set_aside: Option<BTreeMap<String, usize>>,
+    /// Whether inference was allowed.
+    pub inference: bool,
+    /// The reference station's constants file of `--infer-from`.
+    pub inference_reference_file: Option<String>,
+}
+
 /// Reads a constants file.
 pub fn read_constants(path: &Path) -> Result<(ConstantsFile, HarmonicConstants), IoError> {
     let text = std::fs::read_to_string(path).map_err(|e| IoError::file(path, e))?;
@@ -439,8 +574,36 @@ mod tests {
         let h = predict_grid(&k, t0, 3600.0, 30 * 24);
         let t: Vec<f64> = (0..h.len()).map(|i| t0 + 3600.0 * i as f64).collect();
         let a = analyse(&t, &h, &AnalysisSettings::default()).unwrap();
-        let f = ConstantsFile::from_analysis(&a, Some("x.csv".into()), None, "above chart datum");
+        let f = ConstantsFile::from_analysis(&a, Some("x.csv".into()), None, "above chart datum")
+            .with_provenance(Provenance {
+                record_sha256: Some("ab".repeat(32)),
+                naive_time_utc_offset: Some("+01:00".into()),
+                input_units: "ft",
+                zero_above_datum_m: Some(-0.3),
+                samples_read: h.len() + 2,
+                qc_set_aside: Some(BTreeMap::from([
+                    ("spike".to_string(), 1),
+                    ("out_of_band".to_string(), 1),
+                ])),
+                inference: true,
+                inference_reference_file: Some("ref.constants.toml".into()),
+            });
         let text = f.to_toml();
+        for key in [
+            "tool_version = \"ebbwise ",
+            "record_sha256 = \"abab",
+            "input_time_zone = \"each time's own UTC offset; +01:00 for times written without one\"",
+            "input_units = \"ft\"",
+            "datum = \"chart datum\"",
+            "zero_above_datum_m = -0.3",
+            "qc_applied = true",
+            "spike = 1",
+            "inference = true",
+            "inference_reference_file = \"ref.constants.toml\"",
+            "constituent_choice = \"rayleigh\"",
+        ] {
+            assert!(text.contains(key), "{key} not in\n{text}");
+        }
         let dir = tempfile::tempdir().unwrap();
         let p = dir.path().join("k.toml");
         std::fs::write(&p, &text).unwrap();

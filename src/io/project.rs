@@ -345,6 +345,15 @@ pub enum HeightUnit {
 }
 
 impl HeightUnit {
+    /// The word written in a project file and in a constants file's `input_units`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            HeightUnit::Metre => "m",
+            HeightUnit::Foot => "ft",
+            HeightUnit::UsSurveyFoot => "us_ft",
+        }
+    }
+
     /// Metres per unit.
     ///
     /// # References

@@ -1,6 +1,7 @@
 //! `ebbwise analyse` and `ebbwise predict`: harmonic analysis of a gauge record into a constants file,
 //! and prediction from one.
 
+use std::collections::BTreeMap;
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -10,7 +11,10 @@ use crate::compute::harmonic::{
     HighLowWater, InferenceRule, INFERENCE_PAIRS,
 };
 use crate::io::atomic::{Sink, SinkWriter};
-use crate::io::constants::{read_constants, ConstantsFile, LEVELS_CHART_DATUM, LEVELS_RECORD_ZERO};
+use crate::io::constants::{
+    read_constants, ConstantsFile, Provenance, LEVELS_CHART_DATUM, LEVELS_RECORD_ZERO,
+};
+use crate::io::correctors_file::sha256_file;
 use crate::io::error::{IoError, Position};
 use crate::io::gauge_csv::read_gauge_record;
 use crate::io::numfmt::{push_fixed, HEIGHT_DECIMALS};
@@ -84,23 +88,55 @@ pub fn inference_rules_from(path: &Path) -> Result<Vec<InferenceRule>, Harmonics
     Ok(rules)
 }
 
-/// Analyses one gauge's record (read with `spec`), QC first unless `qc` is None, and writes the
-/// constants to `out` (a file, or a stream such as standard output).
+/// What `ebbwise analyse` is asked to do besides the record's reading (`spec`).
+#[derive(Debug, Clone, Copy)]
+pub struct AnalyseRequest<'a> {
+    /// The UTC offset of times written without one.
+    pub naive_offset: Option<chrono::FixedOffset>,
+    /// QC to run first, `None` for none.
+    pub qc: Option<&'a QcSpec>,
+    /// The analysis's settings.
+    pub settings: &'a AnalysisSettings,
+    /// The gauge id, when analysed from a project.
+    pub gauge_id: Option<&'a str>,
+    /// What the levels are above ([`LEVELS_CHART_DATUM`] or [`LEVELS_RECORD_ZERO`]).
+    pub levels: &'a str,
+    /// The reference station's constants file the inference relations come from.
+    pub inference_reference_file: Option<&'a Path>,
+}
+
+/// Analyses one gauge's record (read with `spec`), QC first unless `req.qc` is None, and writes
+/// the constants to `out` (a file, or a stream such as standard output).
 pub fn analyse_gauge(
     spec: &GaugeSpec,
-    naive_offset: Option<chrono::FixedOffset>,
-    qc: Option<&QcSpec>,
-    settings: &AnalysisSettings,
-    gauge_id: Option<String>,
-    levels: &str,
+    req: AnalyseRequest<'_>,
     out: Sink<'_>,
 ) -> Result<AnalyseOutcome, HarmonicsError> {
+    let AnalyseRequest {
+        naive_offset,
+        qc,
+        settings,
+        gauge_id,
+        levels,
+        inference_reference_file,
+    } = req;
     let r = read_gauge_record(spec, naive_offset)?;
+    let record_sha256 = sha256_file(&spec.record)?;
+    let mut qc_set_aside = None;
     let (times, heights, set_aside) = match qc {
         Some(q) => {
             let mut q = q.clone();
             q.enabled = true;
             let p = prepare_series(&q, &InterpolationSpec::default(), spec, &r);
+            let mut by_flag = BTreeMap::new();
+            if let Some(res) = &p.qc {
+                for f in res.flags.iter().filter(|f| !f.usable()) {
+                    for flag in f.iter().filter(|x| x.excludes()) {
+                        *by_flag.entry(flag.as_str().to_string()).or_insert(0) += 1;
+                    }
+                }
+            }
+            qc_set_aside = Some(by_flag);
             let n = p.series.times_s.len();
             (p.series.times_s, p.series.heights_m, r.times_s.len() - n)
         }
@@ -118,9 +154,19 @@ pub fn analyse_gauge(
     let file = ConstantsFile::from_analysis(
         &analysis,
         Some(spec.record.display().to_string()),
-        gauge_id,
+        gauge_id.map(str::to_string),
         levels,
-    );
+    )
+    .with_provenance(Provenance {
+        record_sha256: Some(record_sha256),
+        naive_time_utc_offset: naive_offset.map(|o| o.to_string()),
+        input_units: spec.units.as_str(),
+        zero_above_datum_m: (levels == LEVELS_CHART_DATUM).then_some(spec.zero_above_datum_m),
+        samples_read: r.times_s.len(),
+        qc_set_aside,
+        inference: settings.infer,
+        inference_reference_file: inference_reference_file.map(|p| p.display().to_string()),
+    });
     if let Some(path) = out.path() {
         if path == spec.record {
             return Err(HarmonicsError::WouldOverwrite {
@@ -156,6 +202,41 @@ pub fn predicted_column(levels: Option<&str>) -> &'static str {
     }
 }
 
+/// The constituents whose contamination `predict` and a project's constants warn of: the main
+/// semidiurnal and diurnal ones, which carry most of the tide.
+pub const MAIN_CONSTITUENTS: [&str; 8] = ["M2", "S2", "N2", "K2", "K1", "O1", "P1", "Q1"];
+
+/// Why constants may not stand for the place: constants flagged `short_record`, and main
+/// ([`MAIN_CONSTITUENTS`]) fitted constituents that carry an unresolved neighbour's signal larger than their own fit's
+/// uncertainty ([`ConstantsFile::contaminated`]). One sentence each; empty when neither.
+pub fn constants_warnings(file: &ConstantsFile) -> Vec<String> {
+    let mut out = Vec::new();
+    if file.short_record {
+        out.push(
+            "these constants come from a record shorter than the analysis's minimum (short_record = true): no species is separated from the next, so they are not harmonic constants of the place".to_string(),
+        );
+    }
+    let c: Vec<_> = file
+        .contaminated()
+        .into_iter()
+        .filter(|(name, _)| {
+            MAIN_CONSTITUENTS
+                .iter()
+                .any(|m| m.eq_ignore_ascii_case(name))
+        })
+        .collect();
+    if !c.is_empty() {
+        out.push(format!(
+            "these constants carry unresolved constituents' signal: {} (the record could not separate them; see [[unresolved]])",
+            c.iter()
+                .map(|(name, by)| format!("{name} absorbs {}", by.join(", ")))
+                .collect::<Vec<_>>()
+                .join("; ")
+        ));
+    }
+    out
+}
+
 /// What `ebbwise predict` did.
 #[derive(Debug)]
 pub struct PredictOutcome {
@@ -169,6 +250,8 @@ pub struct PredictOutcome {
     pub levels: Option<String>,
     /// Seconds spent computing the grid and the high and low waters (not writing).
     pub compute_s: f64,
+    /// Why the constants may not stand for the place ([`constants_warnings`]).
+    pub warnings: Vec<String>,
 }
 
 /// Predicts from a constants file on `t0 + i·step` up to `t1` and writes the series and the
@@ -256,6 +339,7 @@ pub fn predict_to(
         n,
         high_low_waters: ex,
         written,
+        warnings: constants_warnings(&file),
         levels: file.levels,
         compute_s,
     })

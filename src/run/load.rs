@@ -123,6 +123,12 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         if let Some(c) = &g.constants {
             match crate::io::constants::read_constants(c) {
                 Ok((file, _)) => {
+                    for w in crate::run::harmonics::constants_warnings(&file) {
+                        findings.push(Finding::warning(
+                            Position::file(c),
+                            format!("gauge '{}': {w}", g.id),
+                        ));
+                    }
                     if file
                         .levels
                         .as_deref()

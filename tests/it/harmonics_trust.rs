@@ -569,3 +569,155 @@ fn naive_times_of_a_plain_record_take_the_offset_option() {
         stderr(&o)
     );
 }
+
+/// The constants file says how its record was read and analysed: the program and version
+/// (`CARGO_PKG_VERSION`), the record's SHA-256 (computed here with the `sha2` crate over the
+/// bytes written), the time zone, units and datum relation as given, that QC ran and set aside
+/// the one planted reading of 50 m (outside the plausible band around the median: `out_of_band`),
+/// and how inference and the constituents were chosen. `predict` from a 3-day record's constants
+/// warns that M2 carries S2 (and so does `check` of a project whose gauge names them), and from a 4-hour record's that the record was short; from a
+/// file in the first layout with M2 alone (nothing absorbed) it warns of nothing.
+#[test]
+fn constants_say_how_they_were_made_and_predict_warns_of_untrusted_ones() {
+    use super::{ebbwise, stderr};
+    use ebbwise::io::constants::read_constants;
+    use sha2::{Digest, Sha256};
+    let d = tempfile::tempdir().unwrap();
+    let path = |n: &str| d.path().join(n);
+    let k = constants(None);
+    let (t, mut h) = record(&k, 3.0 * 24.0, 7);
+    h[30] = 50.0;
+    let r3 = path("three.csv");
+    write_record(&r3, &t, &h);
+    let o = ebbwise(&[
+        "analyse",
+        r3.to_str().unwrap(),
+        "--zero-above-datum-m",
+        "-0.25",
+        "--naive-time-utc-offset",
+        "+02:00",
+        "--out",
+        path("three.constants.toml").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let (f, _) = read_constants(&path("three.constants.toml")).unwrap();
+    let sha: String = Sha256::digest(std::fs::read(&r3).unwrap())
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect();
+    assert_eq!(f.record_sha256.as_deref(), Some(sha.as_str()));
+    assert_eq!(
+        f.tool_version,
+        Some(format!("ebbwise {}", env!("CARGO_PKG_VERSION")))
+    );
+    assert_eq!(
+        f.input_time_zone.as_deref(),
+        Some("each time's own UTC offset; +02:00 for times written without one")
+    );
+    assert_eq!(f.input_units.as_deref(), Some("m"));
+    assert_eq!(f.datum.as_deref(), Some("chart datum"));
+    assert_eq!(f.zero_above_datum_m, Some(-0.25));
+    assert_eq!(f.samples_read, Some(t.len()));
+    assert_eq!(f.samples, Some(t.len() - 1));
+    assert_eq!(f.qc_applied, Some(true));
+    assert_eq!(
+        f.qc_set_aside.get("out_of_band"),
+        Some(&1),
+        "{:?}",
+        f.qc_set_aside
+    );
+    assert_eq!(f.inference, Some(true));
+    assert_eq!(f.constituent_choice.as_deref(), Some("rayleigh"));
+
+    let o = ebbwise(&[
+        "predict",
+        path("three.constants.toml").to_str().unwrap(),
+        "--from",
+        "2026-06-01T00:00:00Z",
+        "--to",
+        "2026-06-02T00:00:00Z",
+        "--out",
+        path("p.csv").to_str().unwrap(),
+        "--high-low-waters",
+        path("p.hlw.csv").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(
+        err.contains("warning: these constants carry unresolved") && err.contains("M2 absorbs S2"),
+        "{err}"
+    );
+    assert!(
+        !err.contains("shorter than the analysis's minimum"),
+        "{err}"
+    );
+    // A project whose gauge names these constants warns of the same when it loads.
+    let p = super::MiniProject::new("time,lon,lat,depth,line\n");
+    std::fs::copy(path("three.constants.toml"), p.path("g1.constants.toml")).unwrap();
+    let text = std::fs::read_to_string(p.path("project.toml"))
+        .unwrap()
+        .replace(
+            "max_gap_min = 30\n",
+            "max_gap_min = 30\nconstants = \"g1.constants.toml\"\n",
+        );
+    p.write("project.toml", &text);
+    let o = ebbwise(&["check", &p.project()]);
+    assert!(
+        stderr(&o).contains("gauge 'g1': these constants carry unresolved")
+            && stderr(&o).contains("M2 absorbs S2"),
+        "{}",
+        stderr(&o)
+    );
+
+    let (t, h) = record(&k, 4.0, 8);
+    let r4 = path("four.csv");
+    write_record(&r4, &t, &h);
+    let o = ebbwise(&[
+        "analyse",
+        r4.to_str().unwrap(),
+        "--allow-short-record",
+        "--no-qc",
+        "--constituents",
+        "M2",
+        "--out",
+        path("four.constants.toml").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let (f, _) = read_constants(&path("four.constants.toml")).unwrap();
+    assert_eq!(f.qc_applied, Some(false));
+    assert!(f.qc_set_aside.is_empty());
+    assert_eq!(f.constituent_choice.as_deref(), Some("given"));
+    assert_eq!(f.datum.as_deref(), Some("record zero"));
+    assert_eq!(f.zero_above_datum_m, None);
+    let predict = |c: &str| {
+        ebbwise(&[
+            "predict",
+            path(c).to_str().unwrap(),
+            "--from",
+            "2026-06-01T00:00:00Z",
+            "--to",
+            "2026-06-01T12:00:00Z",
+            "--out",
+            path("q.csv").to_str().unwrap(),
+            "--high-low-waters",
+            path("q.hlw.csv").to_str().unwrap(),
+        ])
+    };
+    let o = predict("four.constants.toml");
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("warning: these constants come from a record shorter"),
+        "{}",
+        stderr(&o)
+    );
+
+    // A file in the first layout (none of the later keys), M2 without `absorbs`.
+    std::fs::write(
+        path("month.constants.toml"),
+        "format = \"ebbwise-harmonic-constants/1\"\nlevels = \"above chart datum\"\nz0_m = 1.0\n\n[[constituent]]\nname = \"M2\"\nspeed_deg_per_h = 28.9841042\namplitude_m = 0.5\nphase_deg = 0.0\n",
+    )
+    .unwrap();
+    let o = predict("month.constants.toml");
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(!stderr(&o).contains("warning"), "{}", stderr(&o));
+}
