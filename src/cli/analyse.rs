@@ -342,8 +342,10 @@ fn print_analysis(o: &AnalyseOutcome) {
         .filter(|f| {
             f.inference.is_none()
                 && f.absorbs.iter().any(|a| {
-                    a.expected_amplitude_m
-                        .map_or(true, |e| e > f.u_amplitude_fit_m)
+                    ebbwise::compute::harmonic::absorbed_beyond_fit(
+                        a.expected_amplitude_m,
+                        Some(f.u_amplitude_fit_m),
+                    )
                 })
         })
         .collect();

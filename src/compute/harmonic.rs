@@ -602,6 +602,20 @@ pub struct Fitted {
     pub absorbs: Vec<Absorbed>,
 }
 
+/// Whether an absorbed neighbour's signal makes a constituent's constants untrustworthy: its
+/// expected amplitude is larger than the constituent's own fit uncertainty, or either is
+/// unknown. The one criterion behind `analyse`'s "contaminated" line and the warnings of
+/// `predict` and the reducer.
+pub fn absorbed_beyond_fit(
+    expected_amplitude_m: Option<f64>,
+    u_amplitude_fit_m: Option<f64>,
+) -> bool {
+    match (expected_amplitude_m, u_amplitude_fit_m) {
+        (Some(e), Some(u)) => e > u,
+        _ => true,
+    }
+}
+
 impl Fitted {
     /// Whether its constants carry unresolved neighbours' signal (see `absorbs`).
     pub fn contaminated(&self) -> bool {

@@ -379,10 +379,7 @@ impl ConstantsFile {
                             .iter()
                             .find(|u| &u.name == *n)
                             .and_then(|u| u.expected_amplitude_m);
-                        match (e, c.u_amplitude_fit_m) {
-                            (Some(e), Some(u)) => e > u,
-                            _ => true,
-                        }
+                        crate::compute::harmonic::absorbed_beyond_fit(e, c.u_amplitude_fit_m)
                     })
                     .map(String::as_str)
                     .collect();
