@@ -89,6 +89,10 @@ pub struct Args {
     /// otherwise refused; the constants file is marked short_record.
     #[arg(long)]
     allow_short_record: bool,
+    /// Fit a linear trend of the mean level (m/yr) beside Z0; Z0 is then the mean level at the
+    /// record's central instant. Prediction does not extrapolate the trend.
+    #[arg(long)]
+    trend: bool,
     /// Where the nodal corrections are evaluated.
     #[arg(long, value_enum, default_value = "per-sample")]
     nodal: Nodal,
@@ -128,6 +132,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
         inference_rules,
         nodal: a.nodal.into(),
         allow_short: a.allow_short_record,
+        trend: a.trend,
     };
     let given = a.out.clone().map(DataOut::from_option);
     let mut stdout = Stdout::lock();
@@ -280,6 +285,82 @@ fn absorbed_list(f: &ebbwise::compute::harmonic::Fitted) -> String {
         .join(", ")
 }
 
+/// What the residual says: its parts against the record's noise, the spectrum's colour, a
+/// level step or a trend.
+fn print_diagnostics(w: &mut impl Write, an: &ebbwise::compute::harmonic::Analysis) {
+    let d = &an.diagnostics;
+    let fast = d.fast_rms_m(an.residual_rms_m);
+    let _ = writeln!(
+        w,
+        "  residual: lunar-day means {:.4} m RMS over {} days, the rest {:.4} m RMS against the record's sample-to-sample noise {}",
+        d.level.rms_m,
+        d.level.days,
+        fast,
+        d.noise_floor_m
+            .map_or_else(|| "(not estimated)".to_string(), |f| format!("{f:.4} m"))
+    );
+    let coloured: Vec<(&str, f64)> = an
+        .fitted
+        .iter()
+        .filter(|f| f.inference.is_none())
+        .filter_map(|f| Some((f.constituent.name, f.noise_ratio?)))
+        .collect();
+    if let (Some(lo), Some(hi)) = (
+        coloured.iter().min_by(|a, b| a.1.total_cmp(&b.1)),
+        coloured.iter().max_by(|a, b| a.1.total_cmp(&b.1)),
+    ) {
+        let _ = writeln!(
+            w,
+            "  u(H), u(G) from the residual spectrum near each constituent: its level is {:.2}× the residual's mean square near {} up to {:.2}× near {}{}",
+            lo.1,
+            lo.0,
+            hi.1,
+            hi.0,
+            match d.noise_ratio_mean_level {
+                Some(r) => format!(", {r:.2}× near zero frequency (u(Z0))"),
+                None => String::new(),
+            }
+        );
+    } else {
+        let _ = writeln!(
+            w,
+            "  u(H), u(G) from the white-noise formula: the record is too short for a residual spectrum"
+        );
+    }
+    let lv = &d.level;
+    if let (true, Some(s)) = (lv.step_found, lv.step) {
+        let _ = writeln!(
+            w,
+            "  warning: the residual steps by {:+.3} m ± {:.3} near {} ({:.1} standard uncertainties): a datum shift of the gauge? Z0 lies between the two levels and long-period constituents may absorb part of the step; correct the record or analyse each side apart",
+            s.size_m,
+            s.u_size_m,
+            utc_label(s.at_s),
+            s.statistic
+        );
+    }
+    if let (true, Some(t)) = (lv.trend_found, lv.trend) {
+        let _ = writeln!(
+            w,
+            "  warning: the residual has a trend of {:+.4} m/yr ± {:.4} ({:.1} standard uncertainties): a drifting gauge or a changing mean level; {}",
+            t.rate_m_per_yr,
+            t.u_rate_m_per_yr,
+            t.statistic,
+            if an.trend.is_some() {
+                "beyond the fitted trend"
+            } else {
+                "analyse with --trend, or correct the drift; long-period constituents may absorb part of it"
+            }
+        );
+    }
+    if d.misfit(an.residual_rms_m) {
+        let _ = writeln!(
+            w,
+            "  warning: the residual's fast part ({fast:.4} m RMS) is more than {}× the record's sample-to-sample noise: the model misses part of the signal (constituents not fitted, shallow-water tides, seiches, or gauge faults); u(H), u(G) allow for it through the residual spectrum",
+            ebbwise::compute::harmonic::MISFIT_NOISE_FACTOR
+        );
+    }
+}
+
 /// The analysis, on stderr.
 fn print_analysis(o: &AnalyseOutcome) {
     let an = &o.analysis;
@@ -301,11 +382,53 @@ fn print_analysis(o: &AnalyseOutcome) {
         },
         an.nodal.as_str()
     );
+    if !o.set_aside_by_flag.is_empty() {
+        let _ = writeln!(
+            w,
+            "  QC set aside {} of {} samples ({:.1} %), not analysed:",
+            o.set_aside,
+            o.samples_read,
+            100.0 * o.set_aside as f64 / o.samples_read.max(1) as f64
+        );
+        for s in &o.set_aside_by_flag {
+            let _ = writeln!(
+                w,
+                "    {:<14} {:>8} samples, {} to {}: {}",
+                s.flag.as_str(),
+                s.samples,
+                utc_label(s.first_s),
+                utc_label(s.last_s),
+                s.flag.meaning()
+            );
+        }
+        if 4 * o.set_aside > o.samples_read {
+            let _ = writeln!(
+                w,
+                "  warning: QC set aside more than a quarter of the record; look at `ebbwise qc` for where and why before trusting these constants (or analyse with --no-qc if the flags are wrong)"
+            );
+        }
+    }
     let _ = writeln!(
         w,
-        "  Z0 {:.4} m ± {:.4} (1σ), levels {}",
-        an.z0_m, an.u_z0_m, o.levels
+        "  Z0 {:.4} m ± {:.4} (1σ), levels {}{}",
+        an.z0_m,
+        an.u_z0_m,
+        o.levels,
+        if an.trend.is_some() {
+            format!(
+                ", mean level at {} (the record's centre)",
+                utc_label(an.centre_s)
+            )
+        } else {
+            String::new()
+        }
     );
+    if let Some((rate, u)) = an.trend {
+        let _ = writeln!(
+            w,
+            "  trend {rate:+.4} m/yr ± {u:.4} (1σ), fitted; prediction does not extrapolate it"
+        );
+    }
     let _ = writeln!(
         w,
         "  {:<8} {:>12} {:>9} {:>10} {:>8}  {:>10}",
@@ -416,6 +539,7 @@ fn print_analysis(o: &AnalyseOutcome) {
             let _ = writeln!(w, "  note: {name} {why}");
         }
     }
+    print_diagnostics(&mut w, an);
     if let Some(ff) = an.form_factor() {
         let missing: Vec<&str> = ["K1", "O1", "M2", "S2"]
             .into_iter()

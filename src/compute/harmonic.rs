@@ -13,9 +13,13 @@
 //! with `V` the equilibrium argument, `f`, `u` the nodal corrections ([`super::astro`]), `H` the
 //! amplitude and `G` the Greenwich phase lag (UTC). The unknowns `Z0, a_k, b_k` are found by
 //! least squares through the normal equations and a Cholesky factorisation (well conditioned when
-//! the constituents satisfy the Rayleigh criterion). Standard uncertainties of `a, b` come from
-//! `σ² (AᵀA)⁻¹` with `σ²` the residual variance (white-noise assumption: with coloured residuals
-//! they are optimistic) and are carried to `H` and `G` to first order.
+//! the constituents satisfy the Rayleigh criterion); with [`AnalysisSettings::trend`] one more
+//! column holds the time in years from the record's centre. Standard uncertainties of `a, b` come
+//! from `σ² (AᵀA)⁻¹` with `σ²` replaced, per pair of columns, by the residual's white-equivalent
+//! variance near the constituent's frequency (module [`residual`]: residuals are red, and the
+//! white formula would understate the diurnal band's and overstate the semidiurnal's), and are
+//! carried to `H` and `G` to first order. The residual's diagnostics (noise floor, level step,
+//! trend) come with the result ([`Diagnostics`]).
 //!
 //! **Constituent choice.** Either given, or chosen by the Rayleigh criterion: candidates are taken
 //! in order of importance (equilibrium amplitude, then the shallow-water compounds), and one is
@@ -52,6 +56,8 @@
 //! Form factor and tide type: Courtier's classification (field primer §4.2; common practice).
 
 use nalgebra::{DMatrix, DVector};
+
+use super::residual;
 
 use super::astro::{
     astro_at, constituent, constituents, equilibrium_argument_deg, equilibrium_ratio, nodal_args,
@@ -95,6 +101,9 @@ pub struct AnalysisSettings {
     pub nodal: NodalMode,
     /// Analyse a record shorter than [`min_record_h`] (otherwise refused).
     pub allow_short: bool,
+    /// Fit a linear trend of the mean level (metres per year) beside Z0; Z0 is then the mean
+    /// level at the record's central instant.
+    pub trend: bool,
 }
 
 impl Default for AnalysisSettings {
@@ -106,6 +115,7 @@ impl Default for AnalysisSettings {
             inference_rules: Vec::new(),
             nodal: NodalMode::PerSample,
             allow_short: false,
+            trend: false,
         }
     }
 }
@@ -593,6 +603,11 @@ pub struct Fitted {
     pub u_amplitude_fit_m: f64,
     /// The least-squares part of `u_phase_deg` alone, degrees.
     pub u_phase_fit_deg: f64,
+    /// The residual's white-equivalent variance near this constituent's frequency over its
+    /// mean square (module [`residual`]): 1 for white residuals, above 1 where the residual is
+    /// red (surges near the diurnal band). The fit's part of u(H), u(G) is scaled by its square
+    /// root; `None` when the record is too short for a band level (white-noise formula kept).
+    pub noise_ratio: Option<f64>,
     /// Inferred from this constituent (with the ratio), when not fitted itself.
     pub inferred_from: Option<(&'static str, f64)>,
     /// The inference relation, for an inferred constituent.
@@ -651,6 +666,47 @@ pub struct Analysis {
     pub unresolved: Vec<Unresolved>,
     /// The record is shorter than [`min_record_h`] and was analysed on request.
     pub short_record: bool,
+    /// The fitted trend of the mean level and its standard uncertainty, metres per year
+    /// ([`AnalysisSettings::trend`]).
+    pub trend: Option<(f64, f64)>,
+    /// The record's central instant, UTC seconds: the epoch of Z0 when a trend is fitted.
+    pub centre_s: f64,
+    /// What the residual says about the fit.
+    pub diagnostics: Diagnostics,
+}
+
+/// What the residual says about the fit (module [`residual`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Diagnostics {
+    /// Standard deviation of the record's sample-to-sample noise, metres.
+    pub noise_floor_m: Option<f64>,
+    /// The residual's lunar-day means: their RMS, a level step and a trend.
+    pub level: residual::LevelTests,
+    /// The residual's white-equivalent variance near zero frequency over its mean square (the
+    /// scale of u(Z0)², and of the trend's).
+    pub noise_ratio_mean_level: Option<f64>,
+}
+
+/// The residual at tidal and higher frequencies is more than this many times the record's
+/// sample-to-sample noise: the model misses part of the signal.
+pub const MISFIT_NOISE_FACTOR: f64 = 3.0;
+
+impl Diagnostics {
+    /// The RMS of the residual without its slow (lunar-day mean) part, metres, from the
+    /// residual RMS.
+    pub fn fast_rms_m(&self, residual_rms_m: f64) -> f64 {
+        (residual_rms_m.powi(2) - self.level.rms_m.powi(2))
+            .max(0.0)
+            .sqrt()
+    }
+
+    /// Whether the residual's fast part exceeds [`MISFIT_NOISE_FACTOR`] × the noise floor (and
+    /// the floor by more than 5 mm).
+    pub fn misfit(&self, residual_rms_m: f64) -> bool {
+        let fast = self.fast_rms_m(residual_rms_m);
+        self.noise_floor_m
+            .is_some_and(|f| fast > MISFIT_NOISE_FACTOR * f && fast > f + 0.005)
+    }
 }
 
 impl Analysis {
@@ -810,7 +866,9 @@ pub struct Design {
     /// Aᵀy.
     aty: Vec<f64>,
     p: usize,
+    t: Vec<f64>,
     y: Vec<f64>,
+    rows: Rows,
     fitted_cons: Vec<&'static Constituent>,
     inferences: Vec<Inference>,
     inferred_of: Vec<Option<(usize, f64)>>,
@@ -962,7 +1020,8 @@ pub fn design(
         0.5 * (t_first + t_last),
     );
     let k = fitted_cons.len();
-    let p = 1 + 2 * k;
+    let c0 = 1 + usize::from(settings.trend);
+    let p = c0 + 2 * k;
     if n <= p {
         return Err(AnalysisError::TooShort {
             usable: n,
@@ -986,42 +1045,29 @@ pub fn design(
         .copied()
         .chain(inferences.iter().map(|i| i.inferred))
         .collect();
-    let centre_s = 0.5 * (t_first + t_last);
+    let rows_of = Rows {
+        all_cons,
+        inferred_of: inferred_of.clone(),
+        phase_diff_rad: inferences
+            .iter()
+            .map(|i| i.phase_diff_deg.to_radians())
+            .collect(),
+        k,
+        c0,
+        p,
+        nodal: settings.nodal,
+        centre_s: 0.5 * (t_first + t_last),
+    };
     // Rows are made and summed into the normal equations block by block, so memory stays
     // O(p² + block × p) whatever the record's length; the blocks are summed in order, so the
     // result does not depend on the threads' scheduling.
-    let fill = |ts: &[f64], rows: &mut [f64]| {
-        let mut args = vec![(0.0, 0.0); all_cons.len()];
-        for (r, &ti) in rows.chunks_exact_mut(p).zip(ts) {
-            let nodal_at = match settings.nodal {
-                NodalMode::PerSample => ti,
-                NodalMode::Centre => centre_s,
-            };
-            arguments(&all_cons, ti, nodal_at, &mut args);
-            r[0] = 1.0;
-            for j in 0..k {
-                let (f, ph) = args[j];
-                let (s, c) = ph.sin_cos();
-                let (mut cc, mut ss) = (f * c, f * s);
-                if let Some((ii, ratio)) = inferred_of[j] {
-                    // G_i = G_r + Δ: the inferred term is ρ f_i H_r cos(V_i + u_i − Δ − G_r).
-                    let (fi, phi) = args[k + ii];
-                    let (si, ci) = (phi - inferences[ii].phase_diff_deg.to_radians()).sin_cos();
-                    cc += ratio * fi * ci;
-                    ss += ratio * fi * si;
-                }
-                r[1 + 2 * j] = cc;
-                r[2 + 2 * j] = ss;
-            }
-        }
-    };
     let parts: Vec<(Vec<f64>, Vec<f64>)> = {
         use rayon::prelude::*;
         t.par_chunks(BLOCK_ROWS)
             .zip(y.par_chunks(BLOCK_ROWS))
             .map(|(ts, ys)| {
                 let mut rows = vec![0.0; ts.len() * p];
-                fill(ts, &mut rows);
+                rows_of.fill(ts, &mut rows);
                 accumulate(&rows, ys, p)
             })
             .collect()
@@ -1040,7 +1086,9 @@ pub fn design(
         ata_upper,
         aty,
         p,
+        t,
         y,
+        rows: rows_of,
         fitted_cons,
         inferences,
         inferred_of,
@@ -1055,6 +1103,74 @@ pub fn design(
 
 /// Rows summed in one block of the normal equations.
 const BLOCK_ROWS: usize = 2048;
+
+/// A Julian year, seconds: the unit of the trend column.
+const YEAR_S: f64 = 365.25 * 86_400.0;
+
+/// How the design matrix's rows are made: column 0 is Z0, column 1 the trend (years from the
+/// centre) when fitted, then a cosine and a sine column per fitted constituent (an inferred
+/// constituent's terms added to its reference's).
+#[derive(Debug, Clone)]
+struct Rows {
+    all_cons: Vec<&'static Constituent>,
+    inferred_of: Vec<Option<(usize, f64)>>,
+    phase_diff_rad: Vec<f64>,
+    k: usize,
+    c0: usize,
+    p: usize,
+    nodal: NodalMode,
+    centre_s: f64,
+}
+
+impl Rows {
+    /// Fills `rows` (row-major, `ts.len() × p`).
+    fn fill(&self, ts: &[f64], rows: &mut [f64]) {
+        let (k, c0) = (self.k, self.c0);
+        let mut args = vec![(0.0, 0.0); self.all_cons.len()];
+        for (r, &ti) in rows.chunks_exact_mut(self.p).zip(ts) {
+            let nodal_at = match self.nodal {
+                NodalMode::PerSample => ti,
+                NodalMode::Centre => self.centre_s,
+            };
+            arguments(&self.all_cons, ti, nodal_at, &mut args);
+            r[0] = 1.0;
+            if c0 == 2 {
+                r[1] = (ti - self.centre_s) / YEAR_S;
+            }
+            for j in 0..k {
+                let (f, ph) = args[j];
+                let (s, c) = ph.sin_cos();
+                let (mut cc, mut ss) = (f * c, f * s);
+                if let Some((ii, ratio)) = self.inferred_of[j] {
+                    // G_i = G_r + Δ: the inferred term is ρ f_i H_r cos(V_i + u_i − Δ − G_r).
+                    let (fi, phi) = args[k + ii];
+                    let (si, ci) = (phi - self.phase_diff_rad[ii]).sin_cos();
+                    cc += ratio * fi * ci;
+                    ss += ratio * fi * si;
+                }
+                r[c0 + 2 * j] = cc;
+                r[c0 + 1 + 2 * j] = ss;
+            }
+        }
+    }
+
+    /// The residual `y − A x` at every sample, block by block as the normal equations were made.
+    fn residuals(&self, t: &[f64], y: &[f64], x: &[f64]) -> Vec<f64> {
+        use rayon::prelude::*;
+        let p = self.p;
+        let mut out = vec![0.0; y.len()];
+        out.par_chunks_mut(BLOCK_ROWS)
+            .zip(t.par_chunks(BLOCK_ROWS).zip(y.par_chunks(BLOCK_ROWS)))
+            .for_each(|(o, (ts, ys))| {
+                let mut rows = vec![0.0; ts.len() * p];
+                self.fill(ts, &mut rows);
+                for ((oi, row), yi) in o.iter_mut().zip(rows.chunks_exact(p)).zip(ys) {
+                    *oi = yi - row.iter().zip(x).map(|(a, b)| a * b).sum::<f64>();
+                }
+            });
+        out
+    }
+}
 
 /// The normal equations of `ys.len()` rows of `p` columns (row-major `rows`): AᵀA's upper
 /// triangle and Aᵀy, accumulated row by row. The inner loop runs over contiguous memory and
@@ -1116,21 +1232,72 @@ pub fn solve(d: &Design) -> Result<Analysis, AnalysisError> {
     let x = chol.solve(&aty);
     let mean = y.iter().sum::<f64>() / n as f64;
     let tss: f64 = y.iter().map(|v| (v - mean) * (v - mean)).sum();
-    // The residual sum of squares from the normal equations, about the mean: with ỹ = y − m
-    // and x̃ = x − m·e₀ (the first column is all ones), y − Ax = ỹ − Ax̃, so
-    // RSS = ỹᵀỹ − 2x̃ᵀ(Aᵀy − m·AᵀA e₀) + x̃ᵀAᵀAx̃. Centring keeps the cancellation to the
-    // ratio of the tide's variance to the residual's (some 10⁴: 4 of 16 digits).
-    let mut xt = x.clone();
-    xt[0] -= mean;
-    let atyt = &aty - ata.column(0) * mean;
-    let rss = (tss - 2.0 * xt.dot(&atyt) + xt.dot(&(&ata * &xt))).max(0.0);
+    // The residual at every sample (rows made again, block by block, as for the normal
+    // equations): its sum of squares, its spectrum and the level tests.
+    let resid = d.rows.residuals(&d.t, y, x.as_slice());
+    let rss: f64 = resid.iter().map(|r| r * r).sum();
     let sigma2 = rss / (n - p) as f64;
-    let cov = chol.inverse() * sigma2;
+    let mut cov = chol.inverse() * sigma2;
     let length_h = (d.span_s.1 - d.span_s.0) / 3600.0;
+    // Coloured residuals: each column's variance is that of white noise at the residual's
+    // white-equivalent level near its frequency (module `residual`); the covariance is scaled
+    // as D C D, D = diag(√(level / mean square)), 1 where no level can be had.
+    let c0 = d.rows.c0;
+    let model_cpd: Vec<f64> = std::iter::once(0.0)
+        .chain(d.rows.all_cons.iter().map(|c| c.speed_deg_per_h / 15.0))
+        .collect();
+    let spectrum = residual::residual_spectrum(&d.t, &resid);
+    let mean_square = rss / n as f64;
+    let ratio_at = |f_cpd: f64| -> Option<f64> {
+        let b = spectrum.as_ref()?.band_level(f_cpd, &model_cpd)?;
+        (mean_square > 0.0).then(|| b.variance_m2 / mean_square)
+    };
+    let ratio_zero = ratio_at(0.0);
+    let ratios: Vec<Option<f64>> = fitted_cons
+        .iter()
+        .map(|c| ratio_at(c.speed_deg_per_h / 15.0))
+        .collect();
+    let scale: Vec<f64> = (0..p)
+        .map(|i| {
+            let r = if i < c0 {
+                ratio_zero
+            } else {
+                ratios[(i - c0) / 2]
+            };
+            r.unwrap_or(1.0).sqrt()
+        })
+        .collect();
+    for i in 0..p {
+        for j in 0..p {
+            cov[(i, j)] *= scale[i] * scale[j];
+        }
+    }
+    let diagnostics = {
+        // Long-period constituents (below half a cycle per day) and the trend: they take part
+        // of a step or trend, so the level tests test against them.
+        let slow = residual::SlowModel {
+            freqs_cpd: fitted_cons
+                .iter()
+                .map(|c| c.speed_deg_per_h * 24.0 / 360.0)
+                .filter(|f| *f < 0.5)
+                .collect(),
+            trend: d.rows.c0 == 2,
+        };
+        let step_s = residual::modal_step_s(&d.t);
+        let noise_floor_m = step_s.and_then(|st| residual::noise_floor_m(&d.t, &resid, st));
+        let level = step_s.map_or_else(residual::LevelTests::default, |st| {
+            residual::level_tests(&residual::lunar_day_means(&d.t, &resid, st), &slow)
+        });
+        Diagnostics {
+            noise_floor_m,
+            level,
+            noise_ratio_mean_level: ratio_zero,
+        }
+    };
     // The fit's own H, G and their uncertainties.
     let own: Vec<(f64, f64, f64, f64)> = (0..fitted_cons.len())
         .map(|j| {
-            let (ia, ib) = (1 + 2 * j, 2 + 2 * j);
+            let (ia, ib) = (c0 + 2 * j, c0 + 1 + 2 * j);
             let (ca, cb) = (x[ia], x[ib]);
             let h = ca.hypot(cb);
             let g = cb.atan2(ca).to_degrees().rem_euclid(360.0);
@@ -1221,6 +1388,7 @@ pub fn solve(d: &Design) -> Result<Analysis, AnalysisError> {
             u_phase_deg: u_g_all,
             u_amplitude_fit_m: u_h,
             u_phase_fit_deg: u_g,
+            noise_ratio: ratios[j],
             inferred_from: None,
             inference: None,
             absorbs: absorbs.clone(),
@@ -1238,6 +1406,7 @@ pub fn solve(d: &Design) -> Result<Analysis, AnalysisError> {
                     .min(U_PHASE_UNIFORM_DEG),
                 u_amplitude_fit_m: i.ratio * u_h,
                 u_phase_fit_deg: u_g,
+                noise_ratio: ratios[j],
                 inferred_from: Some((c.name, i.ratio)),
                 inference: Some(i),
                 absorbs,
@@ -1262,6 +1431,9 @@ pub fn solve(d: &Design) -> Result<Analysis, AnalysisError> {
         rayleigh_factor: d.rayleigh,
         unresolved: d.unresolved.clone(),
         short_record: d.short_record,
+        trend: (c0 == 2).then(|| (x[1], cov[(1, 1)].max(0.0).sqrt())),
+        centre_s: d.rows.centre_s,
+        diagnostics,
     })
 }
 

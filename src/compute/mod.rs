@@ -17,6 +17,7 @@
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
+//! * [`residual`] — a harmonic fit's residual: spectrum near each constituent, noise floor, level step and trend.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
@@ -31,6 +32,7 @@ pub mod qa_report;
 pub mod qc;
 pub mod quantile;
 pub mod reduce;
+pub mod residual;
 pub mod series;
 pub mod spline;
 pub mod uncertainty;

@@ -50,7 +50,10 @@
 //! analysed on request. After the analysis's keys come how the record was read and analysed
 //! (`tool_version`, `record_sha256`, `input_time_zone`, `input_units`, `datum`,
 //! `zero_above_datum_m`, `samples_read`, `qc_applied`, the `[qc_set_aside]` counts by flag,
-//! `inference`, `inference_reference_file`, `constituent_choice`; see [`Provenance`]). Every key added after the first files is optional, so older files
+//! `inference`, `inference_reference_file`, `constituent_choice`; see [`Provenance`]), then with
+//! `analyse --trend` the fitted `trend_m_per_yr`, `u_trend_m_per_yr` and `z0_epoch_utc`, and the
+//! residual's `[diagnostics]` table ([`DiagnosticsEntry`]); each constituent carries its
+//! `noise_ratio`. Every key added after the first files is optional, so older files
 //! still read.
 //!
 //! Reading checks every constituent name against the table of `compute::astro` and its speed
@@ -121,6 +124,10 @@ pub struct ConstituentEntry {
     /// The least-squares part of `u_phase_deg`, degrees.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub u_phase_fit_deg: Option<f64>,
+    /// The residual's white-equivalent variance near its frequency over the residual's mean
+    /// square, which scaled the least-squares part of its uncertainties (absent: white formula).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub noise_ratio: Option<f64>,
     /// Unresolved constituents whose signal this one's constants carry (see `[[unresolved]]`).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub absorbs: Vec<String>,
@@ -142,6 +149,45 @@ pub struct UnresolvedEntry {
     pub expected_amplitude_m: Option<f64>,
     /// Share of its signal a fit over the record absorbs, `|sin x / x|`.
     pub leakage: f64,
+}
+
+/// The residual diagnostics as written (`[diagnostics]`; `compute::residual`).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct DiagnosticsEntry {
+    /// Standard deviation of the record's sample-to-sample noise, metres.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub noise_floor_m: Option<f64>,
+    /// RMS of the residual's lunar-day means (its slow part), metres.
+    pub lunar_day_rms_m: f64,
+    /// RMS of the residual without its slow part, metres.
+    pub fast_rms_m: f64,
+    /// Lunar-day means tested for a step and a trend.
+    pub lunar_days: usize,
+    /// The residual's fast part exceeds the noise floor by more than the misfit factor.
+    pub misfit: bool,
+    /// A level step was found in the residual.
+    pub step_found: bool,
+    /// The best step's size (after − before), metres, whether found or not.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub step_m: Option<f64>,
+    /// Its standard uncertainty, metres.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_step_m: Option<f64>,
+    /// Where the best step lies, UTC.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub step_at_utc: Option<String>,
+    /// A trend was found in the residual (beyond a fitted one).
+    pub trend_found: bool,
+    /// The residual's trend, metres per year, whether found or not.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub residual_trend_m_per_yr: Option<f64>,
+    /// Its standard uncertainty, metres per year.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_residual_trend_m_per_yr: Option<f64>,
+    /// The residual's white-equivalent variance near zero frequency over its mean square.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub noise_ratio_mean_level: Option<f64>,
 }
 
 /// A constants file as written.
@@ -234,12 +280,47 @@ pub struct ConstantsFile {
     /// How the constituents were chosen: `rayleigh` (with `rayleigh_factor`) or `given`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub constituent_choice: Option<String>,
+    /// The fitted trend of the mean level, metres per year (`analyse --trend`); Z0 is then the
+    /// mean level at `z0_epoch_utc`, and predictions use that level without the trend.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub trend_m_per_yr: Option<f64>,
+    /// Standard uncertainty of the trend, metres per year.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub u_trend_m_per_yr: Option<f64>,
+    /// The instant Z0 is the mean level of when a trend is fitted (the record's centre), UTC.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub z0_epoch_utc: Option<String>,
+    /// What the residual says about the fit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub diagnostics: Option<DiagnosticsEntry>,
     /// The constituents.
     #[serde(rename = "constituent", default)]
     pub constituents: Vec<ConstituentEntry>,
     /// Every constituent the record could not separate from one of the analysis.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub unresolved: Vec<UnresolvedEntry>,
+}
+
+impl DiagnosticsEntry {
+    fn from_analysis(a: &Analysis) -> DiagnosticsEntry {
+        let d = &a.diagnostics;
+        let lv = &d.level;
+        DiagnosticsEntry {
+            noise_floor_m: d.noise_floor_m.map(|f| round(f, UNCERTAINTY_DECIMALS)),
+            lunar_day_rms_m: round(lv.rms_m, UNCERTAINTY_DECIMALS),
+            fast_rms_m: round(d.fast_rms_m(a.residual_rms_m), UNCERTAINTY_DECIMALS),
+            lunar_days: lv.days,
+            misfit: d.misfit(a.residual_rms_m),
+            step_found: lv.step_found,
+            step_m: lv.step.map(|s| round(s.size_m, UNCERTAINTY_DECIMALS)),
+            u_step_m: lv.step.map(|s| round(s.u_size_m, UNCERTAINTY_DECIMALS)),
+            step_at_utc: lv.step.map(|s| super::timefmt::utc_time(s.at_s)),
+            trend_found: lv.trend_found,
+            residual_trend_m_per_yr: lv.trend.map(|t| round(t.rate_m_per_yr, 5)),
+            u_residual_trend_m_per_yr: lv.trend.map(|t| round(t.u_rate_m_per_yr, 5)),
+            noise_ratio_mean_level: d.noise_ratio_mean_level.map(|r| round(r, 3)),
+        }
+    }
 }
 
 impl ConstantsFile {
@@ -290,6 +371,7 @@ impl ConstantsFile {
                     inference_basis: f.inference.map(|i| i.basis.as_str().to_string()),
                     u_amplitude_fit_m: Some(round(f.u_amplitude_fit_m, UNCERTAINTY_DECIMALS)),
                     u_phase_fit_deg: Some(round(f.u_phase_fit_deg, 3)),
+                    noise_ratio: f.noise_ratio.map(|r| round(r, 3)),
                     absorbs: f
                         .absorbs
                         .iter()
@@ -317,6 +399,10 @@ impl ConstantsFile {
                 }
                 .into(),
             ),
+            trend_m_per_yr: a.trend.map(|t| round(t.0, 5)),
+            u_trend_m_per_yr: a.trend.map(|t| round(t.1, 5)),
+            z0_epoch_utc: a.trend.map(|_| super::timefmt::utc_time(a.centre_s)),
+            diagnostics: Some(DiagnosticsEntry::from_analysis(a)),
             unresolved: a
                 .unresolved
                 .iter()

@@ -10,6 +10,7 @@ use crate::compute::harmonic::{
     analyse, high_low_waters, predict_grid, Analysis, AnalysisError, AnalysisSettings,
     HighLowWater, InferenceRule, INFERENCE_PAIRS,
 };
+use crate::compute::qc::QcFlag;
 use crate::io::atomic::{Sink, SinkWriter};
 use crate::io::constants::{
     read_constants, ConstantsFile, Provenance, LEVELS_CHART_DATUM, LEVELS_RECORD_ZERO,
@@ -69,8 +70,23 @@ pub struct AnalyseOutcome {
     pub samples_read: usize,
     /// Samples set aside by QC.
     pub set_aside: usize,
+    /// What QC set aside, by flag (a sample may carry several flags).
+    pub set_aside_by_flag: Vec<SetAside>,
     /// What the levels are above.
     pub levels: String,
+}
+
+/// Samples QC set aside for one reason.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SetAside {
+    /// The flag.
+    pub flag: QcFlag,
+    /// Samples carrying it.
+    pub samples: usize,
+    /// First and last of them, UTC seconds.
+    pub first_s: f64,
+    /// See `first_s`.
+    pub last_s: f64,
 }
 
 /// The K2/S2, P1/K1, N2/M2 and Q1/O1 inference relations of a reference station's constants
@@ -123,6 +139,7 @@ pub fn analyse_gauge(
     let r = read_gauge_record(spec, naive_offset)?;
     let record_sha256 = sha256_file(&spec.record)?;
     let mut qc_set_aside = None;
+    let mut set_aside_by_flag: Vec<SetAside> = Vec::new();
     let (times, heights, set_aside) = match qc {
         Some(q) => {
             let mut q = q.clone();
@@ -130,12 +147,31 @@ pub fn analyse_gauge(
             let p = prepare_series(&q, &InterpolationSpec::default(), spec, &r);
             let mut by_flag = BTreeMap::new();
             if let Some(res) = &p.qc {
-                for f in res.flags.iter().filter(|f| !f.usable()) {
+                for (f, &t) in res
+                    .flags
+                    .iter()
+                    .zip(&r.times_s)
+                    .filter(|(f, _)| !f.usable())
+                {
                     for flag in f.iter().filter(|x| x.excludes()) {
                         *by_flag.entry(flag.as_str().to_string()).or_insert(0) += 1;
+                        match set_aside_by_flag.iter_mut().find(|s| s.flag == flag) {
+                            Some(s) => {
+                                s.samples += 1;
+                                s.first_s = s.first_s.min(t);
+                                s.last_s = s.last_s.max(t);
+                            }
+                            None => set_aside_by_flag.push(SetAside {
+                                flag,
+                                samples: 1,
+                                first_s: t,
+                                last_s: t,
+                            }),
+                        }
                     }
                 }
             }
+            set_aside_by_flag.sort_by_key(|s| std::cmp::Reverse(s.samples));
             qc_set_aside = Some(by_flag);
             let n = p.series.times_s.len();
             (p.series.times_s, p.series.heights_m, r.times_s.len() - n)
@@ -186,6 +222,7 @@ pub fn analyse_gauge(
         written,
         samples_read: r.times_s.len(),
         set_aside,
+        set_aside_by_flag,
         levels: levels.into(),
     })
 }

@@ -9,6 +9,7 @@ mod correctors_apply;
 mod crs_reference;
 mod demo_recovery;
 mod harmonics;
+mod harmonics_noise;
 mod harmonics_trust;
 mod layers;
 mod one_bad_row;

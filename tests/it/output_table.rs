@@ -505,6 +505,19 @@ fn write_every_output(out: &Path) {
         ),
         &[0],
     );
+    run_owned(
+        with(
+            &[
+                "analyse",
+                record,
+                "--trend",
+                "--out",
+                &h("trend.constants.toml"),
+            ],
+            &columns,
+        ),
+        &[0],
+    );
     // Constants that do not say their datum (a file written by hand without `levels`), outside
     // the checked folder.
     let text = std::fs::read_to_string(h("zero.constants.toml")).unwrap();
