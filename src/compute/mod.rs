@@ -17,12 +17,14 @@
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
+//! * [`lat`] — LAT and HAT from harmonic constants over a nodal cycle.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
 pub mod compare;
 pub mod correctors;
 pub mod harmonic;
+pub mod lat;
 pub mod locate;
 pub mod lowpass;
 pub mod names;
