@@ -18,6 +18,7 @@
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
 //! * [`lat`] — LAT and HAT from harmonic constants over a nodal cycle.
+//! * [`transfer`] — datum transfer from a short-term gauge against a control gauge.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
@@ -35,5 +36,6 @@ pub mod quantile;
 pub mod reduce;
 pub mod series;
 pub mod spline;
+pub mod transfer;
 pub mod uncertainty;
 pub mod zoning;
