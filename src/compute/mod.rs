@@ -18,12 +18,15 @@
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
 //! * [`residual`] — a harmonic fit's residual: spectrum near each constituent, noise floor, level step and trend.
+//! * [`lat`] — LAT and HAT from harmonic constants over a nodal cycle.
+//! * [`transfer`] — datum transfer from a short-term gauge against a control gauge.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
 pub mod compare;
 pub mod correctors;
 pub mod harmonic;
+pub mod lat;
 pub mod locate;
 pub mod lowpass;
 pub mod names;
@@ -35,5 +38,6 @@ pub mod reduce;
 pub mod residual;
 pub mod series;
 pub mod spline;
+pub mod transfer;
 pub mod uncertainty;
 pub mod zoning;
