@@ -17,11 +17,15 @@
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
+//! * [`extrema`] — observed high and low waters, classified higher and lower per tidal day.
+//! * [`datums`] — tidal datums (MSL, MHW, MLLW, …) of an observed record, with uncertainties.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
 pub mod compare;
 pub mod correctors;
+pub mod datums;
+pub mod extrema;
 pub mod harmonic;
 pub mod locate;
 pub mod lowpass;
