@@ -337,3 +337,58 @@ fn command_writes_the_datums_file() {
         assert!(err.contains(word), "{word} not in\n{err}");
     }
 }
+
+/// A datums file in the right layout, with the given gauge id, zero and MSL above chart datum.
+fn datums_file_text(gauge: &str, zero: f64, msl_cd: f64) -> String {
+    let level = |v: f64| {
+        format!(
+            "above_chart_datum_m = {v}\nabove_gauge_zero_m = {}\nu_m = 0.01\ndays = 28\n",
+            v - zero
+        )
+    };
+    let mut s = format!(
+        "format = \"ebbwise-datums/1\"\ngauge = \"{gauge}\"\nzero_above_datum_m = {zero}\nrecord_start_utc = \"2026-05-01T00:00:00.000Z\"\nrecord_end_utc = \"2026-05-30T00:00:00.000Z\"\ndays_start_utc = \"2026-05-01T03:00:00.000Z\"\ndays_end_utc = \"2026-05-29T03:00:00.000Z\"\nsamples = 7000\ncomplete_days = 28\nincomplete_days = 2\nhigh_waters = 56\nlow_waters = 56\ndoubles = 0\nnoise_m = 0.02\nthreshold_m = 0.05\nsmoothing_cutoff_min = 30.0\nmin_separation_h = 2.07\nmethod = \"m\"\nuncertainty_model = \"u\"\n"
+    );
+    for name in ["msl", "mhw", "mlw", "mhhw", "mllw", "mtl", "dtl"] {
+        s.push_str(&format!("\n[{name}]\n{}", level(msl_cd)));
+    }
+    for name in ["mn", "gt"] {
+        s.push_str(&format!(
+            "\n[{name}]\nrange_m = 2.0\nu_m = 0.02\ndays = 28\n"
+        ));
+    }
+    s
+}
+
+/// A gauge's `datums` entry: a file of another gauge is an error naming the file and field
+/// `gauge`; a file whose MSL lies far from the gauge's mean_level_above_datum_m (2.1 m in the
+/// mini project) is a warning of `ebbwise check`; one that agrees gives neither.
+#[test]
+fn project_gauge_datums_are_checked() {
+    let p = super::MiniProject::new("time,x,y,depth\n");
+    let project = std::fs::read_to_string(p.path("project.toml")).unwrap();
+    let with = project.replacen(
+        "id = \"g1\"\n",
+        "id = \"g1\"\ndatums = \"g1.datums.toml\"\n",
+        1,
+    );
+    p.write("project.toml", &with);
+    p.write("g1.datums.toml", &datums_file_text("other", 1.0, 2.1));
+    let o = super::ebbwise(&["check", p.path("project.toml").to_str().unwrap()]);
+    let e = stderr(&o);
+    assert_ne!(o.status.code(), Some(0), "{e}");
+    assert!(
+        e.contains("g1.datums.toml") && e.contains("field 'gauge'") && e.contains("'other'"),
+        "{e}"
+    );
+    p.write("g1.datums.toml", &datums_file_text("g1", 1.0, 2.5));
+    let o = super::ebbwise(&["check", p.path("project.toml").to_str().unwrap()]);
+    let e = stderr(&o);
+    assert!(
+        e.contains("mean_level_above_datum_m = 2.1") && e.contains("warning"),
+        "{e}"
+    );
+    p.write("g1.datums.toml", &datums_file_text("g1", 1.0, 2.105));
+    let o = super::ebbwise(&["check", p.path("project.toml").to_str().unwrap()]);
+    assert!(!stderr(&o).contains("datums"), "{}", stderr(&o));
+}
