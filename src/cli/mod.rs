@@ -5,7 +5,7 @@
 //! clap) and `run`, which builds the run configuration, calls the library and prints the human
 //! summary. Output convention, for every command: the human summary goes to stderr; data goes to
 //! stdout only when the user gives `-` as the path of a single data file (`check --json -`,
-//! `analyse --out -`, `predict --out -` or `--high-low-waters -`). Helpers shared by several
+//! `analyse --out -`, `datums --out -`, `predict --out -` or `--high-low-waters -`). Helpers shared by several
 //! commands are in `common`; the progress bar of a reduction is in `progress`.
 
 mod analyse;
@@ -13,6 +13,7 @@ mod apply;
 mod check;
 mod common;
 mod correctors;
+mod datums;
 mod demo;
 mod predict;
 mod progress;
@@ -59,6 +60,9 @@ enum Command {
     Analyse(analyse::Args),
     /// Predict the tide from a constants file on a regular grid, with high and low waters.
     Predict(predict::Args),
+    /// Observed high and low waters and tidal datums (MSL, MHW, MLW, MHHW, MLLW, MTL, DTL, MN,
+    /// GT) of a gauge record, each with its uncertainty, written to a datums file (TOML).
+    Datums(datums::Args),
     /// Reduce the demo survey (./zoning-demo, or --dir) and say where the results are.
     Demo(demo::Args),
     /// Print the help of ebbwise, or of one of its commands.
@@ -132,6 +136,7 @@ pub fn main() -> i32 {
         Command::Qc(a) => qc::run(a),
         Command::Analyse(a) => analyse::run(a),
         Command::Predict(a) => predict::run(a),
+        Command::Datums(a) => datums::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Help { command } => help(command.as_deref()),
     };

@@ -1578,12 +1578,8 @@ pub fn high_low_waters(
             (h, d1, d2)
         };
         // Start from the parabola through the three grid values.
-        let den = a - 2.0 * b + c;
-        let mut dt = if den != 0.0 {
-            (0.5 * (a - c) / den).clamp(-1.0, 1.0) * step_s
-        } else {
-            0.0
-        };
+        let mut dt =
+            crate::compute::extrema::parabola_vertex_offset(a, b, c).unwrap_or(0.0) * step_s;
         for _ in 0..8 {
             let (_, d1, d2) = eval(dt);
             if d2 == 0.0 {

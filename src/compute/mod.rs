@@ -20,11 +20,15 @@
 //! * [`residual`] — a harmonic fit's residual: spectrum near each constituent, noise floor, level step and trend.
 //! * [`lat`] — LAT and HAT from harmonic constants over a nodal cycle.
 //! * [`transfer`] — datum transfer from a short-term gauge against a control gauge.
+//! * [`extrema`] — observed high and low waters, classified higher and lower per tidal day.
+//! * [`datums`] — tidal datums (MSL, MHW, MLLW, …) of an observed record, with uncertainties.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
 pub mod compare;
 pub mod correctors;
+pub mod datums;
+pub mod extrema;
 pub mod harmonic;
 pub mod lat;
 pub mod locate;

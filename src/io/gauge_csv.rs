@@ -219,6 +219,7 @@ mod tests {
             band_min_m: None,
             band_max_m: None,
             constants: None,
+            datums: None,
         }
     }
 

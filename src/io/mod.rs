@@ -12,6 +12,7 @@
 //! * [`crs`] — coordinate transformations (PROJ).
 //! * [`report_html`] — the QA report page (HTML + SVG).
 //! * [`constants`] — harmonic-constants files (TOML).
+//! * [`datums_file`] — tidal-datums files (TOML).
 //! * [`qc_svg`] — the plot of a gauge record with its QC flags (SVG).
 //! * [`atomic`] — output files written to a temporary name and renamed on success.
 //! * [`error`] — the positioned error type and validation findings.
@@ -20,6 +21,7 @@ pub mod atomic;
 pub mod constants;
 pub mod correctors_file;
 pub mod crs;
+pub mod datums_file;
 pub mod error;
 pub mod gauge_csv;
 pub mod numfmt;

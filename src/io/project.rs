@@ -437,6 +437,11 @@ pub struct GaugeSpec {
     /// datum): checked when the project loads; `ebbwise predict --project --gauge` uses them.
     #[serde(default)]
     pub constants: Option<PathBuf>,
+    /// Tidal datums of this gauge (a file written by `ebbwise datums`), path relative to the
+    /// project file: read and checked when the project loads (layout, gauge id); `ebbwise check`
+    /// warns when `zero_above_datum_m` or `mean_level_above_datum_m` disagrees with it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub datums: Option<PathBuf>,
 }
 
 impl GaugeSpec {
@@ -469,6 +474,7 @@ impl GaugeSpec {
             band_min_m: None,
             band_max_m: None,
             constants: None,
+            datums: None,
         }
     }
 }
@@ -655,6 +661,19 @@ impl Project {
             if let Some(c) = &g.constants {
                 g.constants = Some(resolve(parent, c));
             }
+            if let Some(d) = &g.datums {
+                g.datums = Some(resolve(parent, d));
+            }
+        }
+        for g in &spec.gauges {
+            if let Some(d) = &g.datums {
+                if let Err(e) = gauge_datums(g, d) {
+                    errors.push(e);
+                }
+            }
+        }
+        if !errors.is_empty() {
+            return Err(errors);
         }
         for s in &mut spec.soundings {
             for f in &mut s.files {
@@ -676,6 +695,49 @@ impl Project {
             .and_then(|s| parse_offset(s).ok())
             .or(self.naive_offset)
     }
+}
+
+/// A gauge's datums file, read and checked: its layout, and its gauge id when it records one.
+pub fn gauge_datums(
+    g: &GaugeSpec,
+    path: &Path,
+) -> Result<crate::io::datums_file::DatumsFile, IoError> {
+    let f = crate::io::datums_file::read_datums(path)?;
+    if let Some(id) = f.gauge.as_deref().filter(|id| *id != g.id) {
+        return Err(IoError::content(
+            Position::file(path).field("gauge"),
+            format!(
+                "gauge '{}' names this datums file, but it holds the datums of gauge '{id}'",
+                g.id
+            ),
+        ));
+    }
+    Ok(f)
+}
+
+/// Why a gauge's `zero_above_datum_m` or `mean_level_above_datum_m` disagrees with its datums
+/// file: the zero differs from the one the file was computed with (by more than 0.1 mm), or the
+/// mean level from the file's MSL above chart datum by more than twice the MSL's u. One sentence
+/// each; empty when they agree.
+pub fn datums_disagreements(g: &GaugeSpec, f: &crate::io::datums_file::DatumsFile) -> Vec<String> {
+    let mut out = Vec::new();
+    if let Some(z) = f.zero_above_datum_m {
+        if (z - g.zero_above_datum_m).abs() > 1e-4 {
+            out.push(format!(
+                "zero_above_datum_m = {} but the datums file was computed with the zero {z} m above chart datum",
+                g.zero_above_datum_m
+            ));
+        }
+    }
+    if let Some(msl) = f.msl.above_chart_datum_m {
+        if (msl - g.mean_level_above_datum_m).abs() > 2.0 * f.msl.u_m {
+            out.push(format!(
+                "mean_level_above_datum_m = {} but the datums file's MSL is {msl} m ± {} (1σ) above chart datum, more than twice its u apart",
+                g.mean_level_above_datum_m, f.msl.u_m
+            ));
+        }
+    }
+    out
 }
 
 /// The first of a non-empty list of errors.

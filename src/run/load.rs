@@ -120,6 +120,16 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         }
     }
     for g in &project.spec.gauges {
+        if let Some(d) = &g.datums {
+            if let Ok(f) = crate::io::project::gauge_datums(g, d) {
+                for w in crate::io::project::datums_disagreements(g, &f) {
+                    findings.push(Finding::warning(
+                        Position::file(&project.path),
+                        format!("gauge '{}': {w} ({})", g.id, d.display()),
+                    ));
+                }
+            }
+        }
         if let Some(c) = &g.constants {
             match crate::io::constants::read_constants(c) {
                 Ok((file, _)) => {
@@ -646,6 +656,9 @@ pub fn project_inputs(project: &Project) -> Vec<(std::path::PathBuf, String)> {
         out.push((g.record.clone(), format!("the record of gauge '{}'", g.id)));
         if let Some(c) = &g.constants {
             out.push((c.clone(), format!("the constants of gauge '{}'", g.id)));
+        }
+        if let Some(d) = &g.datums {
+            out.push((d.clone(), format!("the datums of gauge '{}'", g.id)));
         }
     }
     for group in &project.spec.soundings {

@@ -29,6 +29,7 @@ fuzz_target!(|data: &[u8]| {
         band_min_m: None,
         band_max_m: None,
         constants: None,
+        datums: None,
     };
     let offset = chrono::FixedOffset::east_opt(3600);
     if let Ok(r) = ebbwise::io::gauge_csv::parse_gauge_record(data, std::path::Path::new("g.csv"), &spec, offset) {
