@@ -17,11 +17,13 @@
 //! * [`compare`] — gauge-to-gauge comparison through the zoning's correctors.
 //! * [`astro`] — astronomical arguments, equilibrium arguments and nodal corrections.
 //! * [`harmonic`] — tidal harmonic analysis (least squares) and prediction.
+//! * [`gapfill`] — filling gauge gaps from a prediction or a neighbour, with a measured error.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
 pub mod compare;
 pub mod correctors;
+pub mod gapfill;
 pub mod harmonic;
 pub mod locate;
 pub mod lowpass;
