@@ -64,6 +64,7 @@ fn main() {
         3
     ];
     let zu = ZoneUncertainty {
+        u_renormalised_m: 0.0,
         u_time_corrector_min: 6.0,
         u_range_ratio: 0.03,
         u_zone_m: 0.08,

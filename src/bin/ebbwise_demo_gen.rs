@@ -525,6 +525,29 @@ fn skellan_duplicate_ms() -> i64 {
     utc_ms(14, 16, 0, 0)
 }
 
+/// Days of each gauge's history record, the weeks before the survey record, from which
+/// `ebbwise analyse` derives the gauge's harmonic constants (gap filling predicts from them).
+const HISTORY_DAYS: i64 = 60;
+/// Step of the history records, minutes.
+const HISTORY_STEP_MIN: i64 = 6;
+
+/// A gauge's history: `HISTORY_DAYS` of clean readings at `HISTORY_STEP_MIN` up to the survey
+/// record's start, from the same tide model and sensor noise.
+fn history_csv(g: &GaugeSite, stream: u64) -> String {
+    let mut rng = ChaCha8Rng::seed_from_u64(SEED);
+    rng.set_stream(stream);
+    let noise = Normal::new(0.0, GAUGE_NOISE_SD_M).unwrap();
+    let end = utc_ms(13, 22, 0, 0);
+    let mut t = end - HISTORY_DAYS * 86_400_000;
+    let mut s = String::from("time,height\n");
+    while t < end {
+        let reading = g.level_m(t) + noise.sample(&mut rng) - g.zero_above_datum_m;
+        writeln!(s, "{},{}", rfc3339(t, false), fixed(reading, 3)).unwrap();
+        t += HISTORY_STEP_MIN * 60_000;
+    }
+    s
+}
+
 fn gauge_csv(g: &GaugeSite, stream: u64) -> String {
     let mut rng = ChaCha8Rng::seed_from_u64(SEED);
     rng.set_stream(stream);
@@ -781,6 +804,12 @@ fn main() -> Result<()> {
         .enumerate()
         .map(|(k, g)| (format!("gauges/{}.csv", g.id), gauge_csv(g, 1 + k as u64)))
         .collect();
+    outputs.extend(GAUGES.iter().enumerate().map(|(k, g)| {
+        (
+            format!("gauges/{}-history.csv", g.id),
+            history_csv(g, 20 + k as u64),
+        )
+    }));
     outputs.extend([
         ("zoning.geojson".into(), zoning_geojson(&zones, &to_geo)?),
         ("soundings/launch-a.csv".into(), launch_a_csv(&a)),
@@ -792,6 +821,10 @@ fn main() -> Result<()> {
             generator_json(&zones, &gauge_lonlat, &stats, model_error)?,
         ),
         ("project.toml".into(), project_toml(&gauge_lonlat)),
+        (
+            "gap-fill.toml".into(),
+            gap_fill_toml(&project_toml(&gauge_lonlat)),
+        ),
         ("README.md".into(), readme(&stats, model_error)),
     ]);
     for (rel, text) in &outputs {
@@ -887,6 +920,53 @@ fn generator_json(
     });
     Ok(serde_json::to_string_pretty(&doc)? + "\n")
 }
+
+/// The demo project with gap filling: the main project, each gauge given the constants
+/// `ebbwise analyse` derives from its history record, and a `[gap_fill]` table.
+fn gap_fill_toml(project: &str) -> String {
+    let mut s = String::from(
+        "# The demo survey reduced with gap filling: project.toml, plus each gauge's harmonic\n\
+         # constants (from `ebbwise analyse` on gauges/ID-history.csv, see README.md) and [gap_fill].\n",
+    );
+    let mut gauge = None;
+    for line in project.lines() {
+        if let Some(id) = line
+            .strip_prefix("id = \"")
+            .and_then(|r| r.strip_suffix('"'))
+        {
+            gauge = Some(id.to_string());
+        }
+        if line.starts_with("name = \"Vellmar") {
+            s.push_str("name = \"Vellmar Water demo survey, 2026-06-14, gap-filled\"\n");
+            continue;
+        }
+        s.push_str(line);
+        s.push('\n');
+        if line.starts_with("u_datum_m = ") {
+            if let Some(id) = gauge.take() {
+                writeln!(s, "constants = \"gauges/{id}.constants.toml\"").unwrap();
+            }
+        }
+    }
+    s.push_str(GAP_FILL_TABLE);
+    s
+}
+
+const GAP_FILL_TABLE: &str = r#"
+# ---------------------------------------------------------------------------------------------
+# Gap filling (docs/gap-filling.md). Pendrath's 50-minute gap and the samples QC set aside at
+# Skellan (a spike, a stuck float) are filled from each gauge's prediction plus its residual, or
+# from a neighbouring gauge through the zoning, whichever matches the gap's edges best; the
+# soundings reduced through them get status gap_filled, with an uncertainty measured by filling
+# gaps of the same length cut out of the record. Gaps longer than max_fill_min stay open.
+[gap_fill]
+enabled = true
+max_fill_min = 180
+method = "auto"
+# methods = { skellan = "prediction_residual" }   # per gauge: auto, prediction_residual,
+#                                                 # neighbour or none
+renormalise_feeds = true   # a two-gauge zone with one feed missing uses the other
+"#;
 
 fn project_toml(gauge_lonlat: &[(f64, f64)]) -> String {
     let mut s = String::from(
@@ -1090,9 +1170,15 @@ Deliberate faults, as real surveys have them:
 
 ```text
 cargo run --release --bin ebbwise-demo-gen -- zoning-demo
+for g in orlick:-0.85 pendrath:-1.20 skellan:0.35; do
+  cargo run --release --bin ebbwise -- analyse zoning-demo/gauges/${{g%%:*}}-history.csv \
+    --zero-above-datum-m=${{g#*:}} --out zoning-demo/gauges/${{g%%:*}}.constants.toml
+done
 ```
 
-The generator (`src/bin/ebbwise_demo_gen.rs`) is deterministic (ChaCha8, seed {seed}): running it
+The second step writes each gauge's harmonic constants from its 60-day history record
+(`gauges/ID-history.csv`, the weeks before the survey, same tide and noise), which gap filling
+predicts from. The generator (`src/bin/ebbwise_demo_gen.rs`) is deterministic (ChaCha8, seed {seed}): running it
 again rewrites the same bytes. Noise: sounding depths N(0, {sd_s:.2} m), rounded to 0.01 m; gauge
 readings N(0, {sd_g:.2} m), rounded to 0.001 m. Each zone's correctors come from the true tide at
 its centroid (time corrector rounded to 1 min, range ratio to 0.01), so the zoning is good but not

@@ -83,9 +83,12 @@ pub enum Outcome {
 }
 
 impl Outcome {
-    /// `Done` when every row of a reduction was reduced, else `Incomplete`.
+    /// `Done` when every row of a reduction was reduced (gap-filled rows included: they have a
+    /// tide), else `Incomplete`.
     pub fn of_reduction(summary: &RunSummary) -> Self {
-        if summary.count(SoundingStatus::Reduced) == summary.rows() {
+        if summary.count(SoundingStatus::Reduced) + summary.count(SoundingStatus::GapFilled)
+            == summary.rows()
+        {
             Outcome::Done
         } else {
             Outcome::Incomplete

@@ -185,17 +185,18 @@ pub fn print_run_summary(
     }
     let _ = writeln!(
         e,
-        "  {:<8} {:<10} {:<22} {:>10} {:>14} {:>14}",
-        "zone", "formula", "gauges", "reduced", "no_gauge_data", "gauge_flagged"
+        "  {:<8} {:<10} {:<22} {:>10} {:>10} {:>14} {:>14}",
+        "zone", "formula", "gauges", "reduced", "gap_filled", "no_gauge_data", "gauge_flagged"
     );
     for z in &s.zones {
         let _ = writeln!(
             e,
-            "  {:<8} {:<10} {:<22} {:>10} {:>14} {:>14}",
+            "  {:<8} {:<10} {:<22} {:>10} {:>10} {:>14} {:>14}",
             z.zone,
             z.mean_level_form,
             z.gauges.join("+"),
             z.reduced,
+            z.gap_filled,
             z.no_gauge_data,
             z.gauge_flagged
         );

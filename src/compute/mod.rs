@@ -22,6 +22,7 @@
 //! * [`transfer`] — datum transfer from a short-term gauge against a control gauge.
 //! * [`extrema`] — observed high and low waters, classified higher and lower per tidal day.
 //! * [`datums`] — tidal datums (MSL, MHW, MLLW, …) of an observed record, with uncertainties.
+//! * [`gapfill`] — filling gauge gaps from a prediction or a neighbour, with a measured error.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
@@ -29,6 +30,7 @@ pub mod compare;
 pub mod correctors;
 pub mod datums;
 pub mod extrema;
+pub mod gapfill;
 pub mod harmonic;
 pub mod lat;
 pub mod locate;

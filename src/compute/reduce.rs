@@ -16,6 +16,9 @@ use super::zoning::{FeedState, Gauge, NoZoneTide, Zone};
 pub enum SoundingStatus {
     /// Reduced to chart datum.
     Reduced,
+    /// Reduced to chart datum with a tide that rests on gap-filled gauge samples, or on a zone's
+    /// feeds renormalised because one had no level (`[gap_fill]`).
+    GapFilled,
     /// The position is outside every zone of the zoning.
     OutsideZoning,
     /// The zone's gauge(s) have no level at the (shifted) time: before or after the record, or
@@ -30,12 +33,13 @@ pub enum SoundingStatus {
 }
 
 /// Number of sounding statuses.
-pub const N_STATUS: usize = 5;
+pub const N_STATUS: usize = 6;
 
 impl SoundingStatus {
     /// All statuses, in report order.
     pub const ALL: [SoundingStatus; N_STATUS] = [
         SoundingStatus::Reduced,
+        SoundingStatus::GapFilled,
         SoundingStatus::OutsideZoning,
         SoundingStatus::NoGaugeData,
         SoundingStatus::GaugeFlagged,
@@ -46,6 +50,7 @@ impl SoundingStatus {
     pub fn as_str(self) -> &'static str {
         match self {
             SoundingStatus::Reduced => "reduced",
+            SoundingStatus::GapFilled => "gap_filled",
             SoundingStatus::OutsideZoning => "outside_zoning",
             SoundingStatus::NoGaugeData => "no_gauge_data",
             SoundingStatus::GaugeFlagged => "gauge_flagged",
@@ -191,6 +196,9 @@ pub struct DiscreteZoning<'a> {
     pub locator: &'a ZoneLocator,
     /// Time interpolation method for the gauge records.
     pub interp: &'a dyn TimeInterpolation,
+    /// A zone fed by several gauges, one without a level, takes the others with their weights
+    /// renormalised ([`Zone::tide_at_renormalising`]; `[gap_fill] renormalise_feeds`).
+    pub renormalise: bool,
 }
 
 impl TideModel for DiscreteZoning<'_> {
@@ -205,7 +213,14 @@ impl TideModel for DiscreteZoning<'_> {
         let Some(zone) = self.locator.locate(x, y) else {
             return TideOutcome::Outside;
         };
-        match self.zones[zone].tide_at(self.gauges, self.interp, t_s, states) {
+        let z = &self.zones[zone];
+        let found = if self.renormalise {
+            z.tide_at_renormalising(self.gauges, self.interp, t_s, states)
+                .map(|(t, _)| t)
+        } else {
+            z.tide_at(self.gauges, self.interp, t_s, states)
+        };
+        match found {
             // A tide that is not a finite number is never applied (the zoning's bounds make it
             // unlikely; a huge stated mean level could still overflow).
             Ok(tide_m) if !tide_m.is_finite() => TideOutcome::NoCorrection {
@@ -312,6 +327,7 @@ mod tests {
             gauges: &gauges,
             locator: &loc,
             interp: &Linear,
+            renormalise: false,
         };
         let mut st = Vec::new();
         assert_eq!(

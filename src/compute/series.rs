@@ -20,6 +20,9 @@ pub struct LevelSeries {
     /// Second derivatives of the not-a-knot cubic spline at each sample, m/s², when this gauge is
     /// interpolated by spline ([`Configured`]); empty for linear interpolation.
     pub spline_m_per_s2: Vec<f64>,
+    /// Which samples gap filling added, their uncertainty, and the gaps filled or left open
+    /// (empty when the record was not filled).
+    pub fill: super::gapfill::FillMarks,
 }
 
 /// Interpolated level and its rate of change at one instant.
@@ -248,6 +251,21 @@ impl TimeInterpolation for Configured {
 
     fn name(&self) -> &'static str {
         "per gauge: linear, or not-a-knot cubic spline for sparse records"
+    }
+}
+
+impl LevelSeries {
+    /// The standard uncertainty of gap filling at `t_s` between samples `i` and `i + 1`,
+    /// metres: linear between the two samples' fill uncertainties (0 for an observed sample),
+    /// 0 when nothing was filled.
+    pub fn fill_u_at_m(&self, i: usize, t_s: f64) -> f64 {
+        let u = &self.fill.u_fill_m;
+        if u.is_empty() || i + 1 >= u.len() || u.len() != self.times_s.len() {
+            return u.get(i).copied().unwrap_or(0.0);
+        }
+        let (t0, t1) = (self.times_s[i], self.times_s[i + 1]);
+        let f = ((t_s - t0) / (t1 - t0)).clamp(0.0, 1.0);
+        u[i] + (u[i + 1] - u[i]) * f
     }
 }
 

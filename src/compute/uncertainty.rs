@@ -97,6 +97,11 @@ pub struct ZoneUncertainty {
     /// chart datum `M_z` in the zone-mean form. `None`: chart datum at the zone is carried from
     /// its gauges (each gauge's `u_datum_m`, coefficient `w_i`). Not used in the scaled form.
     pub u_datum_m: Option<f64>,
+    /// The standard uncertainty added when the tide is taken from some of the zone's feeds with
+    /// their weights renormalised because another has no level, metres: the largest, over the
+    /// zone's feeds, of the RMS of the full blend minus the blend without that feed over the
+    /// records, where both exist. 0 when renormalisation is off or the zone has one feed.
+    pub u_renormalised_m: f64,
 }
 
 /// Names of the five tide components, in [`TideBudget::variances_m2`] order.
@@ -454,10 +459,18 @@ pub fn tide_budget(
     // Sensitivities to the common range-ratio error, the common time-corrector error (first
     // and second derivative).
     let (mut c_range, mut c_time, mut c_time2) = (0.0, 0.0, 0.0);
+    if states.iter().any(|s| s.missing) {
+        // A feed without level, left out of a renormalised blend: the blends' measured
+        // disagreement enters the gauge component.
+        v[0] += zone_u.u_renormalised_m.powi(2);
+    }
     for (feed, st) in zone.feeds.iter().zip(states) {
+        if st.missing {
+            continue;
+        }
         let g = &gauges[feed.gauge];
         let gu = &gauge_u[feed.gauge];
-        let wr = feed.weight * feed.range_ratio;
+        let wr = st.weight * feed.range_ratio;
         let r = match zone.mean_level {
             MeanLevelForm::ZoneMean { .. } => st.level.height_m - g.mean_level_above_datum_m,
             MeanLevelForm::Scaled => st.level.height_m,
@@ -474,8 +487,9 @@ pub fn tide_budget(
         } else {
             0.0
         };
-        v[0] += wr * wr * (gu.u_gauge_m.powi(2) + e_interp * e_interp);
-        c_range += feed.weight * r;
+        let u_fill = g.series.fill_u_at_m(st.level.bracket, shifted);
+        v[0] += wr * wr * (gu.u_gauge_m.powi(2) + e_interp * e_interp + u_fill * u_fill);
+        c_range += st.weight * r;
         c_time += wr * rate;
         c_time2 += wr * curvature;
     }
@@ -756,6 +770,7 @@ mod tests {
         let omega_h = 28.984_104_2_f64.to_radians();
         let period_s = 360.0 / 28.984_104_2 * 3600.0;
         let zu = ZoneUncertainty {
+            u_renormalised_m: 0.0,
             u_time_corrector_min: 10.0,
             u_range_ratio: 0.03,
             u_zone_m: 0.10,
@@ -801,6 +816,7 @@ mod tests {
         let g = vec![sine_gauge(2.5, 1.5)];
         let period_s = 360.0 / 28.984_104_2 * 3600.0;
         let zu = ZoneUncertainty {
+            u_renormalised_m: 0.0,
             u_time_corrector_min: 10.0,
             u_range_ratio: 0.03,
             u_zone_m: 0.05,
@@ -868,6 +884,7 @@ mod tests {
             },
         ];
         let zu = ZoneUncertainty {
+            u_renormalised_m: 0.0,
             u_time_corrector_min: 8.0,
             u_range_ratio: 0.04,
             u_zone_m: 0.06,
@@ -1001,6 +1018,7 @@ mod tests {
         let t = 4.2 * 3600.0;
         for (form, u_zone_datum, by_hand) in cases {
             let zu = ZoneUncertainty {
+                u_renormalised_m: 0.0,
                 u_time_corrector_min: 0.0,
                 u_range_ratio: 0.0,
                 u_zone_m: 0.0,
@@ -1075,6 +1093,7 @@ mod tests {
         let g = vec![sine_gauge(2.5, 1.5), sine_gauge(2.2, 1.1)];
         let period_s = 360.0 / 28.984_104_2 * 3600.0;
         let zu = ZoneUncertainty {
+            u_renormalised_m: 0.0,
             u_time_corrector_min: 10.0,
             u_range_ratio: 0.03,
             u_zone_m: 0.0,
@@ -1140,6 +1159,7 @@ mod tests {
         let period_s = 360.0 / 28.984_104_2 * 3600.0;
         let g = vec![sine_gauge(mean, amp)];
         let zu = ZoneUncertainty {
+            u_renormalised_m: 0.0,
             u_time_corrector_min: 30.0,
             u_range_ratio: 0.0,
             u_zone_m: 0.0,
@@ -1407,6 +1427,7 @@ mod tests {
             mean_level_above_datum_m: mean,
         }];
         let zu = ZoneUncertainty {
+            u_renormalised_m: 0.0,
             u_time_corrector_min: 0.0,
             u_range_ratio: 0.0,
             u_zone_m: 0.0,

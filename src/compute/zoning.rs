@@ -107,8 +107,15 @@ pub struct Zone {
 /// The gauge state that entered one feed's tide: used by the uncertainty budget.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FeedState {
-    /// Gauge level above chart datum at the shifted time `t − Δt`, metres.
+    /// Gauge level above chart datum at the shifted time `t − Δt`, metres (zero for a missing
+    /// feed).
     pub level: LevelAt,
+    /// The weight the feed entered the tide with: its own, or renormalised over the feeds that
+    /// had a level (0 for a missing feed).
+    pub weight: f64,
+    /// The feed had no level and was left out of a renormalised blend
+    /// ([`Zone::tide_at_renormalising`]).
+    pub missing: bool,
 }
 
 /// Why a zone has no tide at an instant.
@@ -149,7 +156,11 @@ impl Zone {
                     at_s: shifted,
                     why,
                 })?;
-            states.push(FeedState { level });
+            states.push(FeedState {
+                level,
+                weight: feed.weight,
+                missing: false,
+            });
             sum += match self.mean_level {
                 MeanLevelForm::ZoneMean { .. } => {
                     feed.weight * feed.range_ratio * (level.height_m - g.mean_level_above_datum_m)
@@ -162,6 +173,152 @@ impl Zone {
                 zone_mean_level_above_datum_m,
             } => zone_mean_level_above_datum_m + sum,
             MeanLevelForm::Scaled => sum,
+        })
+    }
+
+    /// As [`Zone::tide_at`], but when some feeds of a zone fed by several gauges have no level
+    /// and at least one has, the tide is the blend of those with a level, their weights
+    /// divided by the sum of theirs: `tide = M_z + Σ' (w_i / Σ' w) R_i (h_i − M_i)` (scaled
+    /// form alike). The missing feeds' states have `missing` set; the first missing feed's
+    /// reason is returned beside the tide.
+    ///
+    /// # Units
+    /// As [`Zone::tide_at`].
+    pub fn tide_at_renormalising(
+        &self,
+        gauges: &[Gauge],
+        interp: &dyn TimeInterpolation,
+        t_s: f64,
+        states: &mut Vec<FeedState>,
+    ) -> Result<(f64, Option<NoZoneTide>), NoZoneTide> {
+        match self.tide_at(gauges, interp, t_s, states) {
+            Ok(t) => return Ok((t, None)),
+            Err(e) if self.feeds.len() < 2 => return Err(e),
+            Err(_) => {}
+        }
+        states.clear();
+        let mut first_missing = None;
+        let mut present_w = 0.0;
+        for feed in &self.feeds {
+            let shifted = t_s - feed.time_corrector_min * 60.0;
+            match interp.level_at(&gauges[feed.gauge].series, shifted) {
+                Ok(level) => {
+                    present_w += feed.weight;
+                    states.push(FeedState {
+                        level,
+                        weight: feed.weight,
+                        missing: false,
+                    });
+                }
+                Err(why) => {
+                    first_missing.get_or_insert(NoZoneTide {
+                        gauge: feed.gauge,
+                        at_s: shifted,
+                        why,
+                    });
+                    states.push(FeedState {
+                        level: LevelAt {
+                            height_m: 0.0,
+                            rate_m_per_s: 0.0,
+                            bracket: 0,
+                        },
+                        weight: 0.0,
+                        missing: true,
+                    });
+                }
+            }
+        }
+        let missing = first_missing.expect("tide_at failed, so a feed has no level");
+        if present_w <= 0.0 {
+            return Err(missing);
+        }
+        let mut sum = 0.0;
+        for (feed, st) in self.feeds.iter().zip(states.iter_mut()) {
+            if st.missing {
+                continue;
+            }
+            st.weight = feed.weight / present_w;
+            let g = &gauges[feed.gauge];
+            sum += st.weight
+                * feed.range_ratio
+                * match self.mean_level {
+                    MeanLevelForm::ZoneMean { .. } => {
+                        st.level.height_m - g.mean_level_above_datum_m
+                    }
+                    MeanLevelForm::Scaled => st.level.height_m,
+                };
+        }
+        let tide = match self.mean_level {
+            MeanLevelForm::ZoneMean {
+                zone_mean_level_above_datum_m,
+            } => zone_mean_level_above_datum_m + sum,
+            MeanLevelForm::Scaled => sum,
+        };
+        Ok((tide, Some(missing)))
+    }
+
+    /// The largest, over the zone's feeds, of the RMS difference between the full blend and the
+    /// blend of the other feeds with their weights renormalised, at the instants `times_s`
+    /// where every feed has a level; `None` for a zone of one feed or when no instant has
+    /// every level. This is the measured disagreement [`Zone::tide_at_renormalising`] risks.
+    ///
+    /// # Units
+    /// Times UTC seconds; result metres.
+    pub fn renormalisation_rms_m(
+        &self,
+        gauges: &[Gauge],
+        interp: &dyn TimeInterpolation,
+        times_s: &[f64],
+    ) -> Option<f64> {
+        let n = self.feeds.len();
+        if n < 2 {
+            return None;
+        }
+        let mut ss = vec![0.0; n];
+        let mut count = 0usize;
+        let mut states = Vec::new();
+        let mut parts = vec![0.0; n];
+        for &t in times_s {
+            if self.tide_at(gauges, interp, t, &mut states).is_err() {
+                continue;
+            }
+            for (k, (feed, st)) in self.feeds.iter().zip(&states).enumerate() {
+                let g = &gauges[feed.gauge];
+                parts[k] = feed.range_ratio
+                    * match self.mean_level {
+                        MeanLevelForm::ZoneMean { .. } => {
+                            st.level.height_m - g.mean_level_above_datum_m
+                        }
+                        MeanLevelForm::Scaled => st.level.height_m,
+                    };
+            }
+            let full: f64 = self
+                .feeds
+                .iter()
+                .zip(&parts)
+                .map(|(f, p)| f.weight * p)
+                .sum();
+            for (k, ss_k) in ss.iter_mut().enumerate() {
+                let w_rest: f64 = self.weight_sum() - self.feeds[k].weight;
+                if w_rest <= 0.0 {
+                    continue;
+                }
+                let rest: f64 = self
+                    .feeds
+                    .iter()
+                    .zip(&parts)
+                    .enumerate()
+                    .filter(|(j, _)| *j != k)
+                    .map(|(_, (f, p))| f.weight / w_rest * p)
+                    .sum();
+                *ss_k += (full - rest).powi(2);
+            }
+            count += 1;
+        }
+        (count > 0).then(|| {
+            ss.iter()
+                .map(|s| (s / count as f64).sqrt())
+                .fold(0.0, f64::max)
         })
     }
 
@@ -364,5 +521,67 @@ mod properties {
         fn tide_added_back_gives_the_observed_depth(depth in -5.0f64..500.0, tide in -3.0f64..12.0) {
             prop_assert!((reduce_depth(depth, tide) + tide - depth).abs() <= 1e-12 * (1.0 + depth.abs()));
         }
+    }
+
+    /// Renormalisation, hand-worked: the two-gauge zone of `hand_worked_zoning_example`
+    /// (0.6·A + 0.4·B, M_z = 2.00) at 00:15 with B having no level (a gap): the tide is A's
+    /// alone with weight 0.6/0.6 = 1: 2.00 + 1.10 × (2.30 − 2.10) = 2.22 m. With both levels it
+    /// equals `tide_at` (2.204 m, the same example).
+    #[test]
+    fn renormalised_blend_of_the_feeds_with_a_level() {
+        use crate::compute::series::{LevelSeries, Linear};
+        use approx::assert_relative_eq;
+        let gauge = |id: &str, heights: &[f64], mean: f64| Gauge {
+            id: id.into(),
+            series: LevelSeries {
+                times_s: (0..heights.len()).map(|i| i as f64 * 600.0).collect(),
+                heights_m: heights.to_vec(),
+                max_gap_s: 1800.0,
+                ..Default::default()
+            },
+            mean_level_above_datum_m: mean,
+        };
+        let mut b = gauge("B", &[1.60, 1.80, 1.90], 1.50);
+        b.series.times_s = vec![0.0, 60.0, 1200.0];
+        b.series.max_gap_s = 600.0;
+        let gauges = vec![gauge("A", &[2.00, 2.30, 2.50], 2.10), b];
+        let zone = Zone {
+            id: "Z".into(),
+            feeds: vec![
+                GaugeFeed {
+                    gauge: 0,
+                    weight: 0.6,
+                    time_corrector_min: 5.0,
+                    range_ratio: 1.10,
+                },
+                GaugeFeed {
+                    gauge: 1,
+                    weight: 0.4,
+                    time_corrector_min: 10.0,
+                    range_ratio: 0.90,
+                },
+            ],
+            mean_level: MeanLevelForm::ZoneMean {
+                zone_mean_level_above_datum_m: 2.00,
+            },
+        };
+        let mut states = Vec::new();
+        assert!(zone.tide_at(&gauges, &Linear, 900.0, &mut states).is_err());
+        let (tide, missing) = zone
+            .tide_at_renormalising(&gauges, &Linear, 900.0, &mut states)
+            .unwrap();
+        assert_relative_eq!(tide, 2.22, epsilon = 1e-12);
+        assert_eq!(missing.map(|m| m.gauge), Some(1));
+        assert!(states[1].missing && !states[0].missing);
+        assert_relative_eq!(states[0].weight, 1.0, epsilon = 1e-12);
+        let full = vec![
+            gauge("A", &[2.00, 2.30, 2.50], 2.10),
+            gauge("B", &[1.60, 1.80, 1.90], 1.50),
+        ];
+        let (tide, missing) = zone
+            .tide_at_renormalising(&full, &Linear, 900.0, &mut states)
+            .unwrap();
+        assert_relative_eq!(tide, 2.204, epsilon = 1e-12);
+        assert!(missing.is_none());
     }
 }

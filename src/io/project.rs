@@ -41,6 +41,184 @@ pub struct ProjectFile {
     /// Time interpolation of gauge records.
     #[serde(default)]
     pub interpolation: InterpolationSpec,
+    /// Filling gauge gaps (off by default).
+    #[serde(default)]
+    pub gap_fill: GapFillSpec,
+}
+
+/// `[gap_fill]`: filling gaps in gauge records from a prediction or a neighbouring gauge, and
+/// renormalising the weights of a zone whose feed has no level. Off by default: without it a
+/// sounding in a gap has no tide (docs/gap-filling.md).
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct GapFillSpec {
+    /// Fill gaps (default false).
+    pub enabled: bool,
+    /// Longest gap filled, minutes, between the usable samples around it (default 180); longer
+    /// gaps stay open.
+    pub max_fill_min: f64,
+    /// Window of observed samples on each side of a gap whose mean mismatch with the reference
+    /// sets the fill's offsets, minutes (default 30).
+    pub edge_window_min: f64,
+    /// Method for every gauge not named in `methods` (default auto).
+    pub method: GapFillChoice,
+    /// Method per gauge id.
+    pub methods: std::collections::BTreeMap<String, GapFillChoice>,
+    /// A zone fed by several gauges, one without a level: use the others with their weights
+    /// renormalised (default false).
+    pub renormalise_feeds: bool,
+}
+
+impl Default for GapFillSpec {
+    fn default() -> Self {
+        GapFillSpec {
+            enabled: false,
+            max_fill_min: 180.0,
+            edge_window_min: 30.0,
+            method: GapFillChoice::Auto,
+            methods: Default::default(),
+            renormalise_feeds: false,
+        }
+    }
+}
+
+impl GapFillSpec {
+    /// The method for gauge `id`.
+    pub fn method_for(&self, id: &str) -> GapFillChoice {
+        self.methods.get(id).copied().unwrap_or(self.method)
+    }
+}
+
+/// How a gauge's gaps are filled.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+#[non_exhaustive]
+pub enum GapFillChoice {
+    /// Of the gauge's references (its constants, its neighbours), the one that best matches
+    /// the gap's edges.
+    #[default]
+    Auto,
+    /// Its harmonic prediction plus the residual interpolated across the gap (needs
+    /// `constants`).
+    PredictionResidual,
+    /// A neighbouring gauge through the zoning's correctors.
+    Neighbour,
+    /// Never filled.
+    None,
+}
+
+impl GapFillChoice {
+    /// The word written in the project file.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            GapFillChoice::Auto => "auto",
+            GapFillChoice::PredictionResidual => "prediction_residual",
+            GapFillChoice::Neighbour => "neighbour",
+            GapFillChoice::None => "none",
+        }
+    }
+}
+
+/// Longest `[gap_fill] max_fill_min` accepted, minutes: a day. A fill that long rests on the
+/// reference alone, and its error can no longer be measured on a record of a few days.
+pub const MAX_FILL_REFUSED_ABOVE_MIN: f64 = 1440.0;
+
+/// Longest `[gap_fill] edge_window_min` accepted, minutes: 3 h, a quarter of a semidiurnal
+/// tide; a longer window averages mismatches over a part of the tide no longer near the gap.
+pub const EDGE_WINDOW_REFUSED_ABOVE_MIN: f64 = 180.0;
+
+/// The line of `key` in the `[gap_fill]` table of `text` (1-based), or of the table's header.
+fn gap_fill_line(text: &str, key: &str) -> Option<u64> {
+    let mut header = None;
+    for (n, line) in text.lines().enumerate() {
+        let l = line.trim_start();
+        if l.starts_with('[') {
+            if header.is_some() && !l.starts_with("[gap_fill") {
+                break;
+            }
+            if l.starts_with("[gap_fill]") || l.starts_with("[gap_fill.") {
+                header = header.or(Some(n as u64 + 1));
+            }
+            continue;
+        }
+        if header.is_some() {
+            let code = l.split('#').next().unwrap_or("");
+            let found = code.starts_with(key) && code[key.len()..].trim_start().starts_with('=')
+                || code.contains(&format!("{key} ="))
+                || code.contains(&format!("{key}="))
+                || code.contains(&format!("\"{key}\""));
+            if found {
+                return Some(n as u64 + 1);
+            }
+        }
+    }
+    header
+}
+
+/// Every problem of the `[gap_fill]` table, positioned at its line in `text`.
+fn validate_gap_fill(spec: &ProjectFile, text: &str, path: &Path, errors: &mut Vec<IoError>) {
+    let g = &spec.gap_fill;
+    let mut err = |key: &str, m: String| {
+        let mut at = Position::file(path).field(format!("gap_fill.{key}"));
+        let last = key.rsplit('.').next().unwrap_or(key);
+        if let Some(l) = gap_fill_line(text, last) {
+            at = at.line(l);
+        }
+        errors.push(IoError::content(at, m));
+    };
+    for (k, v, max, why) in [
+        (
+            "max_fill_min",
+            g.max_fill_min,
+            MAX_FILL_REFUSED_ABOVE_MIN,
+            "a longer fill rests on the reference alone",
+        ),
+        (
+            "edge_window_min",
+            g.edge_window_min,
+            EDGE_WINDOW_REFUSED_ABOVE_MIN,
+            "a longer window averages over a part of the tide away from the gap",
+        ),
+    ] {
+        if !(v.is_finite() && v > 0.0) {
+            err(
+                k,
+                format!("expected a positive number of minutes, found {v}"),
+            );
+        } else if v > max {
+            err(
+                k,
+                format!("{v} min is beyond the plausible {max} min: {why}"),
+            );
+        }
+    }
+    let ids: Vec<&str> = spec.gauges.iter().map(|g| g.id.as_str()).collect();
+    for id in g.methods.keys() {
+        if !ids.contains(&id.as_str()) {
+            err(
+                &format!("methods.{id}"),
+                format!(
+                    "names gauge '{id}', which the project does not define{}",
+                    crate::compute::names::hint(id, ids.iter().copied())
+                ),
+            );
+        }
+    }
+    for gauge in &spec.gauges {
+        let (m, key) = match g.methods.get(&gauge.id) {
+            Some(m) => (*m, format!("methods.{}", gauge.id)),
+            None => (g.method, "method".to_string()),
+        };
+        if m == GapFillChoice::PredictionResidual && gauge.constants.is_none() {
+            err(
+                &key,
+                format!(
+                    "gauge '{}' has no `constants` file: filling by prediction_residual needs the gauge's harmonic constants (write them with `ebbwise analyse` and set the gauge's `constants`), or choose auto or neighbour",
+                    gauge.id
+                ),
+            );
+        }
+    }
 }
 
 /// `[qc]`: gauge-record quality control. The reducer does not interpolate through a flagged
@@ -651,6 +829,7 @@ impl Project {
             None => None,
         };
         validate(&spec, path, &mut errors);
+        validate_gap_fill(&spec, text, path, &mut errors);
         if !errors.is_empty() {
             return Err(errors);
         }

@@ -8,6 +8,7 @@ use std::fmt;
 
 use super::timefmt::utc_label;
 use crate::compute::compare::CompareFinding;
+use crate::compute::gapfill::FillRefusal;
 use crate::compute::qc::{QcReason, ShiftKind};
 use crate::compute::series::NoLevel;
 
@@ -31,6 +32,41 @@ impl fmt::Display for NoLevel {
                 "inside a {:.1} min gap starting at {}",
                 length_s / 60.0,
                 utc_label(*from_s)
+            ),
+        }
+    }
+}
+
+impl fmt::Display for FillRefusal {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            FillRefusal::TooLong { length_s, max_s } => write!(
+                f,
+                "the gap of {:.1} min is longer than [gap_fill] max_fill_min = {} min",
+                length_s / 60.0,
+                crate::io::numfmt::round_to(max_s / 60.0, 3)
+            ),
+            FillRefusal::NoReference { wanted: Some(m) } => write!(
+                f,
+                "the gauge has no reference for {}",
+                m.as_str()
+            ),
+            FillRefusal::NoReference { wanted: None } => write!(
+                f,
+                "the gauge has neither harmonic constants nor a neighbour related through the zoning or constants"
+            ),
+            FillRefusal::ReferenceMissing => write!(
+                f,
+                "no reference has a level across the whole gap and beside both its edges"
+            ),
+            FillRefusal::TooFewTrials {
+                method,
+                found,
+                needed,
+            } => write!(
+                f,
+                "the record holds {found} stretches where a gap this long can be cut out and filled by {} to measure the fill's error, fewer than the {needed} needed",
+                method.as_str()
             ),
         }
     }

@@ -119,7 +119,9 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             Err(e) => findings.push(e.into()),
         }
     }
-    for g in &project.spec.gauges {
+    let mut constants: Vec<Option<crate::compute::harmonic::HarmonicConstants>> =
+        vec![None; project.spec.gauges.len()];
+    for (gi, g) in project.spec.gauges.iter().enumerate() {
         if let Some(d) = &g.datums {
             if let Ok(f) = crate::io::project::gauge_datums(g, d) {
                 for w in crate::io::project::datums_disagreements(g, &f) {
@@ -132,7 +134,8 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         }
         if let Some(c) = &g.constants {
             match crate::io::constants::read_constants(c) {
-                Ok((file, _)) => {
+                Ok((file, k)) => {
+                    constants[gi] = Some(k);
                     for w in crate::run::harmonics::constants_warnings(&file) {
                         findings.push(Finding::warning(
                             Position::file(c),
@@ -316,6 +319,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
                         })
                     };
                     ZoneUncertainty {
+                        u_renormalised_m: 0.0,
                         u_time_corrector_min: pick(
                             z.u_time_corrector_min,
                             u.default_u_time_corrector_min,
@@ -439,7 +443,40 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             mean_level_above_datum_m: g.mean_level_above_datum_m,
         });
     }
+    if project.spec.gap_fill.enabled {
+        findings.extend(fill_gaps(
+            &project,
+            &mut gauges,
+            &zones,
+            &constants,
+            &methods,
+        ));
+    }
     let mut uncertainty = uncertainty;
+    if let (Some(u), true) = (
+        uncertainty.as_mut(),
+        project.spec.gap_fill.enabled && project.spec.gap_fill.renormalise_feeds,
+    ) {
+        for (z, zu) in zones.iter().zip(u.zone_u.iter_mut()) {
+            let span = z.feeds.iter().fold(None, |acc: Option<(f64, f64)>, f| {
+                let t = &gauges[f.gauge].series.times_s;
+                match (t.first(), t.last(), acc) {
+                    (Some(&a), Some(&b), None) => Some((a, b)),
+                    (Some(&a), Some(&b), Some((x, y))) => Some((x.min(a), y.max(b))),
+                    _ => acc,
+                }
+            });
+            if let Some((a, b)) = span {
+                let times: Vec<f64> = (0..)
+                    .map(|k| a + k as f64 * RENORMALISATION_STEP_S)
+                    .take_while(|&t| t <= b)
+                    .collect();
+                zu.u_renormalised_m = z
+                    .renormalisation_rms_m(&gauges, &Configured, &times)
+                    .unwrap_or(0.0);
+            }
+        }
+    }
     if let Some(u) = uncertainty.as_mut() {
         u.gauge_rates = gauges
             .iter()
@@ -459,6 +496,116 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         warnings: findings,
         zoning_looks_swapped: swapped.is_some(),
     })
+}
+
+/// Step of the instants at which a zone's full and renormalised blends are compared, seconds
+/// (6 min, the common gauge step).
+pub const RENORMALISATION_STEP_S: f64 = 360.0;
+
+/// Fills the gauges' gaps as `[gap_fill]` asks (see `compute::gapfill`), rebuilding the spline
+/// of a cubic gauge on its filled series; returns one warning per gauge with a gap, saying what
+/// was filled and what was left open.
+pub fn fill_gaps(
+    project: &Project,
+    gauges: &mut [Gauge],
+    zones: &[Zone],
+    constants: &[Option<crate::compute::harmonic::HarmonicConstants>],
+    methods: &[GaugeMethod],
+) -> Vec<Finding> {
+    use crate::compute::gapfill::{
+        fill_series, gauge_relation, FillSettings, MethodChoice, NeighbourRelation, Reference,
+        MIN_TRIALS,
+    };
+    use crate::io::project::GapFillChoice;
+    let spec = &project.spec.gap_fill;
+    let settings = FillSettings {
+        max_fill_s: spec.max_fill_min * 60.0,
+        edge_window_s: spec.edge_window_min * 60.0,
+        min_trials: MIN_TRIALS,
+    };
+    let originals: Vec<LevelSeries> = gauges.iter().map(|g| g.series.clone()).collect();
+    let k_refs: Vec<Option<&crate::compute::harmonic::HarmonicConstants>> =
+        constants.iter().map(|k| k.as_ref()).collect();
+    let mut findings = Vec::new();
+    for gi in 0..gauges.len() {
+        let choice = match spec.method_for(&gauges[gi].id) {
+            GapFillChoice::None => continue,
+            GapFillChoice::PredictionResidual => MethodChoice::PredictionResidual,
+            GapFillChoice::Neighbour => MethodChoice::Neighbour,
+            _ => MethodChoice::Auto,
+        };
+        let mut refs = Vec::new();
+        if let Some(k) = &constants[gi] {
+            refs.push(Reference::Prediction(k));
+        }
+        for (gj, other) in originals.iter().enumerate() {
+            if gj == gi {
+                continue;
+            }
+            if let Some((lag_s, ratio, _)) = gauge_relation(gi, gj, zones, &k_refs) {
+                refs.push(Reference::Neighbour(NeighbourRelation {
+                    gauge: gj,
+                    series: other,
+                    lag_s,
+                    ratio,
+                    self_mean_m: gauges[gi].mean_level_above_datum_m,
+                    other_mean_m: gauges[gj].mean_level_above_datum_m,
+                }));
+            }
+        }
+        let step_s = methods[gi].nominal_step_min * 60.0;
+        if step_s <= 0.0 {
+            continue;
+        }
+        let (mut series, marks) = fill_series(&originals[gi], step_s, &refs, choice, &settings);
+        if marks.spans.is_empty() && marks.refused.is_empty() {
+            continue;
+        }
+        let g_spec = &project.spec.gauges[gi];
+        let mut words = Vec::new();
+        for sp in &marks.spans {
+            words.push(format!(
+                "filled {} to {} by {}{} (u {} m mid-gap, {} m at the edges, measured on {} artificial gaps)",
+                crate::io::timefmt::utc_label(sp.from_s),
+                crate::io::timefmt::utc_label(sp.to_s),
+                sp.method.as_str(),
+                sp.neighbour
+                    .map(|j| format!(" from gauge '{}'", gauges[j].id))
+                    .unwrap_or_default(),
+                crate::io::numfmt::round_to(sp.error.u_at_m(0.5), 3),
+                crate::io::numfmt::round_to(sp.error.u_edge_m, 3),
+                sp.error.trials
+            ));
+        }
+        for r in &marks.refused {
+            words.push(format!(
+                "left {} to {} open: {}",
+                crate::io::timefmt::utc_label(r.from_s),
+                crate::io::timefmt::utc_label(r.to_s),
+                r.why
+            ));
+        }
+        findings.push(Finding::warning(
+            Position::file(&g_spec.record),
+            format!("gauge '{}': gap filling {}", g_spec.id, words.join("; ")),
+        ));
+        if marks.spans.is_empty() {
+            gauges[gi].series.fill = marks;
+            continue;
+        }
+        if !originals[gi].spline_m_per_s2.is_empty() {
+            let unbridged = series.unbridged();
+            series.spline_m_per_s2 = crate::compute::spline::spline_second_derivatives(
+                &series.times_s,
+                &series.heights_m,
+                &unbridged,
+                crate::compute::spline::SplineEnds::NotAKnot,
+            );
+        }
+        series.fill = marks;
+        gauges[gi].series = series;
+    }
+    findings
 }
 
 /// Most samples named one by one per gauge and kind (times, readings); the rest are counted.

@@ -202,6 +202,8 @@ pub struct ZoneSummary {
     pub gauges: Vec<String>,
     /// Soundings reduced in the zone.
     pub reduced: u64,
+    /// Soundings in the zone reduced with a tide from filled gauge samples or renormalised feeds.
+    pub gap_filled: u64,
     /// Soundings in the zone without gauge data.
     pub no_gauge_data: u64,
     /// Soundings in the zone whose tide would depend on flagged gauge samples.
@@ -464,6 +466,8 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 gauges: &loaded.gauges,
                 locator: &locators[*gi],
                 interp: loaded.interp.as_ref(),
+                renormalise: loaded.project.spec.gap_fill.enabled
+                    && loaded.project.spec.gap_fill.renormalise_feeds,
             };
             let series_model;
             let located;
@@ -539,6 +543,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 .map(|f| loaded.gauges[f.gauge].id.clone())
                 .collect(),
             reduced: c[SoundingStatus::Reduced.index()],
+            gap_filled: c[SoundingStatus::GapFilled.index()],
             no_gauge_data: c[SoundingStatus::NoGaugeData.index()],
             gauge_flagged: c[SoundingStatus::GaugeFlagged.index()],
         })
@@ -906,6 +911,70 @@ fn write_input_fields(out: &mut Vec<u8>, line: &str, fields: &Fields, ctx: &File
     }
 }
 
+/// Whether a tide found in `zone` at `t_s` rests on gap-filled samples or on renormalised feeds;
+/// if so, says how in `detail` (the gauge, the method and the filled gap; or the feed left out).
+fn gap_filled_detail(
+    zone: &crate::compute::zoning::Zone,
+    gauges: &[crate::compute::zoning::Gauge],
+    t_s: f64,
+    states: &[FeedState],
+    detail: &mut String,
+) -> bool {
+    use std::fmt::Write;
+    let mut any = false;
+    for (feed, st) in zone.feeds.iter().zip(states) {
+        let g = &gauges[feed.gauge];
+        if st.missing {
+            if any {
+                detail.push_str("; ");
+            }
+            let present: Vec<&str> = zone
+                .feeds
+                .iter()
+                .zip(states)
+                .filter(|(_, s)| !s.missing)
+                .map(|(f, _)| gauges[f.gauge].id.as_str())
+                .collect();
+            let _ = write!(
+                detail,
+                "feed '{}' has no level at {}: tide from {} with weights renormalised",
+                g.id,
+                crate::io::timefmt::utc_label(t_s - feed.time_corrector_min * 60.0),
+                present.join(", ")
+            );
+            any = true;
+            continue;
+        }
+        if !g.series.fill.bracket_filled(st.level.bracket) {
+            continue;
+        }
+        let shifted = t_s - feed.time_corrector_min * 60.0;
+        if any {
+            detail.push_str("; ");
+        }
+        match g.series.fill.span_at(shifted) {
+            Some(sp) => {
+                let _ = write!(
+                    detail,
+                    "gauge '{}' level filled by {}{} across {} to {}",
+                    g.id,
+                    sp.method.as_str(),
+                    sp.neighbour
+                        .map(|j| format!(" from gauge '{}'", gauges[j].id))
+                        .unwrap_or_default(),
+                    crate::io::timefmt::utc_label(sp.from_s),
+                    crate::io::timefmt::utc_label(sp.to_s)
+                );
+            }
+            None => {
+                let _ = write!(detail, "gauge '{}' level filled", g.id);
+            }
+        }
+        any = true;
+    }
+    any
+}
+
 fn process_chunk(
     chunk: &Chunk,
     ctx: &FileCtx,
@@ -1064,7 +1133,18 @@ fn process_chunk(
                                     verdict.within,
                                 ));
                             }
-                            SoundingStatus::Reduced
+                            let l = ctx.loaded;
+                            if gap_filled_detail(
+                                &l.zones[z],
+                                &l.gauges,
+                                v.t_s,
+                                &states,
+                                &mut detail,
+                            ) {
+                                SoundingStatus::GapFilled
+                            } else {
+                                SoundingStatus::Reduced
+                            }
                         }
                         TideOutcome::Outside => {
                             detail.push_str("position is outside every zone");
@@ -1147,6 +1227,10 @@ fn process_chunk(
                                 crate::io::timefmt::utc_label(why.at_s),
                                 why.why
                             );
+                            let fill = &ctx.loaded.gauges[why.gauge].series.fill;
+                            if let Some(r) = fill.refused_at(why.at_s) {
+                                let _ = write!(detail, "; not gap-filled: {}", r.why);
+                            }
                             if matches!(why.why, crate::compute::series::NoLevel::Flagged { .. }) {
                                 SoundingStatus::GaugeFlagged
                             } else {
@@ -1189,7 +1273,10 @@ fn process_chunk(
             o.per_zone[z][status.index()] += 1;
         }
         o.counts[status.index()] += 1;
-        if status != SoundingStatus::Reduced && o.examples.len() < 4 * EXAMPLES_PER_STATUS {
+        if status != SoundingStatus::Reduced
+            && status != SoundingStatus::GapFilled
+            && o.examples.len() < 4 * EXAMPLES_PER_STATUS
+        {
             o.examples.push(RowExample {
                 line: line_no,
                 status: status.as_str(),
