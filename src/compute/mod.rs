@@ -11,6 +11,7 @@
 //! * [`qa_report`] — the QA report as plain data (built by `run`, rendered by `io`).
 //! * [`quantile`] — a mergeable percentile sketch with a stated error bound.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
+//! * [`cotidal`] — co-tidal and co-range fields from several stations; derived correctors.
 //! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
 //! * [`spline`] — not-a-knot cubic spline interpolation in time, per unbroken segment.
 //! * [`lowpass`] — zero-phase low-pass filter for noisy 1-minute records.
@@ -28,6 +29,7 @@
 pub mod astro;
 pub mod compare;
 pub mod correctors;
+pub mod cotidal;
 pub mod datums;
 pub mod extrema;
 pub mod gapfill;
