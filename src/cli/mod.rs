@@ -19,6 +19,7 @@ mod predict;
 mod progress;
 mod qc;
 mod reduce;
+mod zones;
 
 use clap::{Parser, Subcommand};
 
@@ -63,6 +64,10 @@ enum Command {
     /// Observed high and low waters and tidal datums (MSL, MHW, MLW, MHHW, MLLW, MTL, DTL, MN,
     /// GT) of a gauge record, each with its uncertainty, written to a datums file (TOML).
     Datums(datums::Args),
+    /// Co-tidal fields from the gauges' harmonic constants: each zone's derived time corrector
+    /// and range ratio (`derive`), and the zoning against them (`compare`).
+    #[command(subcommand_required = true)]
+    Zones(zones::Args),
     /// Reduce the demo survey (./zoning-demo, or --dir) and say where the results are.
     Demo(demo::Args),
     /// Print the help of ebbwise, or of one of its commands.
@@ -138,6 +143,7 @@ pub fn main() -> i32 {
         Command::Apply(a) => apply::run(a),
         Command::Qc(a) => qc::run(a),
         Command::Analyse(a) => analyse::run(a),
+        Command::Zones(a) => zones::run(a),
         Command::Predict(a) => predict::run(a),
         Command::Datums(a) => datums::run(a),
         Command::Demo(a) => demo::run(a),

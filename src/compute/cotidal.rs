@@ -432,6 +432,93 @@ pub fn derive_correctors(
     })
 }
 
+/// The complex mean of several places' constants (each constituent's `H·e^{−iG}` averaged, Z0
+/// averaged): a zone's constants from the field at points inside it. `None` for no places.
+/// The constituents are those of the first.
+pub fn mean_constants(ks: &[HarmonicConstants]) -> Option<HarmonicConstants> {
+    let first = ks.first()?;
+    let n = ks.len() as f64;
+    let z0_m = ks.iter().map(|k| k.z0_m).sum::<f64>() / n;
+    let constituents = first
+        .constituents
+        .iter()
+        .enumerate()
+        .map(|(j, (c, _, _))| {
+            let z = ks.iter().fold((0.0, 0.0), |acc, k| {
+                let p = phasor(k.constituents[j].1, k.constituents[j].2);
+                (acc.0 + p.0 / n, acc.1 + p.1 / n)
+            });
+            let (h, g) = from_phasor(z);
+            (*c, h, g)
+        })
+        .collect();
+    Some(HarmonicConstants { z0_m, constituents })
+}
+
+/// The largest difference, over a spring tide, between the tides two sets of correctors give
+/// from one gauge, metres: the tide-varying part `A_s·|R₁e^{−iωΔt₁} − R₂e^{−iωΔt₂}|`, with
+/// `A_s` the gauge's spring amplitude of the dominant species (the dominant constituent's
+/// amplitude plus its partner's: at springs they add in phase, common practice) and ω the
+/// dominant constituent's speed. It is the amplitude of the difference of two scaled and
+/// shifted copies of one sinusoid (exact for a single constituent, first order for the species'
+/// spring envelope). A mean-level difference adds to it at worst; it is not included.
+pub fn spring_difference_m(
+    gauge: &HarmonicConstants,
+    dominant: Dominant,
+    a: (f64, f64),
+    b: (f64, f64),
+) -> Option<f64> {
+    let find = |n: &str| gauge.constituents.iter().find(|c| c.0.name == n);
+    let dom = find(dominant.name())?;
+    let amp = dom.1 + find(dominant.partner()).map_or(0.0, |c| c.1);
+    let w = (dom.0.speed_deg_per_h / 60.0).to_radians(); // rad per minute
+    let (pa, pb) = (-w * a.0, -w * b.0);
+    let re = a.1 * pa.cos() - b.1 * pb.cos();
+    let im = a.1 * pa.sin() - b.1 * pb.sin();
+    Some(amp * re.hypot(im))
+}
+
+/// One zone's derived correctors relative to one of its feeding gauges.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ZoneDerived {
+    /// The zone.
+    pub zone: String,
+    /// The feeding gauge.
+    pub gauge: String,
+    /// Its weight in the zone.
+    pub weight: f64,
+    /// The zoning's time corrector and range ratio for this feed.
+    pub zoning: (f64, f64),
+    /// The zoning's zone-mean level, when it gives one.
+    pub zoning_mean_level_m: Option<f64>,
+    /// Derived from the zone's mean constants.
+    pub derived: Derived,
+    /// The range of the time corrector over the zone's points, minutes.
+    pub time_corrector_range_min: (f64, f64),
+    /// The range of the range ratio over the zone's points.
+    pub range_ratio_range: (f64, f64),
+    /// Largest spring difference between the zoning's correctors and the derived ones at any
+    /// point of the zone, metres (`spring_difference_m`).
+    pub worst_spring_difference_m: f64,
+    /// Spring difference between the zoning's correctors and the zone's derived ones, metres.
+    pub spring_difference_m: f64,
+    /// How far the zone's farthest point lies outside the stations' hull, metres.
+    pub outside_hull_max_m: f64,
+    /// Points of the zone the field was evaluated at.
+    pub points: usize,
+}
+
+/// Why a zone has no derived correctors for a feed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ZoneSkipped {
+    /// The zone.
+    pub zone: String,
+    /// The gauge.
+    pub gauge: String,
+    /// Why.
+    pub reason: String,
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -624,6 +711,43 @@ mod tests {
             Field::new(same),
             Err(FieldError::SamePosition { .. })
         ));
+    }
+
+    /// The spring difference of equal correctors is 0; of range ratios 1.0 and 1.1 with no time
+    /// difference, 0.1·A_s; of a pure time difference Δt, 2·A_s·sin(ωΔt/2) (the chord of two
+    /// unit phasors: a fact of trigonometry).
+    #[test]
+    fn spring_difference_of_two_corrector_sets() {
+        let g = HarmonicConstants {
+            z0_m: 2.0,
+            constituents: vec![
+                (constituent("M2").unwrap(), 1.0, 0.0),
+                (constituent("S2").unwrap(), 0.4, 0.0),
+            ],
+        };
+        let d = |a, b| spring_difference_m(&g, Dominant::M2, a, b).unwrap();
+        assert!(d((10.0, 1.0), (10.0, 1.0)).abs() < 1e-12);
+        assert!((d((0.0, 1.0), (0.0, 1.1)) - 0.14).abs() < 1e-12);
+        let w = (28.984_104_2f64 / 60.0).to_radians();
+        let want = 2.0 * 1.4 * (w * 20.0 / 2.0).sin();
+        assert!((d((0.0, 1.0), (20.0, 1.0)) - want).abs() < 1e-12);
+        assert!(spring_difference_m(&g, Dominant::K1, (0.0, 1.0), (0.0, 1.0)).is_none());
+    }
+
+    /// The complex mean of two places half a cycle apart cancels; of equal phases keeps them.
+    #[test]
+    fn mean_constants_average_phasors() {
+        let k = |h: f64, g: f64| HarmonicConstants {
+            z0_m: h,
+            constituents: vec![(constituent("M2").unwrap(), h, g)],
+        };
+        let m = mean_constants(&[k(1.0, 90.0), k(1.0, 270.0)]).unwrap();
+        assert!(m.constituents[0].1 < 1e-12);
+        let m = mean_constants(&[k(1.0, 350.0), k(2.0, 10.0)]).unwrap();
+        assert!((m.z0_m - 1.5).abs() < 1e-12);
+        let dg = (m.constituents[0].2 + 180.0).rem_euclid(360.0) - 180.0;
+        assert!(dg > 0.0 && dg < 10.0, "{dg}");
+        assert!(mean_constants(&[]).is_none());
     }
 
     /// A place whose M2 lags the gauge's by 30° has a time corrector of 30°/ω_M2 = 62.09 min,

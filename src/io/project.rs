@@ -44,6 +44,28 @@ pub struct ProjectFile {
     /// Filling gauge gaps (off by default).
     #[serde(default)]
     pub gap_fill: GapFillSpec,
+    /// Virtual gauges: harmonic constants at a point without a record (e.g. from an offshore
+    /// tide model the authority supplies), which control the co-tidal fields where no gauge
+    /// stands (docs/cotidal.md).
+    #[serde(rename = "virtual_gauge", default)]
+    pub virtual_gauges: Vec<VirtualGaugeSpec>,
+}
+
+/// `[[virtual_gauge]]`: harmonic constants at a point, for the co-tidal fields.
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct VirtualGaugeSpec {
+    /// Identifier (unique among gauges and virtual gauges).
+    pub id: String,
+    /// A name for reports.
+    #[serde(default)]
+    pub name: Option<String>,
+    /// Longitude, degrees east (WGS 84).
+    pub lon: f64,
+    /// Latitude, degrees north (WGS 84).
+    pub lat: f64,
+    /// Its constants file (`ebbwise-harmonic-constants/1`, levels above chart datum).
+    pub constants: PathBuf,
 }
 
 /// `[gap_fill]`: filling gaps in gauge records from a prediction or a neighbouring gauge, and
@@ -844,6 +866,9 @@ impl Project {
                 g.datums = Some(resolve(parent, d));
             }
         }
+        for v in &mut spec.virtual_gauges {
+            v.constants = resolve(parent, &v.constants);
+        }
         for g in &spec.gauges {
             if let Some(d) = &g.datums {
                 if let Err(e) = gauge_datums(g, d) {
@@ -1065,6 +1090,30 @@ fn validate(spec: &ProjectFile, path: &Path, errors: &mut Vec<IoError>) {
             if let Some(m) = v.and_then(|v| u_check(v, U_HEIGHT_REFUSED_ABOVE_M, " m", CM)) {
                 err(f(k), m);
             }
+        }
+    }
+    for (i, v) in spec.virtual_gauges.iter().enumerate() {
+        let f = |k: &str| format!("virtual_gauge[{i}].{k}");
+        if !seen.insert(v.id.clone()) {
+            err(
+                f("id"),
+                format!(
+                    "id '{}' is already used by a gauge or another virtual gauge",
+                    v.id
+                ),
+            );
+        }
+        if !(v.lon.is_finite() && (-180.0..=180.0).contains(&v.lon)) {
+            err(
+                f("lon"),
+                format!("longitude {} is beyond ±180° (WGS 84 degrees)", v.lon),
+            );
+        }
+        if !(v.lat.is_finite() && (-90.0..=90.0).contains(&v.lat)) {
+            err(
+                f("lat"),
+                format!("latitude {} is beyond ±90° (WGS 84 degrees)", v.lat),
+            );
         }
     }
     {

@@ -808,6 +808,12 @@ pub fn project_inputs(project: &Project) -> Vec<(std::path::PathBuf, String)> {
             out.push((d.clone(), format!("the datums of gauge '{}'", g.id)));
         }
     }
+    for v in &project.spec.virtual_gauges {
+        out.push((
+            v.constants.clone(),
+            format!("the constants of virtual gauge '{}'", v.id),
+        ));
+    }
     for group in &project.spec.soundings {
         for f in &group.files {
             out.push((f.clone(), "the soundings file".to_string()));

@@ -7,6 +7,7 @@
 //! * [`check`] — validation before a reduction.
 //! * [`correctors`] — tide-correction files with provenance, and applying them.
 //! * [`datums`] — observed high and low waters and tidal datums of a record into a datums file.
+//! * [`fields`] — the project's co-tidal field and each zone's derived correctors.
 //! * [`harmonics`] — harmonic analysis of a record into a constants file; prediction.
 //! * [`qc`] — gauge-record quality control and gauge-to-gauge comparison.
 //! * [`provenance`] — every input that can change a tide, recorded and compared.
@@ -15,6 +16,7 @@
 pub mod check;
 pub mod correctors;
 pub mod datums;
+pub mod fields;
 pub mod harmonics;
 pub mod load;
 pub mod provenance;

@@ -6,6 +6,7 @@ mod check;
 mod cli;
 mod correctors;
 mod correctors_apply;
+mod cotidal;
 mod crs_reference;
 mod datums;
 mod demo_recovery;

@@ -439,6 +439,19 @@ fn write_every_output(out: &Path) {
         ],
         &[0],
     );
+    let gap_fill = repo().join("zoning-demo/gap-fill.toml");
+    // Every demo zone lies partly outside the three gauges' hull and disagrees (exit 1).
+    run_ok(
+        &[
+            "zones",
+            "compare",
+            "--project",
+            gap_fill.to_str().unwrap(),
+            "--out",
+            &dir("zones-compare.csv"),
+        ],
+        &[1],
+    );
     run_ok(
         &[
             "apply",

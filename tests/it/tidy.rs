@@ -64,6 +64,28 @@ fn help_of(args: &[&str]) -> String {
 }
 
 /// Reads the program's commands and options from its help.
+/// The subcommands listed under "Commands:" in a help text (clap's own `help` left out).
+fn subcommands_in_help(help: &str) -> Vec<String> {
+    let mut out = Vec::new();
+    let mut inside = false;
+    for line in help.lines() {
+        if line.starts_with("Commands:") {
+            inside = true;
+            continue;
+        }
+        if inside {
+            if !line.starts_with("  ") {
+                break;
+            }
+            let name = line.split_whitespace().next().unwrap_or("").to_string();
+            if !name.is_empty() && name != "help" {
+                out.push(name);
+            }
+        }
+    }
+    out
+}
+
 fn cli() -> Cli {
     let top = help_of(&["--help"]);
     let mut commands = BTreeMap::new();
@@ -80,7 +102,13 @@ fn cli() -> Cli {
                 continue;
             }
             let name = line.split_whitespace().next().unwrap().to_string();
-            let mut options = options_in_help(&help_of(&[&name, "--help"]));
+            let own_help = help_of(&[&name, "--help"]);
+            let mut options = options_in_help(&own_help);
+            // A command with subcommands (`ebbwise zones derive`): its options are those of
+            // every subcommand, documented in the command's one section.
+            for sub in subcommands_in_help(&own_help) {
+                options.extend(options_in_help(&help_of(&[&name, &sub, "--help"])));
+            }
             options.extend(CLAP_OWN.iter().map(|s| s.to_string()));
             // clap shows visible aliases as "[alias: analyze]" or "[aliases: a, b]".
             let alias_at = line
