@@ -24,9 +24,11 @@
 //! * [`extrema`] — observed high and low waters, classified higher and lower per tidal day.
 //! * [`datums`] — tidal datums (MSL, MHW, MLLW, …) of an observed record, with uncertainties.
 //! * [`gapfill`] — filling gauge gaps from a prediction or a neighbour, with a measured error.
+//! * [`boundary`] — zone adjacency and the tide step across each shared edge.
 //! * [`names`] — the nearest valid name to a misspelt one, for "did you mean" hints.
 
 pub mod astro;
+pub mod boundary;
 pub mod compare;
 pub mod correctors;
 pub mod cotidal;

@@ -152,6 +152,9 @@ pub struct QaReport {
     pub ratio_histogram: RatioHistogram,
     /// Tide and 95 % band per zone.
     pub tide_series: Vec<ZoneTideSeries>,
+    /// The tide step across each edge two zones share, over the survey period, largest first
+    /// (module `compute::boundary`).
+    pub boundary_steps: Vec<super::boundary::BoundaryStep>,
     /// The uncertainty inputs used.
     pub inputs: UncertaintyInputs,
     /// Whether gauge quality control ran in this reduction (`[qc] enabled`).

@@ -631,6 +631,27 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
     map_svg(r, &mut o);
     o.push_str("<h2>Tide per zone and its 95 % band</h2>");
     tide_svg(r, &mut o);
+    o.push_str("<h2>Zone-boundary steps</h2>");
+    if r.boundary_steps.is_empty() {
+        o.push_str("<p>No two zones share an edge, or no zone had a tide.</p>");
+    } else {
+        o.push_str("<p>Where two zones share an edge, the tide each gives at the same instant differs: soundings on either side are reduced with different tides, a step of the same size in the reduced seabed along the edge. Over the survey period, every 5 minutes; the step is the second zone's tide minus the first's. Largest first.</p>");
+        o.push_str(r#"<table class="boundary-steps"><tr><th>zones</th><th>shared edge (m)</th><th>largest step (m)</th><th>at (UTC)</th><th>RMS step (m)</th><th>instants</th></tr>"#);
+        for b in &r.boundary_steps {
+            let _ = write!(
+                o,
+                "<tr><td>{} | {}</td><td>{:.0}</td><td>{:+.3}</td><td>{}</td><td>{:.3}</td><td>{}</td></tr>",
+                esc(&b.zone_a),
+                esc(&b.zone_b),
+                b.shared_m,
+                b.max_step_m,
+                esc(&b.max_at_utc),
+                b.rms_step_m,
+                b.instants
+            );
+        }
+        o.push_str("</table>");
+    }
     o.push_str("<h2>Uncertainty budget per zone</h2>");
     budget_svg(r, &mut o);
     o.push_str("<table><tr><th>zone</th><th>soundings</th>");

@@ -39,6 +39,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         Some((t0, t1)) => tide_series(loaded, t0, t1),
         None => Vec::new(),
     };
+    let boundary_steps = boundary_steps_of(loaded, &tide_series);
     let mut map_points = Vec::with_capacity(qa.samples.len());
     let groups = &loaded.project.spec.soundings;
     let transformers: Vec<Option<Transformer>> = groups
@@ -82,6 +83,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         zones,
         lines,
         tide_series,
+        boundary_steps,
         qc_ran: loaded.project.spec.qc.enabled,
         qc_gauges: loaded
             .gauges
@@ -135,6 +137,60 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
             .map(|z| (z.id.clone(), z.polygon_lonlat.clone()))
             .collect(),
     })
+}
+
+/// The tide step across each shared zone edge (`compute::boundary`), from the zones' tide
+/// series; outlines in a local azimuthal equidistant projection centred on the zoning.
+pub fn boundary_steps_of(
+    loaded: &Loaded,
+    series: &[ZoneTideSeries],
+) -> Vec<crate::compute::boundary::BoundaryStep> {
+    use geo::BoundingRect;
+    let zones = &loaded.zoning.zones;
+    if series.len() != zones.len() || zones.len() < 2 {
+        return Vec::new();
+    }
+    let boxes: Vec<geo::Rect<f64>> = zones
+        .iter()
+        .filter_map(|z| z.polygon_lonlat.bounding_rect())
+        .collect();
+    let Some(first) = boxes.first() else {
+        return Vec::new();
+    };
+    let (mut lo, mut hi) = (first.min(), first.max());
+    for b in &boxes {
+        lo = geo::coord! { x: lo.x.min(b.min().x), y: lo.y.min(b.min().y) };
+        hi = geo::coord! { x: hi.x.max(b.max().x), y: hi.y.max(b.max().y) };
+    }
+    let crs = format!(
+        "+proj=aeqd +lat_0={:.6} +lon_0={:.6} +datum=WGS84 +units=m +no_defs +type=crs",
+        0.5 * (lo.y + hi.y),
+        0.5 * (lo.x + hi.x)
+    );
+    let Ok(t) = Transformer::new("EPSG:4326", &crs) else {
+        return Vec::new();
+    };
+    let Ok(outlines) = zones
+        .iter()
+        .map(|z| t.polygon_from_lonlat(&z.polygon_lonlat))
+        .collect::<Result<Vec<_>, _>>()
+    else {
+        return Vec::new();
+    };
+    let pairs = crate::compute::boundary::adjacent_pairs(&outlines);
+    let ids: Vec<String> = series.iter().map(|s| s.zone.clone()).collect();
+    let tides: Vec<Vec<Option<f64>>> = series.iter().map(|s| s.tide_m.clone()).collect();
+    let Some(times) = series.first().map(|s| s.times_s.clone()) else {
+        return Vec::new();
+    };
+    let mut steps = crate::compute::boundary::boundary_steps(&ids, &times, &tides, &pairs);
+    for s in &mut steps {
+        s.max_at_utc = utc_label(s.max_at_s);
+        s.max_step_m = round_nearest(s.max_step_m, METRE_DECIMALS);
+        s.rms_step_m = round_nearest(s.rms_step_m, METRE_DECIMALS);
+        s.shared_m = s.shared_m.round();
+    }
+    steps
 }
 
 /// Tide and U95 of the tide per zone on a regular grid over `[t0, t1]`.
