@@ -13,6 +13,7 @@
 //! * [`report_html`] — the QA report page (HTML + SVG).
 //! * [`constants`] — harmonic-constants files (TOML).
 //! * [`datums_file`] — tidal-datums files (TOML).
+//! * [`transfer_file`] — datum-transfer files of a short-term gauge (TOML).
 //! * [`qc_svg`] — the plot of a gauge record with its QC flags (SVG).
 //! * [`atomic`] — output files written to a temporary name and renamed on success.
 //! * [`error`] — the positioned error type and validation findings.
@@ -31,4 +32,5 @@ pub mod report_html;
 pub mod soundings;
 pub mod text;
 pub mod timefmt;
+pub mod transfer_file;
 pub mod zoning_geojson;
