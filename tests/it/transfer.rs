@@ -1,7 +1,8 @@
 //! `ebbwise transfer` through the command line: a synthetic subordinate whose relation to the
-//! control is known exactly, the demo's short-term gauge against its generator's truth, and the
-//! refusals (no overlap, a common period too short, a control datums file not tied to chart
-//! datum, an output over an input).
+//! control is known exactly, the demo's short-term gauge against its generator's truth, the
+//! same gauges taken from a project, and the refusals (no overlap, a common period too short, a
+//! control datums file not tied to chart datum, an output over an input, a project's control
+//! zero that its datums file was not computed with, a project control without datums).
 
 use std::path::Path;
 
@@ -342,4 +343,175 @@ fn the_demo_short_term_gauge_against_its_truth() {
     assert!(o.status.success(), "{}", stderr(&o));
     let t: toml::Value = toml::from_str(&String::from_utf8_lossy(&o.stdout)).unwrap();
     assert_eq!(t["method"].as_str(), Some("modified_range_ratio"));
+}
+
+/// A project holding the demo's gauges with ferrisk added (its zero a placeholder, 0) and
+/// orlick's record the year, `datums` its datums file and `u_datum_m` 0.03 m.
+fn demo_project(dir: &Path, orlick_zero_m: f64, with_datums: bool) -> String {
+    let d = repo().join("zoning-demo");
+    let d = d.to_str().unwrap();
+    let datums = if with_datums {
+        "datums = \"orlick-year.datums.toml\"\n"
+    } else {
+        ""
+    };
+    let text = format!(
+        r#"name = "transfer"
+zoning = "{d}/zoning.geojson"
+[output]
+dir = "out"
+[[gauge]]
+id = "orlick"
+lon = -36.093966
+lat = -47.550331
+record = "{d}/gauges/orlick-year.csv"
+units = "m"
+zero_above_datum_m = {orlick_zero_m}
+mean_level_above_datum_m = 2.61
+u_datum_m = 0.03
+{datums}[[gauge]]
+id = "pendrath"
+lon = -36.0
+lat = -47.5
+record = "{d}/gauges/pendrath.csv"
+units = "m"
+zero_above_datum_m = -1.20
+mean_level_above_datum_m = 2.67
+[[gauge]]
+id = "skellan"
+lon = -36.0
+lat = -47.4
+record = "{d}/gauges/skellan.csv"
+units = "m"
+zero_above_datum_m = 0.35
+mean_level_above_datum_m = 2.74
+[[gauge]]
+id = "ferrisk"
+lon = -36.0
+lat = -47.45
+record = "{d}/gauges/ferrisk.csv"
+units = "m"
+zero_above_datum_m = 0.0
+mean_level_above_datum_m = 3.3
+[[soundings]]
+files = ["{d}/soundings/launch-a.csv"]
+crs = "EPSG:32724"
+columns = {{ time = "time", x = "easting", y = "northing", depth = "depth_m", line = "line" }}
+"#
+    );
+    let path = dir.join("project.toml");
+    std::fs::write(&path, text).unwrap();
+    path.to_string_lossy().into_owned()
+}
+
+/// With `--project`: the same transfer as from the records (the same zero and u, to the
+/// digit: the same readings, QC and control datums, chart datum's u from orlick's
+/// `u_datum_m`), written to the project's output folder with the project's SHA-256; a project
+/// whose control zero differs from the one its datums file was computed with, and a control
+/// without a datums file, are refused naming the field or the option.
+#[test]
+fn a_project_gauge_against_its_control() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let demo = repo().join("zoning-demo");
+    let year = demo.join("gauges/orlick-year.csv");
+    let o = run_in(
+        dir,
+        &[
+            "datums",
+            year.to_str().unwrap(),
+            "--zero-above-datum-m",
+            "-0.85",
+            "--out",
+            "orlick-year.datums.toml",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = run_in(
+        dir,
+        &[
+            "transfer",
+            demo.join("gauges/ferrisk.csv").to_str().unwrap(),
+            "--control-record",
+            year.to_str().unwrap(),
+            "--control-datums",
+            "orlick-year.datums.toml",
+            "--control-u-datum-m",
+            "0.03",
+            "--out",
+            "records.toml",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let project = demo_project(dir, -0.85, true);
+    let o = run_in(
+        dir,
+        &[
+            "transfer",
+            "--project",
+            &project,
+            "--gauge",
+            "ferrisk",
+            "--control",
+            "orlick",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let (a, b) = (
+        toml_of(&dir.join("records.toml")),
+        toml_of(&dir.join("out/ferrisk.transfer.toml")),
+    );
+    for key in [
+        "zero_above_datum_m",
+        "u_zero_above_datum_m",
+        "u_control_datum_m",
+    ] {
+        assert_eq!(f(&a, key), f(&b, key), "{key}");
+    }
+    assert_eq!(b["subordinate"].as_str(), Some("ferrisk"));
+    assert_eq!(b["control"].as_str(), Some("orlick"));
+    assert_eq!(
+        b["inputs"]["project_sha256"].as_str().map(str::len),
+        Some(64)
+    );
+    // The project states another zero for orlick than its datums file was computed with.
+    let project = demo_project(dir, -0.80, true);
+    let o = run_in(
+        dir,
+        &[
+            "transfer",
+            "--project",
+            &project,
+            "--gauge",
+            "ferrisk",
+            "--control",
+            "orlick",
+        ],
+    );
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("orlick-year.datums.toml: field 'zero_above_datum_m': expected the control's zero_above_datum_m of the project (-0.8 m), found -0.85 m"),
+        "{err}"
+    );
+    // No datums file for the control.
+    let project = demo_project(dir, -0.85, false);
+    let o = run_in(
+        dir,
+        &[
+            "transfer",
+            "--project",
+            &project,
+            "--gauge",
+            "ferrisk",
+            "--control",
+            "orlick",
+        ],
+    );
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("give --control-datums FILE: the control gauge 'orlick' names no datums file"),
+        "{err}"
+    );
 }
