@@ -314,6 +314,12 @@ fn print_transfer(o: &TransferOutcome) {
         f.control_zero_above_datum_m,
         f.u_control_datum_m
     );
+    if f.u_control_datum_m == 0.0 {
+        let _ = writeln!(
+            w,
+            "  note: chart datum at the control is taken as exact (give --control-u-datum-m for its uncertainty)"
+        );
+    }
     let _ = writeln!(
         w,
         "  range ratios over the common period: MN {:.5} ± {:.5}, GT {:.5} ± {:.5}",
