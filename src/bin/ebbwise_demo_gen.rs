@@ -548,6 +548,180 @@ fn history_csv(g: &GaugeSite, stream: u64) -> String {
     s
 }
 
+// ---------------------------------------------------------------------------------------------
+// A short-term gauge and the control's long record (datum transfer)
+
+/// A survey gauge installed up the estuary for a month; it feeds no zone. Its zero's height
+/// above chart datum is what `ebbwise transfer` finds from a comparison with orlick.
+const SHORT_TERM: GaugeSite = GaugeSite {
+    id: "ferrisk",
+    name: "Ferrisk Jetty",
+    xi: 0.70,
+    across_frac: -0.80,
+    zero_above_datum_m: -0.62,
+    step_min: 6,
+};
+/// The short-term record: 30 days from 2026-05-31T00:00Z, covering the survey day.
+fn short_term_span_ms() -> (i64, i64) {
+    (
+        utc_ms(14, 0, 0, 0) - 14 * 86_400_000,
+        utc_ms(14, 0, 0, 0) + 16 * 86_400_000,
+    )
+}
+/// The control's long record: a year at 6 minutes (high and low waters need a step of a few
+/// minutes; hourly values would miss them by centimetres), 2025-07-01T00:00Z to
+/// 2026-07-01T00:00Z, from which `ebbwise datums` gives orlick's long-term datums. It covers the
+/// short-term record, so it is also the control's record of the comparison.
+fn long_span_ms() -> (i64, i64) {
+    (
+        Utc.with_ymd_and_hms(2025, 7, 1, 0, 0, 0)
+            .unwrap()
+            .timestamp_millis(),
+        Utc.with_ymd_and_hms(2026, 7, 1, 0, 0, 0)
+            .unwrap()
+            .timestamp_millis(),
+    )
+}
+
+/// Readings of `g` every `step_min` from `from_ms` (inclusive) to `to_ms` (exclusive), with the
+/// sensor noise of the other gauges.
+fn plain_record_csv(g: &GaugeSite, from_ms: i64, to_ms: i64, stream: u64) -> String {
+    let mut rng = ChaCha8Rng::seed_from_u64(SEED);
+    rng.set_stream(stream);
+    let noise = Normal::new(0.0, GAUGE_NOISE_SD_M).unwrap();
+    let mut s = String::from("time,height\n");
+    let mut t = from_ms;
+    while t < to_ms {
+        let reading = g.level_m(t) + noise.sample(&mut rng) - g.zero_above_datum_m;
+        writeln!(s, "{},{}", rfc3339(t, false), fixed(reading, 3)).unwrap();
+        t += g.step_min * 60_000;
+    }
+    s
+}
+
+/// Long-term tidal datums of the true (noise-free) level at `g` over `span`, metres above
+/// chart datum: high and low waters are the local extremes of a 1-minute grid refined by the
+/// parabola through three samples; tidal days of two M2 periods start where M2's phase at the
+/// gauge is 90° (mid-tide, away from every high and low water); MHHW (MLLW) is the mean of each
+/// day's highest high (lowest low) water; MSL the mean of the grid.
+struct TrueDatums {
+    msl_m: f64,
+    mhw_m: f64,
+    mlw_m: f64,
+    mhhw_m: f64,
+    mllw_m: f64,
+}
+
+fn true_datums(g: &GaugeSite, span: (i64, i64)) -> TrueDatums {
+    let step = 60_000;
+    let n = ((span.1 - span.0) / step) as usize;
+    let h: Vec<f64> = (0..=n)
+        .map(|i| g.level_m(span.0 + i as i64 * step))
+        .collect();
+    let msl_m = h.iter().sum::<f64>() / h.len() as f64;
+    let day_ms = 2.0 * 360.0 / M2_DEG_PER_H * 3_600_000.0;
+    // M2's argument at the gauge, degrees, at `t_ms`: speed·(hours − lag) − phase.
+    let lag_h = lag_min(g.xi, g.across_m()) / 60.0;
+    let arg = |t_ms: f64| {
+        M2_DEG_PER_H * ((t_ms - epoch_ms() as f64) / 3_600_000.0 - lag_h) - CONSTITUENTS[0].4
+    };
+    let first =
+        span.0 as f64 + (90.0 - arg(span.0 as f64)).rem_euclid(360.0) / M2_DEG_PER_H * 3_600_000.0;
+    let days = ((span.1 as f64 - first) / day_ms).floor() as usize;
+    let mut hw: Vec<Vec<f64>> = vec![Vec::new(); days];
+    let mut lw: Vec<Vec<f64>> = vec![Vec::new(); days];
+    for i in 1..n {
+        let (a, b, c) = (h[i - 1], h[i], h[i + 1]);
+        let high = b > a && b >= c;
+        let low = b < a && b <= c;
+        if !(high || low) {
+            continue;
+        }
+        let den = a - 2.0 * b + c;
+        let off = if den != 0.0 { 0.5 * (a - c) / den } else { 0.0 };
+        let y = b - 0.25 * (a - c) * off;
+        let t = span.0 as f64 + (i as f64 + off) * step as f64;
+        if t < first {
+            continue;
+        }
+        let d = ((t - first) / day_ms).floor() as usize;
+        if d < days {
+            if high {
+                hw[d].push(y);
+            } else {
+                lw[d].push(y);
+            }
+        }
+    }
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    let all_hw: Vec<f64> = hw.iter().flatten().copied().collect();
+    let all_lw: Vec<f64> = lw.iter().flatten().copied().collect();
+    let hhw: Vec<f64> = hw
+        .iter()
+        .map(|d| d.iter().copied().fold(f64::NEG_INFINITY, f64::max))
+        .collect();
+    let llw: Vec<f64> = lw
+        .iter()
+        .map(|d| d.iter().copied().fold(f64::INFINITY, f64::min))
+        .collect();
+    TrueDatums {
+        msl_m,
+        mhw_m: mean(&all_hw),
+        mlw_m: mean(&all_lw),
+        mhhw_m: mean(&hhw),
+        mllw_m: mean(&llw),
+    }
+}
+
+/// The truth behind the short-term gauge (`truth/ferrisk.json`).
+fn short_term_truth_json() -> Result<String> {
+    let span = long_span_ms();
+    let (s, c) = (
+        true_datums(&SHORT_TERM, span),
+        true_datums(&GAUGES[0], span),
+    );
+    let levels = |d: &TrueDatums| {
+        json!({
+            "msl_m": round_dp(d.msl_m, 4), "mhw_m": round_dp(d.mhw_m, 4), "mlw_m": round_dp(d.mlw_m, 4),
+            "mhhw_m": round_dp(d.mhhw_m, 4), "mllw_m": round_dp(d.mllw_m, 4),
+            "mn_m": round_dp(d.mhw_m - d.mlw_m, 4), "gt_m": round_dp(d.mhhw_m - d.mllw_m, 4),
+        })
+    };
+    let (gt_s, gt_c) = (s.mhhw_m - s.mllw_m, c.mhhw_m - c.mllw_m);
+    // Chart datum carried from orlick as the transfer carries it, heights above the demo's
+    // chart datum (a level surface): below MLLW by orlick's separation scaled by the GT ratio
+    // (range-ratio method), or by orlick's separation unscaled (direct method).
+    let cd_ratio = s.mllw_m - c.mllw_m * gt_s / gt_c;
+    let cd_direct = s.mllw_m - c.mllw_m;
+    let z = SHORT_TERM.zero_above_datum_m;
+    let (start, end) = short_term_span_ms();
+    let (e, n) = frame_to_utm(SHORT_TERM.xi * LENGTH_M, SHORT_TERM.across_m());
+    let doc = json!({
+        "description": "Invented demonstration data (Vellmar Water). The short-term gauge ferrisk (Ferrisk Jetty), \
+            recorded for 30 days around the survey day, and the long-term datums behind the transfer of its datum \
+            from orlick. Levels in metres above the demo's chart datum, a level surface; long-term datums of the \
+            true (noise-free) level over the span of gauges/orlick-year.csv. The tide-defined chart datum that a \
+            datum transfer carries follows the tide (below MLLW by orlick's separation, scaled by the GT ratio in \
+            the range-ratio method, unscaled in the direct method), so it differs from the level surface up the \
+            estuary, where the range is larger and the mean level higher: the zero's height above each is given.",
+        "gauge": {
+            "id": SHORT_TERM.id, "name": SHORT_TERM.name, "xi": SHORT_TERM.xi,
+            "across_m": round_dp(SHORT_TERM.across_m(), 2), "easting_m": round_dp(e, 2), "northing_m": round_dp(n, 2),
+            "step_min": SHORT_TERM.step_min, "record": "gauges/ferrisk.csv",
+            "record_start_utc": rfc3339(start, false), "record_end_before_utc": rfc3339(end, false),
+        },
+        "zero_above_level_chart_datum_m": z,
+        "long_term_span_utc": [rfc3339(span.0, false), rfc3339(span.1, false)],
+        "long_term_ferrisk": levels(&s),
+        "long_term_orlick": levels(&c),
+        "chart_datum_by_range_ratio_m": round_dp(cd_ratio, 4),
+        "chart_datum_by_direct_level_m": round_dp(cd_direct, 4),
+        "zero_above_datum_by_range_ratio_m": round_dp(z - cd_ratio, 4),
+        "zero_above_datum_by_direct_level_m": round_dp(z - cd_direct, 4),
+    });
+    Ok(serde_json::to_string_pretty(&doc)? + "\n")
+}
+
 fn gauge_csv(g: &GaugeSite, stream: u64) -> String {
     let mut rng = ChaCha8Rng::seed_from_u64(SEED);
     rng.set_stream(stream);
@@ -826,6 +1000,20 @@ fn main() -> Result<()> {
             gap_fill_toml(&project_toml(&gauge_lonlat)),
         ),
         ("README.md".into(), readme(&stats, model_error)),
+    ]);
+    // The datum-transfer example: files of their own, so the survey's files stay as they are.
+    let (st0, st1) = short_term_span_ms();
+    let (ly0, ly1) = long_span_ms();
+    outputs.extend([
+        (
+            "gauges/ferrisk.csv".into(),
+            plain_record_csv(&SHORT_TERM, st0, st1, 30),
+        ),
+        (
+            "gauges/orlick-year.csv".into(),
+            plain_record_csv(&GAUGES[0], ly0, ly1, 31),
+        ),
+        ("truth/ferrisk.json".into(), short_term_truth_json()?),
     ]);
     for (rel, text) in &outputs {
         let path = dir.join(rel);

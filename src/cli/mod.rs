@@ -5,8 +5,9 @@
 //! clap) and `run`, which builds the run configuration, calls the library and prints the human
 //! summary. Output convention, for every command: the human summary goes to stderr; data goes to
 //! stdout only when the user gives `-` as the path of a single data file (`check --json -`,
-//! `analyse --out -`, `datums --out -`, `predict --out -` or `--high-low-waters -`). Helpers shared by several
-//! commands are in `common`; the progress bar of a reduction is in `progress`.
+//! `analyse --out -`, `datums --out -`, `transfer --out -`, `predict --out -` or
+//! `--high-low-waters -`). Helpers shared by several commands are in `common`; the progress bar
+//! of a reduction is in `progress`.
 
 mod analyse;
 mod apply;
@@ -19,6 +20,7 @@ mod predict;
 mod progress;
 mod qc;
 mod reduce;
+mod transfer;
 mod zones;
 
 use clap::{Parser, Subcommand};
@@ -68,6 +70,10 @@ enum Command {
     /// and range ratio (`derive`), and the zoning against them (`compare`).
     #[command(subcommand_required = true)]
     Zones(zones::Args),
+    /// A short-term gauge's datums and its zero above chart datum by simultaneous comparison
+    /// with a control gauge of known long-term datums (range-ratio and direct methods), written
+    /// to a transfer file (TOML).
+    Transfer(transfer::Args),
     /// Reduce the demo survey (./zoning-demo, or --dir) and say where the results are.
     Demo(demo::Args),
     /// Print the help of ebbwise, or of one of its commands.
@@ -146,6 +152,7 @@ pub fn main() -> i32 {
         Command::Zones(a) => zones::run(a),
         Command::Predict(a) => predict::run(a),
         Command::Datums(a) => datums::run(a),
+        Command::Transfer(a) => transfer::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Help { command } => help(command.as_deref()),
     };

@@ -41,6 +41,8 @@
 //! common period is not modelled), and the period's departure from the long term is assumed
 //! common to both gauges: only its difference is in the budget.
 
+use crate::compute::extrema::{Tabulation, TIDAL_DAY_S};
+
 /// Fewest tidal days a comparison accepts (a standard deviation and an autocorrelation need
 /// three).
 pub const MIN_DAYS: usize = 3;
@@ -511,6 +513,263 @@ pub fn transfer(
     })
 }
 
+/// One complete tidal day of a tabulated record, as a comparison uses it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DayValues {
+    /// Start of the tidal day, UTC seconds.
+    pub start_s: f64,
+    /// The day's values: mean of its high (low) waters, its highest high and lowest low water,
+    /// its mean level; metres on the record's zero.
+    pub means: TidalMeans,
+    /// High waters in the day.
+    pub high_waters: usize,
+    /// Low waters in the day.
+    pub low_waters: usize,
+}
+
+/// The complete tidal days of a tabulation that hold at least one high and one low water, in
+/// time order, with their values (the definitions of [`crate::compute::datums`]: a day with a
+/// single high water counts it as its higher high water).
+pub fn day_values(tab: &Tabulation) -> Vec<DayValues> {
+    let mut out = Vec::new();
+    for (i, d) in tab.days.iter().enumerate() {
+        let Some(msl_m) = d.mean_level_m else {
+            continue;
+        };
+        let (mut hw, mut lw) = (Vec::new(), Vec::new());
+        for e in tab.extrema.iter().filter(|e| e.day == i) {
+            if e.water.high {
+                hw.push(e.water.height_m);
+            } else {
+                lw.push(e.water.height_m);
+            }
+        }
+        if hw.is_empty() || lw.is_empty() {
+            continue;
+        }
+        let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+        out.push(DayValues {
+            start_s: d.start_s,
+            means: TidalMeans {
+                mhw_m: mean(&hw),
+                mlw_m: mean(&lw),
+                mhhw_m: hw.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+                mllw_m: lw.iter().copied().fold(f64::INFINITY, f64::min),
+                msl_m,
+            },
+            high_waters: hw.len(),
+            low_waters: lw.len(),
+        });
+    }
+    out
+}
+
+/// The subordinate's time difference from the control, seconds (positive: its tide comes
+/// later): the median, over the subordinate's high and low waters, of the time from the nearest
+/// control turning point of the same kind within a quarter of a tidal day (6.2 h). `None` when
+/// no turning point has a partner.
+pub fn time_difference_s(subordinate: &Tabulation, control: &Tabulation) -> Option<f64> {
+    let quarter = 0.25 * TIDAL_DAY_S;
+    let mut d: Vec<f64> = subordinate
+        .extrema
+        .iter()
+        .filter_map(|e| {
+            control
+                .extrema
+                .iter()
+                .filter(|c| c.water.high == e.water.high)
+                .map(|c| e.water.t_s - c.water.t_s)
+                .filter(|x| x.abs() < quarter)
+                .min_by(|a, b| a.abs().total_cmp(&b.abs()))
+        })
+        .collect();
+    if d.is_empty() {
+        return None;
+    }
+    d.sort_by(f64::total_cmp);
+    let n = d.len();
+    Some(if n % 2 == 1 {
+        d[n / 2]
+    } else {
+        0.5 * (d[n / 2 - 1] + d[n / 2])
+    })
+}
+
+/// Time mean of the linearly interpolated samples over `[a, b]`, metres; `None` when the samples
+/// do not cover it.
+fn mean_level_over(times_s: &[f64], heights_m: &[f64], a: f64, b: f64) -> Option<f64> {
+    if times_s.len() < 2 || times_s[0] > a || times_s[times_s.len() - 1] < b || b <= a {
+        return None;
+    }
+    let at = |t: f64| -> f64 {
+        let k = times_s
+            .partition_point(|&x| x <= t)
+            .clamp(1, times_s.len() - 1);
+        let (t0, t1) = (times_s[k - 1], times_s[k]);
+        heights_m[k - 1] + (heights_m[k] - heights_m[k - 1]) * (t - t0) / (t1 - t0)
+    };
+    let mut sum = 0.0;
+    let mut prev = (a, at(a));
+    let first = times_s.partition_point(|&x| x <= a);
+    for k in first..times_s.len() {
+        if times_s[k] >= b {
+            break;
+        }
+        let cur = (times_s[k], heights_m[k]);
+        sum += 0.5 * (prev.1 + cur.1) * (cur.0 - prev.0);
+        prev = cur;
+    }
+    sum += 0.5 * (prev.1 + at(b)) * (b - prev.0);
+    Some(sum / (b - a))
+}
+
+/// The two gauges' values over the same tides, day by day.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PairedDays {
+    /// The subordinate's time difference from the control, seconds ([`time_difference_s`]).
+    pub time_difference_s: f64,
+    /// The subordinate's days: each the control's day moved by the time difference.
+    pub subordinate: Vec<DayValues>,
+    /// The control's days, paired one to one.
+    pub control: Vec<DayValues>,
+}
+
+/// Pairs the two gauges' tidal days so that each pair holds the same tides: the control's
+/// complete days ([`day_values`]) are kept as its tabulation placed them, and each is moved by
+/// the subordinate's time difference to make the subordinate's day; a moved day counts when it
+/// lies within the subordinate's complete days (inside one stretch of record, [`crate::compute::extrema`]).
+/// Its values are the subordinate's high and low waters within it and the time mean of its
+/// samples over it (`times_s`, `heights_m`: the series the tabulation was made from). Two
+/// records tabulated apart may cut their days a half or quarter cycle apart (a semidiurnal tide
+/// has four stretches between turning points of about equal width), so their own days would not
+/// pair the same tides. `None` when the time difference cannot be found.
+pub fn pair_days(
+    subordinate: &Tabulation,
+    times_s: &[f64],
+    heights_m: &[f64],
+    control: &Tabulation,
+) -> Option<PairedDays> {
+    let dt = time_difference_s(subordinate, control)?;
+    let own: Vec<(f64, f64)> = subordinate
+        .days
+        .iter()
+        .filter(|d| d.complete)
+        .map(|d| (d.start_s, d.start_s + TIDAL_DAY_S))
+        .collect();
+    // Whether [a, b) lies within consecutive complete days of the subordinate.
+    let covered = |a: f64, b: f64| -> bool {
+        let mut reach = a;
+        for &(s, e) in &own {
+            if s <= reach + 1e-6 && e > reach {
+                reach = e;
+            }
+            if reach >= b {
+                return true;
+            }
+        }
+        false
+    };
+    let (mut sub, mut ctl) = (Vec::new(), Vec::new());
+    for c in day_values(control) {
+        let (a, b) = (c.start_s + dt, c.start_s + dt + TIDAL_DAY_S);
+        if !covered(a, b) {
+            continue;
+        }
+        let (mut hw, mut lw) = (Vec::new(), Vec::new());
+        for e in subordinate
+            .extrema
+            .iter()
+            .filter(|e| e.water.t_s >= a && e.water.t_s < b)
+        {
+            if e.water.high {
+                hw.push(e.water.height_m);
+            } else {
+                lw.push(e.water.height_m);
+            }
+        }
+        let Some(msl_m) = mean_level_over(times_s, heights_m, a, b) else {
+            continue;
+        };
+        if hw.is_empty() || lw.is_empty() {
+            continue;
+        }
+        let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+        sub.push(DayValues {
+            start_s: a,
+            means: TidalMeans {
+                mhw_m: mean(&hw),
+                mlw_m: mean(&lw),
+                mhhw_m: hw.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+                mllw_m: lw.iter().copied().fold(f64::INFINITY, f64::min),
+                msl_m,
+            },
+            high_waters: hw.len(),
+            low_waters: lw.len(),
+        });
+        ctl.push(c);
+    }
+    Some(PairedDays {
+        time_difference_s: dt,
+        subordinate: sub,
+        control: ctl,
+    })
+}
+
+/// Mean range below which the range-ratio method is not the default, metres: a ratio of ranges
+/// this small is dominated by the tabulation's noise and by non-tidal changes (weakly tidal
+/// places take the direct method, DOMAIN §6).
+pub const SMALL_RANGE_M: f64 = 0.3;
+
+/// Share of the control's paired tidal days with a single high and a single low water above
+/// which the tide is taken as diurnal.
+pub const DIURNAL_DAY_SHARE: f64 = 0.5;
+
+/// Why the default method was chosen.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[non_exhaustive]
+pub enum MethodReason {
+    /// Two high and two low waters on most days, and ranges above [`SMALL_RANGE_M`]:
+    /// semidiurnal or mixed, range-ratio method.
+    Semidiurnal {
+        /// Share of the control's paired days with one high and one low water.
+        diurnal_share: f64,
+    },
+    /// More than [`DIURNAL_DAY_SHARE`] of the control's paired days have one high and one low
+    /// water: diurnal, direct method.
+    Diurnal {
+        /// That share.
+        diurnal_share: f64,
+    },
+    /// The smaller of the two period mean ranges is below [`SMALL_RANGE_M`]: direct method.
+    SmallRange {
+        /// The smaller mean range over the common period, metres.
+        mn_m: f64,
+    },
+}
+
+/// The default method for a comparison: the range-ratio method for a semidiurnal or mixed tide,
+/// the direct method for a diurnal tide or small ranges (DOMAIN §6). `control_days` are the
+/// control's paired days.
+pub fn default_method(control_days: &[DayValues], cmp: &Comparison) -> (Method, MethodReason) {
+    let n = control_days.len().max(1) as f64;
+    let single = control_days
+        .iter()
+        .filter(|d| d.high_waters == 1 && d.low_waters == 1)
+        .count() as f64;
+    let diurnal_share = single / n;
+    let mn_m = cmp.subordinate.mn_m().min(cmp.control.mn_m());
+    if mn_m < SMALL_RANGE_M {
+        (Method::DirectLevel, MethodReason::SmallRange { mn_m })
+    } else if diurnal_share > DIURNAL_DAY_SHARE {
+        (Method::DirectLevel, MethodReason::Diurnal { diurnal_share })
+    } else {
+        (
+            Method::ModifiedRangeRatio,
+            MethodReason::Semidiurnal { diurnal_share },
+        )
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -965,6 +1224,97 @@ mod tests {
         assert!(matches!(
             transfer(&cmp, &control, Method::ModifiedRangeRatio),
             Err(TransferError::NoRange { .. })
+        ));
+    }
+
+    /// A record from `t0` at 6-minute steps of the tide of `constants` `lag_s` later,
+    /// tabulated.
+    fn tabulated(
+        k: &HarmonicConstants,
+        t0: f64,
+        lag_s: f64,
+        n: usize,
+    ) -> (Vec<f64>, Vec<f64>, Tabulation) {
+        use crate::compute::extrema::{tabulate, ExtremaSettings};
+        let h = predict_grid(k, t0 - lag_s, 360.0, n);
+        let t: Vec<f64> = (0..n).map(|i| t0 + 360.0 * i as f64).collect();
+        let tab = tabulate(&t, &h, &ExtremaSettings::default()).unwrap();
+        (t, h, tab)
+    }
+
+    /// A subordinate that is the control 40 minutes later: the time difference is 40 min
+    /// (within 30 s: the parabola vertices of two samplings 2 minutes apart in phase); every
+    /// pair holds the same tides (the subordinate's day values equal the control's, its days
+    /// start 40 min later), and the mean level of a line over a window is its midpoint value
+    /// (trapezoid rule, exact for a line: h = 1 + t/10 over [5, 25] has mean 2.5).
+    #[test]
+    fn days_pair_the_same_tides() {
+        let k = control_constants();
+        let t0 = 1_772_323_200.0;
+        let n = 20 * 240;
+        let (_, _, tc) = tabulated(&k, t0, 0.0, n);
+        let (ts, hs, tsub) = tabulated(&k, t0, LAG_S, n);
+        let dt = time_difference_s(&tsub, &tc).unwrap();
+        assert!((dt - LAG_S).abs() < 30.0, "{dt}");
+        let p = pair_days(&tsub, &ts, &hs, &tc).unwrap();
+        assert!(p.control.len() >= 17, "{}", p.control.len());
+        for (s, c) in p.subordinate.iter().zip(&p.control) {
+            assert_eq!(s.start_s, c.start_s + dt);
+            assert_eq!((s.high_waters, s.low_waters), (c.high_waters, c.low_waters));
+            assert!((s.means.mhhw_m - c.means.mhhw_m).abs() < 2e-3);
+            assert!((s.means.mllw_m - c.means.mllw_m).abs() < 2e-3);
+            // The day's mean level: the same tide over a window 40 min later, to within the
+            // 40-minute shift's share (≤ 2·lag·ΣH/T, the window bound above) plus the
+            // subordinate's window being moved by dt rather than exactly 40 min.
+            assert!((s.means.msl_m - c.means.msl_m).abs() < 0.15);
+        }
+        let line_t = [0.0, 10.0, 20.0, 30.0];
+        let line_h = [1.0, 2.0, 3.0, 4.0];
+        assert!((mean_level_over(&line_t, &line_h, 5.0, 25.0).unwrap() - 2.5).abs() < 1e-12);
+        assert_eq!(mean_level_over(&line_t, &line_h, -1.0, 25.0), None);
+    }
+
+    /// The default method: range ratio for the mixed tide of the other tests (form factor 0.37,
+    /// two high waters a day), direct for a diurnal tide (K1 and O1 alone: one high and one low
+    /// water a day) and for small ranges (the same tide scaled to a tenth: MN below 0.3 m).
+    #[test]
+    fn default_method_by_tide_type() {
+        let t0 = 1_772_323_200.0;
+        let n = 20 * 240;
+        let run = |k: &HarmonicConstants| {
+            let (ts, hs, tsub) = tabulated(k, t0, LAG_S, n);
+            let (_, _, tc) = tabulated(k, t0, 0.0, n);
+            let p = pair_days(&tsub, &ts, &hs, &tc).unwrap();
+            let sv: Vec<TidalMeans> = p.subordinate.iter().map(|d| d.means).collect();
+            let cv: Vec<TidalMeans> = p.control.iter().map(|d| d.means).collect();
+            let cmp = compare_tidal_days(&sv, &cv).unwrap();
+            default_method(&p.control, &cmp)
+        };
+        let mixed = control_constants();
+        assert!(matches!(
+            run(&mixed),
+            (Method::ModifiedRangeRatio, MethodReason::Semidiurnal { .. })
+        ));
+        let c = |n: &str| constituent(n).unwrap();
+        let diurnal = HarmonicConstants {
+            z0_m: 1.0,
+            constituents: vec![(c("K1"), 0.5, 120.0), (c("O1"), 0.4, 100.0)],
+        };
+        assert!(matches!(
+            run(&diurnal),
+            (Method::DirectLevel, MethodReason::Diurnal { .. })
+        ));
+        let small = HarmonicConstants {
+            z0_m: 1.0,
+            constituents: mixed
+                .constituents
+                .iter()
+                .map(|&(c, h, g)| (c, 0.1 * h, g))
+                .collect(),
+        };
+        assert!(matches!(
+            run(&small),
+            (Method::DirectLevel, MethodReason::SmallRange { .. })
         ));
     }
 }

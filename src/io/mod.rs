@@ -14,6 +14,7 @@
 //! * [`constants`] — harmonic-constants files (TOML).
 //! * [`datums_file`] — tidal-datums files (TOML).
 //! * [`zones_file`] — the derived-correctors table of `ebbwise zones` (CSV).
+//! * [`transfer_file`] — datum-transfer files of a short-term gauge (TOML).
 //! * [`qc_svg`] — the plot of a gauge record with its QC flags (SVG).
 //! * [`atomic`] — output files written to a temporary name and renamed on success.
 //! * [`error`] — the positioned error type and validation findings.
@@ -32,5 +33,6 @@ pub mod report_html;
 pub mod soundings;
 pub mod text;
 pub mod timefmt;
+pub mod transfer_file;
 pub mod zones_file;
 pub mod zoning_geojson;

@@ -8,6 +8,7 @@
 //! * [`correctors`] — tide-correction files with provenance, and applying them.
 //! * [`datums`] — observed high and low waters and tidal datums of a record into a datums file.
 //! * [`fields`] — the project's co-tidal field and each zone's derived correctors.
+//! * [`transfer`] — a short-term gauge's datums by comparison with a control gauge.
 //! * [`harmonics`] — harmonic analysis of a record into a constants file; prediction.
 //! * [`qc`] — gauge-record quality control and gauge-to-gauge comparison.
 //! * [`provenance`] — every input that can change a tide, recorded and compared.
@@ -23,3 +24,4 @@ pub mod provenance;
 pub mod qa_report;
 pub mod qc;
 pub mod reduce;
+pub mod transfer;

@@ -22,6 +22,7 @@ mod provenance;
 mod qa_report;
 mod qc;
 mod tidy;
+mod transfer;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

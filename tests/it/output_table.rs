@@ -3,9 +3,10 @@
 //! Every command that writes a data file runs here — `reduce` (with uncertainty), `correctors`
 //! (per zone, `--per-sounding`, `--per-line`), `apply`, `qc` (a project, and a lone record
 //! without a datum relation), `analyse` (a committed fixture record, with and without a datum
-//! relation) and `predict` (from each of those constants files, and from one that does not say
-//! its datum) — and each file is checked against the table: a CSV header must equal the
-//! documented columns in order, every non-empty value must follow its column's decimal rule,
+//! relation), `predict` (from each of those constants files, and from one that does not say
+//! its datum) and `transfer` (the demo's short-term gauge) — and each file is checked against
+//! the table: a CSV header must equal the documented columns in order, every non-empty value
+//! must follow its column's decimal rule,
 //! every field of a JSON or TOML file whose name carries a unit must be listed and follow its
 //! rule, every documented file must be written and every documented name must be used. The
 //! expected values are the documentation's; the test then checks that a table with one wrong
@@ -541,6 +542,37 @@ fn write_every_output(out: &Path) {
         .collect();
     let hand = out.with_file_name("hand.constants.toml");
     std::fs::write(&hand, unstated).unwrap();
+    // A datum transfer: the demo's short-term gauge against orlick's year, whose datums file
+    // (an output of `ebbwise datums`, not in the table) is written outside the checked folder.
+    let demo_dir = repo().join("zoning-demo");
+    let year = demo_dir.join("gauges/orlick-year.csv");
+    let control_datums = out.with_file_name("orlick-year.datums.toml");
+    run_ok(
+        &[
+            "datums",
+            year.to_str().unwrap(),
+            "--zero-above-datum-m",
+            "-0.85",
+            "--out",
+            control_datums.to_str().unwrap(),
+        ],
+        &[0],
+    );
+    run_ok(
+        &[
+            "transfer",
+            demo_dir.join("gauges/ferrisk.csv").to_str().unwrap(),
+            "--control-record",
+            year.to_str().unwrap(),
+            "--control-datums",
+            control_datums.to_str().unwrap(),
+            "--control-u-datum-m",
+            "0.03",
+            "--out",
+            &dir("transfer/ferrisk.transfer.toml"),
+        ],
+        &[0],
+    );
     for (constants, stem) in [
         (h("zero.constants.toml"), "zero"),
         (h("datum.constants.toml"), "datum"),
