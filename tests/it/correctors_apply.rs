@@ -1,6 +1,9 @@
 //! `ebbwise apply` on the demo: holes in correction files are not bridged (per zone with and
 //! without a sidecar, per line, per sounding), a file without sidecar is warned about, and with
-//! uncertainty the applied files and the QA report equal those of `ebbwise reduce`.
+//! uncertainty the applied files and the QA report equal those of `ebbwise reduce`. On the
+//! gap-filled demo, gap-filled and renormalised soundings come out of every kind of correction
+//! file with the status, detail, tide and uncertainties of `ebbwise reduce`, and a changed
+//! `[gap_fill]` table is refused.
 
 use std::path::Path;
 
@@ -831,4 +834,60 @@ fn renormalised_feeds_through_every_correction_file_equal_reduce() {
     assert!(edges > 0 && edges < 1_000, "{edges}");
     let vw5 = zone("VW5", "no_gauge_data");
     assert!(vw5 > 4_000, "{vw5}");
+}
+
+/// A correction file made under one `[gap_fill]` is refused by `ebbwise apply` once the table
+/// changes (the whole table is among the inputs that change a tide, docs/correctors.md "What
+/// provenance covers"), each setting named with its recorded and current value; accepted with
+/// `--accept-changed-inputs`, the difference is written into the summary.
+#[test]
+fn a_changed_gap_fill_table_is_refused_by_apply() {
+    let d = tempfile::tempdir().unwrap();
+    let project = gap_fill_copy(d.path(), |t| {
+        t.replace("max_fill_min = 180", "max_fill_min = 150")
+    });
+    let p = |x: &str| s(&d.path().join(x));
+    let o = ebbwise(&["correctors", &project, "--out", &p("c")]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let text = std::fs::read_to_string(&project).unwrap();
+    let changed = text
+        .replace("max_fill_min = 150", "max_fill_min = 120")
+        .replace("renormalise_feeds = true", "renormalise_feeds = false");
+    assert_ne!(changed, text);
+    std::fs::write(&project, changed).unwrap();
+    let args = [
+        "apply",
+        &p("c/correctors-zones.csv"),
+        "--project",
+        &project,
+        "--out",
+        &p("out"),
+    ];
+    let o = ebbwise(&args);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(err.contains("in 2 input(s) that change a tide"), "{err}");
+    assert!(
+        err.contains("(tide) gap_fill.max_fill_min: 150.0 in the correction file, 120.0 now"),
+        "{err}"
+    );
+    assert!(
+        err.contains("(tide) gap_fill.renormalise_feeds: true in the correction file, false now"),
+        "{err}"
+    );
+    assert!(!d.path().join("out/launch-a.applied.csv").exists());
+    let mut accepted = args.to_vec();
+    accepted.push("--accept-changed-inputs");
+    let o = ebbwise(&accepted);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let items: Vec<String> = summary(&d.path().join("out"))["accepted_input_differences"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x["item"].as_str().unwrap().to_string())
+        .collect();
+    assert_eq!(
+        items,
+        ["gap_fill.max_fill_min", "gap_fill.renormalise_feeds"]
+    );
 }
