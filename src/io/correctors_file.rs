@@ -266,6 +266,20 @@ fn u_parts(
     }
 }
 
+/// Whether the correction file's header ends with [`DETAIL_COLUMN`] (layout 4): a file of an
+/// earlier layout cannot mark a tide `gap_filled`. `false` when the header cannot be read (the
+/// reader then says why).
+pub fn has_detail_column(path: &Path) -> bool {
+    let Ok(f) = std::fs::File::open(path) else {
+        return false;
+    };
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .from_reader(std::io::BufReader::new(f));
+    rdr.headers()
+        .is_ok_and(|h| h.iter().next_back() == Some(DETAIL_COLUMN))
+}
+
 /// Reads a correction file of either kind (told apart by its header line).
 pub fn read_correction_file(path: &Path) -> Result<CorrectionFile, IoError> {
     let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;

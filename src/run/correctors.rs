@@ -785,6 +785,14 @@ pub fn apply_corrections(
             loaded.uncertainty = None;
         }
     }
+    if loaded.project.spec.gap_fill.enabled
+        && !crate::io::correctors_file::has_detail_column(corrections)
+    {
+        warnings.push(format!(
+            "{} is of an earlier layout (no status_detail column), which marks no tide gap_filled: soundings whose tide rests on filled gauge samples are reduced without that status (re-run `ebbwise correctors` to carry it)",
+            corrections.display()
+        ));
+    }
     let check = provenance_check(loaded, corrections, loaded.uncertainty.is_some())?;
     if !check.refused.is_empty() && !accept_changed_inputs {
         let items: Vec<String> = check.refused.iter().map(|d| format!("  {d}")).collect();

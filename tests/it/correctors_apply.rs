@@ -891,3 +891,58 @@ fn a_changed_gap_fill_table_is_refused_by_apply() {
         ["gap_fill.max_fill_min", "gap_fill.renormalise_feeds"]
     );
 }
+
+/// A per-zone file of layout 3 (no `status_detail` column; a value from filled samples was
+/// written `interpolated`) still applies on the gap-filled demo, with the same tides, but marks
+/// no sounding `gap_filled`: `ebbwise apply` says so in a warning rather than passing over it.
+#[test]
+fn an_earlier_layout_applied_under_gap_fill_is_warned_about() {
+    let d = tempfile::tempdir().unwrap();
+    let project = s(&repo().join("zoning-demo/gap-fill.toml"));
+    let p = |x: &str| d.path().join(x);
+    let o = ebbwise(&["correctors", &project, "--out", &s(&p("c"))]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let (h, rows) = read_csv(&p("c/correctors-zones.csv"));
+    let (st, det) = (col(&h, "status"), col(&h, "status_detail"));
+    assert_eq!(det, h.len() - 1);
+    let old: Vec<Vec<String>> = rows
+        .iter()
+        .map(|r| {
+            let mut r = r[..det].to_vec();
+            if r[st] == "gap_filled" {
+                r[st] = "interpolated".into();
+            }
+            r
+        })
+        .collect();
+    let file = p("old/correctors-zones.csv");
+    write_csv(&file, &h[..det], &old);
+    let run = |f: &Path, out: &str| {
+        let o = ebbwise(&["apply", &s(f), "--project", &project, "--out", &s(&p(out))]);
+        assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+        stderr(&o)
+    };
+    let err = run(&file, "old-out");
+    assert!(
+        err.contains(
+            "is of an earlier layout (no status_detail column), which marks no tide gap_filled"
+        ),
+        "{err}"
+    );
+    assert!(!run(&p("c/correctors-zones.csv"), "new-out").contains("earlier layout"));
+    for name in ["launch-a", "launch-b"] {
+        let (ha, a) = read_csv(&p(&format!("old-out/{name}.applied.csv")));
+        let (_, b) = read_csv(&p(&format!("new-out/{name}.applied.csv")));
+        let (st, tide) = (col(&ha, "status"), col(&ha, "tide_m"));
+        let mut filled = 0;
+        for (x, y) in a.iter().zip(&b) {
+            assert_eq!(x[tide], y[tide], "{name}: the same tide");
+            assert_ne!(x[st], "gap_filled");
+            if y[st] == "gap_filled" {
+                filled += 1;
+                assert_eq!(x[st], "reduced");
+            }
+        }
+        assert!(filled > 4_000, "{name}: {filled}");
+    }
+}
