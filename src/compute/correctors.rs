@@ -6,6 +6,7 @@
 //! linear in time) and [`SoundingTableModel`] (tide looked up per sounding by line and time).
 
 use std::collections::HashMap;
+use std::sync::Arc;
 
 use super::locate::ZoneLocator;
 use super::reduce::{CarriedTideU, StepSource, TideModel, TideOutcome};
@@ -21,6 +22,9 @@ pub enum CorrectorStatus {
     Observed,
     /// At least one feeding gauge was interpolated between samples (within its maximum gap).
     Interpolated,
+    /// The tide rests on gauge samples that `[gap_fill]` filled, or on a zone's feeds
+    /// renormalised because one had no level ([`rests_on_filled`]).
+    GapFilled,
     /// No value: a feeding gauge has no level at the corrected time.
     Missing,
     /// No value: a feeding gauge's samples around the corrected time enclose one that quality
@@ -30,9 +34,10 @@ pub enum CorrectorStatus {
 
 impl CorrectorStatus {
     /// Every status, in the order of the summary.
-    pub const ALL: [CorrectorStatus; 4] = [
+    pub const ALL: [CorrectorStatus; 5] = [
         CorrectorStatus::Observed,
         CorrectorStatus::Interpolated,
+        CorrectorStatus::GapFilled,
         CorrectorStatus::Missing,
         CorrectorStatus::Flagged,
     ];
@@ -42,6 +47,7 @@ impl CorrectorStatus {
         match self {
             CorrectorStatus::Observed => "observed",
             CorrectorStatus::Interpolated => "interpolated",
+            CorrectorStatus::GapFilled => "gap_filled",
             CorrectorStatus::Missing => "missing",
             CorrectorStatus::Flagged => "flagged",
         }
@@ -51,6 +57,7 @@ impl CorrectorStatus {
         Some(match s {
             "observed" => CorrectorStatus::Observed,
             "interpolated" => CorrectorStatus::Interpolated,
+            "gap_filled" => CorrectorStatus::GapFilled,
             "missing" => CorrectorStatus::Missing,
             "flagged" => CorrectorStatus::Flagged,
             _ => return None,
@@ -59,7 +66,7 @@ impl CorrectorStatus {
 }
 
 /// One corrector value.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Corrector {
     /// UTC seconds.
     pub t_s: f64,
@@ -72,7 +79,25 @@ pub struct Corrector {
     pub u_parts_m: Option<[f64; 5]>,
     /// How it was obtained.
     pub status: CorrectorStatus,
+    /// For a [`CorrectorStatus::GapFilled`] value, how the tide was filled (the words of the
+    /// reduced file's `status_detail`, made by the caller); `None` otherwise.
+    pub detail: Option<Arc<str>>,
 }
+
+/// Whether a zone tide found with `states` (from [`Zone::tide_at`] or
+/// [`Zone::tide_at_renormalising`]) rests on gap-filled samples or on renormalised feeds: a feed
+/// left out of the blend, or a feed whose bracketing samples include a filled one. The rule by
+/// which a sounding is `gap_filled`.
+pub fn rests_on_filled(zone: &Zone, gauges: &[Gauge], states: &[FeedState]) -> bool {
+    zone.feeds
+        .iter()
+        .zip(states)
+        .any(|(f, st)| st.missing || gauges[f.gauge].series.fill.bracket_filled(st.level.bracket))
+}
+
+/// How each part of a `gap_filled` detail about a feed left out of a renormalised blend begins
+/// (the other parts are about filled samples of a gauge). Parts are joined by `"; "`.
+pub const RENORMALISED_PART_PREFIX: &str = "feed '";
 
 /// Uncertainty inputs for [`zone_correctors`].
 #[derive(Debug, Clone, Copy)]
@@ -110,7 +135,8 @@ pub fn zone_correctors(
         .collect()
 }
 
-/// A zone's tide at one UTC time, with its status (and standard uncertainty when asked).
+/// A zone's tide at one UTC time, with its status (and standard uncertainty when asked), the
+/// feeds never renormalised ([`zone_corrector_with`]).
 pub fn zone_corrector_at(
     zone: &Zone,
     gauges: &[Gauge],
@@ -119,7 +145,30 @@ pub fn zone_corrector_at(
     t: f64,
     states: &mut Vec<FeedState>,
 ) -> Corrector {
-    match zone.tide_at(gauges, interp, t, states) {
+    zone_corrector_with(zone, gauges, interp, unc, t, states, false)
+}
+
+/// A zone's tide at one UTC time, with its status (and standard uncertainty when asked). With
+/// `renormalise`, a zone of several feeds where some have no level takes the others
+/// ([`Zone::tide_at_renormalising`]), as `ebbwise reduce` does under `[gap_fill]
+/// renormalise_feeds`. A value that [`rests_on_filled`] is [`CorrectorStatus::GapFilled`] (its
+/// `detail` left for the caller to word); `states` then holds the feeds' states.
+pub fn zone_corrector_with(
+    zone: &Zone,
+    gauges: &[Gauge],
+    interp: &dyn TimeInterpolation,
+    unc: Option<CorrectorUncertainty>,
+    t: f64,
+    states: &mut Vec<FeedState>,
+    renormalise: bool,
+) -> Corrector {
+    let found = if renormalise {
+        zone.tide_at_renormalising(gauges, interp, t, states)
+            .map(|(tide, _)| tide)
+    } else {
+        zone.tide_at(gauges, interp, t, states)
+    };
+    match found {
         Err(e) => Corrector {
             t_s: t,
             tide_m: None,
@@ -130,9 +179,13 @@ pub fn zone_corrector_at(
             } else {
                 CorrectorStatus::Missing
             },
+            detail: None,
         },
         Ok(tide) => {
             let observed = zone.feeds.iter().zip(states.iter()).all(|(f, st)| {
+                if st.missing {
+                    return false;
+                }
                 let shifted = t - f.time_corrector_min * 60.0;
                 let s = &gauges[f.gauge].series;
                 let i = st.level.bracket;
@@ -144,11 +197,14 @@ pub fn zone_corrector_at(
                 tide_m: Some(tide),
                 u_tide_m: b.map(|b| b.u_tide_m()),
                 u_parts_m: b.map(|b| b.components_m()),
-                status: if observed {
+                status: if rests_on_filled(zone, gauges, states) {
+                    CorrectorStatus::GapFilled
+                } else if observed {
                     CorrectorStatus::Observed
                 } else {
                     CorrectorStatus::Interpolated
                 },
+                detail: None,
             }
         }
     }
@@ -160,7 +216,7 @@ pub fn zone_corrector_at(
 pub const BRIDGE_TOLERANCE_S: f64 = 0.002;
 
 /// What a corrector series gives at one time.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum SeriesValue {
     /// A tide (interpolated linearly between two rows), with its uncertainty when both rows
     /// carry it and its components.
@@ -169,6 +225,8 @@ pub enum SeriesValue {
         tide_m: f64,
         /// Uncertainty interpolated the same way.
         carried_u: Option<CarriedTideU>,
+        /// How the tide was gap-filled, when it rests on a `gap_filled` row ([`series_value`]).
+        filled: Option<Arc<str>>,
     },
     /// No value: outside the series or next to a row without a tide.
     None {
@@ -184,6 +242,48 @@ pub enum SeriesValue {
     },
 }
 
+/// The detail of a `gap_filled` row (a fixed wording when the file gave none), `None` for a row
+/// of another status.
+fn filled_detail(c: &Corrector) -> Option<Arc<str>> {
+    (c.status == CorrectorStatus::GapFilled).then(|| {
+        c.detail
+            .clone()
+            .unwrap_or_else(|| Arc::from("the correction file marks this tide gap_filled"))
+    })
+}
+
+/// Between two rows `a` and `b`: a tide interpolated from them rests on filled samples when the
+/// samples bracketing `a` do (the bracket is the same at every time from `a` up to `b` when the
+/// time-corrected samples fall on the grid), or when a feed has no level just after `a` (its gap
+/// opens at `a` itself, so `b` says so and `a` does not): then the parts of `b`'s detail about
+/// renormalised feeds.
+fn filled_between(a: &Corrector, b: &Corrector) -> Option<Arc<str>> {
+    if let Some(d) = filled_detail(a) {
+        return Some(d);
+    }
+    let d = filled_detail(b)?;
+    let parts: Vec<&str> = d
+        .split("; ")
+        .filter(|p| p.starts_with(RENORMALISED_PART_PREFIX))
+        .collect();
+    if parts.is_empty() {
+        None
+    } else if parts.len() == d.split("; ").count() {
+        Some(d)
+    } else {
+        Some(Arc::from(parts.join("; ")))
+    }
+}
+
+/// Whether a `gap_filled` row's tide left a feed out (a renormalised blend).
+fn has_renormalised(c: &Corrector) -> bool {
+    c.status == CorrectorStatus::GapFilled
+        && c.detail.as_deref().is_some_and(|d| {
+            d.split("; ")
+                .any(|p| p.starts_with(RENORMALISED_PART_PREFIX))
+        })
+}
+
 fn carried(c: &Corrector) -> Option<CarriedTideU> {
     Some(CarriedTideU {
         u_tide_m: c.u_tide_m?,
@@ -193,8 +293,10 @@ fn carried(c: &Corrector) -> Option<CarriedTideU> {
 
 /// The value of a corrector series (sorted by time) at `t_s`: a row's own value at its time;
 /// between two rows at most `max_step_s` (+ [`BRIDGE_TOLERANCE_S`]) apart, the tide and each
-/// uncertainty interpolated linearly; next to a row without a tide, outside the series, or
-/// between rows further apart, none.
+/// uncertainty interpolated linearly (each uncertainty the larger of the two rows' where one
+/// row's blend left a feed out and the other's did not); next to a row without a tide, outside the series, or
+/// between rows further apart, none. A tide at a `gap_filled` row's time is filled with that
+/// row's detail; between two rows, see [`filled_between`].
 pub fn series_value(series: &[Corrector], t_s: f64, max_step_s: f64) -> SeriesValue {
     let i = series.partition_point(|c| c.t_s <= t_s);
     let flagged = |k: Option<usize>| {
@@ -213,6 +315,7 @@ pub fn series_value(series: &[Corrector], t_s: f64, max_step_s: f64) -> SeriesVa
             Some(tide_m) => SeriesValue::Tide {
                 tide_m,
                 carried_u: carried(a),
+                filled: filled_detail(a),
             },
             None => none,
         };
@@ -232,6 +335,17 @@ pub fn series_value(series: &[Corrector], t_s: f64, max_step_s: f64) -> SeriesVa
     let f = (t_s - a.t_s) / (b.t_s - a.t_s);
     let lerp = |x: f64, y: f64| x + (y - x) * f;
     let carried_u = match (carried(a), carried(b)) {
+        // At an edge of a renormalised stretch the budget changes between the rows (a feed is
+        // left out just after one of them, and the blends' disagreement joins the gauge
+        // component): each component is carried as the larger of the two rows', never an
+        // interpolation that would halve the step.
+        (Some(ua), Some(ub)) if has_renormalised(a) != has_renormalised(b) => {
+            let parts_m: [f64; 5] = std::array::from_fn(|k| ua.parts_m[k].max(ub.parts_m[k]));
+            Some(CarriedTideU {
+                u_tide_m: parts_m.iter().map(|x| x * x).sum::<f64>().sqrt(),
+                parts_m,
+            })
+        }
         (Some(ua), Some(ub)) => Some(CarriedTideU {
             u_tide_m: lerp(ua.u_tide_m, ub.u_tide_m),
             parts_m: std::array::from_fn(|k| lerp(ua.parts_m[k], ub.parts_m[k])),
@@ -241,6 +355,7 @@ pub fn series_value(series: &[Corrector], t_s: f64, max_step_s: f64) -> SeriesVa
     SeriesValue::Tide {
         tide_m: lerp(ta, tb),
         carried_u,
+        filled: filled_between(a, b),
     }
 }
 
@@ -297,10 +412,15 @@ impl TideModel for ZoneSeriesModel<'_> {
             return TideOutcome::Outside;
         };
         match series_value(&self.series[zone], t_s, self.step_s[zone]) {
-            SeriesValue::Tide { tide_m, carried_u } => TideOutcome::Tide {
+            SeriesValue::Tide {
+                tide_m,
+                carried_u,
+                filled,
+            } => TideOutcome::Tide {
                 zone,
                 tide_m,
                 carried_u,
+                filled,
             },
             SeriesValue::Unbridged { from_s, to_s } => TideOutcome::Unbridged {
                 zone: Some(zone),
@@ -389,10 +509,18 @@ impl TideModel for LineSeriesModel {
         };
         let zone = nearest.and_then(|k| ls.zones[k]);
         match (series_value(series, t_s, ls.step_s), zone) {
-            (SeriesValue::Tide { tide_m, carried_u }, Some(zone)) => TideOutcome::Tide {
+            (
+                SeriesValue::Tide {
+                    tide_m,
+                    carried_u,
+                    filled,
+                },
+                Some(zone),
+            ) => TideOutcome::Tide {
                 zone,
                 tide_m,
                 carried_u,
+                filled,
             },
             (SeriesValue::Unbridged { from_s, to_s }, _) => TideOutcome::Unbridged {
                 zone,
@@ -418,7 +546,7 @@ impl TideModel for LineSeriesModel {
 }
 
 /// What a per-sounding correction row says.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum SoundingCorrection {
     /// A tide for the sounding, in a zone.
     Tide {
@@ -428,6 +556,8 @@ pub enum SoundingCorrection {
         tide_m: f64,
         /// Its uncertainty, when the row carries it and its components.
         carried_u: Option<CarriedTideU>,
+        /// The row's status was `gap_filled`: its detail (how the tide was filled).
+        filled: Option<Arc<str>>,
     },
     /// The sounding was outside every zone.
     Outside,
@@ -514,10 +644,12 @@ impl TideModel for SoundingTableModel {
                 zone,
                 tide_m,
                 carried_u,
+                filled,
             }) => TideOutcome::Tide {
                 zone: *zone,
                 tide_m: *tide_m,
                 carried_u: *carried_u,
+                filled: filled.clone(),
             },
             Some(SoundingCorrection::Outside) => TideOutcome::Outside,
             Some(SoundingCorrection::None { zone, flagged }) => TideOutcome::NoCorrection {
@@ -566,7 +698,11 @@ mod tests {
             // Summaries count statuses in an array indexed by the discriminant.
             assert_eq!(*s as usize, i);
         }
-        assert_eq!(CorrectorStatus::parse("gap_filled"), None);
+        assert_eq!(
+            CorrectorStatus::parse("gap_filled"),
+            Some(CorrectorStatus::GapFilled)
+        );
+        assert_eq!(CorrectorStatus::parse("filled"), None);
     }
     use crate::compute::series::{LevelSeries, Linear};
     use crate::compute::zoning::{GaugeFeed, MeanLevelForm};
@@ -634,6 +770,7 @@ mod tests {
             u_tide_m: Some(u),
             u_parts_m: Some([u, 0.0, 0.0, 0.0, 0.0]),
             status: CorrectorStatus::Interpolated,
+            detail: None,
         }
     }
 
@@ -649,7 +786,9 @@ mod tests {
         assert_eq!(modal_step_s(&s), Some(60.0));
         // Within a step: the tide and each uncertainty interpolated linearly.
         match series_value(&s, 30.0, 60.0) {
-            SeriesValue::Tide { tide_m, carried_u } => {
+            SeriesValue::Tide {
+                tide_m, carried_u, ..
+            } => {
                 assert!((tide_m - 1.1).abs() < 1e-12);
                 let c = carried_u.unwrap();
                 assert!((c.u_tide_m - 0.15).abs() < 1e-12);
@@ -694,5 +833,144 @@ mod tests {
             }
         ));
         assert_eq!(modal_step_s(&s[..1]), None);
+    }
+
+    /// A one-feed zone on a record whose samples at 120 s and 180 s were filled: a grid time is
+    /// `gap_filled` exactly when a sounding at that time would be (its bracketing samples include
+    /// a filled one, the rule of `FillMarks::bracket_filled`); the others keep their statuses.
+    #[test]
+    fn a_value_on_filled_samples_is_gap_filled() {
+        let mut g = gauge();
+        g.series.times_s = vec![0.0, 60.0, 120.0, 180.0, 240.0, 300.0];
+        g.series.heights_m = vec![1.0, 1.1, 1.2, 1.3, 1.4, 1.5];
+        g.series.fill.filled = vec![false, false, true, true, false, false];
+        g.series.fill.u_fill_m = vec![0.0, 0.0, 0.02, 0.02, 0.0, 0.0];
+        let g = vec![g];
+        let c = zone_correctors(&zone(0.0), &g, &Linear, None, 0.0, 30.0, 11);
+        let words: Vec<&str> = c.iter().map(|x| x.status.as_str()).collect();
+        // Brackets (by sample index): 0-1, 0-1, 1-2, 1-2, 2-3, 2-3, 3-4, 3-4, 4-5, 4-5, 4-5.
+        assert_eq!(
+            words,
+            [
+                "observed",
+                "interpolated",
+                "gap_filled",
+                "gap_filled",
+                "gap_filled",
+                "gap_filled",
+                "gap_filled",
+                "gap_filled",
+                "observed",
+                "interpolated",
+                "observed"
+            ]
+        );
+        // The tide is the one the samples give, filled or not: 1.0 + 0.1 per minute.
+        assert!((c[5].tide_m.unwrap() - 1.25).abs() < 1e-12);
+        assert!(c.iter().all(|x| x.detail.is_none()), "worded by the caller");
+    }
+
+    /// Two feeds, one without samples after 600 s: renormalised, the zone keeps a tide there
+    /// from the other (`gap_filled`); without renormalisation the value is missing.
+    #[test]
+    fn renormalised_feeds_give_a_gap_filled_value_and_missing_without() {
+        let a = gauge();
+        let mut b = gauge();
+        b.id = "h".into();
+        b.series.times_s = vec![0.0, 300.0, 600.0];
+        b.series.heights_m = vec![1.0, 1.0, 1.0];
+        let g = vec![a, b];
+        let mut z = zone(0.0);
+        z.feeds.push(GaugeFeed {
+            gauge: 1,
+            weight: 1.0,
+            time_corrector_min: 0.0,
+            range_ratio: 1.0,
+        });
+        for f in &mut z.feeds {
+            f.weight = 0.5;
+        }
+        let mut st = Vec::new();
+        let c = zone_corrector_with(&z, &g, &Linear, None, 720.0, &mut st, true);
+        assert_eq!(c.status, CorrectorStatus::GapFilled);
+        // The first feed alone, weight renormalised to 1: its sample at 720 s, 1.3 m.
+        assert!((c.tide_m.unwrap() - 1.3).abs() < 1e-12);
+        assert!(st[1].missing);
+        let c = zone_corrector_with(&z, &g, &Linear, None, 720.0, &mut st, false);
+        assert_eq!(c.status, CorrectorStatus::Missing);
+        // Both feeds present (0 s): observed, as without renormalisation.
+        let c = zone_corrector_with(&z, &g, &Linear, None, 0.0, &mut st, true);
+        assert_eq!(c.status, CorrectorStatus::Observed);
+    }
+
+    fn filled_row(t_s: f64, tide: f64, detail: Option<&str>) -> Corrector {
+        Corrector {
+            status: if detail.is_some() {
+                CorrectorStatus::GapFilled
+            } else {
+                CorrectorStatus::Interpolated
+            },
+            detail: detail.map(Arc::from),
+            ..row(t_s, tide, 0.1)
+        }
+    }
+
+    fn filled_at(series: &[Corrector], t_s: f64) -> Option<String> {
+        match series_value(series, t_s, 60.0) {
+            SeriesValue::Tide { filled, .. } => filled.map(|d| d.to_string()),
+            v => panic!("{v:?}"),
+        }
+    }
+
+    /// Between two rows the tide is filled when the earlier row is (its detail), or when the
+    /// later row has a renormalised feed (only those parts of its detail: a gap that opens at the
+    /// earlier row's own time); at a row's time, that row's detail.
+    #[test]
+    fn a_filled_row_carries_its_detail_to_the_soundings_it_reaches() {
+        let fill = "gauge 'g' level filled by neighbour from gauge 'k' across 2026-06-14T13:10:00Z to 2026-06-14T14:00:00Z";
+        let renorm = "feed 'h' has no level: tide from g with weights renormalised";
+        let both = format!("{fill}; {renorm}");
+        let s = vec![
+            filled_row(0.0, 1.0, None),
+            filled_row(60.0, 1.1, Some(fill)),
+            filled_row(120.0, 1.2, None),
+            filled_row(180.0, 1.3, Some(&both)),
+            filled_row(240.0, 1.4, Some(renorm)),
+            filled_row(300.0, 1.5, None),
+        ];
+        // Before a row whose samples were filled: not filled (the bracket is the earlier one).
+        assert_eq!(filled_at(&s, 30.0), None);
+        assert_eq!(filled_at(&s, 60.0).as_deref(), Some(fill));
+        assert_eq!(filled_at(&s, 90.0).as_deref(), Some(fill));
+        // After an unfilled row, before one with both kinds: the renormalised part only.
+        assert_eq!(filled_at(&s, 150.0).as_deref(), Some(renorm));
+        assert_eq!(filled_at(&s, 180.0).as_deref(), Some(both.as_str()));
+        assert_eq!(filled_at(&s, 210.0).as_deref(), Some(both.as_str()));
+        assert_eq!(filled_at(&s, 270.0).as_deref(), Some(renorm));
+        assert_eq!(filled_at(&s, 300.0), None);
+        // Between a renormalised row and one that is not, each uncertainty is the larger of the
+        // two rows' (u 0.1 everywhere here but at 240 s); elsewhere interpolated.
+        let mut w = s.clone();
+        w[4].u_tide_m = Some(0.3);
+        w[4].u_parts_m = Some([0.3, 0.0, 0.0, 0.0, 0.0]);
+        let u_at = |t_s: f64| match series_value(&w, t_s, 60.0) {
+            SeriesValue::Tide {
+                carried_u: Some(c), ..
+            } => (c.u_tide_m, c.parts_m[0]),
+            v => panic!("{v:?}"),
+        };
+        // 210 s: rows at 180 s and 240 s both renormalised, interpolated half-way.
+        assert!((u_at(210.0).0 - 0.2).abs() < 1e-12);
+        // 270 s: 240 s renormalised, 300 s not: the larger.
+        assert_eq!(u_at(270.0), (0.3, 0.3));
+        // 150 s: 120 s not, 180 s renormalised: both 0.1.
+        assert_eq!(u_at(150.0), (0.1, 0.1));
+        // A gap_filled row without a detail (a file edited by hand) still marks the tide.
+        let mut t = s.clone();
+        t[1].detail = None;
+        assert_eq!(
+            filled_at(&t, 90.0).as_deref(),
+            Some("the correction file marks this tide gap_filled")
+        );
     }
 }

@@ -115,6 +115,10 @@ pub enum TideOutcome {
         /// The tide's standard uncertainty as a source gave it (a correction file); `None` when
         /// the model computes it from the gauges (or the source has none).
         carried_u: Option<CarriedTideU>,
+        /// A source that says the tide rests on gap-filled gauge samples (a correction file's
+        /// `gap_filled` row) gives how, in the words of `status_detail`; `None` from a model
+        /// that reads the gauges (the run tells a filled tide from the gauge states).
+        filled: Option<std::sync::Arc<str>>,
     },
     /// The place is outside the model's area.
     Outside,
@@ -232,6 +236,7 @@ impl TideModel for DiscreteZoning<'_> {
                 zone,
                 tide_m,
                 carried_u: None,
+                filled: None,
             },
             Err(why) => TideOutcome::NoData { zone, why },
         }
@@ -335,7 +340,8 @@ mod tests {
             TideOutcome::Tide {
                 zone: 0,
                 tide_m: 1.5,
-                carried_u: None
+                carried_u: None,
+                filled: None,
             }
         );
         assert_eq!(

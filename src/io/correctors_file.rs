@@ -7,12 +7,13 @@
 //! `line,time_utc,source_file,source_line,zone,tide_m,u_tide_m,status`.
 //! Per-line file (`correctors-lines.csv`): `line,time_utc,zone,tide_m,u_tide_m,status`.
 //! Every file of layout 3 appends the five components of `u_tide_m` after `status`
-//! ([`U_PART_COLUMNS`]); the reader also accepts layout 2, without them.
+//! ([`U_PART_COLUMNS`]), and layout 4 then `status_detail` (how a `gap_filled` tide was
+//! filled); the reader also accepts layouts 3 and 2, without them.
 //! Times are ISO 8601 UTC to the millisecond (to the microsecond when a sounding's time is finer);
 //! `tide_m` is the water level above chart datum in metres, positive up, with 4 decimals, and
 //! `u_tide_m` its standard uncertainty (1σ, 4 decimals, empty when not computed), as in the
-//! reduced files; `status` is `observed`, `interpolated`, `missing` or `flagged` (per zone and per
-//! line) or the sounding's status (per sounding). A missing value leaves the tide empty: nothing
+//! reduced files; `status` is `observed`, `interpolated`, `gap_filled`, `missing` or `flagged`
+//! (per zone and per line) or the sounding's status (per sounding). A missing value leaves the tide empty: nothing
 //! is invented.
 
 use std::collections::HashMap;
@@ -27,7 +28,11 @@ use super::timefmt::{parse_time, push_utc, TimeFormat};
 use crate::compute::correctors::{
     sounding_key, Corrector, CorrectorStatus, KeyClashes, SoundingCorrection,
 };
-use crate::compute::reduce::CarriedTideU;
+use crate::compute::reduce::{CarriedTideU, SoundingStatus};
+
+/// The last column of every correction file of layout 4: for a `gap_filled` row, how its tide was
+/// filled, in the words of the reduced file's `status_detail`; empty on every other row.
+pub const DETAIL_COLUMN: &str = "status_detail";
 
 /// The five components of `u_tide_m`, appended after `status` in every correction file (layout
 /// 3), in the order of the reduced file's uncertainty columns.
@@ -40,7 +45,7 @@ pub const U_PART_COLUMNS: [&str; 5] = [
 ];
 
 /// Columns of the per-zone file.
-pub const ZONE_CORRECTOR_COLUMNS: [&str; 10] = [
+pub const ZONE_CORRECTOR_COLUMNS: [&str; 11] = [
     "zone",
     "time_utc",
     "tide_m",
@@ -51,10 +56,11 @@ pub const ZONE_CORRECTOR_COLUMNS: [&str; 10] = [
     U_PART_COLUMNS[2],
     U_PART_COLUMNS[3],
     U_PART_COLUMNS[4],
+    DETAIL_COLUMN,
 ];
 
 /// Columns of a per-sounding corrector file, in order.
-pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 13] = [
+pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 14] = [
     "line",
     "time_utc",
     "source_file",
@@ -68,10 +74,11 @@ pub const SOUNDING_CORRECTOR_COLUMNS: [&str; 13] = [
     U_PART_COLUMNS[2],
     U_PART_COLUMNS[3],
     U_PART_COLUMNS[4],
+    DETAIL_COLUMN,
 ];
 
 /// Columns of a per-line corrector file, in order.
-pub const LINE_CORRECTOR_COLUMNS: [&str; 11] = [
+pub const LINE_CORRECTOR_COLUMNS: [&str; 12] = [
     "line",
     "time_utc",
     "zone",
@@ -83,11 +90,13 @@ pub const LINE_CORRECTOR_COLUMNS: [&str; 11] = [
     U_PART_COLUMNS[2],
     U_PART_COLUMNS[3],
     U_PART_COLUMNS[4],
+    DETAIL_COLUMN,
 ];
 
-/// Identifier of the correction-file layout (in the sidecar). Layout 2 had the same columns
-/// without the five components; the reader accepts it (components empty).
-pub const CORRECTORS_FORMAT: &str = "ebbwise-tide-correctors/3";
+/// Identifier of the correction-file layout (in the sidecar). Layout 3 had the same columns
+/// without `status_detail` and no `gap_filled` rows in per-zone and per-line files, layout 2 also
+/// no five components; the reader accepts both (detail and components empty).
+pub const CORRECTORS_FORMAT: &str = "ebbwise-tide-correctors/4";
 
 /// SHA-256 of a file, lowercase hex.
 pub fn sha256_file(path: &Path) -> Result<String, IoError> {
@@ -104,7 +113,8 @@ pub fn sha256_file(path: &Path) -> Result<String, IoError> {
     Ok(h.finalize().iter().map(|b| format!("{b:02x}")).collect())
 }
 
-/// Writes the per-zone rows for one zone into `out`: `zone,time_utc,tide_m,u_tide_m,status`.
+/// Writes the per-zone rows for one zone into `out`: `zone,time_utc,tide_m,u_tide_m,status`,
+/// the five components and `status_detail`.
 pub fn push_zone_rows(out: &mut String, zone: &str, rows: &[Corrector]) {
     for c in rows {
         super::soundings::push_csv_field_string(out, zone);
@@ -114,7 +124,8 @@ pub fn push_zone_rows(out: &mut String, zone: &str, rows: &[Corrector]) {
     }
 }
 
-/// Writes one per-line row: `line,time_utc,zone,tide_m,u_tide_m,status`.
+/// Writes one per-line row: `line,time_utc,zone,tide_m,u_tide_m,status`, the five components and
+/// `status_detail`.
 pub fn push_line_row(out: &mut String, line: &str, zone: Option<&str>, c: &Corrector) {
     super::soundings::push_csv_field_string(out, line);
     out.push(',');
@@ -126,7 +137,7 @@ pub fn push_line_row(out: &mut String, line: &str, zone: Option<&str>, c: &Corre
     push_corrector_tail(out, c);
 }
 
-/// `,tide_m,u_tide_m,status,<five components>` and the line end.
+/// `,tide_m,u_tide_m,status,<five components>,status_detail` and the line end.
 fn push_corrector_tail(out: &mut String, c: &Corrector) {
     out.push(',');
     if let Some(t) = c.tide_m {
@@ -139,6 +150,10 @@ fn push_corrector_tail(out: &mut String, c: &Corrector) {
     out.push(',');
     out.push_str(c.status.as_str());
     push_u_parts(out, c.u_parts_m.as_ref());
+    out.push(',');
+    if let Some(d) = &c.detail {
+        super::soundings::push_csv_field_string(out, d);
+    }
     out.push('\n');
 }
 
@@ -168,6 +183,8 @@ pub struct SoundingRow {
     pub u_tide_m: Option<f64>,
     /// Its five components, metres.
     pub u_parts_m: Option<[f64; 5]>,
+    /// How a `gap_filled` tide was filled (`status_detail`; `None` when empty).
+    pub detail: Option<String>,
 }
 
 /// Per-sounding rows keyed by (line, time in µs).
@@ -185,11 +202,43 @@ pub enum CorrectionFile {
     Lines(HashMap<String, Vec<(Corrector, Option<String>)>>),
 }
 
-/// Whether the header is `cols` (layout 3) or `cols` without the five trailing components
-/// (layout 2).
+/// Whether the header is `cols` (layout 4), `cols` without the trailing `status_detail`
+/// (layout 3), or without it and the five components before it (layout 2).
 fn header_is(h: &csv::StringRecord, cols: &[&str]) -> bool {
-    let v2 = cols.len() - U_PART_COLUMNS.len();
-    (h.len() == cols.len() || h.len() == v2) && h.iter().zip(cols).all(|(a, b)| a == *b)
+    let v3 = cols.len() - 1;
+    let v2 = v3 - U_PART_COLUMNS.len();
+    (h.len() == cols.len() || h.len() == v3 || h.len() == v2)
+        && h.iter().zip(cols).all(|(a, b)| a == *b)
+}
+
+/// The per-zone or per-line status at field `i`, and the `status_detail` at field `detail`
+/// (absent before layout 4): a detail only on a `gap_filled` row.
+fn corrector_status(
+    rec: &csv::StringRecord,
+    i: usize,
+    detail: usize,
+    at: &dyn Fn(&str) -> Position,
+) -> Result<(CorrectorStatus, Option<std::sync::Arc<str>>), IoError> {
+    let status = CorrectorStatus::parse(&rec[i]).ok_or_else(|| {
+        IoError::content(
+            at("status"),
+            format!(
+                "expected observed, interpolated, gap_filled, missing or flagged, found '{}'",
+                &rec[i]
+            ),
+        )
+    })?;
+    let d = rec.get(detail).filter(|d| !d.is_empty());
+    if d.is_some() && status != CorrectorStatus::GapFilled {
+        return Err(IoError::content(
+            at(DETAIL_COLUMN),
+            format!(
+                "a status_detail is given only on a gap_filled row, found one on a '{}' row",
+                status.as_str()
+            ),
+        ));
+    }
+    Ok((status, d.map(std::sync::Arc::from)))
 }
 
 /// The five components from fields `first..first + 5` (absent in layout 2): all given, or
@@ -215,6 +264,20 @@ fn u_parts(
             "the five uncertainty components must be given together (or all left empty)",
         )),
     }
+}
+
+/// Whether the correction file's header ends with [`DETAIL_COLUMN`] (layout 4): a file of an
+/// earlier layout cannot mark a tide `gap_filled`. `false` when the header cannot be read (the
+/// reader then says why).
+pub fn has_detail_column(path: &Path) -> bool {
+    let Ok(f) = std::fs::File::open(path) else {
+        return false;
+    };
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .from_reader(std::io::BufReader::new(f));
+    rdr.headers()
+        .is_ok_and(|h| h.iter().next_back() == Some(DETAIL_COLUMN))
 }
 
 /// Reads a correction file of either kind (told apart by its header line).
@@ -287,15 +350,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
         if zones {
             let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
                 .map_err(|m| IoError::content(at("time_utc"), m))?;
-            let status = CorrectorStatus::parse(&rec[4]).ok_or_else(|| {
-                IoError::content(
-                    at("status"),
-                    format!(
-                        "expected observed, interpolated, missing or flagged, found '{}'",
-                        &rec[4]
-                    ),
-                )
-            })?;
+            let (status, detail) = corrector_status(&rec, 4, 10, &at)?;
             let tide = opt_num(2, "tide_m")?;
             if tide.is_none()
                 != matches!(status, CorrectorStatus::Missing | CorrectorStatus::Flagged)
@@ -319,6 +374,7 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
                 u_tide_m,
                 u_parts_m,
                 status,
+                detail,
             });
         } else {
             if rec[1].is_empty() {
@@ -330,12 +386,33 @@ pub fn parse_correction_file<R: Read>(reader: R, path: &Path) -> Result<Correcti
             let zone = (!rec[4].is_empty()).then(|| rec[4].to_string());
             let tide = opt_num(5, "tide_m")?;
             let (u_tide_m, u_parts_m) = carried_uncertainty(&rec, 6, 8, &at)?;
+            let Some(word) = SoundingStatus::ALL
+                .iter()
+                .map(|s| s.as_str())
+                .find(|w| *w == &rec[7])
+            else {
+                let words: Vec<&str> = SoundingStatus::ALL.iter().map(|s| s.as_str()).collect();
+                return Err(IoError::content(
+                    at("status"),
+                    format!("expected {}, found '{}'", words.join(", "), &rec[7]),
+                ));
+            };
+            let detail = rec.get(13).filter(|d| !d.is_empty()).map(str::to_string);
+            if detail.is_some() && word != SoundingStatus::GapFilled.as_str() {
+                return Err(IoError::content(
+                    at(DETAIL_COLUMN),
+                    format!(
+                        "a status_detail is given only on a gap_filled row, found one on a '{word}' row"
+                    ),
+                ));
+            }
             let row = SoundingRow {
                 zone,
                 tide_m: tide,
-                status: rec[7].to_string(),
+                status: word.to_string(),
                 u_tide_m,
                 u_parts_m,
+                detail,
             };
             if let Some(prev) = by_sounding.insert(sounding_key(&rec[0], t), row.clone()) {
                 if prev != row {
@@ -376,15 +453,7 @@ fn parse_line_rows<R: Read>(
         let num = |i: usize, name: &str| optional_metres(&rec, i, &at(name));
         let t = parse_time(&rec[1], TimeFormat::Iso8601, None)
             .map_err(|m| IoError::content(at("time_utc"), m))?;
-        let status = CorrectorStatus::parse(&rec[5]).ok_or_else(|| {
-            IoError::content(
-                at("status"),
-                format!(
-                    "expected observed, interpolated, missing or flagged, found '{}'",
-                    &rec[5]
-                ),
-            )
-        })?;
+        let (status, detail) = corrector_status(&rec, 5, 11, &at)?;
         let tide = num(3, "tide_m")?;
         if tide.is_none() != matches!(status, CorrectorStatus::Missing | CorrectorStatus::Flagged) {
             return Err(IoError::content(
@@ -408,6 +477,7 @@ fn parse_line_rows<R: Read>(
                 u_tide_m,
                 u_parts_m,
                 status,
+                detail,
             },
             zone,
         ));
@@ -553,24 +623,31 @@ pub fn sounding_corrections(
                 status,
                 u_tide_m,
                 u_parts_m,
+                detail,
             } = row;
             let z = zone.as_deref().and_then(|z| index.get(z).copied());
             let carried_u = match (u_tide_m, u_parts_m) {
                 (Some(u_tide_m), Some(parts_m)) => Some(CarriedTideU { u_tide_m, parts_m }),
                 _ => None,
             };
-            let v = match (z, tide) {
-                (Some(zone), Some(tide_m)) => SoundingCorrection::Tide {
-                    zone,
-                    tide_m,
-                    carried_u,
-                },
-                _ if status == "outside_zoning" => SoundingCorrection::Outside,
-                _ => SoundingCorrection::None {
-                    zone: z,
-                    flagged: status == "gauge_flagged",
-                },
-            };
+            let v =
+                match (z, tide) {
+                    (Some(zone), Some(tide_m)) => SoundingCorrection::Tide {
+                        zone,
+                        tide_m,
+                        carried_u,
+                        filled: (status == SoundingStatus::GapFilled.as_str()).then(|| {
+                            std::sync::Arc::from(detail.as_deref().unwrap_or(
+                                "the correction file marks this sounding's tide gap_filled",
+                            ))
+                        }),
+                    },
+                    _ if status == "outside_zoning" => SoundingCorrection::Outside,
+                    _ => SoundingCorrection::None {
+                        zone: z,
+                        flagged: status == "gauge_flagged",
+                    },
+                };
             (k, v)
         })
         .collect()
@@ -595,7 +672,7 @@ mod tests {
         assert_eq!(m["Z"][0].u_parts_m, None);
         let v3 = format!(
             "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0742,observed,0.0100,0.0200,0.0300,0.0400,0.0500\n",
-            ZONE_CORRECTOR_COLUMNS.join(",")
+            ZONE_CORRECTOR_COLUMNS[..10].join(",")
         );
         let CorrectionFile::Zones(m) = parse(&v3).unwrap() else {
             panic!("per zone")
@@ -604,7 +681,7 @@ mod tests {
         // Some components but not all: refused at the line and the first component's column.
         let bad = format!(
             "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,0.0100,,0.0300,0.0400,0.0500\n",
-            ZONE_CORRECTOR_COLUMNS.join(",")
+            ZONE_CORRECTOR_COLUMNS[..10].join(",")
         );
         let e = parse(&bad).unwrap_err().to_string();
         assert!(e.contains("c.csv:2") && e.contains("u_tide_gauge_m"), "{e}");
@@ -617,7 +694,7 @@ mod tests {
         assert_eq!((row.u_tide_m, row.u_parts_m), (Some(0.08), None));
         let s3 = format!(
             "{}\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,0.0742,reduced,0.0100,0.0200,0.0300,0.0400,0.0500\n",
-            SOUNDING_CORRECTOR_COLUMNS.join(",")
+            SOUNDING_CORRECTOR_COLUMNS[..13].join(",")
         );
         let CorrectionFile::Soundings(r) = parse(&s3).unwrap() else {
             panic!("per sounding")
@@ -631,7 +708,7 @@ mod tests {
     fn zone_row(u: &str, parts: &str) -> String {
         format!(
             "{}\nZ,2026-06-14T00:00:00Z,1.2000,{u},observed,{parts}\n",
-            ZONE_CORRECTOR_COLUMNS.join(",")
+            ZONE_CORRECTOR_COLUMNS[..10].join(",")
         )
     }
 
@@ -653,13 +730,13 @@ mod tests {
         // The same refusal in the per-line and per-sounding files.
         let l = format!(
             "{}\nL,2026-06-14T00:00:00Z,Z,1.2000,0.0800,observed,0.0100,0.0200,0.0300,-0.0400,0.0500\n",
-            LINE_CORRECTOR_COLUMNS.join(",")
+            LINE_CORRECTOR_COLUMNS[..11].join(",")
         );
         let e = parse(&l).unwrap_err().to_string();
         assert!(e.contains("c.csv:2: field 'u_tide_timing_m'"), "{e}");
         let s = format!(
             "{}\nL,2026-06-14T00:00:00Z,s.csv,2,Z,1.2000,-0.0800,reduced,,,,,\n",
-            SOUNDING_CORRECTOR_COLUMNS.join(",")
+            SOUNDING_CORRECTOR_COLUMNS[..13].join(",")
         );
         let e = parse(&s).unwrap_err().to_string();
         assert!(e.contains("c.csv:2: field 'u_tide_m'"), "{e}");
@@ -678,7 +755,7 @@ mod tests {
         // A value clearly from another budget: refused in the per-line file too.
         let l = format!(
             "{}\nL,2026-06-14T00:00:00Z,Z,1.2000,0.0800,observed,{parts}\n",
-            LINE_CORRECTOR_COLUMNS.join(",")
+            LINE_CORRECTOR_COLUMNS[..11].join(",")
         );
         let e = parse(&l).unwrap_err().to_string();
         assert!(
@@ -693,7 +770,7 @@ mod tests {
     fn a_row_with_another_number_of_fields_names_its_line_and_both_counts() {
         let text = format!(
             "{}\nZ,2026-06-14T00:00:00Z,1.2000,0.0800,observed,,,,,\nZ,2026-06-14T00:10:00Z,1.2000,0.0800,observed,,,,,,\n",
-            ZONE_CORRECTOR_COLUMNS.join(",")
+            ZONE_CORRECTOR_COLUMNS[..10].join(",")
         );
         let e = parse(&text).unwrap_err().to_string();
         assert_eq!(e, "c.csv:3: the row has 11 fields, the header 10");
@@ -703,14 +780,14 @@ mod tests {
     fn the_first_line_of_each_zone_is_found_in_every_kind_of_file() {
         let zones = format!(
             "{}\nA,2026-06-14T00:00:00Z,1.2000,,observed,,,,,\nB,2026-06-14T00:00:00Z,1.1000,,observed,,,,,\nB,2026-06-14T00:10:00Z,1.1000,,observed,,,,,\n",
-            ZONE_CORRECTOR_COLUMNS.join(",")
+            ZONE_CORRECTOR_COLUMNS[..10].join(",")
         );
         assert_eq!(first_line_of_zone(zones.as_bytes(), "B"), Some(3));
         assert_eq!(first_line_of_zone(zones.as_bytes(), "A"), Some(2));
         assert_eq!(first_line_of_zone(zones.as_bytes(), "C"), None);
         let lines = format!(
             "{}\nL,2026-06-14T00:00:00Z,A,1.2000,,observed,,,,,\nL,2026-06-14T00:10:00Z,B,1.2000,,observed,,,,,\n",
-            LINE_CORRECTOR_COLUMNS.join(",")
+            LINE_CORRECTOR_COLUMNS[..11].join(",")
         );
         assert_eq!(first_line_of_zone(lines.as_bytes(), "B"), Some(3));
         let dir = tempfile::tempdir().unwrap();
@@ -723,6 +800,86 @@ mod tests {
         assert_eq!(
             zone_position(&p, "C").to_string(),
             format!("{}: field 'zone'", p.display())
+        );
+    }
+
+    /// Layout 4: a `gap_filled` row reads back with its detail, in each kind of file; layout 3
+    /// (no `status_detail` column) still reads; a detail on another row, and a per-sounding status
+    /// that is no sounding status, are refused at their line and field.
+    #[test]
+    fn gap_filled_rows_read_back_with_their_detail_and_bad_words_are_refused() {
+        let detail = "gauge 'g' level filled by neighbour from gauge 'k' across 2026-06-14T13:10:00Z to 2026-06-14T14:00:00Z";
+        let z = format!(
+            "{}\nZ,2026-06-14T13:20:00Z,1.2000,,gap_filled,,,,,,{detail}\nZ,2026-06-14T13:21:00Z,1.2100,,interpolated,,,,,,\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        );
+        let CorrectionFile::Zones(m) = parse(&z).unwrap() else {
+            panic!("per zone")
+        };
+        assert_eq!(m["Z"][0].status, CorrectorStatus::GapFilled);
+        assert_eq!(m["Z"][0].detail.as_deref(), Some(detail));
+        assert_eq!(m["Z"][1].detail, None);
+        // Layout 3: the header without status_detail.
+        let v3 = format!(
+            "{}\nZ,2026-06-14T13:20:00Z,1.2000,,gap_filled,,,,,\n",
+            ZONE_CORRECTOR_COLUMNS[..10].join(",")
+        );
+        let CorrectionFile::Zones(m) = parse(&v3).unwrap() else {
+            panic!("per zone")
+        };
+        assert_eq!(
+            (m["Z"][0].status, m["Z"][0].detail.is_none()),
+            (CorrectorStatus::GapFilled, true)
+        );
+        // A gap_filled row gives a tide, like observed and interpolated ones.
+        let e = parse(&format!(
+            "{}\nZ,2026-06-14T13:20:00Z,,,gap_filled,,,,,,{detail}\n",
+            ZONE_CORRECTOR_COLUMNS.join(",")
+        ))
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("c.csv:2: field 'tide_m'"), "{e}");
+        // A detail on a row of another status.
+        let e = parse(&format!(
+            "{}\nL,2026-06-14T13:20:00Z,Z,1.2000,,observed,,,,,,{detail}\n",
+            LINE_CORRECTOR_COLUMNS.join(",")
+        ))
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.contains("c.csv:2: field 'status_detail'") && e.contains("'observed'"),
+            "{e}"
+        );
+        // Per sounding: gap_filled with its detail; an unknown status word refused.
+        let s = format!(
+            "{}\nL,2026-06-14T13:20:00Z,s.csv,2,Z,1.2000,,gap_filled,,,,,,{detail}\nL,2026-06-14T13:20:01Z,s.csv,3,Z,1.2000,,reduced,,,,,,\n",
+            SOUNDING_CORRECTOR_COLUMNS.join(",")
+        );
+        let CorrectionFile::Soundings(rows) = parse(&s).unwrap() else {
+            panic!("per sounding")
+        };
+        let table = sounding_corrections(rows, &["Z"]);
+        let filled: Vec<Option<String>> = [0.0, 1.0]
+            .iter()
+            .map(
+                |dt| match &table[&sounding_key("L", 1_781_443_200.0 + dt)] {
+                    SoundingCorrection::Tide { filled, .. } => {
+                        filled.as_deref().map(str::to_string)
+                    }
+                    c => panic!("{c:?}"),
+                },
+            )
+            .collect();
+        assert_eq!(filled, [Some(detail.to_string()), None]);
+        let e = parse(&format!(
+            "{}\nL,2026-06-14T13:20:00Z,s.csv,2,Z,1.2000,,filled,,,,,,\n",
+            SOUNDING_CORRECTOR_COLUMNS.join(",")
+        ))
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.contains("c.csv:2: field 'status'") && e.contains("found 'filled'"),
+            "{e}"
         );
     }
 }

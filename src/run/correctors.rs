@@ -10,10 +10,11 @@ use super::load::{output_clashes, Loaded, PlannedOutput};
 use super::provenance::{differences, tide_inputs, InputDifference};
 use super::reduce::{reduce_project, run_outputs, ApplyModel, ReduceOptions, RunKind, RunSummary};
 use crate::compute::correctors::{
-    modal_step_s, zone_corrector_at, zone_correctors, Corrector, CorrectorUncertainty, LineSeries,
-    LineSeriesModel, SoundingTableModel, BRIDGE_TOLERANCE_S,
+    modal_step_s, zone_corrector_with, Corrector, CorrectorStatus, CorrectorUncertainty,
+    LineSeries, LineSeriesModel, SoundingTableModel, BRIDGE_TOLERANCE_S,
 };
 use crate::compute::reduce::StepSource;
+use crate::compute::zoning::FeedState;
 use crate::io::atomic::write_atomic;
 use crate::io::correctors_file::{
     push_line_row, push_zone_rows, read_correction_file, sha256_file, sounding_corrections,
@@ -33,6 +34,34 @@ pub const LINE_FILE: &str = "correctors-lines.csv";
 /// A line's regular-step grid time takes the zone of the sounding nearest in time, if one lies
 /// within this many seconds (else the time is `missing`).
 pub const LINE_NEAREST_SOUNDING_S: f64 = 300.0;
+
+/// Zone `zi`'s corrector at UTC time `t_s`, as `ebbwise reduce` finds the zone's tide: with the
+/// feeds renormalised when `[gap_fill] renormalise_feeds` is on, and a `gap_filled` value
+/// worded as the reduced file's `status_detail` words it.
+fn corrector_at(loaded: &Loaded, zi: usize, t_s: f64, states: &mut Vec<FeedState>) -> Corrector {
+    let gf = &loaded.project.spec.gap_fill;
+    let u = loaded.uncertainty.as_ref().map(|u| CorrectorUncertainty {
+        gauge_u: &u.gauge_u,
+        zone_u: &u.zone_u[zi],
+        rates: &u.gauge_rates,
+    });
+    let zone = &loaded.zones[zi];
+    let mut c = zone_corrector_with(
+        zone,
+        &loaded.gauges,
+        loaded.interp.as_ref(),
+        u,
+        t_s,
+        states,
+        gf.enabled && gf.renormalise_feeds,
+    );
+    if c.status == CorrectorStatus::GapFilled {
+        let mut d = String::new();
+        super::reduce::gap_filled_detail(zone, &loaded.gauges, t_s, states, &mut d);
+        c.detail = Some(std::sync::Arc::from(d));
+    }
+    c
+}
 
 /// The per-line corrector file's text: for each survey line, on the step grid over the line's
 /// own time span (from the grid time at or before its first sounding to the one at or after its
@@ -62,7 +91,6 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
                 .or_insert((v.t_s, locator.locate(v.x, v.y)));
         })?;
     }
-    let unc = loaded.uncertainty.as_ref();
     let mut text = LINE_CORRECTOR_COLUMNS.join(",");
     text.push('\n');
     let mut states = Vec::new();
@@ -85,27 +113,14 @@ pub fn line_correctors(loaded: &Loaded, step_s: f64) -> Result<(String, usize), 
                 .filter(|(ts, _)| (ts - t).abs() <= LINE_NEAREST_SOUNDING_S);
             let zone = near.and_then(|(_, z)| *z);
             let c = match zone {
-                Some(z) => {
-                    let u = unc.map(|u| CorrectorUncertainty {
-                        gauge_u: &u.gauge_u,
-                        zone_u: &u.zone_u[z],
-                        rates: &u.gauge_rates,
-                    });
-                    zone_corrector_at(
-                        &loaded.zones[z],
-                        &loaded.gauges,
-                        loaded.interp.as_ref(),
-                        u,
-                        t,
-                        &mut states,
-                    )
-                }
+                Some(z) => corrector_at(loaded, z, t, &mut states),
                 None => Corrector {
                     t_s: t,
                     tide_m: None,
                     u_tide_m: None,
                     u_parts_m: None,
-                    status: crate::compute::correctors::CorrectorStatus::Missing,
+                    status: CorrectorStatus::Missing,
+                    detail: None,
                 },
             };
             push_line_row(
@@ -451,32 +466,18 @@ pub fn write_correctors(
     }
     let n = ((to - from) / step_s).floor() as usize + 1;
     std::fs::create_dir_all(&opts.out_dir).map_err(|e| IoError::file(&opts.out_dir, e))?;
-    let unc = loaded.uncertainty.as_ref();
-    let per_zone: Vec<Vec<Corrector>> = loaded
-        .zones
-        .par_iter()
-        .enumerate()
-        .map(|(zi, z)| {
-            let u = unc.map(|u| CorrectorUncertainty {
-                gauge_u: &u.gauge_u,
-                zone_u: &u.zone_u[zi],
-                rates: &u.gauge_rates,
-            });
-            zone_correctors(
-                z,
-                &loaded.gauges,
-                loaded.interp.as_ref(),
-                u,
-                from,
-                step_s,
-                n,
-            )
+    let per_zone: Vec<Vec<Corrector>> = (0..loaded.zones.len())
+        .into_par_iter()
+        .map(|zi| {
+            let mut states = Vec::new();
+            (0..n)
+                .map(|k| corrector_at(loaded, zi, from + k as f64 * step_s, &mut states))
+                .collect()
         })
         .collect();
     let mut text = String::with_capacity(n * loaded.zones.len() * 48 + 128);
     text.push_str(&ZONE_CORRECTOR_COLUMNS.join(","));
     text.push('\n');
-    use crate::compute::correctors::CorrectorStatus;
     let mut counts = [0usize; CorrectorStatus::ALL.len()];
     for (z, rows) in loaded.zones.iter().zip(&per_zone) {
         push_zone_rows(&mut text, &z.id, rows);
@@ -568,7 +569,8 @@ fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {
                 "tide_m" => "tide: water level above chart datum, metres, positive up, 4 decimals; empty when missing",
                 "u_tide_m" => "standard uncertainty (1 sigma) of the tide, metres, 4 decimals; empty when not computed",
                 "u_tide_gauge_m" | "u_tide_datum_m" | "u_tide_range_m" | "u_tide_timing_m" | "u_tide_zone_m" => "one component of u_tide_m (standard, metres, 4 decimals), as in the reduced file; empty when u_tide_m is",
-                "status" => "observed | interpolated | missing | flagged (per zone and per line); the sounding's status (per sounding)",
+                "status" => "observed | interpolated | gap_filled | missing | flagged (per zone and per line); the sounding's status (per sounding)",
+                "status_detail" => "for a gap_filled row, how its tide was filled (the reduced file's status_detail); else empty",
                 "line" => "survey line",
                 "source_file" => "soundings file the row comes from",
                 "source_line" => "1-based line of the sounding in its file",
@@ -782,6 +784,14 @@ pub fn apply_corrections(
             ));
             loaded.uncertainty = None;
         }
+    }
+    if loaded.project.spec.gap_fill.enabled
+        && !crate::io::correctors_file::has_detail_column(corrections)
+    {
+        warnings.push(format!(
+            "{} is of an earlier layout (no status_detail column), which marks no tide gap_filled: soundings whose tide rests on filled gauge samples are reduced without that status (re-run `ebbwise correctors` to carry it)",
+            corrections.display()
+        ));
     }
     let check = provenance_check(loaded, corrections, loaded.uncertainty.is_some())?;
     if !check.refused.is_empty() && !accept_changed_inputs {

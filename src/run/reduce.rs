@@ -842,6 +842,7 @@ fn write_corrector_row(
     tide: Option<(f64, f64)>,
     unc_cols: Option<([f64; 10], bool)>,
     status: SoundingStatus,
+    fill_detail: &str,
 ) {
     use std::io::Write;
     // line, time: parsed when the row could be read, else the raw fields (or empty).
@@ -886,6 +887,8 @@ fn write_corrector_row(
         }
         None => b.extend_from_slice(b",,,,,"),
     }
+    b.push(b',');
+    push_csv_field(b, fill_detail);
     b.push(b'\n');
 }
 
@@ -911,9 +914,12 @@ fn write_input_fields(out: &mut Vec<u8>, line: &str, fields: &Fields, ctx: &File
     }
 }
 
-/// Whether a tide found in `zone` at `t_s` rests on gap-filled samples or on renormalised feeds;
-/// if so, says how in `detail` (the gauge, the method and the filled gap; or the feed left out).
-fn gap_filled_detail(
+/// Whether a tide found in `zone` at `t_s` rests on gap-filled samples or on renormalised feeds
+/// ([`crate::compute::correctors::rests_on_filled`]); if so, says how in `detail` (the gauge,
+/// the method and the filled gap; or the feed left out), one part per feed in feed order,
+/// joined by `; `. The words name the filled gap and the feeds, not the instant, so that a
+/// correction file's row can carry them to the soundings its tide reaches.
+pub(crate) fn gap_filled_detail(
     zone: &crate::compute::zoning::Zone,
     gauges: &[crate::compute::zoning::Gauge],
     t_s: f64,
@@ -937,9 +943,9 @@ fn gap_filled_detail(
                 .collect();
             let _ = write!(
                 detail,
-                "feed '{}' has no level at {}: tide from {} with weights renormalised",
+                "{}{}' has no level: tide from {} with weights renormalised",
+                crate::compute::correctors::RENORMALISED_PART_PREFIX,
                 g.id,
-                crate::io::timefmt::utc_label(t_s - feed.time_corrector_min * 60.0),
                 present.join(", ")
             );
             any = true;
@@ -1058,6 +1064,7 @@ fn process_chunk(
                             zone: z,
                             tide_m,
                             carried_u,
+                            filled,
                         } => {
                             zone = Some(z);
                             let tide_m = applied_tide_m(tide_m);
@@ -1134,13 +1141,25 @@ fn process_chunk(
                                 ));
                             }
                             let l = ctx.loaded;
-                            if gap_filled_detail(
-                                &l.zones[z],
-                                &l.gauges,
-                                v.t_s,
-                                &states,
-                                &mut detail,
-                            ) {
+                            // A correction file says itself whether its tide was filled; a
+                            // tide from the gauges is told by their states.
+                            let gap_filled = match &filled {
+                                Some(d) => {
+                                    detail.push_str(d);
+                                    true
+                                }
+                                None => {
+                                    !matches!(ctx.kind, RunKind::Apply(..))
+                                        && gap_filled_detail(
+                                            &l.zones[z],
+                                            &l.gauges,
+                                            v.t_s,
+                                            &states,
+                                            &mut detail,
+                                        )
+                                }
+                            };
+                            if gap_filled {
                                 SoundingStatus::GapFilled
                             } else {
                                 SoundingStatus::Reduced
@@ -1241,6 +1260,14 @@ fn process_chunk(
                 }
             }
         };
+        // What a per-sounding correction file carries in its `status_detail`: how a
+        // `gap_filled` tide was filled (not the notes about the soundings row, which `apply`
+        // makes again from the row).
+        let fill_detail_len = if status == SoundingStatus::GapFilled {
+            detail.len()
+        } else {
+            0
+        };
         if fields.len() > n_cols && ctx.layout.extra_fields_allowed() {
             if !detail.is_empty() {
                 detail.push_str("; ");
@@ -1265,6 +1292,7 @@ fn process_chunk(
                 tide,
                 unc_cols,
                 status,
+                &detail[..fill_detail_len],
             );
         } else {
             write_reduced_tail(&mut o.bytes, ctx, zone, tide, status, &detail, unc_cols);

@@ -142,7 +142,7 @@ fn sidecar_hashes_every_input_and_changes_with_it() {
         v
     };
     let a = run("a");
-    assert_eq!(a["format"], "ebbwise-tide-correctors/3");
+    assert_eq!(a["format"], "ebbwise-tide-correctors/4");
     assert_eq!(a["kind"], "per_zone");
     let roles: Vec<&str> = a["inputs"]
         .as_array()
@@ -215,7 +215,8 @@ fn a_span_without_gauge_data_gives_missing_rows_never_values() {
             "u_tide_datum_m",
             "u_tide_range_m",
             "u_tide_timing_m",
-            "u_tide_zone_m"
+            "u_tide_zone_m",
+            "status_detail"
         ]
     );
     let z1: Vec<_> = rows.iter().filter(|r| r[0] == "Z1").collect();
@@ -355,7 +356,8 @@ fn per_line_series_round_trip() {
             "u_tide_datum_m",
             "u_tide_range_m",
             "u_tide_timing_m",
-            "u_tide_zone_m"
+            "u_tide_zone_m",
+            "status_detail"
         ]
     );
     assert!(rows.iter().any(|r| r[0] == "A-001") && rows.iter().any(|r| r[0] == "B-001"));
