@@ -45,6 +45,16 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
             }
         }
         o.insert("record_sha256".into(), json!(sha256_file(&g.record)?));
+        // Constants change a tide through gap filling by their content, not their path; a
+        // datums file changes no tide.
+        for k in ["constants", "datums"] {
+            if let Some(x) = o.remove(k) {
+                other.insert(k.to_string(), x);
+            }
+        }
+        if let Some(c) = &g.constants {
+            o.insert("constants_sha256".into(), json!(sha256_file(c)?));
+        }
         if let Some(m) = loaded.methods.get(i) {
             o.insert(
                 "method".into(),

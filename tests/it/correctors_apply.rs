@@ -946,3 +946,61 @@ fn an_earlier_layout_applied_under_gap_fill_is_warned_about() {
         assert!(filled > 4_000, "{name}: {filled}");
     }
 }
+
+/// A gauge's constants rewritten under the same path (a new `ebbwise analyse`) change the
+/// tides filling by prediction gives: `apply` refuses the older correction file, naming the
+/// gauge's constants by their SHA-256; a constants file copied elsewhere with the same content
+/// changes nothing that makes a tide.
+#[test]
+fn constants_changed_in_place_are_refused_by_apply() {
+    let d = tempfile::tempdir().unwrap();
+    let project = gap_fill_copy(d.path(), |t| {
+        t.replace("max_fill_min = 180", "max_fill_min = 170")
+    });
+    let p = |x: &str| s(&d.path().join(x));
+    let o = ebbwise(&["correctors", &project, "--out", &p("c")]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let args = [
+        "apply",
+        &p("c/correctors-zones.csv"),
+        "--project",
+        &project,
+        "--out",
+        &p("out"),
+    ];
+    // Same content under another path: no tide input differs.
+    let gauges = d.path().join("zoning-demo/gauges");
+    std::fs::copy(
+        gauges.join("skellan.constants.toml"),
+        gauges.join("skellan-copy.constants.toml"),
+    )
+    .unwrap();
+    let text = std::fs::read_to_string(&project).unwrap();
+    std::fs::write(
+        &project,
+        text.replace(
+            "gauges/skellan.constants.toml",
+            "gauges/skellan-copy.constants.toml",
+        ),
+    )
+    .unwrap();
+    let o = ebbwise(&args);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(!stderr(&o).contains("change a tide"), "{}", stderr(&o));
+    // New content under the same path: refused.
+    let k = gauges.join("skellan-copy.constants.toml");
+    let c = std::fs::read_to_string(&k).unwrap();
+    let raised: String = c
+        .lines()
+        .map(|l| match l.strip_prefix("z0_m = ") {
+            Some(v) => format!("z0_m = {:.4}\n", v.parse::<f64>().unwrap() + 0.01),
+            None => format!("{l}\n"),
+        })
+        .collect();
+    assert_ne!(raised, c);
+    std::fs::write(&k, raised).unwrap();
+    let o = ebbwise(&args);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(err.contains("constants_sha256"), "{err}");
+}
