@@ -392,3 +392,140 @@ fn project_gauge_datums_are_checked() {
     let o = super::ebbwise(&["check", p.path("project.toml").to_str().unwrap()]);
     assert!(!stderr(&o).contains("datums"), "{}", stderr(&o));
 }
+
+/// A constants file (levels above chart datum, gauge zero 0.5 m below it, a 29-day record) of
+/// the given (name, speed °/h, amplitude m, u amplitude m, phase °) constituents, Z0 1.2 m.
+fn constants_text(waves: &[(&str, f64, f64, f64, f64)]) -> String {
+    let mut s = String::from(
+        "format = \"ebbwise-harmonic-constants/1\"\nlevels = \"above chart datum\"\nz0_m = 1.2\nu_z0_m = 0.002\nrayleigh_factor = 1.0\ndatum = \"chart datum\"\nzero_above_datum_m = -0.5\nrecord_start_utc = \"2026-01-01T00:00:00.000Z\"\nrecord_end_utc = \"2026-01-30T00:00:00.000Z\"\n",
+    );
+    for (name, speed, h, uh, g) in waves {
+        s.push_str(&format!(
+            "\n[[constituent]]\nname = \"{name}\"\nspeed_deg_per_h = {speed}\namplitude_m = {h}\nphase_deg = {g}\nu_amplitude_m = {uh}\nu_phase_deg = 0.5\n"
+        ));
+    }
+    s
+}
+
+/// `ebbwise datums --constants` alone: pure M2 (H = 1 m) gives LAT = Z0 − f̂·H and HAT =
+/// Z0 + f̂·H with f̂ = 1.0378 the largest nodal factor of M2 (textbook 1.0379, Pugh 1987, from
+/// memory; 1.03783 from the project's formula), within 0.5 mm; its u is
+/// √(u(Z0)² + (f̂·u(H))²) at the extreme (θ = 180°, so the phase's u drops out), within 0.2 mm;
+/// each level above the gauge zero is 0.5 m more (definition). M2 (1.0) + S2 (0.4 m): LAT lies
+/// between Z0 − f̂·H_M2 − H_S2 (a strict lower bound) and 2.5 mm above it (the alignment bound
+/// derived in docs/datums-computation.md). The month-long record gets the short-span warning.
+#[test]
+fn lat_and_hat_from_constants_through_the_command() {
+    let dir = tempfile::tempdir().unwrap();
+    let m2 = ("M2", 28.984_104_2, 1.0, 0.003, 10.0);
+    let s2 = ("S2", 30.0, 0.4, 0.003, 50.0);
+    std::fs::write(dir.path().join("m2.toml"), constants_text(&[m2])).unwrap();
+    std::fs::write(dir.path().join("ms.toml"), constants_text(&[m2, s2])).unwrap();
+    let f_max = 1.037_83;
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "m2.toml"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(
+        err.contains("LAT") && err.contains("less than a year"),
+        "{err}"
+    );
+    let text = std::fs::read_to_string(dir.path().join("m2.harmonic-datums.toml")).unwrap();
+    let v: toml::Value = toml::from_str(&text).unwrap();
+    assert_eq!(v["format"].as_str(), Some("ebbwise-harmonic-datums/1"));
+    let lat = v["lat"]["above_chart_datum_m"].as_float().unwrap();
+    let hat = v["hat"]["above_chart_datum_m"].as_float().unwrap();
+    assert!((lat - (1.2 - f_max)).abs() < 5e-4, "LAT {lat}");
+    assert!((hat - (1.2 + f_max)).abs() < 5e-4, "HAT {hat}");
+    let u = v["lat"]["u_m"].as_float().unwrap();
+    let u_expected = (0.002f64.powi(2) + (f_max * 0.003f64).powi(2)).sqrt();
+    assert!((u - u_expected).abs() < 2e-4, "u {u} vs {u_expected}");
+    let gz = v["lat"]["above_gauge_zero_m"].as_float().unwrap();
+    assert!((gz - (lat + 0.5)).abs() < 1.5e-4, "{gz}");
+    assert_eq!(v["z0"]["above_chart_datum_m"].as_float(), Some(1.2));
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "ms.toml"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let text = std::fs::read_to_string(dir.path().join("ms.harmonic-datums.toml")).unwrap();
+    let v: toml::Value = toml::from_str(&text).unwrap();
+    let lat = v["lat"]["above_chart_datum_m"].as_float().unwrap();
+    let bound = 1.2 - f_max * 1.0 - 0.4;
+    assert!(
+        lat >= bound - 1e-4 && lat <= bound + 2.5e-3,
+        "LAT {lat} vs {bound}"
+    );
+}
+
+/// A record with `--constants` and `--high-low-waters`: the datums file holds the observed
+/// datums and [lat], [hat], [z0] with their method; the CSV has one row per high or low water
+/// of the tabulation, at least 18 of each kind in 10 days, kinds alternating (a semidiurnal
+/// tide), each high water at Z0 + H above the zero less the zero's depth below chart datum
+/// (2.2 m, definition of the references) within 2 mm, and a class of `higher` or `lower`. Pure
+/// M2 of 1 m about 1.7 m above the zero: MHW − MLW = 2H within 0.4 mm (analytic), LAT from the
+/// constants Z0 − f̂·H.
+#[test]
+fn record_with_constants_and_high_low_waters() {
+    let dir = tempfile::tempdir().unwrap();
+    let w = 28.984_104_2 * DEG_PER_H;
+    let mut csv = String::from("time,height\n");
+    for i in 0..10 * 240 {
+        let x = i as f64 * 360.0;
+        let v = 1.7 + (w * x).cos();
+        let secs = i * 360;
+        csv.push_str(&format!(
+            "2026-03-{:02}T{:02}:{:02}:00Z,{v:.4}\n",
+            1 + secs / 86400,
+            (secs % 86400) / 3600,
+            (secs % 3600) / 60
+        ));
+    }
+    std::fs::write(dir.path().join("m2.csv"), csv).unwrap();
+    std::fs::write(
+        dir.path().join("k.toml"),
+        constants_text(&[("M2", 28.984_104_2, 1.0, 0.003, 0.0)]),
+    )
+    .unwrap();
+    let o = ebbwise_in(
+        dir.path(),
+        &[
+            "datums",
+            "m2.csv",
+            "--zero-above-datum-m",
+            "-0.5",
+            "--constants",
+            "k.toml",
+            "--high-low-waters",
+            "m2.hw.csv",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let v: toml::Value =
+        toml::from_str(&std::fs::read_to_string(dir.path().join("m2.datums.toml")).unwrap())
+            .unwrap();
+    let mn = v["mn"]["range_m"].as_float().unwrap();
+    assert!((mn - 2.0).abs() < 4e-4, "MN {mn}");
+    for t in ["lat", "hat", "z0"] {
+        assert!(v[t]["method"].as_str().is_some(), "{t}");
+    }
+    let lat = v["lat"]["above_chart_datum_m"].as_float().unwrap();
+    assert!((lat - (1.2 - 1.037_83)).abs() < 5e-4, "{lat}");
+    let hw = std::fs::read_to_string(dir.path().join("m2.hw.csv")).unwrap();
+    let mut lines = hw.lines();
+    assert_eq!(
+        lines.next(),
+        Some("time_utc,level_above_chart_datum_m,u_level_m,kind,class")
+    );
+    let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    let (highs, lows) = (
+        rows.iter().filter(|r| r[3] == "high").count(),
+        rows.iter().filter(|r| r[3] == "low").count(),
+    );
+    assert!(highs >= 18 && lows >= 18, "{highs} {lows}");
+    for p in rows.windows(2) {
+        assert_ne!(p[0][3], p[1][3], "kinds alternate: {p:?}");
+    }
+    for r in rows.iter().filter(|r| r[3] == "high") {
+        let h: f64 = r[1].parse().unwrap();
+        // 1.7 + 1.0 m above the zero, the zero 0.5 m below chart datum.
+        assert!((h - 2.2).abs() < 2e-3, "{r:?}");
+        assert!(r[4] == "higher" || r[4] == "lower");
+    }
+}
