@@ -529,3 +529,50 @@ fn record_with_constants_and_high_low_waters() {
         assert!(r[4] == "higher" || r[4] == "lower");
     }
 }
+
+/// Bad requests of `ebbwise datums --constants` (docs/robustness.md): a missing constants file
+/// is named; constants above chart datum without the zero's height name the field `levels` and
+/// ask for --zero-above-datum-m (and work with it); --high-low-waters without a record is
+/// refused (no high or low water is observed).
+#[test]
+fn bad_constants_requests_are_named() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "none.toml"]);
+    assert_ne!(o.status.code(), Some(0));
+    assert!(stderr(&o).contains("none.toml"), "{}", stderr(&o));
+    let text = constants_text(&[("M2", 28.984_104_2, 1.0, 0.003, 0.0)])
+        .replace("zero_above_datum_m = -0.5\n", "");
+    std::fs::write(dir.path().join("k.toml"), text).unwrap();
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "k.toml"]);
+    let e = stderr(&o);
+    assert_ne!(o.status.code(), Some(0), "{e}");
+    assert!(
+        e.contains("k.toml") && e.contains("field 'levels'") && e.contains("--zero-above-datum-m"),
+        "{e}"
+    );
+    let o = ebbwise_in(
+        dir.path(),
+        &[
+            "datums",
+            "--constants",
+            "k.toml",
+            "--zero-above-datum-m",
+            "-0.5",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = ebbwise_in(
+        dir.path(),
+        &[
+            "datums",
+            "--constants",
+            "k.toml",
+            "--zero-above-datum-m",
+            "-0.5",
+            "--high-low-waters",
+            "x.csv",
+        ],
+    );
+    assert_ne!(o.status.code(), Some(0));
+    assert!(stderr(&o).contains("needs a record"), "{}", stderr(&o));
+}
