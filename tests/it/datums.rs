@@ -113,23 +113,31 @@ fn mixed_tide_against_its_analytic_daily_extremes() {
 }
 
 /// The mean of the envelope |a + b·e^{iθ}| over θ (by quadrature): the mean high water above Z0
-/// of a tide of two semidiurnal constituents whose relative phase θ turns slowly.
-fn mean_envelope(a: f64, b: f64) -> f64 {
+/// of a tide of two semidiurnal constituents whose relative phase θ turns slowly, when every
+/// phase θ counts alike; and the same mean **per high water**: the sum's phase turns at
+/// ω + Δω·(b² + ab cos θ)/|a + b e^{iθ}|² (the derivative of arg(a + b e^{iθ})), faster at springs,
+/// so high waters come more often at springs and their mean weights θ by that rate (Δω the
+/// speed difference, ω the first constituent's speed; analytic).
+fn mean_envelope(a: f64, b: f64, w: f64, dw: f64) -> (f64, f64) {
     let n = 100_000;
-    (0..n)
-        .map(|i| {
-            let th = std::f64::consts::TAU * (i as f64 + 0.5) / n as f64;
-            (a * a + b * b + 2.0 * a * b * th.cos()).sqrt()
-        })
-        .sum::<f64>()
-        / n as f64
+    let (mut plain, mut weighted, mut weights) = (0.0, 0.0, 0.0);
+    for i in 0..n {
+        let th = std::f64::consts::TAU * (i as f64 + 0.5) / n as f64;
+        let e2 = a * a + b * b + 2.0 * a * b * th.cos();
+        let rate = w + dw * (b * b + a * b * th.cos()) / e2;
+        plain += e2.sqrt();
+        weighted += e2.sqrt() * rate;
+        weights += rate;
+    }
+    (plain / n as f64, weighted / weights)
 }
 
 /// M2 + S2 over a year from the project's prediction (`predict_grid`, with nodal corrections):
-/// MHW − Z0 and Z0 − MLW are the mean envelope of the two amplitudes (f·H at mid-year), MN twice
-/// it, within 1 cm (the tabulated high waters equal the grid's own maxima, yet lie 6 mm above
-/// the envelope relation: not yet explained, hence the loose bound), and MSL = MTL = Z0
-/// (analytic relations of a two-constituent tide) within 1 and 3 mm.
+/// MHW − Z0 and Z0 − MLW are the mean envelope of the two amplitudes (f·H at mid-year) **per
+/// high (low) water** ([`mean_envelope`]), MN twice it, within 6 mm. Measured: MHW − Z0 lies
+/// 7.2 mm above the envelope averaged over phases alike; 2.7 mm of it is the high waters coming
+/// more often at springs (the per-high-water mean), 4.5 mm is not yet explained, hence the
+/// bound. MSL = MTL = Z0 (analytic relations of a two-constituent tide) within 1 and 3 mm.
 #[test]
 fn spring_neap_year_against_the_mean_envelope() {
     let (m2, s2) = (constituent("M2").unwrap(), constituent("S2").unwrap());
@@ -145,18 +153,23 @@ fn spring_neap_year_against_the_mean_envelope() {
     let mid = ebbwise::compute::astro::astro_at(T0 + 0.5 * n as f64 * 360.0);
     let a = nodal_fu(m2, &mid).0 * 1.1;
     let b = nodal_fu(s2, &mid).0 * 0.4;
-    let env = mean_envelope(a, b);
+    let (plain, env) = mean_envelope(a, b, m2.speed_deg_per_h, 30.0 - m2.speed_deg_per_h);
+    println!(
+        "MHW - Z0 {:.5}, Z0 - MLW {:.5}; envelope per high water {env:.5}, over phases {plain:.5}",
+        d.mhw.value_m - 1.8,
+        1.8 - d.mlw.value_m
+    );
     assert!(
-        (d.mhw.value_m - 1.8 - env).abs() < 1e-2,
+        (d.mhw.value_m - 1.8 - env).abs() < 6e-3,
         "{:?} vs {env}",
         d.mhw
     );
     assert!(
-        (1.8 - d.mlw.value_m - env).abs() < 1e-2,
+        (1.8 - d.mlw.value_m - env).abs() < 6e-3,
         "{:?} vs {env}",
         d.mlw
     );
-    assert!((d.mn.value_m - 2.0 * env).abs() < 2e-2, "{:?}", d.mn);
+    assert!((d.mn.value_m - 2.0 * env).abs() < 1.2e-2, "{:?}", d.mn);
     assert!((d.msl.value_m - 1.8).abs() < 1e-3, "{:?}", d.msl);
     assert!((d.mtl.value_m - 1.8).abs() < 3e-3, "{:?}", d.mtl);
     // A semidiurnal tide: two of each per tidal day, none doubled (analytic count).
@@ -264,7 +277,10 @@ fn stated_uncertainty_covers_the_actual_error() {
 /// secondary crest after it: the file's high and low waters number one per M2 period of the
 /// complete days (analytic), the doubles are reported, the gauge-zero heights are the
 /// chart-datum heights less the zero's height above chart datum (definition), and the default
-/// name is `<STEM>.datums.toml` (without QC: the synthetic crests are not the point here).
+/// name is `<STEM>.datums.toml`. Without QC: the planted secondary crest (0.6 m within about
+/// 30 minutes onto a clipped, flat top) is a step to QC's level-shift test (+0.45 m against a
+/// cubic over 120 min each side, limit 0.19 m), which sets aside 482 samples and leaves no
+/// complete day; a real stand is not flagged (`clean_stand_passes_qc`).
 #[test]
 fn command_writes_the_datums_file() {
     use rand::SeedableRng;
@@ -575,4 +591,38 @@ fn bad_constants_requests_are_named() {
     );
     assert_ne!(o.status.code(), Some(0));
     assert!(stderr(&o).contains("needs a record"), "{}", stderr(&o));
+}
+
+/// A clean one-minute record rounded to millimetres, M2 1.2 m with M4 0.3 m at the phase that
+/// makes a stand at every high water (dh/dcos = 0 at the crest: the level stays within 1.2 mm for
+/// 30 minutes each side, analytic), goes through `ebbwise datums` **with** QC: nothing is set
+/// aside (the flat-line test asks 5 equal readings over 60 minutes and excuses stands at turning
+/// points), and MHW is the crest Z0 + 1.2 − 0.3 = 3.9 m within 2 mm (analytic).
+#[test]
+fn clean_stand_passes_qc() {
+    let dir = tempfile::tempdir().unwrap();
+    let w = 28.984_104_2 * DEG_PER_H;
+    let mut csv = String::from("time,height\n");
+    for i in 0..5 * 1440 {
+        let x = i as f64 * 60.0;
+        let v = 3.0 + 1.2 * (w * x).cos() - 0.3 * (2.0 * w * x).cos();
+        let secs = i * 60;
+        csv.push_str(&format!(
+            "2026-03-{:02}T{:02}:{:02}:00Z,{v:.3}\n",
+            1 + secs / 86400,
+            (secs % 86400) / 3600,
+            (secs % 3600) / 60
+        ));
+    }
+    std::fs::write(dir.path().join("stand.csv"), csv).unwrap();
+    let o = ebbwise_in(dir.path(), &["datums", "stand.csv"]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(0), "{err}");
+    assert!(!err.contains("set aside"), "{err}");
+    let v: toml::Value =
+        toml::from_str(&std::fs::read_to_string(dir.path().join("stand.datums.toml")).unwrap())
+            .unwrap();
+    assert_eq!(v["qc_applied"].as_bool(), Some(true));
+    let mhw = v["mhw"]["above_gauge_zero_m"].as_float().unwrap();
+    assert!((mhw - 3.9).abs() < 2e-3, "MHW {mhw}");
 }
