@@ -202,7 +202,7 @@ pub struct DatumsProvenance {
 pub const METHOD: &str = "turning points of the record low-passed (zero-phase) at smoothing_cutoff_min, confirmed by threshold_m each side and min_separation_h apart (closer pairs merged, doubles kept as one); heights from a least-squares parabola through the raw samples within 45 min; higher/lower within tidal days of 24.8412 h; datums over complete tidal days only";
 
 /// The uncertainty model, in words (written in every file).
-pub const UNCERTAINTY_MODEL: &str = "standard uncertainty relative to a long record of the same tide: each datum's day series split, by least squares on its autocorrelations at lags of 1 to 4 tidal days, into a sinusoid of period P between 13.66 and 27.55 d, of which the share G = 1/(1 + 2(pi L/P)^2) reaches the mean over the record's span L (u^2 = slow variance G/(1 - G)), and white scatter, reduced by sqrt(days); not included: the 18.61-year nodal modulation, seasonal mean-level changes, slower modulations, the gauge zero's own error";
+pub const UNCERTAINTY_MODEL: &str = "standard uncertainty relative to a long record of the same tide: each datum's day series split, by least squares on its autocorrelations at lags of 1 to 4 tidal days, into sinusoids of the fortnight (14.77 d) and the tropical month (27.32 d), each putting the share G = 1/(1 + 2(pi L/P)^2) of its variance into the mean over the record's span L (u^2 = slow variance G/(1 - G)), and white scatter, reduced by sqrt(days); not included: the 18.61-year nodal modulation, seasonal mean-level changes, slower modulations, the gauge zero's own error";
 
 fn level(d: &Datum, zero: Option<f64>) -> LevelEntry {
     // `d` is above chart datum when the zero is tied, else above the gauge zero.
