@@ -8,7 +8,10 @@ use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
 use ebbwise::io::timefmt::{parse_offset, utc_label};
-use ebbwise::run::datums::{datums_of_gauge, DatumsOutcome, DatumsRequest};
+use ebbwise::run::datums::{
+    datums_of_gauge, harmonic_datums_of, write_harmonic_datums, DatumsOutcome, DatumsRequest,
+    HarmonicOutcome,
+};
 use ebbwise::CAUTION;
 
 use super::common::{find_gauge, median_m, DataOut, Stdout, Units};
@@ -16,9 +19,17 @@ use super::Outcome;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
-    /// The record (CSV with a header); or give --project and --gauge.
-    #[arg(required_unless_present = "project", conflicts_with = "project")]
+    /// The record (CSV with a header); or give --project and --gauge, or --constants alone.
+    #[arg(required_unless_present_any = ["project", "constants"], conflicts_with = "project")]
     record: Option<PathBuf>,
+    /// Harmonic constants (an `ebbwise analyse` file): LAT and HAT over 18.61 years every
+    /// 6 minutes, and Z0, each with u. Alone, they are written to a harmonic-datums file;
+    /// with a record, added to its datums file. With --project the gauge's `constants` are used.
+    #[arg(long, value_name = "FILE", conflicts_with = "project")]
+    constants: Option<PathBuf>,
+    /// Also write the observed high and low waters to this CSV file.
+    #[arg(long, value_name = "FILE")]
+    high_low_waters: Option<PathBuf>,
     /// A project file: the datums of one of its gauges.
     #[arg(long, requires = "gauge")]
     project: Option<PathBuf>,
@@ -55,8 +66,42 @@ pub struct Args {
 pub fn run(a: Args) -> anyhow::Result<Outcome> {
     let given = a.out.clone().map(DataOut::from_option);
     let mut stdout = Stdout::lock();
+    if let (None, None, Some(c)) = (&a.record, &a.project, &a.constants) {
+        if a.high_low_waters.is_some() {
+            anyhow::bail!(
+                "--high-low-waters needs a record (the high and low waters are observed)"
+            );
+        }
+        let h = harmonic_datums_of(c, a.zero_above_datum_m)?;
+        let stem = c
+            .file_stem()
+            .map(|s| s.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "constants".into());
+        let out = given.unwrap_or_else(|| {
+            DataOut::File(PathBuf::from(format!("{stem}.harmonic-datums.toml")))
+        });
+        let (_, written) = write_harmonic_datums(&h, None, sink(&out, &mut stdout))?;
+        drop(stdout);
+        let mut w = std::io::stderr().lock();
+        let _ = writeln!(
+            w,
+            "ebbwise datums: from the harmonic constants {}",
+            c.display()
+        );
+        print_harmonic(&mut w, &h);
+        let _ = match &written {
+            Some(p) => writeln!(w, "wrote {}", p.display()),
+            None => writeln!(w, "datums written to stdout"),
+        };
+        let _ = writeln!(w, "{CAUTION}");
+        return Ok(Outcome::Done);
+    }
     let o = match (&a.record, &a.project) {
         (Some(record), _) => {
+            let harmonic = match &a.constants {
+                Some(c) => Some(harmonic_datums_of(c, a.zero_above_datum_m)?),
+                None => None,
+            };
             let naive = match &a.naive_time_utc_offset {
                 Some(o) => Some(
                     parse_offset(o)
@@ -78,13 +123,15 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
                 DataOut::File(PathBuf::from(format!("{}.datums.toml", spec.id)))
             });
             let qc = QcSpec::default();
-            datums_of_gauge(
+            let o = datums_of_gauge(
                 &spec,
                 DatumsRequest {
                     naive_offset: naive,
                     qc: (!a.no_qc).then_some(&qc),
                     gauge_id: None,
                     tied_to_chart_datum: a.zero_above_datum_m.is_some(),
+                    harmonic: harmonic.as_ref(),
+                    high_low_waters: a.high_low_waters.as_deref(),
                 },
                 sink(&out, &mut stdout),
             )
@@ -98,29 +145,37 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
                 } else {
                     anyhow::Error::from(e)
                 }
-            })?
+            })?;
+            (o, harmonic)
         }
         (None, Some(project)) => {
             let p = Project::load(project)?;
             let g = find_gauge(&p, a.gauge.as_deref().unwrap_or_default())?;
+            let harmonic = match &g.constants {
+                Some(c) => Some(harmonic_datums_of(c, Some(g.zero_above_datum_m))?),
+                None => None,
+            };
             let out = given.unwrap_or_else(|| {
                 DataOut::File(p.spec.output.dir.join(format!("{}.datums.toml", g.id)))
             });
-            datums_of_gauge(
+            let o = datums_of_gauge(
                 g,
                 DatumsRequest {
                     naive_offset: p.gauge_naive_offset(g),
                     qc: (!a.no_qc).then_some(&p.spec.qc),
                     gauge_id: Some(&g.id),
                     tied_to_chart_datum: true,
+                    harmonic: harmonic.as_ref(),
+                    high_low_waters: a.high_low_waters.as_deref(),
                 },
                 sink(&out, &mut stdout),
-            )?
+            )?;
+            (o, harmonic)
         }
-        (None, None) => anyhow::bail!("give a record, or --project and --gauge"),
+        (None, None) => anyhow::bail!("give a record, or --project and --gauge, or --constants"),
     };
     drop(stdout);
-    print_datums(&o);
+    print_datums(&o.0, o.1.as_ref());
     Ok(Outcome::Done)
 }
 
@@ -131,8 +186,46 @@ fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> Sink<'a> {
     }
 }
 
+/// LAT, HAT and Z0 lines and the constants' warnings.
+fn print_harmonic(w: &mut impl Write, h: &HarmonicOutcome) {
+    let _ = writeln!(
+        w,
+        "  {:<6} {:>14} {:>14} {:>9}  (harmonic: {} years every {} min from {})",
+        "datum",
+        "above CD m",
+        "above zero m",
+        "u m",
+        h.datums.years,
+        h.datums.step_s / 60.0,
+        utc_label(h.datums.start_s)
+    );
+    for (name, e, at) in [
+        ("LAT", &h.lat, h.datums.lat.at_s),
+        ("HAT", &h.hat, h.datums.hat.at_s),
+        ("Z0", &h.z0, None),
+    ] {
+        let cd = e
+            .above_chart_datum_m
+            .map(|v| format!("{v:.4}"))
+            .unwrap_or_else(|| "-".into());
+        let _ = writeln!(
+            w,
+            "  {:<6} {:>14} {:>14.4} {:>9.4}{}",
+            name,
+            cd,
+            e.above_gauge_zero_m,
+            e.u_m,
+            at.map(|t| format!("  at {}", utc_label(t)))
+                .unwrap_or_default()
+        );
+    }
+    for x in &h.warnings {
+        let _ = writeln!(w, "  warning: {x}");
+    }
+}
+
 /// The datums, on stderr.
-fn print_datums(o: &DatumsOutcome) {
+fn print_datums(o: &DatumsOutcome, h: Option<&HarmonicOutcome>) {
     let f = &o.file;
     let d = &o.datums;
     let mut w = std::io::stderr().lock();
@@ -176,7 +269,7 @@ fn print_datums(o: &DatumsOutcome) {
         "  {:<6} {:>14} {:>14} {:>9}",
         "datum", "above CD m", "above zero m", "u m"
     );
-    for (name, e) in f.levels() {
+    for (name, e) in f.levels().into_iter().filter(|(_, e)| e.method.is_none()) {
         let cd = e
             .above_chart_datum_m
             .map(|v| format!("{v:.4}"))
@@ -193,6 +286,12 @@ fn print_datums(o: &DatumsOutcome) {
             "  {:<6} {:>14} {:>14} {:>9.4}  (range {:.4} m)",
             name, "", "", e.u_m, e.range_m
         );
+    }
+    if let Some(h) = h {
+        print_harmonic(&mut w, h);
+    }
+    if let Some(p) = &o.high_low_waters_written {
+        let _ = writeln!(w, "wrote {}", p.display());
     }
     if f.zero_above_datum_m.is_none() {
         let _ = writeln!(

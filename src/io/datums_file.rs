@@ -52,7 +52,7 @@ use serde::{Deserialize, Serialize};
 
 use super::error::{IoError, Position};
 use super::numfmt::{round_to, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
-use crate::compute::datums::{Datum, Datums};
+use crate::compute::datums::{Datum, Datums, HarmonicLevel};
 use crate::compute::extrema::{ExtremaSettings, Tabulation};
 
 /// Layout name.
@@ -202,7 +202,7 @@ pub struct DatumsProvenance {
 pub const METHOD: &str = "turning points of the record low-passed (zero-phase) at smoothing_cutoff_min, confirmed by threshold_m each side and min_separation_h apart (closer pairs merged, doubles kept as one); heights from a least-squares parabola through the raw samples within 45 min; higher/lower within tidal days of 24.8412 h; datums over complete tidal days only";
 
 /// The uncertainty model, in words (written in every file).
-pub const UNCERTAINTY_MODEL: &str = "standard uncertainty relative to a long record of the same tide: each datum's day series split by its lag-one autocorrelation into a spring-neap sinusoid, reduced by 1/sqrt(1 + 2(pi L/P)^2) over the record's span L (P = 14.77 d), and white scatter, reduced by sqrt(days); not included: the 18.61-year nodal modulation, seasonal mean-level changes, slower modulations, the gauge zero's own error";
+pub const UNCERTAINTY_MODEL: &str = "standard uncertainty relative to a long record of the same tide: each datum's day series split, by least squares on its autocorrelations at lags of 1 to 4 tidal days, into sinusoids of the fortnight (14.77 d) and the tropical month (27.32 d), each putting the share G = 1/(1 + 2(pi L/P)^2) of its variance into the mean over the record's span L (u^2 = slow variance G/(1 - G)), and white scatter, reduced by sqrt(days); not included: the 18.61-year nodal modulation, seasonal mean-level changes, slower modulations, the gauge zero's own error";
 
 fn level(d: &Datum, zero: Option<f64>) -> LevelEntry {
     // `d` is above chart datum when the zero is tied, else above the gauge zero.
@@ -307,6 +307,96 @@ impl DatumsFile {
             }
         }
         v
+    }
+}
+
+/// How LAT and HAT are found, in words (their `method`).
+pub const LAT_HAT_METHOD: &str = "extreme of the prediction from the harmonic constants over 18.61 years every 6 minutes, refined in continuous time; u to first order from u(Z0), u(H), u(G) at its instant";
+
+/// How Z0 is found, in words (its `method`).
+pub const Z0_METHOD: &str = "Z0 of the harmonic constants (their mean level); u is their u_z0_m";
+
+/// Where the levels of harmonic constants are referred, and the gauge zero's height above chart
+/// datum when known.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LevelsReference {
+    /// The constants' levels are above chart datum (else above the gauge zero).
+    pub above_chart_datum: bool,
+    /// Height of the gauge zero above chart datum, metres.
+    pub zero_above_datum_m: Option<f64>,
+}
+
+/// A level of harmonic constants as a [`LevelEntry`], in both references when the zero is
+/// known; `None` when the levels are above chart datum and the zero is not known (no height
+/// above the gauge zero can be given).
+pub fn harmonic_entry(v: &HarmonicLevel, r: LevelsReference, method: &str) -> Option<LevelEntry> {
+    let (cd, gz) = match (r.above_chart_datum, r.zero_above_datum_m) {
+        (true, Some(z)) => (Some(v.value_m), v.value_m - z),
+        (true, None) => return None,
+        (false, z) => (z.map(|z| v.value_m + z), v.value_m),
+    };
+    Some(LevelEntry {
+        above_chart_datum_m: cd.map(|x| round_to(x, HEIGHT_DECIMALS)),
+        above_gauge_zero_m: round_to(gz, HEIGHT_DECIMALS),
+        u_m: round_to(v.u_m, UNCERTAINTY_DECIMALS),
+        days: None,
+        method: Some(method.into()),
+    })
+}
+
+/// Layout name of a file of LAT, HAT and Z0 from harmonic constants alone.
+pub const HARMONIC_DATUMS_FORMAT: &str = "ebbwise-harmonic-datums/1";
+
+/// LAT, HAT and Z0 from harmonic constants alone (`ebbwise datums --constants FILE` without a
+/// record), TOML, layout [`HARMONIC_DATUMS_FORMAT`].
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct HarmonicDatumsFile {
+    /// Layout name.
+    pub format: String,
+    /// The constants file.
+    pub constants: String,
+    /// SHA-256 of the constants file, lowercase hex.
+    pub constants_sha256: String,
+    /// The gauge id, when computed from a project.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gauge: Option<String>,
+    /// Height of the gauge zero above chart datum, metres (absent when not known).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub zero_above_datum_m: Option<f64>,
+    /// Start of the prediction, UTC.
+    pub prediction_start_utc: String,
+    /// Its span, Julian years.
+    pub prediction_years: f64,
+    /// Its step, minutes.
+    pub prediction_step_min: f64,
+    /// When LAT occurs, UTC.
+    pub lat_at_utc: String,
+    /// When HAT occurs, UTC.
+    pub hat_at_utc: String,
+    /// Why the constants may not stand for the place.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub warnings: Vec<String>,
+    /// The program that wrote the file.
+    pub tool_version: String,
+    /// The caution.
+    pub caution: String,
+    /// Lowest astronomical tide.
+    pub lat: LevelEntry,
+    /// Highest astronomical tide.
+    pub hat: LevelEntry,
+    /// The constants' mean level.
+    pub z0: LevelEntry,
+}
+
+impl HarmonicDatumsFile {
+    /// TOML text.
+    pub fn to_toml(&self) -> String {
+        let mut s = String::from(
+            "# LAT, HAT and Z0 from harmonic constants, written by ebbwise datums (layout described in docs/datums.md).\n",
+        );
+        s.push_str(&toml::to_string(self).expect("harmonic datums serialise"));
+        s
     }
 }
 

@@ -113,23 +113,31 @@ fn mixed_tide_against_its_analytic_daily_extremes() {
 }
 
 /// The mean of the envelope |a + b·e^{iθ}| over θ (by quadrature): the mean high water above Z0
-/// of a tide of two semidiurnal constituents whose relative phase θ turns slowly.
-fn mean_envelope(a: f64, b: f64) -> f64 {
+/// of a tide of two semidiurnal constituents whose relative phase θ turns slowly, when every
+/// phase θ counts alike; and the same mean **per high water**: the sum's phase turns at
+/// ω + Δω·(b² + ab cos θ)/|a + b e^{iθ}|² (the derivative of arg(a + b e^{iθ})), faster at springs,
+/// so high waters come more often at springs and their mean weights θ by that rate (Δω the
+/// speed difference, ω the first constituent's speed; analytic).
+fn mean_envelope(a: f64, b: f64, w: f64, dw: f64) -> (f64, f64) {
     let n = 100_000;
-    (0..n)
-        .map(|i| {
-            let th = std::f64::consts::TAU * (i as f64 + 0.5) / n as f64;
-            (a * a + b * b + 2.0 * a * b * th.cos()).sqrt()
-        })
-        .sum::<f64>()
-        / n as f64
+    let (mut plain, mut weighted, mut weights) = (0.0, 0.0, 0.0);
+    for i in 0..n {
+        let th = std::f64::consts::TAU * (i as f64 + 0.5) / n as f64;
+        let e2 = a * a + b * b + 2.0 * a * b * th.cos();
+        let rate = w + dw * (b * b + a * b * th.cos()) / e2;
+        plain += e2.sqrt();
+        weighted += e2.sqrt() * rate;
+        weights += rate;
+    }
+    (plain / n as f64, weighted / weights)
 }
 
 /// M2 + S2 over a year from the project's prediction (`predict_grid`, with nodal corrections):
-/// MHW − Z0 and Z0 − MLW are the mean envelope of the two amplitudes (f·H at mid-year), MN twice
-/// it, within 1 cm (the tabulated high waters equal the grid's own maxima, yet lie 6 mm above
-/// the envelope relation: not yet explained, hence the loose bound), and MSL = MTL = Z0
-/// (analytic relations of a two-constituent tide) within 1 and 3 mm.
+/// MHW − Z0 and Z0 − MLW are the mean envelope of the two amplitudes (f·H at mid-year) **per
+/// high (low) water** ([`mean_envelope`]), MN twice it, within 6 mm. Measured: MHW − Z0 lies
+/// 7.2 mm above the envelope averaged over phases alike; 2.7 mm of it is the high waters coming
+/// more often at springs (the per-high-water mean), 4.5 mm is not yet explained, hence the
+/// bound. MSL = MTL = Z0 (analytic relations of a two-constituent tide) within 1 and 3 mm.
 #[test]
 fn spring_neap_year_against_the_mean_envelope() {
     let (m2, s2) = (constituent("M2").unwrap(), constituent("S2").unwrap());
@@ -145,18 +153,23 @@ fn spring_neap_year_against_the_mean_envelope() {
     let mid = ebbwise::compute::astro::astro_at(T0 + 0.5 * n as f64 * 360.0);
     let a = nodal_fu(m2, &mid).0 * 1.1;
     let b = nodal_fu(s2, &mid).0 * 0.4;
-    let env = mean_envelope(a, b);
+    let (plain, env) = mean_envelope(a, b, m2.speed_deg_per_h, 30.0 - m2.speed_deg_per_h);
+    println!(
+        "MHW - Z0 {:.5}, Z0 - MLW {:.5}; envelope per high water {env:.5}, over phases {plain:.5}",
+        d.mhw.value_m - 1.8,
+        1.8 - d.mlw.value_m
+    );
     assert!(
-        (d.mhw.value_m - 1.8 - env).abs() < 1e-2,
+        (d.mhw.value_m - 1.8 - env).abs() < 6e-3,
         "{:?} vs {env}",
         d.mhw
     );
     assert!(
-        (1.8 - d.mlw.value_m - env).abs() < 1e-2,
+        (1.8 - d.mlw.value_m - env).abs() < 6e-3,
         "{:?} vs {env}",
         d.mlw
     );
-    assert!((d.mn.value_m - 2.0 * env).abs() < 2e-2, "{:?}", d.mn);
+    assert!((d.mn.value_m - 2.0 * env).abs() < 1.2e-2, "{:?}", d.mn);
     assert!((d.msl.value_m - 1.8).abs() < 1e-3, "{:?}", d.msl);
     assert!((d.mtl.value_m - 1.8).abs() < 3e-3, "{:?}", d.mtl);
     // A semidiurnal tide: two of each per tidal day, none doubled (analytic count).
@@ -179,7 +192,7 @@ fn spring_neap_year_against_the_mean_envelope() {
 /// anywhere in 2026 (seeded), each datum against the datum of the noiseless year (the long
 /// record of the same tide the model refers to). The share of errors within the stated u is
 /// printed (`--nocapture`) and must lie between 50 % and 90 % (68 % for a normal error), and
-/// within 2u at least 85 % (95 %).
+/// within 2u at least 90 % (95 %); each datum's at least 50 % within u and 80 % within 2u.
 #[test]
 fn stated_uncertainty_covers_the_actual_error() {
     use rand::{Rng, SeedableRng};
@@ -257,14 +270,30 @@ fn stated_uncertainty_covers_the_actual_error() {
         trials
     );
     assert!((0.5..=0.9).contains(&share), "{share}");
-    assert!(share2 >= 0.85, "{share2}");
+    assert!(share2 >= 0.9, "{share2}");
+    // Every datum on its own: within u at least half, within 2u at least 80 %.
+    for (j, (name, _)) in values(&truth).iter().enumerate() {
+        assert!(
+            within[j] * 2 >= trials,
+            "{name}: {} of {trials} within u",
+            within[j]
+        );
+        assert!(
+            within2[j] * 5 >= trials * 4,
+            "{name}: {} of {trials} within 2u",
+            within2[j]
+        );
+    }
 }
 
 /// `ebbwise datums` on a one-minute record with 3 cm noise, a stand at every high water and a
 /// secondary crest after it: the file's high and low waters number one per M2 period of the
 /// complete days (analytic), the doubles are reported, the gauge-zero heights are the
 /// chart-datum heights less the zero's height above chart datum (definition), and the default
-/// name is `<STEM>.datums.toml` (without QC: the synthetic crests are not the point here).
+/// name is `<STEM>.datums.toml`. Without QC: the planted secondary crest (0.6 m within about
+/// 30 minutes onto a clipped, flat top) is a step to QC's level-shift test (+0.45 m against a
+/// cubic over 120 min each side, limit 0.19 m), which sets aside 482 samples and leaves no
+/// complete day; a real stand is not flagged (`clean_stand_passes_qc`).
 #[test]
 fn command_writes_the_datums_file() {
     use rand::SeedableRng;
@@ -391,4 +420,222 @@ fn project_gauge_datums_are_checked() {
     p.write("g1.datums.toml", &datums_file_text("g1", 1.0, 2.105));
     let o = super::ebbwise(&["check", p.path("project.toml").to_str().unwrap()]);
     assert!(!stderr(&o).contains("datums"), "{}", stderr(&o));
+}
+
+/// A constants file (levels above chart datum, gauge zero 0.5 m below it, a 29-day record) of
+/// the given (name, speed °/h, amplitude m, u amplitude m, phase °) constituents, Z0 1.2 m.
+fn constants_text(waves: &[(&str, f64, f64, f64, f64)]) -> String {
+    let mut s = String::from(
+        "format = \"ebbwise-harmonic-constants/1\"\nlevels = \"above chart datum\"\nz0_m = 1.2\nu_z0_m = 0.002\nrayleigh_factor = 1.0\ndatum = \"chart datum\"\nzero_above_datum_m = -0.5\nrecord_start_utc = \"2026-01-01T00:00:00.000Z\"\nrecord_end_utc = \"2026-01-30T00:00:00.000Z\"\n",
+    );
+    for (name, speed, h, uh, g) in waves {
+        s.push_str(&format!(
+            "\n[[constituent]]\nname = \"{name}\"\nspeed_deg_per_h = {speed}\namplitude_m = {h}\nphase_deg = {g}\nu_amplitude_m = {uh}\nu_phase_deg = 0.5\n"
+        ));
+    }
+    s
+}
+
+/// `ebbwise datums --constants` alone: pure M2 (H = 1 m) gives LAT = Z0 − f̂·H and HAT =
+/// Z0 + f̂·H with f̂ = 1.0378 the largest nodal factor of M2 (textbook 1.0379, Pugh 1987, from
+/// memory; 1.03783 from the project's formula), within 0.5 mm; its u is
+/// √(u(Z0)² + (f̂·u(H))²) at the extreme (θ = 180°, so the phase's u drops out), within 0.2 mm;
+/// each level above the gauge zero is 0.5 m more (definition). M2 (1.0) + S2 (0.4 m): LAT lies
+/// between Z0 − f̂·H_M2 − H_S2 (a strict lower bound) and 2.5 mm above it (the alignment bound
+/// derived in docs/datums-computation.md). The month-long record gets the short-span warning.
+#[test]
+fn lat_and_hat_from_constants_through_the_command() {
+    let dir = tempfile::tempdir().unwrap();
+    let m2 = ("M2", 28.984_104_2, 1.0, 0.003, 10.0);
+    let s2 = ("S2", 30.0, 0.4, 0.003, 50.0);
+    std::fs::write(dir.path().join("m2.toml"), constants_text(&[m2])).unwrap();
+    std::fs::write(dir.path().join("ms.toml"), constants_text(&[m2, s2])).unwrap();
+    let f_max = 1.037_83;
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "m2.toml"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(
+        err.contains("LAT") && err.contains("less than a year"),
+        "{err}"
+    );
+    let text = std::fs::read_to_string(dir.path().join("m2.harmonic-datums.toml")).unwrap();
+    let v: toml::Value = toml::from_str(&text).unwrap();
+    assert_eq!(v["format"].as_str(), Some("ebbwise-harmonic-datums/1"));
+    let lat = v["lat"]["above_chart_datum_m"].as_float().unwrap();
+    let hat = v["hat"]["above_chart_datum_m"].as_float().unwrap();
+    assert!((lat - (1.2 - f_max)).abs() < 5e-4, "LAT {lat}");
+    assert!((hat - (1.2 + f_max)).abs() < 5e-4, "HAT {hat}");
+    let u = v["lat"]["u_m"].as_float().unwrap();
+    let u_expected = (0.002f64.powi(2) + (f_max * 0.003f64).powi(2)).sqrt();
+    assert!((u - u_expected).abs() < 2e-4, "u {u} vs {u_expected}");
+    let gz = v["lat"]["above_gauge_zero_m"].as_float().unwrap();
+    assert!((gz - (lat + 0.5)).abs() < 1.5e-4, "{gz}");
+    assert_eq!(v["z0"]["above_chart_datum_m"].as_float(), Some(1.2));
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "ms.toml"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let text = std::fs::read_to_string(dir.path().join("ms.harmonic-datums.toml")).unwrap();
+    let v: toml::Value = toml::from_str(&text).unwrap();
+    let lat = v["lat"]["above_chart_datum_m"].as_float().unwrap();
+    let bound = 1.2 - f_max * 1.0 - 0.4;
+    assert!(
+        lat >= bound - 1e-4 && lat <= bound + 2.5e-3,
+        "LAT {lat} vs {bound}"
+    );
+}
+
+/// A record with `--constants` and `--high-low-waters`: the datums file holds the observed
+/// datums and [lat], [hat], [z0] with their method; the CSV has one row per high or low water
+/// of the tabulation, at least 18 of each kind in 10 days, kinds alternating (a semidiurnal
+/// tide), each high water at Z0 + H above the zero less the zero's depth below chart datum
+/// (2.2 m, definition of the references) within 2 mm, and a class of `higher` or `lower`. Pure
+/// M2 of 1 m about 1.7 m above the zero: MHW − MLW = 2H within 0.4 mm (analytic), LAT from the
+/// constants Z0 − f̂·H.
+#[test]
+fn record_with_constants_and_high_low_waters() {
+    let dir = tempfile::tempdir().unwrap();
+    let w = 28.984_104_2 * DEG_PER_H;
+    let mut csv = String::from("time,height\n");
+    for i in 0..10 * 240 {
+        let x = i as f64 * 360.0;
+        let v = 1.7 + (w * x).cos();
+        let secs = i * 360;
+        csv.push_str(&format!(
+            "2026-03-{:02}T{:02}:{:02}:00Z,{v:.4}\n",
+            1 + secs / 86400,
+            (secs % 86400) / 3600,
+            (secs % 3600) / 60
+        ));
+    }
+    std::fs::write(dir.path().join("m2.csv"), csv).unwrap();
+    std::fs::write(
+        dir.path().join("k.toml"),
+        constants_text(&[("M2", 28.984_104_2, 1.0, 0.003, 0.0)]),
+    )
+    .unwrap();
+    let o = ebbwise_in(
+        dir.path(),
+        &[
+            "datums",
+            "m2.csv",
+            "--zero-above-datum-m",
+            "-0.5",
+            "--constants",
+            "k.toml",
+            "--high-low-waters",
+            "m2.hw.csv",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let v: toml::Value =
+        toml::from_str(&std::fs::read_to_string(dir.path().join("m2.datums.toml")).unwrap())
+            .unwrap();
+    let mn = v["mn"]["range_m"].as_float().unwrap();
+    assert!((mn - 2.0).abs() < 4e-4, "MN {mn}");
+    for t in ["lat", "hat", "z0"] {
+        assert!(v[t]["method"].as_str().is_some(), "{t}");
+    }
+    let lat = v["lat"]["above_chart_datum_m"].as_float().unwrap();
+    assert!((lat - (1.2 - 1.037_83)).abs() < 5e-4, "{lat}");
+    let hw = std::fs::read_to_string(dir.path().join("m2.hw.csv")).unwrap();
+    let mut lines = hw.lines();
+    assert_eq!(
+        lines.next(),
+        Some("time_utc,level_above_chart_datum_m,u_level_m,kind,class")
+    );
+    let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    let (highs, lows) = (
+        rows.iter().filter(|r| r[3] == "high").count(),
+        rows.iter().filter(|r| r[3] == "low").count(),
+    );
+    assert!(highs >= 18 && lows >= 18, "{highs} {lows}");
+    for p in rows.windows(2) {
+        assert_ne!(p[0][3], p[1][3], "kinds alternate: {p:?}");
+    }
+    for r in rows.iter().filter(|r| r[3] == "high") {
+        let h: f64 = r[1].parse().unwrap();
+        // 1.7 + 1.0 m above the zero, the zero 0.5 m below chart datum.
+        assert!((h - 2.2).abs() < 2e-3, "{r:?}");
+        assert!(r[4] == "higher" || r[4] == "lower");
+    }
+}
+
+/// Bad requests of `ebbwise datums --constants` (docs/robustness.md): a missing constants file
+/// is named; constants above chart datum without the zero's height name the field `levels` and
+/// ask for --zero-above-datum-m (and work with it); --high-low-waters without a record is
+/// refused (no high or low water is observed).
+#[test]
+fn bad_constants_requests_are_named() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "none.toml"]);
+    assert_ne!(o.status.code(), Some(0));
+    assert!(stderr(&o).contains("none.toml"), "{}", stderr(&o));
+    let text = constants_text(&[("M2", 28.984_104_2, 1.0, 0.003, 0.0)])
+        .replace("zero_above_datum_m = -0.5\n", "");
+    std::fs::write(dir.path().join("k.toml"), text).unwrap();
+    let o = ebbwise_in(dir.path(), &["datums", "--constants", "k.toml"]);
+    let e = stderr(&o);
+    assert_ne!(o.status.code(), Some(0), "{e}");
+    assert!(
+        e.contains("k.toml") && e.contains("field 'levels'") && e.contains("--zero-above-datum-m"),
+        "{e}"
+    );
+    let o = ebbwise_in(
+        dir.path(),
+        &[
+            "datums",
+            "--constants",
+            "k.toml",
+            "--zero-above-datum-m",
+            "-0.5",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let o = ebbwise_in(
+        dir.path(),
+        &[
+            "datums",
+            "--constants",
+            "k.toml",
+            "--zero-above-datum-m",
+            "-0.5",
+            "--high-low-waters",
+            "x.csv",
+        ],
+    );
+    assert_ne!(o.status.code(), Some(0));
+    assert!(stderr(&o).contains("needs a record"), "{}", stderr(&o));
+}
+
+/// A clean one-minute record rounded to millimetres, M2 1.2 m with M4 0.3 m at the phase that
+/// makes a stand at every high water (dh/dcos = 0 at the crest: the level stays within 1.2 mm for
+/// 30 minutes each side, analytic), goes through `ebbwise datums` **with** QC: nothing is set
+/// aside (the flat-line test asks 5 equal readings over 60 minutes and excuses stands at turning
+/// points), and MHW is the crest Z0 + 1.2 − 0.3 = 3.9 m within 2 mm (analytic).
+#[test]
+fn clean_stand_passes_qc() {
+    let dir = tempfile::tempdir().unwrap();
+    let w = 28.984_104_2 * DEG_PER_H;
+    let mut csv = String::from("time,height\n");
+    for i in 0..5 * 1440 {
+        let x = i as f64 * 60.0;
+        let v = 3.0 + 1.2 * (w * x).cos() - 0.3 * (2.0 * w * x).cos();
+        let secs = i * 60;
+        csv.push_str(&format!(
+            "2026-03-{:02}T{:02}:{:02}:00Z,{v:.3}\n",
+            1 + secs / 86400,
+            (secs % 86400) / 3600,
+            (secs % 3600) / 60
+        ));
+    }
+    std::fs::write(dir.path().join("stand.csv"), csv).unwrap();
+    let o = ebbwise_in(dir.path(), &["datums", "stand.csv"]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(0), "{err}");
+    assert!(!err.contains("set aside"), "{err}");
+    let v: toml::Value =
+        toml::from_str(&std::fs::read_to_string(dir.path().join("stand.datums.toml")).unwrap())
+            .unwrap();
+    assert_eq!(v["qc_applied"].as_bool(), Some(true));
+    let mhw = v["mhw"]["above_gauge_zero_m"].as_float().unwrap();
+    assert!((mhw - 3.9).abs() < 2e-3, "MHW {mhw}");
 }

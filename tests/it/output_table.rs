@@ -4,9 +4,10 @@
 //! (per zone, `--per-sounding`, `--per-line`), `apply`, `qc` (a project, and a lone record
 //! without a datum relation), `analyse` (a committed fixture record, with and without a datum
 //! relation), `predict` (from each of those constants files, and from one that does not say
-//! its datum) and `transfer` (the demo's short-term gauge) — and each file is checked against
-//! the table: a CSV header must equal the documented columns in order, every non-empty value
-//! must follow its column's decimal rule,
+//! its datum), `zones compare` (the gap-filled demo), `transfer` (the demo's short-term gauge) and `datums --high-low-waters` (the
+//! fixture record, tied and not) — and each file is checked against the table: a CSV header must
+//! equal the documented columns in order, every non-empty value must follow its column's
+//! decimal rule,
 //! every field of a JSON or TOML file whose name carries a unit must be listed and follow its
 //! rule, every documented file must be written and every documented name must be used. The
 //! expected values are the documentation's; the test then checks that a table with one wrong
@@ -573,6 +574,29 @@ fn write_every_output(out: &Path) {
         ],
         &[0],
     );
+    // Observed high and low waters, tied to chart datum and not; the datums files themselves
+    // outside the checked folder.
+    for (stem, zero) in [("datum", Some("0.5")), ("zero", None)] {
+        let datums_out = out.with_file_name(format!("{stem}.datums.toml"));
+        let mut args = vec![
+            "datums".to_string(),
+            record.to_string(),
+            "--out".into(),
+            datums_out.to_string_lossy().into_owned(),
+            "--high-low-waters".into(),
+            h(&format!("{stem}.observed-high-low-waters.csv")),
+        ];
+        if let Some(z) = zero {
+            args.extend(["--zero-above-datum-m".into(), z.to_string()]);
+        }
+        run_owned(
+            with(
+                &args.iter().map(String::as_str).collect::<Vec<_>>(),
+                &columns,
+            ),
+            &[0],
+        );
+    }
     for (constants, stem) in [
         (h("zero.constants.toml"), "zero"),
         (h("datum.constants.toml"), "datum"),
