@@ -7,16 +7,17 @@ use std::path::PathBuf;
 use ebbwise::compute::harmonic::{
     tide_type, AnalysisSettings, InferenceBasis, InferenceRule, NodalMode, U_PHASE_UNIFORM_DEG,
 };
-use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
-use ebbwise::io::timefmt::{parse_offset, utc_label};
+use ebbwise::io::timefmt::utc_label;
 use ebbwise::run::harmonics::{
     analyse_gauge, inference_rules_from, AnalyseOutcome, AnalyseRequest,
 };
 use ebbwise::CAUTION;
 
-use super::common::{find_gauge, median_m, DataOut, Stdout, Units};
+use super::common::{
+    find_gauge, median_m, naive_offset_option, naive_time_hint, sink, DataOut, Stdout, Units,
+};
 use super::Outcome;
 
 /// Where the nodal corrections f and u are evaluated (`--nodal`).
@@ -138,13 +139,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
     let mut stdout = Stdout::lock();
     let o = match (&a.record, &a.project) {
         (Some(record), _) => {
-            let naive = match &a.naive_time_utc_offset {
-                Some(o) => Some(
-                    parse_offset(o)
-                        .map_err(|e| anyhow::anyhow!("--naive-time-utc-offset {o}: {e}"))?,
-                ),
-                None => None,
-            };
+            let naive = naive_offset_option(a.naive_time_utc_offset.as_deref())?;
             let mut spec =
                 GaugeSpec::for_record(record, a.units.into(), a.zero_above_datum_m.unwrap_or(0.0));
             spec.time_column = a.time_column.clone();
@@ -176,17 +171,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
                 },
                 sink(&out, &mut stdout),
             )
-            .map_err(|e| {
-                let text = e.to_string();
-                if naive.is_none() && text.contains("has no UTC offset") {
-                    anyhow::anyhow!(
-                        "{}: for a record given on the command line, give --naive-time-utc-offset OFFSET (e.g. +01:00)",
-                        text.replace(" (set naive_time_utc_offset)", "")
-                    )
-                } else {
-                    anyhow::Error::from(e)
-                }
-            })?
+            .map_err(|e| naive_time_hint(e, naive.is_some(), "a record"))?
         }
         (None, Some(project)) => {
             let p = Project::load(project)?;
@@ -264,13 +249,6 @@ fn parse_infer(spec: &str) -> anyhow::Result<InferenceRule> {
         u_phase_diff_deg,
         basis: InferenceBasis::Given,
     })
-}
-
-fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> Sink<'a> {
-    match out {
-        DataOut::File(p) => Sink::File(p),
-        DataOut::Stdout => Sink::Stream(stdout),
-    }
 }
 
 /// "S2 ≈ 0.854 m, MS4 (amplitude unknown)".

@@ -208,3 +208,41 @@ pub fn median_m(heights_m: &[f64]) -> Option<f64> {
     let mid = v.len() / 2;
     Some(*v.select_nth_unstable_by(mid, f64::total_cmp).1)
 }
+
+/// `--naive-time-utc-offset` of a record given on the command line, parsed; the error names
+/// the option.
+pub fn naive_offset_option(given: Option<&str>) -> anyhow::Result<Option<chrono::FixedOffset>> {
+    given
+        .map(|o| {
+            ebbwise::io::timefmt::parse_offset(o)
+                .map_err(|e| anyhow::anyhow!("--naive-time-utc-offset {o}: {e}"))
+        })
+        .transpose()
+}
+
+/// A record given on the command line whose times carry no offset: the reader's advice (a
+/// project key) replaced by the option that sets it. `what` names the record(s): "a record",
+/// "records".
+pub fn naive_time_hint(
+    e: impl std::error::Error + Send + Sync + 'static,
+    offset_given: bool,
+    what: &str,
+) -> anyhow::Error {
+    let text = e.to_string();
+    if !offset_given && text.contains("has no UTC offset") {
+        anyhow::anyhow!(
+            "{}: for {what} given on the command line, give --naive-time-utc-offset OFFSET (e.g. +01:00)",
+            text.replace(" (set naive_time_utc_offset)", "")
+        )
+    } else {
+        anyhow::Error::from(e)
+    }
+}
+
+/// Where a data output goes: its file through a temporary name, or stdout.
+pub fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> ebbwise::io::atomic::Sink<'a> {
+    match out {
+        DataOut::File(p) => ebbwise::io::atomic::Sink::File(p),
+        DataOut::Stdout => ebbwise::io::atomic::Sink::Stream(stdout),
+    }
+}

@@ -4,17 +4,18 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
-use ebbwise::io::timefmt::{parse_offset, utc_label};
+use ebbwise::io::timefmt::utc_label;
 use ebbwise::run::datums::{
     datums_of_gauge, harmonic_datums_of, write_harmonic_datums, DatumsOutcome, DatumsRequest,
     HarmonicOutcome,
 };
 use ebbwise::CAUTION;
 
-use super::common::{find_gauge, median_m, DataOut, Stdout, Units};
+use super::common::{
+    find_gauge, median_m, naive_offset_option, naive_time_hint, sink, DataOut, Stdout, Units,
+};
 use super::Outcome;
 
 #[derive(Debug, clap::Args)]
@@ -102,13 +103,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
                 Some(c) => Some(harmonic_datums_of(c, a.zero_above_datum_m)?),
                 None => None,
             };
-            let naive = match &a.naive_time_utc_offset {
-                Some(o) => Some(
-                    parse_offset(o)
-                        .map_err(|e| anyhow::anyhow!("--naive-time-utc-offset {o}: {e}"))?,
-                ),
-                None => None,
-            };
+            let naive = naive_offset_option(a.naive_time_utc_offset.as_deref())?;
             let mut spec =
                 GaugeSpec::for_record(record, a.units.into(), a.zero_above_datum_m.unwrap_or(0.0));
             spec.time_column = a.time_column.clone();
@@ -135,17 +130,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
                 },
                 sink(&out, &mut stdout),
             )
-            .map_err(|e| {
-                let text = e.to_string();
-                if naive.is_none() && text.contains("has no UTC offset") {
-                    anyhow::anyhow!(
-                        "{}: for a record given on the command line, give --naive-time-utc-offset OFFSET (e.g. +01:00)",
-                        text.replace(" (set naive_time_utc_offset)", "")
-                    )
-                } else {
-                    anyhow::Error::from(e)
-                }
-            })?;
+            .map_err(|e| naive_time_hint(e, naive.is_some(), "a record"))?;
             (o, harmonic)
         }
         (None, Some(project)) => {
@@ -177,13 +162,6 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
     drop(stdout);
     print_datums(&o.0, o.1.as_ref());
     Ok(Outcome::Done)
-}
-
-fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> Sink<'a> {
-    match out {
-        DataOut::File(p) => Sink::File(p),
-        DataOut::Stdout => Sink::Stream(stdout),
-    }
 }
 
 /// LAT, HAT and Z0 lines and the constants' warnings.

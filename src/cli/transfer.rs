@@ -5,16 +5,17 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use ebbwise::compute::transfer::{Method, SubordinateDatums, Transferred};
-use ebbwise::io::atomic::Sink;
 use ebbwise::io::gauge_csv::read_gauge_record;
 use ebbwise::io::project::{GaugeSpec, Project, QcSpec};
-use ebbwise::io::timefmt::{parse_offset, utc_label};
+use ebbwise::io::timefmt::utc_label;
 use ebbwise::run::transfer::{
     reason_words, transfer_datum, GaugeInput, TransferOutcome, TransferRequest, DEFAULT_MIN_DAYS,
 };
 use ebbwise::CAUTION;
 
-use super::common::{find_gauge, median_m, DataOut, Stdout, Units};
+use super::common::{
+    find_gauge, median_m, naive_offset_option, naive_time_hint, sink, DataOut, Stdout, Units,
+};
 use super::Outcome;
 
 /// `--method`.
@@ -140,13 +141,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             let control_datums = a.control_datums.as_ref().ok_or_else(|| {
                 anyhow::anyhow!("give --control-datums FILE (the control's datums file)")
             })?;
-            let naive = match &a.naive_time_utc_offset {
-                Some(o) => Some(
-                    parse_offset(o)
-                        .map_err(|e| anyhow::anyhow!("--naive-time-utc-offset {o}: {e}"))?,
-                ),
-                None => None,
-            };
+            let naive = naive_offset_option(a.naive_time_utc_offset.as_deref())?;
             let sub = record_spec(record, a.units, &a.height_column, &a, naive);
             let ctl = record_spec(
                 control_record,
@@ -181,17 +176,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
                 },
                 sink(&out, &mut stdout),
             )
-            .map_err(|e| {
-                let text = e.to_string();
-                if naive.is_none() && text.contains("has no UTC offset") {
-                    anyhow::anyhow!(
-                        "{}: for records given on the command line, give --naive-time-utc-offset OFFSET (e.g. +01:00)",
-                        text.replace(" (set naive_time_utc_offset)", "")
-                    )
-                } else {
-                    anyhow::Error::from(e)
-                }
-            })?
+            .map_err(|e| naive_time_hint(e, naive.is_some(), "records"))?
         }
         (None, Some(project)) => {
             let p = Project::load(project)?;
@@ -251,13 +236,6 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
     drop(stdout);
     print_transfer(&o);
     Ok(Outcome::Done)
-}
-
-fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> Sink<'a> {
-    match out {
-        DataOut::File(p) => Sink::File(p),
-        DataOut::Stdout => Sink::Stream(stdout),
-    }
 }
 
 fn rows(d: &SubordinateDatums) -> [(&'static str, Transferred); 11] {
