@@ -111,9 +111,7 @@ pub fn project_field(project: &Project) -> Result<ProjectField, Vec<Finding>> {
     let n = found.len().max(1) as f64;
     let lon0 = found.iter().map(|s| s.1).sum::<f64>() / n;
     let lat0 = found.iter().map(|s| s.2).sum::<f64>() / n;
-    let local_crs = format!(
-        "+proj=aeqd +lat_0={lat0:.6} +lon_0={lon0:.6} +datum=WGS84 +units=m +no_defs +type=crs"
-    );
+    let local_crs = crate::io::crs::local_metres_crs(lon0, lat0);
     let at = Position::file(&project.path);
     let crs_err = |e: crate::io::crs::CrsError| vec![Finding::error(at.clone(), e.to_string())];
     let to_local = Transformer::new("EPSG:4326", &local_crs).map_err(crs_err)?;

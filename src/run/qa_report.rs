@@ -162,11 +162,7 @@ pub fn boundary_steps_of(
         lo = geo::coord! { x: lo.x.min(b.min().x), y: lo.y.min(b.min().y) };
         hi = geo::coord! { x: hi.x.max(b.max().x), y: hi.y.max(b.max().y) };
     }
-    let crs = format!(
-        "+proj=aeqd +lat_0={:.6} +lon_0={:.6} +datum=WGS84 +units=m +no_defs +type=crs",
-        0.5 * (lo.y + hi.y),
-        0.5 * (lo.x + hi.x)
-    );
+    let crs = crate::io::crs::local_metres_crs(0.5 * (lo.x + hi.x), 0.5 * (lo.y + hi.y));
     let Ok(t) = Transformer::new("EPSG:4326", &crs) else {
         return Vec::new();
     };
