@@ -9,7 +9,7 @@ use std::collections::HashMap;
 use std::sync::Arc;
 
 use super::locate::ZoneLocator;
-use super::reduce::{CarriedTideU, StepSource, TideModel, TideOutcome};
+use super::reduce::{Query, Scratch, StepSource, TideModel, TideOutcome, TideU};
 use super::series::TimeInterpolation;
 use super::uncertainty::{tide_budget, GaugeUncertainty, ZoneUncertainty};
 use super::zoning::{FeedState, Gauge, Zone};
@@ -191,7 +191,7 @@ pub fn zone_corrector_with(
                 let i = st.level.bracket;
                 s.times_s.get(i) == Some(&shifted) || s.times_s.get(i + 1) == Some(&shifted)
             });
-            let b = unc.map(|u| tide_budget(zone, gauges, u.gauge_u, u.zone_u, u.rates, t, states));
+            let b = unc.map(|u| tide_budget(zone, gauges, u.gauge_u, u.zone_u, u.rates, states));
             Corrector {
                 t_s: t,
                 tide_m: Some(tide),
@@ -224,7 +224,7 @@ pub enum SeriesValue {
         /// Tide above chart datum, metres.
         tide_m: f64,
         /// Uncertainty interpolated the same way.
-        carried_u: Option<CarriedTideU>,
+        carried_u: Option<TideU>,
         /// How the tide was gap-filled, when it rests on a `gap_filled` row ([`series_value`]).
         filled: Option<Arc<str>>,
     },
@@ -284,8 +284,8 @@ fn has_renormalised(c: &Corrector) -> bool {
         })
 }
 
-fn carried(c: &Corrector) -> Option<CarriedTideU> {
-    Some(CarriedTideU {
+fn carried(c: &Corrector) -> Option<TideU> {
+    Some(TideU {
         u_tide_m: c.u_tide_m?,
         parts_m: c.u_parts_m?,
     })
@@ -341,12 +341,12 @@ pub fn series_value(series: &[Corrector], t_s: f64, max_step_s: f64) -> SeriesVa
         // interpolation that would halve the step.
         (Some(ua), Some(ub)) if has_renormalised(a) != has_renormalised(b) => {
             let parts_m: [f64; 5] = std::array::from_fn(|k| ua.parts_m[k].max(ub.parts_m[k]));
-            Some(CarriedTideU {
+            Some(TideU {
                 u_tide_m: parts_m.iter().map(|x| x * x).sum::<f64>().sqrt(),
                 parts_m,
             })
         }
-        (Some(ua), Some(ub)) => Some(CarriedTideU {
+        (Some(ua), Some(ub)) => Some(TideU {
             u_tide_m: lerp(ua.u_tide_m, ub.u_tide_m),
             parts_m: std::array::from_fn(|k| lerp(ua.parts_m[k], ub.parts_m[k])),
         }),
@@ -400,14 +400,8 @@ pub struct ZoneSeriesModel<'a> {
 }
 
 impl TideModel for ZoneSeriesModel<'_> {
-    fn tide_at(
-        &self,
-        x: f64,
-        y: f64,
-        t_s: f64,
-        _line: &str,
-        _s: &mut Vec<FeedState>,
-    ) -> TideOutcome {
+    fn tide_at(&self, q: &Query, _s: &mut Scratch) -> TideOutcome {
+        let (x, y, t_s) = (q.x, q.y, q.t_s);
         let Some(zone) = self.locator.locate(x, y) else {
             return TideOutcome::Outside;
         };
@@ -419,7 +413,7 @@ impl TideModel for ZoneSeriesModel<'_> {
             } => TideOutcome::Tide {
                 zone,
                 tide_m,
-                carried_u,
+                u: carried_u,
                 filled,
             },
             SeriesValue::Unbridged { from_s, to_s } => TideOutcome::Unbridged {
@@ -464,11 +458,11 @@ pub struct LocatedFirst<'a> {
 }
 
 impl TideModel for LocatedFirst<'_> {
-    fn tide_at(&self, x: f64, y: f64, t_s: f64, line: &str, s: &mut Vec<FeedState>) -> TideOutcome {
-        if self.locator.locate(x, y).is_none() {
+    fn tide_at(&self, q: &Query, s: &mut Scratch) -> TideOutcome {
+        if self.locator.locate(q.x, q.y).is_none() {
             return TideOutcome::Outside;
         }
-        self.inner.tide_at(x, y, t_s, line, s)
+        self.inner.tide_at(q, s)
     }
 }
 
@@ -484,14 +478,8 @@ pub struct LineSeriesModel {
 }
 
 impl TideModel for LineSeriesModel {
-    fn tide_at(
-        &self,
-        _x: f64,
-        _y: f64,
-        t_s: f64,
-        line: &str,
-        _s: &mut Vec<FeedState>,
-    ) -> TideOutcome {
+    fn tide_at(&self, q: &Query, _s: &mut Scratch) -> TideOutcome {
+        let (t_s, line) = (q.t_s, q.line);
         let Some(ls) = self.lines.get(line) else {
             return TideOutcome::NoCorrection {
                 zone: None,
@@ -519,7 +507,7 @@ impl TideModel for LineSeriesModel {
             ) => TideOutcome::Tide {
                 zone,
                 tide_m,
-                carried_u,
+                u: carried_u,
                 filled,
             },
             (SeriesValue::Unbridged { from_s, to_s }, _) => TideOutcome::Unbridged {
@@ -555,7 +543,7 @@ pub enum SoundingCorrection {
         /// Tide above chart datum, metres.
         tide_m: f64,
         /// Its uncertainty, when the row carries it and its components.
-        carried_u: Option<CarriedTideU>,
+        carried_u: Option<TideU>,
         /// The row's status was `gap_filled`: its detail (how the tide was filled).
         filled: Option<Arc<str>>,
     },
@@ -631,14 +619,8 @@ pub struct SoundingTableModel {
 }
 
 impl TideModel for SoundingTableModel {
-    fn tide_at(
-        &self,
-        _x: f64,
-        _y: f64,
-        t_s: f64,
-        line: &str,
-        _s: &mut Vec<FeedState>,
-    ) -> TideOutcome {
+    fn tide_at(&self, q: &Query, _s: &mut Scratch) -> TideOutcome {
+        let (t_s, line) = (q.t_s, q.line);
         match self.table.get(&sounding_key(line, t_s)) {
             Some(SoundingCorrection::Tide {
                 zone,
@@ -648,7 +630,7 @@ impl TideModel for SoundingTableModel {
             }) => TideOutcome::Tide {
                 zone: *zone,
                 tide_m: *tide_m,
-                carried_u: *carried_u,
+                u: *carried_u,
                 filled: filled.clone(),
             },
             Some(SoundingCorrection::Outside) => TideOutcome::Outside,

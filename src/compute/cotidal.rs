@@ -241,31 +241,34 @@ impl Field {
 
     /// The stations' weights at `(x_m, y_m)` (see the module's docs).
     pub fn weights(&self, x_m: f64, y_m: f64) -> Weights {
+        let mut w = Vec::with_capacity(3);
+        let outside_by_m = self.weights_into(x_m, y_m, &mut w);
+        Weights { w, outside_by_m }
+    }
+
+    /// As [`Field::weights`], into `out` (cleared first; no allocation once it has room for
+    /// three); returns how far the place lies outside the hull, metres.
+    pub fn weights_into(&self, x_m: f64, y_m: f64, out: &mut Vec<(usize, f64)>) -> f64 {
+        out.clear();
         let p = Point2::new(x_m, y_m);
         match self.tri.locate(p) {
-            PositionInTriangulation::OnVertex(v) => Weights {
-                w: vec![(self.tri.vertex(v).data().station, 1.0)],
-                outside_by_m: 0.0,
-            },
+            PositionInTriangulation::OnVertex(v) => {
+                out.push((self.tri.vertex(v).data().station, 1.0));
+                0.0
+            }
             PositionInTriangulation::OnFace(f) => {
                 let face = self.tri.face(f);
                 let b = face.barycentric_interpolation(p);
                 let v = face.vertices();
-                Weights {
-                    w: (0..3)
-                        .map(|i| (v[i].data().station, b[i].max(0.0)))
-                        .collect(),
-                    outside_by_m: 0.0,
-                }
+                out.extend((0..3).map(|i| (v[i].data().station, b[i].max(0.0))));
+                0.0
             }
             PositionInTriangulation::OnEdge(e) => {
                 let e = self.tri.directed_edge(e);
                 let (a, b) = (e.from().data().station, e.to().data().station);
                 let (wa, wb, _) = self.on_segment(a, b, x_m, y_m);
-                Weights {
-                    w: vec![(a, wa), (b, wb)],
-                    outside_by_m: 0.0,
-                }
+                out.extend([(a, wa), (b, wb)]);
+                0.0
             }
             PositionInTriangulation::OutsideOfConvexHull(_)
             | PositionInTriangulation::NoTriangulation => {
@@ -277,12 +280,15 @@ impl Field {
                     }
                 }
                 let (d, a, b, wa, wb) = best.expect("a triangulation has a hull");
-                Weights {
-                    w: vec![(a, wa), (b, wb)],
-                    outside_by_m: d,
-                }
+                out.extend([(a, wa), (b, wb)]);
+                d
             }
         }
+    }
+
+    /// Station `i`'s phasor `H·e^{−iG}` of common constituent `k` as (re, im), metres.
+    pub fn station_phasor(&self, i: usize, k: usize) -> (f64, f64) {
+        self.phasors[i][k]
     }
 
     /// Weights of the nearest point of segment a–b, and the distance to it.
@@ -343,7 +349,7 @@ impl Dominant {
     }
 
     /// The species partner whose amplitude joins the dominant's in the range ratio.
-    fn partner(self) -> &'static str {
+    pub fn partner(self) -> &'static str {
         match self {
             Dominant::M2 => "S2",
             Dominant::K1 => "O1",

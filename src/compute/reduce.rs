@@ -1,13 +1,15 @@
 //! Reduction of one sounding to chart datum, and the spatial tide models behind it.
 //!
-//! Owns: the [`TideModel`] trait (a spatial tide method is a value: discrete zoning now, smooth
-//! fields later), the [`DiscreteZoning`] model, [`SoundingStatus`] and [`reduce_depth`].
+//! Owns: the [`TideModel`] trait (a spatial tide method is a value that gives its tide and its
+//! uncertainty budget: discrete zoning here, the continuous fields in `compute::continuous`,
+//! correction files in `compute::correctors`), the [`DiscreteZoning`] model, [`SoundingStatus`] and [`reduce_depth`].
 //!
 //! Reduced depth = observed depth − tide. Depths positive down, tide positive up; a negative
 //! reduced depth is a drying height and is kept.
 
 use super::locate::ZoneLocator;
 use super::series::TimeInterpolation;
+use super::uncertainty::{tide_budget, GaugeSlopes, GaugeUncertainty, ZoneUncertainty};
 use super::zoning::{FeedState, Gauge, NoZoneTide, Zone};
 
 /// What became of one input row. Every row of every input gets exactly one.
@@ -103,21 +105,56 @@ impl serde::Serialize for StatusCounts {
     }
 }
 
+/// Where and when a tide is wanted: one sounding.
+#[derive(Debug, Clone, Copy)]
+pub struct Query<'a> {
+    /// Easting or longitude, in the plane the model was built for.
+    pub x: f64,
+    /// Northing or latitude, in the plane the model was built for.
+    pub y: f64,
+    /// UTC time, seconds since the Unix epoch.
+    pub t_s: f64,
+    /// The sounding's survey line (used by models keyed by sounding).
+    pub line: &'a str,
+}
+
+/// Scratch space a model reuses across calls on one thread. The caller clears it before each
+/// call ([`Scratch::clear`]); after a [`TideOutcome::Tide`], `states` holds the gauge states the
+/// tide rests on (empty for a tide carried from a correction file), which is how the run tells
+/// a gap-filled tide from the gauges, whatever the model.
+#[derive(Debug, Default, Clone)]
+pub struct Scratch {
+    /// Gauge states the tide used, one per gauge (or feed) in the model's order.
+    pub states: Vec<FeedState>,
+    /// Interpolation weights (station index, weight), for models on a field.
+    pub weights: Vec<(usize, f64)>,
+}
+
+impl Scratch {
+    /// Empties the scratch for the next call.
+    pub fn clear(&mut self) {
+        self.states.clear();
+        self.weights.clear();
+    }
+}
+
 /// The tide a model found at a place and time.
 #[derive(Debug, Clone, PartialEq)]
 pub enum TideOutcome {
     /// Tide above chart datum in a zone.
     Tide {
-        /// Zone index.
+        /// Zone index (the reporting unit the sounding lies in).
         zone: usize,
         /// Tide above chart datum, metres, positive up.
         tide_m: f64,
-        /// The tide's standard uncertainty as a source gave it (a correction file); `None` when
-        /// the model computes it from the gauges (or the source has none).
-        carried_u: Option<CarriedTideU>,
+        /// The tide's standard uncertainty and its components: computed by the model from its
+        /// inputs, or as a correction file carries it; `None` when the run has no uncertainty
+        /// inputs (or the source has none).
+        u: Option<TideU>,
         /// A source that says the tide rests on gap-filled gauge samples (a correction file's
         /// `gap_filled` row) gives how, in the words of `status_detail`; `None` from a model
-        /// that reads the gauges (the run tells a filled tide from the gauge states).
+        /// that reads the gauges (the run tells a filled tide from the gauge states in the
+        /// [`Scratch`]).
         filled: Option<std::sync::Arc<str>>,
     },
     /// The place is outside the model's area.
@@ -143,7 +180,7 @@ pub enum TideOutcome {
         /// Where the step comes from.
         step_from: StepSource,
     },
-    /// A correction-based model has no tide for the sounding.
+    /// A model has no tide for the sounding.
     NoCorrection {
         /// Zone index, when known.
         zone: Option<usize>,
@@ -154,14 +191,23 @@ pub enum TideOutcome {
     },
 }
 
-/// The standard uncertainty of a tide carried from a correction file: the combined value and
-/// its five components in [`super::uncertainty::TIDE_COMPONENTS`] order (metres, 1σ).
+/// The standard uncertainty of a tide: the combined value and its five components in
+/// [`super::uncertainty::TIDE_COMPONENTS`] order (metres, 1σ).
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct CarriedTideU {
+pub struct TideU {
     /// Combined standard uncertainty of the tide, metres.
     pub u_tide_m: f64,
     /// Components, metres (standard uncertainties).
     pub parts_m: [f64; 5],
+}
+
+impl From<super::uncertainty::TideBudget> for TideU {
+    fn from(b: super::uncertainty::TideBudget) -> TideU {
+        TideU {
+            u_tide_m: b.u_tide_m(),
+            parts_m: b.components_m(),
+        }
+    }
 }
 
 /// Where the step of a correction series comes from.
@@ -173,20 +219,24 @@ pub enum StepSource {
     Series,
 }
 
-/// A spatial tide model: tide above chart datum at any place and time of its area.
+/// A spatial tide model: tide above chart datum, with its uncertainty budget, at any place and
+/// time of its area. Discrete zoning, the continuous fields and the correction files are all
+/// values of this trait; the reduction loop knows none of them by name.
 pub trait TideModel: Sync {
-    /// Tide at `(x, y)` (in the plane the model was built for) and UTC time `t_s`, for a
-    /// sounding of survey line `line` (used by models keyed by sounding).
-    ///
-    /// `states` receives the gauge states used (scratch space reused across calls).
-    fn tide_at(
-        &self,
-        x: f64,
-        y: f64,
-        t_s: f64,
-        line: &str,
-        states: &mut Vec<FeedState>,
-    ) -> TideOutcome;
+    /// Tide for the sounding `q`. `s` is scratch space, cleared by the caller; on a tide from
+    /// the gauges it receives the gauge states used.
+    fn tide_at(&self, q: &Query, s: &mut Scratch) -> TideOutcome;
+}
+
+/// Uncertainty inputs of a model that reads the gauges (zoning or field).
+#[derive(Debug, Clone, Copy)]
+pub struct GaugeTideU<'a> {
+    /// Per gauge, gauge order.
+    pub gauge_u: &'a [GaugeUncertainty],
+    /// Per zone, zone order.
+    pub zone_u: &'a [ZoneUncertainty],
+    /// Each gauge's rate of change and curvature (for the timing term).
+    pub rates: &'a [GaugeSlopes],
 }
 
 /// Discrete tidal zoning: polygons, each with its correctors.
@@ -203,26 +253,22 @@ pub struct DiscreteZoning<'a> {
     /// A zone fed by several gauges, one without a level, takes the others with their weights
     /// renormalised ([`Zone::tide_at_renormalising`]; `[gap_fill] renormalise_feeds`).
     pub renormalise: bool,
+    /// Uncertainty inputs; `None`: no budget.
+    pub unc: Option<GaugeTideU<'a>>,
 }
 
 impl TideModel for DiscreteZoning<'_> {
-    fn tide_at(
-        &self,
-        x: f64,
-        y: f64,
-        t_s: f64,
-        _line: &str,
-        states: &mut Vec<FeedState>,
-    ) -> TideOutcome {
-        let Some(zone) = self.locator.locate(x, y) else {
+    fn tide_at(&self, q: &Query, s: &mut Scratch) -> TideOutcome {
+        let Some(zone) = self.locator.locate(q.x, q.y) else {
             return TideOutcome::Outside;
         };
         let z = &self.zones[zone];
+        let states = &mut s.states;
         let found = if self.renormalise {
-            z.tide_at_renormalising(self.gauges, self.interp, t_s, states)
+            z.tide_at_renormalising(self.gauges, self.interp, q.t_s, states)
                 .map(|(t, _)| t)
         } else {
-            z.tide_at(self.gauges, self.interp, t_s, states)
+            z.tide_at(self.gauges, self.interp, q.t_s, states)
         };
         match found {
             // A tide that is not a finite number is never applied (the zoning's bounds make it
@@ -235,7 +281,17 @@ impl TideModel for DiscreteZoning<'_> {
             Ok(tide_m) => TideOutcome::Tide {
                 zone,
                 tide_m,
-                carried_u: None,
+                u: self.unc.map(|u| {
+                    tide_budget(
+                        z,
+                        self.gauges,
+                        u.gauge_u,
+                        &u.zone_u[zone],
+                        u.rates,
+                        states,
+                    )
+                    .into()
+                }),
                 filled: None,
             },
             Err(why) => TideOutcome::NoData { zone, why },
@@ -333,23 +389,30 @@ mod tests {
             locator: &loc,
             interp: &Linear,
             renormalise: false,
+            unc: None,
         };
-        let mut st = Vec::new();
+        let mut st = Scratch::default();
+        let q = |x: f64, y: f64, t_s: f64| Query {
+            x,
+            y,
+            t_s,
+            line: "",
+        };
         assert_eq!(
-            m.tide_at(0.9, 0.1, 300.0, "", &mut st),
+            m.tide_at(&q(0.9, 0.1, 300.0), &mut st),
             TideOutcome::Tide {
                 zone: 0,
                 tide_m: 1.5,
-                carried_u: None,
+                u: None,
                 filled: None,
             }
         );
         assert_eq!(
-            m.tide_at(0.1, 0.9, 300.0, "", &mut st),
+            m.tide_at(&q(0.1, 0.9, 300.0), &mut st),
             TideOutcome::Outside
         );
         assert!(matches!(
-            m.tide_at(0.9, 0.1, 900.0, "", &mut st),
+            m.tide_at(&q(0.9, 0.1, 900.0), &mut st),
             TideOutcome::NoData { zone: 0, .. }
         ));
     }

@@ -433,8 +433,8 @@ pub fn interpolation_error_m(
     interior + end(q_first, i - ia, f) + end(q_last, ib - 1 - i, 1.0 - f)
 }
 
-/// Tide uncertainty budget of `zone` at UTC `t_s`, given the feed states its tide used and each
-/// gauge's [`rate_series`].
+/// Tide uncertainty budget of `zone`, given the feed states its tide used (each at its shifted
+/// time) and each gauge's [`rate_series`].
 ///
 /// The zone's range-ratio and time-corrector errors are one error each, common to every feed:
 /// their sensitivities are summed over the feeds before squaring (correlation 1). The timing
@@ -451,7 +451,6 @@ pub fn tide_budget(
     gauge_u: &[GaugeUncertainty],
     zone_u: &ZoneUncertainty,
     rates: &[GaugeSlopes],
-    t_s: f64,
     states: &[FeedState],
 ) -> TideBudget {
     let mut v = [0.0; 5];
@@ -475,20 +474,9 @@ pub fn tide_budget(
             MeanLevelForm::ZoneMean { .. } => st.level.height_m - g.mean_level_above_datum_m,
             MeanLevelForm::Scaled => st.level.height_m,
         };
-        let shifted = t_s - feed.time_corrector_min * 60.0;
-        let rs = &rates[feed.gauge];
-        let (rate, curvature) = if rs.times_s.len() == g.series.times_s.len() {
-            rs.at(st.level.bracket, shifted)
-        } else {
-            (st.level.rate_m_per_s, 0.0)
-        };
-        let e_interp = if rs.times_s.len() == g.series.times_s.len() {
-            interpolation_error_m(&g.series, rs, st.level.bracket, shifted)
-        } else {
-            0.0
-        };
-        let u_fill = g.series.fill_u_at_m(st.level.bracket, shifted);
-        v[0] += wr * wr * (gu.u_gauge_m.powi(2) + e_interp * e_interp + u_fill * u_fill);
+        let lt = level_terms(g, gu, &rates[feed.gauge], st);
+        v[0] += wr * wr * lt.var_m2;
+        let (rate, curvature) = (lt.rate_m_per_s, lt.curvature_m_per_s2);
         c_range += st.weight * r;
         c_time += wr * rate;
         c_time2 += wr * curvature;
@@ -498,6 +486,47 @@ pub fn tide_budget(
     v[1] = zone_datum_u(zone, gauge_u, zone_u).0.powi(2);
     v[4] = zone_u.u_zone_m.powi(2);
     TideBudget { variances_m2: v }
+}
+
+/// One gauge level's own terms at the (shifted) time it was taken.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LevelTerms {
+    /// Variance of the level: sensor, interpolation between samples and gap fill, m².
+    pub var_m2: f64,
+    /// Rate of change of the level, m/s.
+    pub rate_m_per_s: f64,
+    /// Curvature of the level, m/s².
+    pub curvature_m_per_s2: f64,
+}
+
+/// The level terms of gauge state `st` of gauge `g` (its `at_s` the shifted time): the
+/// sensor's `u_gauge_m`, the error of interpolating between samples and the fill's own
+/// uncertainty as variances; the rate and curvature from the record's slopes (the level's own
+/// rate, curvature 0, when the slopes were not built for this record).
+pub fn level_terms(
+    g: &Gauge,
+    gu: &GaugeUncertainty,
+    rs: &GaugeSlopes,
+    st: &FeedState,
+) -> LevelTerms {
+    let shifted = st.at_s;
+    let built = rs.times_s.len() == g.series.times_s.len();
+    let (rate, curvature) = if built {
+        rs.at(st.level.bracket, shifted)
+    } else {
+        (st.level.rate_m_per_s, 0.0)
+    };
+    let e_interp = if built {
+        interpolation_error_m(&g.series, rs, st.level.bracket, shifted)
+    } else {
+        0.0
+    };
+    let u_fill = g.series.fill_u_at_m(st.level.bracket, shifted);
+    LevelTerms {
+        var_m2: gu.u_gauge_m.powi(2) + e_interp * e_interp + u_fill * u_fill,
+        rate_m_per_s: rate,
+        curvature_m_per_s2: curvature,
+    }
 }
 
 /// How the sounding's own standard uncertainty is found.
@@ -790,7 +819,7 @@ mod tests {
         let t = period_s / 4.0;
         let mut st = Vec::new();
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let b = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st);
+        let b = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st);
         let c = b.components_m();
         assert_relative_eq!(c[0], 0.024, epsilon = 1e-12);
         assert_relative_eq!(c[1], 0.04, epsilon = 1e-12);
@@ -802,12 +831,12 @@ mod tests {
         // At high water (t = 0 + one period): g − M = 1.5, ġ = 0: range = 1.5 × 0.03 = 0.045 m.
         let t = period_s;
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).components_m();
         assert_relative_eq!(c[2], 0.045, max_relative = 1e-3);
         // Scaled form: the range term is driven by g itself: 4.0 × 0.03 = 0.12 m.
         let scaled = one_feed_zone(0.0, 1.2, MeanLevelForm::Scaled);
         scaled.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&scaled, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        let c = tide_budget(&scaled, &g, &gu, &zu, &rates(&g), &st).components_m();
         assert_relative_eq!(c[2], 0.12, max_relative = 1e-3);
     }
 
@@ -837,13 +866,13 @@ mod tests {
         // Mid-tide at the gauge's corrected time: t − 20 min = T/4.
         let t_mid = period_s / 4.0 + 1200.0;
         zone.tide_at(&g, &Linear, t_mid, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t_mid, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).components_m();
         let max = c.iter().cloned().fold(0.0, f64::max);
         assert_eq!(c[3], max, "timing dominates at mid-tide: {c:?}");
         // High water at the corrected time: t − 20 min = T.
         let t_hw = period_s + 1200.0;
         zone.tide_at(&g, &Linear, t_hw, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t_hw, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).components_m();
         // There the first-order term vanishes and the second-order one is left:
         // R A ω² u²_Δt / √2, times 2 (1 − cos x) / x² (x = ω · 30 min) for the ±30-min second
         // difference of a cosine: 1.1 × 1.5 × ω² × (600 s)² / √2 = 8.29 mm.
@@ -928,7 +957,7 @@ mod tests {
             for t in [3.0 * 3600.0, 7.5 * 3600.0, 10.2 * 3600.0] {
                 let mut st = Vec::new();
                 zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-                let gum = tide_budget(zone, &g, &gu, &zu, &rates(&g), t, &st).u_tide_m();
+                let gum = tide_budget(zone, &g, &gu, &zu, &rates(&g), &st).u_tide_m();
                 let draws = 200_000;
                 let (mut sum, mut sum2) = (0.0, 0.0);
                 for _ in 0..draws {
@@ -1031,7 +1060,7 @@ mod tests {
             };
             let mut st = Vec::new();
             zone.tide_at(&base, &Linear, t, &mut st).unwrap();
-            let gum = tide_budget(&zone, &base, &gu, &zu, &rates(&base), t, &st).components_m();
+            let gum = tide_budget(&zone, &base, &gu, &zu, &rates(&base), &st).components_m();
             assert_relative_eq!(gum[1], by_hand, max_relative = 1e-5);
             assert!(gum[0] == 0.0 && gum[2] == 0.0 && gum[3] == 0.0 && gum[4] == 0.0);
             let draws: Vec<f64> = (0..40_000)
@@ -1119,12 +1148,12 @@ mod tests {
         let mut st = Vec::new();
         let t = period_s / 4.0;
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).components_m();
         assert_relative_eq!(c[3], 0.120167, max_relative = 2e-3);
         assert!(c[3] > 0.1, "not the independent sum 0.09343 m: {}", c[3]);
         let t = period_s;
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).components_m();
         assert_relative_eq!(c[2], 0.0402, max_relative = 1e-3);
     }
 
@@ -1184,7 +1213,7 @@ mod tests {
         ] {
             let mut st = Vec::new();
             zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-            let gum = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).u_tide_m();
+            let gum = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).u_tide_m();
             let draws: Vec<f64> = (0..400_000)
                 .map(|_| mean + amp * (omega * (t - normal.sample(&mut rng))).cos())
                 .collect();
@@ -1441,7 +1470,7 @@ mod tests {
         let t = 2.0 * period_s;
         let mut st = Vec::new();
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).components_m();
         let x = omega * 3600.0;
         let e = amp
             * omega
@@ -1463,7 +1492,7 @@ mod tests {
         // At a sample the term is 0 and the component is the sensor's alone.
         let t = g[0].series.times_s[20];
         zone.tide_at(&g, &Linear, t, &mut st).unwrap();
-        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), t, &st).components_m();
+        let c = tide_budget(&zone, &g, &gu, &zu, &rates(&g), &st).components_m();
         assert_relative_eq!(c[0], 1.2 * 0.02, max_relative = 1e-12);
     }
 

@@ -107,6 +107,10 @@ pub struct Zone {
 /// The gauge state that entered one feed's tide: used by the uncertainty budget.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FeedState {
+    /// Index of the gauge in the gauge list.
+    pub gauge: usize,
+    /// The (shifted) UTC time at which the gauge's level was taken, seconds.
+    pub at_s: f64,
     /// Gauge level above chart datum at the shifted time `t − Δt`, metres (zero for a missing
     /// feed).
     pub level: LevelAt,
@@ -157,6 +161,8 @@ impl Zone {
                     why,
                 })?;
             states.push(FeedState {
+                gauge: feed.gauge,
+                at_s: shifted,
                 level,
                 weight: feed.weight,
                 missing: false,
@@ -205,6 +211,8 @@ impl Zone {
                 Ok(level) => {
                     present_w += feed.weight;
                     states.push(FeedState {
+                        gauge: feed.gauge,
+                        at_s: shifted,
                         level,
                         weight: feed.weight,
                         missing: false,
@@ -217,6 +225,8 @@ impl Zone {
                         why,
                     });
                     states.push(FeedState {
+                        gauge: feed.gauge,
+                        at_s: shifted,
                         level: LevelAt {
                             height_m: 0.0,
                             rate_m_per_s: 0.0,

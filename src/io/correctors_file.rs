@@ -28,7 +28,7 @@ use super::timefmt::{parse_time, push_utc, TimeFormat};
 use crate::compute::correctors::{
     sounding_key, Corrector, CorrectorStatus, KeyClashes, SoundingCorrection,
 };
-use crate::compute::reduce::{CarriedTideU, SoundingStatus};
+use crate::compute::reduce::{SoundingStatus, TideU};
 
 /// The last column of every correction file of layout 4: for a `gap_filled` row, how its tide was
 /// filled, in the words of the reduced file's `status_detail`; empty on every other row.
@@ -627,7 +627,7 @@ pub fn sounding_corrections(
             } = row;
             let z = zone.as_deref().and_then(|z| index.get(z).copied());
             let carried_u = match (u_tide_m, u_parts_m) {
-                (Some(u_tide_m), Some(parts_m)) => Some(CarriedTideU { u_tide_m, parts_m }),
+                (Some(u_tide_m), Some(parts_m)) => Some(TideU { u_tide_m, parts_m }),
                 _ => None,
             };
             let v =

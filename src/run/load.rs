@@ -69,6 +69,17 @@ pub struct UncertaintyConfig {
     pub gauge_rates: Vec<crate::compute::uncertainty::GaugeSlopes>,
 }
 
+impl UncertaintyConfig {
+    /// The inputs a tide model that reads the gauges needs for its budget.
+    pub fn gauge_tide_u(&self) -> crate::compute::reduce::GaugeTideU<'_> {
+        crate::compute::reduce::GaugeTideU {
+            gauge_u: &self.gauge_u,
+            zone_u: &self.zone_u,
+            rates: &self.gauge_rates,
+        }
+    }
+}
+
 /// Longest record step, minutes, that quality control's spike and rate tests are built for
 /// (docs/qc.md): above it, a warning says they can miss faults.
 pub const QC_BUILT_FOR_STEP_MIN: f64 = 15.0;

@@ -222,7 +222,6 @@ pub fn tide_series(loaded: &Loaded, t0: f64, t1: f64) -> Vec<ZoneTideSeries> {
                             &u.gauge_u,
                             &u.zone_u[zi],
                             &u.gauge_rates,
-                            t,
                             &states,
                         );
                         s.tide_m.push(Some(round_nearest(tide, METRE_DECIMALS)));

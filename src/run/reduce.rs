@@ -15,10 +15,10 @@ use serde::Serialize;
 use super::load::{locator_for_crs, output_clashes, Loaded, PlannedOutput};
 use crate::compute::qa::{MapSample, QaAccumulator};
 use crate::compute::reduce::{
-    applied_tide_m, reduce_depth, DiscreteZoning, SoundingStatus, StatusCounts, TideModel,
-    TideOutcome, N_STATUS,
+    applied_tide_m, reduce_depth, DiscreteZoning, Query, Scratch, SoundingStatus, StatusCounts,
+    TideModel, TideOutcome, N_STATUS,
 };
-use crate::compute::uncertainty::{judge_as_written, tide_budget, u_tvu_m, K95};
+use crate::compute::uncertainty::{judge_as_written, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
@@ -468,6 +468,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 interp: loaded.interp.as_ref(),
                 renormalise: loaded.project.spec.gap_fill.enabled
                     && loaded.project.spec.gap_fill.renormalise_feeds,
+                unc: loaded.uncertainty.as_ref().map(|u| u.gauge_tide_u()),
             };
             let series_model;
             let located;
@@ -914,32 +915,29 @@ fn write_input_fields(out: &mut Vec<u8>, line: &str, fields: &Fields, ctx: &File
     }
 }
 
-/// Whether a tide found in `zone` at `t_s` rests on gap-filled samples or on renormalised feeds
+/// Whether a tide that used the gauge states `states` (whatever model found it) rests on
+/// gap-filled samples or on renormalised feeds
 /// ([`crate::compute::correctors::rests_on_filled`]); if so, says how in `detail` (the gauge,
-/// the method and the filled gap; or the feed left out), one part per feed in feed order,
+/// the method and the filled gap; or the feed left out), one part per gauge state in order,
 /// joined by `; `. The words name the filled gap and the feeds, not the instant, so that a
 /// correction file's row can carry them to the soundings its tide reaches.
 pub(crate) fn gap_filled_detail(
-    zone: &crate::compute::zoning::Zone,
     gauges: &[crate::compute::zoning::Gauge],
-    t_s: f64,
     states: &[FeedState],
     detail: &mut String,
 ) -> bool {
     use std::fmt::Write;
     let mut any = false;
-    for (feed, st) in zone.feeds.iter().zip(states) {
-        let g = &gauges[feed.gauge];
+    for st in states {
+        let g = &gauges[st.gauge];
         if st.missing {
             if any {
                 detail.push_str("; ");
             }
-            let present: Vec<&str> = zone
-                .feeds
+            let present: Vec<&str> = states
                 .iter()
-                .zip(states)
-                .filter(|(_, s)| !s.missing)
-                .map(|(f, _)| gauges[f.gauge].id.as_str())
+                .filter(|s| !s.missing)
+                .map(|s| gauges[s.gauge].id.as_str())
                 .collect();
             let _ = write!(
                 detail,
@@ -954,11 +952,10 @@ pub(crate) fn gap_filled_detail(
         if !g.series.fill.bracket_filled(st.level.bracket) {
             continue;
         }
-        let shifted = t_s - feed.time_corrector_min * 60.0;
         if any {
             detail.push_str("; ");
         }
-        match g.series.fill.span_at(shifted) {
+        match g.series.fill.span_at(st.at_s) {
             Some(sp) => {
                 let _ = write!(
                     detail,
@@ -1013,7 +1010,7 @@ fn process_chunk(
     }
     let mut within: Vec<bool> = Vec::with_capacity(unc.map_or(0, |u| u.orders.len()));
     let mut fields = Fields::default();
-    let mut states: Vec<FeedState> = Vec::with_capacity(4);
+    let mut scratch = Scratch::default();
     let mut detail = String::new();
     for (line_no, raw) in lines_of(chunk) {
         if raw.iter().all(|c| c.is_ascii_whitespace()) {
@@ -1059,43 +1056,33 @@ fn process_chunk(
                     if corrector_rows {
                         key = Some((v.t_s, v.line_id.to_string()));
                     }
-                    match model.tide_at(v.x, v.y, v.t_s, v.line_id, &mut states) {
+                    let q = Query {
+                        x: v.x,
+                        y: v.y,
+                        t_s: v.t_s,
+                        line: v.line_id,
+                    };
+                    scratch.clear();
+                    match model.tide_at(&q, &mut scratch) {
                         TideOutcome::Tide {
                             zone: z,
                             tide_m,
-                            carried_u,
+                            u: tide_u,
                             filled,
                         } => {
                             zone = Some(z);
                             let tide_m = applied_tide_m(tide_m);
                             let reduced = reduce_depth(v.depth_m, tide_m);
                             tide = Some((tide_m, reduced));
-                            let l = ctx.loaded;
-                            // The tide's budget: from the gauges, or as a correction file carries
-                            // it (never computed anew for a tide that did not come from them).
-                            let budget = match (unc, ctx.kind) {
-                                (None, _) => None,
-                                (Some(_), RunKind::Apply(..)) => carried_u
-                                    .map(|c| (c.parts_m, c.parts_m.map(|x| x * x), c.u_tide_m)),
-                                (Some(u), _) => {
-                                    let b = tide_budget(
-                                        &l.zones[z],
-                                        &l.gauges,
-                                        &u.gauge_u,
-                                        &u.zone_u[z],
-                                        &u.gauge_rates,
-                                        v.t_s,
-                                        &states,
-                                    );
-                                    // Propagated as written (4 decimals), like the tide:
-                                    // a change of at most 0.05 mm that makes a reduction from a
-                                    // correction file, which holds the written values, give
-                                    // the same TVU, verdicts and QA report.
-                                    let w = |x: f64| round_to(x, UNCERTAINTY_DECIMALS);
-                                    let comps = b.components_m().map(w);
-                                    Some((comps, comps.map(|x| x * x), w(b.u_tide_m())))
-                                }
-                            };
+                            // The tide's budget, as the model gives it. Propagated as written
+                            // (4 decimals), like the tide: a change of at most 0.05 mm that
+                            // makes a reduction from a correction file, which holds the written
+                            // values, give the same TVU, verdicts and QA report.
+                            let budget = unc.and(tide_u).map(|b| {
+                                let w = |x: f64| round_to(x, UNCERTAINTY_DECIMALS);
+                                let comps = b.parts_m.map(w);
+                                (comps, comps.map(|x| x * x), w(b.u_tide_m))
+                            });
                             if let (Some(u), Some((comps, bv, u_tide))) = (unc, budget) {
                                 let u_snd = v
                                     .u_depth_m
@@ -1140,24 +1127,18 @@ fn process_chunk(
                                     verdict.within,
                                 ));
                             }
-                            let l = ctx.loaded;
                             // A correction file says itself whether its tide was filled; a
-                            // tide from the gauges is told by their states.
+                            // tide from the gauges is told by the states it used.
                             let gap_filled = match &filled {
                                 Some(d) => {
                                     detail.push_str(d);
                                     true
                                 }
-                                None => {
-                                    !matches!(ctx.kind, RunKind::Apply(..))
-                                        && gap_filled_detail(
-                                            &l.zones[z],
-                                            &l.gauges,
-                                            v.t_s,
-                                            &states,
-                                            &mut detail,
-                                        )
-                                }
+                                None => gap_filled_detail(
+                                    &ctx.loaded.gauges,
+                                    &scratch.states,
+                                    &mut detail,
+                                ),
                             };
                             if gap_filled {
                                 SoundingStatus::GapFilled
@@ -1169,9 +1150,14 @@ fn process_chunk(
                             detail.push_str("position is outside every zone");
                             // A common mistake: x and y (longitude and latitude) swapped.
                             if let TideOutcome::Tide { zone: z, .. }
-                            | TideOutcome::NoData { zone: z, .. } =
-                                model.tide_at(v.y, v.x, v.t_s, v.line_id, &mut states)
-                            {
+                            | TideOutcome::NoData { zone: z, .. } = model.tide_at(
+                                &Query {
+                                    x: v.y,
+                                    y: v.x,
+                                    ..q
+                                },
+                                &mut scratch,
+                            ) {
                                 detail.push_str(" (with x and y swapped it would be in zone '");
                                 detail.push_str(ctx.zone_ids[z]);
                                 if ctx.loaded.zoning_looks_swapped {
