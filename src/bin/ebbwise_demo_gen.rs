@@ -110,6 +110,91 @@ const GAUGES: [GaugeSite; 3] = [
     },
 ];
 const PENDRATH: usize = 1;
+
+/// A point where the authority's tide model supplies harmonic constants (a virtual gauge of the
+/// co-tidal field): seaward of the mouth, or on the intertidal margin just beyond the shore line
+/// (the zoning's edge), where the model's cells wet and dry.
+struct VirtualSite {
+    id: &'static str,
+    name: &'static str,
+    xi: f64,
+    /// On the left shore (looking up-estuary), else the right.
+    left: bool,
+    /// Distance beyond the shore line at `xi`, metres.
+    beyond_shore_m: f64,
+}
+
+impl VirtualSite {
+    fn across_m(&self) -> f64 {
+        let a = half_width_m(self.xi, self.left) + self.beyond_shore_m;
+        if self.left {
+            a
+        } else {
+            -a
+        }
+    }
+    fn level_m(&self, t_ms: i64) -> f64 {
+        tide_m(self.xi, self.across_m(), t_ms)
+    }
+}
+
+/// The tide model's points, chosen so that the hull of the gauges and these points encloses
+/// every zone by at least 200 m, with stations on both shores along the estuary so that the
+/// triangles holding the zones span at most about 11 degrees of M2 phase. None lies more than
+/// 500 m beyond the shore line: the land rises at `BEYOND_SHORE_SLOPE` from a drying height of
+/// 1.2 m there (at most 4.2 m above chart datum at these points), so each is covered at high
+/// water springs.
+const VIRTUAL: [VirtualSite; 7] = [
+    VirtualSite {
+        id: "vm-mouth-se",
+        name: "Vellmar model point, mouth south-east",
+        xi: -0.01,
+        left: false,
+        beyond_shore_m: 300.0,
+    },
+    VirtualSite {
+        id: "vm-mouth-nw",
+        name: "Vellmar model point, mouth north-west",
+        xi: -0.015,
+        left: true,
+        beyond_shore_m: 450.0,
+    },
+    VirtualSite {
+        id: "vm-lower-se",
+        name: "Vellmar model point, lower reach south-east",
+        xi: 0.40,
+        left: false,
+        beyond_shore_m: 300.0,
+    },
+    VirtualSite {
+        id: "vm-middle-nw",
+        name: "Vellmar model point, middle reach north-west",
+        xi: 0.51,
+        left: true,
+        beyond_shore_m: 350.0,
+    },
+    VirtualSite {
+        id: "vm-upper-se",
+        name: "Vellmar model point, upper reach south-east",
+        xi: 0.835,
+        left: false,
+        beyond_shore_m: 500.0,
+    },
+    VirtualSite {
+        id: "vm-head-se",
+        name: "Vellmar model point, head south-east",
+        xi: 1.01,
+        left: false,
+        beyond_shore_m: 400.0,
+    },
+    VirtualSite {
+        id: "vm-head-nw",
+        name: "Vellmar model point, head north-west",
+        xi: 1.015,
+        left: true,
+        beyond_shore_m: 400.0,
+    },
+];
 /// (zone id, feeding gauges, zone-mean form?) per xi band.
 const ZONE_PLAN: [(&str, &[usize], bool); 7] = [
     ("VW1", &[0], false),
@@ -548,6 +633,24 @@ fn history_csv(g: &GaugeSite, stream: u64) -> String {
     s
 }
 
+/// The tide model's series at a virtual point: the span and step of the gauges' history
+/// records, levels above chart datum (no gauge zero), with noise like a gauge's; `ebbwise
+/// analyse` derives the point's constants from it. Each point has its own random stream.
+fn virtual_history_csv(v: &VirtualSite, stream: u64) -> String {
+    let mut rng = ChaCha8Rng::seed_from_u64(SEED);
+    rng.set_stream(stream);
+    let noise = Normal::new(0.0, GAUGE_NOISE_SD_M).unwrap();
+    let end = utc_ms(13, 22, 0, 0);
+    let mut t = end - HISTORY_DAYS * 86_400_000;
+    let mut s = String::from("time,height\n");
+    while t < end {
+        let level = v.level_m(t) + noise.sample(&mut rng);
+        writeln!(s, "{},{}", rfc3339(t, false), fixed(level, 3)).unwrap();
+        t += HISTORY_STEP_MIN * 60_000;
+    }
+    s
+}
+
 // ---------------------------------------------------------------------------------------------
 // A short-term gauge and the control's long record (datum transfer)
 
@@ -969,6 +1072,10 @@ fn main() -> Result<()> {
         .iter()
         .map(|g| to_geo.convert(frame_to_utm(g.xi * LENGTH_M, g.across_m())))
         .collect::<Result<_, _>>()?;
+    let virtual_lonlat: Vec<(f64, f64)> = VIRTUAL
+        .iter()
+        .map(|v| to_geo.convert(frame_to_utm(v.xi * LENGTH_M, v.across_m())))
+        .collect::<Result<_, _>>()?;
     let stats = [file_stats(&a, &zones), file_stats(&b, &zones)];
     let all: Vec<Ping> = a.iter().chain(b.iter()).cloned().collect();
     let model_error = zoning_model_error_m(&all, &zones);
@@ -992,14 +1099,20 @@ fn main() -> Result<()> {
         ("truth/launch-b.csv".into(), truth_csv(&b)),
         (
             "truth/generator.json".into(),
-            generator_json(&zones, &gauge_lonlat, &stats, model_error)?,
+            generator_json(&zones, &gauge_lonlat, &virtual_lonlat, &stats, model_error)?,
         ),
-        ("project.toml".into(), project_toml(&gauge_lonlat)),
+        (
+            "project.toml".into(),
+            project_toml(&gauge_lonlat, &virtual_lonlat),
+        ),
         (
             "gap-fill.toml".into(),
-            gap_fill_toml(&project_toml(&gauge_lonlat)),
+            gap_fill_toml(&project_toml(&gauge_lonlat, &virtual_lonlat)),
         ),
-        ("README.md".into(), readme(&stats, model_error)),
+        (
+            "README.md".into(),
+            readme(&stats, model_error, &virtual_lonlat),
+        ),
     ]);
     // The datum-transfer example: files of their own, so the survey's files stay as they are.
     let (st0, st1) = short_term_span_ms();
@@ -1015,6 +1128,13 @@ fn main() -> Result<()> {
         ),
         ("truth/ferrisk.json".into(), short_term_truth_json()?),
     ]);
+    // The tide model's series at the virtual gauges: files and random streams of their own.
+    outputs.extend(VIRTUAL.iter().enumerate().map(|(k, v)| {
+        (
+            format!("tide-model/{}-history.csv", v.id),
+            virtual_history_csv(v, 40 + k as u64),
+        )
+    }));
     for (rel, text) in &outputs {
         let path = dir.join(rel);
         std::fs::create_dir_all(path.parent().expect("a file in a folder"))?;
@@ -1036,6 +1156,7 @@ fn main() -> Result<()> {
 fn generator_json(
     zones: &[Zone],
     gauge_lonlat: &[(f64, f64)],
+    virtual_lonlat: &[(f64, f64)],
     stats: &[FileStats; 2],
     model_error: (f64, f64),
 ) -> Result<String> {
@@ -1049,6 +1170,16 @@ fn generator_json(
             "easting_m": round_dp(e, 2), "northing_m": round_dp(n, 2), "lon": round_dp(lon, 6), "lat": round_dp(lat, 6),
             "step_min": g.step_min, "zero_above_datum_m": g.zero_above_datum_m,
             "mean_level_above_datum_m": g.mean_level_written_m(),
+        })
+    }).collect();
+    let virtual_gauges: Vec<Value> = VIRTUAL.iter().zip(virtual_lonlat).map(|(v, &(lon, lat))| {
+        let (e, n) = frame_to_utm(v.xi * LENGTH_M, v.across_m());
+        json!({
+            "id": v.id, "name": v.name, "xi": v.xi, "across_m": round_dp(v.across_m(), 2),
+            "beyond_shore_m": v.beyond_shore_m,
+            "easting_m": round_dp(e, 2), "northing_m": round_dp(n, 2), "lon": round_dp(lon, 6), "lat": round_dp(lat, 6),
+            "history_record": format!("tide-model/{}-history.csv", v.id),
+            "constants": format!("tide-model/{}.constants.toml", v.id),
         })
     }).collect();
     let zone_info: Vec<Value> = zones.iter().map(|z| json!({
@@ -1088,6 +1219,9 @@ fn generator_json(
             "seabed": "channel 18 m below chart datum at the mouth shoaling to 4 m at the head; shores dry 1.2 m; a drying bank mid-estuary",
         },
         "gauges": gauges,
+        "virtual_gauges": virtual_gauges,
+        "virtual_gauge_series": "the tide model's series at each virtual gauge: true level above chart datum + N(0, gauge_noise_sd_m), \
+            rounded to gauge_value_rounding_m, every 6 min for the 60 days before 2026-06-13T22:00Z (the span of the gauges' history records)",
         "zones": zone_info,
         "pendrath_fault": {
             "last_sample_before_gap_utc": rfc3339(gap0, false), "first_sample_after_gap_utc": rfc3339(gap1, false),
@@ -1124,7 +1258,7 @@ fn gap_fill_toml(project: &str) -> String {
         {
             gauge = Some(id.to_string());
         }
-        if line.starts_with("name = \"Vellmar") {
+        if line == "name = \"Vellmar Water demo survey, 2026-06-14\"" {
             s.push_str("name = \"Vellmar Water demo survey, 2026-06-14, gap-filled\"\n");
             continue;
         }
@@ -1156,7 +1290,21 @@ method = "auto"
 renormalise_feeds = true   # a two-gauge zone with one feed missing uses the other
 "#;
 
-fn project_toml(gauge_lonlat: &[(f64, f64)]) -> String {
+const VIRTUAL_GAUGE_NOTE: &str = r#"
+# ---------------------------------------------------------------------------------------------
+# Virtual gauges: harmonic constants at points where no gauge stands, supplied by the authority's
+# tide model (docs/cotidal.md). They do not change the discrete reduction: `ebbwise zones derive`
+# and `ebbwise zones compare` build the co-tidal field from them and from the gauges that name
+# `constants` (gap-fill.toml names them). The three gauges alone span one thin triangle and
+# every zone reaches kilometres outside it; with these seven points, two off the mouth, two at
+# the head and three on the intertidal margin along the shores, the field's hull encloses every
+# zone. Each constants file holds levels above chart datum (`levels = "above chart datum"`): a
+# virtual gauge has no zero of its own.
+#
+#   constants  the point's constants file (ebbwise-harmonic-constants/1), relative to this file
+"#;
+
+fn project_toml(gauge_lonlat: &[(f64, f64)], virtual_lonlat: &[(f64, f64)]) -> String {
     let mut s = String::from(
         r#"# ebbwise project file for the bundled demo survey "Vellmar Water".
 # INVENTED DATA for demonstration only: the estuary, gauges and survey do not exist.
@@ -1221,6 +1369,16 @@ dir = "out"
             g.mean_level_written_m(),
             if g.step_min == 1 { 0.012 } else { 0.015 },
             0.03 + 0.01 * (g.zero_above_datum_m > 0.0) as u8 as f64,
+        )
+        .unwrap();
+    }
+    s.push_str(VIRTUAL_GAUGE_NOTE);
+    for (v, &(lon, lat)) in VIRTUAL.iter().zip(virtual_lonlat) {
+        write!(
+            s,
+            "\n[[virtual_gauge]]\nid = \"{}\"\nname = \"{}\"\nlon = {lon:.6}\nlat = {lat:.6}\n\
+             constants = \"tide-model/{}.constants.toml\"\n",
+            v.id, v.name, v.id,
         )
         .unwrap();
     }
@@ -1290,7 +1448,27 @@ b = 0.005
     s
 }
 
-fn readme(stats: &[FileStats; 2], model_error: (f64, f64)) -> String {
+fn readme(
+    stats: &[FileStats; 2],
+    model_error: (f64, f64),
+    virtual_lonlat: &[(f64, f64)],
+) -> String {
+    let virtual_rows: String = VIRTUAL
+        .iter()
+        .zip(virtual_lonlat)
+        .map(|(v, &(lon, lat))| {
+            format!(
+                "| `{}` | {} | {:.3} | {:.0} m {} | {:.0} m | {lon:.4} | {lat:.4} |\n",
+                v.id,
+                v.name,
+                v.xi,
+                v.across_m().abs(),
+                if v.left { "NW" } else { "SE" },
+                v.beyond_shore_m,
+            )
+        })
+        .collect();
+    let virtual_ids: String = VIRTUAL.iter().map(|v| v.id).collect::<Vec<_>>().join(" ");
     let gauges: String = GAUGES
         .iter()
         .map(|g| {
@@ -1336,11 +1514,22 @@ shallower than {min:.1} m were not logged.
 | `project.toml` | the annotated project file: start here |
 | `zoning.geojson` | 7 zones VW1–VW7 (WGS 84); VW3 is fed by orlick and pendrath together |
 | `gauges/*.csv` | gauge records `time,height` above each gauge's zero, 2026-06-13T22:00Z to 2026-06-15T02:00Z |
+| `tide-model/*-history.csv`, `tide-model/*.constants.toml` | the tide model's 60-day series at each virtual gauge (levels above chart datum) and the constants analysed from it |
 | `soundings/launch-a.csv` | launch A: {rows_a} soundings; comma-separated, UTM 24S, ISO 8601 times |
 | `soundings/launch-b.txt` | launch B: {rows_b} rows; whitespace-separated, lon/lat, Unix seconds |
 | `truth/launch-a.csv`, `truth/launch-b.csv` | true tide and true depth below chart datum, one row per data row |
 | `truth/generator.json` | the generator's parameters and the counts below |
 
+The responsible authority's tide model supplies harmonic constants at seven open points, the
+project's virtual gauges (`[[virtual_gauge]]`), for the co-tidal field of `ebbwise zones`
+(docs/cotidal.md): two off the mouth, two at the head and three on the intertidal margin just
+beyond the shore line (covered at high water springs). With the three gauges they make a hull
+that encloses every zone by at least 200 m, where the gauges alone span one thin triangle that
+every zone reaches kilometres outside. They do not change the discrete reduction.
+
+| virtual gauge | name | xi (0 mouth, 1 head) | from the axis | beyond the shore | lon | lat |
+|---|---|---|---|---|---|---|
+{virtual_rows}
 Deliberate faults, as real surveys have them:
 
 * `pendrath` has no samples between 13:10 and 14:00 UTC (a 50-minute gap, longer than the
@@ -1362,11 +1551,19 @@ for g in orlick:-0.85 pendrath:-1.20 skellan:0.35; do
   cargo run --release --bin ebbwise -- analyse zoning-demo/gauges/${{g%%:*}}-history.csv \
     --zero-above-datum-m=${{g#*:}} --out zoning-demo/gauges/${{g%%:*}}.constants.toml
 done
+for v in {virtual_ids}; do
+  cargo run --release --bin ebbwise -- analyse zoning-demo/tide-model/$v-history.csv \
+    --zero-above-datum-m=0 --out zoning-demo/tide-model/$v.constants.toml
+done
 ```
 
 The second step writes each gauge's harmonic constants from its 60-day history record
 (`gauges/ID-history.csv`, the weeks before the survey, same tide and noise), which gap filling
-predicts from. The generator (`src/bin/ebbwise_demo_gen.rs`) is deterministic (ChaCha8, seed {seed}): running it
+predicts from. The third writes each virtual gauge's constants from the tide model's series at
+the point (`tide-model/ID-history.csv`: the true level above chart datum over the same 60 days
+with the gauges' noise; `--zero-above-datum-m=0` because its levels are already above chart
+datum, so the constants say `levels = "above chart datum"`, as a virtual gauge's must).
+The generator (`src/bin/ebbwise_demo_gen.rs`) is deterministic (ChaCha8, seed {seed}): running it
 again rewrites the same bytes. Noise: sounding depths N(0, {sd_s:.2} m), rounded to 0.01 m; gauge
 readings N(0, {sd_g:.2} m), rounded to 0.001 m. Each zone's correctors come from the true tide at
 its centroid (time corrector rounded to 1 min, range ratio to 0.01), so the zoning is good but not
@@ -1377,7 +1574,10 @@ exact: fed by error-free gauges it differs from the true tide by {rms:.3} m rms 
 
 `ebbwise check zoning-demo/project.toml` lists the faults above; `ebbwise reduce
 zoning-demo/project.toml` reduces the survey into `zoning-demo/out/`. The `run` script here builds
-ebbwise and does the same through `ebbwise demo`.
+ebbwise and does the same through `ebbwise demo`. `ebbwise zones compare --project
+zoning-demo/gap-fill.toml` sets the zoning's correctors beside those of the co-tidal field of the
+gauges and the virtual gauges (gap-fill.toml names the gauges' constants; project.toml does not,
+so its field has the virtual gauges alone and derives no zone's correctors).
 "#,
         day = SURVEY_DAY,
         min = MIN_LOGGED_DEPTH_M,

@@ -9,6 +9,7 @@ mod correctors_apply;
 mod cotidal;
 mod crs_reference;
 mod datums;
+mod demo_field;
 mod demo_recovery;
 mod harmonics;
 mod harmonics_noise;
