@@ -12,6 +12,7 @@
 //! * [`quantile`] — a mergeable percentile sketch with a stated error bound.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`cotidal`] — co-tidal and co-range fields from several stations; derived correctors.
+//! * [`continuous`] — continuous tide models on a field: corrector fields, astronomical + residual.
 //! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
 //! * [`spline`] — not-a-knot cubic spline interpolation in time, per unbroken segment.
 //! * [`lowpass`] — zero-phase low-pass filter for noisy 1-minute records.
@@ -30,6 +31,7 @@
 pub mod astro;
 pub mod boundary;
 pub mod compare;
+pub mod continuous;
 pub mod correctors;
 pub mod cotidal;
 pub mod datums;

@@ -15,6 +15,7 @@
 
 use geo::{BoundingRect, Centroid, Contains};
 
+use crate::compute::continuous::{Blend, Plane, PlaneField};
 use crate::compute::cotidal::{
     derive_correctors, mean_constants, spring_difference_m, Field, Station, ZoneDerived,
     ZoneSkipped,
@@ -71,12 +72,28 @@ fn constants_above_chart_datum(
     Ok(k)
 }
 
-/// Builds the project's field from its gauges with `constants` and its virtual gauges.
-pub fn project_field(project: &Project) -> Result<ProjectField, Vec<Finding>> {
+/// A station of the project's field in WGS 84, before it is placed in a plane.
+#[derive(Debug, Clone)]
+pub struct LonLatStation {
+    /// Gauge or virtual gauge id.
+    pub id: String,
+    /// Longitude, degrees.
+    pub lon: f64,
+    /// Latitude, degrees.
+    pub lat: f64,
+    /// Constants, levels above chart datum.
+    pub constants: HarmonicConstants,
+    /// The gauge (project order) it is; `None` for a virtual gauge.
+    pub gauge: Option<usize>,
+}
+
+/// The project's stations: its gauges that name constants, then its virtual gauges; with the
+/// notes (gauges left out, constants files that do not say their levels).
+pub fn field_stations(project: &Project) -> Result<(Vec<LonLatStation>, Vec<String>), Vec<Finding>> {
     let mut notes = Vec::new();
     let mut errors = Vec::new();
-    let mut found: Vec<(String, f64, f64, HarmonicConstants, bool)> = Vec::new();
-    for g in &project.spec.gauges {
+    let mut found = Vec::new();
+    for (gi, g) in project.spec.gauges.iter().enumerate() {
         let Some(c) = &g.constants else {
             notes.push(format!(
                 "gauge '{}' names no constants: it is not a station of the field",
@@ -90,7 +107,13 @@ pub fn project_field(project: &Project) -> Result<ProjectField, Vec<Finding>> {
             &format!("gauge '{}'", g.id),
             &mut notes,
         ) {
-            Ok(k) => found.push((g.id.clone(), g.lon, g.lat, k, false)),
+            Ok(k) => found.push(LonLatStation {
+                id: g.id.clone(),
+                lon: g.lon,
+                lat: g.lat,
+                constants: k,
+                gauge: Some(gi),
+            }),
             Err(e) => errors.push(e),
         }
     }
@@ -101,13 +124,77 @@ pub fn project_field(project: &Project) -> Result<ProjectField, Vec<Finding>> {
             &format!("virtual gauge '{}'", v.id),
             &mut notes,
         ) {
-            Ok(k) => found.push((v.id.clone(), v.lon, v.lat, k, true)),
+            Ok(k) => found.push(LonLatStation {
+                id: v.id.clone(),
+                lon: v.lon,
+                lat: v.lat,
+                constants: k,
+                gauge: None,
+            }),
             Err(e) => errors.push(e),
         }
     }
     if !errors.is_empty() {
         return Err(errors);
     }
+    Ok((found, notes))
+}
+
+/// The field and the recording gauges' blend in the plane of a soundings group's `crs`:
+/// projected coordinates as they are, WGS 84 longitude/latitude in a local equirectangular
+/// plane about the stations' mean position (`compute::continuous::Plane`).
+pub fn plane_field(stations: &[LonLatStation], crs: &str) -> Result<PlaneField, String> {
+    let n = stations.len().max(1) as f64;
+    let (lon0, lat0) = (
+        stations.iter().map(|s| s.lon).sum::<f64>() / n,
+        stations.iter().map(|s| s.lat).sum::<f64>() / n,
+    );
+    let plane = if crate::io::crs::is_wgs84_lonlat(crs) {
+        Plane::lonlat(lon0, lat0)
+    } else {
+        Plane::Projected
+    };
+    let t = match plane {
+        Plane::Projected => Some(Transformer::new("EPSG:4326", crs).map_err(|e| e.to_string())?),
+        Plane::LonLat { .. } => None,
+    };
+    let mut placed = Vec::with_capacity(stations.len());
+    for s in stations {
+        let (x_m, y_m) = match &t {
+            Some(t) => t.convert(s.lon, s.lat).map_err(|e| e.to_string())?,
+            None => plane.to_plane(s.lon, s.lat),
+        };
+        placed.push(Station {
+            id: s.id.clone(),
+            x_m,
+            y_m,
+            constants: s.constants.clone(),
+            is_virtual: s.gauge.is_none(),
+        });
+    }
+    let blend = Blend::new(
+        placed
+            .iter()
+            .zip(stations)
+            .filter(|(_, s)| s.gauge.is_some())
+            .map(|(p, _)| p.clone())
+            .collect(),
+    );
+    let field = Field::new(placed).map_err(|e| format!("the co-tidal field cannot be built: {e}"))?;
+    Ok(PlaneField {
+        field,
+        blend,
+        plane,
+    })
+}
+
+/// Builds the project's field from its gauges with `constants` and its virtual gauges.
+pub fn project_field(project: &Project) -> Result<ProjectField, Vec<Finding>> {
+    let (stations, mut notes) = field_stations(project)?;
+    let found: Vec<(String, f64, f64, HarmonicConstants, bool)> = stations
+        .into_iter()
+        .map(|s| (s.id, s.lon, s.lat, s.constants, s.gauge.is_none()))
+        .collect();
     let n = found.len().max(1) as f64;
     let lon0 = found.iter().map(|s| s.1).sum::<f64>() / n;
     let lat0 = found.iter().map(|s| s.2).sum::<f64>() / n;
