@@ -12,6 +12,7 @@
 //! * [`quantile`] — a mergeable percentile sketch with a stated error bound.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`cotidal`] — co-tidal and co-range fields from several stations; derived correctors.
+//! * [`isolines`] — co-tidal and co-range lines of a sampled field (the phase's wrap handled).
 //! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
 //! * [`spline`] — not-a-knot cubic spline interpolation in time, per unbroken segment.
 //! * [`lowpass`] — zero-phase low-pass filter for noisy 1-minute records.
@@ -36,6 +37,7 @@ pub mod datums;
 pub mod extrema;
 pub mod gapfill;
 pub mod harmonic;
+pub mod isolines;
 pub mod lat;
 pub mod locate;
 pub mod lowpass;
