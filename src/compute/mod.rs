@@ -12,6 +12,7 @@
 //! * [`quantile`] — a mergeable percentile sketch with a stated error bound.
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`cotidal`] — co-tidal and co-range fields from several stations; derived correctors.
+//! * [`cotidal_map`] — the co-tidal map as plain data (lines, zones, stations, steps).
 //! * [`isolines`] — co-tidal and co-range lines of a sampled field (the phase's wrap handled).
 //! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
 //! * [`spline`] — not-a-knot cubic spline interpolation in time, per unbroken segment.
@@ -33,6 +34,7 @@ pub mod boundary;
 pub mod compare;
 pub mod correctors;
 pub mod cotidal;
+pub mod cotidal_map;
 pub mod datums;
 pub mod extrema;
 pub mod gapfill;

@@ -164,13 +164,13 @@ pub(crate) fn step_legend(out: &mut String, x: f64, y: f64, w: f64, top_m: f64) 
 }
 
 /// Draws each zone-boundary step's shared edge coloured by its largest |step|, labels the worst
-/// three, and the colour scale's legend at (`lx`, `ly`); `xy` maps longitude/latitude to the
-/// plot.
+/// three, and the colour scale's legend at `legend_at` when given; `xy` maps the edges'
+/// coordinates (longitude/latitude) to the plot.
 pub(crate) fn step_edges_svg(
     out: &mut String,
     steps: &[crate::compute::boundary::BoundaryStep],
     xy: &dyn Fn(f64, f64) -> (f64, f64),
-    legend_at: (f64, f64),
+    legend_at: Option<(f64, f64)>,
 ) {
     if steps.is_empty() {
         return;
@@ -236,7 +236,9 @@ pub(crate) fn step_edges_svg(
             esc(&text)
         );
     }
-    step_legend(out, legend_at.0, legend_at.1, 180.0, top);
+    if let Some((x, y)) = legend_at {
+        step_legend(out, x, y, 180.0, top);
+    }
 }
 
 fn map_svg(r: &QaReport, out: &mut String) {
@@ -316,7 +318,7 @@ fn map_svg(r: &QaReport, out: &mut String) {
         out,
         &r.boundary_steps,
         &|lo, la| (x(lo), y(la)),
-        (m + 4.0, 18.0),
+        Some((m + 4.0, 18.0)),
     );
     // Axes in degrees.
     let lt = ticks(lon.0, lon.1, 5);
