@@ -95,7 +95,7 @@ fn run_map(a: &MapArgs) -> anyhow::Result<Outcome> {
     use ebbwise::io::cotidal_map::{
         render_cotidal_svg, write_cotidal_geojson, write_svg, LineFeature,
     };
-    use ebbwise::run::cotidal_map::{add_steps, cotidal_map, to_lonlat, MapOptions};
+    use ebbwise::run::cotidal_map::{add_steps, cotidal_map, to_lonlat, MapOptions, StepsOnMap};
     for (name, v) in [
         ("--phase-step-deg", a.phase_step_deg),
         ("--amplitude-step-m", a.amplitude_step_m),
@@ -164,7 +164,7 @@ fn run_map(a: &MapArgs) -> anyhow::Result<Outcome> {
         map.cell_m,
         pf.local_crs
     )];
-    if let (Ok(_), Some((t0, t1))) = (&map.steps, map.steps_span_s) {
+    if let (StepsOnMap::Drawn(_), Some((t0, t1))) = (&map.steps, map.steps_span_s) {
         notes.push(format!(
             "Tide steps every 5 min over the gauge records' common span {} to {} (not the survey period: the map does not read the soundings).",
             ebbwise::io::timefmt::utc_label(t0),
@@ -199,10 +199,10 @@ fn run_map(a: &MapArgs) -> anyhow::Result<Outcome> {
     }
     let _ = writeln!(w, "  dashed on the map and inside_hull = false in the GeoJSON: lines beyond the stations' hull, where the field is the hull edge's carried out unchanged");
     match &map.steps {
-        Ok(s) => {
+        StepsOnMap::Drawn(s) => {
             let _ = writeln!(w, "  zone-boundary steps drawn: {} shared edges", s.len());
         }
-        Err(why) => {
+        StepsOnMap::NotDrawn { reason: why } => {
             let _ = writeln!(w, "  zone-boundary steps not drawn: {why}");
         }
     }

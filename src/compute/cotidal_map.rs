@@ -65,7 +65,19 @@ pub struct CotidalMap {
     /// The hull's outline, local metres, closed.
     pub hull: Vec<(f64, f64)>,
     /// The zone-boundary steps, or why there are none on the map.
-    pub steps: Result<Vec<MapStep>, String>,
+    pub steps: StepsOnMap,
     /// The span the steps are computed over, UTC seconds.
     pub steps_span_s: Option<(f64, f64)>,
+}
+
+/// The zone-boundary steps of a map, or why it has none.
+#[derive(Debug, Clone, PartialEq)]
+pub enum StepsOnMap {
+    /// The steps of every shared edge (none when no two zones share an edge).
+    Drawn(Vec<MapStep>),
+    /// Not drawn, and why (the gauge records could not be loaded, or have no common span).
+    NotDrawn {
+        /// Why.
+        reason: String,
+    },
 }

@@ -11,7 +11,7 @@ use geo::Centroid;
 use super::atomic::AtomicFile;
 use super::error::IoError;
 use super::report_html::{esc, step_legend, step_scale_top_m};
-use crate::compute::cotidal_map::CotidalMap;
+use crate::compute::cotidal_map::{CotidalMap, StepsOnMap};
 use crate::compute::isolines::LineKind;
 
 /// One feature of `cotidal.geojson`.
@@ -239,7 +239,7 @@ pub fn render_cotidal_svg(
     }
     // Zone-boundary steps: the shared edges, drawn in plot coordinates through their local
     // metres.
-    if let Ok(steps) = &map.steps {
+    if let StepsOnMap::Drawn(steps) = &map.steps {
         let drawn: Vec<crate::compute::boundary::BoundaryStep> = steps
             .iter()
             .map(|m| {
@@ -419,7 +419,7 @@ pub fn render_cotidal_svg(
     );
     ly += 14.0;
     match &map.steps {
-        Ok(steps) if !steps.is_empty() => {
+        StepsOnMap::Drawn(steps) if !steps.is_empty() => {
             let top = step_scale_top_m(
                 steps
                     .iter()
@@ -444,14 +444,14 @@ pub fn render_cotidal_svg(
             step_legend(&mut o, lx, ly, 300.0, top);
             ly += 44.0;
         }
-        Ok(_) => leg(
+        StepsOnMap::Drawn(_) => leg(
             &mut o,
             lx,
             &mut ly,
             "",
             "no two zones share an edge with tides",
         ),
-        Err(why) => {
+        StepsOnMap::NotDrawn { reason: why } => {
             leg(&mut o, lx, &mut ly, "", "zone-boundary steps not drawn:");
             for chunk in wrap(why, 48) {
                 leg(&mut o, lx, &mut ly, "", &chunk);

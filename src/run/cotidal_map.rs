@@ -28,7 +28,7 @@ use super::fields::ProjectField;
 /// 5 minutes).
 pub const MAX_STEP_INSTANTS: usize = 20_000;
 
-pub use crate::compute::cotidal_map::{CotidalMap, MapLine, MapStation, MapStep};
+pub use crate::compute::cotidal_map::{CotidalMap, MapLine, MapStation, MapStep, StepsOnMap};
 
 /// Options of the map.
 #[derive(Debug, Clone)]
@@ -170,7 +170,9 @@ pub fn cotidal_map(
             .collect(),
         triangles,
         hull,
-        steps: Err("not computed".into()),
+        steps: StepsOnMap::NotDrawn {
+            reason: "not computed".into(),
+        },
         steps_span_s: None,
     })
 }
@@ -193,7 +195,9 @@ pub fn add_steps(map: &mut CotidalMap, project_path: &std::path::Path, pf: &Proj
         }) {
         Ok(l) => l,
         Err(e) => {
-            map.steps = Err(format!("the gauge records could not be loaded: {e}"));
+            map.steps = StepsOnMap::NotDrawn {
+                reason: format!("the gauge records could not be loaded: {e}"),
+            };
             return;
         }
     };
@@ -202,7 +206,9 @@ pub fn add_steps(map: &mut CotidalMap, project_path: &std::path::Path, pf: &Proj
     let t0 = starts.cloned().fold(f64::NEG_INFINITY, f64::max);
     let t1 = ends.cloned().fold(f64::INFINITY, f64::min);
     if !(t0.is_finite() && t1.is_finite() && t1 > t0) {
-        map.steps = Err("the gauge records have no span in common".into());
+        map.steps = StepsOnMap::NotDrawn {
+            reason: "the gauge records have no span in common".into(),
+        };
         return;
     }
     let step_s = super::qa_report::TIDE_SERIES_STEP_MIN * 60.0;
@@ -225,21 +231,23 @@ pub fn add_steps(map: &mut CotidalMap, project_path: &std::path::Path, pf: &Proj
         .collect();
     let steps = super::qa_report::boundary_steps_from(&loaded.zoning, &times, &tides, None);
     map.steps_span_s = times.first().zip(times.last()).map(|(a, b)| (*a, *b));
-    map.steps = Ok(steps
-        .into_iter()
-        .map(|s| {
-            let edge_m = s
-                .edge_lonlat
-                .iter()
-                .map(|p| {
-                    p.iter()
-                        .filter_map(|c| pf.to_local.convert(c[0], c[1]).ok())
-                        .collect()
-                })
-                .collect();
-            MapStep { step: s, edge_m }
-        })
-        .collect());
+    map.steps = StepsOnMap::Drawn(
+        steps
+            .into_iter()
+            .map(|s| {
+                let edge_m = s
+                    .edge_lonlat
+                    .iter()
+                    .map(|p| {
+                        p.iter()
+                            .filter_map(|c| pf.to_local.convert(c[0], c[1]).ok())
+                            .collect()
+                    })
+                    .collect();
+                MapStep { step: s, edge_m }
+            })
+            .collect(),
+    );
 }
 
 /// A line in WGS 84 [longitude, latitude] (points that cannot be converted are left out).
