@@ -188,6 +188,12 @@ pub fn render_cotidal_svg(
     }
     // Lines: outside parts dashed; labels on inside parts long enough to hold them.
     let mut labels = Vec::new();
+    let zone_ids: Vec<(f64, f64)> = map
+        .zones
+        .iter()
+        .filter_map(|(_, mp)| mp.centroid())
+        .map(|c| (px(c.x()), py(c.y())))
+        .collect();
     for l in &map.lines {
         let (col, text) = match l.kind {
             LineKind::Phase => (PHASE_COLOUR, format!("{}°", fmt_num(l.value))),
@@ -211,10 +217,15 @@ pub fn render_cotidal_svg(
                 path(p)
             );
         }
-        // Labels on parts long enough to hold them, inside parts first; a label is moved
-        // along its part (a half, a third, two thirds, a quarter, three quarters) until it
-        // stands clear of those already placed.
-        for p in l.inside.iter().chain(&l.outside) {
+        // Labels on inside parts long enough to hold them (on outside parts only when no inside
+        // part took one); a label is moved along its part (a half, a third, two thirds, a
+        // quarter, three quarters) until it stands clear of the zone ids and the labels
+        // already placed.
+        let before = labels.len();
+        for (n, p) in l.inside.iter().chain(&l.outside).enumerate() {
+            if n >= l.inside.len() && labels.len() > before {
+                break;
+            }
             let len: f64 = p
                 .windows(2)
                 .map(|q| (q[0].0 - q[1].0).hypot(q[0].1 - q[1].1) * s)
@@ -229,7 +240,9 @@ pub fn render_cotidal_svg(
                     x > mx0 + 20.0 && x < mx0 + mw - 20.0 && y > my0 + 10.0 && y < my0 + mh - 10.0;
                 let clear = labels.iter().all(|l: &(f64, f64, &str, String, &str)| {
                     (l.0 - x).abs() > 44.0 || (l.1 - y).abs() > 14.0
-                });
+                }) && zone_ids
+                    .iter()
+                    .all(|z| (z.0 - x).abs() > 40.0 || (z.1 - y).abs() > 16.0);
                 if inside_map && clear {
                     labels.push((x, y, col, text.clone(), class));
                     break;
@@ -314,7 +327,8 @@ pub fn render_cotidal_svg(
         .map(|k| k * mag)
         .rfind(|v| *v <= want_m)
         .unwrap_or(mag);
-    let (bx, by, bw) = (mx0 + 20.0, my0 + mh - 30.0, bar_m * s);
+    // In the legend panel, clear of the map.
+    let (bx, by, bw) = (mx0 + mw + 32.0, my0 + mh - 30.0, bar_m * s);
     let bar_label = if bar_m >= 1000.0 {
         format!("{} km", fmt_num(bar_m / 1000.0))
     } else {
@@ -322,7 +336,10 @@ pub fn render_cotidal_svg(
     };
     let _ = write!(
         o,
-        r##"<g class="scale-bar"><rect x="{bx}" y="{by}" width="{:.1}" height="6" fill="#12324d"/><rect x="{:.1}" y="{by}" width="{:.1}" height="6" fill="#fff" stroke="#12324d"/><text x="{bx}" y="{}" class="tick">0</text><text x="{:.1}" y="{}" class="tick" text-anchor="middle">{}</text></g>"##,
+        r##"<g class="scale-bar"><rect x="{:.1}" y="{:.1}" width="{:.1}" height="30" fill="#ffffff" fill-opacity="0.85"/><rect x="{bx}" y="{by}" width="{:.1}" height="6" fill="#12324d"/><rect x="{:.1}" y="{by}" width="{:.1}" height="6" fill="#fff" stroke="#12324d"/><text x="{bx}" y="{}" class="tick">0</text><text x="{:.1}" y="{}" class="tick" text-anchor="middle">{}</text></g>"##,
+        bx - 8.0,
+        by - 18.0,
+        bw + 40.0,
         bw / 2.0,
         bx + bw / 2.0,
         bw / 2.0,
