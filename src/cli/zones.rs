@@ -30,6 +30,33 @@ enum ZonesCommand {
     /// The zoning's correctors against the derived ones: zones whose correctors disagree beyond
     /// a threshold, with the depth difference that puts into soundings at spring range.
     Compare(CompareArgs),
+    /// Co-tidal and co-range lines of one constituent as GeoJSON (`cotidal.geojson`), and a map
+    /// (`cotidal.svg`) with the zones, triangulation, stations and zone-boundary steps.
+    Map(MapArgs),
+}
+
+#[derive(Debug, clap::Args)]
+struct MapArgs {
+    /// The project file.
+    #[arg(long)]
+    project: PathBuf,
+    /// The constituent to draw. Default: the dominant one by the form factor at the stations'
+    /// centre (M2 below 1.5, K1 from 1.5).
+    #[arg(long)]
+    constituent: Option<String>,
+    /// Co-tidal lines every this many degrees of phase.
+    #[arg(long, default_value_t = 5.0)]
+    phase_step_deg: f64,
+    /// Co-range lines every this many metres of amplitude.
+    #[arg(long, default_value_t = 0.05)]
+    amplitude_step_m: f64,
+    /// Step of the grid the field is sampled on, metres.
+    #[arg(long, default_value_t = 100.0)]
+    cell_m: f64,
+    /// Folder to write `cotidal.geojson` and `cotidal.svg` to. Default: the project's output
+    /// folder.
+    #[arg(long, value_name = "DIR")]
+    out_dir: Option<PathBuf>,
 }
 
 #[derive(Debug, clap::Args)]
@@ -60,7 +87,129 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
     match a.command {
         ZonesCommand::Derive(c) => run_common(&c, None, "zones-derived.csv"),
         ZonesCommand::Compare(c) => run_common(&c.common, Some(c.threshold_m), "zones-compare.csv"),
+        ZonesCommand::Map(m) => run_map(&m),
     }
+}
+
+fn run_map(a: &MapArgs) -> anyhow::Result<Outcome> {
+    use ebbwise::io::cotidal_map::{
+        render_cotidal_svg, write_cotidal_geojson, write_svg, LineFeature,
+    };
+    use ebbwise::run::cotidal_map::{add_steps, cotidal_map, to_lonlat, MapOptions, StepsOnMap};
+    for (name, v) in [
+        ("--phase-step-deg", a.phase_step_deg),
+        ("--amplitude-step-m", a.amplitude_step_m),
+        ("--cell-m", a.cell_m),
+    ] {
+        if !(v.is_finite() && v > 0.0) {
+            anyhow::bail!("{name} {v}: expected a positive number");
+        }
+    }
+    let project = Project::load(&a.project)?;
+    let pf = project_field(&project).map_err(|f| {
+        print_findings(&f);
+        Reported
+    })?;
+    let zoning = zoning_of(&project).map_err(|f| {
+        print_findings(&f);
+        Reported
+    })?;
+    let opts = MapOptions {
+        constituent: a.constituent.clone(),
+        phase_step_deg: a.phase_step_deg,
+        amplitude_step_m: a.amplitude_step_m,
+        cell_m: a.cell_m,
+    };
+    let mut map = cotidal_map(&project, &pf, &zoning, &opts).map_err(|f| {
+        print_findings(&f);
+        Reported
+    })?;
+    add_steps(&mut map, &project.path, &pf);
+    let dir = a
+        .out_dir
+        .clone()
+        .unwrap_or_else(|| project.spec.output.dir.clone());
+    std::fs::create_dir_all(&dir)?;
+    let inputs = project_inputs(&project);
+    let input_paths: Vec<&Path> = inputs.iter().map(|(p, _)| p.as_path()).collect();
+    let mut features = Vec::new();
+    for l in &map.lines {
+        for (inside_hull, parts) in [(true, &l.inside), (false, &l.outside)] {
+            if parts.is_empty() {
+                continue;
+            }
+            features.push(LineFeature {
+                kind: l.kind,
+                value: l.value,
+                inside_hull,
+                parts: parts.iter().map(|p| to_lonlat(&pf, p)).collect(),
+            });
+        }
+    }
+    let gj = write_cotidal_geojson(
+        &dir.join("cotidal.geojson"),
+        &map.constituent,
+        &features,
+        &input_paths,
+    )?;
+    let mut notes = vec![format!(
+        "{} {}; field of {} stations; grid every {} m; local azimuthal equidistant metres ({})",
+        map.constituent,
+        if map.constituent_by_form_factor {
+            "(dominant by the form factor)"
+        } else {
+            "(chosen)"
+        },
+        map.stations.len(),
+        map.cell_m,
+        pf.local_crs
+    )];
+    if let (StepsOnMap::Drawn(_), Some((t0, t1))) = (&map.steps, map.steps_span_s) {
+        notes.push(format!(
+            "Tide steps every 5 min over the gauge records' common span {} to {} (not the survey period: the map does not read the soundings).",
+            ebbwise::io::timefmt::utc_label(t0),
+            ebbwise::io::timefmt::utc_label(t1)
+        ));
+    }
+    notes.extend(pf.notes.iter().cloned());
+    let title = format!(
+        "Co-tidal and co-range lines of {} — {}",
+        map.constituent, project.spec.name
+    );
+    let svg = render_cotidal_svg(&map, &title, &notes, CAUTION);
+    let sv = write_svg(&dir.join("cotidal.svg"), &svg, &input_paths)?;
+    let mut w = std::io::stderr().lock();
+    let phase = map
+        .lines
+        .iter()
+        .filter(|l| l.kind == ebbwise::compute::isolines::LineKind::Phase)
+        .count();
+    let _ = writeln!(
+        w,
+        "ebbwise zones map: {} of a field of {} stations ({} triangles): {phase} co-tidal lines every {}°, {} co-range lines every {} m",
+        map.constituent,
+        map.stations.len(),
+        map.triangles.len(),
+        map.phase_step_deg,
+        map.lines.len() - phase,
+        map.amplitude_step_m
+    );
+    for n in &pf.notes {
+        let _ = writeln!(w, "  note: {n}");
+    }
+    let _ = writeln!(w, "  dashed on the map and inside_hull = false in the GeoJSON: lines beyond the stations' hull, where the field is the hull edge's carried out unchanged");
+    match &map.steps {
+        StepsOnMap::Drawn(s) => {
+            let _ = writeln!(w, "  zone-boundary steps drawn: {} shared edges", s.len());
+        }
+        StepsOnMap::NotDrawn { reason: why } => {
+            let _ = writeln!(w, "  zone-boundary steps not drawn: {why}");
+        }
+    }
+    let _ = writeln!(w, "wrote {}", gj.display());
+    let _ = writeln!(w, "wrote {}", sv.display());
+    let _ = writeln!(w, "{CAUTION}");
+    Ok(Outcome::unless(false))
 }
 
 fn run_common(c: &Common, threshold_m: Option<f64>, default_name: &str) -> anyhow::Result<Outcome> {

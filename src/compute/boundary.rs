@@ -95,6 +95,60 @@ pub fn adjacent_pairs(outlines: &[MultiPolygon<f64>]) -> Vec<(usize, usize, f64)
     out
 }
 
+/// The shared edge of zones `a` and `b` as polylines in projected metres: the runs of points
+/// sampled every [`EDGE_SAMPLE_M`] along `a`'s outline that lie within [`EDGE_TOLERANCE_M`] of
+/// `b`'s, simplified to within 0.5 m (Ramer–Douglas–Peucker). Runs of a single point (a shared
+/// corner) are left out.
+pub fn shared_edge(a: &MultiPolygon<f64>, b: &MultiPolygon<f64>) -> Vec<Vec<(f64, f64)>> {
+    use geo::Simplify;
+    let rings_b: Vec<geo::LineString<f64>> = b
+        .0
+        .iter()
+        .flat_map(|p| std::iter::once(p.exterior().clone()).chain(p.interiors().iter().cloned()))
+        .collect();
+    let on_b = |c: &geo::Coord<f64>| {
+        let p = geo::Point::from(*c);
+        rings_b
+            .iter()
+            .any(|ls| Euclidean::distance(&p, ls) <= EDGE_TOLERANCE_M)
+    };
+    let mut out = Vec::new();
+    for poly in &a.densify::<Euclidean>(EDGE_SAMPLE_M).0 {
+        for ring in std::iter::once(poly.exterior()).chain(poly.interiors()) {
+            let pts = &ring.0;
+            // The closing point repeats the first.
+            let n = pts.len().saturating_sub(1);
+            if n == 0 {
+                continue;
+            }
+            let on: Vec<bool> = pts[..n].iter().map(on_b).collect();
+            let mut runs: Vec<Vec<geo::Coord<f64>>> = Vec::new();
+            match on.iter().position(|x| !x) {
+                None => runs.push(pts.to_vec()),
+                Some(start) => {
+                    let mut cur = Vec::new();
+                    for k in 1..=n {
+                        let i = (start + k) % n;
+                        if on[i] {
+                            cur.push(pts[i]);
+                        } else if !cur.is_empty() {
+                            runs.push(std::mem::take(&mut cur));
+                        }
+                    }
+                    if !cur.is_empty() {
+                        runs.push(cur);
+                    }
+                }
+            }
+            for r in runs.into_iter().filter(|r| r.len() >= 2) {
+                let ls = geo::LineString(r).simplify(&0.5);
+                out.push(ls.0.iter().map(|c| (c.x, c.y)).collect());
+            }
+        }
+    }
+    out
+}
+
 /// The tide step across one shared edge over the survey period.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct BoundaryStep {
@@ -115,6 +169,14 @@ pub struct BoundaryStep {
     pub rms_step_m: f64,
     /// Instants at which both zones have a tide.
     pub instants: usize,
+    /// The step the edge puts into the reduced soundings at the largest tide step, metres: a
+    /// seabed point on the edge reduced from the second zone reads this much deeper than from
+    /// the first (reduced depth = observed depth − tide, so depth_b − depth_a = −step; negative:
+    /// shallower).
+    pub max_depth_step_m: f64,
+    /// The shared edge as WGS 84 [longitude, latitude] polylines (set by the caller that knows
+    /// the projection; empty until set).
+    pub edge_lonlat: Vec<Vec<[f64; 2]>>,
 }
 
 /// The steps of each adjacent pair, from the zones' tides on a common grid `times_s`
@@ -151,6 +213,8 @@ pub fn boundary_steps(
                 max_at_utc: String::new(),
                 rms_step_m: (ss / n as f64).sqrt(),
                 instants: n,
+                max_depth_step_m: -max_step_m,
+                edge_lonlat: Vec::new(),
             })
         })
         .collect();
@@ -189,6 +253,17 @@ mod tests {
         for (_, _, s) in &p {
             assert!((s - 1000.0).abs() <= EDGE_SAMPLE_M + 1e-9, "{s}");
         }
+        // The shared edge of the first two is their common side x = 1000, y 0..1000 (geometry).
+        let e = shared_edge(&z[0], &z[1]);
+        assert_eq!(e.len(), 1, "{e:?}");
+        for (x, _) in &e[0] {
+            assert!((x - 1000.0).abs() < 1e-9, "{e:?}");
+        }
+        let ys: Vec<f64> = e[0].iter().map(|p| p.1).collect();
+        let lo = ys.iter().cloned().fold(f64::INFINITY, f64::min);
+        let hi = ys.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+        assert!(lo < 1e-9 && hi > 1000.0 - 1e-9, "{lo}..{hi}");
+        assert!(shared_edge(&z[2], &z[3]).is_empty());
         // A sliver 1.5 m away still counts (digitising); 5 m away does not.
         let z = vec![
             square(0.0, 0.0, 1000.0),
@@ -218,6 +293,8 @@ mod tests {
         assert_eq!(s.len(), 2);
         assert_eq!((s[0].zone_a.as_str(), s[0].zone_b.as_str()), ("A", "B"));
         assert!((s[0].max_step_m.abs() - 0.1).abs() < 1e-9, "{:?}", s[0]);
+        // depth_b − depth_a = −(tide_b − tide_a) (reduced depth = observed depth − tide).
+        assert_eq!(s[0].max_depth_step_m, -s[0].max_step_m);
         assert!(
             (s[0].rms_step_m - 0.1 / 2f64.sqrt()).abs() < 1e-6,
             "{:?}",

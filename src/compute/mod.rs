@@ -13,6 +13,8 @@
 //! * [`correctors`] — tide on a regular grid per zone, and models that read correctors back.
 //! * [`cotidal`] — co-tidal and co-range fields from several stations; derived correctors.
 //! * [`continuous`] — continuous tide models on a field: corrector fields, astronomical + residual.
+//! * [`cotidal_map`] — the co-tidal map as plain data (lines, zones, stations, steps).
+//! * [`isolines`] — co-tidal and co-range lines of a sampled field (the phase's wrap handled).
 //! * [`qc`] — gauge-record quality control: per-sample flags with reasons.
 //! * [`spline`] — not-a-knot cubic spline interpolation in time, per unbroken segment.
 //! * [`lowpass`] — zero-phase low-pass filter for noisy 1-minute records.
@@ -34,10 +36,12 @@ pub mod compare;
 pub mod continuous;
 pub mod correctors;
 pub mod cotidal;
+pub mod cotidal_map;
 pub mod datums;
 pub mod extrema;
 pub mod gapfill;
 pub mod harmonic;
+pub mod isolines;
 pub mod lat;
 pub mod locate;
 pub mod lowpass;

@@ -13,6 +13,7 @@
 //! * [`report_html`] — the QA report page (HTML + SVG).
 //! * [`constants`] — harmonic-constants files (TOML).
 //! * [`datums_file`] — tidal-datums files (TOML).
+//! * [`cotidal_map`] — the co-tidal map: its lines as GeoJSON and the map as SVG.
 //! * [`zones_file`] — the derived-correctors table of `ebbwise zones` (CSV).
 //! * [`transfer_file`] — datum-transfer files of a short-term gauge (TOML).
 //! * [`qc_svg`] — the plot of a gauge record with its QC flags (SVG).
@@ -22,6 +23,7 @@
 pub mod atomic;
 pub mod constants;
 pub mod correctors_file;
+pub mod cotidal_map;
 pub mod crs;
 pub mod datums_file;
 pub mod error;

@@ -96,6 +96,151 @@ pub(crate) fn fmt_tick(v: f64, step_hint: f64) -> String {
     format!("{v:.d$}")
 }
 
+/// Colour stops of the zone-boundary step scale, from no step to the scale's top: pale blue to
+/// deep violet, apart from the green-to-red of the soundings' U95/allowed.
+const STEP_STOPS: [(f64, (u8, u8, u8)); 5] = [
+    (0.0, (0xd4, 0xe4, 0xf4)),
+    (0.25, (0x7f, 0xb0, 0xdc)),
+    (0.5, (0x3b, 0x6c, 0xc0)),
+    (0.75, (0x5b, 0x2a, 0x9e)),
+    (1.0, (0x2a, 0x00, 0x4e)),
+];
+
+/// The top of the step colour scale for a largest |step| of `max_m`: the next multiple of
+/// 0.05 m (at least 0.05 m).
+pub(crate) fn step_scale_top_m(max_m: f64) -> f64 {
+    ((max_m / 0.05).ceil() * 0.05).max(0.05)
+}
+
+/// Colour of a step of size `v_m` on a scale from 0 to `top_m`.
+pub(crate) fn step_colour(v_m: f64, top_m: f64) -> String {
+    let f = (v_m.abs() / top_m).clamp(0.0, 1.0);
+    let k = STEP_STOPS
+        .windows(2)
+        .position(|w| f <= w[1].0)
+        .unwrap_or(STEP_STOPS.len() - 2);
+    let (a, b) = (STEP_STOPS[k], STEP_STOPS[k + 1]);
+    let t = (f - a.0) / (b.0 - a.0);
+    let mix = |x: u8, y: u8| (x as f64 + t * (y as f64 - x as f64)).round() as u8;
+    format!(
+        "#{:02x}{:02x}{:02x}",
+        mix(a.1 .0, b.1 .0),
+        mix(a.1 .1, b.1 .1),
+        mix(a.1 .2, b.1 .2)
+    )
+}
+
+/// The step colour scale's legend: a bar `w` wide at (`x`, `y`) with ticks in metres.
+pub(crate) fn step_legend(out: &mut String, x: f64, y: f64, w: f64, top_m: f64) {
+    let _ = write!(
+        out,
+        r#"<text x="{x}" y="{}" class="tick">Largest tide step across the edge |tide_b − tide_a| (m)</text>"#,
+        y - 4.0
+    );
+    let n = 20;
+    for i in 0..n {
+        let v = (i as f64 + 0.5) / n as f64 * top_m;
+        let _ = write!(
+            out,
+            r#"<rect x="{:.1}" y="{y}" width="{:.1}" height="10" fill="{}"/>"#,
+            x + i as f64 * w / n as f64,
+            w / n as f64 + 0.3,
+            step_colour(v, top_m)
+        );
+    }
+    let t = ticks(0.0, top_m, 4);
+    let st = if t.len() > 1 { t[1] - t[0] } else { top_m };
+    for v in t {
+        let xx = x + v / top_m * w;
+        let _ = write!(
+            out,
+            r##"<line x1="{xx:.1}" y1="{}" x2="{xx:.1}" y2="{}" stroke="#333"/><text x="{xx:.1}" y="{}" class="tick" text-anchor="middle">{}</text>"##,
+            y + 10.0,
+            y + 14.0,
+            y + 25.0,
+            fmt_tick(v, st)
+        );
+    }
+}
+
+/// Draws each zone-boundary step's shared edge coloured by its largest |step|, labels the worst
+/// three, and the colour scale's legend at `legend_at` when given; `xy` maps the edges'
+/// coordinates (longitude/latitude) to the plot.
+pub(crate) fn step_edges_svg(
+    out: &mut String,
+    steps: &[crate::compute::boundary::BoundaryStep],
+    xy: &dyn Fn(f64, f64) -> (f64, f64),
+    legend_at: Option<(f64, f64)>,
+) {
+    if steps.is_empty() {
+        return;
+    }
+    let top = step_scale_top_m(steps.iter().map(|s| s.max_step_m.abs()).fold(0.0, f64::max));
+    let mut labels = Vec::new();
+    for (rank, st) in steps.iter().enumerate() {
+        let col = step_colour(st.max_step_m, top);
+        for part in &st.edge_lonlat {
+            let mut d = String::new();
+            for (j, p) in part.iter().enumerate() {
+                let (x, y) = xy(p[0], p[1]);
+                let _ = write!(d, "{}{x:.1},{y:.1} ", if j == 0 { "M" } else { "L" });
+            }
+            let _ = write!(
+                out,
+                r##"<path class="step-casing" d="{d}" fill="none" stroke="#111111" stroke-width="8" stroke-linecap="butt"/><path class="step-edge" d="{d}" fill="none" stroke="{col}" stroke-width="5" stroke-linecap="butt"><title>{} | {}: largest step {:+.3} m</title></path>"##,
+                esc(&st.zone_a),
+                esc(&st.zone_b),
+                st.max_step_m
+            );
+        }
+        // The worst three are labelled at the middle of their longest part.
+        let longest = st.edge_lonlat.iter().max_by(|a, b| {
+            let len = |p: &Vec<[f64; 2]>| {
+                p.windows(2)
+                    .map(|w| {
+                        let (a, b) = (xy(w[0][0], w[0][1]), xy(w[1][0], w[1][1]));
+                        (a.0 - b.0).hypot(a.1 - b.1)
+                    })
+                    .sum::<f64>()
+            };
+            len(a).total_cmp(&len(b))
+        });
+        if let (true, Some(part)) = (rank < 3, longest) {
+            let m = xy(part[part.len() / 2][0], part[part.len() / 2][1]);
+            labels.push((
+                rank,
+                m.0,
+                m.1,
+                format!(
+                    "{} | {}: {:.3} m",
+                    st.zone_a,
+                    st.zone_b,
+                    st.max_step_m.abs()
+                ),
+            ));
+        }
+    }
+    for (rank, x, y, text) in labels {
+        // Left of the point, or right of and above it when the plot's edge is too near (about
+        // 6.5 px a character at the label's size).
+        let width = 6.5 * (text.chars().count() + 3) as f64;
+        let (tx, ty, anchor) = if x - 8.0 - width > 2.0 {
+            (x - 8.0, y + 4.0, "end")
+        } else {
+            (x + 8.0, y - 8.0, "start")
+        };
+        let _ = write!(
+            out,
+            r##"<circle cx="{x:.1}" cy="{y:.1}" r="3" fill="#111"/><text x="{tx:.1}" y="{ty:.1}" class="steplabel" text-anchor="{anchor}">{}. {}</text>"##,
+            rank + 1,
+            esc(&text)
+        );
+    }
+    if let Some((x, y)) = legend_at {
+        step_legend(out, x, y, 180.0, top);
+    }
+}
+
 fn map_svg(r: &QaReport, out: &mut String) {
     let (w, h, m) = (720.0, 520.0, 56.0);
     let mut lon = (f64::INFINITY, f64::NEG_INFINITY);
@@ -146,7 +291,7 @@ fn map_svg(r: &QaReport, out: &mut String) {
             }
             let _ = write!(
                 out,
-                r##"<path d="{d}Z" fill="{}" fill-opacity="0.08" stroke="#34495e" stroke-width="1.2"/>"##,
+                r##"<path class="zone" d="{d}Z" fill="{}" fill-opacity="0.08" stroke="#34495e" stroke-width="1.2"/>"##,
                 ZONE_COLOURS[i % ZONE_COLOURS.len()]
             );
         }
@@ -169,6 +314,12 @@ fn map_svg(r: &QaReport, out: &mut String) {
             r#"<text x="{lx:.1}" y="{ly:.1}" class="zlabel">{id}</text>"#
         );
     }
+    step_edges_svg(
+        out,
+        &r.boundary_steps,
+        &|lo, la| (x(lo), y(la)),
+        Some((m + 4.0, 18.0)),
+    );
     // Axes in degrees.
     let lt = ticks(lon.0, lon.1, 5);
     let step_lon = if lt.len() > 1 { lt[1] - lt[0] } else { 1.0 };
@@ -580,6 +731,7 @@ th {{ background: #f0f4f8; }}
 td.no {{ color: #c0262d; font-weight: bold; }} td.yes {{ color: #1b7f4c; }}
 svg.plot {{ width: 100%; max-width: 760px; height: auto; display: block; margin: 6px 0 18px; background: #fff; }}
 svg .tick {{ font-size: 11px; fill: #2c3e50; }} svg .axis {{ font-size: 12px; fill: #1d2a36; }}
+svg .steplabel {{ font-size: 11px; font-weight: bold; fill: #111; paint-order: stroke; stroke: #fff; stroke-width: 3px; stroke-linejoin: round; }}
 svg .zlabel {{ font-size: 13px; font-weight: bold; fill: #12324d; text-anchor: middle; paint-order: stroke; stroke: #fff; stroke-width: 4px; stroke-linejoin: round; }}
 h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; font-size: 18px; }}
 </style></head><body>
@@ -648,6 +800,31 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
                 esc(&b.max_at_utc),
                 b.rms_step_m,
                 b.instants
+            );
+        }
+        o.push_str("</table>");
+        o.push_str("<p>In the reduced soundings (reduced depth = observed depth − tide, so with step = tide_b − tide_a a seabed point on the edge has depth_b − depth_a = −step), the worst edges, also drawn on the map above coloured by their largest step:</p>");
+        o.push_str(r#"<table class="boundary-depth-steps"><tr><th>edge</th><th>depth step (m)</th><th>at (UTC)</th><th>in the reduced soundings</th></tr>"#);
+        for (i, b) in r.boundary_steps.iter().take(3).enumerate() {
+            let d = b.max_depth_step_m;
+            let way = if d > 0.0 {
+                "deeper"
+            } else if d < 0.0 {
+                "shallower"
+            } else {
+                "the same"
+            };
+            let _ = write!(
+                o,
+                "<tr><td>{}. {} | {}</td><td>{:+.3}</td><td>{}</td><td>a seabed point on the edge reduced from {} reads {:.3} m {way} than from {}</td></tr>",
+                i + 1,
+                esc(&b.zone_a),
+                esc(&b.zone_b),
+                d,
+                esc(&b.max_at_utc),
+                esc(&b.zone_b),
+                d.abs(),
+                esc(&b.zone_a)
             );
         }
         o.push_str("</table>");

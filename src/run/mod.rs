@@ -8,6 +8,7 @@
 //! * [`correctors`] — tide-correction files with provenance, and applying them.
 //! * [`datums`] — observed high and low waters and tidal datums of a record into a datums file.
 //! * [`fields`] — the project's co-tidal field and each zone's derived correctors.
+//! * [`cotidal_map`] — co-tidal and co-range lines of the field, with what the map draws.
 //! * [`transfer`] — a short-term gauge's datums by comparison with a control gauge.
 //! * [`harmonics`] — harmonic analysis of a record into a constants file; prediction.
 //! * [`qc`] — gauge-record quality control and gauge-to-gauge comparison.
@@ -16,6 +17,7 @@
 
 pub mod check;
 pub mod correctors;
+pub mod cotidal_map;
 pub mod datums;
 pub mod fields;
 pub mod harmonics;

@@ -39,7 +39,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         Some((t0, t1)) => tide_series(loaded, t0, t1),
         None => Vec::new(),
     };
-    let boundary_steps = boundary_steps_of(loaded, &tide_series);
+    let boundary_steps = boundary_steps_of(loaded, &tide_series, run.time_range_s);
     let mut map_points = Vec::with_capacity(qa.samples.len());
     let groups = &loaded.project.spec.soundings;
     let transformers: Vec<Option<Transformer>> = groups
@@ -140,14 +140,36 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
 }
 
 /// The tide step across each shared zone edge (`compute::boundary`), from the zones' tide
-/// series; outlines in a local azimuthal equidistant projection centred on the zoning.
+/// series, over the instants within `period` (the survey period: the soundings' time span; the
+/// series' grid may start and end up to a step beyond it).
 pub fn boundary_steps_of(
     loaded: &Loaded,
     series: &[ZoneTideSeries],
+    period: Option<(f64, f64)>,
+) -> Vec<crate::compute::boundary::BoundaryStep> {
+    if series.len() != loaded.zoning.zones.len() {
+        return Vec::new();
+    }
+    let tides: Vec<Vec<Option<f64>>> = series.iter().map(|s| s.tide_m.clone()).collect();
+    let Some(times) = series.first().map(|s| s.times_s.clone()) else {
+        return Vec::new();
+    };
+    boundary_steps_from(&loaded.zoning, &times, &tides, period)
+}
+
+/// The tide step across each shared edge of `zoning`'s zones, from their tides `tides[zone][k]`
+/// at `times_s[k]` (zones in the zoning's order), over the instants within `period` when given;
+/// outlines in a local azimuthal equidistant projection centred on the zoning, each step's
+/// edge carried back to longitude/latitude. Worst first.
+pub fn boundary_steps_from(
+    zoning: &crate::io::zoning_geojson::ZoningSpec,
+    times_s: &[f64],
+    tides: &[Vec<Option<f64>>],
+    period: Option<(f64, f64)>,
 ) -> Vec<crate::compute::boundary::BoundaryStep> {
     use geo::BoundingRect;
-    let zones = &loaded.zoning.zones;
-    if series.len() != zones.len() || zones.len() < 2 {
+    let zones = &zoning.zones;
+    if tides.len() != zones.len() || zones.len() < 2 {
         return Vec::new();
     }
     let boxes: Vec<geo::Rect<f64>> = zones
@@ -163,7 +185,10 @@ pub fn boundary_steps_of(
         hi = geo::coord! { x: hi.x.max(b.max().x), y: hi.y.max(b.max().y) };
     }
     let crs = crate::io::crs::local_metres_crs(0.5 * (lo.x + hi.x), 0.5 * (lo.y + hi.y));
-    let Ok(t) = Transformer::new("EPSG:4326", &crs) else {
+    let (Ok(t), Ok(back)) = (
+        Transformer::new("EPSG:4326", &crs),
+        Transformer::new(&crs, "EPSG:4326"),
+    ) else {
         return Vec::new();
     };
     let Ok(outlines) = zones
@@ -174,17 +199,42 @@ pub fn boundary_steps_of(
         return Vec::new();
     };
     let pairs = crate::compute::boundary::adjacent_pairs(&outlines);
-    let ids: Vec<String> = series.iter().map(|s| s.zone.clone()).collect();
-    let tides: Vec<Vec<Option<f64>>> = series.iter().map(|s| s.tide_m.clone()).collect();
-    let Some(times) = series.first().map(|s| s.times_s.clone()) else {
-        return Vec::new();
-    };
-    let mut steps = crate::compute::boundary::boundary_steps(&ids, &times, &tides, &pairs);
+    let ids: Vec<String> = zones.iter().map(|z| z.id.clone()).collect();
+    let within: Vec<bool> = times_s
+        .iter()
+        .map(|t| period.map_or(true, |(a, b)| *t >= a && *t <= b))
+        .collect();
+    let tides: Vec<Vec<Option<f64>>> = tides
+        .iter()
+        .map(|z| {
+            z.iter()
+                .zip(&within)
+                .map(|(v, w)| v.filter(|_| *w))
+                .collect()
+        })
+        .collect();
+    let mut steps = crate::compute::boundary::boundary_steps(&ids, times_s, &tides, &pairs);
     for s in &mut steps {
         s.max_at_utc = utc_label(s.max_at_s);
         s.max_step_m = round_nearest(s.max_step_m, METRE_DECIMALS);
         s.rms_step_m = round_nearest(s.rms_step_m, METRE_DECIMALS);
+        s.max_depth_step_m = round_nearest(s.max_depth_step_m, METRE_DECIMALS);
         s.shared_m = s.shared_m.round();
+        let (Some(a), Some(b)) = (
+            ids.iter().position(|i| *i == s.zone_a),
+            ids.iter().position(|i| *i == s.zone_b),
+        ) else {
+            continue;
+        };
+        s.edge_lonlat = crate::compute::boundary::shared_edge(&outlines[a], &outlines[b])
+            .iter()
+            .map(|part| {
+                part.iter()
+                    .filter_map(|(x, y)| back.convert(*x, *y).ok())
+                    .map(|(lon, lat)| [(lon * 1e7).round() / 1e7, (lat * 1e7).round() / 1e7])
+                    .collect()
+            })
+            .collect();
     }
     steps
 }

@@ -7,6 +7,7 @@ mod cli;
 mod correctors;
 mod correctors_apply;
 mod cotidal;
+mod cotidal_map;
 mod crs_reference;
 mod datums;
 mod demo_field;

@@ -327,10 +327,43 @@ fn html_report_has_its_plots_and_no_outside_resources() {
     let svgs: Vec<_> = doc.select(&sel("svg.plot")).collect();
     assert!(svgs[0].select(&sel("circle")).count() > 1000, "map points");
     assert_eq!(
-        svgs[0].select(&sel("path")).count(),
+        svgs[0].select(&sel("path.zone")).count(),
         7,
         "one outline per zone"
     );
+    // Each zone-boundary step's shared edge is drawn, the worst three labelled, and the depth
+    // steps listed with the sign convention: reduced depth = observed depth − tide, so a step
+    // tide_b − tide_a puts depth_b − depth_a = −step into the soundings (definition).
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.path().join("qa-report.json")).unwrap())
+            .unwrap();
+    let steps = json["boundary_steps"].as_array().unwrap();
+    assert!(steps.len() >= 3, "the demo has six shared edges");
+    let parts: usize = steps
+        .iter()
+        .map(|s| s["edge_lonlat"].as_array().unwrap().len())
+        .sum();
+    assert!(parts >= steps.len());
+    assert_eq!(svgs[0].select(&sel("path.step-edge")).count(), parts);
+    assert_eq!(svgs[0].select(&sel("text.steplabel")).count(), 3);
+    let rows: Vec<String> = doc
+        .select(&sel("table.boundary-depth-steps tr"))
+        .skip(1)
+        .map(|r| r.text().collect())
+        .collect();
+    assert_eq!(rows.len(), 3, "{rows:?}");
+    for (s, row) in steps.iter().zip(&rows) {
+        let step = s["max_step_m"].as_f64().unwrap();
+        assert_eq!(s["max_depth_step_m"].as_f64().unwrap(), -step);
+        let way = if step > 0.0 { "shallower" } else { "deeper" };
+        let want = format!(
+            "reduced from {} reads {:.3} m {way} than from {}",
+            s["zone_b"].as_str().unwrap(),
+            step.abs(),
+            s["zone_a"].as_str().unwrap()
+        );
+        assert!(row.contains(&want), "{row} / {want}");
+    }
     assert!(
         svgs[1].select(&sel("path")).count() >= 14,
         "a band and a line per zone"
