@@ -128,7 +128,7 @@ impl StationPredictions {
     pub fn at(&self, i: usize, t_s: f64) -> Option<(f64, f64)> {
         let v = &self.levels_m[i];
         let f = (t_s - self.t0_s) / self.step_s;
-        if !(f >= 0.0) {
+        if f.is_nan() || f < 0.0 {
             return None;
         }
         let k = f.floor() as usize;
@@ -265,10 +265,7 @@ impl ContinuousSetup {
                 z0_m: stations[i].constants.z0_m,
             })
             .collect::<Vec<_>>();
-        if station_terms
-            .iter()
-            .any(|t| t.dom.0.hypot(t.dom.1) <= 0.0)
-        {
+        if station_terms.iter().any(|t| t.dom.0.hypot(t.dom.1) <= 0.0) {
             return Err("a station has no amplitude of the dominant constituent");
         }
         let blend_gauges = station_gauge
@@ -379,11 +376,7 @@ pub struct ContinuousU<'a> {
 
 /// The blend's weights after gauges without a level leave it; `None` when none is left.
 fn renormalised(states: &mut [FeedState]) -> Option<()> {
-    let present: f64 = states
-        .iter()
-        .filter(|s| !s.missing)
-        .map(|s| s.weight)
-        .sum();
+    let present: f64 = states.iter().filter(|s| !s.missing).map(|s| s.weight).sum();
     if present <= 0.0 {
         return None;
     }
@@ -464,9 +457,7 @@ impl TideModel for ContinuousTide<'_> {
             let (dt_s, ratio) = match setup.mode {
                 ContinuousMode::CorrectorField => {
                     let t = &terms[station];
-                    let dg = wrap_pi(
-                        (-dom.1).atan2(dom.0) - (-t.dom.1).atan2(t.dom.0),
-                    );
+                    let dg = wrap_pi((-dom.1).atan2(dom.0) - (-t.dom.1).atan2(t.dom.0));
                     let gauge_amp = t.dom.0.hypot(t.dom.1) + t.partner.0.hypot(t.partner.1);
                     (dg / setup.omega_rad_per_s, amp / gauge_amp)
                 }
@@ -504,8 +495,7 @@ impl TideModel for ContinuousTide<'_> {
                         continue;
                     }
                     let (_, ratio, station) = per_gauge[n];
-                    tide +=
-                        st.weight * (z0 + ratio * (st.level.height_m - terms[station].z0_m));
+                    tide += st.weight * (z0 + ratio * (st.level.height_m - terms[station].z0_m));
                 }
             }
             ContinuousMode::AstronomicalResidual => {

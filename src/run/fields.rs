@@ -89,7 +89,9 @@ pub struct LonLatStation {
 
 /// The project's stations: its gauges that name constants, then its virtual gauges; with the
 /// notes (gauges left out, constants files that do not say their levels).
-pub fn field_stations(project: &Project) -> Result<(Vec<LonLatStation>, Vec<String>), Vec<Finding>> {
+pub fn field_stations(
+    project: &Project,
+) -> Result<(Vec<LonLatStation>, Vec<String>), Vec<Finding>> {
     let mut notes = Vec::new();
     let mut errors = Vec::new();
     let mut found = Vec::new();
@@ -140,10 +142,22 @@ pub fn field_stations(project: &Project) -> Result<(Vec<LonLatStation>, Vec<Stri
     Ok((found, notes))
 }
 
+/// Why a field cannot be placed in a soundings plane.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum PlaneFieldError {
+    /// A station cannot be converted to the soundings' CRS.
+    #[error(transparent)]
+    Crs(#[from] crate::io::crs::CrsError),
+    /// The stations do not make a field.
+    #[error("the co-tidal field cannot be built: {0}")]
+    Field(#[from] crate::compute::cotidal::FieldError),
+}
+
 /// The field and the recording gauges' blend in the plane of a soundings group's `crs`:
 /// projected coordinates as they are, WGS 84 longitude/latitude in a local equirectangular
 /// plane about the stations' mean position (`compute::continuous::Plane`).
-pub fn plane_field(stations: &[LonLatStation], crs: &str) -> Result<PlaneField, String> {
+pub fn plane_field(stations: &[LonLatStation], crs: &str) -> Result<PlaneField, PlaneFieldError> {
     let n = stations.len().max(1) as f64;
     let (lon0, lat0) = (
         stations.iter().map(|s| s.lon).sum::<f64>() / n,
@@ -155,13 +169,13 @@ pub fn plane_field(stations: &[LonLatStation], crs: &str) -> Result<PlaneField, 
         Plane::Projected
     };
     let t = match plane {
-        Plane::Projected => Some(Transformer::new("EPSG:4326", crs).map_err(|e| e.to_string())?),
+        Plane::Projected => Some(Transformer::new("EPSG:4326", crs)?),
         Plane::LonLat { .. } => None,
     };
     let mut placed = Vec::with_capacity(stations.len());
     for s in stations {
         let (x_m, y_m) = match &t {
-            Some(t) => t.convert(s.lon, s.lat).map_err(|e| e.to_string())?,
+            Some(t) => t.convert(s.lon, s.lat)?,
             None => plane.to_plane(s.lon, s.lat),
         };
         placed.push(Station {
@@ -180,7 +194,7 @@ pub fn plane_field(stations: &[LonLatStation], crs: &str) -> Result<PlaneField, 
             .map(|(p, _)| p.clone())
             .collect(),
     );
-    let field = Field::new(placed).map_err(|e| format!("the co-tidal field cannot be built: {e}"))?;
+    let field = Field::new(placed)?;
     Ok(PlaneField {
         field,
         blend,
