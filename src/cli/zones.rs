@@ -105,15 +105,7 @@ fn run_map(a: &MapArgs) -> anyhow::Result<Outcome> {
             anyhow::bail!("{name} {v}: expected a positive number");
         }
     }
-    let project = Project::load(&a.project)?;
-    let pf = project_field(&project).map_err(|f| {
-        print_findings(&f);
-        Reported
-    })?;
-    let zoning = zoning_of(&project).map_err(|f| {
-        print_findings(&f);
-        Reported
-    })?;
+    let (project, pf, zoning) = field_and_zoning(&a.project)?;
     let opts = MapOptions {
         constituent: a.constituent.clone(),
         phase_step_deg: a.phase_step_deg,
@@ -212,6 +204,26 @@ fn run_map(a: &MapArgs) -> anyhow::Result<Outcome> {
     Ok(Outcome::unless(false))
 }
 
+/// The project at `path`, its co-tidal field and its zoning; problems printed.
+fn field_and_zoning(
+    path: &Path,
+) -> anyhow::Result<(
+    Project,
+    ProjectField,
+    ebbwise::io::zoning_geojson::ZoningSpec,
+)> {
+    let project = Project::load(path)?;
+    let pf = project_field(&project).map_err(|f| {
+        print_findings(&f);
+        Reported
+    })?;
+    let zoning = zoning_of(&project).map_err(|f| {
+        print_findings(&f);
+        Reported
+    })?;
+    Ok((project, pf, zoning))
+}
+
 fn run_common(c: &Common, threshold_m: Option<f64>, default_name: &str) -> anyhow::Result<Outcome> {
     if !(c.cell_m.is_finite() && c.cell_m > 0.0) {
         anyhow::bail!(
@@ -224,15 +236,7 @@ fn run_common(c: &Common, threshold_m: Option<f64>, default_name: &str) -> anyho
             anyhow::bail!("--threshold-m {t}: expected a positive number of metres");
         }
     }
-    let project = Project::load(&c.project)?;
-    let pf = project_field(&project).map_err(|f| {
-        print_findings(&f);
-        Reported
-    })?;
-    let zoning = zoning_of(&project).map_err(|f| {
-        print_findings(&f);
-        Reported
-    })?;
+    let (project, pf, zoning) = field_and_zoning(&c.project)?;
     let (rows, skipped) = derive_zones(&pf, &zoning, c.cell_m);
     let out = c
         .out
@@ -283,12 +287,7 @@ fn print_table(
             .collect::<Vec<_>>()
             .join(", "),
         pf.field.triangles().len(),
-        pf.field
-            .constituents()
-            .iter()
-            .map(|c| c.name)
-            .collect::<Vec<_>>()
-            .join(" ")
+        pf.field.constituent_names()
     );
     for n in &pf.notes {
         let _ = writeln!(w, "  note: {n}");

@@ -286,6 +286,15 @@ impl Field {
         }
     }
 
+    /// The common constituents' names, space-separated (for messages).
+    pub fn constituent_names(&self) -> String {
+        self.constituents
+            .iter()
+            .map(|c| c.name)
+            .collect::<Vec<_>>()
+            .join(" ")
+    }
+
     /// Station `i`'s phasor `H·e^{−iG}` of common constituent `k` as (re, im), metres.
     pub fn station_phasor(&self, i: usize, k: usize) -> (f64, f64) {
         self.phasors[i][k]

@@ -92,12 +92,7 @@ pub fn cotidal_map(
     {
         return Err(err(format!(
             "--constituent {constituent}: not carried by the field (held by every station: {})",
-            pf.field
-                .constituents()
-                .iter()
-                .map(|c| c.name)
-                .collect::<Vec<_>>()
-                .join(" ")
+            pf.field.constituent_names()
         )));
     }
     let mut zones = Vec::new();
