@@ -1110,6 +1110,13 @@ fn main() -> Result<()> {
             gap_fill_toml(&project_toml(&gauge_lonlat, &virtual_lonlat)),
         ),
         (
+            "continuous.toml".into(),
+            continuous_toml(&gap_fill_toml(&project_toml(
+                &gauge_lonlat,
+                &virtual_lonlat,
+            ))),
+        ),
+        (
             "README.md".into(),
             readme(&stats, model_error, &virtual_lonlat),
         ),
@@ -1273,6 +1280,42 @@ fn gap_fill_toml(project: &str) -> String {
     s.push_str(GAP_FILL_TABLE);
     s
 }
+
+/// gap-fill.toml reduced with a continuous tide between the gauges (`[tide_field]`).
+fn continuous_toml(gap_fill: &str) -> String {
+    let mut s = String::from(
+        "# The demo survey reduced with a continuous tide between the gauges: gap-fill.toml, plus\n\
+         # [tide_field] (docs/cotidal.md).\n",
+    );
+    for line in gap_fill.lines() {
+        if line.starts_with("name = \"Vellmar Water demo survey, 2026-06-14, gap-filled\"") {
+            s.push_str("name = \"Vellmar Water demo survey, 2026-06-14, continuous tide\"\n");
+            continue;
+        }
+        s.push_str(line);
+        s.push('\n');
+    }
+    s.push_str(TIDE_FIELD_TABLE);
+    s
+}
+
+const TIDE_FIELD_TABLE: &str = r#"
+# ---------------------------------------------------------------------------------------------
+# A continuous tide (docs/cotidal.md): instead of the zones' correctors, each sounding's tide is
+# carried from the three gauges by the co-tidal field of their constants and the virtual gauges:
+# with mode = "corrector_field" every gauge's record is shifted and scaled by the time corrector
+# and range ratio the field gives between the gauge and the sounding, and the records are blended
+# by the gauges' triangulation; "astronomical_residual" predicts the tide from the constants
+# interpolated at the sounding and adds the gauges' observed residuals, blended the same way. The
+# zoning still bounds the survey area and names the zones the QA report groups soundings by.
+[tide_field]
+mode = "corrector_field"
+# Standard uncertainties of the field (demo values; the authority's specification sets them):
+u_field_m = 0.05               # the field's departure from linear midway between two stations
+field_scale_km = 10            # ... that stand this far apart
+u_station_range_ratio = 0.02   # a station's relative amplitude error
+u_station_time_min = 3         # a station's phase error, minutes of M2
+"#;
 
 const GAP_FILL_TABLE: &str = r#"
 # ---------------------------------------------------------------------------------------------
@@ -1578,6 +1621,9 @@ ebbwise and does the same through `ebbwise demo`. `ebbwise zones compare --proje
 zoning-demo/gap-fill.toml` sets the zoning's correctors beside those of the co-tidal field of the
 gauges and the virtual gauges (gap-fill.toml names the gauges' constants; project.toml does not,
 so its field has the virtual gauges alone and derives no zone's correctors).
+`ebbwise reduce zoning-demo/continuous.toml` reduces the same survey with a continuous tide
+between the gauges (`[tide_field]`, docs/cotidal.md): the tide is carried from the three gauges
+by the co-tidal field instead of stepping at the zones' edges.
 "#,
         day = SURVEY_DAY,
         min = MIN_LOGGED_DEPTH_M,

@@ -183,15 +183,36 @@ pub fn print_run_summary(
     for (st, n) in s.rows_by_status.iter() {
         let _ = writeln!(e, "  {st:<16} {n:>10}");
     }
+    let continuous = matches!(s.tide_model, "corrector_field" | "astronomical_residual");
+    if continuous {
+        let _ = writeln!(
+            e,
+            "  tide: continuous between the gauges ({}, [tide_field]); the zones only bound the area and report",
+            s.tide_model
+        );
+    }
+    let fw = s
+        .zones
+        .iter()
+        .map(|z| z.mean_level_form.len())
+        .max()
+        .unwrap_or(0)
+        .max(10);
     let _ = writeln!(
         e,
-        "  {:<8} {:<10} {:<22} {:>10} {:>10} {:>14} {:>14}",
-        "zone", "formula", "gauges", "reduced", "gap_filled", "no_gauge_data", "gauge_flagged"
+        "  {:<8} {:<fw$} {:<22} {:>10} {:>10} {:>14} {:>14}",
+        "zone",
+        if continuous { "tide" } else { "formula" },
+        "gauges",
+        "reduced",
+        "gap_filled",
+        "no_gauge_data",
+        "gauge_flagged"
     );
     for z in &s.zones {
         let _ = writeln!(
             e,
-            "  {:<8} {:<10} {:<22} {:>10} {:>10} {:>14} {:>14}",
+            "  {:<8} {:<fw$} {:<22} {:>10} {:>10} {:>14} {:>14}",
             z.zone,
             z.mean_level_form,
             z.gauges.join("+"),

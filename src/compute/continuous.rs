@@ -31,14 +31,23 @@
 //! - *datum*: `Σ β_g² u²_datum,g` — the gauges' datum connections, independent (a virtual
 //!   station's mean level is taken as tied to chart datum through the gauges: its own datum
 //!   uncertainty is not added);
-//! - *range* and *timing*: each station's constants carry a relative amplitude error
-//!   `u_station_range_ratio` and a phase error `u_station_time_min` (in minutes of the
-//!   dominant constituent), independent between stations. Carried from gauge `g` to the place,
-//!   the corrector's error scales with `s_g = √Σ_i (w_i − δ_ig)²` (zero at the gauge itself);
-//!   in the astronomical mode the prediction's error enters with `w_i − β_i` per station
-//!   (the residual cancels a gauge's own prediction error). Range: sensitivity the
-//!   tide-varying part of the level, timing: its rate (first order; the discrete budget's
-//!   second-order term is left out here);
+//! - *range* and *timing*: each station's constants carry a relative amplitude error `ε_i`
+//!   (standard `u_station_range_ratio`, every constituent scaled) and a time error `τ_i`
+//!   (standard `u_station_time_min`, every phase moved by its speed times `τ_i`),
+//!   independent between stations. In the corrector mode station `i` moves the place's
+//!   phasors `D(x) = Σ w_j D_j`, `P(x)` of the dominant constituent and its partner, hence
+//!   every range ratio `R_g = A(x)/A_g` and time corrector `Δt_g = (G(x) − G_g)/ω`, and its
+//!   own gauge's `A_g`, `G_g`. The tide's sensitivities are taken exactly to first order with
+//!   the complex products `c_i = w_i D_i · conj(D(x))`: `∂A(x)/∂ε_i = Re c_i/|D| (+ partner)`,
+//!   `∂G(x)/∂ε_i = −Im c_i/|D|²`, `∂G(x)/∂τ_i = ω Re c_i/|D|²`, `∂A(x)/∂τ_i = ω Im c_i/|D|
+//!   (+ partner, its own speed)`; with `T = Σ β_g R_g η_g` (`η_g = h_g − Z0_g`, the level's
+//!   tide-varying part) and `Ṫ = Σ β_g R_g ḣ_g`, the coefficient of `ε_i` is
+//!   `T ∂ln A/∂ε_i − [i is gauge g] β_g R_g η_g + Ṫ ∂Δt/∂ε_i` and that of `τ_i` likewise.
+//!   Both vanish at a gauge standing alone. In the astronomical mode a station's prediction
+//!   error enters with `w_i − β_i` (a gauge's own cancels in its residual):
+//!   `(w_i − β_i)(P_i − Z0_i) ε_i` and `(w_i − β_i) Ṗ_i τ_i`. Checked against a Monte Carlo
+//!   of the stations' errors (GUM Supplement 1) in this module's tests. The discrete budget's
+//!   second-order timing term is left out;
 //! - *zone* (here: the field's departure from linear): the interpolation variance of a field
 //!   whose departure from the linear one has a linear variogram `γ(h) = c·h`, with the
 //!   place's weights: `σ² = 2 Σ w_i γ(d_i) − Σ Σ w_i w_j γ(d_ij)` (the kriging variance of
@@ -148,15 +157,15 @@ impl StationPredictions {
 pub enum Blend {
     /// One gauge: weight 1 everywhere.
     One,
-    /// Two gauges: the projection on their segment (positions in the field's plane).
+    /// Two gauges: the projection on their segment (their positions in the field's plane).
     Two([(f64, f64); 2]),
     /// Three or more, not all in line: their own triangulation.
     Field(Box<Field>),
 }
 
 impl Blend {
-    /// The blend of gauges at `positions` (in the field's plane; `stations` their constants,
-    /// used only to build the triangulation).
+    /// The blend of the gauges `stations` (positions in the field's plane; their constants
+    /// serve only to build the triangulation).
     pub fn new(stations: Vec<Station>) -> Blend {
         match stations.len() {
             0 | 1 => Blend::One,
@@ -200,6 +209,24 @@ impl Blend {
     }
 }
 
+/// Why a continuous model cannot be set up from a field.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum ContinuousError {
+    /// The field has no stations.
+    #[error("the field has no stations")]
+    NoStations,
+    /// The dominant constituent is not held by every station.
+    #[error("the dominant constituent {0} is not held by every station of the field")]
+    DominantNotCommon(&'static str),
+    /// A station has no amplitude of the dominant constituent.
+    #[error("station '{0}' has no amplitude of the dominant constituent")]
+    NoDominantAmplitude(String),
+    /// No gauge with a record is a station.
+    #[error("no gauge with a record is a station of the field (a gauge becomes one when it names its `constants`)")]
+    NoRecordingStation,
+}
+
 /// Everything a continuous model needs that does not depend on the soundings' plane, built
 /// once per run.
 #[derive(Debug)]
@@ -215,6 +242,8 @@ pub struct ContinuousSetup {
     pub dominant: Dominant,
     /// Its speed, radians per second.
     pub omega_rad_per_s: f64,
+    /// Its species partner's speed, radians per second (0 when the field lacks it).
+    pub omega_partner_rad_per_s: f64,
     /// Per station: dominant and partner phasors (re, im), and Z0, metres.
     pub station_terms: Vec<StationTerms>,
     /// Station predictions (astronomical mode; empty otherwise).
@@ -243,7 +272,7 @@ impl ContinuousSetup {
         station_gauge: Vec<Option<usize>>,
         span_s: (f64, f64),
         field_u: FieldU,
-    ) -> Result<ContinuousSetup, &'static str> {
+    ) -> Result<ContinuousSetup, ContinuousError> {
         let stations = field.stations();
         let mean = super::cotidal::mean_constants(
             &stations
@@ -251,13 +280,15 @@ impl ContinuousSetup {
                 .map(|s| s.constants.clone())
                 .collect::<Vec<HarmonicConstants>>(),
         )
-        .ok_or("the field has no stations")?;
+        .ok_or(ContinuousError::NoStations)?;
         let dom = dominant(&mean);
         let k_of = |name: &str| field.constituents().iter().position(|c| c.name == name);
-        let kd = k_of(dom.name())
-            .ok_or("the dominant constituent is not held by every station of the field")?;
+        let kd = k_of(dom.name()).ok_or(ContinuousError::DominantNotCommon(dom.name()))?;
         let kp = k_of(dom.partner());
         let omega_rad_per_s = field.constituents()[kd].speed_deg_per_h.to_radians() / 3600.0;
+        let omega_partner_rad_per_s = kp.map_or(0.0, |k| {
+            field.constituents()[k].speed_deg_per_h.to_radians() / 3600.0
+        });
         let station_terms = (0..stations.len())
             .map(|i| StationTerms {
                 dom: field.station_phasor(i, kd),
@@ -265,8 +296,11 @@ impl ContinuousSetup {
                 z0_m: stations[i].constants.z0_m,
             })
             .collect::<Vec<_>>();
-        if station_terms.iter().any(|t| t.dom.0.hypot(t.dom.1) <= 0.0) {
-            return Err("a station has no amplitude of the dominant constituent");
+        if let Some(i) = station_terms
+            .iter()
+            .position(|t| t.dom.0.hypot(t.dom.1) <= 0.0)
+        {
+            return Err(ContinuousError::NoDominantAmplitude(stations[i].id.clone()));
         }
         let blend_gauges = station_gauge
             .iter()
@@ -274,7 +308,7 @@ impl ContinuousSetup {
             .filter_map(|(i, g)| g.map(|g| (g, i)))
             .collect::<Vec<_>>();
         if blend_gauges.is_empty() {
-            return Err("no gauge with a record is a station of the field");
+            return Err(ContinuousError::NoRecordingStation);
         }
         let predictions = (mode == ContinuousMode::AstronomicalResidual)
             .then(|| StationPredictions::new(stations, span_s.0, span_s.1));
@@ -284,6 +318,7 @@ impl ContinuousSetup {
             blend_gauges,
             dominant: dom,
             omega_rad_per_s,
+            omega_partner_rad_per_s,
             station_terms,
             predictions,
             field_u,
@@ -407,6 +442,13 @@ impl ContinuousTide<'_> {
     }
 }
 
+/// Most gauges a place's blend holds (a triangle's corners).
+const MAX_BLEND: usize = 3;
+
+/// A blended gauge's corrector from the place: time corrector (seconds), range ratio and its
+/// station.
+type Carried = (f64, f64, usize);
+
 impl TideModel for ContinuousTide<'_> {
     fn tide_at(&self, q: &Query, s: &mut Scratch) -> TideOutcome {
         let Some(zone) = self.locator.locate(q.x, q.y) else {
@@ -416,30 +458,7 @@ impl TideModel for ContinuousTide<'_> {
         let setup = self.setup;
         let terms = &setup.station_terms;
         self.plane.field.weights_into(px, py, &mut s.weights);
-        // The blend's weights, kept as gauge states (weight, level) in blend order.
-        let mut blend = std::mem::take(&mut s.states);
-        blend.clear();
-        {
-            let mut bw = Vec::with_capacity(3);
-            self.plane.blend.weights_into(px, py, &mut bw);
-            for (k, wk) in bw {
-                if wk <= 0.0 {
-                    continue;
-                }
-                let (g, _) = setup.blend_gauges[k];
-                blend.push(FeedState {
-                    gauge: g,
-                    at_s: q.t_s,
-                    level: super::series::LevelAt {
-                        height_m: 0.0,
-                        rate_m_per_s: 0.0,
-                        bracket: 0,
-                    },
-                    weight: wk,
-                    missing: false,
-                });
-            }
-        }
+        self.plane.blend.weights_into(px, py, &mut s.blend);
         // The place's dominant-species phasors and mean level.
         let (mut dom, mut par, mut z0) = ((0.0, 0.0), (0.0, 0.0), 0.0);
         for &(i, wi) in &s.weights {
@@ -449,152 +468,86 @@ impl TideModel for ContinuousTide<'_> {
             z0 += wi * t.z0_m;
         }
         let amp = dom.0.hypot(dom.1) + par.0.hypot(par.1);
-        // Per blended gauge: its corrector from the place (corrector mode), the level.
-        let mut per_gauge: [(f64, f64, usize); 8] = [(0.0, 1.0, 0); 8];
+        // The blend as gauge states, and beside each its corrector from the place.
+        s.states.clear();
+        let mut carried: [Carried; MAX_BLEND] = [(0.0, 1.0, 0); MAX_BLEND];
         let mut first_missing: Option<NoZoneTide> = None;
-        for (n, st) in blend.iter_mut().enumerate() {
-            let station = setup.station_of(st.gauge);
+        for &(k, wk) in &s.blend {
+            if wk <= 0.0 || s.states.len() == MAX_BLEND {
+                continue;
+            }
+            let (g, station) = setup.blend_gauges[k];
             let (dt_s, ratio) = match setup.mode {
                 ContinuousMode::CorrectorField => {
                     let t = &terms[station];
                     let dg = wrap_pi((-dom.1).atan2(dom.0) - (-t.dom.1).atan2(t.dom.0));
-                    let gauge_amp = t.dom.0.hypot(t.dom.1) + t.partner.0.hypot(t.partner.1);
-                    (dg / setup.omega_rad_per_s, amp / gauge_amp)
+                    (dg / setup.omega_rad_per_s, amp / t.amplitude_m())
                 }
                 ContinuousMode::AstronomicalResidual => (0.0, 1.0),
             };
-            if n < per_gauge.len() {
-                per_gauge[n] = (dt_s, ratio, station);
-            }
-            st.at_s = q.t_s - dt_s;
-            match self.interp.level_at(&self.gauges[st.gauge].series, st.at_s) {
+            let mut st = FeedState {
+                gauge: g,
+                at_s: q.t_s - dt_s,
+                level: super::series::LevelAt {
+                    height_m: 0.0,
+                    rate_m_per_s: 0.0,
+                    bracket: 0,
+                },
+                weight: wk,
+                missing: false,
+            };
+            match self.interp.level_at(&self.gauges[g].series, st.at_s) {
                 Ok(level) => st.level = level,
                 Err(why) => {
                     st.missing = true;
                     first_missing.get_or_insert(NoZoneTide {
-                        gauge: st.gauge,
+                        gauge: g,
                         at_s: st.at_s,
                         why,
                     });
                 }
             }
+            carried[s.states.len()] = (dt_s, ratio, station);
+            s.states.push(st);
         }
         if let Some(why) = first_missing {
-            if !self.renormalise || renormalised(&mut blend).is_none() {
-                s.states = blend;
+            if !self.renormalise || renormalised(&mut s.states).is_none() {
                 return TideOutcome::NoData { zone, why };
             }
         }
-        let preds = setup.predictions.as_ref();
+        let outside_span = TideOutcome::NoCorrection {
+            zone: Some(zone),
+            why: "the time lies outside the span the stations' predictions were made for",
+            flagged: false,
+        };
         let mut tide = 0.0;
-        let mut astro_ok = true;
-        match setup.mode {
-            ContinuousMode::CorrectorField => {
-                for (n, st) in blend.iter().enumerate() {
-                    if st.missing {
-                        continue;
+        match (setup.mode, setup.predictions.as_ref()) {
+            (ContinuousMode::CorrectorField, _) => {
+                for (st, &(_, ratio, i)) in s.states.iter().zip(&carried) {
+                    if !st.missing {
+                        tide += st.weight * (z0 + ratio * (st.level.height_m - terms[i].z0_m));
                     }
-                    let (_, ratio, station) = per_gauge[n];
-                    tide += st.weight * (z0 + ratio * (st.level.height_m - terms[station].z0_m));
                 }
             }
-            ContinuousMode::AstronomicalResidual => {
-                let p = preds.expect("the astronomical mode tabulates predictions");
+            (ContinuousMode::AstronomicalResidual, Some(p)) => {
                 for &(i, wi) in &s.weights {
                     match p.at(i, q.t_s) {
                         Some((v, _)) => tide += wi * v,
-                        None => astro_ok = false,
+                        None => return outside_span,
                     }
                 }
-                for (n, st) in blend.iter().enumerate() {
+                for (st, &(_, _, i)) in s.states.iter().zip(&carried) {
                     if st.missing {
                         continue;
                     }
-                    match p.at(per_gauge[n].2, q.t_s) {
+                    match p.at(i, q.t_s) {
                         Some((v, _)) => tide += st.weight * (st.level.height_m - v),
-                        None => astro_ok = false,
+                        None => return outside_span,
                     }
                 }
             }
+            (ContinuousMode::AstronomicalResidual, None) => return outside_span,
         }
-        if !astro_ok {
-            s.states = blend;
-            return TideOutcome::NoCorrection {
-                zone: Some(zone),
-                why: "the time lies outside the span the stations' predictions were made for",
-                flagged: false,
-            };
-        }
-        let u = self.unc.map(|u| {
-            let mut v = [0.0; 5];
-            let fu = &setup.field_u;
-            let u_dt_s = fu.u_station_time_min * 60.0;
-            let (mut c_range, mut c_time) = (0.0, 0.0);
-            for (n, st) in blend.iter().enumerate() {
-                if st.missing {
-                    continue;
-                }
-                let g = &self.gauges[st.gauge];
-                let lt = level_terms(g, &u.gauge_u[st.gauge], &u.rates[st.gauge], st);
-                let (_, ratio, station) = per_gauge[n];
-                v[0] += (st.weight * ratio).powi(2) * lt.var_m2;
-                v[1] += (st.weight * u.gauge_u[st.gauge].u_datum_m).powi(2);
-                if setup.mode == ContinuousMode::CorrectorField {
-                    // s_g: the weights' distance from the gauge's own station.
-                    let s_g = s
-                        .weights
-                        .iter()
-                        .map(|&(i, wi)| if i == station { wi - 1.0 } else { wi })
-                        .map(|d| d * d)
-                        .sum::<f64>()
-                        + if s.weights.iter().any(|&(i, _)| i == station) {
-                            0.0
-                        } else {
-                            1.0
-                        };
-                    let s_g = s_g.sqrt();
-                    let wr = st.weight * ratio;
-                    c_range += st.weight * ratio * (st.level.height_m - terms[station].z0_m) * s_g;
-                    c_time += wr * lt.rate_m_per_s * s_g;
-                }
-            }
-            if blend.iter().any(|s| s.missing) {
-                // A gauge left out of the blend: its weight's share of the field's own
-                // departure is what the renormalised blend risks (first order).
-                v[4] += fu.u_field_m.powi(2);
-            }
-            if setup.mode == ContinuousMode::AstronomicalResidual {
-                let p = preds.expect("tabulated");
-                // Per station: w_i − β_i, with the station's tide-varying part and rate.
-                let mut diff = |i: usize, d: f64| {
-                    if let Some((val, rate)) = p.at(i, q.t_s) {
-                        v[2] += (d * (val - terms[i].z0_m) * fu.u_station_range_ratio).powi(2);
-                        v[3] += (d * rate * u_dt_s).powi(2);
-                    }
-                };
-                for &(i, wi) in &s.weights {
-                    let beta: f64 = blend
-                        .iter()
-                        .enumerate()
-                        .filter(|(n, st)| !st.missing && per_gauge[*n].2 == i)
-                        .map(|(_, st)| st.weight)
-                        .sum();
-                    diff(i, wi - beta);
-                }
-                for (n, st) in blend.iter().enumerate() {
-                    let i = per_gauge[n].2;
-                    if !st.missing && !s.weights.iter().any(|&(j, _)| j == i) {
-                        diff(i, -st.weight);
-                    }
-                }
-            } else {
-                v[2] = (c_range * fu.u_station_range_ratio).powi(2);
-                v[3] = (c_time * u_dt_s).powi(2);
-            }
-            v[4] += self.field_variance_m2(px, py, &s.weights);
-            TideU::from(TideBudget { variances_m2: v })
-        });
-        s.states = blend;
         if !tide.is_finite() {
             return TideOutcome::NoCorrection {
                 zone: Some(zone),
@@ -602,6 +555,9 @@ impl TideModel for ContinuousTide<'_> {
                 flagged: false,
             };
         }
+        let u = self
+            .unc
+            .map(|u| TideU::from(self.budget(q.t_s, (px, py), s, &carried, (dom, par), u)));
         TideOutcome::Tide {
             zone,
             tide_m: tide,
@@ -611,15 +567,117 @@ impl TideModel for ContinuousTide<'_> {
     }
 }
 
-impl ContinuousSetup {
-    /// The field station that gauge `g` is.
+impl ContinuousTide<'_> {
+    /// The tide's budget at a place (module docs): `carried` beside `s.states`, `phasors` the
+    /// place's dominant and partner phasors `D(x)`, `P(x)` (re, im), metres.
+    fn budget(
+        &self,
+        t_s: f64,
+        (px, py): (f64, f64),
+        s: &Scratch,
+        carried: &[Carried; MAX_BLEND],
+        (dom, par): ((f64, f64), (f64, f64)),
+        u: ContinuousU<'_>,
+    ) -> TideBudget {
+        let setup = self.setup;
+        let terms = &setup.station_terms;
+        let fu = &setup.field_u;
+        let u_tau_s = fu.u_station_time_min * 60.0;
+        let mut v = [0.0; 5];
+        // Every station the tide rests on: (station, w_i, β_i, own range term, own rate term).
+        let mut rows = [(0usize, 0.0, 0.0, 0.0, 0.0); 2 * MAX_BLEND];
+        let mut n = 0;
+        for &(i, wi) in s.weights.iter().take(MAX_BLEND) {
+            rows[n] = (i, wi, 0.0, 0.0, 0.0);
+            n += 1;
+        }
+        let (mut t_range, mut t_rate) = (0.0, 0.0);
+        for (st, &(_, ratio, i)) in s.states.iter().zip(carried) {
+            if st.missing {
+                continue;
+            }
+            let gu = &u.gauge_u[st.gauge];
+            let lt = level_terms(&self.gauges[st.gauge], gu, &u.rates[st.gauge], st);
+            v[0] += (st.weight * ratio).powi(2) * lt.var_m2;
+            v[1] += (st.weight * gu.u_datum_m).powi(2);
+            let e_range = st.weight * ratio * (st.level.height_m - terms[i].z0_m);
+            let e_rate = st.weight * ratio * lt.rate_m_per_s;
+            t_range += e_range;
+            t_rate += e_rate;
+            let r = match rows[..n].iter().position(|r| r.0 == i) {
+                Some(r) => r,
+                None => {
+                    rows[n] = (i, 0.0, 0.0, 0.0, 0.0);
+                    n += 1;
+                    n - 1
+                }
+            };
+            rows[r].2 += st.weight;
+            rows[r].3 += e_range;
+            rows[r].4 += e_rate;
+        }
+        match (setup.mode, setup.predictions.as_ref()) {
+            (ContinuousMode::CorrectorField, _) => {
+                // Exact first-order sensitivities of the blend to station i's amplitude error
+                // ε_i and time error τ_i, through the place's phasors D(x), P(x) (module docs).
+                let d2 = dom.0 * dom.0 + dom.1 * dom.1;
+                let (dn, pn) = (d2.sqrt(), par.0.hypot(par.1));
+                let amp = dn + pn;
+                // (re, im) of w_i Z_i · conj(Z(x)).
+                let cross = |z: (f64, f64), at: (f64, f64), wi: f64| {
+                    (
+                        wi * (z.0 * at.0 + z.1 * at.1),
+                        wi * (z.1 * at.0 - z.0 * at.1),
+                    )
+                };
+                let (om, op) = (setup.omega_rad_per_s, setup.omega_partner_rad_per_s);
+                for &(i, wi, _, own_range, own_rate) in &rows[..n] {
+                    let t = &terms[i];
+                    let cd = cross(t.dom, dom, wi);
+                    let cp = cross(t.partner, par, wi);
+                    let (mut a_i, mut b_i, mut d_i, mut e_i) = (0.0, 0.0, 0.0, 0.0);
+                    if amp > 0.0 && dn > 0.0 {
+                        // ∂A(x)/∂ε_i / A(x); ∂Δt/∂ε_i = −b_i; ∂Δt/∂τ_i = d_i (− 1 at the
+                        // gauge); ∂A(x)/∂τ_i / A(x) = e_i.
+                        a_i = (cd.0 / dn + if pn > 0.0 { cp.0 / pn } else { 0.0 }) / amp;
+                        b_i = cd.1 / (d2 * om);
+                        d_i = cd.0 / d2;
+                        e_i = (om * cd.1 / dn + if pn > 0.0 { op * cp.1 / pn } else { 0.0 }) / amp;
+                    }
+                    v[2] += (a_i * t_range - own_range + b_i * t_rate).powi(2);
+                    v[3] += (e_i * t_range - (d_i * t_rate - own_rate)).powi(2);
+                }
+                v[2] *= fu.u_station_range_ratio.powi(2);
+                v[3] *= u_tau_s.powi(2);
+            }
+            (ContinuousMode::AstronomicalResidual, Some(p)) => {
+                // A station's prediction error enters with w_i − β_i: a gauge's own cancels
+                // in its residual.
+                for &(i, wi, beta, _, _) in &rows[..n] {
+                    if let Some((val, rate)) = p.at(i, t_s) {
+                        let d = wi - beta;
+                        v[2] += (d * (val - terms[i].z0_m) * fu.u_station_range_ratio).powi(2);
+                        v[3] += (d * rate * u_tau_s).powi(2);
+                    }
+                }
+            }
+            (ContinuousMode::AstronomicalResidual, None) => {}
+        }
+        if s.states.iter().any(|st| st.missing) {
+            // A gauge left out of the blend: the renormalised blend risks the field's own
+            // departure from linear (first order).
+            v[4] += fu.u_field_m.powi(2);
+        }
+        v[4] += self.field_variance_m2(px, py, &s.weights);
+        TideBudget { variances_m2: v }
+    }
+}
+
+impl StationTerms {
+    /// The dominant species' amplitude `|dominant| + |partner|`, metres.
     #[inline]
-    fn station_of(&self, g: usize) -> usize {
-        self.blend_gauges
-            .iter()
-            .find(|(gg, _)| *gg == g)
-            .map(|(_, i)| *i)
-            .expect("a blended gauge is a station")
+    pub fn amplitude_m(&self) -> f64 {
+        self.dom.0.hypot(self.dom.1) + self.partner.0.hypot(self.partner.1)
     }
 }
 
@@ -632,5 +690,349 @@ fn wrap_pi(a: f64) -> f64 {
         r + t
     } else {
         r
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::compute::astro::constituent;
+    use crate::compute::harmonic::predict_at;
+    use crate::compute::series::{Configured, LevelSeries};
+    use crate::compute::uncertainty::rate_series;
+
+    /// Start of the records: 2026-06-14T00:00:00Z.
+    const T0_S: f64 = 1_781_395_200.0;
+    /// Gauges A, B, C (records) and a virtual station V, in metres.
+    const PLACES: [(f64, f64); 4] = [
+        (0.0, 0.0),
+        (20_000.0, 0.0),
+        (0.0, 20_000.0),
+        (20_000.0, 20_000.0),
+    ];
+
+    /// The constants of a field whose M2 and S2 phasors and Z0 are linear in x and y (so the
+    /// barycentric interpolation of the phasors reproduces them exactly inside a triangle, a
+    /// fact of geometry); `with_s2 = false` leaves M2 alone.
+    fn linear_constants(x: f64, y: f64, with_s2: bool) -> HarmonicConstants {
+        let ph = |z: (f64, f64), zx: (f64, f64), zy: (f64, f64)| {
+            let (re, im) = (z.0 + zx.0 * x + zy.0 * y, z.1 + zx.1 * x + zy.1 * y);
+            (re.hypot(im), (-im).atan2(re).to_degrees().rem_euclid(360.0))
+        };
+        let (h2, g2) = ph((1.2, -0.5), (1.5e-5, -1.0e-5), (-0.8e-5, -1.6e-5));
+        let (hs, gs) = ph((0.35, -0.2), (0.4e-5, -0.3e-5), (-0.2e-5, -0.5e-5));
+        let mut constituents = vec![(constituent("M2").unwrap(), h2, g2)];
+        if with_s2 {
+            constituents.push((constituent("S2").unwrap(), hs, gs));
+        }
+        HarmonicConstants {
+            z0_m: 2.5 + 1.0e-5 * x - 0.5e-5 * y,
+            constituents,
+        }
+    }
+
+    /// A non-tidal residual common to the area, metres.
+    fn residual_m(t_s: f64) -> f64 {
+        0.12 * ((t_s - T0_S) / 86_400.0 * std::f64::consts::PI).sin()
+    }
+
+    struct World {
+        gauges: Vec<Gauge>,
+        plane: PlaneField,
+        locator: ZoneLocator,
+        rates: Vec<GaugeSlopes>,
+        gauge_u: Vec<GaugeUncertainty>,
+    }
+
+    /// Three gauges with 1-min records (their own prediction plus the common residual when
+    /// `surge`) and the virtual station; stations' constants from `constants(i)`.
+    fn world(constants: &dyn Fn(usize) -> HarmonicConstants, truth_s2: bool, surge: bool) -> World {
+        let times: Vec<f64> = (0..2 * 1440).map(|k| T0_S + 60.0 * k as f64).collect();
+        let gauges: Vec<Gauge> = (0..3)
+            .map(|i| {
+                let k = linear_constants(PLACES[i].0, PLACES[i].1, truth_s2);
+                Gauge {
+                    id: format!("g{i}"),
+                    series: LevelSeries {
+                        heights_m: times
+                            .iter()
+                            .map(|&t| predict_at(&k, t) + if surge { residual_m(t) } else { 0.0 })
+                            .collect(),
+                        times_s: times.clone(),
+                        max_gap_s: 120.0,
+                        ..Default::default()
+                    },
+                    mean_level_above_datum_m: k.z0_m,
+                }
+            })
+            .collect();
+        let square = geo::MultiPolygon(vec![geo::Polygon::new(
+            geo::LineString::from(vec![
+                (-50_000.0, -50_000.0),
+                (70_000.0, -50_000.0),
+                (70_000.0, 70_000.0),
+                (-50_000.0, 70_000.0),
+                (-50_000.0, -50_000.0),
+            ]),
+            vec![],
+        )]);
+        let rates = gauges.iter().map(|g| rate_series(g, &Configured)).collect();
+        World {
+            gauges,
+            plane: plane_of(constants),
+            locator: ZoneLocator::new(vec![square]),
+            rates,
+            gauge_u: vec![
+                GaugeUncertainty {
+                    u_gauge_m: 0.01,
+                    u_datum_m: 0.02,
+                };
+                3
+            ],
+        }
+    }
+
+    /// The field of the three gauges and the virtual station with `constants(i)`.
+    fn plane_of(constants: &dyn Fn(usize) -> HarmonicConstants) -> PlaneField {
+        let stations: Vec<Station> = (0..4)
+            .map(|i| Station {
+                id: format!("s{i}"),
+                x_m: PLACES[i].0,
+                y_m: PLACES[i].1,
+                constants: constants(i),
+                is_virtual: i == 3,
+            })
+            .collect();
+        PlaneField {
+            blend: Blend::new(stations[..3].to_vec()),
+            field: Field::new(stations).unwrap(),
+            plane: Plane::Projected,
+        }
+    }
+
+    fn field_u() -> FieldU {
+        FieldU {
+            u_field_m: 0.05,
+            field_scale_m: 20_000.0,
+            u_station_range_ratio: 0.02,
+            u_station_time_min: 3.0,
+        }
+    }
+
+    fn setup(plane: &PlaneField, mode: ContinuousMode) -> ContinuousSetup {
+        ContinuousSetup::new(
+            mode,
+            &plane.field,
+            vec![Some(0), Some(1), Some(2), None],
+            (T0_S, T0_S + 2.0 * 86_400.0),
+            field_u(),
+        )
+        .unwrap()
+    }
+
+    /// Tide and budget variances at a place and time.
+    fn tide(w: &World, s: &ContinuousSetup, x: f64, y: f64, t_s: f64) -> (f64, [f64; 5]) {
+        tide_on(w, &w.plane, s, (x, y), t_s)
+    }
+
+    fn tide_on(
+        w: &World,
+        plane: &PlaneField,
+        s: &ContinuousSetup,
+        (x, y): (f64, f64),
+        t_s: f64,
+    ) -> (f64, [f64; 5]) {
+        let m = ContinuousTide {
+            setup: s,
+            plane,
+            gauges: &w.gauges,
+            locator: &w.locator,
+            interp: &Configured,
+            renormalise: false,
+            unc: Some(ContinuousU {
+                gauge_u: &w.gauge_u,
+                rates: &w.rates,
+            }),
+        };
+        let q = Query {
+            x,
+            y,
+            t_s,
+            line: "",
+        };
+        match m.tide_at(&q, &mut Scratch::default()) {
+            TideOutcome::Tide { tide_m, u, .. } => {
+                let u = u.expect("a budget was asked for");
+                (tide_m, u.parts_m.map(|p| p * p))
+            }
+            other => panic!("no tide at ({x}, {y}): {other:?}"),
+        }
+    }
+
+    fn exact(i: usize) -> HarmonicConstants {
+        linear_constants(PLACES[i].0, PLACES[i].1, true)
+    }
+
+    /// At a gauge that stands alone in its weights the tide is the gauge's own level (both
+    /// modes: `Z0_g + 1·(h_g − Z0_g)`, `P_g + (h_g − P_g)`), and the budget holds no station
+    /// term and no field term (the kriging variance is zero at a station: common practice in
+    /// geostatistics).
+    #[test]
+    fn at_a_gauge_the_tide_is_its_level_and_no_field_term_is_added() {
+        let w = world(&exact, true, true);
+        for mode in [
+            ContinuousMode::CorrectorField,
+            ContinuousMode::AstronomicalResidual,
+        ] {
+            let s = setup(&w.plane, mode);
+            for (g, &(x, y)) in PLACES[..3].iter().enumerate() {
+                let k = 500;
+                let t = w.gauges[g].series.times_s[k];
+                let (tide_m, v) = tide(&w, &s, x, y, t);
+                assert!(
+                    (tide_m - w.gauges[g].series.heights_m[k]).abs() < 1e-9,
+                    "{mode:?} g{g}: {tide_m}"
+                );
+                assert!(v[2] < 1e-18 && v[3] < 1e-18, "{mode:?} g{g}: {v:?}");
+                assert!(v[4] < 1e-18, "{mode:?} g{g}: {v:?}");
+                assert!((v[0] - 0.01f64.powi(2)).abs() < 1e-9, "{mode:?}: {v:?}");
+                assert!((v[1] - 0.02f64.powi(2)).abs() < 1e-12, "{mode:?}: {v:?}");
+            }
+        }
+    }
+
+    /// A tide that is the prediction of a field linear in space plus a residual common to the
+    /// area is reproduced inside the hull by the astronomical mode: the prediction is linear in
+    /// the phasors (nodal factors shared), and the blended residual is the common one. The
+    /// only errors are the one-minute prediction grid's (below 0.02 mm for M2 of 1.5 m) and
+    /// the records' linear interpolation at a minute's step (below 0.01 mm).
+    #[test]
+    fn the_astronomical_mode_reproduces_a_linear_field_with_a_common_residual() {
+        let w = world(&exact, true, true);
+        let s = setup(&w.plane, ContinuousMode::AstronomicalResidual);
+        for (x, y) in [(5_000.0, 4_000.0), (14_000.0, 9_000.0), (6_000.0, 12_500.0)] {
+            for k in [10, 333, 901, 1999] {
+                let t = T0_S + 60.0 * k as f64 + 17.0;
+                let truth = predict_at(&linear_constants(x, y, true), t) + residual_m(t);
+                let (got, _) = tide(&w, &s, x, y, t);
+                assert!(
+                    (got - truth).abs() < 1e-4,
+                    "({x}, {y}) {k}: {got} vs {truth}"
+                );
+            }
+        }
+    }
+
+    /// With one constituent the corrector mode is exact: a gauge's record shifted by the time
+    /// corrector `(G(x) − G_g)/ω` and scaled by `A(x)/A_g` about its mean is the place's
+    /// prediction (DOMAIN §4.2; the nodal phase `u` changes over years, not minutes), so
+    /// every gauge carries the same tide and their blend is it, inside the hull and beyond it
+    /// (where the phasors are those of the nearest hull edge).
+    #[test]
+    fn the_corrector_mode_is_exact_for_one_constituent() {
+        let m2 = |i: usize| linear_constants(PLACES[i].0, PLACES[i].1, false);
+        let w = world(&m2, false, false);
+        let s = setup(&w.plane, ContinuousMode::CorrectorField);
+        for (x, y) in [
+            (5_000.0, 4_000.0),
+            (14_000.0, 9_000.0),
+            (10_000.0, -3_000.0),
+        ] {
+            let at = w.plane.field.constants_at(x, y).0;
+            for k in [120, 777, 2500] {
+                let t = T0_S + 60.0 * k as f64 + 29.0;
+                let truth = predict_at(&at, t);
+                let (got, _) = tide(&w, &s, x, y, t);
+                assert!(
+                    (got - truth).abs() < 2e-4,
+                    "({x}, {y}) {k}: {got} vs {truth}"
+                );
+            }
+        }
+    }
+
+    /// The field term is the linear-variogram kriging variance of the place's weights: at the
+    /// midpoint of two stations `field_scale_m` apart it is `u_field_m²` (its definition), and
+    /// at a triangle's centroid it is the closed form `c (2 Σ w_i d_i − Σ Σ w_i w_j d_ij)`
+    /// worked by hand for the right triangle of legs L: `c L (2·(√5/3)·(… ))` — computed here
+    /// from the distances, not from the code's loop.
+    #[test]
+    fn the_field_term_is_u_field_at_the_midpoint_of_stations_its_scale_apart() {
+        let w = world(&exact, true, true);
+        let s = setup(&w.plane, ContinuousMode::CorrectorField);
+        let t = T0_S + 3_600.0;
+        let (_, v) = tide(&w, &s, 10_000.0, 0.0, t);
+        assert!((v[4] - 0.05f64.powi(2)).abs() < 1e-12, "{v:?}");
+        // The centroid of A, B, C (weights 1/3 each): distances to the corners and between
+        // them, with c = 2u²/L.
+        let l = 20_000.0f64;
+        let c = 2.0 * 0.05f64.powi(2) / l;
+        let d_corner = [
+            (l / 3.0).hypot(l / 3.0),
+            (2.0 * l / 3.0).hypot(l / 3.0),
+            (l / 3.0).hypot(2.0 * l / 3.0),
+        ];
+        let d_pairs = 2.0 * (l + l + l * 2f64.sqrt()); // every ordered pair i ≠ j
+        let expected = c * (2.0 * d_corner.iter().sum::<f64>() / 3.0 - d_pairs / 9.0);
+        let (_, v) = tide(&w, &s, l / 3.0, l / 3.0, t);
+        assert!((v[4] - expected).abs() < 1e-9, "{} vs {expected}", v[4]);
+    }
+
+    /// Monte Carlo check of the station terms (GUM Supplement 1, JCGM 101:2008, propagation
+    /// of distributions): draw every station's amplitude error `ε_i ~ N(0, u_r)` (all its
+    /// constituents scaled) or time error `τ_i ~ N(0, u_τ)` (every phase shifted by its speed
+    /// times `τ_i`), rebuild the field, and compare the spread of the tide with the budget's
+    /// range and timing terms. 400 draws estimate a standard deviation to about 3.5 %; the
+    /// first-order budget must agree within 15 %.
+    #[test]
+    fn the_station_terms_match_a_monte_carlo_of_the_stations_errors() {
+        use rand::{Rng, SeedableRng};
+        let base = world(&exact, true, true);
+        let t = T0_S + 7.3 * 3_600.0;
+        let places = [
+            (5_000.0, 4_000.0),
+            (14_000.0, 9_000.0),
+            (15_000.0, 15_000.0),
+        ];
+        for mode in [
+            ContinuousMode::CorrectorField,
+            ContinuousMode::AstronomicalResidual,
+        ] {
+            let s0 = setup(&base.plane, mode);
+            for &(x, y) in &places {
+                let (t0, v) = tide(&base, &s0, x, y, t);
+                for (term, u_r, u_tau_min) in [(2usize, 0.02, 0.0), (3, 0.0, 3.0)] {
+                    let mut rng = rand::rngs::StdRng::seed_from_u64(7 + term as u64);
+                    let normal = rand_distr::Normal::new(0.0, 1.0).unwrap();
+                    let mut sum2 = 0.0;
+                    let n = 400;
+                    for _ in 0..n {
+                        let draws: Vec<(f64, f64)> = (0..4)
+                            .map(|_| (rng.sample(normal) * u_r, rng.sample(normal) * u_tau_min))
+                            .collect();
+                        let perturbed = |i: usize| {
+                            let mut k = exact(i);
+                            for c in &mut k.constituents {
+                                c.1 *= 1.0 + draws[i].0;
+                                c.2 += c.0.speed_deg_per_h * draws[i].1 / 60.0;
+                            }
+                            k
+                        };
+                        // The records stay the truth's: only the constants are in error.
+                        let plane = plane_of(&perturbed);
+                        let s = setup(&plane, mode);
+                        let (ti, _) = tide_on(&base, &plane, &s, (x, y), t);
+                        sum2 += (ti - t0).powi(2);
+                    }
+                    let mc = (sum2 / n as f64).sqrt();
+                    let budget = v[term].sqrt();
+                    eprintln!("{mode:?} ({x}, {y}) term {term}: Monte Carlo {mc:.5} m, budget {budget:.5} m");
+                    assert!(
+                        (mc - budget).abs() <= 0.15 * mc.max(1e-4),
+                        "{mode:?} ({x}, {y}) term {term}: Monte Carlo {mc:.5} m, budget {budget:.5} m"
+                    );
+                }
+            }
+        }
     }
 }

@@ -83,14 +83,36 @@ pub struct ZoneInput {
 pub struct UncertaintyInputs {
     /// Per gauge (standard uncertainties).
     pub gauges: Vec<GaugeInput>,
-    /// Per zone (standard uncertainties).
+    /// Per zone (standard uncertainties); empty when the tide is continuous (the zones'
+    /// correctors are not used).
     pub zones: Vec<ZoneInput>,
+    /// The continuous tide's own inputs (`[tide_field]`); `None` with the zoning.
+    pub tide_field: Option<TideFieldInput>,
     /// Sounding model a (m) and b, standard; used where a file has no u_depth column.
     pub sounding_a_m: f64,
     /// See `sounding_a_m`.
     pub sounding_b: f64,
     /// Inputs that fell back to the project's (demo) defaults.
     pub defaulted: Vec<String>,
+}
+
+/// The inputs of a continuous tide (`[tide_field]`), as used.
+#[derive(Debug, Clone, Serialize)]
+pub struct TideFieldInput {
+    /// `corrector_field` or `astronomical_residual`.
+    pub mode: &'static str,
+    /// The field's departure from linear at `field_scale_km`, metres (standard).
+    pub u_field_m: f64,
+    /// The distance `u_field_m` refers to, kilometres.
+    pub field_scale_km: f64,
+    /// A station's relative amplitude error (standard).
+    pub u_station_range_ratio: f64,
+    /// A station's phase error, minutes (standard).
+    pub u_station_time_min: f64,
+    /// The field's stations: gauges with constants, then virtual gauges.
+    pub stations: Vec<String>,
+    /// The gauges whose records are blended.
+    pub blended_gauges: Vec<String>,
 }
 
 /// Histogram of U95 TVU / allowed TVU for the chosen order.
@@ -126,6 +148,9 @@ pub struct QaReport {
     pub project_file: String,
     /// The caution that goes with every result.
     pub caution: &'static str,
+    /// The tide model the soundings were reduced with: `zoning`, `corrector_field`,
+    /// `astronomical_residual` or `correction_file`.
+    pub tide_model: &'static str,
     /// The order each sounding is judged against.
     pub chosen_order: SurveyOrder,
     /// Share of soundings that must be within an order's limit to meet it.

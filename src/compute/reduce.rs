@@ -128,6 +128,9 @@ pub struct Scratch {
     pub states: Vec<FeedState>,
     /// Interpolation weights (station index, weight), for models on a field.
     pub weights: Vec<(usize, f64)>,
+    /// A second set of weights (blend index, weight), for models that blend gauges apart
+    /// from the field's stations.
+    pub blend: Vec<(usize, f64)>,
 }
 
 impl Scratch {
@@ -135,6 +138,7 @@ impl Scratch {
     pub fn clear(&mut self) {
         self.states.clear();
         self.weights.clear();
+        self.blend.clear();
     }
 }
 

@@ -49,7 +49,59 @@ pub struct ProjectFile {
     /// stands (docs/cotidal.md).
     #[serde(rename = "virtual_gauge", default)]
     pub virtual_gauges: Vec<VirtualGaugeSpec>,
+    /// Reduce with a continuous tide between gauges instead of the zones' correctors
+    /// (docs/cotidal.md); absent: the zoning's correctors.
+    #[serde(default)]
+    pub tide_field: Option<TideFieldSpec>,
 }
+
+/// `[tide_field]`: a continuous tide carried between the gauges by the co-tidal field of their
+/// harmonic constants and the virtual gauges (`compute::continuous`). The zoning still bounds
+/// the survey area and names the reporting zones. The uncertainty keys are standard
+/// uncertainties; the defaults are **demo values** (typical magnitudes, not authority-approved
+/// numbers).
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct TideFieldSpec {
+    /// `corrector_field` or `astronomical_residual`.
+    pub mode: TideFieldMode,
+    /// The field's departure from linear at the midpoint of two stations `field_scale_km`
+    /// apart, metres (demo default 0.05).
+    #[serde(default)]
+    pub u_field_m: Option<f64>,
+    /// The distance `u_field_m` refers to, kilometres (demo default 10).
+    #[serde(default)]
+    pub field_scale_km: Option<f64>,
+    /// A station's relative amplitude error (demo default 0.02).
+    #[serde(default)]
+    pub u_station_range_ratio: Option<f64>,
+    /// A station's phase error, minutes of the dominant constituent (demo default 3).
+    #[serde(default)]
+    pub u_station_time_min: Option<f64>,
+}
+
+/// The continuous methods, as written in `[tide_field] mode`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+#[non_exhaustive]
+pub enum TideFieldMode {
+    /// Time corrector and range ratio fields from every gauge, blended.
+    CorrectorField,
+    /// Prediction from the interpolated constants plus the gauges' residuals, blended.
+    AstronomicalResidual,
+}
+
+/// `[tide_field] u_field_m` when not given, metres (demo value).
+pub const DEFAULT_U_FIELD_M: f64 = 0.05;
+/// `[tide_field] field_scale_km` when not given (demo value).
+pub const DEFAULT_FIELD_SCALE_KM: f64 = 10.0;
+/// `[tide_field] u_station_range_ratio` when not given (demo value).
+pub const DEFAULT_U_STATION_RANGE_RATIO: f64 = 0.02;
+/// `[tide_field] u_station_time_min` when not given (demo value).
+pub const DEFAULT_U_STATION_TIME_MIN: f64 = 3.0;
+/// Longest `[tide_field] field_scale_km` accepted: a tide field drawn from stations more than
+/// 1000 km apart is not a survey area's.
+pub const FIELD_SCALE_REFUSED_ABOVE_KM: f64 = 1000.0;
 
 /// `[[virtual_gauge]]`: harmonic constants at a point, for the co-tidal fields.
 #[derive(Debug, Clone, Deserialize, serde::Serialize)]
@@ -149,16 +201,17 @@ pub const MAX_FILL_REFUSED_ABOVE_MIN: f64 = 1440.0;
 /// tide; a longer window averages mismatches over a part of the tide no longer near the gap.
 pub const EDGE_WINDOW_REFUSED_ABOVE_MIN: f64 = 180.0;
 
-/// The line of `key` in the `[gap_fill]` table of `text` (1-based), or of the table's header.
-fn gap_fill_line(text: &str, key: &str) -> Option<u64> {
+/// The line of `key` in the `[table]` table of `text` (1-based), or of the table's header.
+fn table_key_line(text: &str, table: &str, key: &str) -> Option<u64> {
     let mut header = None;
+    let (open, sub) = (format!("[{table}]"), format!("[{table}."));
     for (n, line) in text.lines().enumerate() {
         let l = line.trim_start();
         if l.starts_with('[') {
-            if header.is_some() && !l.starts_with("[gap_fill") {
+            if header.is_some() && !(l.starts_with(&open) || l.starts_with(&sub)) {
                 break;
             }
-            if l.starts_with("[gap_fill]") || l.starts_with("[gap_fill.") {
+            if l.starts_with(&open) || l.starts_with(&sub) {
                 header = header.or(Some(n as u64 + 1));
             }
             continue;
@@ -183,7 +236,7 @@ fn validate_gap_fill(spec: &ProjectFile, text: &str, path: &Path, errors: &mut V
     let mut err = |key: &str, m: String| {
         let mut at = Position::file(path).field(format!("gap_fill.{key}"));
         let last = key.rsplit('.').next().unwrap_or(key);
-        if let Some(l) = gap_fill_line(text, last) {
+        if let Some(l) = table_key_line(text, "gap_fill", last) {
             at = at.line(l);
         }
         errors.push(IoError::content(at, m));
@@ -240,6 +293,79 @@ fn validate_gap_fill(spec: &ProjectFile, text: &str, path: &Path, errors: &mut V
                 ),
             );
         }
+    }
+}
+
+/// Every problem of the `[tide_field]` table, positioned at its line in `text`.
+fn validate_tide_field(spec: &ProjectFile, text: &str, path: &Path, errors: &mut Vec<IoError>) {
+    use crate::compute::uncertainty::{
+        U_HEIGHT_REFUSED_ABOVE_M, U_RANGE_RATIO_REFUSED_ABOVE, U_TIME_CORRECTOR_REFUSED_ABOVE_MIN,
+    };
+    let Some(f) = &spec.tide_field else {
+        return;
+    };
+    let mut err = |key: &str, m: String| {
+        let mut at = Position::file(path).field(format!("tide_field.{key}"));
+        if let Some(l) = table_key_line(text, "tide_field", key) {
+            at = at.line(l);
+        }
+        errors.push(IoError::content(at, m));
+    };
+    for (k, v, max, unit) in [
+        ("u_field_m", f.u_field_m, U_HEIGHT_REFUSED_ABOVE_M, " m"),
+        (
+            "u_station_range_ratio",
+            f.u_station_range_ratio,
+            U_RANGE_RATIO_REFUSED_ABOVE,
+            "",
+        ),
+        (
+            "u_station_time_min",
+            f.u_station_time_min,
+            U_TIME_CORRECTOR_REFUSED_ABOVE_MIN,
+            " min",
+        ),
+    ] {
+        let Some(v) = v else { continue };
+        if !(v.is_finite() && v >= 0.0) {
+            err(k, format!("expected a standard uncertainty ≥ 0, found {v}"));
+        } else if v > max {
+            err(
+                k,
+                format!("standard uncertainty {v}{unit} is beyond the plausible {max}{unit}"),
+            );
+        }
+    }
+    if let Some(v) = f.field_scale_km {
+        if !(v.is_finite() && v > 0.0) {
+            err(
+                "field_scale_km",
+                format!("expected a positive distance in kilometres, found {v}"),
+            );
+        } else if v > FIELD_SCALE_REFUSED_ABOVE_KM {
+            err(
+                "field_scale_km",
+                format!(
+                    "{v} km is beyond the plausible {FIELD_SCALE_REFUSED_ABOVE_KM} km (metres written as kilometres?)"
+                ),
+            );
+        }
+    }
+    let with_constants = spec.gauges.iter().filter(|g| g.constants.is_some()).count();
+    if with_constants == 0 {
+        err(
+            "mode",
+            "a continuous tide needs gauges with harmonic constants: no gauge names a `constants` file (write them with `ebbwise analyse`)".into(),
+        );
+    }
+    if with_constants + spec.virtual_gauges.len() < 3 {
+        err(
+            "mode",
+            format!(
+                "a co-tidal field needs at least three stations (gauges with `constants` and [[virtual_gauge]] tables); the project has {}",
+                with_constants + spec.virtual_gauges.len()
+            ),
+        );
     }
 }
 
@@ -852,6 +978,7 @@ impl Project {
         };
         validate(&spec, path, &mut errors);
         validate_gap_fill(&spec, text, path, &mut errors);
+        validate_tide_field(&spec, text, path, &mut errors);
         if !errors.is_empty() {
             return Err(errors);
         }
@@ -1341,6 +1468,62 @@ files = ["s.csv"]
 crs = "EPSG:4326"
 columns = { time = "time", x = "lon", y = "lat", depth = "depth" }
 "#;
+
+    /// `[tide_field]`: every bad value is named with its line and key; a field without three
+    /// stations, or without a gauge that names constants, is refused; the bounds are the
+    /// discrete budget's own refuse-limits (common practice: a standard uncertainty beyond
+    /// them is a slip of units).
+    #[test]
+    fn tide_field_values_are_checked_at_their_lines() {
+        let with = |table: &str, constants: bool| {
+            let mut t = MINIMAL.to_string();
+            if constants {
+                t = t.replace("units = \"m\"", "units = \"m\"\nconstants = \"a.toml\"");
+                t.push_str("[[virtual_gauge]]\nid = \"v1\"\nlon = 1.1\nlat = 50.0\nconstants = \"v1.toml\"\n");
+                t.push_str("[[virtual_gauge]]\nid = \"v2\"\nlon = 1.0\nlat = 50.1\nconstants = \"v2.toml\"\n");
+            }
+            t.push_str(table);
+            Project::from_str_all(&t, Path::new("p.toml"))
+        };
+        let ok = with("[tide_field]\nmode = \"corrector_field\"\n", true).unwrap();
+        let f = ok.spec.tide_field.unwrap();
+        assert_eq!(f.mode, TideFieldMode::CorrectorField);
+        assert_eq!(f.u_field_m, None);
+        let bad = "[tide_field]\nmode = \"astronomical_residual\"\nu_field_m = -0.1\nfield_scale_km = 0\nu_station_range_ratio = 0.9\nu_station_time_min = 61\n";
+        let errs = with(bad, true).unwrap_err();
+        // The line of the table's header in the whole text (the keys follow it in order).
+        let before = MINIMAL.lines().count() + 1 + 10;
+        let msgs: Vec<String> = errs.iter().map(|e| e.to_string()).collect();
+        assert_eq!(msgs.len(), 4, "{msgs:#?}");
+        for (key, line) in [
+            ("u_field_m", before + 3),
+            ("field_scale_km", before + 4),
+            ("u_station_range_ratio", before + 5),
+            ("u_station_time_min", before + 6),
+        ] {
+            let m = msgs
+                .iter()
+                .find(|m| m.contains(&format!("tide_field.{key}")))
+                .unwrap_or_else(|| panic!("{key}: {msgs:#?}"));
+            assert!(m.starts_with(&format!("p.toml:{line}")), "{m}");
+        }
+        // At the bounds, accepted.
+        with(
+            "[tide_field]\nmode = \"corrector_field\"\nu_field_m = 1.0\nu_station_range_ratio = 0.5\nu_station_time_min = 60\nfield_scale_km = 1000\n",
+            true,
+        )
+        .unwrap();
+        let errs = with("[tide_field]\nmode = \"corrector_field\"\n", false).unwrap_err();
+        let all: String = errs.iter().map(|e| e.to_string() + "\n").collect();
+        assert!(all.contains("no gauge names a `constants` file"), "{all}");
+        assert!(all.contains("at least three stations"), "{all}");
+        let e = with("[tide_field]\nmode = \"kriging\"\n", true).unwrap_err();
+        let m = e[0].to_string();
+        assert!(
+            m.contains("'kriging'") && m.contains("corrector_field"),
+            "{m}"
+        );
+    }
 
     #[test]
     fn paths_are_relative_to_the_project_file() {

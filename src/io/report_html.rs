@@ -784,7 +784,9 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
     o.push_str("<h2>Tide per zone and its 95 % band</h2>");
     tide_svg(r, &mut o);
     o.push_str("<h2>Zone-boundary steps</h2>");
-    if r.boundary_steps.is_empty() {
+    if r.inputs.tide_field.is_some() {
+        o.push_str("<p>The tide is continuous between the gauges ([tide_field]): two soundings either side of a zone edge get the same tide, so the zoning leaves no step in the reduced seabed. The zones bound the survey area and group the soundings for this report only.</p>");
+    } else if r.boundary_steps.is_empty() {
         o.push_str("<p>No two zones share an edge, or no zone had a tide.</p>");
     } else {
         o.push_str("<p>Where two zones share an edge, the tide each gives at the same instant differs: soundings on either side are reduced with different tides, a step of the same size in the reduced seabed along the edge. Over the survey period, every 5 minutes; the step is the second zone's tide minus the first's. Largest first.</p>");
@@ -900,7 +902,22 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
             given(g.u_datum_m)
         );
     }
-    o.push_str("</table><table><tr><th>zone</th><th>u_time_corrector (min)</th><th>u_range_ratio</th><th>u_zone (m)</th><th>u_datum at the zone (m)</th></tr>");
+    o.push_str("</table>");
+    if let Some(f) = &r.inputs.tide_field {
+        let _ = write!(
+            o,
+            "<table class=\"tide-field\"><tr><th>continuous tide ({})</th><th>value</th></tr><tr><td>u_field (m) at {} km between stations</td><td>{}</td></tr><tr><td>u_station_range_ratio</td><td>{}</td></tr><tr><td>u_station_time (min)</td><td>{}</td></tr><tr><td>stations</td><td>{}</td></tr><tr><td>gauges blended</td><td>{}</td></tr></table>",
+            esc(f.mode),
+            given(f.field_scale_km),
+            given(f.u_field_m),
+            given(f.u_station_range_ratio),
+            given(f.u_station_time_min),
+            esc(&f.stations.join(", ")),
+            esc(&f.blended_gauges.join(", "))
+        );
+    } else {
+        o.push_str("<table><tr><th>zone</th><th>u_time_corrector (min)</th><th>u_range_ratio</th><th>u_zone (m)</th><th>u_datum at the zone (m)</th></tr>");
+    }
     for z in &r.inputs.zones {
         let from = match z.datum_from {
             "zone" => "the zone's own",
@@ -917,15 +934,27 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
             given(z.u_datum_m)
         );
     }
+    if r.inputs.tide_field.is_none() {
+        o.push_str("</table>");
+    }
     let _ = write!(
         o,
-        "</table><p>Sounding model (where no per-sounding column): u = sqrt({}² + ({}·d)²) m.</p>",
+        "<p>Sounding model (where no per-sounding column): u = sqrt({}² + ({}·d)²) m.</p>",
         given(r.inputs.sounding_a_m),
         given(r.inputs.sounding_b)
     );
     if !r.inputs.defaulted.is_empty() {
         let _ = write!(o, "<p><b>Using the project's default values (demo values unless the project sets them):</b> {}.</p>", esc(&r.inputs.defaulted.join("; ")));
     }
-    o.push_str("<p>Tide uncertainty by first-order GUM propagation (JCGM 100:2008) through the zoning model; 95 % expansion with k = 1.96.</p></main></body></html>\n");
+    let _ = writeln!(
+        o,
+        "<p>Tide uncertainty by first-order GUM propagation (JCGM 100:2008) through {}; 95 % expansion with k = 1.96.</p></main></body></html>",
+        match r.tide_model {
+            "corrector_field" => "the continuous tide (corrector fields blended between the gauges, docs/cotidal.md)",
+            "astronomical_residual" => "the continuous tide (prediction from the interpolated constants plus the gauges' residuals, docs/cotidal.md)",
+            "correction_file" => "the correction file's model, as carried in it",
+            _ => "the zoning model",
+        }
+    );
     o
 }

@@ -391,7 +391,9 @@ pub fn correctors_outputs(
             what: format!("the sidecar of the {what} correction file"),
         });
     };
-    file(ZONE_FILE, "per-zone");
+    if project.spec.tide_field.is_none() {
+        file(ZONE_FILE, "per-zone");
+    }
     if per_line {
         file(LINE_FILE, "per-line");
     }
@@ -432,6 +434,16 @@ pub fn write_correctors(
             "the step must be a positive number of minutes",
         ));
     }
+    if loaded.field.is_some() && (opts.per_line || !opts.per_sounding) {
+        return Err(IoError::content(
+            Position::file(&loaded.project.path).field("tide_field"),
+            if opts.per_line {
+                "the project reduces with a continuous tide ([tide_field]): a line's tide varies along the line, not by the zone the launch is in, so no per-line series is written; use --per-sounding alone"
+            } else {
+                "the project reduces with a continuous tide ([tide_field]): the tide varies within each zone, so no per-zone series can stand for it; write one corrector per sounding with --per-sounding"
+            },
+        ));
+    }
     refuse_clashes(
         loaded,
         &correctors_outputs(
@@ -466,32 +478,11 @@ pub fn write_correctors(
     }
     let n = ((to - from) / step_s).floor() as usize + 1;
     std::fs::create_dir_all(&opts.out_dir).map_err(|e| IoError::file(&opts.out_dir, e))?;
-    let per_zone: Vec<Vec<Corrector>> = (0..loaded.zones.len())
-        .into_par_iter()
-        .map(|zi| {
-            let mut states = Vec::new();
-            (0..n)
-                .map(|k| corrector_at(loaded, zi, from + k as f64 * step_s, &mut states))
-                .collect()
-        })
-        .collect();
-    let mut text = String::with_capacity(n * loaded.zones.len() * 48 + 128);
-    text.push_str(&ZONE_CORRECTOR_COLUMNS.join(","));
-    text.push('\n');
+    let mut written = Vec::new();
     let mut counts = [0usize; CorrectorStatus::ALL.len()];
-    for (z, rows) in loaded.zones.iter().zip(&per_zone) {
-        push_zone_rows(&mut text, &z.id, rows);
-        for r in rows {
-            counts[r.status as usize] += 1;
-        }
+    if loaded.field.is_none() {
+        write_zone_file(loaded, opts, (from, step_s, n), &mut written, &mut counts)?;
     }
-    let zone_path = opts.out_dir.join(ZONE_FILE);
-    let mut written = vec![write_atomic(&zone_path, text.as_bytes())?];
-    let mut prov = provenance(loaded, "per_zone", &zone_path, &[])?;
-    prov.step_min = Some(opts.step_min);
-    prov.span_utc = Some((utc_time(from), utc_time(from + (n - 1) as f64 * step_s)));
-    prov.columns = column_meanings(&ZONE_CORRECTOR_COLUMNS);
-    written.push(write_sidecar(&zone_path, &prov)?);
     if opts.per_line {
         let path = opts.out_dir.join(LINE_FILE);
         let (text, _) = line_correctors(loaded, step_s)?;
@@ -558,6 +549,42 @@ pub fn write_correctors(
         span_s: (from, from + (n - 1) as f64 * step_s),
         soundings,
     })
+}
+
+/// The per-zone corrector file and its sidecar: `n` times from `from` every `step_s`.
+fn write_zone_file(
+    loaded: &Loaded,
+    opts: &CorrectorsOptions,
+    (from, step_s, n): (f64, f64, usize),
+    written: &mut Vec<PathBuf>,
+    counts: &mut [usize; CorrectorStatus::ALL.len()],
+) -> Result<(), IoError> {
+    let per_zone: Vec<Vec<Corrector>> = (0..loaded.zones.len())
+        .into_par_iter()
+        .map(|zi| {
+            let mut states = Vec::new();
+            (0..n)
+                .map(|k| corrector_at(loaded, zi, from + k as f64 * step_s, &mut states))
+                .collect()
+        })
+        .collect();
+    let mut text = String::with_capacity(n * loaded.zones.len() * 48 + 128);
+    text.push_str(&ZONE_CORRECTOR_COLUMNS.join(","));
+    text.push('\n');
+    for (z, rows) in loaded.zones.iter().zip(&per_zone) {
+        push_zone_rows(&mut text, &z.id, rows);
+        for r in rows {
+            counts[r.status as usize] += 1;
+        }
+    }
+    let zone_path = opts.out_dir.join(ZONE_FILE);
+    written.push(write_atomic(&zone_path, text.as_bytes())?);
+    let mut prov = provenance(loaded, "per_zone", &zone_path, &[])?;
+    prov.step_min = Some(opts.step_min);
+    prov.span_utc = Some((utc_time(from), utc_time(from + (n - 1) as f64 * step_s)));
+    prov.columns = column_meanings(&ZONE_CORRECTOR_COLUMNS);
+    written.push(write_sidecar(&zone_path, &prov)?);
+    Ok(())
 }
 
 fn column_meanings(cols: &[&str]) -> Vec<(String, String)> {

@@ -376,3 +376,94 @@ pub fn zoning_of(project: &Project) -> Result<ZoningSpec, Vec<Finding>> {
     }
     Ok(z)
 }
+
+/// A project's continuous tide (`[tide_field]`), ready to be placed in each soundings plane.
+#[derive(Debug)]
+pub struct LoadedField {
+    /// The plane-independent model.
+    pub setup: crate::compute::continuous::ContinuousSetup,
+    /// Its stations in WGS 84 (same order as the setup's).
+    pub stations: Vec<LonLatStation>,
+}
+
+/// Prediction margin beyond the gauge records' span, seconds (a day): a sounding's tide in the
+/// astronomical mode needs the stations' predictions at its time.
+pub const PREDICTION_MARGIN_S: f64 = 86_400.0;
+
+/// The continuous tide of `[tide_field]` from the project's stations and its gauges (their
+/// records' span sets the predictions' span); the notes say what the field left out.
+pub fn loaded_field(
+    project: &Project,
+    spec: &crate::io::project::TideFieldSpec,
+    gauges: &[crate::compute::zoning::Gauge],
+) -> Result<(LoadedField, Vec<String>), Vec<Finding>> {
+    use crate::compute::continuous::{ContinuousMode, ContinuousSetup, FieldU};
+    use crate::io::project::{
+        TideFieldMode, DEFAULT_FIELD_SCALE_KM, DEFAULT_U_FIELD_M, DEFAULT_U_STATION_RANGE_RATIO,
+        DEFAULT_U_STATION_TIME_MIN,
+    };
+    let at = Position::file(&project.path).field("tide_field");
+    let (stations, mut notes) = field_stations(project)?;
+    let pf = plane_field(&stations, "EPSG:4326")
+        .map_err(|e| vec![Finding::error(at.clone(), e.to_string())])?;
+    if !pf.field.left_out().is_empty() {
+        notes.push(format!(
+            "constituents not held by every station, left out of the field: {}",
+            pf.field.left_out().join(", ")
+        ));
+    }
+    let span = gauges
+        .iter()
+        .filter_map(|g| Some((*g.series.times_s.first()?, *g.series.times_s.last()?)))
+        .fold(None, |acc: Option<(f64, f64)>, (a, b)| match acc {
+            None => Some((a, b)),
+            Some((x, y)) => Some((x.min(a), y.max(b))),
+        })
+        .unwrap_or((0.0, 0.0));
+    let mode = match spec.mode {
+        TideFieldMode::CorrectorField => ContinuousMode::CorrectorField,
+        TideFieldMode::AstronomicalResidual => ContinuousMode::AstronomicalResidual,
+    };
+    let field_u = FieldU {
+        u_field_m: spec.u_field_m.unwrap_or(DEFAULT_U_FIELD_M),
+        field_scale_m: spec.field_scale_km.unwrap_or(DEFAULT_FIELD_SCALE_KM) * 1000.0,
+        u_station_range_ratio: spec
+            .u_station_range_ratio
+            .unwrap_or(DEFAULT_U_STATION_RANGE_RATIO),
+        u_station_time_min: spec
+            .u_station_time_min
+            .unwrap_or(DEFAULT_U_STATION_TIME_MIN),
+    };
+    let setup = ContinuousSetup::new(
+        mode,
+        &pf.field,
+        stations.iter().map(|s| s.gauge).collect(),
+        (span.0 - PREDICTION_MARGIN_S, span.1 + PREDICTION_MARGIN_S),
+        field_u,
+    )
+    .map_err(|e| {
+        vec![Finding::error(
+            at.clone(),
+            format!("the continuous tide cannot be set up: {e}"),
+        )]
+    })?;
+    Ok((LoadedField { setup, stations }, notes))
+}
+
+/// The `[tide_field]` inputs that fell back to their defaults, worded as the budget's
+/// `defaulted` list words them.
+pub fn tide_field_defaults(spec: &crate::io::project::TideFieldSpec) -> Vec<String> {
+    [
+        ("u_field_m", spec.u_field_m.is_none()),
+        ("field_scale_km", spec.field_scale_km.is_none()),
+        (
+            "u_station_range_ratio",
+            spec.u_station_range_ratio.is_none(),
+        ),
+        ("u_station_time_min", spec.u_station_time_min.is_none()),
+    ]
+    .into_iter()
+    .filter(|(_, d)| *d)
+    .map(|(k, _)| format!("tide field: {k}"))
+    .collect()
+}

@@ -44,6 +44,8 @@ pub struct Loaded {
     /// longitude], around all of them: its axes look swapped ([`zoning_looks_swapped`]; a warning
     /// says so, and the hint for a sounding outside every zone names the zoning file).
     pub zoning_looks_swapped: bool,
+    /// The continuous tide of `[tide_field]`; `None`: the zoning's correctors.
+    pub field: Option<crate::run::fields::LoadedField>,
 }
 
 /// Uncertainty inputs resolved for every gauge and zone.
@@ -488,6 +490,26 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
             }
         }
     }
+    let field = match &project.spec.tide_field {
+        None => None,
+        Some(spec) => match crate::run::fields::loaded_field(&project, spec, &gauges) {
+            Ok((f, notes)) => {
+                let at = Position::file(&project.path).field("tide_field");
+                findings.extend(notes.into_iter().map(|n| Finding::warning(at.clone(), n)));
+                if let Some(u) = uncertainty.as_mut() {
+                    // The zones' correctors and their uncertainties are not used.
+                    u.defaulted.retain(|d| !d.starts_with("zone "));
+                    u.defaulted
+                        .extend(crate::run::fields::tide_field_defaults(spec));
+                }
+                Some(f)
+            }
+            Err(e) => {
+                findings.extend(e);
+                return Err(findings);
+            }
+        },
+    };
     if let Some(u) = uncertainty.as_mut() {
         u.gauge_rates = gauges
             .iter()
@@ -506,6 +528,7 @@ pub fn load(project: Project, order_override: Option<&str>) -> Result<Loaded, Ve
         uncertainty,
         warnings: findings,
         zoning_looks_swapped: swapped.is_some(),
+        field,
     })
 }
 

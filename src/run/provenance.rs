@@ -3,11 +3,15 @@
 //! [`tide_inputs`] gathers every input of a project that can change a tide — the zoning (its
 //! SHA-256 and each zone's form, mean level and feeds), every gauge's record (SHA-256), datum
 //! relation, mean level, units, reading of the record, gap, band, filter and interpolation
-//! settings, the project's naive-time offset, quality control and interpolation settings — apart
+//! settings, the project's naive-time offset, quality control and interpolation settings, the
+//! `[tide_field]` mode and, when it is set, each virtual gauge's position and constants
+//! (SHA-256) — apart
 //! from the tide's uncertainty inputs (the `default_u_` values and each gauge's and zone's own,
-//! which change a tide's uncertainty, not the tide) and from what changes neither (the project's
-//! name, output folder and soundings groups, gauge names and positions, file paths, and the
-//! survey order, acceptance share and sounding model, which `apply` applies afresh). [`differences`] compares two such records item by item.
+//! and `[tide_field]`'s uncertainty keys, which change a tide's uncertainty, not the tide) and
+//! from what changes neither (the project's name, output folder and soundings groups, gauge
+//! names, gauge positions unless the tide is continuous, file paths, and the survey order,
+//! acceptance share and sounding model, which `apply` applies afresh). [`differences`] compares
+//! two such records item by item.
 //!
 //! Paths are left out on purpose: a project folder copied elsewhere makes the same tides, and the
 //! files' contents are compared by their SHA-256.
@@ -31,7 +35,13 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
         let o = v.as_object_mut().expect("a gauge spec is a table");
         let mut other = Map::new();
         o.remove("id");
-        for k in ["name", "lon", "lat", "record"] {
+        // A gauge's position changes a continuous tide (it places the field's station).
+        let position_other: &[&str] = if spec.tide_field.is_some() {
+            &["name", "record"]
+        } else {
+            &["name", "lon", "lat", "record"]
+        };
+        for &k in position_other {
             if let Some(x) = o.remove(k) {
                 other.insert(k.to_string(), x);
             }
@@ -120,8 +130,49 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
         "gauge",
         "soundings",
         "uncertainty",
+        "virtual_gauge",
+        "tide_field",
     ] {
         tide.remove(k);
+    }
+    // Virtual gauges change a continuous tide by their position and their constants' content;
+    // with the zoning they change no tide.
+    let mut virtual_other = Vec::new();
+    let mut virtuals = Vec::new();
+    for v in spec
+        .virtual_gauges
+        .iter()
+        .filter(|_| spec.tide_field.is_some())
+    {
+        virtuals.push(json!({
+            "virtual_gauge": v.id,
+            "lon": v.lon,
+            "lat": v.lat,
+            "constants_sha256": sha256_file(&v.constants)?,
+        }));
+    }
+    for v in &spec.virtual_gauges {
+        let mut o = json!({"virtual_gauge": v.id, "name": v.name, "constants": v.constants});
+        if spec.tide_field.is_none() {
+            o["lon"] = json!(v.lon);
+            o["lat"] = json!(v.lat);
+        }
+        virtual_other.push(o);
+    }
+    if !virtuals.is_empty() {
+        tide.insert("virtual_gauges".into(), Value::Array(virtuals));
+    }
+    // `[tide_field]`: its mode changes the tide, its `u_` keys and scale only the uncertainty.
+    let mut field_u = Map::new();
+    if let Some(f) = &spec.tide_field {
+        tide.insert("tide_field_mode".into(), json!(f.mode));
+        field_u.insert("u_field_m".into(), json!(f.u_field_m));
+        field_u.insert("field_scale_km".into(), json!(f.field_scale_km));
+        field_u.insert(
+            "u_station_range_ratio".into(),
+            json!(f.u_station_range_ratio),
+        );
+        field_u.insert("u_station_time_min".into(), json!(f.u_station_time_min));
     }
     tide.insert("zoning_sha256".into(), json!(sha256_file(&spec.zoning)?));
     tide.insert("zones".into(), Value::Array(zones));
@@ -132,6 +183,7 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
             "project": u_tide,
             "gauges": gauge_u,
             "zones": zone_u,
+            "tide_field": field_u,
         },
         "other": {
             "uncertainty": u_other,
@@ -140,6 +192,7 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
             "soundings": serde_json::to_value(&spec.soundings).expect("soundings groups serialise"),
             "gauges": gauge_other,
             "zoning_path": spec.zoning,
+            "virtual_gauges": virtual_other,
         },
     }))
 }

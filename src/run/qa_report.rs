@@ -35,11 +35,20 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         .map(|(z, (g, b))| sum(&z.id, g, Some(b)))
         .collect();
     let lines: Vec<GroupSummary> = qa.lines.iter().map(|(id, g)| sum(id, g, None)).collect();
-    let tide_series = match run.time_range_s {
-        Some((t0, t1)) => tide_series(loaded, t0, t1),
-        None => Vec::new(),
+    let continuous = loaded
+        .field
+        .as_ref()
+        .filter(|_| run.tide_model != "correction_file");
+    let tide_series = match (run.time_range_s, continuous) {
+        (Some((t0, t1)), None) => tide_series(loaded, t0, t1),
+        (Some((t0, t1)), Some(f)) => continuous_tide_series(loaded, f, t0, t1),
+        (None, _) => Vec::new(),
     };
-    let boundary_steps = boundary_steps_of(loaded, &tide_series, run.time_range_s);
+    // A continuous tide has no steps at zone edges.
+    let boundary_steps = match continuous {
+        None => boundary_steps_of(loaded, &tide_series, run.time_range_s),
+        Some(_) => Vec::new(),
+    };
     let mut map_points = Vec::with_capacity(qa.samples.len());
     let groups = &loaded.project.spec.soundings;
     let transformers: Vec<Option<Transformer>> = groups
@@ -63,6 +72,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         project_name: loaded.project.spec.name.clone(),
         project_file: loaded.project.path.display().to_string(),
         caution: crate::CAUTION,
+        tide_model: run.tide_model,
         chosen_order: u.orders[u.chosen].clone(),
         acceptance_share: acc,
         orders: u.orders.clone(),
@@ -107,10 +117,28 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
                     u_datum_m: x.u_datum_m,
                 })
                 .collect(),
+            tide_field: continuous.map(|f| {
+                let fu = &f.setup.field_u;
+                crate::compute::qa_report::TideFieldInput {
+                    mode: f.setup.mode.as_str(),
+                    u_field_m: fu.u_field_m,
+                    field_scale_km: fu.field_scale_m / 1000.0,
+                    u_station_range_ratio: fu.u_station_range_ratio,
+                    u_station_time_min: fu.u_station_time_min,
+                    stations: f.stations.iter().map(|s| s.id.clone()).collect(),
+                    blended_gauges: f
+                        .setup
+                        .blend_gauges
+                        .iter()
+                        .map(|(g, _)| loaded.gauges[*g].id.clone())
+                        .collect(),
+                }
+            }),
             zones: loaded
                 .zones
                 .iter()
                 .zip(&u.zone_u)
+                .filter(|_| continuous.is_none())
                 .map(|(z, x)| {
                     let (u_datum_m, from) = zone_datum_u(z, &u.gauge_u, x);
                     // Written to the 4 decimals of every uncertainty (it may be computed).
@@ -237,6 +265,87 @@ pub fn boundary_steps_from(
             .collect();
     }
     steps
+}
+
+/// Tide and U95 of a continuous tide on a regular grid over `[t0, t1]`, at a point inside each
+/// zone (`geo`'s interior point: on the zone's area even where the zone is concave).
+pub fn continuous_tide_series(
+    loaded: &Loaded,
+    f: &crate::run::fields::LoadedField,
+    t0: f64,
+    t1: f64,
+) -> Vec<ZoneTideSeries> {
+    use crate::compute::reduce::TideModel;
+    use geo::InteriorPoint;
+    let Some(u) = loaded.uncertainty.as_ref() else {
+        return Vec::new();
+    };
+    let (Ok(plane), Ok(locator)) = (
+        crate::run::fields::plane_field(&f.stations, "EPSG:4326"),
+        crate::run::load::locator_for_crs(&loaded.zoning, "EPSG:4326"),
+    ) else {
+        return Vec::new();
+    };
+    let model = crate::compute::continuous::ContinuousTide {
+        setup: &f.setup,
+        plane: &plane,
+        gauges: &loaded.gauges,
+        locator: &locator,
+        interp: loaded.interp.as_ref(),
+        renormalise: loaded.project.spec.gap_fill.enabled
+            && loaded.project.spec.gap_fill.renormalise_feeds,
+        unc: Some(crate::compute::continuous::ContinuousU {
+            gauge_u: &u.gauge_u,
+            rates: &u.gauge_rates,
+        }),
+    };
+    let step = TIDE_SERIES_STEP_MIN * 60.0;
+    let start = (t0 / step).floor() * step;
+    let n = (((t1 - start) / step).ceil() as usize + 1).min(20_000);
+    let mut scratch = crate::compute::reduce::Scratch::default();
+    loaded
+        .zoning
+        .zones
+        .iter()
+        .map(|z| {
+            let mut s = ZoneTideSeries {
+                zone: z.id.clone(),
+                times_utc: Vec::with_capacity(n),
+                tide_m: Vec::with_capacity(n),
+                u95_tide_m: Vec::with_capacity(n),
+                times_s: Vec::with_capacity(n),
+            };
+            let at = z.polygon_lonlat.interior_point();
+            for k in 0..n {
+                let t = start + k as f64 * step;
+                s.times_s.push(t);
+                s.times_utc.push(utc_label(t));
+                let got = at.map(|p| {
+                    model.tide_at(
+                        &crate::compute::reduce::Query {
+                            x: p.x(),
+                            y: p.y(),
+                            t_s: t,
+                            line: "",
+                        },
+                        &mut scratch,
+                    )
+                });
+                match got {
+                    Some(crate::compute::reduce::TideOutcome::Tide { tide_m, u, .. }) => {
+                        s.tide_m.push(Some(round_nearest(tide_m, METRE_DECIMALS)));
+                        s.u95_tide_m
+                            .push(u.map(|u| round_nearest(K95 * u.u_tide_m, METRE_DECIMALS)));
+                    }
+                    _ => {
+                        s.tide_m.push(None);
+                        s.u95_tide_m.push(None);
+                    }
+                }
+            }
+            s
+        })
+        .collect()
 }
 
 /// Tide and U95 of the tide per zone on a regular grid over `[t0, t1]`.

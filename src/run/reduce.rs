@@ -196,9 +196,10 @@ impl FileSummary {
 pub struct ZoneSummary {
     /// Zone id.
     pub zone: String,
-    /// `zone_mean` or `scaled` (which zoning formula was used).
+    /// `zone_mean` or `scaled` (which zoning formula was used), or the continuous mode
+    /// (`corrector_field`, `astronomical_residual`) when the zone only reports.
     pub mean_level_form: &'static str,
-    /// Gauge ids feeding the zone.
+    /// Gauge ids feeding the zone (a continuous tide: the gauges blended across the area).
     pub gauges: Vec<String>,
     /// Soundings reduced in the zone.
     pub reduced: u64,
@@ -219,6 +220,10 @@ pub struct RunSummary {
     pub project: PathBuf,
     /// Time interpolation method.
     pub interpolation: &'static str,
+    /// The tide model: `zoning` (the zones' correctors), `corrector_field` or
+    /// `astronomical_residual` (a continuous tide, `[tide_field]`), or `correction_file` (an
+    /// apply run).
+    pub tide_model: &'static str,
     /// Whether gauge quality control ran (`[qc] enabled`).
     pub qc_ran: bool,
     /// Rows per status over all files.
@@ -434,6 +439,19 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         })?;
         locators.push(loc);
     }
+    // The continuous tide in each group's plane (reduce and per-sounding correctors only).
+    let mut planes = Vec::new();
+    if let (Some(f), RunKind::Reduce | RunKind::SoundingCorrectors) = (&loaded.field, opts.kind) {
+        for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
+            let pf = crate::run::fields::plane_field(&f.stations, &group.crs).map_err(|e| {
+                IoError::content(
+                    Position::file(&loaded.project.path).field(format!("soundings[{gi}].crs")),
+                    e.to_string(),
+                )
+            })?;
+            planes.push(pf);
+        }
+    }
     let total_bytes: u64 = jobs
         .iter()
         .map(|(_, _, f, _)| std::fs::metadata(f).map(|m| m.len()).unwrap_or(0))
@@ -472,8 +490,28 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
             };
             let series_model;
             let located;
+            let continuous;
             let model: &dyn TideModel = match opts.kind {
-                RunKind::Reduce | RunKind::SoundingCorrectors => &zoning,
+                RunKind::Reduce | RunKind::SoundingCorrectors => match &loaded.field {
+                    None => &zoning,
+                    Some(f) => {
+                        continuous = crate::compute::continuous::ContinuousTide {
+                            setup: &f.setup,
+                            plane: &planes[*gi],
+                            gauges: &loaded.gauges,
+                            locator: &locators[*gi],
+                            interp: loaded.interp.as_ref(),
+                            renormalise: zoning.renormalise,
+                            unc: loaded.uncertainty.as_ref().map(|u| {
+                                crate::compute::continuous::ContinuousU {
+                                    gauge_u: &u.gauge_u,
+                                    rates: &u.gauge_rates,
+                                }
+                            }),
+                        };
+                        &continuous
+                    }
+                },
                 RunKind::Apply(ApplyModel::Zones(series, step_s, step_from), _) => {
                     series_model = crate::compute::correctors::ZoneSeriesModel {
                         locator: &locators[*gi],
@@ -537,12 +575,23 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         .zip(&per_zone)
         .map(|(z, c)| ZoneSummary {
             zone: z.id.clone(),
-            mean_level_form: z.mean_level.label(),
-            gauges: z
-                .feeds
-                .iter()
-                .map(|f| loaded.gauges[f.gauge].id.clone())
-                .collect(),
+            mean_level_form: match (&loaded.field, opts.kind) {
+                (Some(f), RunKind::Reduce | RunKind::SoundingCorrectors) => f.setup.mode.as_str(),
+                _ => z.mean_level.label(),
+            },
+            gauges: match (&loaded.field, opts.kind) {
+                (Some(f), RunKind::Reduce | RunKind::SoundingCorrectors) => f
+                    .setup
+                    .blend_gauges
+                    .iter()
+                    .map(|(g, _)| loaded.gauges[*g].id.clone())
+                    .collect(),
+                _ => z
+                    .feeds
+                    .iter()
+                    .map(|f| loaded.gauges[f.gauge].id.clone())
+                    .collect(),
+            },
             reduced: c[SoundingStatus::Reduced.index()],
             gap_filled: c[SoundingStatus::GapFilled.index()],
             no_gauge_data: c[SoundingStatus::NoGaugeData.index()],
@@ -554,6 +603,11 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         project: loaded.project.path.clone(),
         qc_ran: loaded.project.spec.qc.enabled,
         interpolation: loaded.interp.name(),
+        tide_model: match (&loaded.field, opts.kind) {
+            (_, RunKind::Apply(..)) => "correction_file",
+            (Some(f), _) => f.setup.mode.as_str(),
+            (None, _) => "zoning",
+        },
         rows_by_status: StatusCounts(totals),
         files,
         zones,
