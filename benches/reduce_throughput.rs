@@ -14,9 +14,11 @@
 //!    24S metres, RFC 3339 UTC times). Row `i` takes the position, depth and line of launch-a row
 //!    `i mod 53811` and moves the position by a deterministic offset of at most ±0.5 m on each
 //!    axis; times run evenly from 2026-06-14T07:00Z to 17:00Z. Beside it, `project.toml`: the
-//!    demo's zoning and gauge tables (absolute paths) and a single `[[soundings]]` group (the
-//!    launch-a group's layout keys) naming the big file. Other top-level tables of the demo
-//!    project (such as `[uncertainty]`) are left out and named in the output.
+//!    demo project's zoning, gauge, virtual-gauge, QC, interpolation, gap-filling and
+//!    tide-field tables (absolute paths) and a single `[[soundings]]` group (the launch-a
+//!    group's layout keys) naming the big file. `--demo-project FILE.toml` takes another demo
+//!    project (e.g. `continuous.toml`), `--uncertainty` keeps its `[uncertainty]` table; other
+//!    top-level tables are left out and named in the output.
 //! 2. Runs, `--runs` times each and alternating, two child processes on that file:
 //!    * **baseline**: this executable again (`--baseline-child IN OUT`), single-threaded: a
 //!      `csv::Reader` with a reused `ByteRecord` (`read_byte_record`), the depth, easting and
@@ -69,7 +71,8 @@ const GENERATOR_VERSION: u32 = 1;
 const EBBWISE_PEAK_RSS_TARGET_MIB: f64 = 50.0;
 
 const USAGE: &str = "usage: cargo bench --bench reduce_throughput \
-    [-- [--soundings N] [--runs K] [--wait-idle SECONDS] [--retries R]]";
+    [-- [--soundings N] [--runs K] [--wait-idle SECONDS] [--retries R] \
+    [--demo-project FILE.toml] [--uncertainty]]";
 
 fn main() -> ExitCode {
     let args: Vec<String> = std::env::args().skip(1).collect();
@@ -90,6 +93,10 @@ fn main() -> ExitCode {
     let mut runs = DEFAULT_RUNS;
     let mut wait_idle_s = DEFAULT_WAIT_IDLE_S;
     let mut retries = DEFAULT_RETRIES;
+    let mut variant = Variant {
+        demo_project: "project.toml".into(),
+        uncertainty: false,
+    };
     let mut it = args.iter();
     while let Some(a) = it.next() {
         match a.as_str() {
@@ -111,6 +118,11 @@ fn main() -> ExitCode {
                 Some(r) => retries = r,
                 None => return usage_error("--retries needs a whole number"),
             },
+            "--demo-project" => match it.next() {
+                Some(f) if !f.contains('/') && f.ends_with(".toml") => variant.demo_project = f.clone(),
+                _ => return usage_error("--demo-project needs a project file name in zoning-demo/ (e.g. continuous.toml)"),
+            },
+            "--uncertainty" => variant.uncertainty = true,
             "-h" | "--help" => {
                 println!("{USAGE}");
                 return ExitCode::SUCCESS;
@@ -118,7 +130,31 @@ fn main() -> ExitCode {
             other => return usage_error(&format!("unknown argument '{other}'")),
         }
     }
-    exit_on_error(bench(soundings, runs, wait_idle_s, retries))
+    exit_on_error(bench(soundings, runs, wait_idle_s, retries, &variant))
+}
+
+/// Which demo project the benchmark's project is made from, and whether its `[uncertainty]`
+/// table is kept.
+struct Variant {
+    /// A project file in `zoning-demo/`.
+    demo_project: String,
+    /// Keep `[uncertainty]` (the budget columns and the QA report).
+    uncertainty: bool,
+}
+
+impl Variant {
+    /// Suffix of the project and results file names; empty for the default.
+    fn suffix(&self) -> String {
+        let mut s = String::new();
+        if self.demo_project != "project.toml" {
+            s.push('-');
+            s.push_str(self.demo_project.trim_end_matches(".toml"));
+        }
+        if self.uncertainty {
+            s.push_str("-u");
+        }
+        s
+    }
 }
 
 fn usage_error(msg: &str) -> ExitCode {
@@ -288,11 +324,19 @@ fn generate_child(n: u64, path: &Path) -> Result<(), String> {
     fs::rename(&tmp, path).map_err(|e| format!("{}: {e}", path.display()))
 }
 
-/// Writes the benchmark's project file: the demo's zoning and gauge tables with absolute paths,
-/// and one soundings group (the launch-a group's layout keys) naming `csv`. Other top-level keys
-/// of the demo project are not carried over; their names are returned.
-fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<Vec<String>, String> {
-    let demo_project = demo.join("project.toml");
+/// Writes the benchmark's project file: the demo project's zoning, gauge, virtual-gauge, QC,
+/// interpolation, gap-filling and tide-field tables with absolute paths (and `[uncertainty]`
+/// when the variant keeps it), and one soundings group (the launch-a group's layout keys)
+/// naming `csv`. Other top-level keys of the demo project are not carried over; their names
+/// are returned.
+fn write_project(
+    demo: &Path,
+    variant: &Variant,
+    csv: &Path,
+    n: u64,
+    out: &Path,
+) -> Result<Vec<String>, String> {
+    let demo_project = demo.join(&variant.demo_project);
     let text = fs::read_to_string(&demo_project)
         .map_err(|e| format!("{}: {e}", demo_project.display()))?;
     let demo_doc: toml::Table = text
@@ -324,10 +368,46 @@ fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<Vec<Stri
         .ok_or("the demo project has no [[gauge]]")?;
     for g in gauges.iter_mut() {
         let g = g.as_table_mut().ok_or("a [[gauge]] is not a table")?;
-        let record = abs(g.get("record").ok_or("a [[gauge]] has no record")?)?;
-        g.insert("record".into(), record);
+        for k in ["record", "constants", "datums"] {
+            if let Some(v) = g.get(k) {
+                let v = abs(v)?;
+                g.insert(k.into(), v);
+            }
+        }
     }
     doc.insert("gauge".into(), toml::Value::Array(gauges));
+    if let Some(vs) = demo_doc
+        .get("virtual_gauge")
+        .and_then(toml::Value::as_array)
+    {
+        let mut vs = vs.clone();
+        for v in vs.iter_mut() {
+            let v = v
+                .as_table_mut()
+                .ok_or("a [[virtual_gauge]] is not a table")?;
+            let c = abs(v
+                .get("constants")
+                .ok_or("a [[virtual_gauge]] has no constants")?)?;
+            v.insert("constants".into(), c);
+        }
+        doc.insert("virtual_gauge".into(), toml::Value::Array(vs));
+    }
+    for k in [
+        "qc",
+        "interpolation",
+        "gap_fill",
+        "tide_field",
+        "naive_time_utc_offset",
+    ] {
+        if let Some(v) = demo_doc.get(k) {
+            doc.insert(k.into(), v.clone());
+        }
+    }
+    if variant.uncertainty {
+        if let Some(v) = demo_doc.get("uncertainty") {
+            doc.insert("uncertainty".into(), v.clone());
+        }
+    }
     let launch_a = demo_doc
         .get("soundings")
         .and_then(toml::Value::as_array)
@@ -372,12 +452,7 @@ fn write_project(demo: &Path, csv: &Path, n: u64, out: &Path) -> Result<Vec<Stri
     }
     Ok(demo_doc
         .keys()
-        .filter(|k| {
-            !matches!(
-                k.as_str(),
-                "name" | "zoning" | "gauge" | "soundings" | "output"
-            )
-        })
+        .filter(|k| !doc.contains_key(k.as_str()) && k.as_str() != "soundings")
         .cloned()
         .collect())
 }
@@ -710,7 +785,13 @@ fn run_ebbwise_once(
     Ok((r, size_mib, statuses))
 }
 
-fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), String> {
+fn bench(
+    n: u64,
+    runs: usize,
+    wait_idle_s: u64,
+    retries: u64,
+    variant: &Variant,
+) -> Result<(), String> {
     let paths = locate()?;
     common::warn_if_stale(&paths.ebbwise);
     // The children are this executable again.
@@ -722,7 +803,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
         .map_err(|e| format!("{}: {e}", dir.display()))?;
     let _lock = lock_dir(&dir)?;
     let csv = dir.join(format!("soundings-v{GENERATOR_VERSION}.csv"));
-    let project = dir.join("project.toml");
+    let project = dir.join(format!("project{}.toml", variant.suffix()));
 
     if !csv.is_file() {
         eprintln!(
@@ -744,7 +825,7 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
             t.elapsed().as_secs_f64()
         );
     }
-    let not_carried = write_project(&paths.demo, &csv, n, &project)?;
+    let not_carried = write_project(&paths.demo, variant, &csv, n, &project)?;
     let input_lines = count_lines(&csv)?;
     if input_lines != n + 1 {
         return Err(format!(
@@ -970,7 +1051,9 @@ fn bench(n: u64, runs: usize, wait_idle_s: u64, retries: u64) -> Result<(), Stri
             if r.disturbed() { " (disturbed)" } else { "" },
         ));
     }
-    let md_path = paths.data_root.join(format!("results-n{n}.md"));
+    let md_path = paths
+        .data_root
+        .join(format!("results-n{n}{}.md", variant.suffix()));
     fs::write(&md_path, &md).map_err(|e| format!("{}: {e}", md_path.display()))?;
     println!();
     println!("{md}");

@@ -159,8 +159,26 @@ pub enum Blend {
     One,
     /// Two gauges: the projection on their segment (their positions in the field's plane).
     Two([(f64, f64); 2]),
-    /// Three or more, not all in line: their own triangulation.
+    /// Three not in line: their triangle (barycentric inside, the nearest edge outside: the
+    /// rule of a triangulation of three, without its search).
+    Three([(f64, f64); 3]),
+    /// Four or more, not all in line: their own triangulation.
     Field(Box<Field>),
+}
+
+/// The weights of `a`, `b` at the place's projection on their segment, and its squared
+/// distance from the place.
+#[inline]
+fn on_segment(a: (f64, f64), b: (f64, f64), x: f64, y: f64) -> (f64, f64, f64) {
+    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+    let len2 = dx * dx + dy * dy;
+    let s = if len2 > 0.0 {
+        (((x - a.0) * dx + (y - a.1) * dy) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    let (ex, ey) = (x - (a.0 + s * dx), y - (a.1 + s * dy));
+    (1.0 - s, s, ex * ex + ey * ey)
 }
 
 impl Blend {
@@ -173,6 +191,25 @@ impl Blend {
                 (stations[0].x_m, stations[0].y_m),
                 (stations[1].x_m, stations[1].y_m),
             ]),
+            3 => {
+                let p = [
+                    (stations[0].x_m, stations[0].y_m),
+                    (stations[1].x_m, stations[1].y_m),
+                    (stations[2].x_m, stations[2].y_m),
+                ];
+                let det =
+                    (p[1].1 - p[2].1) * (p[0].0 - p[2].0) + (p[2].0 - p[1].0) * (p[0].1 - p[2].1);
+                let scale = (p[1].0 - p[0].0)
+                    .abs()
+                    .max((p[1].1 - p[0].1).abs())
+                    .max((p[2].0 - p[0].0).abs())
+                    .max((p[2].1 - p[0].1).abs());
+                if det.abs() > 1e-12 * scale * scale {
+                    Blend::Three(p)
+                } else {
+                    Blend::Two([p[0], p[1]])
+                }
+            }
             _ => {
                 let pos = [
                     (stations[0].x_m, stations[0].y_m),
@@ -193,14 +230,29 @@ impl Blend {
         match self {
             Blend::One => out.push((0, 1.0)),
             Blend::Two([a, b]) => {
-                let (dx, dy) = (b.0 - a.0, b.1 - a.1);
-                let len2 = dx * dx + dy * dy;
-                let s = if len2 > 0.0 {
-                    (((x_m - a.0) * dx + (y_m - a.1) * dy) / len2).clamp(0.0, 1.0)
+                let (wa, wb, _) = on_segment(*a, *b, x_m, y_m);
+                out.extend([(0, wa), (1, wb)]);
+            }
+            Blend::Three(p) => {
+                let det =
+                    (p[1].1 - p[2].1) * (p[0].0 - p[2].0) + (p[2].0 - p[1].0) * (p[0].1 - p[2].1);
+                let l0 =
+                    ((p[1].1 - p[2].1) * (x_m - p[2].0) + (p[2].0 - p[1].0) * (y_m - p[2].1)) / det;
+                let l1 =
+                    ((p[2].1 - p[0].1) * (x_m - p[2].0) + (p[0].0 - p[2].0) * (y_m - p[2].1)) / det;
+                let l2 = 1.0 - l0 - l1;
+                if l0 >= 0.0 && l1 >= 0.0 && l2 >= 0.0 {
+                    out.extend([(0, l0), (1, l1), (2, l2)]);
                 } else {
-                    0.0
-                };
-                out.extend([(0, 1.0 - s), (1, s)]);
+                    let mut best = (f64::INFINITY, 0, 1, 1.0, 0.0);
+                    for (a, b) in [(0, 1), (1, 2), (2, 0)] {
+                        let (wa, wb, d2) = on_segment(p[a], p[b], x_m, y_m);
+                        if d2 < best.0 {
+                            best = (d2, a, b, wa, wb);
+                        }
+                    }
+                    out.extend([(best.1, best.3), (best.2, best.4)]);
+                }
             }
             Blend::Field(f) => {
                 f.weights_into(x_m, y_m, out);
@@ -261,6 +313,10 @@ pub struct StationTerms {
     pub partner: (f64, f64),
     /// Mean level Z0 above chart datum, metres.
     pub z0_m: f64,
+    /// The dominant constituent's phase lag G, radians.
+    pub dom_phase_rad: f64,
+    /// The dominant species' amplitude `|dominant| + |partner|`, metres.
+    pub species_amp_m: f64,
 }
 
 impl ContinuousSetup {
@@ -290,10 +346,16 @@ impl ContinuousSetup {
             field.constituents()[k].speed_deg_per_h.to_radians() / 3600.0
         });
         let station_terms = (0..stations.len())
-            .map(|i| StationTerms {
-                dom: field.station_phasor(i, kd),
-                partner: kp.map_or((0.0, 0.0), |k| field.station_phasor(i, k)),
-                z0_m: stations[i].constants.z0_m,
+            .map(|i| {
+                let dom = field.station_phasor(i, kd);
+                let partner = kp.map_or((0.0, 0.0), |k| field.station_phasor(i, k));
+                StationTerms {
+                    dom,
+                    partner,
+                    z0_m: stations[i].constants.z0_m,
+                    dom_phase_rad: (-dom.1).atan2(dom.0),
+                    species_amp_m: dom.0.hypot(dom.1) + partner.0.hypot(partner.1),
+                }
             })
             .collect::<Vec<_>>();
         if let Some(i) = station_terms
@@ -335,6 +397,32 @@ pub struct PlaneField {
     pub blend: Blend,
     /// Soundings' coordinates to this plane's metres.
     pub plane: Plane,
+    /// Distances between the field's stations, metres, row-major (`i · n + j`).
+    pub pair_m: Vec<f64>,
+}
+
+impl PlaneField {
+    /// The field and blend in a plane, with the stations' distances tabulated.
+    pub fn new(field: Field, blend: Blend, plane: Plane) -> PlaneField {
+        let st = field.stations();
+        let pair_m = st
+            .iter()
+            .flat_map(|a| st.iter().map(move |b| norm((a.x_m - b.x_m, a.y_m - b.y_m))))
+            .collect();
+        PlaneField {
+            field,
+            blend,
+            plane,
+            pair_m,
+        }
+    }
+}
+
+/// The length of a vector (its components are metres apart at most a few hundred kilometres,
+/// so the squares cannot overflow: no need for `hypot`'s care, which is slow).
+#[inline]
+fn norm((x, y): (f64, f64)) -> f64 {
+    (x * x + y * y).sqrt()
 }
 
 /// How a sounding's coordinates reach the field's plane.
@@ -429,13 +517,14 @@ impl ContinuousTide<'_> {
             return 0.0;
         }
         let st = self.plane.field.stations();
+        let n = st.len();
         let c = 2.0 * fu.u_field_m * fu.u_field_m / fu.field_scale_m;
         let mut a = 0.0;
         let mut b = 0.0;
         for &(i, wi) in w {
-            a += wi * (st[i].x_m - px).hypot(st[i].y_m - py);
+            a += wi * norm((st[i].x_m - px, st[i].y_m - py));
             for &(j, wj) in w {
-                b += wi * wj * (st[i].x_m - st[j].x_m).hypot(st[i].y_m - st[j].y_m);
+                b += wi * wj * self.plane.pair_m[i * n + j];
             }
         }
         (c * (2.0 * a - b)).max(0.0)
@@ -467,7 +556,11 @@ impl TideModel for ContinuousTide<'_> {
             par = (par.0 + wi * t.partner.0, par.1 + wi * t.partner.1);
             z0 += wi * t.z0_m;
         }
-        let amp = dom.0.hypot(dom.1) + par.0.hypot(par.1);
+        let amp = norm(dom) + norm(par);
+        let place_phase_rad = match setup.mode {
+            ContinuousMode::CorrectorField => (-dom.1).atan2(dom.0),
+            ContinuousMode::AstronomicalResidual => 0.0,
+        };
         // The blend as gauge states, and beside each its corrector from the place.
         s.states.clear();
         let mut carried: [Carried; MAX_BLEND] = [(0.0, 1.0, 0); MAX_BLEND];
@@ -480,8 +573,8 @@ impl TideModel for ContinuousTide<'_> {
             let (dt_s, ratio) = match setup.mode {
                 ContinuousMode::CorrectorField => {
                     let t = &terms[station];
-                    let dg = wrap_pi((-dom.1).atan2(dom.0) - (-t.dom.1).atan2(t.dom.0));
-                    (dg / setup.omega_rad_per_s, amp / t.amplitude_m())
+                    let dg = wrap_pi(place_phase_rad - t.dom_phase_rad);
+                    (dg / setup.omega_rad_per_s, amp / t.species_amp_m)
                 }
                 ContinuousMode::AstronomicalResidual => (0.0, 1.0),
             };
@@ -621,7 +714,7 @@ impl ContinuousTide<'_> {
                 // Exact first-order sensitivities of the blend to station i's amplitude error
                 // ε_i and time error τ_i, through the place's phasors D(x), P(x) (module docs).
                 let d2 = dom.0 * dom.0 + dom.1 * dom.1;
-                let (dn, pn) = (d2.sqrt(), par.0.hypot(par.1));
+                let (dn, pn) = (d2.sqrt(), norm(par));
                 let amp = dn + pn;
                 // (re, im) of w_i Z_i · conj(Z(x)).
                 let cross = |z: (f64, f64), at: (f64, f64), wi: f64| {
@@ -670,14 +763,6 @@ impl ContinuousTide<'_> {
         }
         v[4] += self.field_variance_m2(px, py, &s.weights);
         TideBudget { variances_m2: v }
-    }
-}
-
-impl StationTerms {
-    /// The dominant species' amplitude `|dominant| + |partner|`, metres.
-    #[inline]
-    pub fn amplitude_m(&self) -> f64 {
-        self.dom.0.hypot(self.dom.1) + self.partner.0.hypot(self.partner.1)
     }
 }
 
@@ -803,11 +888,11 @@ mod tests {
                 is_virtual: i == 3,
             })
             .collect();
-        PlaneField {
-            blend: Blend::new(stations[..3].to_vec()),
-            field: Field::new(stations).unwrap(),
-            plane: Plane::Projected,
-        }
+        PlaneField::new(
+            Field::new(stations.clone()).unwrap(),
+            Blend::new(stations[..3].to_vec()),
+            Plane::Projected,
+        )
     }
 
     fn field_u() -> FieldU {
@@ -1030,6 +1115,44 @@ mod tests {
                     assert!(
                         (mc - budget).abs() <= 0.15 * mc.max(1e-4),
                         "{mode:?} ({x}, {y}) term {term}: Monte Carlo {mc:.5} m, budget {budget:.5} m"
+                    );
+                }
+            }
+        }
+    }
+
+    /// The three-gauge blend gives the weights of a triangulation of the three (barycentric
+    /// inside, the nearest edge's outside), at places inside, on the edges and beyond each
+    /// edge and corner.
+    #[test]
+    fn the_blend_of_three_gauges_is_their_triangulation() {
+        let stations: Vec<Station> = (0..3)
+            .map(|i| Station {
+                id: format!("s{i}"),
+                x_m: PLACES[i].0,
+                y_m: PLACES[i].1,
+                constants: exact(i),
+                is_virtual: false,
+            })
+            .collect();
+        let three = Blend::new(stations.clone());
+        assert!(matches!(three, Blend::Three(_)));
+        let field = Blend::Field(Box::new(Field::new(stations).unwrap()));
+        let (mut a, mut b) = (Vec::new(), Vec::new());
+        for x in (-12..=32).map(|k| k as f64 * 1_000.0 + 0.5) {
+            for y in (-12..=32).map(|k| k as f64 * 1_000.0 + 0.25) {
+                three.weights_into(x, y, &mut a);
+                field.weights_into(x, y, &mut b);
+                let w = |v: &[(usize, f64)], i: usize| {
+                    v.iter()
+                        .filter(|(j, _)| *j == i)
+                        .map(|(_, w)| w)
+                        .sum::<f64>()
+                };
+                for i in 0..3 {
+                    assert!(
+                        (w(&a, i) - w(&b, i)).abs() < 1e-9,
+                        "({x}, {y}) station {i}: {a:?} vs {b:?}"
                     );
                 }
             }

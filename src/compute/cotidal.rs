@@ -272,16 +272,17 @@ impl Field {
             }
             PositionInTriangulation::OutsideOfConvexHull(_)
             | PositionInTriangulation::NoTriangulation => {
+                // The nearest hull edge, by squared distance.
                 let mut best: Option<(f64, usize, usize, f64, f64)> = None;
                 for &(a, b) in &self.hull {
-                    let (wa, wb, d) = self.on_segment(a, b, x_m, y_m);
-                    if best.map_or(true, |x| d < x.0) {
-                        best = Some((d, a, b, wa, wb));
+                    let (wa, wb, d2) = self.on_segment(a, b, x_m, y_m);
+                    if best.map_or(true, |x| d2 < x.0) {
+                        best = Some((d2, a, b, wa, wb));
                     }
                 }
-                let (d, a, b, wa, wb) = best.expect("a triangulation has a hull");
+                let (d2, a, b, wa, wb) = best.expect("a triangulation has a hull");
                 out.extend([(a, wa), (b, wb)]);
-                d
+                d2.sqrt()
             }
         }
     }
@@ -301,13 +302,16 @@ impl Field {
     }
 
     /// Weights of the nearest point of segment a–b, and the distance to it.
+    /// The weights of `a` and `b` at the place's projection on their segment, and the squared
+    /// distance to it, m².
     fn on_segment(&self, a: usize, b: usize, x_m: f64, y_m: f64) -> (f64, f64, f64) {
         let (sa, sb) = (&self.stations[a], &self.stations[b]);
         let (dx, dy) = (sb.x_m - sa.x_m, sb.y_m - sa.y_m);
         let len2 = dx * dx + dy * dy;
         let s = (((x_m - sa.x_m) * dx + (y_m - sa.y_m) * dy) / len2).clamp(0.0, 1.0);
         let (px, py) = (sa.x_m + s * dx, sa.y_m + s * dy);
-        (1.0 - s, s, (x_m - px).hypot(y_m - py))
+        let (ex, ey) = (x_m - px, y_m - py);
+        (1.0 - s, s, ex * ex + ey * ey)
     }
 
     /// The interpolated constants at `(x_m, y_m)`, with the weights used.

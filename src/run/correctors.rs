@@ -57,7 +57,12 @@ fn corrector_at(loaded: &Loaded, zi: usize, t_s: f64, states: &mut Vec<FeedState
     );
     if c.status == CorrectorStatus::GapFilled {
         let mut d = String::new();
-        super::reduce::gap_filled_detail(&loaded.gauges, states, &mut d);
+        super::reduce::gap_filled_detail(
+            &loaded.gauges,
+            states,
+            &mut d,
+            &mut super::reduce::FillLabels::default(),
+        );
         c.detail = Some(std::sync::Arc::from(d));
     }
     c

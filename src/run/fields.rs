@@ -195,11 +195,7 @@ pub fn plane_field(stations: &[LonLatStation], crs: &str) -> Result<PlaneField, 
             .collect(),
     );
     let field = Field::new(placed)?;
-    Ok(PlaneField {
-        field,
-        blend,
-        plane,
-    })
+    Ok(PlaneField::new(field, blend, plane))
 }
 
 /// Builds the project's field from its gauges with `constants` and its virtual gauges.

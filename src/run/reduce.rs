@@ -969,6 +969,41 @@ fn write_input_fields(out: &mut Vec<u8>, line: &str, fields: &Fields, ctx: &File
     }
 }
 
+/// The words of each filled gap, made once per run and thread (formatting two times per
+/// gap-filled sounding would cost more than its tide).
+#[derive(Debug, Default)]
+pub(crate) struct FillLabels(Vec<(usize, u64, String)>);
+
+impl FillLabels {
+    /// "gauge 'x' level filled by … across … to …" for span `sp` of gauge `gi`.
+    fn of(
+        &mut self,
+        gauges: &[crate::compute::zoning::Gauge],
+        gi: usize,
+        sp: &crate::compute::gapfill::FillSpan,
+    ) -> &str {
+        let key = (gi, sp.from_s.to_bits());
+        let k = match self.0.iter().position(|(g, f, _)| (*g, *f) == key) {
+            Some(k) => k,
+            None => {
+                let text = format!(
+                    "gauge '{}' level filled by {}{} across {} to {}",
+                    gauges[gi].id,
+                    sp.method.as_str(),
+                    sp.neighbour
+                        .map(|j| format!(" from gauge '{}'", gauges[j].id))
+                        .unwrap_or_default(),
+                    crate::io::timefmt::utc_label(sp.from_s),
+                    crate::io::timefmt::utc_label(sp.to_s)
+                );
+                self.0.push((key.0, key.1, text));
+                self.0.len() - 1
+            }
+        };
+        &self.0[k].2
+    }
+}
+
 /// Whether a tide that used the gauge states `states` (whatever model found it) rests on
 /// gap-filled samples or on renormalised feeds
 /// ([`crate::compute::correctors::rests_on_filled`]); if so, says how in `detail` (the gauge,
@@ -979,6 +1014,7 @@ pub(crate) fn gap_filled_detail(
     gauges: &[crate::compute::zoning::Gauge],
     states: &[FeedState],
     detail: &mut String,
+    labels: &mut FillLabels,
 ) -> bool {
     use std::fmt::Write;
     let mut any = false;
@@ -1010,19 +1046,7 @@ pub(crate) fn gap_filled_detail(
             detail.push_str("; ");
         }
         match g.series.fill.span_at(st.at_s) {
-            Some(sp) => {
-                let _ = write!(
-                    detail,
-                    "gauge '{}' level filled by {}{} across {} to {}",
-                    g.id,
-                    sp.method.as_str(),
-                    sp.neighbour
-                        .map(|j| format!(" from gauge '{}'", gauges[j].id))
-                        .unwrap_or_default(),
-                    crate::io::timefmt::utc_label(sp.from_s),
-                    crate::io::timefmt::utc_label(sp.to_s)
-                );
-            }
+            Some(sp) => detail.push_str(labels.of(gauges, st.gauge, sp)),
             None => {
                 let _ = write!(detail, "gauge '{}' level filled", g.id);
             }
@@ -1065,6 +1089,7 @@ fn process_chunk(
     let mut within: Vec<bool> = Vec::with_capacity(unc.map_or(0, |u| u.orders.len()));
     let mut fields = Fields::default();
     let mut scratch = Scratch::default();
+    let mut labels = FillLabels::default();
     let mut detail = String::new();
     for (line_no, raw) in lines_of(chunk) {
         if raw.iter().all(|c| c.is_ascii_whitespace()) {
@@ -1192,6 +1217,7 @@ fn process_chunk(
                                     &ctx.loaded.gauges,
                                     &scratch.states,
                                     &mut detail,
+                                    &mut labels,
                                 ),
                             };
                             if gap_filled {

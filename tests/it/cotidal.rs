@@ -158,3 +158,109 @@ fn a_field_of_two_stations_is_refused() {
         stderr(&o)
     );
 }
+
+/// The demo reduced with a continuous tide (`zoning-demo/continuous.toml`): the summary and the
+/// QA report name the model, the report is valid against its schema, carries the field's inputs
+/// and no zone inputs, draws a tide at every zone and lists no zone-boundary step (the tide is
+/// the same either side of an edge); `correctors` writes per-sounding files only and refuses the
+/// per-zone and per-line series with the reason (docs/correctors.md).
+#[test]
+fn a_continuous_reduction_reports_its_model_and_refuses_zone_series() {
+    let project = super::repo().join("zoning-demo/continuous.toml");
+    let p = project.to_str().unwrap();
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().to_str().unwrap();
+    let r = ebbwise(&["reduce", p, "--out", o, "--no-progress"]);
+    assert_eq!(r.status.code(), Some(1), "{}", stderr(&r));
+    assert!(
+        stderr(&r).contains("tide: continuous between the gauges (corrector_field"),
+        "{}",
+        stderr(&r)
+    );
+    let summary: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.path().join("reduce-summary.json")).unwrap())
+            .unwrap();
+    assert_eq!(summary["tide_model"], "corrector_field");
+    let report: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let schema: serde_json::Value = serde_json::from_slice(
+        &std::fs::read(super::repo().join("docs/qa-report.schema.json")).unwrap(),
+    )
+    .unwrap();
+    let validator = jsonschema::validator_for(&schema).unwrap();
+    let errors: Vec<String> = validator
+        .iter_errors(&report)
+        .map(|e| e.to_string())
+        .collect();
+    assert!(errors.is_empty(), "{errors:#?}");
+    assert_eq!(report["tide_model"], "corrector_field");
+    assert_eq!(report["boundary_steps"].as_array().unwrap().len(), 0);
+    assert_eq!(report["inputs"]["zones"].as_array().unwrap().len(), 0);
+    let f = &report["inputs"]["tide_field"];
+    assert_eq!(f["mode"], "corrector_field");
+    assert_eq!(f["stations"].as_array().unwrap().len(), 10);
+    assert_eq!(f["blended_gauges"].as_array().unwrap().len(), 3);
+    let series = report["tide_series"].as_array().unwrap();
+    assert_eq!(series.len(), 7);
+    for s in series {
+        let tides = s["tide_m"].as_array().unwrap();
+        assert!(
+            tides.iter().filter(|t| t.is_number()).count() > tides.len() / 2,
+            "zone {}: too few tides",
+            s["zone"]
+        );
+    }
+    let html = std::fs::read_to_string(out.path().join("qa-report.html")).unwrap();
+    assert!(html.contains("The tide is continuous between the gauges"));
+    assert!(html.contains("class=\"tide-field\""));
+    // The correction files.
+    let c = tempfile::tempdir().unwrap();
+    let co = c.path().to_str().unwrap();
+    let r = ebbwise(&["correctors", p, "--out", co]);
+    assert_eq!(r.status.code(), Some(2));
+    assert!(
+        stderr(&r).contains("no per-zone series can stand for it"),
+        "{}",
+        stderr(&r)
+    );
+    let r = ebbwise(&["correctors", p, "--out", co, "--per-sounding", "--per-line"]);
+    assert_eq!(r.status.code(), Some(2));
+    assert!(
+        stderr(&r).contains("no per-line series is written"),
+        "{}",
+        stderr(&r)
+    );
+    let r = ebbwise(&["correctors", p, "--out", co, "--per-sounding"]);
+    assert_eq!(r.status.code(), Some(0), "{}", stderr(&r));
+    assert!(!c.path().join("correctors-zones.csv").exists());
+    let sidecar: serde_json::Value = serde_json::from_slice(
+        &std::fs::read(c.path().join("launch-a.correctors.csv.json")).unwrap(),
+    )
+    .unwrap();
+    let tide = &sidecar["project_inputs"]["tide"];
+    assert_eq!(tide["tide_field_mode"], "corrector_field");
+    assert_eq!(tide["virtual_gauges"].as_array().unwrap().len(), 7);
+    assert!(
+        tide["gauges"][0]["lon"].is_number(),
+        "a gauge's position changes the tide"
+    );
+    // Applied to its own soundings, the per-sounding file gives the reduction's tides.
+    let a = tempfile::tempdir().unwrap();
+    let r = ebbwise(&[
+        "apply",
+        c.path().join("launch-a.correctors.csv").to_str().unwrap(),
+        "--project",
+        p,
+        "--out",
+        a.path().to_str().unwrap(),
+    ]);
+    assert_eq!(r.status.code(), Some(1), "{}", stderr(&r));
+    let (h1, direct) = read_csv(&out.path().join("launch-a.reduced.csv"));
+    let (h2, applied) = read_csv(&a.path().join("launch-a.applied.csv"));
+    let t1 = h1.iter().position(|x| x == "tide_m").unwrap();
+    let t2 = h2.iter().position(|x| x == "tide_m").unwrap();
+    assert_eq!(direct.len(), applied.len());
+    for (d, ap) in direct.iter().zip(&applied) {
+        assert_eq!(d[t1], ap[t2]);
+    }
+}

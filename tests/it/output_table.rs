@@ -441,6 +441,18 @@ fn write_every_output(out: &Path) {
         ],
         &[0],
     );
+    // A continuous tide: the per-sounding files only, their sidecars with the field's inputs.
+    let continuous = repo().join("zoning-demo/continuous.toml");
+    run_ok(
+        &[
+            "correctors",
+            continuous.to_str().unwrap(),
+            "--out",
+            &dir("correctors-continuous"),
+            "--per-sounding",
+        ],
+        &[0],
+    );
     let gap_fill = repo().join("zoning-demo/gap-fill.toml");
     // With the virtual gauges every demo zone lies inside the field's hull and agrees with it
     // (exit 0).
