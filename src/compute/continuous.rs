@@ -546,7 +546,9 @@ impl TideModel for ContinuousTide<'_> {
         let (px, py) = self.plane.plane.to_plane(q.x, q.y);
         let setup = self.setup;
         let terms = &setup.station_terms;
-        self.plane.field.weights_into(px, py, &mut s.weights);
+        self.plane
+            .field
+            .weights_near(px, py, &mut s.weights, &mut s.face);
         self.plane.blend.weights_into(px, py, &mut s.blend);
         // The place's dominant-species phasors and mean level.
         let (mut dom, mut par, mut z0) = ((0.0, 0.0), (0.0, 0.0), 0.0);

@@ -287,6 +287,38 @@ impl Field {
         }
     }
 
+    /// As [`Field::weights_into`], trying first the triangle `last` (the one the previous
+    /// place fell in: consecutive soundings mostly share it), and keeping in `last` the
+    /// triangle this place falls in (`None` on an edge, a vertex or outside the hull). The
+    /// weights are the same barycentric coordinates either way (to rounding).
+    pub fn weights_near(
+        &self,
+        x_m: f64,
+        y_m: f64,
+        out: &mut Vec<(usize, f64)>,
+        last: &mut Option<[usize; 3]>,
+    ) -> f64 {
+        if let Some(t) = *last {
+            let p = |i: usize| (self.stations[t[i]].x_m, self.stations[t[i]].y_m);
+            let (a, b, c) = (p(0), p(1), p(2));
+            let det = (b.1 - c.1) * (a.0 - c.0) + (c.0 - b.0) * (a.1 - c.1);
+            let l0 = ((b.1 - c.1) * (x_m - c.0) + (c.0 - b.0) * (y_m - c.1)) / det;
+            let l1 = ((c.1 - a.1) * (x_m - c.0) + (a.0 - c.0) * (y_m - c.1)) / det;
+            let l2 = 1.0 - l0 - l1;
+            if l0 > 0.0 && l1 > 0.0 && l2 > 0.0 {
+                out.clear();
+                out.extend([(t[0], l0), (t[1], l1), (t[2], l2)]);
+                return 0.0;
+            }
+        }
+        let outside_by_m = self.weights_into(x_m, y_m, out);
+        *last = match out[..] {
+            [(a, _), (b, _), (c, _)] if outside_by_m == 0.0 => Some([a, b, c]),
+            _ => None,
+        };
+        outside_by_m
+    }
+
     /// The common constituents' names, space-separated (for messages).
     pub fn constituent_names(&self) -> String {
         self.constituents
@@ -557,6 +589,53 @@ mod tests {
             },
             is_virtual: false,
         }
+    }
+
+    /// `weights_near` with its triangle hint gives the weights `weights_into` gives, walking a
+    /// grid across and beyond five stations (so the hint is right, wrong and absent in turn).
+    #[test]
+    fn the_hinted_weights_are_the_searched_ones() {
+        let pts = [
+            (0.0, 0.0),
+            (10_000.0, 0.0),
+            (12_000.0, 9_000.0),
+            (-1_000.0, 8_000.0),
+            (5_000.0, 4_000.0),
+        ];
+        let stations = pts
+            .iter()
+            .enumerate()
+            .map(|(i, (x, y))| station(&format!("s{i}"), *x, *y, 2.0, &[("M2", 1.0, 10.0)]))
+            .collect();
+        let f = Field::new(stations).unwrap();
+        let (mut a, mut b, mut last) = (Vec::new(), Vec::new(), None);
+        let mut hinted = 0;
+        for k in 0..4000 {
+            let (x, y) = (
+                -3_000.0 + (k % 80) as f64 * 210.3,
+                -2_000.0 + (k / 80) as f64 * 260.7,
+            );
+            let had = last;
+            let da = f.weights_near(x, y, &mut a, &mut last);
+            let db = f.weights_into(x, y, &mut b);
+            assert!((da - db).abs() < 1e-9);
+            if had.is_some() && last == had {
+                hinted += 1;
+            }
+            let w = |v: &[(usize, f64)], i: usize| {
+                v.iter()
+                    .filter(|(j, _)| *j == i)
+                    .map(|(_, w)| w)
+                    .sum::<f64>()
+            };
+            for i in 0..5 {
+                assert!(
+                    (w(&a, i) - w(&b, i)).abs() < 1e-12,
+                    "({x}, {y}): {a:?} vs {b:?}"
+                );
+            }
+        }
+        assert!(hinted > 1000, "{hinted}");
     }
 
     /// A complex field linear in x and y (each constituent's `H·e^{−iG}` and Z0), sampled at

@@ -131,6 +131,8 @@ pub struct Scratch {
     /// A second set of weights (blend index, weight), for models that blend gauges apart
     /// from the field's stations.
     pub blend: Vec<(usize, f64)>,
+    /// The triangle of a field the previous place fell in (a search hint, kept across calls).
+    pub face: Option<[usize; 3]>,
 }
 
 impl Scratch {
