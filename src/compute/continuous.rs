@@ -28,9 +28,12 @@
 //! order, so that every column, report and file keeps its meaning):
 //! - *gauge*: `Σ (β_g R_g)² u²_level,g` — each record's sensor, interpolation and fill terms
 //!   ([`level_terms`]), independent between gauges (`R_g = 1` in the astronomical mode);
-//! - *datum*: `Σ β_g² u²_datum,g` — the gauges' datum connections, independent (a virtual
+//! - *datum*: `Σ max(w_g, β_g R_g)² u²_datum,g` — the gauges' datum connections, independent.
+//!   A datum error moves a gauge's record (coefficient `β_g R_g`) and, when its constants were
+//!   analysed from that record, its station's mean level as well, the record's own part then
+//!   cancelling (coefficient `w_g`): the larger of the two covers either case. A virtual
 //!   station's mean level is taken as tied to chart datum through the gauges: its own datum
-//!   uncertainty is not added);
+//!   uncertainty is not added;
 //! - *range* and *timing*: each station's constants carry a relative amplitude error `ε_i`
 //!   (standard `u_station_range_ratio`, every constituent scaled) and a time error `τ_i`
 //!   (standard `u_station_time_min`, every phase moved by its speed times `τ_i`),
@@ -42,7 +45,7 @@
 //!   `∂G(x)/∂ε_i = −Im c_i/|D|²`, `∂G(x)/∂τ_i = ω Re c_i/|D|²`, `∂A(x)/∂τ_i = ω Im c_i/|D|
 //!   (+ partner, its own speed)`; with `T = Σ β_g R_g η_g` (`η_g = h_g − Z0_g`, the level's
 //!   tide-varying part) and `Ṫ = Σ β_g R_g ḣ_g`, the coefficient of `ε_i` is
-//!   `T ∂ln A/∂ε_i − [i is gauge g] β_g R_g η_g + Ṫ ∂Δt/∂ε_i` and that of `τ_i` likewise.
+//!   `T ∂ln A/∂ε_i − [i is gauge g] β_g R_g η_g − Ṫ ∂Δt/∂ε_i` and that of `τ_i` likewise.
 //!   Both vanish at a gauge standing alone. In the astronomical mode a station's prediction
 //!   error enters with `w_i − β_i` (a gauge's own cancels in its residual):
 //!   `(w_i − β_i)(P_i − Z0_i) ε_i` and `(w_i − β_i) Ṗ_i τ_i`. Checked against a Monte Carlo
@@ -159,6 +162,16 @@ pub enum Blend {
     One,
     /// Two gauges: the projection on their segment (their positions in the field's plane).
     Two([(f64, f64); 2]),
+    /// Three or more on one line: piecewise linear along it between neighbouring gauges, the
+    /// end gauge alone beyond either end (the place projected on the line).
+    Line {
+        /// A point of the line and its unit direction.
+        origin: (f64, f64),
+        /// Unit direction.
+        dir: (f64, f64),
+        /// (blend index, position along the line, metres), sorted by position.
+        at: Vec<(usize, f64)>,
+    },
     /// Three not in line: their triangle (barycentric inside, the nearest edge outside: the
     /// rule of a triangulation of three, without its search).
     Three([(f64, f64); 3]),
@@ -207,21 +220,46 @@ impl Blend {
                 if det.abs() > 1e-12 * scale * scale {
                     Blend::Three(p)
                 } else {
-                    Blend::Two([p[0], p[1]])
+                    Blend::line(&stations)
                 }
             }
             _ => {
-                let pos = [
-                    (stations[0].x_m, stations[0].y_m),
-                    (stations[1].x_m, stations[1].y_m),
-                ];
+                let line = Blend::line(&stations);
                 match Field::new(stations) {
                     Ok(f) => Blend::Field(Box::new(f)),
-                    // All in line: the first two carry the blend (the others get weight 0).
-                    Err(_) => Blend::Two(pos),
+                    // All on one line (or two at one place): along the line.
+                    Err(_) => line,
                 }
             }
         }
+    }
+
+    /// The gauges along the line through the two farthest apart.
+    fn line(stations: &[Station]) -> Blend {
+        let p: Vec<(f64, f64)> = stations.iter().map(|s| (s.x_m, s.y_m)).collect();
+        let mut far = (0, 0, 0.0);
+        for i in 0..p.len() {
+            for j in i + 1..p.len() {
+                let d = norm((p[j].0 - p[i].0, p[j].1 - p[i].1));
+                if d > far.2 {
+                    far = (i, j, d);
+                }
+            }
+        }
+        let (i, j, d) = far;
+        let dir = if d > 0.0 {
+            ((p[j].0 - p[i].0) / d, (p[j].1 - p[i].1) / d)
+        } else {
+            (1.0, 0.0)
+        };
+        let origin = p[i];
+        let mut at: Vec<(usize, f64)> = p
+            .iter()
+            .enumerate()
+            .map(|(k, q)| (k, (q.0 - origin.0) * dir.0 + (q.1 - origin.1) * dir.1))
+            .collect();
+        at.sort_by(|a, b| a.1.total_cmp(&b.1));
+        Blend::Line { origin, dir, at }
     }
 
     /// Weights (gauge-list index within the blend, weight) at a place, into `out`.
@@ -232,6 +270,20 @@ impl Blend {
             Blend::Two([a, b]) => {
                 let (wa, wb, _) = on_segment(*a, *b, x_m, y_m);
                 out.extend([(0, wa), (1, wb)]);
+            }
+            Blend::Line { origin, dir, at } => {
+                let u = (x_m - origin.0) * dir.0 + (y_m - origin.1) * dir.1;
+                let k = at.partition_point(|a| a.1 <= u);
+                if k == 0 {
+                    out.push((at[0].0, 1.0));
+                } else if k == at.len() {
+                    out.push((at[k - 1].0, 1.0));
+                } else {
+                    let (a, b) = (at[k - 1], at[k]);
+                    let len = b.1 - a.1;
+                    let s = if len > 0.0 { (u - a.1) / len } else { 0.0 };
+                    out.extend([(a.0, 1.0 - s), (b.0, s)]);
+                }
             }
             Blend::Three(p) => {
                 let det =
@@ -372,8 +424,22 @@ impl ContinuousSetup {
         if blend_gauges.is_empty() {
             return Err(ContinuousError::NoRecordingStation);
         }
-        let predictions = (mode == ContinuousMode::AstronomicalResidual)
-            .then(|| StationPredictions::new(stations, span_s.0, span_s.1));
+        // Predicted from the field's common constituents only: the place's prediction is then
+        // exactly the field's interpolation, and a gauge's own minor constituents travel with
+        // its residual.
+        let predictions = (mode == ContinuousMode::AstronomicalResidual).then(|| {
+            let common: Vec<Station> = stations
+                .iter()
+                .map(|s| {
+                    let mut s = s.clone();
+                    s.constants
+                        .constituents
+                        .retain(|(c, _, _)| field.constituents().iter().any(|f| f.name == c.name));
+                    s
+                })
+                .collect();
+            StationPredictions::new(&common, span_s.0, span_s.1)
+        });
         Ok(ContinuousSetup {
             mode,
             station_gauge,
@@ -431,8 +497,9 @@ pub enum Plane {
     /// The soundings' CRS is projected (metres): used as is.
     Projected,
     /// Longitude and latitude in degrees: a local equirectangular plane about `(lon0, lat0)`
-    /// (metres per degree along each axis), whose scale error over tens of kilometres is
-    /// below 1e-4 — far inside what a tide field needs.
+    /// (metres per degree along each axis). Its scale error grows as `tan φ0 · Δφ` away from
+    /// the centre (about 2e-3 at 10 km at 50° latitude): it moves a weight by as much, far
+    /// inside what a tide field needs.
     LonLat {
         /// Centre longitude, degrees.
         lon0: f64,
@@ -694,7 +761,16 @@ impl ContinuousTide<'_> {
             let gu = &u.gauge_u[st.gauge];
             let lt = level_terms(&self.gauges[st.gauge], gu, &u.rates[st.gauge], st);
             v[0] += (st.weight * ratio).powi(2) * lt.var_m2;
-            v[1] += (st.weight * gu.u_datum_m).powi(2);
+            // A datum error moves the record (coefficient β_g R_g) and, when the constants
+            // were analysed from the record, its station's mean level too (coefficient w_g,
+            // the record's own part cancelling): the larger of the two, whichever holds.
+            let w_g: f64 = s
+                .weights
+                .iter()
+                .filter(|(j, _)| *j == i)
+                .map(|(_, w)| w)
+                .sum();
+            v[1] += (w_g.max(st.weight * ratio) * gu.u_datum_m).powi(2);
             let e_range = st.weight * ratio * (st.level.height_m - terms[i].z0_m);
             let e_rate = st.weight * ratio * lt.rate_m_per_s;
             t_range += e_range;
@@ -1159,5 +1235,77 @@ mod tests {
                 }
             }
         }
+    }
+
+    /// Three gauges on one line: piecewise linear between neighbours, each gauge alone at its
+    /// own place and beyond the ends (every gauge keeps a share: none is dropped).
+    #[test]
+    fn gauges_on_one_line_blend_along_it() {
+        let st = |i: usize, x: f64| Station {
+            id: format!("s{i}"),
+            x_m: x,
+            y_m: 0.5 * x,
+            constants: exact(0),
+            is_virtual: false,
+        };
+        let b = Blend::new(vec![st(0, 0.0), st(1, 10_000.0), st(2, 4_000.0)]);
+        assert!(matches!(b, Blend::Line { .. }), "{b:?}");
+        let mut w = Vec::new();
+        let at = |b: &Blend, w: &mut Vec<(usize, f64)>, x: f64, off: f64| {
+            b.weights_into(x - 0.5 * off, 0.5 * x + off, w);
+            let mut v = [0.0; 3];
+            for &(i, wi) in w.iter() {
+                v[i] += wi;
+            }
+            v
+        };
+        assert_eq!(at(&b, &mut w, 4_000.0, 0.0), [0.0, 0.0, 1.0]);
+        let v = at(&b, &mut w, 7_000.0, 300.0);
+        assert!(
+            (v[1] - 0.5).abs() < 1e-12 && (v[2] - 0.5).abs() < 1e-12,
+            "{v:?}"
+        );
+        let v = at(&b, &mut w, 1_000.0, -200.0);
+        assert!(
+            (v[0] - 0.75).abs() < 1e-12 && (v[2] - 0.25).abs() < 1e-12,
+            "{v:?}"
+        );
+        assert_eq!(at(&b, &mut w, -5_000.0, 0.0), [1.0, 0.0, 0.0]);
+        assert_eq!(at(&b, &mut w, 15_000.0, 0.0), [0.0, 1.0, 0.0]);
+    }
+
+    /// Stations whose constants list different constituents, in different orders (a virtual
+    /// gauge from a tide model with fewer constituents than the gauges' analyses): the setup
+    /// matches them by name, keeps the common ones and chooses the dominant from those.
+    #[test]
+    fn stations_with_other_constituent_lists_set_up_by_name() {
+        let mixed = |i: usize| {
+            let mut k = exact(i);
+            match i {
+                0 => k
+                    .constituents
+                    .push((constituent("K1").unwrap(), 0.08, 120.0)),
+                1 => k.constituents.reverse(),
+                _ => {}
+            }
+            k
+        };
+        let w = world(&mixed, true, true);
+        for mode in [
+            ContinuousMode::CorrectorField,
+            ContinuousMode::AstronomicalResidual,
+        ] {
+            let s = setup(&w.plane, mode);
+            assert_eq!(s.dominant, Dominant::M2);
+            let (got, _) = tide(&w, &s, 5_000.0, 4_000.0, T0_S + 5_000.0);
+            assert!(got.is_finite());
+        }
+        assert_eq!(
+            crate::compute::cotidal::mean_constants(&[mixed(0), mixed(1)])
+                .unwrap()
+                .constituents
+                .len(),
+            2
+        );
     }
 }

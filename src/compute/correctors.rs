@@ -574,7 +574,7 @@ pub fn sounding_key(line: &str, t_s: f64) -> (String, i64) {
 /// `n² / 2⁶⁵`, e.g. 3 × 10⁻⁴ for 10⁸ soundings, which could only add a clash).
 #[derive(Debug, Default)]
 pub struct KeyClashes {
-    zone_of: HashMap<u64, u32>,
+    zone_of: HashMap<u64, u64>,
     /// Soundings whose key was met before with a different zone.
     pub soundings: u64,
     /// Distinct keys with soundings in more than one zone.
@@ -587,13 +587,27 @@ pub struct KeyClashes {
 impl KeyClashes {
     /// Adds one sounding: its line, time (UTC seconds) and zone (`None`: outside every zone).
     pub fn add(&mut self, line: &str, t_s: f64, zone: Option<usize>) {
+        self.add_value(line, t_s, zone.map_or(0, |z| z as u64 + 1));
+    }
+
+    /// Adds one row of a per-sounding correction file: its line, time, zone and tide as
+    /// written. Rows sharing a key clash when their zones or their tides differ (a continuous
+    /// tide gives the beams of one ping different tides even within a zone).
+    pub fn add_row(&mut self, line: &str, t_s: f64, zone: Option<usize>, tide: &str) {
+        use std::hash::{Hash, Hasher};
+        let mut h = std::collections::hash_map::DefaultHasher::new();
+        zone.hash(&mut h);
+        tide.hash(&mut h);
+        self.add_value(line, t_s, h.finish());
+    }
+
+    fn add_value(&mut self, line: &str, t_s: f64, z: u64) {
         use std::hash::{Hash, Hasher};
         let (line_key, micros) = (line, (t_s * 1e6).round() as i64);
         let mut h = std::collections::hash_map::DefaultHasher::new();
         line_key.hash(&mut h);
         micros.hash(&mut h);
         let key = h.finish();
-        let z = zone.map_or(0, |z| z as u32 + 1);
         match self.zone_of.entry(key) {
             std::collections::hash_map::Entry::Vacant(e) => {
                 e.insert(z);
@@ -671,6 +685,19 @@ mod tests {
         c.add("L3", 100.25, Some(2));
         assert_eq!((c.keys, c.soundings), (2, 11));
         assert_eq!(c.first, Some(("L1".to_string(), 100.25)));
+    }
+
+    /// Rows of a per-sounding file clash on a shared key when their tides differ even in one
+    /// zone (a continuous tide's beams), and not when zone and tide agree.
+    #[test]
+    fn rows_with_one_key_and_other_tides_clash() {
+        let mut c = KeyClashes::default();
+        c.add_row("L1", 100.25, Some(0), "1.2345");
+        c.add_row("L1", 100.25, Some(0), "1.2345");
+        assert_eq!((c.keys, c.soundings), (0, 0));
+        c.add_row("L1", 100.25, Some(0), "1.2351");
+        c.add_row("L1", 100.50, Some(0), "1.2400");
+        assert_eq!((c.keys, c.soundings), (1, 1));
     }
 
     #[test]

@@ -485,22 +485,25 @@ pub fn derive_correctors(
 
 /// The complex mean of several places' constants (each constituent's `H·e^{−iG}` averaged, Z0
 /// averaged): a zone's constants from the field at points inside it. `None` for no places.
-/// The constituents are those of the first.
+/// The constituents are those of the first that every place holds, matched by name.
 pub fn mean_constants(ks: &[HarmonicConstants]) -> Option<HarmonicConstants> {
     let first = ks.first()?;
     let n = ks.len() as f64;
     let z0_m = ks.iter().map(|k| k.z0_m).sum::<f64>() / n;
+    // Constituents matched by name; one that some set lacks is left out (its mean would be
+    // taken over fewer sets than the others').
     let constituents = first
         .constituents
         .iter()
-        .enumerate()
-        .map(|(j, (c, _, _))| {
-            let z = ks.iter().fold((0.0, 0.0), |acc, k| {
-                let p = phasor(k.constituents[j].1, k.constituents[j].2);
-                (acc.0 + p.0 / n, acc.1 + p.1 / n)
-            });
+        .filter_map(|(c, _, _)| {
+            let mut z = (0.0, 0.0);
+            for k in ks {
+                let (_, h, g) = k.constituents.iter().find(|(d, _, _)| d.name == c.name)?;
+                let p = phasor(*h, *g);
+                z = (z.0 + p.0 / n, z.1 + p.1 / n);
+            }
             let (h, g) = from_phasor(z);
-            (*c, h, g)
+            Some((*c, h, g))
         })
         .collect();
     Some(HarmonicConstants { z0_m, constituents })

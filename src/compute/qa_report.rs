@@ -101,6 +101,9 @@ pub struct UncertaintyInputs {
 pub struct TideFieldInput {
     /// `corrector_field` or `astronomical_residual`.
     pub mode: &'static str,
+    /// The dominant constituent the correctors are taken from (M2 or K1, by the form factor of
+    /// the stations' mean constants).
+    pub dominant: &'static str,
     /// The field's departure from linear at `field_scale_km`, metres (standard).
     pub u_field_m: f64,
     /// The distance `u_field_m` refers to, kilometres.

@@ -287,7 +287,8 @@ pub fn read_correction_file(path: &Path) -> Result<CorrectionFile, IoError> {
 }
 
 /// Counts the rows of a per-sounding correction file that share a line and time with a row of
-/// another zone ([`KeyClashes`]): the rows [`parse_correction_file`] refuses.
+/// another zone or another tide ([`KeyClashes::add_row`]): the rows [`parse_correction_file`]
+/// refuses.
 pub fn sounding_key_clashes(path: &Path) -> Result<KeyClashes, IoError> {
     let f = std::fs::File::open(path).map_err(|e| IoError::file(path, e))?;
     let mut rdr = csv::ReaderBuilder::new()
@@ -307,7 +308,7 @@ pub fn sounding_key_clashes(path: &Path) -> Result<KeyClashes, IoError> {
             let n = zones.len();
             *zones.entry(rec[4].to_string()).or_insert(n)
         });
-        clashes.add(&rec[0], t, zone);
+        clashes.add_row(&rec[0], t, zone, rec.get(5).unwrap_or(""));
     }
     Ok(clashes)
 }

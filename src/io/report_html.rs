@@ -906,8 +906,9 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
     if let Some(f) = &r.inputs.tide_field {
         let _ = write!(
             o,
-            "<table class=\"tide-field\"><tr><th>continuous tide ({})</th><th>value</th></tr><tr><td>u_field (m) at {} km between stations</td><td>{}</td></tr><tr><td>u_station_range_ratio</td><td>{}</td></tr><tr><td>u_station_time (min)</td><td>{}</td></tr><tr><td>stations</td><td>{}</td></tr><tr><td>gauges blended</td><td>{}</td></tr></table>",
+            "<table class=\"tide-field\"><tr><th>continuous tide ({})</th><th>value</th></tr><tr><td>dominant constituent</td><td>{}</td></tr><tr><td>u_field (m) at {} km between stations</td><td>{}</td></tr><tr><td>u_station_range_ratio</td><td>{}</td></tr><tr><td>u_station_time (min)</td><td>{}</td></tr><tr><td>stations</td><td>{}</td></tr><tr><td>gauges blended</td><td>{}</td></tr></table>",
             esc(f.mode),
+            esc(f.dominant),
             given(f.field_scale_km),
             given(f.u_field_m),
             given(f.u_station_range_ratio),

@@ -152,6 +152,25 @@ pub enum PlaneFieldError {
     /// The stations do not make a field.
     #[error("the co-tidal field cannot be built: {0}")]
     Field(#[from] crate::compute::cotidal::FieldError),
+    /// The soundings' CRS does not measure in metres.
+    #[error("the CRS '{crs}' does not measure in metres: stations {distance_km:.1} km apart are {plane:.4} of its units apart (degrees or feet?); a continuous tide needs a projected CRS in metres, or WGS 84 longitude/latitude")]
+    NotMetres {
+        /// The CRS.
+        crs: String,
+        /// The two stations' great-circle distance, kilometres.
+        distance_km: f64,
+        /// Their distance in the CRS's units.
+        plane: f64,
+    },
+}
+
+/// Great-circle distance on the sphere of the WGS 84 mean radius, metres.
+fn great_circle_m(a: (f64, f64), b: (f64, f64)) -> f64 {
+    const R_M: f64 = 6_371_008.8;
+    let (p1, p2) = (a.1.to_radians(), b.1.to_radians());
+    let (dp, dl) = (p2 - p1, (b.0 - a.0).to_radians());
+    let h = (dp / 2.0).sin().powi(2) + p1.cos() * p2.cos() * (dl / 2.0).sin().powi(2);
+    2.0 * R_M * h.sqrt().asin()
 }
 
 /// The field and the recording gauges' blend in the plane of a soundings group's `crs`:
@@ -185,6 +204,35 @@ pub fn plane_field(stations: &[LonLatStation], crs: &str) -> Result<PlaneField, 
             constants: s.constants.clone(),
             is_virtual: s.gauge.is_none(),
         });
+    }
+    // A projected CRS must measure in metres (the field's uncertainty scale is in metres): the
+    // two stations farthest apart, their distance in the plane against the great circle's
+    // (a projection's scale error is a few parts in a thousand over a survey area; feet are
+    // 3.28 times, degrees 1e-5 times).
+    if let (Plane::Projected, Some(far)) = (
+        plane,
+        (1..stations.len())
+            .map(|k| {
+                (
+                    k,
+                    great_circle_m(
+                        (stations[0].lon, stations[0].lat),
+                        (stations[k].lon, stations[k].lat),
+                    ),
+                )
+            })
+            .max_by(|a, b| a.1.total_cmp(&b.1)),
+    ) {
+        let (k, gc) = far;
+        let d = ((placed[k].x_m - placed[0].x_m).powi(2) + (placed[k].y_m - placed[0].y_m).powi(2))
+            .sqrt();
+        if gc > 100.0 && !(0.5..=2.0).contains(&(d / gc)) {
+            return Err(PlaneFieldError::NotMetres {
+                crs: crs.to_string(),
+                distance_km: gc / 1000.0,
+                plane: d,
+            });
+        }
     }
     let blend = Blend::new(
         placed
@@ -462,4 +510,42 @@ pub fn tide_field_defaults(spec: &crate::io::project::TideFieldSpec) -> Vec<Stri
     .filter(|(_, d)| *d)
     .map(|(k, _)| format!("tide field: {k}"))
     .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::compute::astro::constituent;
+
+    fn stations() -> Vec<LonLatStation> {
+        [(-36.10, -47.55), (-36.00, -47.55), (-36.05, -47.48)]
+            .iter()
+            .enumerate()
+            .map(|(i, &(lon, lat))| LonLatStation {
+                id: format!("s{i}"),
+                lon,
+                lat,
+                constants: HarmonicConstants {
+                    z0_m: 2.0,
+                    constituents: vec![(constituent("M2").unwrap(), 1.2, 10.0 * i as f64)],
+                },
+                gauge: Some(i),
+            })
+            .collect()
+    }
+
+    /// A projected CRS in metres places the field (UTM zone 24S over the stations); a CRS in
+    /// degrees that is not WGS 84 longitude/latitude (ETRS89, EPSG:4258) is refused, since the
+    /// field's scale and uncertainty are in metres (common practice: a projected survey CRS is in
+    /// metres; the check compares the stations' distance with the great circle's).
+    #[test]
+    fn a_crs_not_in_metres_is_refused() {
+        let pf = plane_field(&stations(), "EPSG:32724").unwrap();
+        assert_eq!(pf.plane, Plane::Projected);
+        let e = plane_field(&stations(), "EPSG:4258").unwrap_err();
+        assert!(matches!(e, PlaneFieldError::NotMetres { .. }), "{e}");
+        assert!(e.to_string().contains("EPSG:4258"), "{e}");
+        let lonlat = plane_field(&stations(), "EPSG:4326").unwrap();
+        assert!(matches!(lonlat.plane, Plane::LonLat { .. }));
+    }
 }

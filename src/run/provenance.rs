@@ -162,10 +162,19 @@ pub fn tide_inputs(loaded: &Loaded) -> Result<Value, IoError> {
     if !virtuals.is_empty() {
         tide.insert("virtual_gauges".into(), Value::Array(virtuals));
     }
-    // `[tide_field]`: its mode changes the tide, its `u_` keys and scale only the uncertainty.
+    // `[tide_field]`: its mode changes the tide, its `u_` keys and scale only the uncertainty;
+    // each soundings group's CRS places the field in its plane, so it changes the tide too.
     let mut field_u = Map::new();
     if let Some(f) = &spec.tide_field {
         tide.insert("tide_field_mode".into(), json!(f.mode));
+        tide.insert(
+            "soundings_crs".into(),
+            json!(spec
+                .soundings
+                .iter()
+                .map(|g| g.crs.clone())
+                .collect::<Vec<_>>()),
+        );
         field_u.insert("u_field_m".into(), json!(f.u_field_m));
         field_u.insert("field_scale_km".into(), json!(f.field_scale_km));
         field_u.insert(

@@ -121,6 +121,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
                 let fu = &f.setup.field_u;
                 crate::compute::qa_report::TideFieldInput {
                     mode: f.setup.mode.as_str(),
+                    dominant: f.setup.dominant.name(),
                     u_field_m: fu.u_field_m,
                     field_scale_km: fu.field_scale_m / 1000.0,
                     u_station_range_ratio: fu.u_station_range_ratio,
