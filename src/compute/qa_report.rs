@@ -46,6 +46,19 @@ pub struct ZoneTideSeries {
     pub times_s: Vec<f64>,
 }
 
+impl ZoneTideSeries {
+    /// An empty series of zone `zone` with room for `n` instants.
+    pub fn with_capacity(zone: &str, n: usize) -> ZoneTideSeries {
+        ZoneTideSeries {
+            zone: zone.to_string(),
+            times_utc: Vec::with_capacity(n),
+            tide_m: Vec::with_capacity(n),
+            u95_tide_m: Vec::with_capacity(n),
+            times_s: Vec::with_capacity(n),
+        }
+    }
+}
+
 /// A gauge's uncertainty inputs as used.
 #[derive(Debug, Clone, Serialize)]
 pub struct GaugeInput {

@@ -522,23 +522,26 @@ pub fn write_correctors(
             written.push(write_sidecar(&f.output, &prov)?);
             let clashes = sounding_key_clashes(&f.output)?;
             if let Some((line, t)) = &clashes.first {
-                clash_warnings.push(if loaded.field.is_some() {
-                    format!(
-                        "{}: {} row(s) share a line and time with a row of another tide ({} line-and-time key(s), first line '{line}' at {}), as the beams of a ping do under a continuous tide ([tide_field]): `ebbwise apply` will refuse this file; reduce these soundings with `ebbwise reduce` itself",
-                        f.output.display(),
-                        clashes.soundings,
-                        clashes.keys,
-                        crate::io::timefmt::utc_label(*t)
+                let (of, why, remedy) = if loaded.field.is_some() {
+                    (
+                        "another tide",
+                        "as the beams of a ping do under a continuous tide ([tide_field])",
+                        "reduce these soundings with `ebbwise reduce` itself",
                     )
                 } else {
-                    format!(
-                        "{}: {} row(s) share a line and time with a row of another zone ({} line-and-time key(s), first line '{line}' at {}), as the beams of a ping across a zone edge do: `ebbwise apply` will refuse this file; use the per-zone correction file (correctors-zones.csv) for these soundings",
-                        f.output.display(),
-                        clashes.soundings,
-                        clashes.keys,
-                        crate::io::timefmt::utc_label(*t)
+                    (
+                        "another zone",
+                        "as the beams of a ping across a zone edge do",
+                        "use the per-zone correction file (correctors-zones.csv) for these soundings",
                     )
-                });
+                };
+                clash_warnings.push(format!(
+                    "{}: {} row(s) share a line and time with a row of {of} ({} line-and-time key(s), first line '{line}' at {}), {why}: `ebbwise apply` will refuse this file; {remedy}",
+                    f.output.display(),
+                    clashes.soundings,
+                    clashes.keys,
+                    crate::io::timefmt::utc_label(*t)
+                ));
             }
         }
         Some(run)

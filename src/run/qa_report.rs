@@ -309,13 +309,7 @@ pub fn continuous_tide_series(
         .zones
         .iter()
         .map(|z| {
-            let mut s = ZoneTideSeries {
-                zone: z.id.clone(),
-                times_utc: Vec::with_capacity(n),
-                tide_m: Vec::with_capacity(n),
-                u95_tide_m: Vec::with_capacity(n),
-                times_s: Vec::with_capacity(n),
-            };
+            let mut s = ZoneTideSeries::with_capacity(&z.id, n);
             let at = z.polygon_lonlat.interior_point();
             for k in 0..n {
                 let t = start + k as f64 * step;
@@ -363,13 +357,7 @@ pub fn tide_series(loaded: &Loaded, t0: f64, t1: f64) -> Vec<ZoneTideSeries> {
         .iter()
         .enumerate()
         .map(|(zi, z)| {
-            let mut s = ZoneTideSeries {
-                zone: z.id.clone(),
-                times_utc: Vec::with_capacity(n),
-                tide_m: Vec::with_capacity(n),
-                u95_tide_m: Vec::with_capacity(n),
-                times_s: Vec::with_capacity(n),
-            };
+            let mut s = ZoneTideSeries::with_capacity(&z.id, n);
             for k in 0..n {
                 let t = start + k as f64 * step;
                 s.times_s.push(t);
