@@ -131,19 +131,13 @@ pub fn write_qa_report(
             let html_path = out_dir.join("qa-report.html");
             write_atomic(&json_path, &serde_json::to_vec_pretty(&report)?)?;
             write_atomic(&html_path, render_html(&report).as_bytes())?;
-            let total = summary.rows_by_status.total();
-            let within = report
-                .survey
-                .orders
-                .iter()
-                .find(|o| o.order == report.chosen_order.name)
-                .map_or(0, |o| o.soundings_within);
+            let (_, total) = report.within_chosen_of_all();
             format!(
                 "  order {}: {:.1} % of {} judged (reduced) soundings within the TVU limit, {:.1} % of all {}; acceptance {:.0} % (the project's rule): {}; strictest order met on the TVU limit alone: {}; dominant component: {}\n  QA report: {} and {}",
                 report.chosen_order.name,
                 100.0 * report.survey.share_within_chosen,
                 report.survey.soundings,
-                if total > 0 { 100.0 * within as f64 / total as f64 } else { 0.0 },
+                100.0 * report.share_within_of_all(),
                 total,
                 100.0 * report.acceptance_share,
                 if report.survey.meets_chosen { "MET" } else { "NOT MET" },

@@ -63,7 +63,7 @@
 //! every zone is `outside_zoning`, and the zone it lies in is its reporting zone; the zones'
 //! correctors are not used.
 
-use super::cotidal::{dominant, Dominant, Field, Station};
+use super::cotidal::{dominant, segment_weights, weight_of, Dominant, Field, Station};
 use super::harmonic::{predict_grid, HarmonicConstants};
 use super::locate::ZoneLocator;
 use super::reduce::{Query, Scratch, TideModel, TideOutcome, TideU};
@@ -179,21 +179,6 @@ pub enum Blend {
     Field(Box<Field>),
 }
 
-/// The weights of `a`, `b` at the place's projection on their segment, and its squared
-/// distance from the place.
-#[inline]
-fn on_segment(a: (f64, f64), b: (f64, f64), x: f64, y: f64) -> (f64, f64, f64) {
-    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
-    let len2 = dx * dx + dy * dy;
-    let s = if len2 > 0.0 {
-        (((x - a.0) * dx + (y - a.1) * dy) / len2).clamp(0.0, 1.0)
-    } else {
-        0.0
-    };
-    let (ex, ey) = (x - (a.0 + s * dx), y - (a.1 + s * dy));
-    (1.0 - s, s, ex * ex + ey * ey)
-}
-
 impl Blend {
     /// The blend of the gauges `stations` (positions in the field's plane; their constants
     /// serve only to build the triangulation).
@@ -268,7 +253,7 @@ impl Blend {
         match self {
             Blend::One => out.push((0, 1.0)),
             Blend::Two([a, b]) => {
-                let (wa, wb, _) = on_segment(*a, *b, x_m, y_m);
+                let (wa, wb, _) = segment_weights(*a, *b, x_m, y_m);
                 out.extend([(0, wa), (1, wb)]);
             }
             Blend::Line { origin, dir, at } => {
@@ -298,7 +283,7 @@ impl Blend {
                 } else {
                     let mut best = (f64::INFINITY, 0, 1, 1.0, 0.0);
                     for (a, b) in [(0, 1), (1, 2), (2, 0)] {
-                        let (wa, wb, d2) = on_segment(p[a], p[b], x_m, y_m);
+                        let (wa, wb, d2) = segment_weights(p[a], p[b], x_m, y_m);
                         if d2 < best.0 {
                             best = (d2, a, b, wa, wb);
                         }
@@ -491,6 +476,9 @@ fn norm((x, y): (f64, f64)) -> f64 {
     (x * x + y * y).sqrt()
 }
 
+/// The WGS 84 mean radius `(2a + b)/3`, metres (IUGG; the sphere the local planes use).
+pub const EARTH_MEAN_RADIUS_M: f64 = 6_371_008.8;
+
 /// How a sounding's coordinates reach the field's plane.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Plane {
@@ -515,8 +503,7 @@ pub enum Plane {
 impl Plane {
     /// The local plane about `(lon0, lat0)` (spherical Earth of the WGS 84 mean radius).
     pub fn lonlat(lon0: f64, lat0: f64) -> Plane {
-        const R_M: f64 = 6_371_008.8;
-        let ky = R_M * std::f64::consts::PI / 180.0;
+        let ky = EARTH_MEAN_RADIUS_M * std::f64::consts::PI / 180.0;
         Plane::LonLat {
             lon0,
             lat0,
@@ -764,12 +751,7 @@ impl ContinuousTide<'_> {
             // A datum error moves the record (coefficient β_g R_g) and, when the constants
             // were analysed from the record, its station's mean level too (coefficient w_g,
             // the record's own part cancelling): the larger of the two, whichever holds.
-            let w_g: f64 = s
-                .weights
-                .iter()
-                .filter(|(j, _)| *j == i)
-                .map(|(_, w)| w)
-                .sum();
+            let w_g = weight_of(&s.weights, i);
             v[1] += (w_g.max(st.weight * ratio) * gu.u_datum_m).powi(2);
             let e_range = st.weight * ratio * (st.level.height_m - terms[i].z0_m);
             let e_rate = st.weight * ratio * lt.rate_m_per_s;
@@ -1221,15 +1203,9 @@ mod tests {
             for y in (-12..=32).map(|k| k as f64 * 1_000.0 + 0.25) {
                 three.weights_into(x, y, &mut a);
                 field.weights_into(x, y, &mut b);
-                let w = |v: &[(usize, f64)], i: usize| {
-                    v.iter()
-                        .filter(|(j, _)| *j == i)
-                        .map(|(_, w)| w)
-                        .sum::<f64>()
-                };
                 for i in 0..3 {
                     assert!(
-                        (w(&a, i) - w(&b, i)).abs() < 1e-9,
+                        (weight_of(&a, i) - weight_of(&b, i)).abs() < 1e-9,
                         "({x}, {y}) station {i}: {a:?} vs {b:?}"
                     );
                 }

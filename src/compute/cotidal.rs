@@ -335,15 +335,10 @@ impl Field {
 
     /// Weights of the nearest point of segment a–b, and the distance to it.
     /// The weights of `a` and `b` at the place's projection on their segment, and the squared
-    /// distance to it, m².
+    /// distance to it, m² ([`segment_weights`]).
     fn on_segment(&self, a: usize, b: usize, x_m: f64, y_m: f64) -> (f64, f64, f64) {
         let (sa, sb) = (&self.stations[a], &self.stations[b]);
-        let (dx, dy) = (sb.x_m - sa.x_m, sb.y_m - sa.y_m);
-        let len2 = dx * dx + dy * dy;
-        let s = (((x_m - sa.x_m) * dx + (y_m - sa.y_m) * dy) / len2).clamp(0.0, 1.0);
-        let (px, py) = (sa.x_m + s * dx, sa.y_m + s * dy);
-        let (ex, ey) = (x_m - px, y_m - py);
-        (1.0 - s, s, ex * ex + ey * ey)
+        segment_weights((sa.x_m, sa.y_m), (sb.x_m, sb.y_m), x_m, y_m)
     }
 
     /// The interpolated constants at `(x_m, y_m)`, with the weights used.
@@ -483,6 +478,28 @@ pub fn derive_correctors(
     })
 }
 
+/// The weights of the ends `a`, `b` at the projection of `(x, y)` on their segment (clamped to
+/// it; all on `a` when the two coincide), and the squared distance from the place to that
+/// projection, m².
+#[inline]
+pub fn segment_weights(a: (f64, f64), b: (f64, f64), x: f64, y: f64) -> (f64, f64, f64) {
+    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+    let len2 = dx * dx + dy * dy;
+    let s = if len2 > 0.0 {
+        (((x - a.0) * dx + (y - a.1) * dy) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    let (ex, ey) = (x - (a.0 + s * dx), y - (a.1 + s * dy));
+    (1.0 - s, s, ex * ex + ey * ey)
+}
+
+/// The total weight of station `i` in a list of (station, weight).
+#[inline]
+pub fn weight_of(w: &[(usize, f64)], i: usize) -> f64 {
+    w.iter().filter(|(j, _)| *j == i).map(|(_, wi)| wi).sum()
+}
+
 /// The complex mean of several places' constants (each constituent's `H·e^{−iG}` averaged, Z0
 /// averaged): a zone's constants from the field at points inside it. `None` for no places.
 /// The constituents are those of the first that every place holds, matched by name.
@@ -594,17 +611,20 @@ mod tests {
         }
     }
 
+    /// Five stations: a quadrilateral and one inside it, metres.
+    const FIVE_PLACES: [(f64, f64); 5] = [
+        (0.0, 0.0),
+        (10_000.0, 0.0),
+        (12_000.0, 9_000.0),
+        (-1_000.0, 8_000.0),
+        (5_000.0, 4_000.0),
+    ];
+
     /// `weights_near` with its triangle hint gives the weights `weights_into` gives, walking a
     /// grid across and beyond five stations (so the hint is right, wrong and absent in turn).
     #[test]
     fn the_hinted_weights_are_the_searched_ones() {
-        let pts = [
-            (0.0, 0.0),
-            (10_000.0, 0.0),
-            (12_000.0, 9_000.0),
-            (-1_000.0, 8_000.0),
-            (5_000.0, 4_000.0),
-        ];
+        let pts = FIVE_PLACES;
         let stations = pts
             .iter()
             .enumerate()
@@ -625,15 +645,9 @@ mod tests {
             if had.is_some() && last == had {
                 hinted += 1;
             }
-            let w = |v: &[(usize, f64)], i: usize| {
-                v.iter()
-                    .filter(|(j, _)| *j == i)
-                    .map(|(_, w)| w)
-                    .sum::<f64>()
-            };
             for i in 0..5 {
                 assert!(
-                    (w(&a, i) - w(&b, i)).abs() < 1e-12,
+                    (weight_of(&a, i) - weight_of(&b, i)).abs() < 1e-12,
                     "({x}, {y}): {a:?} vs {b:?}"
                 );
             }
@@ -663,13 +677,7 @@ mod tests {
                 .collect();
             (z0, cons)
         };
-        let pts = [
-            (0.0, 0.0),
-            (10_000.0, 0.0),
-            (12_000.0, 9_000.0),
-            (-1_000.0, 8_000.0),
-            (5_000.0, 4_000.0),
-        ];
+        let pts = FIVE_PLACES;
         let stations = pts
             .iter()
             .enumerate()

@@ -210,6 +210,28 @@ pub struct QaReport {
     pub zone_polygons: Vec<(String, geo::MultiPolygon<f64>)>,
 }
 
+impl QaReport {
+    /// Soundings within the chosen order's TVU limit, and every sounding of the run (all
+    /// statuses): the headline's "of those judged" and "of all soundings".
+    pub fn within_chosen_of_all(&self) -> (u64, u64) {
+        let within = self
+            .survey
+            .orders
+            .iter()
+            .find(|o| o.order == self.chosen_order.name)
+            .map_or(0, |o| o.soundings_within);
+        (within, self.rows_by_status.total())
+    }
+
+    /// `within_chosen_of_all` as a share of every sounding (0–1; 0 for a run of none).
+    pub fn share_within_of_all(&self) -> f64 {
+        match self.within_chosen_of_all() {
+            (_, 0) => 0.0,
+            (w, n) => w as f64 / n as f64,
+        }
+    }
+}
+
 /// What quality control did to one gauge's record in the reduction.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct GaugeQc {

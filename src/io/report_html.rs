@@ -746,18 +746,7 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
     );
     let fail = !r.survey.meets_chosen;
     // Every sounding of the day counted: those judged (reduced) and those that could not be.
-    let total = r.rows_by_status.total();
-    let within = r
-        .survey
-        .orders
-        .iter()
-        .find(|o| o.order == r.chosen_order.name)
-        .map_or(0, |o| o.soundings_within);
-    let share_all = if total > 0 {
-        within as f64 / total as f64
-    } else {
-        0.0
-    };
+    let (within, total) = r.within_chosen_of_all();
     let _ = write!(
         o,
         r#"<div class="verdict{}"><p>Of the day's <b>{total}</b> soundings, <b>{}</b> were reduced and judged ({} not reduced: see the status table below). <b>{within}</b> of them have a 95 % TVU within the limit of order <b>{}</b>: {} of those judged, {} of all soundings.</p><p>Acceptance: at least {} of the judged soundings within the limit, the project's rule (<code>acceptance_share</code>, or the authority's), not the standard's (IHO S-44 applies the limit to each sounding's 95 % TVU, as the within_order column does) — <b>{}</b>. Strictest order met, judged on the TVU limit alone: <b>{}</b> (orders 1a and 1b share their TVU limit; horizontal uncertainty, feature detection and coverage are not assessed here). Dominant component of u_tvu²: <b>{}</b>.</p></div>"#,
@@ -766,7 +755,7 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         total.saturating_sub(r.survey.soundings),
         esc(&r.chosen_order.name),
         pct(r.survey.share_within_chosen),
-        pct(share_all),
+        pct(r.share_within_of_all()),
         pct_given(r.acceptance_share),
         if fail { "not met" } else { "met" },
         esc(achieved),

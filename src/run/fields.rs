@@ -166,7 +166,7 @@ pub enum PlaneFieldError {
 
 /// Great-circle distance on the sphere of the WGS 84 mean radius, metres.
 fn great_circle_m(a: (f64, f64), b: (f64, f64)) -> f64 {
-    const R_M: f64 = 6_371_008.8;
+    const R_M: f64 = crate::compute::continuous::EARTH_MEAN_RADIUS_M;
     let (p1, p2) = (a.1.to_radians(), b.1.to_radians());
     let (dp, dl) = (p2 - p1, (b.0 - a.0).to_radians());
     let h = (dp / 2.0).sin().powi(2) + p1.cos() * p2.cos() * (dl / 2.0).sin().powi(2);
