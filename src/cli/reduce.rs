@@ -149,7 +149,12 @@ pub fn write_qa_report(
         }
         None => {
             // A report left by an earlier run would not describe this one.
-            for stale in ["qa-report.json", "qa-report.html"] {
+            for stale in [
+                "qa-report.json",
+                "qa-report.html",
+                ebbwise::io::sounding_export::FAILING_FILE,
+                ebbwise::io::sounding_export::UNREDUCED_FILE,
+            ] {
                 let _ = std::fs::remove_file(out_dir.join(stale));
             }
             "  uncertainty: not computed (no [uncertainty] section in the project, or --no-uncertainty)"

@@ -10,11 +10,12 @@
 //! Percentiles come from [`QuantileSketch`]es: never below the exact percentile, at most
 //! [`RELATIVE_ERROR`](super::quantile::RELATIVE_ERROR) above it.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 use serde::Serialize;
 
 use super::quantile::QuantileSketch;
+use super::reduce::StatusCounts;
 use super::uncertainty::SurveyOrder;
 
 /// Decimals of a share (0–1) in the report: 0.001, i.e. 0.1 %.
@@ -89,18 +90,23 @@ pub struct GroupQa {
     pub ratio_hist: [u64; RATIO_BINS],
     /// Percentile sketch of U95/allowed for the chosen order.
     pub ratio_sketch: QuantileSketch,
+    /// The largest U95/allowed for the chosen order (`None`: nothing judged).
+    pub max_ratio: Option<f64>,
 }
 
 impl GroupQa {
-    fn new(n_orders: usize) -> Self {
+    /// An empty group for `n_orders` orders.
+    pub fn new(n_orders: usize) -> Self {
         GroupQa {
             n: 0,
             within: vec![0; n_orders],
             ratio_hist: [0; RATIO_BINS],
             ratio_sketch: QuantileSketch::new(),
+            max_ratio: None,
         }
     }
     fn merge(&mut self, o: &GroupQa) {
+        self.max_ratio = max_opt(self.max_ratio, o.max_ratio);
         self.n += o.n;
         for (a, b) in self.within.iter_mut().zip(&o.within) {
             *a += b;
@@ -109,6 +115,73 @@ impl GroupQa {
             *a += b;
         }
         self.ratio_sketch.merge(&o.ratio_sketch);
+    }
+}
+
+fn max_opt(a: Option<f64>, b: Option<f64>) -> Option<f64> {
+    match (a, b) {
+        (Some(x), Some(y)) => Some(x.max(y)),
+        (x, None) => x,
+        (None, y) => y,
+    }
+}
+
+/// Every sounding of a group by status (judged or not), and its drying heights.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct StatusTally {
+    /// Soundings per status, in `SoundingStatus::ALL` order.
+    pub by_status: StatusCounts,
+    /// Reduced soundings (`reduced` or `gap_filled`) whose reduced depth is negative: drying
+    /// heights, above chart datum.
+    pub drying: u64,
+}
+
+impl StatusTally {
+    fn merge(&mut self, o: &StatusTally) {
+        self.by_status.add(&o.by_status);
+        self.drying += o.drying;
+    }
+}
+
+/// What a survey line (the unit a crew re-runs) adds to its QA counts: where and when it ran.
+#[derive(Debug, Clone)]
+pub struct LineQa {
+    /// The judged soundings' counts.
+    pub qa: GroupQa,
+    /// Their uncertainty budget.
+    pub budget: BudgetQa,
+    /// Every sounding of the line by status.
+    pub tally: StatusTally,
+    /// First and last time of the line's readable soundings, UTC seconds.
+    pub span_s: Option<(f64, f64)>,
+    /// Zones (indices) its soundings lie in.
+    pub zones: BTreeSet<usize>,
+    /// Soundings files it comes from (file names).
+    pub files: BTreeSet<String>,
+}
+
+impl LineQa {
+    fn new(n_orders: usize) -> Self {
+        LineQa {
+            qa: GroupQa::new(n_orders),
+            budget: BudgetQa::default(),
+            tally: StatusTally::default(),
+            span_s: None,
+            zones: BTreeSet::new(),
+            files: BTreeSet::new(),
+        }
+    }
+    fn merge(&mut self, o: &LineQa) {
+        self.qa.merge(&o.qa);
+        self.budget.merge(&o.budget);
+        self.tally.merge(&o.tally);
+        self.span_s = match (self.span_s, o.span_s) {
+            (Some(a), Some(b)) => Some((a.0.min(b.0), a.1.max(b.1))),
+            (a, None) => a,
+            (None, b) => b,
+        };
+        self.zones.extend(o.zones.iter().copied());
+        self.files.extend(o.files.iter().cloned());
     }
 }
 
@@ -122,7 +195,13 @@ pub struct BudgetQa {
     n: u64,
     share_sum: [u64; 6],
     share_sketch: [QuantileSketch; 6],
+    /// Sum of each component's variance, in units of [`VARIANCE_UNIT_M2`] (integers, so that
+    /// the total does not depend on the order of adding).
+    var_sum: [u128; 6],
 }
+
+/// Unit of the summed variances: 1e-12 m² (a standard uncertainty of 1 µm).
+const VARIANCE_UNIT_M2: f64 = 1e-12;
 
 impl BudgetQa {
     fn add(&mut self, var_m2: &[f64; 6]) {
@@ -132,6 +211,7 @@ impl BudgetQa {
         }
         self.n += 1;
         for (k, v) in var_m2.iter().enumerate() {
+            self.var_sum[k] += (v / VARIANCE_UNIT_M2).round() as u128;
             let s = v / total;
             self.share_sum[k] += (s * SHARE_UNITS).round() as u64;
             self.share_sketch[k].add(s);
@@ -140,6 +220,7 @@ impl BudgetQa {
     fn merge(&mut self, o: &BudgetQa) {
         self.n += o.n;
         for k in 0..6 {
+            self.var_sum[k] += o.var_sum[k];
             self.share_sum[k] += o.share_sum[k];
             self.share_sketch[k].merge(&o.share_sketch[k]);
         }
@@ -147,6 +228,14 @@ impl BudgetQa {
     fn mean_share(&self, k: usize) -> f64 {
         if self.n > 0 {
             self.share_sum[k] as f64 / SHARE_UNITS / self.n as f64
+        } else {
+            0.0
+        }
+    }
+    /// Root mean square over the soundings of component `k`'s standard uncertainty, metres.
+    fn rms_m(&self, k: usize) -> f64 {
+        if self.n > 0 {
+            (self.var_sum[k] as f64 * VARIANCE_UNIT_M2 / self.n as f64).sqrt()
         } else {
             0.0
         }
@@ -162,6 +251,7 @@ impl BudgetQa {
                     self.share_sketch[k].percentile(95).unwrap_or(0.0),
                     SHARE_DECIMALS,
                 ),
+                rms_m: round_nearest(self.rms_m(k), METRE_DECIMALS),
             })
             .collect();
         // The largest mean share before rounding (two may read the same after it).
@@ -170,15 +260,17 @@ impl BudgetQa {
             .max_by(|a, b| self.mean_share(*a).total_cmp(&self.mean_share(*b)))
             .map(|k| BUDGET_COMPONENTS[k])
             .unwrap_or("none");
+        let total_var: f64 = (0..6).map(|k| self.rms_m(k).powi(2)).sum();
         BudgetSummary {
             soundings: self.n,
+            rms_u_tvu_m: round_nearest(total_var.sqrt(), METRE_DECIMALS),
             components,
             dominant_component: dominant,
         }
     }
 }
 
-/// One reduced sounding's place on the QA map.
+/// One sounding's place on the QA map.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct MapSample {
     /// Index of the soundings group (for its CRS).
@@ -187,8 +279,93 @@ pub struct MapSample {
     pub x: f64,
     /// Northing/latitude in the group's CRS.
     pub y: f64,
-    /// U95 TVU / allowed TVU for the chosen order.
+    /// U95 TVU / allowed TVU for the chosen order (a judged sounding), or the status index
+    /// (`SoundingStatus::index`) of a sounding not reduced.
+    pub value: f64,
+}
+
+impl MapSample {
+    /// Which of two samples a map cell keeps: the larger value, then the smaller position (so
+    /// that the choice does not depend on the order of adding).
+    fn worse(self, o: MapSample) -> MapSample {
+        let key = |m: &MapSample| (m.value, -m.x, -m.y);
+        if key(&o).partial_cmp(&key(&self)) == Some(std::cmp::Ordering::Greater) {
+            o
+        } else {
+            self
+        }
+    }
+}
+
+/// What the QA map keeps of the soundings in one map cell: the judged sounding with the worst
+/// U95/allowed, a drying height and a sounding not reduced (each when there is one), so that
+/// thinning never hides a failing, drying or unreduced sounding.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct MapCell {
+    /// The judged sounding with the largest U95/allowed.
+    pub worst: Option<MapSample>,
+    /// A drying height (reduced depth below zero), the one with the largest U95/allowed.
+    pub drying: Option<MapSample>,
+    /// A sounding not reduced (the one of the highest status index).
+    pub unreduced: Option<MapSample>,
+}
+
+impl MapCell {
+    fn merge(&mut self, o: &MapCell) {
+        let pick = |a: Option<MapSample>, b: Option<MapSample>| match (a, b) {
+            (Some(x), Some(y)) => Some(x.worse(y)),
+            (x, None) => x,
+            (None, y) => y,
+        };
+        self.worst = pick(self.worst, o.worst);
+        self.drying = pick(self.drying, o.drying);
+        self.unreduced = pick(self.unreduced, o.unreduced);
+    }
+}
+
+/// Map cells across the longer side of the zoning's extent: one cell about 3 px of the
+/// report's map.
+pub const MAP_CELLS_ACROSS: f64 = 200.0;
+
+/// The key of a map cell: group, column, row.
+pub type CellKey = (usize, i64, i64);
+
+/// The key of the map cell of `(x, y)` of group `group`, for cells `cell` wide (group CRS
+/// units).
+pub fn cell_key(group: usize, x: f64, y: f64, cell: f64) -> CellKey {
+    (group, (x / cell).floor() as i64, (y / cell).floor() as i64)
+}
+
+/// One sounding as the QA counts take it.
+#[derive(Debug, Clone, Copy)]
+pub struct QaRow<'a> {
+    /// Its zone, when it lies in one.
+    pub zone: Option<usize>,
+    /// Its survey line (the file name when the file has no line column).
+    pub line: &'a str,
+    /// Its time, UTC seconds, when it could be read.
+    pub t_s: Option<f64>,
+    /// Its status (`SoundingStatus::index`).
+    pub status: usize,
+    /// Its position in its group's CRS, with the group and the map cell width there, when it
+    /// could be read.
+    pub at: Option<(usize, f64, f64, f64)>,
+    /// Whether its reduced depth is negative (a drying height).
+    pub drying: bool,
+    /// The judgement, for a reduced sounding with an uncertainty.
+    pub judged: Option<Judged<'a>>,
+}
+
+/// A judged sounding: within each order or not, U95/allowed for the chosen order, and the
+/// variance components of u_tvu² (m², [`BUDGET_COMPONENTS`] order).
+#[derive(Debug, Clone, Copy)]
+pub struct Judged<'a> {
+    /// Within each order's limit (orders in the accumulator's order).
+    pub within: &'a [bool],
+    /// U95/allowed for the chosen order.
     pub ratio: f64,
+    /// Variance components, m².
+    pub var_m2: [f64; 6],
 }
 
 /// QA counts, filled per chunk and merged.
@@ -202,12 +379,16 @@ pub struct QaAccumulator {
     pub overall: GroupQa,
     /// Budget shares over the whole survey (filled by [`QaAccumulator::settle`]).
     pub overall_budget: BudgetQa,
+    /// Every sounding of the survey by status (filled by [`QaAccumulator::settle`]).
+    pub overall_tally: StatusTally,
     /// Per zone (index = zone index).
-    pub zones: Vec<(GroupQa, BudgetQa)>,
+    pub zones: Vec<(GroupQa, BudgetQa, StatusTally)>,
+    /// Soundings in no zone (outside the zoning, or unreadable).
+    pub no_zone: StatusTally,
     /// Per survey line.
-    pub lines: BTreeMap<String, GroupQa>,
-    /// A thinned sample of soundings for the map.
-    pub samples: Vec<MapSample>,
+    pub lines: BTreeMap<String, LineQa>,
+    /// The map's cells.
+    pub cells: HashMap<CellKey, MapCell>,
 }
 
 impl QaAccumulator {
@@ -218,61 +399,127 @@ impl QaAccumulator {
             chosen,
             overall: GroupQa::new(n_orders),
             overall_budget: BudgetQa::default(),
-            zones: vec![(GroupQa::new(n_orders), BudgetQa::default()); n_zones],
+            overall_tally: StatusTally::default(),
+            zones: vec![
+                (
+                    GroupQa::new(n_orders),
+                    BudgetQa::default(),
+                    StatusTally::default()
+                );
+                n_zones
+            ],
+            no_zone: StatusTally::default(),
             lines: BTreeMap::new(),
-            samples: Vec::new(),
+            cells: HashMap::new(),
         }
     }
 
-    /// Sums the zones into the survey totals (every sounding lies in exactly one zone); call
-    /// before reading `overall`.
+    /// Sums the zones into the survey totals (every judged sounding lies in exactly one zone);
+    /// call before reading `overall`.
     pub fn settle(&mut self) {
         let mut overall = GroupQa::new(self.n_orders);
         let mut budget = BudgetQa::default();
-        for (g, b) in &self.zones {
+        let mut tally = self.no_zone;
+        for (g, b, t) in &self.zones {
             overall.merge(g);
             budget.merge(b);
+            tally.merge(t);
         }
         self.overall = overall;
         self.overall_budget = budget;
+        self.overall_tally = tally;
     }
 
-    /// Adds one reduced sounding: its zone, line, whether it is within each order (the
-    /// per-order [`WrittenVerdict`](super::uncertainty::WrittenVerdict)s' `within`), its
-    /// U95/allowed ratio for the chosen order, and the variance components of u_tvu² (m²,
-    /// [`BUDGET_COMPONENTS`] order).
-    pub fn add(
-        &mut self,
-        zone: usize,
-        line: &str,
-        within: &[bool],
-        chosen_ratio: f64,
-        var_m2: &[f64; 6],
-    ) {
-        let bin = ratio_bin(chosen_ratio);
-        let bump = |g: &mut GroupQa| {
-            g.n += 1;
-            for (w, yes) in g.within.iter_mut().zip(within) {
-                *w += u64::from(*yes);
-            }
-            g.ratio_hist[bin] += 1;
-            g.ratio_sketch.add(chosen_ratio);
+    /// Adds one sounding, whatever its status.
+    pub fn add(&mut self, row: &QaRow) {
+        let line = match self.lines.get_mut(row.line) {
+            Some(l) => l,
+            None => self
+                .lines
+                .entry(row.line.to_string())
+                .or_insert_with(|| LineQa::new(self.n_orders)),
         };
-        bump(&mut self.zones[zone].0);
-        if !self.lines.contains_key(line) {
-            self.lines
-                .insert(line.to_string(), GroupQa::new(self.n_orders));
+        let drying = u64::from(row.drying);
+        line.tally.by_status.0[row.status] += 1;
+        line.tally.drying += drying;
+        if let Some(t) = row.t_s {
+            line.span_s = Some(match line.span_s {
+                None => (t, t),
+                Some((a, b)) => (a.min(t), b.max(t)),
+            });
         }
-        bump(self.lines.get_mut(line).expect("inserted above"));
-        self.zones[zone].1.add(var_m2);
+        let zone_tally = match row.zone {
+            Some(z) => {
+                line.zones.insert(z);
+                &mut self.zones[z].2
+            }
+            None => &mut self.no_zone,
+        };
+        zone_tally.by_status.0[row.status] += 1;
+        zone_tally.drying += drying;
+        let mut sample = row.at.map(|(group, x, y, cell)| {
+            (
+                cell_key(group, x, y, cell),
+                MapSample {
+                    group,
+                    x,
+                    y,
+                    value: row.status as f64,
+                },
+            )
+        });
+        if let (Some(j), Some(z)) = (row.judged, row.zone) {
+            let bin = ratio_bin(j.ratio);
+            let bump = |g: &mut GroupQa| {
+                g.n += 1;
+                for (w, yes) in g.within.iter_mut().zip(j.within) {
+                    *w += u64::from(*yes);
+                }
+                g.ratio_hist[bin] += 1;
+                g.ratio_sketch.add(j.ratio);
+                g.max_ratio = max_opt(g.max_ratio, Some(j.ratio));
+            };
+            bump(&mut self.zones[z].0);
+            bump(&mut line.qa);
+            self.zones[z].1.add(&j.var_m2);
+            line.budget.add(&j.var_m2);
+            if let Some((_, s)) = sample.as_mut() {
+                s.value = j.ratio;
+            }
+        }
+        if let Some((key, s)) = sample {
+            let mut c = MapCell::default();
+            match (row.judged.is_some(), row.drying) {
+                (true, true) => {
+                    c.worst = Some(s);
+                    c.drying = Some(s);
+                }
+                (true, false) => c.worst = Some(s),
+                (false, true) => c.drying = Some(s),
+                (false, false) if row.status >= FIRST_UNREDUCED_STATUS => c.unreduced = Some(s),
+                (false, false) => {}
+            }
+            self.cells.entry(key).or_default().merge(&c);
+        }
     }
 
-    /// Merges another accumulator into this one (samples appended in order).
+    /// Records that every line seen so far has soundings in file `name`.
+    pub fn set_file(&mut self, name: &str) {
+        for l in self.lines.values_mut() {
+            if !l.files.contains(name) {
+                l.files.insert(name.to_string());
+            }
+        }
+    }
+
+    /// Merges another accumulator into this one.
     pub fn merge(&mut self, o: QaAccumulator) {
         for (a, b) in self.zones.iter_mut().zip(&o.zones) {
             a.0.merge(&b.0);
             a.1.merge(&b.1);
+            a.2.merge(&b.2);
         }
+        self.no_zone.merge(&o.no_zone);
         for (k, g) in o.lines {
             match self.lines.get_mut(&k) {
                 Some(a) => a.merge(&g),
@@ -281,9 +528,22 @@ impl QaAccumulator {
                 }
             }
         }
-        self.samples.extend(o.samples);
+        for (k, c) in o.cells {
+            self.cells.entry(k).or_default().merge(&c);
+        }
+    }
+
+    /// The map's cells in a fixed order (by key).
+    pub fn sorted_cells(&self) -> Vec<(CellKey, MapCell)> {
+        let mut v: Vec<(CellKey, MapCell)> = self.cells.iter().map(|(k, c)| (*k, *c)).collect();
+        v.sort_by_key(|(k, _)| *k);
+        v
     }
 }
+
+/// Status indices from this one on are soundings not reduced (`SoundingStatus::ALL` order:
+/// reduced, gap_filled, then the four kinds not reduced).
+pub const FIRST_UNREDUCED_STATUS: usize = 2;
 
 /// Share within one order.
 #[derive(Debug, Clone, Serialize, PartialEq)]
@@ -310,6 +570,9 @@ pub struct ComponentShare {
     pub mean_share: f64,
     /// 95th percentile over soundings of that share (rounded up to [`SHARE_DECIMALS`]).
     pub p95_share: f64,
+    /// Root mean square over soundings of the component's standard uncertainty, metres (to
+    /// nearest [`METRE_DECIMALS`]): the budget in metres.
+    pub rms_m: f64,
 }
 
 /// The uncertainty budget of a group.
@@ -317,6 +580,9 @@ pub struct ComponentShare {
 pub struct BudgetSummary {
     /// Soundings in the budget.
     pub soundings: u64,
+    /// Root mean square of u_tvu over the soundings, metres (the components' `rms_m` in
+    /// quadrature, before rounding).
+    pub rms_u_tvu_m: f64,
     /// Components, in [`BUDGET_COMPONENTS`] order.
     pub components: Vec<ComponentShare>,
     /// The component with the largest mean share.
@@ -344,15 +610,33 @@ pub struct GroupSummary {
     /// Acceptance share minus share within the chosen order, when it fails (0–1; the
     /// acceptance share rounded up to [`SHARE_DECIMALS`]).
     pub shortfall: Option<f64>,
-    /// The uncertainty budget (survey and zones only).
+    /// The uncertainty budget.
     pub budget: Option<BudgetSummary>,
+    /// Every sounding of the group, whatever its status.
+    pub all_soundings: u64,
+    /// Every sounding of the group by status.
+    pub by_status: StatusCounts,
+    /// Soundings within the chosen order as a share of `all_soundings` (0–1, rounded down to
+    /// [`SHARE_DECIMALS`]): those not reduced count as not within.
+    pub share_within_of_all: f64,
+    /// Drying heights: reduced soundings whose reduced depth is negative (above chart datum).
+    pub drying_heights: u64,
+    /// The largest U95/allowed for the chosen order, rounded up to [`RATIO_DECIMALS`]; `None`
+    /// when nothing was judged.
+    pub max_ratio_chosen: Option<f64>,
+    /// The uncertainty inputs this group's tides were made with that fell back to the project's
+    /// defaults (a zone: its own and its gauges'; a line: those of the zones it crosses; the
+    /// survey: all). Filled by the caller.
+    pub defaulted_inputs: Vec<String>,
 }
 
-/// Summarises a group.
+/// Summarises a group: its judged soundings `g`, their budget, and every sounding's status.
+#[allow(clippy::too_many_arguments)]
 pub fn summarise_group(
     id: &str,
     g: &GroupQa,
     budget: Option<&BudgetQa>,
+    tally: &StatusTally,
     orders: &[SurveyOrder],
     n_builtin: usize,
     chosen: usize,
@@ -393,6 +677,15 @@ pub fn summarise_group(
         shortfall: (!meets)
             .then(|| from_share_units(acceptance_units.saturating_sub(chosen_units))),
         budget: budget.map(BudgetQa::summary),
+        all_soundings: tally.by_status.total(),
+        by_status: tally.by_status,
+        share_within_of_all: from_share_units(share_units(
+            g.within[chosen],
+            tally.by_status.total(),
+        )),
+        drying_heights: tally.drying,
+        max_ratio_chosen: g.max_ratio.map(|r| round_up(r, RATIO_DECIMALS)),
+        defaulted_inputs: Vec::new(),
     }
 }
 
@@ -431,9 +724,20 @@ mod tests {
             within: vec![within; orders.len()],
             ratio_hist: [0; RATIO_BINS],
             ratio_sketch: QuantileSketch::new(),
+            max_ratio: None,
         };
+        let tally = StatusTally::default();
         let at = |n, within, acceptance| {
-            summarise_group("g", &group(n, within), None, &orders, 5, 2, acceptance)
+            summarise_group(
+                "g",
+                &group(n, within),
+                None,
+                &tally,
+                &orders,
+                5,
+                2,
+                acceptance,
+            )
         };
         // 2 of 3 is 0.6667: rounded down, 0.666.
         assert_eq!(at(3, 2, 0.95).share_within_chosen, 0.666);
@@ -493,6 +797,29 @@ mod tests {
         assert_eq!(BudgetQa::default().summary().dominant_component, "none");
     }
 
+    /// A judged, reduced sounding of zone `zone` on `line` at `t_s`.
+    fn judged_row<'a>(
+        zone: usize,
+        line: &'a str,
+        within: &'a [bool],
+        ratio: f64,
+        var_m2: [f64; 6],
+    ) -> QaRow<'a> {
+        QaRow {
+            zone: Some(zone),
+            line,
+            t_s: Some(100.0),
+            status: 0,
+            at: None,
+            drying: false,
+            judged: Some(Judged {
+                within,
+                ratio,
+                var_m2,
+            }),
+        }
+    }
+
     #[test]
     fn strictest_order_met_and_shortfall() {
         let orders = s44_orders();
@@ -502,35 +829,106 @@ mod tests {
         for i in 0..100 {
             let r = if i < 96 { 0.5 } else { 1.2 };
             let within = [r, r, 0.52, 0.52, 0.3].map(|r| r <= 1.0);
-            acc.add(
+            acc.add(&judged_row(
                 0,
                 if i % 2 == 0 { "L1" } else { "L2" },
                 &within,
                 0.52,
-                &[1.0, 0.0, 0.0, 0.0, 0.0, 0.0],
-            );
+                [1.0, 0.0, 0.0, 0.0, 0.0, 0.0],
+            ));
         }
         acc.settle();
+        let t = acc.overall_tally;
         let s = summarise_group(
             "survey",
             &acc.overall,
             Some(&acc.overall_budget),
+            &t,
             &orders,
             5,
             2,
             0.95,
         );
         assert_eq!(s.strictest_order_met.as_deref(), Some("exclusive"));
-        let s = summarise_group("survey", &acc.overall, None, &orders, 5, 0, 0.97);
+        let s = summarise_group("survey", &acc.overall, None, &t, &orders, 5, 0, 0.97);
         assert_eq!(s.strictest_order_met.as_deref(), Some("1a"));
         assert!(!s.meets_chosen);
         assert!((s.shortfall.unwrap() - 0.01).abs() < 1e-12);
         // The 4 bad soundings are 2 per line: each line 48/50 = 0.96 within exclusive. The
         // ratio percentile is kept for the accumulator's chosen order (1a), where every
         // sounding's ratio is 0.52: the percentile is that value itself.
-        let l1 = summarise_group("L1", &acc.lines["L1"], None, &orders, 5, 0, 0.95);
+        let l = &acc.lines["L1"];
+        let l1 = summarise_group("L1", &l.qa, None, &l.tally, &orders, 5, 0, 0.95);
         assert!((l1.share_within_chosen - 0.96).abs() < 1e-12);
         assert_eq!(l1.p95_ratio_chosen, 0.52);
+        assert_eq!(l1.max_ratio_chosen, Some(0.52));
+        assert_eq!(l1.all_soundings, 50);
+    }
+
+    #[test]
+    fn every_sounding_is_counted_and_the_map_keeps_the_worst_of_a_cell() {
+        let orders = s44_orders();
+        let mut acc = QaAccumulator::new(orders.len(), 1, 2);
+        let yes = [true; 5];
+        let no = [false; 5];
+        // One map cell (10 m wide) holds three judged soundings, ratios 0.4, 1.7 and 0.9, one
+        // of them a drying height, and one sounding outside the zoning; a second cell only
+        // an unreadable row's line. A row with no position (bad input) is counted, not mapped.
+        let mut row = judged_row(0, "L1", &yes, 0.4, [1e-4; 6]);
+        row.at = Some((0, 1.0, 1.0, 10.0));
+        acc.add(&row);
+        let mut row = judged_row(0, "L1", &no, 1.7, [4e-4; 6]);
+        row.at = Some((0, 9.0, 2.0, 10.0));
+        acc.add(&row);
+        let mut row = judged_row(1, "L2", &yes, 0.9, [1e-4; 6]);
+        row.at = Some((0, 5.0, 5.0, 10.0));
+        row.drying = true;
+        acc.add(&row);
+        acc.add(&QaRow {
+            zone: None,
+            line: "L2",
+            t_s: Some(50.0),
+            status: 2,
+            at: Some((0, 3.0, 3.0, 10.0)),
+            drying: false,
+            judged: None,
+        });
+        acc.add(&QaRow {
+            zone: None,
+            line: "L3",
+            t_s: None,
+            status: 5,
+            at: None,
+            drying: false,
+            judged: None,
+        });
+        acc.settle();
+        let t = acc.overall_tally;
+        assert_eq!(t.by_status.0, [3, 0, 1, 0, 0, 1]);
+        assert_eq!(t.drying, 1);
+        assert_eq!(acc.zones[1].2.drying, 1);
+        assert_eq!(acc.no_zone.by_status.total(), 2);
+        let s = summarise_group("survey", &acc.overall, None, &t, &orders, 5, 1, 0.95);
+        // 2 of 3 judged within (0.666), 2 of all 5 (0.4).
+        assert_eq!(s.share_within_chosen, 0.666);
+        assert_eq!(s.share_within_of_all, 0.4);
+        assert_eq!(s.max_ratio_chosen, Some(1.7));
+        let cells = acc.sorted_cells();
+        assert_eq!(cells.len(), 1);
+        let c = cells[0].1;
+        assert_eq!(c.worst.map(|m| m.value), Some(1.7));
+        assert_eq!(c.drying.map(|m| (m.x, m.y)), Some((5.0, 5.0)));
+        assert_eq!(c.unreduced.map(|m| m.value), Some(2.0));
+        let l2 = &acc.lines["L2"];
+        assert_eq!(l2.span_s, Some((50.0, 100.0)));
+        assert_eq!(l2.zones.iter().copied().collect::<Vec<_>>(), [1]);
+        acc.set_file("a.csv");
+        assert!(acc.lines["L3"].files.contains("a.csv"));
+        // The budget in metres: RMS of each component's u over the zone's two soundings,
+        // sqrt((1e-4 + 4e-4) / 2) = 0.0158 m; u_tvu in quadrature over six, 0.0387 m.
+        let b = acc.zones[0].1.summary();
+        assert_eq!(b.components[0].rms_m, 0.0158);
+        assert_eq!(b.rms_u_tvu_m, 0.0387);
     }
 
     #[test]
@@ -543,28 +941,32 @@ mod tests {
             let r = i as f64 / 25.0;
             let v = [0.01, 0.001 * i as f64, 0.002, 0.0, 0.003, 0.004];
             let w = [r <= 1.0; 5];
-            one.add(i % 2, &format!("L{}", i % 3), &w, r, &v);
-            if i < 20 { &mut a } else { &mut b }.add(i % 2, &format!("L{}", i % 3), &w, r, &v);
+            let line = format!("L{}", i % 3);
+            let mut row = judged_row(i % 2, &line, &w, r, v);
+            row.at = Some((0, i as f64, 0.0, 7.0));
+            row.drying = i % 7 == 0;
+            one.add(&row);
+            if i < 20 { &mut a } else { &mut b }.add(&row);
         }
         a.merge(b);
         one.settle();
-        let s1 = summarise_group(
-            "x",
-            &one.zones[1].0,
-            Some(&one.zones[1].1),
-            &orders,
-            5,
-            2,
-            0.95,
-        );
-        let s2 = summarise_group("x", &a.zones[1].0, Some(&a.zones[1].1), &orders, 5, 2, 0.95);
+        a.settle();
+        let sum = |acc: &QaAccumulator| {
+            let z = &acc.zones[1];
+            summarise_group("x", &z.0, Some(&z.1), &z.2, &orders, 5, 2, 0.95)
+        };
+        let (s1, s2) = (sum(&one), sum(&a));
         assert_eq!(s1.orders, s2.orders);
         assert_eq!(s1.p95_ratio_chosen, s2.p95_ratio_chosen);
+        assert_eq!(s1.by_status, s2.by_status);
+        assert_eq!(s1.drying_heights, s2.drying_heights);
         let (b1, b2) = (s1.budget.unwrap(), s2.budget.unwrap());
         for (c1, c2) in b1.components.iter().zip(&b2.components) {
             assert!((c1.mean_share - c2.mean_share).abs() < 1e-12);
             assert_eq!(c1.p95_share, c2.p95_share);
+            assert_eq!(c1.rms_m, c2.rms_m);
         }
         assert_eq!(one.lines.len(), a.lines.len());
+        assert_eq!(one.sorted_cells(), a.sorted_cells());
     }
 }

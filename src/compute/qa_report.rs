@@ -9,17 +9,20 @@ use serde::Serialize;
 
 use super::qa::GroupSummary;
 use super::reduce::StatusCounts;
+
 use super::uncertainty::SurveyOrder;
 
 /// Identifier of the report layout; changes only when a field changes meaning or goes away.
-pub const QA_SCHEMA: &str = "ebbwise-qa-report/2";
+pub const QA_SCHEMA: &str = "ebbwise-qa-report/3";
 
 /// A zone or line that does not meet the chosen order.
 #[derive(Debug, Clone, Serialize)]
 pub struct Failing {
     /// Zone or line id.
     pub id: String,
-    /// Soundings assessed.
+    /// Every sounding of the group, whatever its status.
+    pub all_soundings: u64,
+    /// Soundings judged (reduced, with an uncertainty).
     pub soundings: u64,
     /// Share within the chosen order (0–1).
     pub share_within: f64,
@@ -44,6 +47,9 @@ pub struct ZoneTideSeries {
     /// Times as UTC seconds (for plotting; not in the JSON).
     #[serde(skip)]
     pub times_s: Vec<f64>,
+    /// The gauges whose samples the zone's plot overlays (those feeding it, or blended).
+    #[serde(skip)]
+    pub gauges: Vec<String>,
 }
 
 impl ZoneTideSeries {
@@ -55,8 +61,88 @@ impl ZoneTideSeries {
             tide_m: Vec::with_capacity(n),
             u95_tide_m: Vec::with_capacity(n),
             times_s: Vec::with_capacity(n),
+            gauges: Vec::new(),
         }
     }
+}
+
+/// A survey line (the unit a crew re-runs): its QA counts and where and when it ran.
+#[derive(Debug, Clone, Serialize)]
+pub struct LineSummary {
+    /// The line's counts, shares and budget (`id` is the line's id, or the soundings file's
+    /// name when the file has no line column).
+    #[serde(flatten)]
+    pub group: GroupSummary,
+    /// The soundings files (launch files) its soundings come from.
+    pub files: Vec<String>,
+    /// Its first readable sounding's time, ISO 8601 UTC.
+    pub first_utc: Option<String>,
+    /// Its last readable sounding's time, ISO 8601 UTC.
+    pub last_utc: Option<String>,
+    /// The zones its soundings lie in.
+    pub zones_crossed: Vec<String>,
+}
+
+/// One input file of the run and its SHA-256.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct InputFile {
+    /// What the file is (`project`, `zoning`, `gauge record 'A'`, `soundings`, …).
+    pub role: String,
+    /// Path as used.
+    pub path: String,
+    /// SHA-256 of its content, hex.
+    pub sha256: String,
+}
+
+/// Where the report's numbers came from.
+#[derive(Debug, Clone, Serialize)]
+pub struct ReportProvenance {
+    /// ebbwise version.
+    pub ebbwise_version: &'static str,
+    /// When the report was made, ISO 8601 UTC.
+    pub created_utc: String,
+    /// Project file.
+    pub project_file: String,
+    /// Every input file with its SHA-256.
+    pub inputs: Vec<InputFile>,
+}
+
+/// A gauge's samples over the survey period, for the tide plots (HTML only).
+#[derive(Debug, Clone, Default)]
+pub struct GaugeTrace {
+    /// Gauge id.
+    pub gauge: String,
+    /// Samples used (time UTC seconds, level above chart datum m), gap-filled ones included.
+    pub used: Vec<(f64, f64)>,
+    /// Of those, the samples gap filling added.
+    pub filled: Vec<(f64, f64)>,
+    /// Samples quality control set aside, with their reading where it is a number.
+    pub flagged: Vec<(f64, f64)>,
+}
+
+/// The difference of one pair of gauges compared through the zoning's correctors, over the
+/// survey period.
+#[derive(Debug, Clone, Serialize)]
+pub struct PairDifference {
+    /// Pair name (as `gauge-differences.csv` of `ebbwise qc` names it).
+    pub pair: String,
+    /// What `a` is.
+    pub a: String,
+    /// What `b` is.
+    pub b: String,
+    /// Differences within the survey period.
+    pub n: usize,
+    /// Mean of `a − b`, metres.
+    pub mean_m: f64,
+    /// Largest |a − b|, metres.
+    pub max_abs_m: f64,
+    /// Whether `ebbwise qc` would flag the pair (over the whole records).
+    pub flagged: bool,
+    /// Why.
+    pub findings: Vec<String>,
+    /// The differences (time UTC seconds, metres), for the plot (HTML only).
+    #[serde(skip)]
+    pub series: Vec<(f64, f64)>,
 }
 
 /// A gauge's uncertainty inputs as used.
@@ -140,15 +226,39 @@ pub struct RatioHistogram {
     pub counts: Vec<u64>,
 }
 
-/// A reduced sounding on the map.
+/// What a map point shows.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum MapMark {
+    /// A judged sounding (the worst of its cell), by its U95/allowed for the chosen order.
+    Judged(f64),
+    /// A drying height (a reduced depth below zero).
+    Drying,
+    /// A sounding not reduced, by its status word.
+    Unreduced(&'static str),
+}
+
+/// A sounding on the map.
 #[derive(Debug, Clone, Copy)]
 pub struct MapPoint {
     /// Longitude, degrees.
     pub lon: f64,
     /// Latitude, degrees.
     pub lat: f64,
-    /// U95/allowed for the chosen order.
-    pub ratio: f64,
+    /// What it shows.
+    pub mark: MapMark,
+}
+
+/// A gauge on the map.
+#[derive(Debug, Clone)]
+pub struct MapGauge {
+    /// Gauge id.
+    pub id: String,
+    /// Longitude, degrees.
+    pub lon: f64,
+    /// Latitude, degrees.
+    pub lat: f64,
+    /// A virtual gauge (constants only, no record).
+    pub virtual_gauge: bool,
 }
 
 /// The QA report.
@@ -184,7 +294,9 @@ pub struct QaReport {
     /// Per zone.
     pub zones: Vec<GroupSummary>,
     /// Per survey line.
-    pub lines: Vec<GroupSummary>,
+    pub lines: Vec<LineSummary>,
+    /// The soundings in no zone (outside the zoning, or unreadable), by status.
+    pub no_zone: StatusCounts,
     /// Zones that do not meet the chosen order.
     pub failing_zones: Vec<Failing>,
     /// Lines that do not meet the chosen order.
@@ -202,9 +314,26 @@ pub struct QaReport {
     pub qc_ran: bool,
     /// Per gauge, project order: how many samples quality control set aside.
     pub qc_gauges: Vec<GaugeQc>,
-    /// Map points (HTML only).
+    /// Where the numbers came from.
+    pub provenance: ReportProvenance,
+    /// The gauge pairs compared through the zoning's correctors, over the survey period.
+    pub gauge_differences: Vec<PairDifference>,
+    /// The exports of this run: failing and unreduced soundings as GeoJSON (file names in the
+    /// output folder).
+    pub exports: Vec<String>,
+    /// Map points: per map cell the worst judged sounding, a drying height and an unreduced
+    /// sounding, where the cell has one (HTML only).
     #[serde(skip)]
     pub map_points: Vec<MapPoint>,
+    /// Map cells over the longer side of the zoning (HTML only, for the thinning note).
+    #[serde(skip)]
+    pub map_cells_across: f64,
+    /// Gauges and virtual gauges on the map (HTML only).
+    #[serde(skip)]
+    pub map_gauges: Vec<MapGauge>,
+    /// Each gauge's samples over the survey period (HTML only).
+    #[serde(skip)]
+    pub gauge_traces: Vec<GaugeTrace>,
     /// Zone polygons, lon/lat (HTML only).
     #[serde(skip)]
     pub zone_polygons: Vec<(String, geo::MultiPolygon<f64>)>,
@@ -244,11 +373,13 @@ pub struct GaugeQc {
     pub set_aside: Option<usize>,
 }
 
-/// The entry of `failing_zones` or `failing_lines` for a group that has soundings and does
-/// not meet the chosen order.
+/// The entry of `failing_zones` or `failing_lines` for a group that has soundings (judged or
+/// not: a line with no gauge data fails, with nothing judged) and does not meet the chosen
+/// order.
 pub fn failing(g: &GroupSummary) -> Option<Failing> {
-    (!g.meets_chosen && g.soundings > 0).then(|| Failing {
+    (!g.meets_chosen && g.all_soundings > 0).then(|| Failing {
         id: g.id.clone(),
+        all_soundings: g.all_soundings,
         soundings: g.soundings,
         share_within: g.share_within_chosen,
         shortfall: g.shortfall.unwrap_or(0.0),

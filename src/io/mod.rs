@@ -11,6 +11,7 @@
 //! * [`correctors_file`] — tide-correction files (per zone, per sounding) and their sidecar.
 //! * [`crs`] — coordinate transformations (PROJ).
 //! * [`report_html`] — the QA report page (HTML + SVG).
+//! * [`sounding_export`] — the failing and the unreduced soundings as GeoJSON.
 //! * [`constants`] — harmonic-constants files (TOML).
 //! * [`datums_file`] — tidal-datums files (TOML).
 //! * [`cotidal_map`] — the co-tidal map: its lines as GeoJSON and the map as SVG.
@@ -32,6 +33,7 @@ pub mod numfmt;
 pub mod project;
 pub mod qc_svg;
 pub mod report_html;
+pub mod sounding_export;
 pub mod soundings;
 pub mod text;
 pub mod timefmt;

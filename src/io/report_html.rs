@@ -1,4 +1,5 @@
-//! The QA report as one self-contained HTML page (inline CSS and SVG; no script, no network).
+//! The QA report as one self-contained HTML page (inline CSS and SVG, and a few lines of inline
+//! script that only sort the lines table; nothing fetched from the network).
 //!
 //! Four plots, drawn here as SVG: a map of the zones with the soundings coloured by U95/allowed,
 //! each zone's tide with its 95 % band over the survey period, the uncertainty budget as stacked
@@ -8,7 +9,7 @@
 use std::fmt::Write;
 
 use crate::compute::qa::BUDGET_COMPONENTS;
-use crate::compute::qa_report::QaReport;
+use crate::compute::qa_report::{MapMark, QaReport};
 
 /// Colours of the budget components, in [`BUDGET_COMPONENTS`] order.
 const COMPONENT_COLOURS: [&str; 6] = [
@@ -299,13 +300,79 @@ fn map_svg(r: &QaReport, out: &mut String) {
             labels.push((x(cx.0 / cx.2), y(cx.1 / cx.2), esc(id)));
         }
     }
-    for p in &r.map_points {
+    // Judged soundings, the worst drawn last (on top); then drying heights and the soundings
+    // not reduced, each in its own symbol above them.
+    let mut judged: Vec<(f64, f64, f64)> = r
+        .map_points
+        .iter()
+        .filter_map(|p| match p.mark {
+            MapMark::Judged(v) => Some((v, p.lon, p.lat)),
+            _ => None,
+        })
+        .collect();
+    judged.sort_by(|a, b| a.0.total_cmp(&b.0));
+    out.push_str(r#"<g class="judged">"#);
+    for (v, lo, la) in judged {
         let _ = write!(
             out,
             r#"<circle cx="{:.1}" cy="{:.1}" r="1.6" fill="{}"/>"#,
-            x(p.lon),
-            y(p.lat),
-            ratio_colour(p.ratio)
+            x(lo),
+            y(la),
+            ratio_colour(v)
+        );
+    }
+    out.push_str("</g>");
+    out.push_str(r##"<g class="drying" fill="none" stroke="#0a3d62" stroke-width="1.1">"##);
+    for p in r.map_points.iter().filter(|p| p.mark == MapMark::Drying) {
+        let _ = write!(
+            out,
+            r#"<rect x="{:.1}" y="{:.1}" width="4.4" height="4.4"/>"#,
+            x(p.lon) - 2.2,
+            y(p.lat) - 2.2
+        );
+    }
+    out.push_str("</g>");
+    out.push_str(r##"<g class="unreduced" stroke="#4a2040" stroke-width="1.2">"##);
+    for p in &r.map_points {
+        if let MapMark::Unreduced(st) = p.mark {
+            let (cx, cy) = (x(p.lon), y(p.lat));
+            let _ = write!(
+                out,
+                r#"<path d="M{:.1},{:.1}L{:.1},{:.1}M{:.1},{:.1}L{:.1},{:.1}"><title>{st}</title></path>"#,
+                cx - 2.2,
+                cy - 2.2,
+                cx + 2.2,
+                cy + 2.2,
+                cx - 2.2,
+                cy + 2.2,
+                cx + 2.2,
+                cy - 2.2
+            );
+        }
+    }
+    out.push_str("</g>");
+    // Gauges: filled triangles; virtual gauges (constants only): hollow.
+    for g in &r.map_gauges {
+        let (gx, gy) = (x(g.lon), y(g.lat));
+        if gx < 0.0 || gx > w || gy < 0.0 || gy > h {
+            continue;
+        }
+        let fill = if g.virtual_gauge {
+            "#ffffff"
+        } else {
+            "#111111"
+        };
+        let _ = write!(
+            out,
+            r##"<path class="gauge" d="M{gx:.1},{:.1}L{:.1},{:.1}L{:.1},{:.1}Z" fill="{fill}" stroke="#111" stroke-width="1.3"/><text x="{:.1}" y="{:.1}" class="glabel">{}</text>"##,
+            gy - 6.0,
+            gx + 5.5,
+            gy + 4.0,
+            gx - 5.5,
+            gy + 4.0,
+            gx + 8.0,
+            gy + 4.0,
+            esc(&g.id)
         );
     }
     for (lx, ly, id) in labels {
@@ -359,6 +426,45 @@ fn map_svg(r: &QaReport, out: &mut String) {
         h / 2.0,
         h / 2.0
     );
+    // Scale bar (bottom left, along the meridian: the plot's y scale is s px per degree of
+    // latitude) and north arrow (bottom right; the plot's y axis points north).
+    let m_per_px = crate::compute::continuous::EARTH_MEAN_RADIUS_M * (1.0 / s).to_radians();
+    let target_m = 0.2 * (w - 2.0 * m) * m_per_px;
+    let mag = 10f64.powf(target_m.log10().floor());
+    let bar_m = [10.0, 5.0, 2.0, 1.0]
+        .iter()
+        .map(|f| f * mag)
+        .find(|v| *v <= target_m)
+        .unwrap_or(mag);
+    let bar_px = bar_m / m_per_px;
+    let (bx, by) = (m + 12.0, h - m - 14.0);
+    let label = if bar_m >= 1000.0 {
+        format!("{} km", bar_m / 1000.0)
+    } else {
+        format!("{bar_m} m")
+    };
+    let _ = write!(
+        out,
+        r##"<g class="scalebar"><rect x="{bx}" y="{by}" width="{:.1}" height="5" fill="#111"/><rect x="{:.1}" y="{by}" width="{:.1}" height="5" fill="#fff" stroke="#111"/><text x="{bx}" y="{}" class="tick">0</text><text x="{:.1}" y="{}" class="tick" text-anchor="middle">{label}</text></g>"##,
+        bar_px / 2.0,
+        bx + bar_px / 2.0,
+        bar_px / 2.0,
+        by - 4.0,
+        bx + bar_px,
+        by - 4.0
+    );
+    let (nx, ny) = (w - m - 18.0, h - m - 48.0);
+    let _ = write!(
+        out,
+        r##"<g class="north"><path d="M{nx},{ny}L{:.1},{:.1}L{nx},{:.1}Z" fill="#111"/><path d="M{nx},{ny}L{:.1},{:.1}L{nx},{:.1}Z" fill="#fff" stroke="#111"/><text x="{nx}" y="{:.1}" class="axis" text-anchor="middle">N</text></g>"##,
+        nx + 7.0,
+        ny + 26.0,
+        ny + 20.0,
+        nx - 7.0,
+        ny + 26.0,
+        ny + 20.0,
+        ny - 4.0
+    );
     // Legend.
     let items = [
         ("≤ 0.5", 0.4),
@@ -384,11 +490,87 @@ fn map_svg(r: &QaReport, out: &mut String) {
             yy + 4.0
         );
     }
+    let (lx, ly) = (w - 180.0, 32.0 + 16.0 * items.len() as f64);
+    let _ = write!(
+        out,
+        r##"<rect x="{:.1}" y="{:.1}" width="8" height="8" fill="none" stroke="#0a3d62" stroke-width="1.3"/><text x="{:.1}" y="{:.1}" class="tick">drying height</text><path d="M{:.1},{:.1}L{:.1},{:.1}M{:.1},{:.1}L{:.1},{:.1}" stroke="#4a2040" stroke-width="1.5"/><text x="{:.1}" y="{:.1}" class="tick">not reduced</text><path d="M{lx},{:.1}L{:.1},{:.1}L{:.1},{:.1}Z" fill="#111"/><text x="{:.1}" y="{:.1}" class="tick">gauge (hollow: virtual)</text>"##,
+        lx - 4.0,
+        ly - 4.0,
+        lx + 12.0,
+        ly + 4.0,
+        lx - 4.0,
+        ly + 12.0,
+        lx + 4.0,
+        ly + 20.0,
+        lx - 4.0,
+        ly + 20.0,
+        lx + 4.0,
+        ly + 12.0,
+        lx + 12.0,
+        ly + 20.0,
+        ly + 27.0,
+        lx + 5.0,
+        ly + 36.0,
+        lx - 5.0,
+        ly + 36.0,
+        lx + 12.0,
+        ly + 36.0
+    );
     out.push_str("</svg>");
 }
 
-fn tide_svg(r: &QaReport, out: &mut String) {
-    let (w, h, ml, mr, mt, mb) = (720.0, 380.0, 60.0, 120.0, 20.0, 50.0);
+/// `t_s` as a UTC clock time, `HH:MM`.
+fn clock(t_s: f64) -> String {
+    chrono::DateTime::from_timestamp(t_s.round() as i64, 0)
+        .map(|d| d.format("%H:%M").to_string())
+        .unwrap_or_default()
+}
+
+/// Clock ticks over `[t0, t1]`: whole hours (1, 2, 3, 6 or 12 h apart, about five).
+fn clock_ticks(t0: f64, t1: f64) -> Vec<f64> {
+    let span_h = (t1 - t0) / 3600.0;
+    let step_h = [1.0, 2.0, 3.0, 6.0, 12.0, 24.0]
+        .into_iter()
+        .find(|h| span_h / h <= 6.0)
+        .unwrap_or(24.0);
+    let step = step_h * 3600.0;
+    let mut t = (t0 / step).ceil() * step;
+    let mut out = Vec::new();
+    while t <= t1 {
+        out.push(t);
+        t += step;
+    }
+    out
+}
+
+/// The instants where a zone's series has no tide, as (from, to) runs of the grid.
+fn tide_gaps(s: &crate::compute::qa_report::ZoneTideSeries) -> Vec<(f64, f64)> {
+    let mut gaps = Vec::new();
+    let mut open: Option<f64> = None;
+    for (t, v) in s.times_s.iter().zip(&s.tide_m) {
+        match (v, open) {
+            (None, None) => open = Some(*t),
+            (Some(_), Some(a)) => {
+                gaps.push((a, *t));
+                open = None;
+            }
+            _ => {}
+        }
+    }
+    if let (Some(a), Some(b)) = (open, s.times_s.last()) {
+        gaps.push((a, *b));
+    }
+    gaps
+}
+
+/// Gauge sample colours in the tide panels (cycled): dark greys and browns, apart from the
+/// zones' colours.
+const GAUGE_COLOURS: [&str; 4] = ["#2b2b2b", "#7a5c3a", "#5a6b7b", "#8a8a8a"];
+
+/// The tide per zone as small multiples on one scale: the zone's tide and its 95 % band, the
+/// samples of the gauges feeding it (used, gap-filled, set aside by QC), and each stretch with
+/// no tide shaded and labelled. A UTC clock axis.
+fn tide_panels(r: &QaReport, out: &mut String) {
     let t0 = r
         .tide_series
         .iter()
@@ -411,61 +593,89 @@ fn tide_svg(r: &QaReport, out: &mut String) {
             }
         }
     }
+    for g in &r.gauge_traces {
+        for (t, h) in g.used.iter().chain(&g.flagged) {
+            if *t >= t0 && *t <= t1 {
+                lo = lo.min(*h);
+                hi = hi.max(*h);
+            }
+        }
+    }
     if t1.partial_cmp(&t0) != Some(std::cmp::Ordering::Greater) || !lo.is_finite() {
+        out.push_str("<p>No tide over the survey period.</p>");
         return;
     }
     let (lo, hi) = (lo - 0.1, hi + 0.1);
-    let hours = (t1 - t0) / 3600.0;
-    let x = |t: f64| ml + (t - t0) / 3600.0 / hours * (w - ml - mr);
+    let (w, h, ml, mr, mt, mb) = (360.0, 190.0, 44.0, 10.0, 22.0, 34.0);
+    let x = |t: f64| ml + (t - t0) / (t1 - t0) * (w - ml - mr);
     let y = |v: f64| mt + (hi - v) / (hi - lo) * (h - mt - mb);
-    let _ = write!(
-        out,
-        r#"<svg class="plot" viewBox="0 0 {w} {h}" role="img" aria-labelledby="tide-title"><title id="tide-title">Tide above chart datum per zone with its 95 % band</title>"#
-    );
-    let yt = ticks(lo, hi, 6);
-    let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };
-    for v in &yt {
-        let _ = write!(
-            out,
-            r##"<line x1="{ml}" y1="{0:.1}" x2="{1}" y2="{0:.1}" stroke="#e3e8ee"/><text x="{2}" y="{0:.1}" dy="4" class="tick" text-anchor="end">{3}</text>"##,
-            y(*v),
-            w - mr,
-            ml - 6.0,
-            fmt_tick(*v, ys)
-        );
-    }
-    let start_label = r
-        .tide_series
-        .first()
-        .and_then(|s| s.times_utc.first())
-        .cloned()
+    let date = chrono::DateTime::from_timestamp(t0.round() as i64, 0)
+        .map(|d| d.format("%Y-%m-%d").to_string())
         .unwrap_or_default();
-    for hr in ticks(0.0, hours, 8) {
-        let xx = x(t0 + hr * 3600.0);
-        let _ = write!(
-            out,
-            r##"<line x1="{xx:.1}" y1="{0}" x2="{xx:.1}" y2="{1}" stroke="#555"/><text x="{xx:.1}" y="{2}" class="tick" text-anchor="middle">{3}</text>"##,
-            h - mb,
-            h - mb + 5.0,
-            h - mb + 18.0,
-            fmt_tick(hr, 1.0)
-        );
-    }
-    let _ = write!(
-        out,
-        r#"<text x="{}" y="{}" class="axis" text-anchor="middle">Hours after {} (UTC)</text>"#,
-        (ml + w - mr) / 2.0,
-        h - 10.0,
-        esc(&start_label)
-    );
-    let _ = write!(
-        out,
-        r#"<text x="16" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 16 {0})">Tide above chart datum (m)</text>"#,
-        (mt + h - mb) / 2.0
-    );
+    out.push_str(r#"<div class="panels">"#);
     for (i, s) in r.tide_series.iter().enumerate() {
         let col = ZONE_COLOURS[i % ZONE_COLOURS.len()];
-        // Band and line, split where there is no data.
+        let _ = write!(
+            out,
+            r#"<figure class="panel tide-panel"><svg class="small" viewBox="0 0 {w} {h}" role="img" aria-label="Tide in zone {0}"><text x="{ml}" y="14" class="ptitle">zone {0}</text>"#,
+            esc(&s.zone)
+        );
+        // Gaps first, beneath everything; a label that would overlap the one before it goes a
+        // row lower (about 5 px a character at the label's size).
+        let mut rows_end: Vec<f64> = Vec::new();
+        for (a, b) in tide_gaps(s) {
+            let (xa, xb) = (x(a), x(b).max(x(a) + 2.0));
+            let text = format!("no tide {}–{}", clock(a), clock(b));
+            let half = 2.6 * text.chars().count() as f64;
+            let cx = ((xa + xb) / 2.0).clamp(ml + half, w - mr - half);
+            let row = rows_end
+                .iter()
+                .position(|end| *end < cx - half)
+                .unwrap_or(rows_end.len());
+            if row == rows_end.len() {
+                rows_end.push(cx + half);
+            } else {
+                rows_end[row] = cx + half;
+            }
+            let _ = write!(
+                out,
+                r##"<rect class="gap" x="{xa:.1}" y="{mt}" width="{:.1}" height="{}" fill="#d9d9d9" fill-opacity="0.7"/><text x="{cx:.1}" y="{}" class="gaplabel" text-anchor="middle">{text}</text>"##,
+                xb - xa,
+                h - mt - mb,
+                mt + 10.0 + 11.0 * row as f64
+            );
+        }
+        let yt = ticks(lo, hi, 4);
+        let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };
+        for v in &yt {
+            let _ = write!(
+                out,
+                r##"<line x1="{ml}" y1="{0:.1}" x2="{1}" y2="{0:.1}" stroke="#e3e8ee"/><text x="{2}" y="{0:.1}" dy="4" class="tick" text-anchor="end">{3}</text>"##,
+                y(*v),
+                w - mr,
+                ml - 4.0,
+                fmt_tick(*v, ys)
+            );
+        }
+        let _ = write!(
+            out,
+            r#"<text x="11" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 11 {0})">above chart datum (m)</text><text x="{1}" y="{2}" class="axis" text-anchor="middle">UTC</text>"#,
+            (mt + h - mb) / 2.0,
+            (ml + w - mr) / 2.0,
+            h - 3.0
+        );
+        for t in clock_ticks(t0, t1) {
+            let _ = write!(
+                out,
+                r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4}</text>"##,
+                x(t),
+                h - mb,
+                h - mb + 4.0,
+                h - mb + 15.0,
+                clock(t)
+            );
+        }
+        // Band and line, split where there is no tide.
         let mut runs: Vec<Vec<(f64, f64, f64)>> = vec![Vec::new()];
         for ((t, v), u) in s.times_s.iter().zip(&s.tide_m).zip(&s.u95_tide_m) {
             match (v, u) {
@@ -479,57 +689,155 @@ fn tide_svg(r: &QaReport, out: &mut String) {
         }
         for run in runs.iter().filter(|r| r.len() > 1) {
             let mut band = String::new();
+            let mut line = String::new();
             for (j, (t, v, u)) in run.iter().enumerate() {
-                let _ = write!(
-                    band,
-                    "{}{:.1},{:.1} ",
-                    if j == 0 { "M" } else { "L" },
-                    x(*t),
-                    y(v + u)
-                );
+                let c = if j == 0 { "M" } else { "L" };
+                let _ = write!(band, "{c}{:.1},{:.1} ", x(*t), y(v + u));
+                let _ = write!(line, "{c}{:.1},{:.1} ", x(*t), y(*v));
             }
             for (t, v, u) in run.iter().rev() {
                 let _ = write!(band, "L{:.1},{:.1} ", x(*t), y(v - u));
             }
             let _ = write!(
                 out,
-                r#"<path d="{band}Z" fill="{col}" fill-opacity="0.12" stroke="none"/>"#
+                r#"<path d="{band}Z" fill="{col}" fill-opacity="0.15" stroke="none"/><path class="tide" d="{line}" fill="none" stroke="{col}" stroke-width="1.6"/>"#
             );
-            let mut line = String::new();
-            for (j, (t, v, _)) in run.iter().enumerate() {
+        }
+        // The feeding gauges' samples.
+        for (k, gid) in s.gauges.iter().enumerate() {
+            let Some(g) = r.gauge_traces.iter().find(|g| &g.gauge == gid) else {
+                continue;
+            };
+            let gc = GAUGE_COLOURS[k % GAUGE_COLOURS.len()];
+            let inside = |t: &f64| *t >= t0 && *t <= t1;
+            for (t, v) in g.used.iter().filter(|p| inside(&p.0)) {
                 let _ = write!(
-                    line,
-                    "{}{:.1},{:.1} ",
-                    if j == 0 { "M" } else { "L" },
+                    out,
+                    r#"<circle class="sample" cx="{:.1}" cy="{:.1}" r="1.3" fill="{gc}"/>"#,
                     x(*t),
                     y(*v)
                 );
             }
+            for (t, v) in g.filled.iter().filter(|p| inside(&p.0)) {
+                let _ = write!(
+                    out,
+                    r##"<circle class="filled" cx="{:.1}" cy="{:.1}" r="2.6" fill="none" stroke="#2e7d32" stroke-width="1"/>"##,
+                    x(*t),
+                    y(*v)
+                );
+            }
+            for (t, v) in g.flagged.iter().filter(|p| inside(&p.0)) {
+                let (cx, cy) = (x(*t), y(*v));
+                let _ = write!(
+                    out,
+                    r##"<path class="flagged" d="M{:.1},{:.1}L{:.1},{:.1}M{:.1},{:.1}L{:.1},{:.1}" stroke="#c0262d" stroke-width="1.6"/>"##,
+                    cx - 3.0,
+                    cy - 3.0,
+                    cx + 3.0,
+                    cy + 3.0,
+                    cx - 3.0,
+                    cy + 3.0,
+                    cx + 3.0,
+                    cy - 3.0
+                );
+            }
             let _ = write!(
                 out,
-                r#"<path d="{line}" fill="none" stroke="{col}" stroke-width="1.6"/>"#
+                r#"<circle cx="{:.1}" cy="9" r="2.5" fill="{gc}"/><text x="{:.1}" y="13" class="tick">{}</text>"#,
+                w - mr - 110.0 + 55.0 * k as f64,
+                w - mr - 105.0 + 55.0 * k as f64,
+                esc(gid)
             );
         }
-        let yy = mt + 14.0 + 16.0 * i as f64;
-        let _ = write!(
-            out,
-            r#"<line x1="{0}" y1="{yy}" x2="{1}" y2="{yy}" stroke="{col}" stroke-width="3"/><text x="{2}" y="{3}" class="tick">{4}</text>"#,
-            w - mr + 12.0,
-            w - mr + 32.0,
-            w - mr + 38.0,
-            yy + 4.0,
-            esc(&s.zone)
-        );
+        out.push_str("</svg></figure>");
     }
-    let yb = mt + 30.0 + 16.0 * r.tide_series.len() as f64;
+    out.push_str("</div>");
     let _ = write!(
         out,
-        r#"<text x="{0}" y="{yb}" class="tick">shaded band:</text><text x="{0}" y="{1}" class="tick">tide ± U95</text><text x="{0}" y="{2}" class="tick">(k = 1.96)</text>"#,
-        w - mr + 12.0,
-        yb + 14.0,
-        yb + 28.0
+        r#"<p class="note">Time axis: UTC clock, {date}. Line: the zone's tide above chart datum; shaded band: ± U95 (k = 1.96). Dots: the samples of the gauges feeding the zone, at the gauge (before the zone's time corrector and range ratio); green rings: samples gap filling added; red crosses: samples quality control set aside; grey: no tide for the zone's soundings.</p>"#
     );
-    out.push_str("</svg>");
+}
+
+/// Each gauge pair compared (as `ebbwise qc` compares them), its difference over the survey
+/// period as small multiples.
+fn difference_panels(r: &QaReport, out: &mut String) {
+    let with_data: Vec<_> = r.gauge_differences.iter().filter(|d| d.n > 1).collect();
+    if with_data.is_empty() {
+        out.push_str("<p>No gauge pair to compare: no zone is fed by two gauges and no gauge lies in a zone fed by another, or the pairs have no common times in the survey period.</p>");
+        return;
+    }
+    let (w, h, ml, mr, mt, mb) = (360.0, 160.0, 50.0, 10.0, 22.0, 34.0);
+    out.push_str(r#"<div class="panels">"#);
+    for d in with_data {
+        let t0 = d.series.first().map_or(0.0, |p| p.0);
+        let t1 = d.series.last().map_or(1.0, |p| p.0).max(t0 + 1.0);
+        let lim = d.series.iter().map(|p| p.1.abs()).fold(0.05, f64::max) * 1.1;
+        let x = |t: f64| ml + (t - t0) / (t1 - t0) * (w - ml - mr);
+        let y = |v: f64| mt + (lim - v) / (2.0 * lim) * (h - mt - mb);
+        let _ = write!(
+            out,
+            r##"<figure class="panel diff-panel"><svg class="small" viewBox="0 0 {w} {h}" role="img" aria-label="Difference {0}"><text x="{ml}" y="14" class="ptitle">{0}{1}</text><line x1="{ml}" y1="{2:.1}" x2="{3}" y2="{2:.1}" stroke="#888"/>"##,
+            esc(&d.pair),
+            if d.flagged { " (flagged)" } else { "" },
+            y(0.0),
+            w - mr
+        );
+        let yt = ticks(-lim, lim, 4);
+        let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };
+        for v in &yt {
+            let _ = write!(
+                out,
+                r#"<text x="{}" y="{:.1}" dy="4" class="tick" text-anchor="end">{}</text>"#,
+                ml - 4.0,
+                y(*v),
+                fmt_tick(*v, ys)
+            );
+        }
+        let _ = write!(
+            out,
+            r#"<text x="11" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 11 {0})">a − b (m)</text><text x="{1}" y="{2}" class="axis" text-anchor="middle">UTC</text>"#,
+            (mt + h - mb) / 2.0,
+            (ml + w - mr) / 2.0,
+            h - 3.0
+        );
+        for t in clock_ticks(t0, t1) {
+            let _ = write!(
+                out,
+                r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4}</text>"##,
+                x(t),
+                h - mb,
+                h - mb + 4.0,
+                h - mb + 15.0,
+                clock(t)
+            );
+        }
+        let mut line = String::new();
+        for (j, (t, v)) in d.series.iter().enumerate() {
+            let _ = write!(
+                line,
+                "{}{:.1},{:.1} ",
+                if j == 0 { "M" } else { "L" },
+                x(*t),
+                y(*v)
+            );
+        }
+        let col = if d.flagged { "#c0262d" } else { "#1f5f8b" };
+        let _ = write!(
+            out,
+            r#"<path class="difference" d="{line}" fill="none" stroke="{col}" stroke-width="1.3"/></svg><figcaption>{} − {}: mean {:+.3} m, largest |a − b| {:.3} m over {} samples{}</figcaption></figure>"#,
+            esc(&d.a),
+            esc(&d.b),
+            d.mean_m,
+            d.max_abs_m,
+            d.n,
+            if d.findings.is_empty() {
+                String::new()
+            } else {
+                format!("; {}", esc(&d.findings.join("; ")))
+            }
+        );
+    }
+    out.push_str("</div><p class=\"note\">Difference a − b in metres (y), UTC clock (x), over the survey period; `ebbwise qc` writes the whole records' differences and judges them.</p>");
 }
 
 fn budget_svg(r: &QaReport, out: &mut String) {
@@ -704,6 +1012,277 @@ fn push_qc(o: &mut String, r: &QaReport) {
     o.push_str("</table>");
 }
 
+/// The status words of the count columns, in status order, with their headings.
+const STATUS_HEADINGS: [&str; 6] = [
+    "reduced",
+    "gap_filled",
+    "outside_zoning",
+    "no_gauge_data",
+    "gauge_flagged",
+    "bad_input",
+];
+
+/// Every sounding of the run by status, and the exports of the failing and unreduced ones.
+fn push_status_table(o: &mut String, r: &QaReport) {
+    o.push_str(r#"<table class="status"><thead><tr><th>status</th><th>soundings</th><th>share of all</th></tr></thead><tbody>"#);
+    let total = r.rows_by_status.total().max(1) as f64;
+    for (s, n) in r.rows_by_status.iter() {
+        let _ = write!(
+            o,
+            "<tr><td>{s}</td><td>{n}</td><td>{:.1} %</td></tr>",
+            100.0 * n as f64 / total
+        );
+    }
+    let _ = write!(
+        o,
+        "<tr><th>all</th><th>{}</th><th>100.0 %</th></tr></tbody></table>",
+        r.rows_by_status.total()
+    );
+    if !r.exports.is_empty() {
+        o.push_str(r#"<p class="exports">For a GIS, beside the chart (GeoJSON, longitude/latitude WGS 84, one feature per sounding with its file, row, line, status and reason): "#);
+        for (i, e) in r.exports.iter().enumerate() {
+            let _ = write!(
+                o,
+                r#"{}<a href="{f}">{f}</a>"#,
+                if i > 0 { " · " } else { "" },
+                f = esc(e)
+            );
+        }
+        o.push_str("</p>");
+    }
+}
+
+/// A group's counts by status as table cells.
+fn status_cells(o: &mut String, g: &crate::compute::qa::GroupSummary) {
+    for (_, n) in g.by_status.iter() {
+        let _ = write!(o, "<td>{n}</td>");
+    }
+}
+
+/// The cells both count tables share after the status counts: judged, within (of judged, of
+/// all), drying heights, worst and P95 U95/allowed.
+fn judged_cells(o: &mut String, g: &crate::compute::qa::GroupSummary) {
+    let _ = write!(
+        o,
+        r#"<td>{}</td><td data-sort="{}">{}</td><td data-sort="{}">{}</td><td>{}</td><td data-sort="{}">{}</td><td>{}</td>"#,
+        g.soundings,
+        g.share_within_chosen,
+        pct(g.share_within_chosen),
+        g.share_within_of_all,
+        pct(g.share_within_of_all),
+        g.drying_heights,
+        g.max_ratio_chosen.unwrap_or(0.0),
+        g.max_ratio_chosen.map_or_else(|| "–".to_string(), ratio),
+        ratio(g.p95_ratio_chosen)
+    );
+}
+
+fn count_headings(o: &mut String, first: &str, extra: &[&str]) {
+    let _ = write!(o, "<thead><tr><th>{first}</th>");
+    for h in extra {
+        let _ = write!(o, "<th>{h}</th>");
+    }
+    o.push_str("<th>all</th>");
+    for h in STATUS_HEADINGS {
+        let _ = write!(o, "<th>{h}</th>");
+    }
+    o.push_str("<th>judged</th><th>within, of judged</th><th>within, of all</th><th>drying heights</th><th>worst U95/allowed</th><th>P95 U95/allowed</th>");
+}
+
+/// Defaulted inputs as the zone table names them: `gauge A: u_gauge_m` → `A u_gauge_m`.
+fn short_defaults(d: &[String]) -> String {
+    d.iter()
+        .map(|x| {
+            x.split_once(": ")
+                .map(|(who, k)| {
+                    format!(
+                        "{} {k}",
+                        who.trim_start_matches("zone ").trim_start_matches("gauge ")
+                    )
+                })
+                .unwrap_or_else(|| x.clone())
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// The zones: every sounding by status, the shares within, drying heights, and the inputs
+/// that fell back to defaults (marked); a last row for the soundings in no zone.
+fn push_zone_table(o: &mut String, r: &QaReport) {
+    let _ = write!(
+        o,
+        "<h2>Zones</h2><p>Every sounding by status; “within” is within order {}'s TVU limit, of those judged and of all soundings (those not reduced count as not within). <span class=\"mark\">†</span> marks a zone whose tide uncertainty uses a default value (listed in the last column): its verdict rests on the project's defaults, not on a measured value.</p>",
+        esc(&r.chosen_order.name)
+    );
+    o.push_str(r#"<div class="wide"><table class="counts zones">"#);
+    count_headings(o, "zone", &[]);
+    o.push_str("<th>strictest order met</th><th>meets chosen</th><th>default inputs</th></tr></thead><tbody>");
+    for g in &r.zones {
+        let yn = if g.meets_chosen { "yes" } else { "no" };
+        let mark = if g.defaulted_inputs.is_empty() {
+            ""
+        } else {
+            " †"
+        };
+        let _ = write!(
+            o,
+            r#"<tr><td>{}<span class="mark">{mark}</span></td><td>{}</td>"#,
+            esc(&g.id),
+            g.all_soundings
+        );
+        status_cells(o, g);
+        judged_cells(o, g);
+        let _ = write!(
+            o,
+            r#"<td>{}</td><td class="{yn}">{yn}</td><td class="mark">{}</td></tr>"#,
+            g.strictest_order_met.as_deref().unwrap_or("none"),
+            esc(&short_defaults(&g.defaulted_inputs))
+        );
+    }
+    let nz = &r.no_zone;
+    let _ = write!(o, "<tr><td>(in no zone)</td><td>{}</td>", nz.total());
+    for (_, n) in nz.iter() {
+        let _ = write!(o, "<td>{n}</td>");
+    }
+    o.push_str(r#"<td>0</td><td colspan="9" class="left">outside the zoning, or a row that could not be read</td></tr>"#);
+    let _ = write!(o, "<tr><th>survey</th><th>{}</th>", r.survey.all_soundings);
+    for (_, n) in r.survey.by_status.iter() {
+        let _ = write!(o, "<th>{n}</th>");
+    }
+    let g = &r.survey;
+    let _ = write!(
+        o,
+        "<th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th></th></tr></tbody></table></div>",
+        g.soundings,
+        pct(g.share_within_chosen),
+        pct(g.share_within_of_all),
+        g.drying_heights,
+        g.max_ratio_chosen.map_or_else(|| "–".to_string(), ratio),
+        ratio(g.p95_ratio_chosen),
+        g.strictest_order_met.as_deref().unwrap_or("none"),
+        if g.meets_chosen { "yes" } else { "no" }
+    );
+}
+
+/// An ISO 8601 UTC label as the lines table shows it, to the second: `2026-06-14 07:33:40`.
+fn compact_utc(t: Option<&str>) -> String {
+    match t {
+        Some(t) => t.get(..19).unwrap_or(t).replacen('T', " ", 1),
+        None => "–".to_string(),
+    }
+}
+
+/// The survey lines, the unit a crew re-runs: sortable (click a heading), worst first.
+fn push_line_table(o: &mut String, r: &QaReport) {
+    let _ = write!(
+        o,
+        "<h2>Survey lines</h2><p>{} lines, the least share within order {} of all their soundings first; click a heading to sort. A file without a line column is one line, named by the file.</p>",
+        r.lines.len(),
+        esc(&r.chosen_order.name)
+    );
+    let mut lines: Vec<&crate::compute::qa_report::LineSummary> = r.lines.iter().collect();
+    lines.sort_by(|a, b| {
+        a.group
+            .share_within_of_all
+            .total_cmp(&b.group.share_within_of_all)
+            .then_with(|| a.group.id.cmp(&b.group.id))
+    });
+    o.push_str(r#"<div class="wide"><table class="counts lines sortable long">"#);
+    count_headings(o, "line", &["file", "first (UTC)", "last (UTC)", "zones"]);
+    o.push_str("<th>dominant component</th><th>meets chosen</th></tr></thead><tbody>");
+    for l in lines {
+        let g = &l.group;
+        let yn = if g.meets_chosen { "yes" } else { "no" };
+        let _ = write!(
+            o,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>",
+            esc(&g.id),
+            esc(&l.files.join(", ")),
+            esc(&compact_utc(l.first_utc.as_deref())),
+            esc(&compact_utc(l.last_utc.as_deref())),
+            esc(&l.zones_crossed.join(", ")),
+            g.all_soundings
+        );
+        status_cells(o, g);
+        judged_cells(o, g);
+        let _ = write!(
+            o,
+            r#"<td>{}</td><td class="{yn}">{yn}</td></tr>"#,
+            g.budget.as_ref().map_or("none", |b| b.dominant_component)
+        );
+    }
+    o.push_str("</tbody></table></div>");
+}
+
+/// The budget per zone in metres and shares.
+fn push_budget_table(o: &mut String, r: &QaReport) {
+    o.push_str(r#"<p>Per component: the root mean square of its standard uncertainty over the zone's judged soundings in metres (1σ), its mean share of u_tvu² and the 95th percentile of that share.</p><div class="wide"><table class="counts budget"><thead><tr><th>zone</th><th>judged</th><th>RMS u_tvu (m)</th>"#);
+    for c in BUDGET_COMPONENTS {
+        let _ = write!(o, "<th>{c}: RMS (m) · mean · P95 share</th>");
+    }
+    o.push_str("<th>dominant</th></tr></thead><tbody>");
+    for g in std::iter::once(&r.survey).chain(r.zones.iter()) {
+        if let Some(b) = &g.budget {
+            let _ = write!(
+                o,
+                "<tr><td>{}</td><td>{}</td><td>{:.4}</td>",
+                esc(&g.id),
+                b.soundings,
+                b.rms_u_tvu_m
+            );
+            for c in &b.components {
+                let _ = write!(
+                    o,
+                    "<td>{:.4} · {} · {}</td>",
+                    c.rms_m,
+                    pct(c.mean_share),
+                    pct(c.p95_share)
+                );
+            }
+            let _ = write!(o, "<td>{}</td></tr>", b.dominant_component);
+        }
+    }
+    o.push_str("</tbody></table></div>");
+}
+
+/// Where the numbers came from: the tool, the time, every input file's SHA-256, QC, defaults.
+fn push_provenance(o: &mut String, r: &QaReport) {
+    let p = &r.provenance;
+    let _ = write!(
+        o,
+        r#"<h2>Where the numbers came from</h2><table class="provenance"><tbody><tr><td>tool</td><td>ebbwise {}</td></tr><tr><td>report made (UTC)</td><td>{}</td></tr><tr><td>project file</td><td>{}</td></tr><tr><td>tide model</td><td>{}</td></tr></tbody></table>"#,
+        esc(p.ebbwise_version),
+        esc(&p.created_utc),
+        esc(&p.project_file),
+        esc(r.tide_model)
+    );
+    o.push_str(r#"<div class="wide"><table class="inputs long"><thead><tr><th>input</th><th>path</th><th>SHA-256</th></tr></thead><tbody>"#);
+    for f in &p.inputs {
+        let _ = write!(
+            o,
+            r#"<tr><td>{}</td><td>{}</td><td><code class="hash">{}</code></td></tr>"#,
+            esc(&f.role),
+            esc(&f.path),
+            esc(&f.sha256)
+        );
+    }
+    o.push_str("</tbody></table></div>");
+    push_qc(o, r);
+    if r.inputs.defaulted.is_empty() {
+        o.push_str("<p>No uncertainty input fell back to a default: every gauge and zone sets its own.</p>");
+    } else {
+        let _ = write!(
+            o,
+            r#"<p class="defaults"><b>Uncertainty inputs on the project's default values</b> (demo values unless the project sets them; the zones and lines they reach are marked above): {}.</p>"#,
+            esc(&r.inputs.defaulted.join("; "))
+        );
+    }
+}
+
+/// Sorts a `table.sortable` by the clicked column (numbers by value, from `data-sort` where a
+/// cell has it); the page reads the same without it.
+const SORT_SCRIPT: &str = "<script>document.querySelectorAll('table.sortable').forEach(function(t){t.querySelectorAll('thead th').forEach(function(th,i){th.addEventListener('click',function(){var b=t.tBodies[0],rows=Array.prototype.slice.call(b.rows),asc=th.getAttribute('data-dir')!=='asc';th.setAttribute('data-dir',asc?'asc':'desc');function key(r){var c=r.cells[i];return c.hasAttribute('data-sort')?c.getAttribute('data-sort'):c.textContent;}rows.sort(function(x,y){var a=key(x),c=key(y),na=parseFloat(a),nc=parseFloat(c),d=(!isNaN(na)&&!isNaN(nc))?na-nc:a.localeCompare(c);return asc?d:-d;});rows.forEach(function(r){b.appendChild(r);});});});});</script>";
+
 /// Renders the report as one HTML page.
 pub fn render_html(r: &QaReport) -> String {
     let mut o = String::with_capacity(256 * 1024);
@@ -719,7 +1298,7 @@ pub fn render_html(r: &QaReport) -> String {
 body {{ font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; margin: 0; color: #1d2a36; background: #fff; }}
 header {{ background: #12324d; color: #fff; padding: 18px 28px; }}
 header h1 {{ margin: 0 0 4px; font-size: 22px; }}
-main {{ padding: 8px 28px 40px; max-width: 1100px; }}
+main {{ padding: 8px 28px 40px; max-width: 1400px; }}
 .verdict {{ font-size: 18px; padding: 12px 16px; border-left: 6px solid #2e8b57; background: #eef7f1; margin: 16px 0; }}
 .verdict.fail {{ border-color: #c0262d; background: #fbeeee; }}
 p.qc.fail {{ color: #c0262d; }}
@@ -734,6 +1313,29 @@ svg .tick {{ font-size: 11px; fill: #2c3e50; }} svg .axis {{ font-size: 12px; fi
 svg .steplabel {{ font-size: 11px; font-weight: bold; fill: #111; paint-order: stroke; stroke: #fff; stroke-width: 3px; stroke-linejoin: round; }}
 svg .zlabel {{ font-size: 13px; font-weight: bold; fill: #12324d; text-anchor: middle; paint-order: stroke; stroke: #fff; stroke-width: 4px; stroke-linejoin: round; }}
 h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; font-size: 18px; }}
+.wide {{ overflow-x: auto; }} table.counts {{ font-size: 12px; }} table.counts td, table.counts th {{ padding: 3px 6px; }}
+table.sortable th {{ cursor: pointer; }} table.sortable th::after {{ content: " ⇅"; color: #8a99a8; font-size: 10px; }}
+td.mark, span.mark {{ color: #b35900; font-weight: bold; }} td.left {{ text-align: left; }}
+table.lines td:nth-child(-n+4) {{ white-space: nowrap; }} table.counts th {{ vertical-align: bottom; }} code.hash {{ font-size: 11px; word-break: break-all; }}
+.panels {{ display: grid; grid-template-columns: repeat(auto-fill, minmax(340px, 1fr)); gap: 8px 14px; }}
+figure.panel {{ margin: 0; }} figure.panel figcaption {{ font-size: 12px; color: #34495e; }}
+svg.small {{ width: 100%; height: auto; display: block; background: #fff; border: 1px solid #e3e8ee; }}
+svg .ptitle {{ font-size: 12px; font-weight: bold; fill: #12324d; }} svg .gaplabel {{ font-size: 10px; fill: #444; }}
+svg .glabel {{ font-size: 11px; font-weight: bold; fill: #111; paint-order: stroke; stroke: #fff; stroke-width: 3px; }}
+p.note {{ font-size: 12px; color: #34495e; }}
+@media print {{
+  @page {{ size: A4; margin: 14mm 12mm; }}
+  body {{ font-size: 10.5pt; }} header {{ background: #fff; color: #12324d; border-bottom: 2px solid #12324d; padding: 0 0 6px; }}
+  main {{ padding: 0; max-width: none; }}
+  h2 {{ break-after: avoid; page-break-after: avoid; margin-top: 14px; }}
+  h2 + * {{ break-before: avoid; page-break-before: avoid; }}
+  table, svg, figure, .verdict, .caution {{ break-inside: avoid; page-break-inside: avoid; }}
+  table.long {{ break-inside: auto; page-break-inside: auto; }} tr {{ break-inside: avoid; page-break-inside: avoid; }}
+  thead {{ display: table-header-group; }}
+  .wide {{ overflow: visible; }} table.counts {{ font-size: 7.5pt; }}
+  .panels {{ grid-template-columns: 1fr 1fr; }} table.sortable th::after {{ content: ""; }}
+  * {{ -webkit-print-color-adjust: exact; print-color-adjust: exact; }}
+}}
 </style></head><body>
 <header><h1>Reduction QA report</h1><div>{name} · ebbwise {ver} · report layout {schema}</div></header>
 <main>
@@ -749,7 +1351,7 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
     let (within, total) = r.within_chosen_of_all();
     let _ = write!(
         o,
-        r#"<div class="verdict{}"><p>Of the day's <b>{total}</b> soundings, <b>{}</b> were reduced and judged ({} not reduced: see the status table below). <b>{within}</b> of them have a 95 % TVU within the limit of order <b>{}</b>: {} of those judged, {} of all soundings.</p><p>Acceptance: at least {} of the judged soundings within the limit, the project's rule (<code>acceptance_share</code>, or the authority's), not the standard's (IHO S-44 applies the limit to each sounding's 95 % TVU, as the within_order column does) — <b>{}</b>. Strictest order met, judged on the TVU limit alone: <b>{}</b> (orders 1a and 1b share their TVU limit; horizontal uncertainty, feature detection and coverage are not assessed here). Dominant component of u_tvu²: <b>{}</b>.</p></div>"#,
+        r#"<div class="verdict{}"><p>Of the day's <b>{total}</b> soundings, <b>{}</b> were reduced and judged ({} not reduced: see the status table below). <b>{within}</b> of them have a 95 % TVU within the limit of order <b>{}</b>: {} of those judged, {} of all soundings.</p><p>Acceptance: at least {} of the judged soundings within the limit, the project's rule (<code>acceptance_share</code>, or the authority's), not the standard's (IHO S-44 applies the limit to each sounding's 95 % TVU, as the within_order column does) — <b>{}</b>. Strictest order met, judged on the TVU limit alone: <b>{}</b> (orders 1a and 1b share their TVU limit; horizontal uncertainty, feature detection and coverage are not assessed here). Dominant component of u_tvu²: <b>{}</b>.</p><p>Drying heights (a reduced depth below zero, above chart datum): <b>{}</b>, marked on the map.</p></div>"#,
         if fail { " fail" } else { "" },
         r.survey.soundings,
         total.saturating_sub(r.survey.soundings),
@@ -759,14 +1361,10 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         pct_given(r.acceptance_share),
         if fail { "not met" } else { "met" },
         esc(achieved),
-        esc(&r.dominant_component)
+        esc(&r.dominant_component),
+        r.survey.drying_heights
     );
-    push_qc(&mut o, r);
-    o.push_str("<table><tr><th>status</th><th>soundings</th></tr>");
-    for (s, n) in r.rows_by_status.iter() {
-        let _ = write!(o, "<tr><td>{s}</td><td>{n}</td></tr>");
-    }
-    o.push_str("</table>");
+    push_status_table(&mut o, r);
     o.push_str("<h2>Survey orders</h2><table><tr><th>order</th><th>a (m, 95 %)</th><th>b (95 %)</th><th>THU (95 %)</th><th>soundings within</th><th>share within</th><th>met</th></tr>");
     for (ord, sh) in r.orders.iter().zip(&r.survey.orders) {
         let _ = write!(
@@ -783,10 +1381,56 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         );
     }
     o.push_str("</table><p>Allowed TVU at 95 %: sqrt(a² + (b·d)²) with d the reduced depth (0 for drying heights), IHO S-44 Edition 6.1.0 Table 1. Orders 1a and 1b share their TVU limit and differ in feature detection and coverage.</p>");
-    o.push_str("<h2>Map: soundings coloured by U95 / allowed</h2>");
+    o.push_str("<h2>Map: every sounding, coloured by U95 / allowed</h2>");
     map_svg(r, &mut o);
+    let _ = write!(
+        o,
+        r#"<p class="note">Thinned to one map cell about 3 px wide ({} cells across the zoning's longer side): each cell shows its judged sounding with the <b>worst</b> U95/allowed, and, where the cell has them, a drying height (square) and a sounding not reduced (cross), so no failing, drying or unreduced sounding is hidden by the thinning. Every sounding is in the counts and, failing or unreduced, in the GeoJSON exports.</p>"#,
+        r.map_cells_across
+    );
+    push_zone_table(&mut o, r);
+    push_line_table(&mut o, r);
+    let _ = write!(
+        o,
+        "<h2>Zones and lines that fail order {}</h2>",
+        esc(&r.chosen_order.name)
+    );
+    if r.failing_zones.is_empty() && r.failing_lines.is_empty() {
+        o.push_str("<p>None.</p>");
+    } else {
+        o.push_str(r#"<table class="failing long"><thead><tr><th>zone / line</th><th>all soundings</th><th>judged</th><th>within, of judged</th><th>short of acceptance by</th><th>P95 of U95/allowed</th></tr></thead><tbody>"#);
+        for f in r
+            .failing_zones
+            .iter()
+            .map(|f| ("zone", f))
+            .chain(r.failing_lines.iter().map(|f| ("line", f)))
+        {
+            let _ = write!(
+                o,
+                "<tr><td>{} {}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+                f.0,
+                esc(&f.1.id),
+                f.1.all_soundings,
+                f.1.soundings,
+                if f.1.soundings > 0 {
+                    pct(f.1.share_within)
+                } else {
+                    "nothing judged".to_string()
+                },
+                pct(f.1.shortfall),
+                if f.1.soundings > 0 {
+                    ratio(f.1.p95_ratio)
+                } else {
+                    "–".to_string()
+                }
+            );
+        }
+        o.push_str("</tbody></table>");
+    }
     o.push_str("<h2>Tide per zone and its 95 % band</h2>");
-    tide_svg(r, &mut o);
+    tide_panels(r, &mut o);
+    o.push_str("<h2>Gauge differences</h2>");
+    difference_panels(r, &mut o);
     o.push_str("<h2>Zone-boundary steps</h2>");
     if r.inputs.tide_field.is_some() {
         o.push_str("<p>The tide is continuous between the gauges ([tide_field]): two soundings either side of a zone edge get the same tide, so the zoning leaves no step in the reduced seabed. The zones bound the survey area and group the soundings for this report only.</p>");
@@ -837,65 +1481,9 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
     }
     o.push_str("<h2>Uncertainty budget per zone</h2>");
     budget_svg(r, &mut o);
-    o.push_str("<table><tr><th>zone</th><th>soundings</th>");
-    for c in BUDGET_COMPONENTS {
-        let _ = write!(o, "<th>{c} mean / P95</th>");
-    }
-    o.push_str("<th>dominant</th></tr>");
-    for g in std::iter::once(&r.survey).chain(r.zones.iter()) {
-        if let Some(b) = &g.budget {
-            let _ = write!(o, "<tr><td>{}</td><td>{}</td>", esc(&g.id), b.soundings);
-            for c in &b.components {
-                let _ = write!(o, "<td>{} / {}</td>", pct(c.mean_share), pct(c.p95_share));
-            }
-            let _ = write!(o, "<td>{}</td></tr>", b.dominant_component);
-        }
-    }
-    o.push_str("</table>");
+    push_budget_table(&mut o, r);
     o.push_str("<h2>U95 / allowed</h2>");
     histogram_svg(r, &mut o);
-    o.push_str("<h2>Zones</h2><table><tr><th>zone</th><th>soundings</th><th>within chosen</th><th>P95 of U95/allowed</th><th>strictest order met</th><th>meets chosen</th></tr>");
-    for g in &r.zones {
-        let yn = if g.meets_chosen { "yes" } else { "no" };
-        let _ = write!(
-            o,
-            r#"<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class="{yn}">{yn}</td></tr>"#,
-            esc(&g.id),
-            g.soundings,
-            pct(g.share_within_chosen),
-            ratio(g.p95_ratio_chosen),
-            g.strictest_order_met.as_deref().unwrap_or("none")
-        );
-    }
-    o.push_str("</table>");
-    let _ = write!(
-        o,
-        "<h2>Zones and lines that fail order {}</h2>",
-        esc(&r.chosen_order.name)
-    );
-    if r.failing_zones.is_empty() && r.failing_lines.is_empty() {
-        o.push_str("<p>None.</p>");
-    } else {
-        o.push_str("<table><tr><th>zone / line</th><th>soundings</th><th>within</th><th>short of acceptance by</th><th>P95 of U95/allowed</th></tr>");
-        for f in r
-            .failing_zones
-            .iter()
-            .map(|f| ("zone", f))
-            .chain(r.failing_lines.iter().map(|f| ("line", f)))
-        {
-            let _ = write!(
-                o,
-                "<tr><td>{} {}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
-                f.0,
-                esc(&f.1.id),
-                f.1.soundings,
-                pct(f.1.share_within),
-                pct(f.1.shortfall),
-                ratio(f.1.p95_ratio)
-            );
-        }
-        o.push_str("</table>");
-    }
     o.push_str("<h2>Uncertainty inputs (standard, 1σ)</h2><table><tr><th>gauge</th><th>u_gauge (m)</th><th>u_datum (m)</th></tr>");
     for g in &r.inputs.gauges {
         let _ = write!(
@@ -948,12 +1536,10 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
         given(r.inputs.sounding_a_m),
         given(r.inputs.sounding_b)
     );
-    if !r.inputs.defaulted.is_empty() {
-        let _ = write!(o, "<p><b>Using the project's default values (demo values unless the project sets them):</b> {}.</p>", esc(&r.inputs.defaulted.join("; ")));
-    }
+    push_provenance(&mut o, r);
     let _ = writeln!(
         o,
-        "<p>Tide uncertainty by first-order GUM propagation (JCGM 100:2008) through {}; 95 % expansion with k = 1.96.</p></main></body></html>",
+        "<p>Tide uncertainty by first-order GUM propagation (JCGM 100:2008) through {}; 95 % expansion with k = 1.96.</p></main>{SORT_SCRIPT}</body></html>",
         match r.tide_model {
             "corrector_field" => "the continuous tide (corrector fields blended between the gauges, docs/cotidal.md)",
             "astronomical_residual" => "the continuous tide (prediction from the interpolated constants plus the gauges' residuals, docs/cotidal.md)",

@@ -523,6 +523,12 @@ impl SoundingLayout {
         self.u_depth.is_some()
     }
 
+    /// The survey line field of a row as written (trimmed), when the layout has a line column
+    /// and the row that field: for a row that cannot be parsed as a whole.
+    pub fn line_text<'a>(&self, line: &'a str, fields: &'a Fields) -> Option<&'a str> {
+        self.line.and_then(|i| fields.get(line, i))
+    }
+
     /// Parses one data line already split into `fields`.
     pub fn parse<'a>(
         &'a self,

@@ -157,15 +157,7 @@ pub struct CorrectorsOptions {
 }
 
 /// One input file in the provenance.
-#[derive(Debug, Clone, Serialize)]
-pub struct InputHash {
-    /// What the file is.
-    pub role: String,
-    /// Path as used.
-    pub path: String,
-    /// SHA-256, hex.
-    pub sha256: String,
-}
+pub use crate::compute::qa_report::InputFile as InputHash;
 
 /// The JSON sidecar of a correction file.
 #[derive(Debug, Clone, Serialize)]
@@ -280,32 +272,7 @@ fn provenance(
     extra_inputs: &[&Path],
 ) -> Result<Provenance, IoError> {
     let p = &loaded.project;
-    let mut inputs = vec![
-        InputHash {
-            role: "project".into(),
-            path: p.path.display().to_string(),
-            sha256: sha256_file(&p.path)?,
-        },
-        InputHash {
-            role: "zoning".into(),
-            path: p.spec.zoning.display().to_string(),
-            sha256: sha256_file(&p.spec.zoning)?,
-        },
-    ];
-    for g in &p.spec.gauges {
-        inputs.push(InputHash {
-            role: format!("gauge record '{}'", g.id),
-            path: g.record.display().to_string(),
-            sha256: sha256_file(&g.record)?,
-        });
-    }
-    for f in extra_inputs {
-        inputs.push(InputHash {
-            role: "soundings".into(),
-            path: f.display().to_string(),
-            sha256: sha256_file(f)?,
-        });
-    }
+    let inputs = crate::run::provenance::input_files(loaded, extra_inputs, None)?;
     let zones: Vec<serde_json::Value> = loaded
         .zones
         .iter()

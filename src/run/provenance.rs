@@ -22,6 +22,52 @@ use super::load::Loaded;
 use crate::io::correctors_file::sha256_file;
 use crate::io::error::IoError;
 
+/// Every input file of a run with its SHA-256, in a fixed order: the project file, the zoning,
+/// each gauge's record and constants file, each virtual gauge's constants (a continuous tide),
+/// the given soundings files, and the correction file applied (an apply run). A datums file is
+/// not read by a reduction and is not listed.
+pub fn input_files(
+    loaded: &Loaded,
+    soundings: &[&std::path::Path],
+    correction_file: Option<&std::path::Path>,
+) -> Result<Vec<crate::compute::qa_report::InputFile>, IoError> {
+    use crate::compute::qa_report::InputFile;
+    let p = &loaded.project;
+    let one = |role: String, path: &std::path::Path| -> Result<InputFile, IoError> {
+        Ok(InputFile {
+            role,
+            path: path.display().to_string(),
+            sha256: sha256_file(path)?,
+        })
+    };
+    let mut out = vec![
+        one("project".into(), &p.path)?,
+        one("zoning".into(), &p.spec.zoning)?,
+    ];
+    for g in &p.spec.gauges {
+        out.push(one(format!("gauge record '{}'", g.id), &g.record)?);
+        if let Some(c) = &g.constants {
+            out.push(one(format!("gauge constants '{}'", g.id), c)?);
+        }
+    }
+    // Virtual gauges are read only for a continuous tide.
+    if loaded.field.is_some() {
+        for v in &p.spec.virtual_gauges {
+            out.push(one(
+                format!("virtual gauge constants '{}'", v.id),
+                &v.constants,
+            )?);
+        }
+    }
+    for f in soundings {
+        out.push(one("soundings".into(), f)?);
+    }
+    if let Some(c) = correction_file {
+        out.push(one("correction file".into(), c)?);
+    }
+    Ok(out)
+}
+
 /// The three parts of a project's inputs, as recorded in a correction file's sidecar.
 pub const PARTS: [&str; 3] = ["tide", "uncertainty", "other"];
 

@@ -1,6 +1,7 @@
 //! Builds the QA report of a reduction ([`QaReport`], plain data in `compute::qa_report`) from
-//! the run's QA counts, the zones' tide and its 95 % band over the survey period, and a thinned
-//! sample of soundings for the map (carried to longitude/latitude here, through `io::crs`).
+//! the run's QA counts, the zones' tide and its 95 % band over the survey period, the gauges'
+//! samples and differences over it, the inputs' SHA-256, and the map's cells (carried to
+//! longitude/latitude here, through `io::crs`).
 //! `io::report_html` renders it; the CLI writes it as `qa-report.json` and `qa-report.html`.
 
 use super::load::Loaded;
@@ -9,9 +10,11 @@ use crate::compute::qa::{
     round_nearest, summarise_group, GroupSummary, METRE_DECIMALS, RATIO_BINS, RATIO_BIN_WIDTH,
 };
 use crate::compute::qa_report::{
-    failing, GaugeInput, GaugeQc, MapPoint, QaReport, RatioHistogram, UncertaintyInputs, ZoneInput,
+    failing, GaugeInput, GaugeQc, GaugeTrace, LineSummary, MapGauge, MapMark, MapPoint,
+    PairDifference, QaReport, RatioHistogram, ReportProvenance, UncertaintyInputs, ZoneInput,
     ZoneTideSeries, QA_SCHEMA,
 };
+use crate::compute::reduce::SoundingStatus;
 use crate::compute::uncertainty::{tide_budget, zone_datum_u, K95};
 use crate::io::crs::Transformer;
 use crate::io::timefmt::utc_label;
@@ -26,46 +29,133 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
     qa.settle();
     let qa = &qa;
     let acc = u.acceptance_share;
-    let sum = |id: &str, g, b| summarise_group(id, g, b, &u.orders, u.n_builtin, u.chosen, acc);
-    let survey = sum("survey", &qa.overall, Some(&qa.overall_budget));
+    let sum =
+        |id: &str, g, b, t| summarise_group(id, g, b, t, &u.orders, u.n_builtin, u.chosen, acc);
+    let zone_defaults: Vec<Vec<String>> = loaded
+        .zones
+        .iter()
+        .map(|z| zone_defaulted_inputs(loaded, z, &u.defaulted))
+        .collect();
+    let mut survey = sum(
+        "survey",
+        &qa.overall,
+        Some(&qa.overall_budget),
+        &qa.overall_tally,
+    );
+    survey.defaulted_inputs = u.defaulted.clone();
     let zones: Vec<GroupSummary> = loaded
         .zones
         .iter()
         .zip(&qa.zones)
-        .map(|(z, (g, b))| sum(&z.id, g, Some(b)))
+        .zip(&zone_defaults)
+        .map(|((z, (g, b, t)), d)| {
+            let mut s = sum(&z.id, g, Some(b), t);
+            s.defaulted_inputs = d.clone();
+            s
+        })
         .collect();
-    let lines: Vec<GroupSummary> = qa.lines.iter().map(|(id, g)| sum(id, g, None)).collect();
+    let lines: Vec<LineSummary> = qa
+        .lines
+        .iter()
+        .map(|(id, l)| {
+            let mut group = sum(id, &l.qa, Some(&l.budget), &l.tally);
+            let mut d: Vec<String> = Vec::new();
+            for &z in &l.zones {
+                for x in &zone_defaults[z] {
+                    if !d.contains(x) {
+                        d.push(x.clone());
+                    }
+                }
+            }
+            group.defaulted_inputs = d;
+            LineSummary {
+                group,
+                files: l.files.iter().cloned().collect(),
+                first_utc: l.span_s.map(|(a, _)| utc_label(a)),
+                last_utc: l.span_s.map(|(_, b)| utc_label(b)),
+                zones_crossed: l
+                    .zones
+                    .iter()
+                    .map(|&z| loaded.zones[z].id.clone())
+                    .collect(),
+            }
+        })
+        .collect();
     let continuous = loaded
         .field
         .as_ref()
         .filter(|_| run.tide_model != "correction_file");
-    let tide_series = match (run.time_range_s, continuous) {
+    let mut tide_series = match (run.time_range_s, continuous) {
         (Some((t0, t1)), None) => tide_series(loaded, t0, t1),
         (Some((t0, t1)), Some(f)) => continuous_tide_series(loaded, f, t0, t1),
         (None, _) => Vec::new(),
     };
+    for (s, z) in tide_series.iter_mut().zip(&run.zones) {
+        s.gauges = z.gauges.clone();
+    }
     // A continuous tide has no steps at zone edges.
     let boundary_steps = match continuous {
         None => boundary_steps_of(loaded, &tide_series, run.time_range_s),
         Some(_) => Vec::new(),
     };
-    let mut map_points = Vec::with_capacity(qa.samples.len());
     let groups = &loaded.project.spec.soundings;
     let transformers: Vec<Option<Transformer>> = groups
         .iter()
         .map(|g| Transformer::new(&g.crs, "EPSG:4326").ok())
         .collect();
-    for s in &qa.samples {
-        if let Some(Some(t)) = transformers.get(s.group) {
-            if let Ok((lon, lat)) = t.convert(s.x, s.y) {
-                map_points.push(MapPoint {
-                    lon,
-                    lat,
-                    ratio: s.ratio,
-                });
+    let mut map_points = Vec::with_capacity(qa.cells.len());
+    for (_, c) in qa.sorted_cells() {
+        let marks = [
+            c.worst.map(|m| (m, MapMark::Judged(m.value))),
+            c.drying.map(|m| (m, MapMark::Drying)),
+            c.unreduced.map(|m| {
+                let st = SoundingStatus::ALL
+                    .get(m.value as usize)
+                    .map_or("bad_input", |s| s.as_str());
+                (m, MapMark::Unreduced(st))
+            }),
+        ];
+        for (m, mark) in marks.into_iter().flatten() {
+            if let Some(Some(t)) = transformers.get(m.group) {
+                if let Ok((lon, lat)) = t.convert(m.x, m.y) {
+                    map_points.push(MapPoint { lon, lat, mark });
+                }
             }
         }
     }
+    let mut soundings: Vec<&std::path::Path> = Vec::new();
+    for f in &run.files {
+        soundings.push(f.input.as_path());
+    }
+    let inputs =
+        crate::run::provenance::input_files(loaded, &soundings, run.correction_file.as_deref())
+            .unwrap_or_default();
+    let map_gauges = loaded
+        .project
+        .spec
+        .gauges
+        .iter()
+        .map(|g| MapGauge {
+            id: g.id.clone(),
+            lon: g.lon,
+            lat: g.lat,
+            virtual_gauge: false,
+        })
+        .chain(loaded.project.spec.virtual_gauges.iter().map(|v| MapGauge {
+            id: v.id.clone(),
+            lon: v.lon,
+            lat: v.lat,
+            virtual_gauge: true,
+        }))
+        .collect();
+    let gauge_traces = run
+        .time_range_s
+        .map(|p| gauge_traces(loaded, p))
+        .unwrap_or_default();
+    let gauge_differences = run
+        .time_range_s
+        .map(|p| pair_differences(loaded, p))
+        .unwrap_or_default();
     Some(QaReport {
         schema: QA_SCHEMA,
         ebbwise_version: env!("CARGO_PKG_VERSION"),
@@ -84,7 +174,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
             .map(|b| b.dominant_component.to_string())
             .unwrap_or_default(),
         failing_zones: zones.iter().filter_map(failing).collect(),
-        failing_lines: lines.iter().filter_map(failing).collect(),
+        failing_lines: lines.iter().map(|l| &l.group).filter_map(failing).collect(),
         ratio_histogram: RatioHistogram {
             bin_width: RATIO_BIN_WIDTH,
             counts: qa.overall.ratio_hist[..RATIO_BINS].to_vec(),
@@ -92,6 +182,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         survey,
         zones,
         lines,
+        no_zone: qa.no_zone.by_status,
         tide_series,
         boundary_steps,
         qc_ran: loaded.project.spec.qc.enabled,
@@ -158,7 +249,22 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
             sounding_b: u.sounding_model.b,
             defaulted: u.defaulted.clone(),
         },
+        provenance: ReportProvenance {
+            ebbwise_version: env!("CARGO_PKG_VERSION"),
+            created_utc: chrono::Utc::now().format("%Y-%m-%dT%H:%M:%SZ").to_string(),
+            project_file: loaded.project.path.display().to_string(),
+            inputs,
+        },
+        gauge_differences,
+        exports: run
+            .exports
+            .iter()
+            .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
+            .collect(),
         map_points,
+        map_cells_across: crate::compute::qa::MAP_CELLS_ACROSS,
+        map_gauges,
+        gauge_traces,
         zone_polygons: loaded
             .zoning
             .zones
@@ -383,6 +489,99 @@ pub fn tide_series(loaded: &Loaded, t0: f64, t1: f64) -> Vec<ZoneTideSeries> {
                 }
             }
             s
+        })
+        .collect()
+}
+
+/// The uncertainty inputs of zone `z`'s tide that fell back to the project's defaults: the
+/// zone's own and those of the gauges feeding it (entries of `defaulted`, as `load` words them).
+fn zone_defaulted_inputs(
+    loaded: &Loaded,
+    z: &crate::compute::zoning::Zone,
+    defaulted: &[String],
+) -> Vec<String> {
+    let zone = format!("zone {}: ", z.id);
+    let gauges: Vec<String> = z
+        .feeds
+        .iter()
+        .map(|f| format!("gauge {}: ", loaded.gauges[f.gauge].id))
+        .collect();
+    defaulted
+        .iter()
+        .filter(|d| d.starts_with(&zone) || gauges.iter().any(|g| d.starts_with(g.as_str())))
+        .cloned()
+        .collect()
+}
+
+/// Margin around the survey period in the tide plots' gauge samples, seconds.
+const TRACE_MARGIN_S: f64 = 3600.0;
+
+/// Each gauge's samples within the survey period (with an hour's margin): those used, those gap
+/// filling added, and those quality control set aside.
+fn gauge_traces(loaded: &Loaded, (t0, t1): (f64, f64)) -> Vec<GaugeTrace> {
+    let within = |t: f64| t >= t0 - TRACE_MARGIN_S && t <= t1 + TRACE_MARGIN_S;
+    loaded
+        .gauges
+        .iter()
+        .enumerate()
+        .map(|(gi, g)| {
+            let s = &g.series;
+            let mut tr = GaugeTrace {
+                gauge: g.id.clone(),
+                ..Default::default()
+            };
+            for (k, (&t, &h)) in s.times_s.iter().zip(&s.heights_m).enumerate() {
+                if within(t) {
+                    tr.used.push((t, h));
+                    if s.fill.filled.get(k).copied().unwrap_or(false) {
+                        tr.filled.push((t, h));
+                    }
+                }
+            }
+            if let (Some(q), Some(r)) = (&loaded.qc[gi], loaded.records.get(gi)) {
+                for ((f, &t), &h) in q.flags.iter().zip(&r.times_s).zip(&r.heights_m) {
+                    if !f.usable() && within(t) && h.is_finite() {
+                        tr.flagged.push((t, h));
+                    }
+                }
+            }
+            tr
+        })
+        .collect()
+}
+
+/// The gauge pairs `ebbwise qc` compares (every pair feeding one zone, every gauge inside a
+/// zone fed by another), their differences within the survey period.
+fn pair_differences(loaded: &Loaded, (t0, t1): (f64, f64)) -> Vec<PairDifference> {
+    crate::run::qc::gauge_comparisons(loaded)
+        .into_iter()
+        .filter_map(|(pair, c)| {
+            let c = c?;
+            let series: Vec<(f64, f64)> = c
+                .times_s
+                .iter()
+                .zip(&c.diff_m)
+                .filter(|(t, _)| **t >= t0 - TRACE_MARGIN_S && **t <= t1 + TRACE_MARGIN_S)
+                .map(|(t, d)| (*t, *d))
+                .collect();
+            let n = series.len();
+            let mean = if n > 0 {
+                series.iter().map(|p| p.1).sum::<f64>() / n as f64
+            } else {
+                0.0
+            };
+            let max_abs = series.iter().map(|p| p.1.abs()).fold(0.0, f64::max);
+            Some(PairDifference {
+                pair,
+                a: c.a.clone(),
+                b: c.b.clone(),
+                n,
+                mean_m: round_nearest(mean, METRE_DECIMALS),
+                max_abs_m: round_nearest(max_abs, METRE_DECIMALS),
+                flagged: !c.findings.is_empty(),
+                findings: c.findings.iter().map(|f| f.to_string()).collect(),
+                series,
+            })
         })
         .collect()
 }

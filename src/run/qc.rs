@@ -593,6 +593,55 @@ fn planned_comparisons(loaded: &Loaded) -> Vec<Plan> {
     out
 }
 
+/// The gauge comparisons of a project (`ebbwise qc`'s: every pair of gauges feeding one zone,
+/// every gauge inside a zone fed by another), by pair name; `None` where a pair had fewer than 3
+/// common times.
+pub fn gauge_comparisons(loaded: &Loaded) -> Vec<(String, Option<Comparison>)> {
+    run_comparisons(loaded, planned_comparisons(loaded), None)
+}
+
+fn run_comparisons(
+    loaded: &Loaded,
+    plans: Vec<Plan>,
+    only: Option<&str>,
+) -> Vec<(String, Option<Comparison>)> {
+    let spec = &loaded.project.spec;
+    let settings = CompareSettings {
+        max_mean_m: spec.qc.compare_max_mean_m,
+        max_drift_m_per_day: spec.qc.compare_max_drift_m_per_day,
+        max_lag_min: spec.qc.compare_max_lag_min,
+        lag_search_min: spec.qc.compare_lag_search_min,
+        shift_window_min: spec.qc.compare_shift_window_min,
+        shift_k: spec.qc.shift_k,
+        shift_min_m: spec.qc.shift_min_m,
+        drift_window_days: spec.qc.compare_drift_window_days,
+        max_window_drift_m_per_day: spec.qc.compare_max_window_drift_m_per_day,
+    };
+    let plans: Vec<_> = plans
+        .into_iter()
+        .filter(|p| only.map_or(true, |o| p.4.iter().any(|&g| loaded.gauges[g].id == o)))
+        .collect();
+    {
+        use rayon::prelude::*;
+        plans
+            .par_iter()
+            .map(|(name, a, b, times, _)| {
+                (
+                    name.clone(),
+                    compare(
+                        a,
+                        b,
+                        &loaded.gauges,
+                        loaded.interp.as_ref(),
+                        times,
+                        &settings,
+                    ),
+                )
+            })
+            .collect()
+    }
+}
+
 /// QC of every gauge of a loaded project (or only `only`), and the comparisons.
 pub fn qc_project(
     loaded: &Loaded,
@@ -624,41 +673,12 @@ pub fn qc_project(
             out_dir,
         )?);
     }
-    let settings = CompareSettings {
-        max_mean_m: spec.qc.compare_max_mean_m,
-        max_drift_m_per_day: spec.qc.compare_max_drift_m_per_day,
-        max_lag_min: spec.qc.compare_max_lag_min,
-        lag_search_min: spec.qc.compare_lag_search_min,
-        shift_window_min: spec.qc.compare_shift_window_min,
-        shift_k: spec.qc.shift_k,
-        shift_min_m: spec.qc.shift_min_m,
-        drift_window_days: spec.qc.compare_drift_window_days,
-        max_window_drift_m_per_day: spec.qc.compare_max_window_drift_m_per_day,
-    };
     let plans = planned_comparisons(loaded);
-    let plans: Vec<_> = plans
-        .into_iter()
+    let n_plans = plans
+        .iter()
         .filter(|p| only.map_or(true, |o| p.4.iter().any(|&g| loaded.gauges[g].id == o)))
-        .collect();
-    let results: Vec<(String, Option<Comparison>)> = {
-        use rayon::prelude::*;
-        plans
-            .par_iter()
-            .map(|(name, a, b, times, _)| {
-                (
-                    name.clone(),
-                    compare(
-                        a,
-                        b,
-                        &loaded.gauges,
-                        loaded.interp.as_ref(),
-                        times,
-                        &settings,
-                    ),
-                )
-            })
-            .collect()
-    };
+        .count();
+    let results = run_comparisons(loaded, plans, only);
     let mut comparisons = Vec::new();
     let mut diff_text = DIFFERENCE_COLUMNS.join(",");
     diff_text.push('\n');
@@ -702,17 +722,17 @@ pub fn qc_project(
             findings: c.findings.iter().map(|f| f.to_string()).collect(),
         });
     }
-    let comparisons_note = if plans.is_empty() {
+    let comparisons_note = if n_plans == 0 {
         Some(match only {
             Some(id) => format!("no comparison involves gauge '{id}'"),
             None => "no zone is fed by two gauges and no gauge lies in a zone fed by another gauge: nothing to compare"
                 .to_string(),
         })
-    } else if comparisons.len() < plans.len() {
+    } else if comparisons.len() < n_plans {
         Some(format!(
             "{} of {} comparisons had fewer than 3 common times and were skipped",
-            plans.len() - comparisons.len(),
-            plans.len()
+            n_plans - comparisons.len(),
+            n_plans
         ))
     } else {
         None

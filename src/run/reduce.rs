@@ -13,7 +13,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::load::{locator_for_crs, output_clashes, Loaded, PlannedOutput};
-use crate::compute::qa::{MapSample, QaAccumulator};
+use crate::compute::qa::{Judged, QaAccumulator, QaRow};
 use crate::compute::reduce::{
     applied_tide_m, reduce_depth, DiscreteZoning, Query, Scratch, SoundingStatus, StatusCounts,
     TideModel, TideOutcome, N_STATUS,
@@ -24,6 +24,9 @@ use crate::io::atomic::{remove_stale_partials, AtomicFile};
 use crate::io::error::{IoError, Position};
 use crate::io::numfmt::{push_fixed, round_to, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
 use crate::io::project::{Delimiter, SoundingsSpec};
+use crate::io::sounding_export::{
+    ExportBuf, ExportKind, ExportParts, FAILING_FILE, UNREDUCED_FILE,
+};
 use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
 
 /// Columns ebbwise appends to every input row, in order.
@@ -249,6 +252,12 @@ pub struct RunSummary {
     /// files, UTC seconds.
     #[serde(skip)]
     pub time_range_s: Option<(f64, f64)>,
+    /// The GeoJSON exports written (failing, unreduced), with the QA counts.
+    #[serde(skip)]
+    pub exports: Vec<PathBuf>,
+    /// The correction file applied (an apply run).
+    #[serde(skip)]
+    pub correction_file: Option<PathBuf>,
 }
 
 impl RunSummary {
@@ -290,7 +299,8 @@ struct FileCtx<'a> {
     gauge_ids: Vec<&'a str>,
     loaded: &'a Loaded,
     group: usize,
-    map_stride: u64,
+    /// Width of a QA map cell in the group's CRS units.
+    map_cell: f64,
 }
 
 #[derive(Default)]
@@ -305,12 +315,43 @@ struct ChunkOut {
     t_min: f64,
     t_max: f64,
     qa: Option<QaAccumulator>,
+    /// Failing and unreduced rows for the GeoJSON exports (with the QA counts).
+    exports: ExportBuf,
 }
 
 const EXAMPLES_PER_STATUS: usize = 5;
 
-/// About how many soundings per file are kept for the QA map.
-const MAP_SAMPLES_PER_FILE: u64 = 6000;
+/// Width of a QA map cell in `crs` units: the zoning's extent there over
+/// [`MAP_CELLS_ACROSS`](crate::compute::qa::MAP_CELLS_ACROSS) (its longer side), so that one
+/// cell is a few pixels of the report's map.
+fn map_cell_width(zoning: &crate::io::zoning_geojson::ZoningSpec, crs: &str) -> f64 {
+    use geo::BoundingRect;
+    let mut lo = (f64::INFINITY, f64::INFINITY);
+    let mut hi = (f64::NEG_INFINITY, f64::NEG_INFINITY);
+    let t = crate::io::crs::Transformer::new("EPSG:4326", crs).ok();
+    for z in &zoning.zones {
+        let Some(r) = z.polygon_lonlat.bounding_rect() else {
+            continue;
+        };
+        for (x, y) in [
+            (r.min().x, r.min().y),
+            (r.max().x, r.min().y),
+            (r.min().x, r.max().y),
+            (r.max().x, r.max().y),
+        ] {
+            if let Some(Ok((px, py))) = t.as_ref().map(|t| t.convert(x, y)) {
+                lo = (lo.0.min(px), lo.1.min(py));
+                hi = (hi.0.max(px), hi.1.max(py));
+            }
+        }
+    }
+    let side = (hi.0 - lo.0).max(hi.1 - lo.1);
+    if side.is_finite() && side > 0.0 {
+        side / crate::compute::qa::MAP_CELLS_ACROSS
+    } else {
+        1.0
+    }
+}
 
 /// Output file name for an input file: `<stem>.reduced.csv` (or `.correctors.csv`,
 /// `.applied.csv`).
@@ -365,12 +406,16 @@ pub fn run_outputs(
             ("reduce-summary.json", "the run summary"),
             ("qa-report.json", "the QA report"),
             ("qa-report.html", "the QA report page"),
+            (FAILING_FILE, "the failing soundings (GeoJSON)"),
+            (UNREDUCED_FILE, "the unreduced soundings (GeoJSON)"),
         ],
         RunKind::SoundingCorrectors => &[],
         RunKind::Apply(..) => &[
             ("apply-summary.json", "the run summary"),
             ("qa-report.json", "the QA report"),
             ("qa-report.html", "the QA report page"),
+            (FAILING_FILE, "the failing soundings (GeoJSON)"),
+            (UNREDUCED_FILE, "the unreduced soundings (GeoJSON)"),
         ],
     };
     for (name, what) in summaries {
@@ -476,9 +521,18 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         )
         .chain(std::iter::once(loaded.project.spec.zoning.as_path()))
         .collect();
+    // With the QA counts, the failing and unreduced soundings are exported as GeoJSON.
+    let exporting =
+        loaded.uncertainty.is_some() && !matches!(opts.kind, RunKind::SoundingCorrectors);
     let files: Result<Vec<FileSummary>, IoError> = jobs
         .par_iter()
-        .map(|(gi, group, input, out)| {
+        .enumerate()
+        .map(|(k, (gi, group, input, out))| {
+            let parts = if exporting {
+                Some(ExportParts::create(&opts.out_dir, k, &group.crs)?)
+            } else {
+                None
+            };
             let zoning = DiscreteZoning {
                 zones: &loaded.zones,
                 gauges: &loaded.gauges,
@@ -540,13 +594,30 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 model,
                 &inputs,
                 opts.progress,
+                parts,
             )
         })
         .collect();
     if let Some(p) = opts.progress {
         p.finish();
     }
-    let mut files = files?;
+    let mut files = match files {
+        Ok(f) => f,
+        Err(e) => {
+            crate::io::sounding_export::remove_parts(&opts.out_dir, jobs.len());
+            return Err(e);
+        }
+    };
+    let exports = if exporting {
+        crate::io::sounding_export::join_parts(
+            &opts.out_dir,
+            jobs.len(),
+            &loaded.project.spec.name,
+        )?
+        .to_vec()
+    } else {
+        Vec::new()
+    };
     let mut totals = [0u64; N_STATUS];
     let mut per_zone = vec![[0u64; N_STATUS]; loaded.zones.len()];
     let mut qa: Option<QaAccumulator> = None;
@@ -616,6 +687,11 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         accepted_input_differences: Vec::new(),
         qa,
         time_range_s,
+        exports,
+        correction_file: match opts.kind {
+            RunKind::Apply(_, path) => Some(path.to_path_buf()),
+            _ => None,
+        },
     })
 }
 
@@ -638,6 +714,7 @@ fn reduce_file(
     model: &dyn TideModel,
     inputs: &[&Path],
     progress: Option<&dyn Progress>,
+    mut parts: Option<ExportParts>,
 ) -> Result<FileSummary, IoError> {
     let file = File::open(input).map_err(|e| IoError::file(input, e))?;
     let mut reader = ChunkReader::new(file, 1);
@@ -656,8 +733,6 @@ fn reduce_file(
         loaded.project.naive_offset,
         input,
     )?;
-    // Keep about MAP_SAMPLES_PER_FILE soundings for the QA map (rows estimated at 60 bytes).
-    let est_rows = std::fs::metadata(input).map(|m| m.len() / 60).unwrap_or(0);
     let ctx = FileCtx {
         kind,
         source_name: input
@@ -670,7 +745,7 @@ fn reduce_file(
         gauge_ids: loaded.gauges.iter().map(|g| g.id.as_str()).collect(),
         loaded,
         group: group_index,
-        map_stride: (est_rows / MAP_SAMPLES_PER_FILE).max(1),
+        map_cell: map_cell_width(&loaded.zoning, &group.crs),
     };
     let mut sink = AtomicFile::create(out, inputs)?;
     let mut header = Vec::new();
@@ -762,6 +837,7 @@ fn reduce_file(
         let mut pending: Vec<Chunk> = Vec::with_capacity(batch);
         let mut done = false;
         let mut read_error = None;
+        let mut export_error = None;
         while !done {
             while pending.len() < batch {
                 match chunk_rx.recv() {
@@ -815,6 +891,13 @@ fn reduce_file(
                         summary.examples.push(ex);
                     }
                 }
+                if let Some(p) = parts.as_mut() {
+                    if let Err(e) = p.write(&o.exports) {
+                        export_error = Some(e);
+                        done = true;
+                        break;
+                    }
+                }
                 if let Some(q) = o.qa {
                     match &mut summary.qa {
                         None => summary.qa = Some(q),
@@ -832,12 +915,15 @@ fn reduce_file(
         drop(out_tx);
         drop(chunk_rx);
         let sink = writer.join().expect("writer thread does not panic")?;
-        match read_error {
+        match read_error.or(export_error) {
             Some(e) => Err(e),
             None => Ok(sink),
         }
     });
     let sink = written?;
+    if let Some(p) = parts {
+        p.finish()?;
+    }
     sink.commit()?;
     summary.rows_by_status = StatusCounts(counts);
     Ok(summary)
@@ -1113,12 +1199,26 @@ fn process_chunk(
         let mut zone: Option<usize> = None;
         let mut tide = None;
         let mut unc_cols: Option<([f64; 10], bool)> = None;
+        // What the QA counts take of the row: its line (the file's name when the file has no
+        // line column), time, position and judgement.
+        let mut row_line: &str = &ctx.source_name;
+        let mut row_t: Option<f64> = None;
+        let mut row_at: Option<(f64, f64)> = None;
+        let mut judged: Option<(f64, [f64; 6])> = None;
+        let mut drying = false;
         let status = if !utf8_ok {
             detail.push_str("the line is not valid UTF-8 text");
             SoundingStatus::BadInput
         } else {
             match ctx.layout.parse(line, &fields) {
                 Err(p) => {
+                    if let Some(l) = ctx
+                        .layout
+                        .line_text(line, &fields)
+                        .filter(|l| !l.is_empty())
+                    {
+                        row_line = l;
+                    }
                     detail.push_str("field '");
                     detail.push_str(&p.field);
                     detail.push_str("': ");
@@ -1126,6 +1226,11 @@ fn process_chunk(
                     SoundingStatus::BadInput
                 }
                 Ok(v) => {
+                    if !v.line_id.is_empty() {
+                        row_line = v.line_id;
+                    }
+                    row_t = Some(v.t_s);
+                    row_at = Some((v.x, v.y));
                     o.parsed += 1;
                     if v.depth_m < 0.0 {
                         o.negative += 1;
@@ -1152,6 +1257,7 @@ fn process_chunk(
                             zone = Some(z);
                             let tide_m = applied_tide_m(tide_m);
                             let reduced = reduce_depth(v.depth_m, tide_m);
+                            drying = reduced < 0.0;
                             tide = Some((tide_m, reduced));
                             // The tide's budget, as the model gives it. Propagated as written
                             // (4 decimals), like the tide: a change of at most 0.05 mm that
@@ -1187,17 +1293,7 @@ fn process_chunk(
                                     }
                                 }));
                                 let var = [u_snd * u_snd, bv[0], bv[1], bv[2], bv[3], bv[4]];
-                                if let Some(q) = o.qa.as_mut() {
-                                    q.add(z, v.line_id, &within, verdict.ratio, &var);
-                                    if line_no % ctx.map_stride == 0 {
-                                        q.samples.push(MapSample {
-                                            group: ctx.group,
-                                            x: v.x,
-                                            y: v.y,
-                                            ratio: verdict.ratio,
-                                        });
-                                    }
-                                }
+                                judged = Some((verdict.ratio, var));
                                 unc_cols = Some((
                                     [
                                         comps[0], comps[1], comps[2], comps[3], comps[4], u_tide,
@@ -1363,6 +1459,55 @@ fn process_chunk(
         } else {
             write_reduced_tail(&mut o.bytes, ctx, zone, tide, status, &detail, unc_cols);
         }
+        if o.qa.is_some() {
+            let failing = unc_cols.is_some_and(|(_, within)| !within);
+            let unreduced = status.index() >= crate::compute::qa::FIRST_UNREDUCED_STATUS;
+            if failing || unreduced {
+                let e = &mut o.exports;
+                let start = e.begin(&ctx.source_name, line_no, row_line, status.as_str());
+                if let Some(t) = row_t {
+                    let mut s = String::with_capacity(24);
+                    crate::io::timefmt::push_utc(&mut s, t);
+                    e.str_prop("time_utc", &s);
+                }
+                if let Some(z) = zone {
+                    e.str_prop("zone", ctx.zone_ids[z]);
+                }
+                if let Some((t, d)) = tide {
+                    e.num_prop("tide_m", t, HEIGHT_DECIMALS);
+                    e.num_prop("reduced_depth_m", d, HEIGHT_DECIMALS);
+                }
+                if let (Some((vals, _)), Some((ratio, _))) = (unc_cols, judged) {
+                    e.num_prop("u95_tvu_m", vals[8], UNCERTAINTY_DECIMALS);
+                    e.num_prop("allowed_u95_tvu_m", vals[9], UNCERTAINTY_DECIMALS);
+                    e.num_prop("ratio", ratio, 3);
+                }
+                if !detail.is_empty() {
+                    e.str_prop("status_detail", &detail);
+                }
+                let kind = if unreduced {
+                    ExportKind::Unreduced
+                } else {
+                    ExportKind::Failing
+                };
+                e.end(kind, row_at, start);
+            }
+        }
+        if let Some(q) = o.qa.as_mut() {
+            q.add(&QaRow {
+                zone,
+                line: row_line,
+                t_s: row_t,
+                status: status.index(),
+                at: row_at.map(|(x, y)| (ctx.group, x, y, ctx.map_cell)),
+                drying,
+                judged: judged.map(|(ratio, var_m2)| Judged {
+                    within: &within,
+                    ratio,
+                    var_m2,
+                }),
+            });
+        }
         if let Some(z) = zone {
             o.per_zone[z][status.index()] += 1;
         }
@@ -1377,6 +1522,9 @@ fn process_chunk(
                 detail: detail.clone(),
             });
         }
+    }
+    if let Some(q) = o.qa.as_mut() {
+        q.set_file(&ctx.source_name);
     }
     o
 }

@@ -461,6 +461,31 @@ fn apply_with_uncertainty_equals_reduce_in_every_column_and_the_qa_report() {
     assert_eq!(sound["tide_model"], "correction_file");
     direct.as_object_mut().unwrap().remove("tide_model");
     sound.as_object_mut().unwrap().remove("tide_model");
+    // And the inputs each lists: the apply run's are the reduction's and the correction file.
+    let pd = direct
+        .as_object_mut()
+        .unwrap()
+        .remove("provenance")
+        .unwrap();
+    let ps = sound.as_object_mut().unwrap().remove("provenance").unwrap();
+    let roles = |p: &serde_json::Value| -> Vec<String> {
+        p["inputs"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|i| {
+                format!(
+                    "{} {}",
+                    i["role"].as_str().unwrap(),
+                    i["sha256"].as_str().unwrap()
+                )
+            })
+            .collect()
+    };
+    let (rd, rs) = (roles(&pd), roles(&ps));
+    assert_eq!(rs.len(), rd.len() + 1);
+    assert_eq!(rs[..rd.len()], rd[..]);
+    assert!(rs[rd.len()].starts_with("correction file "), "{rs:?}");
     assert_eq!(direct, sound);
     assert!(p("sound/qa-report.html").exists());
     // From the per-zone file the survey's counts agree within the verdicts that differ.

@@ -170,7 +170,7 @@ fn report_counts_are_the_rows_verdicts() {
         assert_eq!(order["soundings_within"].as_u64(), Some(yes), "{}", g["id"]);
         // The share is the count's, rounded down to 0.001 (docs/outputs.md), written as that
         // short decimal.
-        let share = (1000 * yes / n) as f64 / 1000.0;
+        let share = (1000 * yes).checked_div(n).unwrap_or(0) as f64 / 1000.0;
         assert_eq!(order["share_within"].as_f64(), Some(share), "{}", g["id"]);
         assert_eq!(
             g["share_within_chosen"].as_f64(),
@@ -312,10 +312,9 @@ fn html_report_has_its_plots_and_no_outside_resources() {
         .select(&sel("svg.plot > title"))
         .map(|t| t.text().collect())
         .collect();
-    assert_eq!(titles.len(), 4, "{titles:?}");
+    assert_eq!(titles.len(), 3, "{titles:?}");
     for want in [
         "Map of zones",
-        "Tide above chart datum",
         "share of each component",
         "Histogram of U95",
     ] {
@@ -325,7 +324,10 @@ fn html_report_has_its_plots_and_no_outside_resources() {
         );
     }
     let svgs: Vec<_> = doc.select(&sel("svg.plot")).collect();
-    assert!(svgs[0].select(&sel("circle")).count() > 1000, "map points");
+    assert!(
+        svgs[0].select(&sel("g.judged circle")).count() > 1000,
+        "map points"
+    );
     assert_eq!(
         svgs[0].select(&sel("path.zone")).count(),
         7,
@@ -365,19 +367,15 @@ fn html_report_has_its_plots_and_no_outside_resources() {
         assert!(row.contains(&want), "{row} / {want}");
     }
     assert!(
-        svgs[1].select(&sel("path")).count() >= 14,
-        "a band and a line per zone"
-    );
-    assert!(
-        svgs[2].select(&sel("rect")).count() >= 8 * 6,
+        svgs[1].select(&sel("rect")).count() >= 8 * 6,
         "stacked bars"
     );
-    assert!(svgs[3].select(&sel("rect")).count() > 5, "histogram bars");
+    assert!(svgs[2].select(&sel("rect")).count() > 5, "histogram bars");
     let axis_text: String = doc
         .select(&sel("svg text.axis"))
         .flat_map(|t| t.text())
         .collect();
-    for unit in ["(degrees east", "(m)", "(%)", "Soundings", "(UTC)"] {
+    for unit in ["(degrees east", "(m)", "(%)", "Soundings"] {
         assert!(
             axis_text.contains(unit),
             "axis label with unit {unit}: {axis_text}"
@@ -435,16 +433,11 @@ fn html_report_has_its_plots_and_no_outside_resources() {
     );
     assert!(verdict.contains(&of_all), "{of_all}: {verdict}");
     let zones_table = doc
-        .select(&sel("table"))
-        .find(|t| {
-            t.text()
-                .collect::<String>()
-                .starts_with("zonesoundingswithin chosen")
-        })
+        .select(&sel("table.zones"))
+        .next()
         .expect("the Zones table");
     let cells: Vec<Vec<String>> = zones_table
-        .select(&sel("tr"))
-        .skip(1)
+        .select(&sel("tbody tr"))
         .map(|tr| {
             tr.select(&sel("td"))
                 .map(|td| td.text().collect())
@@ -452,22 +445,48 @@ fn html_report_has_its_plots_and_no_outside_resources() {
         })
         .collect();
     let zones = report["zones"].as_array().unwrap();
-    assert_eq!(cells.len(), zones.len());
+    // A row per zone, one for the soundings in no zone; the survey's row is of headings.
+    assert_eq!(cells.len(), zones.len() + 2);
     for (row, z) in cells.iter().zip(zones) {
-        assert_eq!(row[0], z["id"].as_str().unwrap());
+        let id = z["id"].as_str().unwrap();
+        assert_eq!(row[0].trim_end_matches(" †"), id);
+        // Marked when the zone runs on a default (the demo's VW7 does).
+        let defaulted = !z["defaulted_inputs"].as_array().unwrap().is_empty();
+        assert_eq!(row[0].ends_with(" †"), defaulted, "{row:?}");
+        assert_eq!(row[1], z["all_soundings"].to_string(), "{row:?}");
+        for (k, st) in STATUSES.iter().enumerate() {
+            assert_eq!(row[2 + k], z["by_status"][st].to_string(), "{row:?}");
+        }
         let share = z["share_within_chosen"].as_f64().unwrap();
-        assert_eq!(row[2], format!("{:.1} %", 100.0 * share), "{row:?}");
+        assert_eq!(row[9], format!("{:.1} %", 100.0 * share), "{row:?}");
+        let of_all = z["share_within_of_all"].as_f64().unwrap();
+        assert_eq!(row[10], format!("{:.1} %", 100.0 * of_all), "{row:?}");
+        assert_eq!(row[11], z["drying_heights"].to_string(), "{row:?}");
         let p95 = z["p95_ratio_chosen"].as_f64().unwrap();
-        assert_eq!(row[3], format!("{p95:.3}"), "{row:?}");
+        assert_eq!(row[13], format!("{p95:.3}"), "{row:?}");
     }
-    for attr in ["src", "href"] {
-        let with_attr: Vec<_> = doc
-            .select(&sel(&format!("[{attr}]")))
-            .map(|e| format!("{:?}", e.value()))
-            .collect();
-        assert!(with_attr.is_empty(), "outside resources: {with_attr:?}");
-    }
-    assert!(!html.contains("<script"));
+    assert!(report["zones"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|z| !z["defaulted_inputs"].as_array().unwrap().is_empty()));
+    // Only the exports are linked (relative, beside the page); nothing is fetched.
+    let hrefs: Vec<String> = doc
+        .select(&sel("[href]"))
+        .map(|e| e.value().attr("href").unwrap().to_string())
+        .collect();
+    assert_eq!(
+        hrefs,
+        ["failing-soundings.geojson", "unreduced-soundings.geojson"]
+    );
+    assert_eq!(doc.select(&sel("[src]")).count(), 0, "outside resources");
+    // The one script only sorts the lines table.
+    let scripts: Vec<String> = doc
+        .select(&sel("script"))
+        .map(|e| e.text().collect())
+        .collect();
+    assert_eq!(scripts.len(), 1);
+    assert!(scripts[0].contains("table.sortable") && !scripts[0].contains("http"));
 }
 
 #[test]
@@ -530,5 +549,456 @@ fn io_depends_on_compute_alone() {
     }
     assert!(offenders.is_empty(), "io names run: {offenders:?}");
     let html = std::fs::read_to_string(repo().join("src/io/report_html.rs")).unwrap();
-    assert!(html.contains("use crate::compute::qa_report::QaReport;"));
+    assert!(html.contains("use crate::compute::qa_report::{MapMark, QaReport};"));
+}
+
+/// One row of the demo's reduced files, any status, as written.
+struct AnyRow {
+    file: &'static str,
+    /// 1-based line in the input file (the header is line 1).
+    input_line: u64,
+    line: String,
+    zone: String,
+    status: String,
+    /// Milliseconds since 1970 (rows that could be read).
+    t_ms: Option<i64>,
+    reduced_depth: Option<f64>,
+    within: Option<bool>,
+    /// u95/allowed of the written values.
+    ratio: Option<f64>,
+    /// u_sounding_m and the five u_tide_ components, as written.
+    comps: Option<[f64; 6]>,
+}
+
+fn any_rows(out: &std::path::Path) -> Vec<AnyRow> {
+    let mut all = Vec::new();
+    for (name, input, time_col) in [
+        ("launch-a.reduced.csv", "launch-a.csv", "time"),
+        ("launch-b.reduced.csv", "launch-b.txt", "unix_s"),
+    ] {
+        let (h, rows) = read_csv(&out.join(name));
+        let c = |n: &str| h.iter().position(|x| x == n).unwrap();
+        for (i, r) in rows.iter().enumerate() {
+            let status = r[c("status")].clone();
+            let num = |n: &str| r[c(n)].parse::<f64>().ok();
+            let t_ms = (status != "bad_input").then(|| {
+                let t = &r[c(time_col)];
+                match time_col {
+                    "time" => chrono::DateTime::parse_from_rfc3339(t)
+                        .unwrap()
+                        .timestamp_millis(),
+                    _ => (t.parse::<f64>().unwrap() * 1000.0).round() as i64,
+                }
+            });
+            let judged = status == "reduced" || status == "gap_filled";
+            let line = r[c("line")].trim().to_string();
+            all.push(AnyRow {
+                file: input,
+                input_line: i as u64 + 2,
+                line: if line.is_empty() {
+                    input.to_string()
+                } else {
+                    line
+                },
+                zone: r[c("zone")].clone(),
+                status,
+                t_ms,
+                reduced_depth: num("reduced_depth_m"),
+                within: judged.then(|| r[c("within_order")] == "yes"),
+                ratio: judged.then(|| {
+                    units(&r[c("u95_tvu_m")]) as f64 / units(&r[c("allowed_u95_tvu_m")]) as f64
+                }),
+                comps: judged.then(|| {
+                    [
+                        "u_sounding_m",
+                        "u_tide_gauge_m",
+                        "u_tide_datum_m",
+                        "u_tide_range_m",
+                        "u_tide_timing_m",
+                        "u_tide_zone_m",
+                    ]
+                    .map(|n| num(n).unwrap())
+                }),
+            });
+        }
+    }
+    all
+}
+
+const STATUSES: [&str; 6] = [
+    "reduced",
+    "gap_filled",
+    "outside_zoning",
+    "no_gauge_data",
+    "gauge_flagged",
+    "bad_input",
+];
+
+/// Every count, share, drying height, worst ratio, budget in metres, line span and export of
+/// the report, recomputed from the reduced files (all statuses), for the survey, every zone and
+/// every line: a sounding not reduced is in the counts of its zone (when it has one) and line.
+#[test]
+fn every_sounding_is_in_the_report_as_the_reduced_files_have_it() {
+    let (out, _) = reduce_demo(&[]);
+    let report: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let rows = any_rows(out.path());
+    let mut groups_checked = 0;
+    let mut check = |g: &serde_json::Value, pick: &dyn Fn(&AnyRow) -> bool| {
+        let mine: Vec<&AnyRow> = rows.iter().filter(|r| pick(r)).collect();
+        let id = g["id"].to_string();
+        assert_eq!(g["all_soundings"].as_u64(), Some(mine.len() as u64), "{id}");
+        for s in STATUSES {
+            let n = mine.iter().filter(|r| r.status == s).count() as u64;
+            assert_eq!(g["by_status"][s].as_u64(), Some(n), "{id} {s}");
+        }
+        let judged: Vec<&&AnyRow> = mine.iter().filter(|r| r.within.is_some()).collect();
+        let within = judged.iter().filter(|r| r.within == Some(true)).count() as u64;
+        assert_eq!(g["soundings"].as_u64(), Some(judged.len() as u64), "{id}");
+        // Of all soundings, rounded down to 0.001 (docs/outputs.md).
+        let of_all = if mine.is_empty() {
+            0.0
+        } else {
+            (1000 * within / mine.len() as u64) as f64 / 1000.0
+        };
+        assert_eq!(g["share_within_of_all"].as_f64(), Some(of_all), "{id}");
+        let drying = judged
+            .iter()
+            .filter(|r| r.reduced_depth.unwrap() < 0.0)
+            .count() as u64;
+        assert_eq!(g["drying_heights"].as_u64(), Some(drying), "{id}");
+        // The largest ratio, rounded up to 0.001; the written values' ratio, so within 1e-4 of
+        // the report's (computed from unrounded values) before the rounding.
+        let worst = judged
+            .iter()
+            .map(|r| r.ratio.unwrap())
+            .fold(f64::NEG_INFINITY, f64::max);
+        match g["max_ratio_chosen"].as_f64() {
+            Some(m) => assert!(
+                m >= worst - 1e-3 && m <= worst + 1.1e-3,
+                "{id}: {m} {worst}"
+            ),
+            None => assert!(judged.is_empty(), "{id}"),
+        }
+        // The budget in metres: the RMS of each written component, within the rounding of the
+        // written values (0.05 mm) and of the report (0.05 mm).
+        if let Some(comps) = g["budget"]["components"].as_array() {
+            for (k, c) in comps.iter().enumerate() {
+                if judged.is_empty() {
+                    break;
+                }
+                let ms: f64 = judged
+                    .iter()
+                    .map(|r| r.comps.unwrap()[k].powi(2))
+                    .sum::<f64>()
+                    / judged.len() as f64;
+                let rms = c["rms_m"].as_f64().unwrap();
+                assert!(
+                    (rms - ms.sqrt()).abs() <= 1.0e-4,
+                    "{id} {}: {rms} vs {}",
+                    c["component"],
+                    ms.sqrt()
+                );
+            }
+        }
+        groups_checked += 1;
+        mine
+    };
+    check(&report["survey"], &|_| true);
+    let mut zone_total = 0;
+    for z in report["zones"].as_array().unwrap() {
+        let id = z["id"].as_str().unwrap().to_string();
+        zone_total += check(z, &|r| r.zone == id).len();
+    }
+    // The rest are in no zone, by status.
+    let no_zone: Vec<&AnyRow> = rows.iter().filter(|r| r.zone.is_empty()).collect();
+    assert_eq!(zone_total + no_zone.len(), rows.len());
+    for s in STATUSES {
+        let n = no_zone.iter().filter(|r| r.status == s).count() as u64;
+        assert_eq!(report["no_zone"][s].as_u64(), Some(n), "no zone {s}");
+    }
+    let mut line_total = 0;
+    for l in report["lines"].as_array().unwrap() {
+        let id = l["id"].as_str().unwrap().to_string();
+        let mine = check(l, &|r| r.line == id);
+        line_total += mine.len();
+        // Its files, zones crossed and time span.
+        let files: std::collections::BTreeSet<&str> = mine.iter().map(|r| r.file).collect();
+        let listed: std::collections::BTreeSet<&str> = l["files"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|f| f.as_str().unwrap())
+            .collect();
+        assert_eq!(files, listed, "{id}");
+        let zones: std::collections::BTreeSet<&str> = mine
+            .iter()
+            .filter(|r| !r.zone.is_empty())
+            .map(|r| r.zone.as_str())
+            .collect();
+        let crossed: std::collections::BTreeSet<&str> = l["zones_crossed"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|f| f.as_str().unwrap())
+            .collect();
+        assert_eq!(zones, crossed, "{id}");
+        let ms = |v: &serde_json::Value| {
+            chrono::DateTime::parse_from_rfc3339(v.as_str().unwrap())
+                .unwrap()
+                .timestamp_millis()
+        };
+        match mine.iter().filter_map(|r| r.t_ms).min() {
+            Some(first) => {
+                let last = mine.iter().filter_map(|r| r.t_ms).max().unwrap();
+                assert_eq!(ms(&l["first_utc"]), first, "{id}");
+                assert_eq!(ms(&l["last_utc"]), last, "{id}");
+            }
+            // A line of unreadable rows only has no time.
+            None => assert!(l["first_utc"].is_null() && l["last_utc"].is_null(), "{id}"),
+        }
+    }
+    assert_eq!(line_total, rows.len());
+    // The demo's day has soundings of every kind the report counts.
+    let s = &report["survey"];
+    assert!(s["drying_heights"].as_u64().unwrap() > 0);
+    for st in [
+        "outside_zoning",
+        "no_gauge_data",
+        "gauge_flagged",
+        "bad_input",
+    ] {
+        assert!(s["by_status"][st].as_u64().unwrap() > 0, "{st}");
+    }
+    assert!(groups_checked > 40, "{groups_checked}");
+    // A line with nothing judged (all its soundings without gauge data) fails and is listed.
+    let no_judged: Vec<&str> = report["lines"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|l| l["soundings"] == 0 && l["all_soundings"].as_u64() > Some(0))
+        .map(|l| l["id"].as_str().unwrap())
+        .collect();
+    assert!(!no_judged.is_empty());
+    for id in no_judged {
+        assert!(
+            report["failing_lines"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|f| f["id"] == id && f["soundings"] == 0),
+            "{id}"
+        );
+    }
+
+    // The exports: one feature per failing row and per unreduced row, each naming its file,
+    // row, line and status as the reduced file has them.
+    let export = |name: &str| -> Vec<serde_json::Value> {
+        let v: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(out.path().join(name)).unwrap()).unwrap();
+        assert_eq!(v["type"], "FeatureCollection");
+        v["features"].as_array().unwrap().clone()
+    };
+    let key = |f: &serde_json::Value| {
+        let p = &f["properties"];
+        (
+            p["file"].as_str().unwrap().to_string(),
+            p["row"].as_u64().unwrap(),
+            p["line"].as_str().unwrap().to_string(),
+            p["status"].as_str().unwrap().to_string(),
+        )
+    };
+    let row_key = |r: &AnyRow| {
+        (
+            r.file.to_string(),
+            r.input_line,
+            r.line.clone(),
+            r.status.clone(),
+        )
+    };
+    let failing: Vec<_> = export("failing-soundings.geojson")
+        .iter()
+        .map(key)
+        .collect();
+    let want: Vec<_> = rows
+        .iter()
+        .filter(|r| r.within == Some(false))
+        .map(row_key)
+        .collect();
+    assert_eq!(failing.len(), want.len());
+    assert!(
+        failing == want,
+        "failing export differs from the reduced files"
+    );
+    let unreduced_features = export("unreduced-soundings.geojson");
+    let unreduced: Vec<_> = unreduced_features.iter().map(key).collect();
+    let want: Vec<_> = rows
+        .iter()
+        .filter(|r| r.within.is_none())
+        .map(row_key)
+        .collect();
+    assert!(
+        unreduced == want,
+        "unreduced export differs from the reduced files"
+    );
+    // Every readable one is placed (in longitude/latitude, inside the demo area); a bad row
+    // with no readable position has none.
+    for f in &unreduced_features {
+        let g = &f["geometry"];
+        if f["properties"]["status"] == "bad_input" {
+            continue;
+        }
+        let lon = g["coordinates"][0].as_f64().unwrap();
+        let lat = g["coordinates"][1].as_f64().unwrap();
+        assert!(
+            (-36.3..-35.8).contains(&lon) && (-47.7..-47.3).contains(&lat),
+            "{lon} {lat}"
+        );
+    }
+    assert_eq!(
+        report["exports"],
+        serde_json::json!(["failing-soundings.geojson", "unreduced-soundings.geojson"])
+    );
+}
+
+/// The page's structure, checked against the JSON it renders: every section in order, a row
+/// in each table for every zone, line, input file, failing group and status, a tide panel per
+/// zone and a difference panel per gauge pair, the map's gauges and its three kinds of mark, the
+/// thinning said, and a print stylesheet that keeps headings with what follows.
+#[test]
+fn the_page_has_every_section_and_every_row() {
+    let (out, _) = reduce_demo(&[]);
+    let html = std::fs::read_to_string(out.path().join("qa-report.html")).unwrap();
+    let report: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let doc = scraper::Html::parse_document(&html);
+    let sel = |s: &str| scraper::Selector::parse(s).unwrap();
+    let headings: Vec<String> = doc.select(&sel("h2")).map(|h| h.text().collect()).collect();
+    let want = [
+        "Survey orders",
+        "Map: every sounding",
+        "Zones",
+        "Survey lines",
+        "Zones and lines that fail",
+        "Tide per zone",
+        "Gauge differences",
+        "Zone-boundary steps",
+        "Uncertainty budget per zone",
+        "U95 / allowed",
+        "Uncertainty inputs",
+        "Where the numbers came from",
+    ];
+    assert_eq!(headings.len(), want.len(), "{headings:?}");
+    for (h, w) in headings.iter().zip(want) {
+        assert!(h.starts_with(w), "{h} / {w}");
+    }
+    let rows = |table: &str| doc.select(&sel(&format!("{table} tbody tr"))).count();
+    // Status table: six statuses and the total, which is every sounding.
+    assert_eq!(rows("table.status"), 7);
+    let total: u64 = report["rows_by_status"]
+        .as_object()
+        .unwrap()
+        .values()
+        .map(|v| v.as_u64().unwrap())
+        .sum();
+    let last: String = doc
+        .select(&sel("table.status tbody tr"))
+        .nth(6)
+        .unwrap()
+        .text()
+        .collect();
+    assert!(last.contains(&total.to_string()), "{last}");
+    let n = |k: &str| report[k].as_array().unwrap().len();
+    assert_eq!(rows("table.zones"), n("zones") + 2);
+    assert_eq!(rows("table.lines"), n("lines"));
+    assert_eq!(
+        rows("table.failing"),
+        n("failing_zones") + n("failing_lines")
+    );
+    assert_eq!(
+        rows("table.inputs"),
+        report["provenance"]["inputs"].as_array().unwrap().len()
+    );
+    assert_eq!(rows("table.budget"), n("zones") + 1);
+    // Every input file's SHA-256 is on the page.
+    for i in report["provenance"]["inputs"].as_array().unwrap() {
+        assert!(html.contains(i["sha256"].as_str().unwrap()));
+    }
+    let roles: Vec<&str> = report["provenance"]["inputs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|i| i["role"].as_str().unwrap())
+        .collect();
+    for r in ["project", "zoning", "gauge record 'orlick'", "soundings"] {
+        assert!(roles.contains(&r), "{r}: {roles:?}");
+    }
+    // The lines table is sortable and lists its lines worst first (share within of all).
+    let line_shares: Vec<f64> = doc
+        .select(&sel("table.lines tbody tr"))
+        .map(|tr| {
+            tr.select(&sel("td"))
+                .nth(14)
+                .unwrap()
+                .value()
+                .attr("data-sort")
+                .unwrap()
+                .parse()
+                .unwrap()
+        })
+        .collect();
+    assert!(
+        line_shares.windows(2).all(|w| w[0] <= w[1]),
+        "{line_shares:?}"
+    );
+    assert_eq!(
+        doc.select(&sel("table.lines.sortable thead th")).count(),
+        20
+    );
+    // A tide panel per zone, each with its tide line and its gauges' samples; the demo's gaps
+    // are labelled and its QC-flagged samples drawn.
+    let panels: Vec<_> = doc.select(&sel("figure.tide-panel")).collect();
+    assert_eq!(panels.len(), n("zones"));
+    for p in &panels {
+        assert!(p.select(&sel("path.tide")).count() >= 1);
+        assert!(p.select(&sel("circle.sample")).count() > 50);
+    }
+    let gap_labels: Vec<String> = doc
+        .select(&sel("figure.tide-panel text.gaplabel"))
+        .map(|t| t.text().collect())
+        .collect();
+    assert!(
+        gap_labels
+            .iter()
+            .any(|g| g.starts_with("no tide 13:1") && g.contains('–')),
+        "{gap_labels:?}"
+    );
+    assert!(doc.select(&sel("figure.tide-panel path.flagged")).count() > 0);
+    // A difference panel per gauge pair compared.
+    let pairs = report["gauge_differences"].as_array().unwrap();
+    assert!(!pairs.is_empty());
+    assert_eq!(doc.select(&sel("figure.diff-panel")).count(), pairs.len());
+    // The map: every gauge, a scale bar and north arrow, drying heights and unreduced soundings
+    // in their own symbols, and the thinning said.
+    let map = doc.select(&sel("svg.plot")).next().unwrap();
+    assert_eq!(
+        map.select(&sel("path.gauge")).count(),
+        3 + 7,
+        "3 gauges, 7 virtual"
+    );
+    assert_eq!(map.select(&sel("g.scalebar")).count(), 1);
+    assert_eq!(map.select(&sel("g.north")).count(), 1);
+    assert!(map.select(&sel("g.drying rect")).count() > 10);
+    assert!(map.select(&sel("g.unreduced path")).count() > 10);
+    let page: String = doc.root_element().text().collect();
+    assert!(page.contains("worst U95/allowed, and, where the cell has them"));
+    assert!(page.contains("so no failing, drying or unreduced sounding is hidden"));
+    // The budget in metres.
+    assert!(page.contains("RMS u_tvu (m)"));
+    // Printing: headings kept with their content, plots and tables not split.
+    let style: String = doc.select(&sel("style")).flat_map(|s| s.text()).collect();
+    let print = &style[style.find("@media print").expect("a print stylesheet")..];
+    assert!(print.contains("h2 {") && print.contains("break-after: avoid"));
+    assert!(print.contains("break-inside: avoid"));
+    assert!(page.contains("qualified hydrographic review"));
 }
