@@ -243,7 +243,7 @@ pub(crate) fn step_edges_svg(
 }
 
 fn map_svg(r: &QaReport, out: &mut String) {
-    let (w, h, m) = (720.0, 520.0, 56.0);
+    let (w, m) = (720.0, 56.0);
     let mut lon = (f64::INFINITY, f64::NEG_INFINITY);
     let mut lat = (f64::INFINITY, f64::NEG_INFINITY);
     for (_, mp) in &r.zone_polygons {
@@ -262,6 +262,11 @@ fn map_svg(r: &QaReport, out: &mut String) {
         return;
     }
     let k = ((lat.0 + lat.1) / 2.0).to_radians().cos().max(0.01);
+    // As tall as the area's shape asks, within 420 to 760 px.
+    let aspect = (lat.1 - lat.0) / ((lon.1 - lon.0) * k).max(1e-12);
+    let h: f64 = (aspect * (w - 2.0 * m) + 2.0 * m)
+        .clamp(420.0, 760.0)
+        .round();
     let sx = (w - 2.0 * m) / ((lon.1 - lon.0) * k).max(1e-12);
     let sy = (h - 2.0 * m) / (lat.1 - lat.0).max(1e-12);
     let s = sx.min(sy);
@@ -475,7 +480,9 @@ fn map_svg(r: &QaReport, out: &mut String) {
     ];
     let _ = write!(
         out,
-        r#"<text x="{}" y="20" class="tick">U95 / allowed ({})</text>"#,
+        r##"<rect class="legend-box" x="{}" y="6" width="184" height="{}" fill="#ffffff" fill-opacity="0.9" stroke="#c8d2dc"/><text x="{}" y="20" class="tick">U95 / allowed ({})</text>"##,
+        w - 196.0,
+        32.0 + 16.0 * 5.0 + 44.0,
         w - 190.0,
         esc(&r.chosen_order.name)
     );
@@ -623,6 +630,7 @@ fn tide_panels(r: &QaReport, out: &mut String) {
         // Gaps first, beneath everything; a label that would overlap the one before it goes a
         // row lower (about 5 px a character at the label's size).
         let mut rows_end: Vec<f64> = Vec::new();
+        let mut gap_labels: Vec<String> = Vec::new();
         for (a, b) in tide_gaps(s) {
             let (xa, xb) = (x(a), x(b).max(x(a) + 2.0));
             let text = format!("no tide {}–{}", clock(a), clock(b));
@@ -639,11 +647,15 @@ fn tide_panels(r: &QaReport, out: &mut String) {
             }
             let _ = write!(
                 out,
-                r##"<rect class="gap" x="{xa:.1}" y="{mt}" width="{:.1}" height="{}" fill="#d9d9d9" fill-opacity="0.7"/><text x="{cx:.1}" y="{}" class="gaplabel" text-anchor="middle">{text}</text>"##,
+                r##"<rect class="gap" x="{xa:.1}" y="{mt}" width="{:.1}" height="{}" fill="#d9d9d9" fill-opacity="0.7"/>"##,
                 xb - xa,
-                h - mt - mb,
-                mt + 10.0 + 11.0 * row as f64
+                h - mt - mb
             );
+            // Drawn last, above the samples.
+            gap_labels.push(format!(
+                r#"<text x="{cx:.1}" y="{}" class="gaplabel" text-anchor="middle">{text}</text>"#,
+                mt + 10.0 + 11.0 * row as f64
+            ));
         }
         let yt = ticks(lo, hi, 4);
         let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };
@@ -748,6 +760,9 @@ fn tide_panels(r: &QaReport, out: &mut String) {
                 w - mr - 105.0 + 55.0 * k as f64,
                 esc(gid)
             );
+        }
+        for l in gap_labels {
+            out.push_str(&l);
         }
         out.push_str("</svg></figure>");
     }
@@ -1073,7 +1088,11 @@ fn judged_cells(o: &mut String, g: &crate::compute::qa::GroupSummary) {
         g.drying_heights,
         g.max_ratio_chosen.unwrap_or(0.0),
         g.max_ratio_chosen.map_or_else(|| "–".to_string(), ratio),
-        ratio(g.p95_ratio_chosen)
+        if g.soundings > 0 {
+            ratio(g.p95_ratio_chosen)
+        } else {
+            "–".to_string()
+        }
     );
 }
 
@@ -1084,7 +1103,8 @@ fn count_headings(o: &mut String, first: &str, extra: &[&str]) {
     }
     o.push_str("<th>all</th>");
     for h in STATUS_HEADINGS {
-        let _ = write!(o, "<th>{h}</th>");
+        // The status words may break after their underscores, to keep the table narrow.
+        let _ = write!(o, "<th>{}</th>", h.replace('_', "_<wbr>"));
     }
     o.push_str("<th>judged</th><th>within, of judged</th><th>within, of all</th><th>drying heights</th><th>worst U95/allowed</th><th>P95 U95/allowed</th>");
 }
@@ -1134,7 +1154,7 @@ fn push_zone_table(o: &mut String, r: &QaReport) {
         judged_cells(o, g);
         let _ = write!(
             o,
-            r#"<td>{}</td><td class="{yn}">{yn}</td><td class="mark">{}</td></tr>"#,
+            r#"<td>{}</td><td class="{yn}">{yn}</td><td class="mark defaults">{}</td></tr>"#,
             g.strictest_order_met.as_deref().unwrap_or("none"),
             esc(&short_defaults(&g.defaulted_inputs))
         );
@@ -1313,14 +1333,14 @@ svg .tick {{ font-size: 11px; fill: #2c3e50; }} svg .axis {{ font-size: 12px; fi
 svg .steplabel {{ font-size: 11px; font-weight: bold; fill: #111; paint-order: stroke; stroke: #fff; stroke-width: 3px; stroke-linejoin: round; }}
 svg .zlabel {{ font-size: 13px; font-weight: bold; fill: #12324d; text-anchor: middle; paint-order: stroke; stroke: #fff; stroke-width: 4px; stroke-linejoin: round; }}
 h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; font-size: 18px; }}
-.wide {{ overflow-x: auto; }} table.counts {{ font-size: 12px; }} table.counts td, table.counts th {{ padding: 3px 6px; }}
+.wide {{ overflow-x: auto; }} table.counts {{ font-size: 12px; }} table.counts td, table.counts th {{ padding: 3px 6px; }} table.counts td {{ white-space: nowrap; }}
 table.sortable th {{ cursor: pointer; }} table.sortable th::after {{ content: " ⇅"; color: #8a99a8; font-size: 10px; }}
-td.mark, span.mark {{ color: #b35900; font-weight: bold; }} td.left {{ text-align: left; }}
+td.mark, span.mark {{ color: #b35900; font-weight: bold; }} table.counts td.defaults {{ white-space: normal; min-width: 180px; text-align: left; }} td.left {{ text-align: left; }}
 table.lines td:nth-child(-n+4) {{ white-space: nowrap; }} table.counts th {{ vertical-align: bottom; }} code.hash {{ font-size: 11px; word-break: break-all; }}
 .panels {{ display: grid; grid-template-columns: repeat(auto-fill, minmax(340px, 1fr)); gap: 8px 14px; }}
 figure.panel {{ margin: 0; }} figure.panel figcaption {{ font-size: 12px; color: #34495e; }}
 svg.small {{ width: 100%; height: auto; display: block; background: #fff; border: 1px solid #e3e8ee; }}
-svg .ptitle {{ font-size: 12px; font-weight: bold; fill: #12324d; }} svg .gaplabel {{ font-size: 10px; fill: #444; }}
+svg .ptitle {{ font-size: 12px; font-weight: bold; fill: #12324d; }} svg .gaplabel {{ font-size: 10px; fill: #333; paint-order: stroke; stroke: #fff; stroke-width: 3px; stroke-linejoin: round; }}
 svg .glabel {{ font-size: 11px; font-weight: bold; fill: #111; paint-order: stroke; stroke: #fff; stroke-width: 3px; }}
 p.note {{ font-size: 12px; color: #34495e; }}
 @media print {{
@@ -1332,7 +1352,8 @@ p.note {{ font-size: 12px; color: #34495e; }}
   table, svg, figure, .verdict, .caution {{ break-inside: avoid; page-break-inside: avoid; }}
   table.long {{ break-inside: auto; page-break-inside: auto; }} tr {{ break-inside: avoid; page-break-inside: avoid; }}
   thead {{ display: table-header-group; }}
-  .wide {{ overflow: visible; }} table.counts {{ font-size: 7.5pt; }}
+  .wide {{ overflow: visible; }} table.counts {{ font-size: 6.5pt; }} table.counts td, table.counts th {{ padding: 2px 3px; }}
+  table.lines td:nth-child(-n+4) {{ white-space: normal; }} code.hash {{ font-size: 7pt; }}
   .panels {{ grid-template-columns: 1fr 1fr; }} table.sortable th::after {{ content: ""; }}
   * {{ -webkit-print-color-adjust: exact; print-color-adjust: exact; }}
 }}
