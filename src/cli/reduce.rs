@@ -4,8 +4,10 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
+use ebbwise::compute::reduce::SoundingStatus;
 use ebbwise::io::atomic::write_atomic;
 use ebbwise::io::report_html::render_html;
+use ebbwise::io::sounding_export::{FAILING_FILE, UNREDUCED_FILE};
 use ebbwise::run::load::{load, output_clashes};
 use ebbwise::run::qa_report::build_qa_report;
 use ebbwise::run::reduce::{reduce_project, run_outputs, ReduceOptions, RunKind, RunSummary};
@@ -125,15 +127,19 @@ pub fn write_qa_report(
     summary: &RunSummary,
     out_dir: &Path,
 ) -> anyhow::Result<String> {
-    Ok(match build_qa_report(loaded, summary) {
+    Ok(match build_qa_report(loaded, summary)? {
         Some(report) => {
             let json_path = out_dir.join("qa-report.json");
             let html_path = out_dir.join("qa-report.html");
             write_atomic(&json_path, &serde_json::to_vec_pretty(&report)?)?;
             write_atomic(&html_path, render_html(&report).as_bytes())?;
-            let (_, total) = report.within_chosen_of_all();
+            let (within, total) = report.within_chosen_of_all();
+            let judged = report.survey.soundings;
+            let unreduced = total
+                - report.rows_by_status.get(SoundingStatus::Reduced)
+                - report.rows_by_status.get(SoundingStatus::GapFilled);
             format!(
-                "  order {}: {:.1} % of {} judged (reduced) soundings within the TVU limit, {:.1} % of all {}; acceptance {:.0} % (the project's rule): {}; strictest order met on the TVU limit alone: {}; dominant component: {}\n  QA report: {} and {}",
+                "  order {}: {:.1} % of {} judged (reduced) soundings within the TVU limit, {:.1} % of all {}; acceptance {:.0} % (the project's rule): {}; strictest order met on the TVU limit alone: {}; dominant component: {}\n  QA report: {} and {}\n  exports (GeoJSON): {} failing soundings in {}, {} unreduced in {}",
                 report.chosen_order.name,
                 100.0 * report.survey.share_within_chosen,
                 report.survey.soundings,
@@ -144,7 +150,11 @@ pub fn write_qa_report(
                 report.achieved_order.as_deref().unwrap_or("none"),
                 report.dominant_component,
                 html_path.display(),
-                json_path.display()
+                json_path.display(),
+                judged - within,
+                out_dir.join(FAILING_FILE).display(),
+                unreduced,
+                out_dir.join(UNREDUCED_FILE).display()
             )
         }
         None => {
@@ -152,8 +162,8 @@ pub fn write_qa_report(
             for stale in [
                 "qa-report.json",
                 "qa-report.html",
-                ebbwise::io::sounding_export::FAILING_FILE,
-                ebbwise::io::sounding_export::UNREDUCED_FILE,
+                FAILING_FILE,
+                UNREDUCED_FILE,
             ] {
                 let _ = std::fs::remove_file(out_dir.join(stale));
             }

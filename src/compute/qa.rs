@@ -164,7 +164,7 @@ impl LineQa {
     fn new(n_orders: usize) -> Self {
         LineQa {
             qa: GroupQa::new(n_orders),
-            budget: BudgetQa::default(),
+            budget: BudgetQa::without_percentiles(),
             tally: StatusTally::default(),
             span_s: None,
             zones: BTreeSet::new(),
@@ -190,11 +190,14 @@ impl LineQa {
 const SHARE_UNITS: f64 = 1e9;
 
 /// Budget shares for one group.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone)]
 pub struct BudgetQa {
     n: u64,
     share_sum: [u64; 6],
-    share_sketch: [QuantileSketch; 6],
+    /// Percentile sketches of each component's share: kept for the survey and zones, not for
+    /// lines ([`BudgetQa::without_percentiles`]), whose budget gives means and metres only (a
+    /// survey of thousands of lines would otherwise hold six sketches per line).
+    share_sketch: Option<Box<[QuantileSketch; 6]>>,
     /// Sum of each component's variance, in units of [`VARIANCE_UNIT_M2`] (integers, so that
     /// the total does not depend on the order of adding).
     var_sum: [u128; 6],
@@ -203,7 +206,26 @@ pub struct BudgetQa {
 /// Unit of the summed variances: 1e-12 m² (a standard uncertainty of 1 µm).
 const VARIANCE_UNIT_M2: f64 = 1e-12;
 
+impl Default for BudgetQa {
+    fn default() -> Self {
+        BudgetQa {
+            n: 0,
+            share_sum: [0; 6],
+            share_sketch: Some(Box::default()),
+            var_sum: [0; 6],
+        }
+    }
+}
+
 impl BudgetQa {
+    /// A budget that keeps no percentile of the shares (a line's).
+    pub fn without_percentiles() -> Self {
+        BudgetQa {
+            share_sketch: None,
+            ..Default::default()
+        }
+    }
+
     fn add(&mut self, var_m2: &[f64; 6]) {
         let total: f64 = var_m2.iter().sum();
         if total <= 0.0 {
@@ -211,18 +233,26 @@ impl BudgetQa {
         }
         self.n += 1;
         for (k, v) in var_m2.iter().enumerate() {
-            self.var_sum[k] += (v / VARIANCE_UNIT_M2).round() as u128;
+            // Saturating: a sum that reaches the top stays there, never wraps to a small one.
+            self.var_sum[k] =
+                self.var_sum[k].saturating_add((v / VARIANCE_UNIT_M2).round() as u128);
             let s = v / total;
             self.share_sum[k] += (s * SHARE_UNITS).round() as u64;
-            self.share_sketch[k].add(s);
+            if let Some(sk) = self.share_sketch.as_mut() {
+                sk[k].add(s);
+            }
         }
     }
     fn merge(&mut self, o: &BudgetQa) {
         self.n += o.n;
         for k in 0..6 {
-            self.var_sum[k] += o.var_sum[k];
+            self.var_sum[k] = self.var_sum[k].saturating_add(o.var_sum[k]);
             self.share_sum[k] += o.share_sum[k];
-            self.share_sketch[k].merge(&o.share_sketch[k]);
+        }
+        if let (Some(a), Some(b)) = (self.share_sketch.as_mut(), o.share_sketch.as_ref()) {
+            for k in 0..6 {
+                a[k].merge(&b[k]);
+            }
         }
     }
     fn mean_share(&self, k: usize) -> f64 {
@@ -247,10 +277,10 @@ impl BudgetQa {
             .map(|(k, name)| ComponentShare {
                 component: name,
                 mean_share: round_nearest(self.mean_share(k), SHARE_DECIMALS),
-                p95_share: round_up(
-                    self.share_sketch[k].percentile(95).unwrap_or(0.0),
-                    SHARE_DECIMALS,
-                ),
+                p95_share: self
+                    .share_sketch
+                    .as_ref()
+                    .map(|sk| round_up(sk[k].percentile(95).unwrap_or(0.0), SHARE_DECIMALS)),
                 rms_m: round_nearest(self.rms_m(k), METRE_DECIMALS),
             })
             .collect();
@@ -568,8 +598,9 @@ pub struct ComponentShare {
     /// Mean over soundings of the component's share of u_tvu² (0–1, to nearest
     /// [`SHARE_DECIMALS`]).
     pub mean_share: f64,
-    /// 95th percentile over soundings of that share (rounded up to [`SHARE_DECIMALS`]).
-    pub p95_share: f64,
+    /// 95th percentile over soundings of that share (rounded up to [`SHARE_DECIMALS`]); `None`
+    /// for a line, whose budget keeps no percentiles.
+    pub p95_share: Option<f64>,
     /// Root mean square over soundings of the component's standard uncertainty, metres (to
     /// nearest [`METRE_DECIMALS`]): the budget in metres.
     pub rms_m: f64,
@@ -711,8 +742,16 @@ mod tests {
         assert!((total - 1.0).abs() <= 0.003 + 1e-12, "{total}");
         // The 95th percentile of two values is the larger (rank ⌈1.9⌉ = 2), rounded up to
         // 0.001: timing 0.584795 → 0.585, sounding 0.316456 → 0.317, timing's other 0 ignored.
-        assert_eq!(s.components[4].p95_share, 0.585);
-        assert_eq!(s.components[0].p95_share, 0.317);
+        assert_eq!(s.components[4].p95_share, Some(0.585));
+        assert_eq!(s.components[0].p95_share, Some(0.317));
+        // A line's budget keeps the means and metres, no percentiles.
+        let mut l = BudgetQa::without_percentiles();
+        l.add(&[0.0025, 0.0004, 0.0016, 0.0001, 0.01, 0.0025]);
+        l.add(&[0.0025, 0.0004, 0.0016, 0.0009, 0.0, 0.0025]);
+        let ls = l.summary();
+        assert_eq!(ls.components[4].p95_share, None);
+        assert_eq!(ls.components[4].mean_share, 0.292);
+        assert_eq!(ls.components[0].rms_m, 0.05);
         assert_eq!(s.dominant_component, "timing");
     }
 

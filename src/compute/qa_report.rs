@@ -50,6 +50,59 @@ pub struct ZoneTideSeries {
     /// The gauges whose samples the zone's plot overlays (those feeding it, or blended).
     #[serde(skip)]
     pub gauges: Vec<String>,
+    /// The stretches with no tide, to the second: (from, to UTC seconds, whether for a sample
+    /// quality control set aside rather than a gap in a record); HTML only.
+    #[serde(skip)]
+    pub gaps: Vec<(f64, f64, bool)>,
+}
+
+/// The stretches of a series on `times_s` with no tide (`has_tide[k]` false), each edge found to
+/// `tol_s` by bisection with `probe`, which says at an instant whether there is a tide (`None`)
+/// or not, and if not whether it is for a sample quality control set aside (`Some(true)`).
+pub fn refine_gaps(
+    times_s: &[f64],
+    has_tide: &[bool],
+    tol_s: f64,
+    mut probe: impl FnMut(f64) -> Option<bool>,
+) -> Vec<(f64, f64, bool)> {
+    let mut out = Vec::new();
+    let n = times_s.len().min(has_tide.len());
+    let mut k = 0;
+    // The instant between a (tide) and b (none), or the other way round, where it changes.
+    let edge = |mut with: f64, mut without: f64, probe: &mut dyn FnMut(f64) -> Option<bool>| {
+        while (with - without).abs() > tol_s {
+            let mid = 0.5 * (with + without);
+            if probe(mid).is_none() {
+                with = mid;
+            } else {
+                without = mid;
+            }
+        }
+        0.5 * (with + without)
+    };
+    while k < n {
+        if has_tide[k] {
+            k += 1;
+            continue;
+        }
+        let i0 = k;
+        while k < n && !has_tide[k] {
+            k += 1;
+        }
+        let flagged = probe(times_s[i0]).unwrap_or(false);
+        let from = if i0 > 0 {
+            edge(times_s[i0 - 1], times_s[i0], &mut probe)
+        } else {
+            times_s[i0]
+        };
+        let to = if k < n {
+            edge(times_s[k], times_s[k - 1], &mut probe)
+        } else {
+            times_s[k - 1]
+        };
+        out.push((from, to, flagged));
+    }
+    out
 }
 
 impl ZoneTideSeries {
@@ -62,6 +115,7 @@ impl ZoneTideSeries {
             u95_tide_m: Vec::with_capacity(n),
             times_s: Vec::with_capacity(n),
             gauges: Vec::new(),
+            gaps: Vec::new(),
         }
     }
 }
@@ -352,12 +406,10 @@ impl QaReport {
         (within, self.rows_by_status.total())
     }
 
-    /// `within_chosen_of_all` as a share of every sounding (0–1; 0 for a run of none).
+    /// `within_chosen_of_all` as a share of every sounding (0–1; 0 for a run of none), rounded
+    /// down to 0.001 like every share of the report: the survey's `share_within_of_all`.
     pub fn share_within_of_all(&self) -> f64 {
-        match self.within_chosen_of_all() {
-            (_, 0) => 0.0,
-            (w, n) => w as f64 / n as f64,
-        }
+        self.survey.share_within_of_all
     }
 }
 
@@ -385,4 +437,39 @@ pub fn failing(g: &GroupSummary) -> Option<Failing> {
         shortfall: g.shortfall.unwrap_or(0.0),
         p95_ratio: g.p95_ratio_chosen,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn gaps_are_found_to_the_second_with_their_cause() {
+        // A tide everywhere but in [1000.5, 2203.25) (flagged) and from 5000 on (a gap).
+        let times: Vec<f64> = (0..=12).map(|k| k as f64 * 500.0).collect();
+        let probe = |t: f64| {
+            if (1000.5..2203.25).contains(&t) {
+                Some(true)
+            } else if t >= 5000.0 {
+                Some(false)
+            } else {
+                None
+            }
+        };
+        let has: Vec<bool> = times.iter().map(|t| probe(*t).is_none()).collect();
+        let g = refine_gaps(&times, &has, 1.0, probe);
+        assert_eq!(g.len(), 2);
+        assert!(
+            (g[0].0 - 1000.5).abs() <= 1.0 && (g[0].1 - 2203.25).abs() <= 1.0,
+            "{g:?}"
+        );
+        assert!(g[0].2);
+        // Open to the end of the series: it runs to the last instant.
+        assert!(
+            (g[1].0 - 5000.0).abs() <= 1.0 && g[1].1 == 6000.0 && !g[1].2,
+            "{g:?}"
+        );
+        // No gap, nothing.
+        assert!(refine_gaps(&times, &vec![true; times.len()], 1.0, |_| None).is_empty());
+    }
 }

@@ -242,6 +242,9 @@ pub(crate) fn step_edges_svg(
     }
 }
 
+/// Width of the map's legend column, right of the plot.
+const LEGEND_W: f64 = 200.0;
+
 fn map_svg(r: &QaReport, out: &mut String) {
     let (w, m) = (720.0, 56.0);
     let mut lon = (f64::INFINITY, f64::NEG_INFINITY);
@@ -274,7 +277,8 @@ fn map_svg(r: &QaReport, out: &mut String) {
     let y = |v: f64| h - m - (v - lat.0) * s;
     let _ = write!(
         out,
-        r#"<svg class="plot" viewBox="0 0 {w} {h}" role="img" aria-labelledby="map-title"><title id="map-title">Map of zones and soundings coloured by U95/allowed</title>"#
+        r#"<svg class="plot map" viewBox="0 0 {} {h}" role="img" aria-labelledby="map-title"><title id="map-title">Map of zones and soundings coloured by U95/allowed</title>"#,
+        w + LEGEND_W
     );
     let _ = write!(
         out,
@@ -481,9 +485,9 @@ fn map_svg(r: &QaReport, out: &mut String) {
     let _ = write!(
         out,
         r##"<rect class="legend-box" x="{}" y="6" width="184" height="{}" fill="#ffffff" fill-opacity="0.9" stroke="#c8d2dc"/><text x="{}" y="20" class="tick">U95 / allowed ({})</text>"##,
-        w - 196.0,
-        32.0 + 16.0 * 5.0 + 44.0,
-        w - 190.0,
+        w + 2.0,
+        32.0 + 16.0 * 5.0 + 58.0,
+        w + 8.0,
         esc(&r.chosen_order.name)
     );
     for (i, (label, v)) in items.iter().enumerate() {
@@ -491,16 +495,16 @@ fn map_svg(r: &QaReport, out: &mut String) {
         let _ = write!(
             out,
             r#"<circle cx="{}" cy="{yy}" r="5" fill="{}"/><text x="{}" y="{}" class="tick">{label}</text>"#,
-            w - 180.0,
+            w + 18.0,
             ratio_colour(*v),
-            w - 168.0,
+            w + 30.0,
             yy + 4.0
         );
     }
-    let (lx, ly) = (w - 180.0, 32.0 + 16.0 * items.len() as f64);
+    let (lx, ly) = (w + 18.0, 32.0 + 16.0 * items.len() as f64);
     let _ = write!(
         out,
-        r##"<rect x="{:.1}" y="{:.1}" width="8" height="8" fill="none" stroke="#0a3d62" stroke-width="1.3"/><text x="{:.1}" y="{:.1}" class="tick">drying height</text><path d="M{:.1},{:.1}L{:.1},{:.1}M{:.1},{:.1}L{:.1},{:.1}" stroke="#4a2040" stroke-width="1.5"/><text x="{:.1}" y="{:.1}" class="tick">not reduced</text><path d="M{lx},{:.1}L{:.1},{:.1}L{:.1},{:.1}Z" fill="#111"/><text x="{:.1}" y="{:.1}" class="tick">gauge (hollow: virtual)</text>"##,
+        r##"<rect x="{:.1}" y="{:.1}" width="8" height="8" fill="none" stroke="#0a3d62" stroke-width="1.3"/><text x="{:.1}" y="{:.1}" class="tick">drying height</text><path d="M{:.1},{:.1}L{:.1},{:.1}M{:.1},{:.1}L{:.1},{:.1}" stroke="#4a2040" stroke-width="1.5"/><text x="{:.1}" y="{:.1}" class="tick">not reduced</text><path d="M{lx},{:.1}L{:.1},{:.1}L{:.1},{:.1}Z" fill="#111"/><text x="{:.1}" y="{:.1}" class="tick">gauge (hollow: virtual,</text><text x="{:.1}" y="{:.1}" class="tick">constants only)</text>"##,
         lx - 4.0,
         ly - 4.0,
         lx + 12.0,
@@ -521,7 +525,9 @@ fn map_svg(r: &QaReport, out: &mut String) {
         lx - 5.0,
         ly + 36.0,
         lx + 12.0,
-        ly + 36.0
+        ly + 36.0,
+        lx + 12.0,
+        ly + 50.0
     );
     out.push_str("</svg>");
 }
@@ -631,10 +637,24 @@ fn tide_panels(r: &QaReport, out: &mut String) {
         // row lower (about 5 px a character at the label's size).
         let mut rows_end: Vec<f64> = Vec::new();
         let mut gap_labels: Vec<String> = Vec::new();
-        for (a, b) in tide_gaps(s) {
+        // The stretches found to the second when the report has them, else the grid's.
+        let gaps: Vec<(f64, f64, Option<bool>)> = if s.gaps.is_empty() {
+            tide_gaps(s)
+                .into_iter()
+                .map(|(a, b)| (a, b, None))
+                .collect()
+        } else {
+            s.gaps.iter().map(|&(a, b, f)| (a, b, Some(f))).collect()
+        };
+        for (a, b, flagged) in gaps {
             let (xa, xb) = (x(a), x(b).max(x(a) + 2.0));
-            let text = format!("no tide {}–{}", clock(a), clock(b));
-            let half = 2.6 * text.chars().count() as f64;
+            let why = match flagged {
+                Some(true) => " (QC)",
+                Some(false) => " (gap)",
+                None => "",
+            };
+            let text = format!("no tide {}–{}{why}", clock(a), clock(b));
+            let half = 3.1 * text.chars().count() as f64;
             let cx = ((xa + xb) / 2.0).clamp(ml + half, w - mr - half);
             let row = rows_end
                 .iter()
@@ -657,7 +677,7 @@ fn tide_panels(r: &QaReport, out: &mut String) {
                 mt + 10.0 + 11.0 * row as f64
             ));
         }
-        let yt = ticks(lo, hi, 4);
+        let yt = ticks(lo, hi, 6);
         let ys = if yt.len() > 1 { yt[1] - yt[0] } else { 1.0 };
         for v in &yt {
             let _ = write!(
@@ -753,11 +773,18 @@ fn tide_panels(r: &QaReport, out: &mut String) {
                     cy - 3.0
                 );
             }
+            // The gauges' keys, right-aligned after the title, about 6 px a character.
+            let widths: Vec<f64> = s
+                .gauges
+                .iter()
+                .map(|g| 14.0 + 6.0 * g.chars().count() as f64)
+                .collect();
+            let kx = w - mr - widths[k..].iter().sum::<f64>();
             let _ = write!(
                 out,
                 r#"<circle cx="{:.1}" cy="9" r="2.5" fill="{gc}"/><text x="{:.1}" y="13" class="tick">{}</text>"#,
-                w - mr - 110.0 + 55.0 * k as f64,
-                w - mr - 105.0 + 55.0 * k as f64,
+                kx + 3.0,
+                kx + 8.0,
                 esc(gid)
             );
         }
@@ -769,7 +796,7 @@ fn tide_panels(r: &QaReport, out: &mut String) {
     out.push_str("</div>");
     let _ = write!(
         out,
-        r#"<p class="note">Time axis: UTC clock, {date}. Line: the zone's tide above chart datum; shaded band: ± U95 (k = 1.96). Dots: the samples of the gauges feeding the zone, at the gauge (before the zone's time corrector and range ratio); green rings: samples gap filling added; red crosses: samples quality control set aside; grey: no tide for the zone's soundings.</p>"#
+        r#"<p class="note">Time axis: UTC clock, {date}. Line: the zone's tide above chart datum; shaded band: ± U95 (k = 1.96). Dots: the samples of the gauges feeding the zone, at the gauge (before the zone's time corrector and range ratio); green rings: samples gap filling added; red crosses: samples quality control set aside; grey: no tide for the zone's soundings, to the minute, “(QC)” where a sample quality control set aside stops the tide, “(gap)” where a record has no sample.</p>"#
     );
 }
 
@@ -826,12 +853,32 @@ fn difference_panels(r: &QaReport, out: &mut String) {
                 clock(t)
             );
         }
+        // The line breaks where the differences are more than three of their usual steps apart
+        // (a gap in either record), and the gap is shaded and labelled.
+        let mut steps: Vec<f64> = d.series.windows(2).map(|w| w[1].0 - w[0].0).collect();
+        steps.sort_by(f64::total_cmp);
+        let usual = steps.get(steps.len() / 2).copied().unwrap_or(0.0);
         let mut line = String::new();
         for (j, (t, v)) in d.series.iter().enumerate() {
+            let gap = j > 0 && usual > 0.0 && t - d.series[j - 1].0 > 3.0 * usual;
+            if gap {
+                let (a, b) = (d.series[j - 1].0, *t);
+                let _ = write!(
+                    out,
+                    r##"<rect class="gap" x="{:.1}" y="{mt}" width="{:.1}" height="{}" fill="#d9d9d9" fill-opacity="0.7"/><text x="{:.1}" y="{}" class="gaplabel" text-anchor="middle">no data {}–{}</text>"##,
+                    x(a),
+                    x(b) - x(a),
+                    h - mt - mb,
+                    (x(a) + x(b)) / 2.0,
+                    mt + 10.0,
+                    clock(a),
+                    clock(b)
+                );
+            }
             let _ = write!(
                 line,
                 "{}{:.1},{:.1} ",
-                if j == 0 { "M" } else { "L" },
+                if j == 0 || gap { "M" } else { "L" },
                 x(*t),
                 y(*v)
             );
@@ -1042,11 +1089,13 @@ fn push_status_table(o: &mut String, r: &QaReport) {
     o.push_str(r#"<table class="status"><thead><tr><th>status</th><th>soundings</th><th>share of all</th></tr></thead><tbody>"#);
     let total = r.rows_by_status.total().max(1) as f64;
     for (s, n) in r.rows_by_status.iter() {
-        let _ = write!(
-            o,
-            "<tr><td>{s}</td><td>{n}</td><td>{:.1} %</td></tr>",
-            100.0 * n as f64 / total
-        );
+        let share = 100.0 * n as f64 / total;
+        let shown = if n > 0 && share < 0.05 {
+            "&lt; 0.1 %".to_string()
+        } else {
+            format!("{share:.1} %")
+        };
+        let _ = write!(o, "<tr><td>{s}</td><td>{n}</td><td>{shown}</td></tr>");
     }
     let _ = write!(
         o,
@@ -1082,7 +1131,11 @@ fn judged_cells(o: &mut String, g: &crate::compute::qa::GroupSummary) {
         r#"<td>{}</td><td data-sort="{}">{}</td><td data-sort="{}">{}</td><td>{}</td><td data-sort="{}">{}</td><td>{}</td>"#,
         g.soundings,
         g.share_within_chosen,
-        pct(g.share_within_chosen),
+        if g.soundings > 0 {
+            pct(g.share_within_chosen)
+        } else {
+            "–".to_string()
+        },
         g.share_within_of_all,
         pct(g.share_within_of_all),
         g.drying_heights,
@@ -1131,7 +1184,7 @@ fn short_defaults(d: &[String]) -> String {
 fn push_zone_table(o: &mut String, r: &QaReport) {
     let _ = write!(
         o,
-        "<h2>Zones</h2><p>Every sounding by status; “within” is within order {}'s TVU limit, of those judged and of all soundings (those not reduced count as not within). <span class=\"mark\">†</span> marks a zone whose tide uncertainty uses a default value (listed in the last column): its verdict rests on the project's defaults, not on a measured value.</p>",
+        "<h2>Zones</h2><p class=\"lead\">Every sounding by status; “within” is within order {}'s TVU limit, of those judged and of all soundings (those not reduced count as not within). <span class=\"mark\">†</span> marks a zone whose tide uncertainty uses a default value (listed in the last column): its verdict rests on the project's defaults, not on a measured value. <span class=\"mark\">*</span> marks a verdict on the judged soundings only, where the zone also has soundings not reduced: they meet no order until they are reduced.</p>",
         esc(&r.chosen_order.name)
     );
     o.push_str(r#"<div class="wide"><table class="counts zones">"#);
@@ -1139,22 +1192,19 @@ fn push_zone_table(o: &mut String, r: &QaReport) {
     o.push_str("<th>strictest order met</th><th>meets chosen</th><th>default inputs</th></tr></thead><tbody>");
     for g in &r.zones {
         let yn = if g.meets_chosen { "yes" } else { "no" };
-        let mark = if g.defaulted_inputs.is_empty() {
-            ""
-        } else {
-            " †"
-        };
         let _ = write!(
             o,
-            r#"<tr><td>{}<span class="mark">{mark}</span></td><td>{}</td>"#,
+            r#"<tr><td>{}{}</td><td>{}</td>"#,
             esc(&g.id),
+            default_mark(g),
             g.all_soundings
         );
         status_cells(o, g);
         judged_cells(o, g);
+        let star = partial_mark(g);
         let _ = write!(
             o,
-            r#"<td>{}</td><td class="{yn}">{yn}</td><td class="mark defaults">{}</td></tr>"#,
+            r#"<td>{}{star}</td><td class="{yn}">{yn}{star}</td><td class="mark defaults">{}</td></tr>"#,
             g.strictest_order_met.as_deref().unwrap_or("none"),
             esc(&short_defaults(&g.defaulted_inputs))
         );
@@ -1164,7 +1214,7 @@ fn push_zone_table(o: &mut String, r: &QaReport) {
     for (_, n) in nz.iter() {
         let _ = write!(o, "<td>{n}</td>");
     }
-    o.push_str(r#"<td>0</td><td colspan="9" class="left">outside the zoning, or a row that could not be read</td></tr>"#);
+    o.push_str(r#"<td>0</td><td colspan="8" class="left">outside the zoning, or a row that could not be read</td></tr>"#);
     let _ = write!(o, "<tr><th>survey</th><th>{}</th>", r.survey.all_soundings);
     for (_, n) in r.survey.by_status.iter() {
         let _ = write!(o, "<th>{n}</th>");
@@ -1172,7 +1222,7 @@ fn push_zone_table(o: &mut String, r: &QaReport) {
     let g = &r.survey;
     let _ = write!(
         o,
-        "<th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th></th></tr></tbody></table></div>",
+        "<th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}</th><th>{}{star}</th><th>{}{star}</th><th></th></tr></tbody></table></div>",
         g.soundings,
         pct(g.share_within_chosen),
         pct(g.share_within_of_all),
@@ -1180,8 +1230,42 @@ fn push_zone_table(o: &mut String, r: &QaReport) {
         g.max_ratio_chosen.map_or_else(|| "–".to_string(), ratio),
         ratio(g.p95_ratio_chosen),
         g.strictest_order_met.as_deref().unwrap_or("none"),
-        if g.meets_chosen { "yes" } else { "no" }
+        if g.meets_chosen { "yes" } else { "no" },
+        star = partial_mark(g)
     );
+}
+
+/// `*` after a verdict on a group that also has soundings not reduced (the verdict is on the
+/// judged ones only).
+fn partial_mark(g: &crate::compute::qa::GroupSummary) -> &'static str {
+    if g.all_soundings > g.soundings {
+        r#"<span class="mark">*</span>"#
+    } else {
+        ""
+    }
+}
+
+/// `†` after the id of a group whose tide uncertainty uses a default value.
+fn default_mark(g: &crate::compute::qa::GroupSummary) -> &'static str {
+    if g.defaulted_inputs.is_empty() {
+        ""
+    } else {
+        r#"<span class="mark"> †</span>"#
+    }
+}
+
+/// A line's time span: `2026-06-14 07:33:40–08:03:28`, the end's date only when it differs.
+fn utc_span(first: Option<&str>, last: Option<&str>) -> String {
+    match (first, last) {
+        (Some(a), Some(b)) => {
+            let (a, b) = (compact_utc(Some(a)), compact_utc(Some(b)));
+            match (a.split_once(' '), b.split_once(' ')) {
+                (Some((da, _)), Some((db, tb))) if da == db => format!("{a}–{tb}"),
+                _ => format!("{a} – {b}"),
+            }
+        }
+        _ => "–".to_string(),
+    }
 }
 
 /// An ISO 8601 UTC label as the lines table shows it, to the second: `2026-06-14 07:33:40`.
@@ -1196,7 +1280,7 @@ fn compact_utc(t: Option<&str>) -> String {
 fn push_line_table(o: &mut String, r: &QaReport) {
     let _ = write!(
         o,
-        "<h2>Survey lines</h2><p>{} lines, the least share within order {} of all their soundings first; click a heading to sort. A file without a line column is one line, named by the file.</p>",
+        "<h2>Survey lines</h2><p class=\"lead\">{} lines, the least share within order {} of all their soundings first; click a heading to sort. A file without a line column is one line, named by the file; a row that names no line counts on “(no line in FILE)”, an unreadable row on the line its line field names. † and * as in the zones table: a line crossing a zone on default values, a verdict on the judged soundings only.</p>",
         r.lines.len(),
         esc(&r.chosen_order.name)
     );
@@ -1208,18 +1292,18 @@ fn push_line_table(o: &mut String, r: &QaReport) {
             .then_with(|| a.group.id.cmp(&b.group.id))
     });
     o.push_str(r#"<div class="wide"><table class="counts lines sortable long">"#);
-    count_headings(o, "line", &["file", "first (UTC)", "last (UTC)", "zones"]);
+    count_headings(o, "line", &["file", "UTC span", "zones"]);
     o.push_str("<th>dominant component</th><th>meets chosen</th></tr></thead><tbody>");
     for l in lines {
         let g = &l.group;
         let yn = if g.meets_chosen { "yes" } else { "no" };
         let _ = write!(
             o,
-            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>",
+            "<tr><td>{}{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>",
             esc(&g.id),
+            default_mark(g),
             esc(&l.files.join(", ")),
-            esc(&compact_utc(l.first_utc.as_deref())),
-            esc(&compact_utc(l.last_utc.as_deref())),
+            esc(&utc_span(l.first_utc.as_deref(), l.last_utc.as_deref())),
             esc(&l.zones_crossed.join(", ")),
             g.all_soundings
         );
@@ -1227,8 +1311,9 @@ fn push_line_table(o: &mut String, r: &QaReport) {
         judged_cells(o, g);
         let _ = write!(
             o,
-            r#"<td>{}</td><td class="{yn}">{yn}</td></tr>"#,
-            g.budget.as_ref().map_or("none", |b| b.dominant_component)
+            r#"<td>{}</td><td class="{yn}">{yn}{}</td></tr>"#,
+            g.budget.as_ref().map_or("none", |b| b.dominant_component),
+            partial_mark(g)
         );
     }
     o.push_str("</tbody></table></div>");
@@ -1256,7 +1341,7 @@ fn push_budget_table(o: &mut String, r: &QaReport) {
                     "<td>{:.4} · {} · {}</td>",
                     c.rms_m,
                     pct(c.mean_share),
-                    pct(c.p95_share)
+                    c.p95_share.map_or_else(|| "–".to_string(), pct)
                 );
             }
             let _ = write!(o, "<td>{}</td></tr>", b.dominant_component);
@@ -1303,6 +1388,35 @@ fn push_provenance(o: &mut String, r: &QaReport) {
 /// cell has it); the page reads the same without it.
 const SORT_SCRIPT: &str = "<script>document.querySelectorAll('table.sortable').forEach(function(t){t.querySelectorAll('thead th').forEach(function(th,i){th.addEventListener('click',function(){var b=t.tBodies[0],rows=Array.prototype.slice.call(b.rows),asc=th.getAttribute('data-dir')!=='asc';th.setAttribute('data-dir',asc?'asc':'desc');function key(r){var c=r.cells[i];return c.hasAttribute('data-sort')?c.getAttribute('data-sort'):c.textContent;}rows.sort(function(x,y){var a=key(x),c=key(y),na=parseFloat(a),nc=parseFloat(c),d=(!isNaN(na)&&!isNaN(nc))?na-nc:a.localeCompare(c);return asc?d:-d;});rows.forEach(function(r){b.appendChild(r);});});});});</script>";
 
+/// What the verdict does not cover: the soundings not reduced, and the zones whose verdict
+/// rests on default uncertainty values.
+fn verdict_caveats(r: &QaReport) -> String {
+    let mut out = String::new();
+    let not_reduced = r.survey.all_soundings.saturating_sub(r.survey.soundings);
+    if not_reduced > 0 {
+        let _ = write!(
+            out,
+            "<p><b>Every verdict judges the reduced soundings only:</b> the {not_reduced} not reduced have no depth on chart datum and meet no order until they are reduced (with the gauge data they lack, gap filling or a correction file); zones and lines that have such soundings are marked * below.</p>"
+        );
+    }
+    let on_defaults: Vec<&str> = r
+        .zones
+        .iter()
+        .filter(|z| !z.defaulted_inputs.is_empty())
+        .map(|z| z.id.as_str())
+        .collect();
+    if !on_defaults.is_empty() {
+        let _ = write!(
+            out,
+            "<p><b>On default uncertainty values</b> (marked † below): zone{} {} — {} verdict rests on the project's defaults, not on measured values.</p>",
+            if on_defaults.len() > 1 { "s" } else { "" },
+            esc(&on_defaults.join(", ")),
+            if on_defaults.len() > 1 { "their" } else { "its" }
+        );
+    }
+    out
+}
+
 /// Renders the report as one HTML page.
 pub fn render_html(r: &QaReport) -> String {
     let mut o = String::with_capacity(256 * 1024);
@@ -1328,7 +1442,7 @@ th, td {{ border-bottom: 1px solid #dde3ea; padding: 4px 10px; text-align: right
 th:first-child, td:first-child {{ text-align: left; }}
 th {{ background: #f0f4f8; }}
 td.no {{ color: #c0262d; font-weight: bold; }} td.yes {{ color: #1b7f4c; }}
-svg.plot {{ width: 100%; max-width: 760px; height: auto; display: block; margin: 6px 0 18px; background: #fff; }}
+svg.plot {{ width: 100%; max-width: 760px; height: auto; display: block; margin: 6px 0 18px; background: #fff; }} svg.plot.map {{ max-width: 960px; }}
 svg .tick {{ font-size: 11px; fill: #2c3e50; }} svg .axis {{ font-size: 12px; fill: #1d2a36; }}
 svg .steplabel {{ font-size: 11px; font-weight: bold; fill: #111; paint-order: stroke; stroke: #fff; stroke-width: 3px; stroke-linejoin: round; }}
 svg .zlabel {{ font-size: 13px; font-weight: bold; fill: #12324d; text-anchor: middle; paint-order: stroke; stroke: #fff; stroke-width: 4px; stroke-linejoin: round; }}
@@ -1336,7 +1450,7 @@ h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; f
 .wide {{ overflow-x: auto; }} table.counts {{ font-size: 12px; }} table.counts td, table.counts th {{ padding: 3px 6px; }} table.counts td {{ white-space: nowrap; }}
 table.sortable th {{ cursor: pointer; }} table.sortable th::after {{ content: " ⇅"; color: #8a99a8; font-size: 10px; }}
 td.mark, span.mark {{ color: #b35900; font-weight: bold; }} table.counts td.defaults {{ white-space: normal; min-width: 180px; text-align: left; }} td.left {{ text-align: left; }}
-table.lines td:nth-child(-n+4) {{ white-space: nowrap; }} table.counts th {{ vertical-align: bottom; }} code.hash {{ font-size: 11px; word-break: break-all; }}
+table.lines td:nth-child(-n+3) {{ white-space: nowrap; }} table.counts th {{ vertical-align: bottom; }} code.hash {{ font-size: 11px; word-break: break-all; }}
 .panels {{ display: grid; grid-template-columns: repeat(auto-fill, minmax(340px, 1fr)); gap: 8px 14px; }}
 figure.panel {{ margin: 0; }} figure.panel figcaption {{ font-size: 12px; color: #34495e; }}
 svg.small {{ width: 100%; height: auto; display: block; background: #fff; border: 1px solid #e3e8ee; }}
@@ -1353,7 +1467,8 @@ p.note {{ font-size: 12px; color: #34495e; }}
   table.long {{ break-inside: auto; page-break-inside: auto; }} tr {{ break-inside: avoid; page-break-inside: avoid; }}
   thead {{ display: table-header-group; }}
   .wide {{ overflow: visible; }} table.counts {{ font-size: 6.5pt; }} table.counts td, table.counts th {{ padding: 2px 3px; }}
-  table.lines td:nth-child(-n+4) {{ white-space: normal; }} code.hash {{ font-size: 7pt; }}
+  code.hash {{ font-size: 7pt; }} p.lead {{ break-after: avoid; page-break-after: avoid; }}
+  figure.panel {{ min-width: 0; }} svg.small {{ box-sizing: border-box; }}
   .panels {{ grid-template-columns: 1fr 1fr; }} table.sortable th::after {{ content: ""; }}
   * {{ -webkit-print-color-adjust: exact; print-color-adjust: exact; }}
 }}
@@ -1372,7 +1487,7 @@ p.note {{ font-size: 12px; color: #34495e; }}
     let (within, total) = r.within_chosen_of_all();
     let _ = write!(
         o,
-        r#"<div class="verdict{}"><p>Of the day's <b>{total}</b> soundings, <b>{}</b> were reduced and judged ({} not reduced: see the status table below). <b>{within}</b> of them have a 95 % TVU within the limit of order <b>{}</b>: {} of those judged, {} of all soundings.</p><p>Acceptance: at least {} of the judged soundings within the limit, the project's rule (<code>acceptance_share</code>, or the authority's), not the standard's (IHO S-44 applies the limit to each sounding's 95 % TVU, as the within_order column does) — <b>{}</b>. Strictest order met, judged on the TVU limit alone: <b>{}</b> (orders 1a and 1b share their TVU limit; horizontal uncertainty, feature detection and coverage are not assessed here). Dominant component of u_tvu²: <b>{}</b>.</p><p>Drying heights (a reduced depth below zero, above chart datum): <b>{}</b>, marked on the map.</p></div>"#,
+        r#"<div class="verdict{}"><p>Of the day's <b>{total}</b> soundings, <b>{}</b> were reduced and judged ({} not reduced: see the status table below). <b>{within}</b> of them have a 95 % TVU within the limit of order <b>{}</b>: {} of those judged, {} of all soundings.</p><p>Acceptance: at least {} of the judged soundings within the limit, the project's rule (<code>acceptance_share</code>, or the authority's), not the standard's (IHO S-44 applies the limit to each sounding's 95 % TVU, as the within_order column does) — <b>{}</b>. Strictest order met, judged on the TVU limit alone: <b>{}</b> (orders 1a and 1b share their TVU limit; horizontal uncertainty, feature detection and coverage are not assessed here). Dominant component of u_tvu²: <b>{}</b>.</p><p>Drying heights (a reduced depth below zero, above chart datum): <b>{}</b>, marked on the map.</p>{}</div>"#,
         if fail { " fail" } else { "" },
         r.survey.soundings,
         total.saturating_sub(r.survey.soundings),
@@ -1383,10 +1498,11 @@ p.note {{ font-size: 12px; color: #34495e; }}
         if fail { "not met" } else { "met" },
         esc(achieved),
         esc(&r.dominant_component),
-        r.survey.drying_heights
+        r.survey.drying_heights,
+        verdict_caveats(r)
     );
     push_status_table(&mut o, r);
-    o.push_str("<h2>Survey orders</h2><table><tr><th>order</th><th>a (m, 95 %)</th><th>b (95 %)</th><th>THU (95 %)</th><th>soundings within</th><th>share within</th><th>met</th></tr>");
+    o.push_str("<h2>Survey orders</h2><table><tr><th>order</th><th>a (m, 95 %)</th><th>b (95 %)</th><th>THU (95 %)</th><th>soundings within</th><th>share within</th><th>TVU limit met</th></tr>");
     for (ord, sh) in r.orders.iter().zip(&r.survey.orders) {
         let _ = write!(
             o,
@@ -1505,14 +1621,28 @@ p.note {{ font-size: 12px; color: #34495e; }}
     push_budget_table(&mut o, r);
     o.push_str("<h2>U95 / allowed</h2>");
     histogram_svg(r, &mut o);
+    // `†` after an input that fell back to the project's default.
+    let dflt = |who: &str, key: &str| -> &'static str {
+        if r.inputs
+            .defaulted
+            .iter()
+            .any(|d| *d == format!("{who}: {key}"))
+        {
+            r#"<span class="mark"> †</span>"#
+        } else {
+            ""
+        }
+    };
     o.push_str("<h2>Uncertainty inputs (standard, 1σ)</h2><table><tr><th>gauge</th><th>u_gauge (m)</th><th>u_datum (m)</th></tr>");
     for g in &r.inputs.gauges {
         let _ = write!(
             o,
-            "<tr><td>{}</td><td>{}</td><td>{}</td></tr>",
+            "<tr><td>{}</td><td>{}{}</td><td>{}{}</td></tr>",
             esc(&g.gauge),
             given(g.u_gauge_m),
-            given(g.u_datum_m)
+            dflt(&format!("gauge {}", g.gauge), "u_gauge_m"),
+            given(g.u_datum_m),
+            dflt(&format!("gauge {}", g.gauge), "u_datum_m")
         );
     }
     o.push_str("</table>");
@@ -1540,11 +1670,14 @@ p.note {{ font-size: 12px; color: #34495e; }}
         };
         let _ = write!(
             o,
-            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{} ({from})</td></tr>",
+            "<tr><td>{}</td><td>{}{}</td><td>{}{}</td><td>{}{}</td><td>{} ({from})</td></tr>",
             esc(&z.zone),
             given(z.u_time_corrector_min),
+            dflt(&format!("zone {}", z.zone), "u_time_corrector_min"),
             given(z.u_range_ratio),
+            dflt(&format!("zone {}", z.zone), "u_range_ratio"),
             given(z.u_zone_m),
+            dflt(&format!("zone {}", z.zone), "u_zone_m"),
             given(z.u_datum_m)
         );
     }
@@ -1557,6 +1690,9 @@ p.note {{ font-size: 12px; color: #34495e; }}
         given(r.inputs.sounding_a_m),
         given(r.inputs.sounding_b)
     );
+    if !r.inputs.defaulted.is_empty() {
+        o.push_str(r#"<p><span class="mark">†</span> the project's default (<code>[uncertainty] default_u_…</code>): the gauge or zone sets no value of its own.</p>"#);
+    }
     push_provenance(&mut o, r);
     let _ = writeln!(
         o,

@@ -104,11 +104,13 @@ pub struct ExportParts {
     text: Vec<u8>,
 }
 
-/// The part paths of job `k` in `dir`: failing, unreduced.
+/// The part paths of job `k` in `dir`: failing, unreduced. They carry this process's id, so
+/// that two runs into one folder do not write into each other's parts.
 pub fn part_paths(dir: &Path, k: usize) -> [PathBuf; 2] {
+    let pid = std::process::id();
     [
-        dir.join(format!(".{FAILING_FILE}.{k}{PARTIAL_SUFFIX}")),
-        dir.join(format!(".{UNREDUCED_FILE}.{k}{PARTIAL_SUFFIX}")),
+        dir.join(format!(".{FAILING_FILE}.{pid}.{k}{PARTIAL_SUFFIX}")),
+        dir.join(format!(".{UNREDUCED_FILE}.{pid}.{k}{PARTIAL_SUFFIX}")),
     ]
 }
 
@@ -228,7 +230,9 @@ mod tests {
     #[test]
     fn parts_join_into_valid_feature_collections() {
         let d = tempfile::tempdir().unwrap();
-        for (k, rows) in [2usize, 0, 1].iter().enumerate() {
+        // The first part empty: the first feature written comes from a later part, and has no
+        // comma before it.
+        for (k, rows) in [0usize, 2, 0, 1].iter().enumerate() {
             let mut parts = ExportParts::create(d.path(), k, "EPSG:4326").unwrap();
             let mut b = ExportBuf::default();
             for r in 0..*rows {
@@ -242,7 +246,7 @@ mod tests {
             parts.write(&b).unwrap();
             parts.finish().unwrap();
         }
-        let [f, u] = join_parts(d.path(), 3, "day 1").unwrap();
+        let [f, u] = join_parts(d.path(), 4, "day 1").unwrap();
         let f: serde_json::Value = serde_json::from_slice(&std::fs::read(f).unwrap()).unwrap();
         let feats = f["features"].as_array().unwrap();
         assert_eq!(feats.len(), 3);
@@ -251,7 +255,7 @@ mod tests {
         assert_eq!(feats[2]["properties"]["u95_tvu_m"], 0.3123);
         let u: serde_json::Value = serde_json::from_slice(&std::fs::read(u).unwrap()).unwrap();
         let feats = u["features"].as_array().unwrap();
-        assert_eq!(feats.len(), 3);
+        assert_eq!(feats.len(), 4);
         assert!(feats[1]["geometry"].is_null());
         // The parts are gone.
         assert_eq!(std::fs::read_dir(d.path()).unwrap().count(), 2);

@@ -310,6 +310,12 @@ pub struct SoundingValues<'a> {
 /// knowledge), so anything beyond 12 km is a broken value.
 pub const MAX_PLAUSIBLE_DEPTH_M: f64 = 12_000.0;
 
+/// Largest plausible standard uncertainty of a depth, metres: a tenth of the deepest plausible
+/// depth, far beyond any echo sounder's (IHO S-44 Ed. 6.1.0's loosest order, 2, allows
+/// sqrt(1² + (0.023·d)²) m at 95 %, about 276 m at 12 km); a larger value is a no-data marker
+/// (3.4e38, 1e14, …), not an uncertainty.
+pub const MAX_PLAUSIBLE_U_DEPTH_M: f64 = 1_200.0;
+
 /// Earliest plausible sounding time, UTC seconds: 1980-01-01T00:00:00Z, the start of GPS time
 /// (common practice: positioned, timestamped soundings need satellite positioning).
 pub const MIN_PLAUSIBLE_TIME_S: f64 = 315_532_800.0;
@@ -523,6 +529,24 @@ impl SoundingLayout {
         self.u_depth.is_some()
     }
 
+    /// Whether the file has a survey line column.
+    pub fn has_line_column(&self) -> bool {
+        self.line.is_some()
+    }
+
+    /// The position of a row that cannot be parsed as a whole, when its x and y fields read as
+    /// finite numbers: so that an unreadable row can still be placed on a map.
+    pub fn position_text(&self, line: &str, fields: &Fields) -> Option<(f64, f64)> {
+        let num = |i: usize| {
+            fields
+                .get(line, i)?
+                .parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+        };
+        Some((num(self.x)?, num(self.y)?))
+    }
+
     /// The survey line field of a row as written (trimmed), when the layout has a line column
     /// and the row that field: for a row that cannot be parsed as a whole.
     pub fn line_text<'a>(&self, line: &'a str, fields: &'a Fields) -> Option<&'a str> {
@@ -664,6 +688,15 @@ impl SoundingLayout {
                     return Err(RowProblem {
                         field: self.column_names[i].clone(),
                         message: format!("a standard uncertainty cannot be negative, found {u}"),
+                    });
+                }
+                if u > MAX_PLAUSIBLE_U_DEPTH_M {
+                    return Err(RowProblem {
+                        field: self.column_names[i].clone(),
+                        message: format!(
+                            "'{}' is not a plausible standard uncertainty of a depth in metres (above {MAX_PLAUSIBLE_U_DEPTH_M} m): a no-data value?",
+                            clip(get(i)?)
+                        ),
                     });
                 }
                 Some(u)
@@ -854,6 +887,36 @@ mod tests {
             assert_eq!(e.field, field, "{line}");
             assert!(e.message.contains(frag), "{line}: {}", e.message);
         }
+    }
+
+    #[test]
+    fn a_no_data_depth_uncertainty_is_refused_and_an_unreadable_row_keeps_its_position() {
+        let p = Path::new("s.csv");
+        let mut sp = spec(Delimiter::Comma);
+        sp.columns.u_depth = Some("u".into());
+        let lay = SoundingLayout::resolve(&sp, Some("time,lon,lat,depth,line,u"), None, p).unwrap();
+        let mut f = Fields::default();
+        let ok = "2026-06-14T09:30:00Z,-36.1,-47.5,12.0,L,1200";
+        f.split(ok, Delimiter::Comma);
+        assert_eq!(lay.parse(ok, &f).unwrap().u_depth_m, Some(1200.0));
+        // A float32 no-data value, and one just above the limit.
+        for u in ["3.4028235e38", "1200.5"] {
+            let line = format!("2026-06-14T09:30:00Z,-36.1,-47.5,12.0,L,{u}");
+            f.split(&line, Delimiter::Comma);
+            let e = lay.parse(&line, &f).unwrap_err();
+            assert_eq!(e.field, "u");
+            assert!(
+                e.message.contains("not a plausible standard uncertainty"),
+                "{}",
+                e.message
+            );
+            // The row is not parsed, but its position and line can be read for the QA map.
+            assert_eq!(lay.position_text(&line, &f), Some((-36.1, -47.5)));
+            assert_eq!(lay.line_text(&line, &f), Some("L"));
+        }
+        let bad = "2026-06-14T09:30:00Z,abc,-47.5,3,L,0.1";
+        f.split(bad, Delimiter::Comma);
+        assert_eq!(lay.position_text(bad, &f), None);
     }
 
     #[test]

@@ -22,10 +22,15 @@ use crate::io::timefmt::utc_label;
 /// Step of the tide series in the report, minutes.
 pub const TIDE_SERIES_STEP_MIN: f64 = 5.0;
 
-/// Builds the QA report; `None` when the run computed no uncertainty.
-pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
-    let u = loaded.uncertainty.as_ref()?;
-    let mut qa = run.qa.clone()?;
+/// Builds the QA report; `None` when the run computed no uncertainty. An input file that can no
+/// longer be read for its SHA-256 is an error: the report would not say what it was made from.
+pub fn build_qa_report(
+    loaded: &Loaded,
+    run: &RunSummary,
+) -> Result<Option<QaReport>, crate::io::error::IoError> {
+    let (Some(u), Some(mut qa)) = (loaded.uncertainty.as_ref(), run.qa.clone()) else {
+        return Ok(None);
+    };
     qa.settle();
     let qa = &qa;
     let acc = u.acceptance_share;
@@ -128,8 +133,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         soundings.push(f.input.as_path());
     }
     let inputs =
-        crate::run::provenance::input_files(loaded, &soundings, run.correction_file.as_deref())
-            .unwrap_or_default();
+        crate::run::provenance::input_files(loaded, &soundings, run.correction_file.as_deref())?;
     let map_gauges = loaded
         .project
         .spec
@@ -156,7 +160,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
         .time_range_s
         .map(|p| pair_differences(loaded, p))
         .unwrap_or_default();
-    Some(QaReport {
+    Ok(Some(QaReport {
         schema: QA_SCHEMA,
         ebbwise_version: env!("CARGO_PKG_VERSION"),
         project_name: loaded.project.spec.name.clone(),
@@ -271,7 +275,7 @@ pub fn build_qa_report(loaded: &Loaded, run: &RunSummary) -> Option<QaReport> {
             .iter()
             .map(|z| (z.id.clone(), z.polygon_lonlat.clone()))
             .collect(),
-    })
+    }))
 }
 
 /// The tide step across each shared zone edge (`compute::boundary`), from the zones' tide
@@ -444,6 +448,28 @@ pub fn continuous_tide_series(
                     }
                 }
             }
+            let has: Vec<bool> = s.tide_m.iter().map(Option::is_some).collect();
+            if let Some(p) = at {
+                s.gaps = crate::compute::qa_report::refine_gaps(&s.times_s, &has, 1.0, |t| {
+                    let q = crate::compute::reduce::Query {
+                        x: p.x(),
+                        y: p.y(),
+                        t_s: t,
+                        line: "",
+                    };
+                    match model.tide_at(&q, &mut scratch) {
+                        crate::compute::reduce::TideOutcome::Tide { .. } => None,
+                        crate::compute::reduce::TideOutcome::NoData { why, .. } => Some(matches!(
+                            why.why,
+                            crate::compute::series::NoLevel::Flagged { .. }
+                        )),
+                        crate::compute::reduce::TideOutcome::NoCorrection { flagged, .. } => {
+                            Some(flagged)
+                        }
+                        _ => Some(false),
+                    }
+                });
+            }
             s
         })
         .collect()
@@ -488,6 +514,16 @@ pub fn tide_series(loaded: &Loaded, t0: f64, t1: f64) -> Vec<ZoneTideSeries> {
                     }
                 }
             }
+            let has: Vec<bool> = s.tide_m.iter().map(Option::is_some).collect();
+            s.gaps = crate::compute::qa_report::refine_gaps(&s.times_s, &has, 1.0, |t| {
+                match z.tide_at(&loaded.gauges, loaded.interp.as_ref(), t, &mut states) {
+                    Ok(_) => None,
+                    Err(e) => Some(matches!(
+                        e.why,
+                        crate::compute::series::NoLevel::Flagged { .. }
+                    )),
+                }
+            });
             s
         })
         .collect()

@@ -301,6 +301,9 @@ struct FileCtx<'a> {
     group: usize,
     /// Width of a QA map cell in the group's CRS units.
     map_cell: f64,
+    /// The line the QA counts put a row on that names none: the file's name when the file has
+    /// no line column, else `(no line in FILE)`.
+    no_line: String,
 }
 
 #[derive(Default)]
@@ -733,12 +736,18 @@ fn reduce_file(
         loaded.project.naive_offset,
         input,
     )?;
+    let source_name = input
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let no_line = if layout.has_line_column() {
+        format!("(no line in {source_name})")
+    } else {
+        source_name.clone()
+    };
     let ctx = FileCtx {
         kind,
-        source_name: input
-            .file_name()
-            .map(|n| n.to_string_lossy().into_owned())
-            .unwrap_or_default(),
+        source_name,
         unc: loaded.uncertainty.as_ref(),
         layout,
         zone_ids: loaded.zones.iter().map(|z| z.id.as_str()).collect(),
@@ -746,6 +755,7 @@ fn reduce_file(
         loaded,
         group: group_index,
         map_cell: map_cell_width(&loaded.zoning, &group.crs),
+        no_line,
     };
     let mut sink = AtomicFile::create(out, inputs)?;
     let mut header = Vec::new();
@@ -1201,7 +1211,7 @@ fn process_chunk(
         let mut unc_cols: Option<([f64; 10], bool)> = None;
         // What the QA counts take of the row: its line (the file's name when the file has no
         // line column), time, position and judgement.
-        let mut row_line: &str = &ctx.source_name;
+        let mut row_line: &str = &ctx.no_line;
         let mut row_t: Option<f64> = None;
         let mut row_at: Option<(f64, f64)> = None;
         let mut judged: Option<(f64, [f64; 6])> = None;
@@ -1219,6 +1229,7 @@ fn process_chunk(
                     {
                         row_line = l;
                     }
+                    row_at = ctx.layout.position_text(line, &fields);
                     detail.push_str("field '");
                     detail.push_str(&p.field);
                     detail.push_str("': ");
@@ -1480,7 +1491,12 @@ fn process_chunk(
                 if let (Some((vals, _)), Some((ratio, _))) = (unc_cols, judged) {
                     e.num_prop("u95_tvu_m", vals[8], UNCERTAINTY_DECIMALS);
                     e.num_prop("allowed_u95_tvu_m", vals[9], UNCERTAINTY_DECIMALS);
-                    e.num_prop("ratio", ratio, 3);
+                    // Rounded up, as the report's ratios are: a failing sounding never reads 1.000.
+                    e.num_prop(
+                        "ratio",
+                        crate::compute::qa::round_up(ratio, crate::compute::qa::RATIO_DECIMALS),
+                        3,
+                    );
                 }
                 if !detail.is_empty() {
                     e.str_prop("status_detail", &detail);
