@@ -133,13 +133,19 @@ pub fn write_qa_report(
             let html_path = out_dir.join("qa-report.html");
             write_atomic(&json_path, &serde_json::to_vec_pretty(&report)?)?;
             write_atomic(&html_path, render_html(&report).as_bytes())?;
+            if report.exports.is_empty() {
+                // Turned off ([output] geojson_exports = false): none left from an earlier run.
+                for stale in [FAILING_FILE, UNREDUCED_FILE] {
+                    let _ = std::fs::remove_file(out_dir.join(stale));
+                }
+            }
             let (within, total) = report.within_chosen_of_all();
             let judged = report.survey.soundings;
             let unreduced = total
                 - report.rows_by_status.get(SoundingStatus::Reduced)
                 - report.rows_by_status.get(SoundingStatus::GapFilled);
             format!(
-                "  order {}: {:.1} % of {} judged (reduced) soundings within the TVU limit, {:.1} % of all {}; acceptance {:.0} % (the project's rule): {}; strictest order met on the TVU limit alone: {}; dominant component: {}\n  QA report: {} and {}\n  exports (GeoJSON): {} failing soundings in {}, {} unreduced in {}",
+                "  order {}: {:.1} % of {} judged (reduced) soundings within the TVU limit, {:.1} % of all {}; acceptance {:.0} % (the project's rule): {}; strictest order met on the TVU limit alone: {}; dominant component: {}\n  QA report: {} and {}\n  {}",
                 report.chosen_order.name,
                 100.0 * report.survey.share_within_chosen,
                 report.survey.soundings,
@@ -151,10 +157,16 @@ pub fn write_qa_report(
                 report.dominant_component,
                 html_path.display(),
                 json_path.display(),
-                judged - within,
-                out_dir.join(FAILING_FILE).display(),
-                unreduced,
-                out_dir.join(UNREDUCED_FILE).display()
+                if report.exports.is_empty() {
+                    "exports (GeoJSON): not written ([output] geojson_exports = false)".to_string()
+                } else {
+                    format!(
+                        "exports (GeoJSON): {} failing soundings in {}, {unreduced} unreduced in {}",
+                        judged - within,
+                        out_dir.join(FAILING_FILE).display(),
+                        out_dir.join(UNREDUCED_FILE).display()
+                    )
+                }
             )
         }
         None => {

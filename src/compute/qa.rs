@@ -206,6 +206,39 @@ pub struct BudgetQa {
 /// Unit of the summed variances: 1e-12 m² (a standard uncertainty of 1 µm).
 const VARIANCE_UNIT_M2: f64 = 1e-12;
 
+/// One sounding's budget as the sums take it: each component's variance in
+/// [`VARIANCE_UNIT_M2`] and its share of u_tvu² in units of 1e-9, both to nearest, and the
+/// shares themselves (for the percentile sketches).
+struct BudgetUnits {
+    var: [u64; 6],
+    share: [u64; 6],
+    shares: [f64; 6],
+}
+
+impl BudgetUnits {
+    /// `None` for a sounding with no variance at all. Rounded to nearest by adding a half and
+    /// truncating (every value is non-negative); a variance beyond the u64 range (more than
+    /// 1.8e7 m², beyond any plausible depth uncertainty) saturates.
+    fn of(var_m2: &[f64; 6]) -> Option<BudgetUnits> {
+        let total: f64 = var_m2.iter().sum();
+        if total.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+            return None;
+        }
+        let mut u = BudgetUnits {
+            var: [0; 6],
+            share: [0; 6],
+            shares: [0.0; 6],
+        };
+        for (k, v) in var_m2.iter().enumerate() {
+            u.var[k] = (v / VARIANCE_UNIT_M2 + 0.5) as u64;
+            let s = v / total;
+            u.shares[k] = s;
+            u.share[k] = (s * SHARE_UNITS + 0.5) as u64;
+        }
+        Some(u)
+    }
+}
+
 impl Default for BudgetQa {
     fn default() -> Self {
         BudgetQa {
@@ -226,20 +259,23 @@ impl BudgetQa {
         }
     }
 
+    #[cfg(test)]
     fn add(&mut self, var_m2: &[f64; 6]) {
-        let total: f64 = var_m2.iter().sum();
-        if total <= 0.0 {
-            return;
+        if let Some(u) = BudgetUnits::of(var_m2) {
+            self.add_units(&u);
         }
+    }
+
+    /// Adds one sounding's budget, in the units [`BudgetUnits::of`] made of it (once for the
+    /// zone and the line).
+    fn add_units(&mut self, u: &BudgetUnits) {
         self.n += 1;
-        for (k, v) in var_m2.iter().enumerate() {
+        for k in 0..6 {
             // Saturating: a sum that reaches the top stays there, never wraps to a small one.
-            self.var_sum[k] =
-                self.var_sum[k].saturating_add((v / VARIANCE_UNIT_M2).round() as u128);
-            let s = v / total;
-            self.share_sum[k] += (s * SHARE_UNITS).round() as u64;
+            self.var_sum[k] = self.var_sum[k].saturating_add(u128::from(u.var[k]));
+            self.share_sum[k] += u.share[k];
             if let Some(sk) = self.share_sketch.as_mut() {
-                sk[k].add(s);
+                sk[k].add(u.shares[k]);
             }
         }
     }
@@ -419,6 +455,9 @@ pub struct QaAccumulator {
     pub lines: BTreeMap<String, LineQa>,
     /// The map's cells.
     pub cells: HashMap<CellKey, MapCell>,
+    /// The cell of the last soundings added, not yet in `cells`: consecutive soundings mostly
+    /// share a cell, so most are merged here without a hash lookup.
+    pending: Option<(CellKey, MapCell)>,
 }
 
 impl QaAccumulator {
@@ -441,6 +480,14 @@ impl QaAccumulator {
             no_zone: StatusTally::default(),
             lines: BTreeMap::new(),
             cells: HashMap::new(),
+            pending: None,
+        }
+    }
+
+    /// Moves the pending cell into `cells`.
+    fn flush(&mut self) {
+        if let Some((k, c)) = self.pending.take() {
+            self.cells.entry(k).or_default().merge(&c);
         }
     }
 
@@ -511,8 +558,10 @@ impl QaAccumulator {
             };
             bump(&mut self.zones[z].0);
             bump(&mut line.qa);
-            self.zones[z].1.add(&j.var_m2);
-            line.budget.add(&j.var_m2);
+            if let Some(u) = BudgetUnits::of(&j.var_m2) {
+                self.zones[z].1.add_units(&u);
+                line.budget.add_units(&u);
+            }
             if let Some((_, s)) = sample.as_mut() {
                 s.value = j.ratio;
             }
@@ -529,7 +578,13 @@ impl QaAccumulator {
                 (false, false) if row.status >= FIRST_UNREDUCED_STATUS => c.unreduced = Some(s),
                 (false, false) => {}
             }
-            self.cells.entry(key).or_default().merge(&c);
+            match self.pending.as_mut() {
+                Some((k, p)) if *k == key => p.merge(&c),
+                _ => {
+                    self.flush();
+                    self.pending = Some((key, c));
+                }
+            }
         }
     }
 
@@ -543,7 +598,9 @@ impl QaAccumulator {
     }
 
     /// Merges another accumulator into this one.
-    pub fn merge(&mut self, o: QaAccumulator) {
+    pub fn merge(&mut self, mut o: QaAccumulator) {
+        self.flush();
+        o.flush();
         for (a, b) in self.zones.iter_mut().zip(&o.zones) {
             a.0.merge(&b.0);
             a.1.merge(&b.1);
@@ -565,7 +622,11 @@ impl QaAccumulator {
 
     /// The map's cells in a fixed order (by key).
     pub fn sorted_cells(&self) -> Vec<(CellKey, MapCell)> {
-        let mut v: Vec<(CellKey, MapCell)> = self.cells.iter().map(|(k, c)| (*k, *c)).collect();
+        let mut all = self.cells.clone();
+        if let Some((k, c)) = &self.pending {
+            all.entry(*k).or_default().merge(c);
+        }
+        let mut v: Vec<(CellKey, MapCell)> = all.into_iter().collect();
         v.sort_by_key(|(k, _)| *k);
         v
     }

@@ -641,12 +641,22 @@ pub struct OutputSpec {
     /// Output directory, relative to the project file (created when missing).
     #[serde(default = "default_out_dir")]
     pub dir: PathBuf,
+    /// Write the failing and the unreduced soundings as GeoJSON beside the QA report (default
+    /// true). A day of multibeam with many failing soundings makes large files; a pipeline that
+    /// reads `within_order` from the reduced files can turn them off.
+    #[serde(default = "yes")]
+    pub geojson_exports: bool,
+}
+
+fn yes() -> bool {
+    true
 }
 
 impl Default for OutputSpec {
     fn default() -> Self {
         OutputSpec {
             dir: default_out_dir(),
+            geojson_exports: true,
         }
     }
 }

@@ -4,10 +4,10 @@
 //! (every sounding not reduced, with its status and reason; an unreadable row has a null
 //! geometry).
 //!
-//! Rows are gathered per chunk ([`ExportBuf`]: properties as JSON text, position in the
-//! soundings' CRS), carried to longitude/latitude and written per soundings file into a part
-//! ([`ExportParts`]), and the parts joined in file order into the two files ([`join_parts`]),
-//! written through an [`AtomicFile`].
+//! Each chunk's worker writes its rows as whole features ([`ExportBuf`], positions carried to
+//! longitude/latitude with its thread's PROJ transformation); each soundings file's task
+//! writes its chunks' features, in chunk order, into a part ([`ExportParts`]); the parts are
+//! joined in file order into the two files ([`join_parts`]), written through an [`AtomicFile`].
 
 use std::io::{Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
@@ -22,8 +22,8 @@ pub const FAILING_FILE: &str = "failing-soundings.geojson";
 /// File name of the unreduced soundings' export.
 pub const UNREDUCED_FILE: &str = "unreduced-soundings.geojson";
 
-/// Decimals of longitude and latitude in the exports (1e-8°, about 1 mm).
-const LONLAT_DECIMALS: u32 = 8;
+/// Decimals of longitude and latitude in the exports (1e-7°, about 1 cm).
+const LONLAT_DECIMALS: u32 = 7;
 
 /// Which export a row goes to.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -34,54 +34,86 @@ pub enum ExportKind {
     Unreduced,
 }
 
-/// One row bound for an export: its kind, its position in the soundings' CRS (when read) and
-/// where its properties' text starts and ends in [`ExportBuf::props`].
-pub type ExportRow = (ExportKind, Option<(f64, f64)>, usize, usize);
-
-/// Rows of one chunk bound for the exports, with their properties as JSON objects' text.
+/// The features of one chunk bound for the exports, as GeoJSON text, each preceded by `,\n`
+/// ([`join_parts`] drops the first): the failing ones and the unreduced ones. Made by the
+/// worker that reduces the chunk, positions carried to longitude/latitude there (one PROJ
+/// transformation per worker thread and CRS, [`with_to_lonlat`]).
 #[derive(Debug, Default)]
 pub struct ExportBuf {
-    /// The properties' text.
-    pub props: Vec<u8>,
-    /// The rows.
-    pub rows: Vec<ExportRow>,
+    /// Failing features.
+    pub failing: Vec<u8>,
+    /// Unreduced features.
+    pub unreduced: Vec<u8>,
+    /// The properties of the feature being made.
+    props: Vec<u8>,
 }
 
-/// Writes a JSON string (quoted, escaped).
+/// Calls `f` with this thread's transformation from `crs` to longitude/latitude (made on first
+/// use and kept for the thread's life; `None` when PROJ cannot make it).
+pub fn with_to_lonlat<R>(crs: &str, f: impl FnOnce(Option<&Transformer>) -> R) -> R {
+    thread_local! {
+        static TO_LONLAT: std::cell::RefCell<Vec<(String, Option<Transformer>)>> =
+            const { std::cell::RefCell::new(Vec::new()) };
+    }
+    TO_LONLAT.with(|cache| {
+        let mut cache = cache.borrow_mut();
+        let k = match cache.iter().position(|(c, _)| c == crs) {
+            Some(k) => k,
+            None => {
+                cache.push((crs.to_string(), Transformer::new(crs, "EPSG:4326").ok()));
+                cache.len() - 1
+            }
+        };
+        f(cache[k].1.as_ref())
+    })
+}
+
+/// Writes a JSON string (quoted, escaped): as it is when it needs no escape, else through
+/// serde_json, which escapes as RFC 8259 asks.
 pub fn push_json_str(out: &mut Vec<u8>, s: &str) {
-    // serde_json escapes as RFC 8259 asks; writing into a Vec cannot fail.
-    let _ = serde_json::to_writer(&mut *out, s);
+    if s.bytes().all(|b| b >= 0x20 && b != b'"' && b != b'\\') {
+        out.push(b'"');
+        out.extend_from_slice(s.as_bytes());
+        out.push(b'"');
+    } else {
+        // Writing into a Vec cannot fail.
+        let _ = serde_json::to_writer(&mut *out, s);
+    }
+}
+
+/// Writes `,"key":` for a key that needs no escape (the exports' own keys).
+fn push_key(out: &mut Vec<u8>, key: &str) {
+    debug_assert!(key.bytes().all(|b| b.is_ascii_alphanumeric() || b == b'_'));
+    out.extend_from_slice(b",\"");
+    out.extend_from_slice(key.as_bytes());
+    out.extend_from_slice(b"\":");
 }
 
 impl ExportBuf {
-    /// Starts a row's properties: `{"file":…,"row":…,"line":…,"status":…`; finish with
-    /// [`ExportBuf::end`].
-    pub fn begin(&mut self, file: &str, row: u64, line: &str, status: &str) -> usize {
-        let start = self.props.len();
+    /// Starts a feature's properties: `{"file":…,"row":…,"line":…,"status":…`; add more with
+    /// [`ExportBuf::str_prop`] and [`ExportBuf::num_prop`], finish with [`ExportBuf::end`].
+    pub fn begin(&mut self, file: &str, row: u64, line: &str, status: &str) {
+        self.props.clear();
         self.props.extend_from_slice(b"{\"file\":");
         push_json_str(&mut self.props, file);
         self.props.extend_from_slice(b",\"row\":");
-        self.props.extend_from_slice(row.to_string().as_bytes());
+        // Writing into a Vec cannot fail.
+        let _ = write!(self.props, "{row}");
         self.props.extend_from_slice(b",\"line\":");
         push_json_str(&mut self.props, line);
         self.props.extend_from_slice(b",\"status\":");
         push_json_str(&mut self.props, status);
-        start
     }
 
-    /// Adds a string property.
+    /// Adds a string property (`key`: letters, digits and `_`).
     pub fn str_prop(&mut self, key: &str, v: &str) {
-        self.props.push(b',');
-        push_json_str(&mut self.props, key);
-        self.props.push(b':');
+        push_key(&mut self.props, key);
         push_json_str(&mut self.props, v);
     }
 
-    /// Adds a number property with `decimals` decimals.
+    /// Adds a number property with `decimals` decimals (`key`: letters, digits and `_`).
     pub fn num_prop(&mut self, key: &str, v: f64, decimals: u32) {
-        self.props.push(b',');
-        push_json_str(&mut self.props, key);
-        self.props.push(b':');
+        push_key(&mut self.props, key);
         if v.is_finite() {
             push_fixed(&mut self.props, v, decimals);
         } else {
@@ -89,10 +121,30 @@ impl ExportBuf {
         }
     }
 
-    /// Ends the row begun at `start`.
-    pub fn end(&mut self, kind: ExportKind, at: Option<(f64, f64)>, start: usize) {
+    /// Ends the feature begun last: its position `at` in `crs` (when read) carried to
+    /// longitude/latitude, onto the export of `kind`.
+    pub fn end(&mut self, kind: ExportKind, at: Option<(f64, f64)>, crs: &str) {
         self.props.push(b'}');
-        self.rows.push((kind, at, start, self.props.len()));
+        let lonlat =
+            at.and_then(|(x, y)| with_to_lonlat(crs, |t| t.and_then(|t| t.convert(x, y).ok())));
+        let out = match kind {
+            ExportKind::Failing => &mut self.failing,
+            ExportKind::Unreduced => &mut self.unreduced,
+        };
+        out.extend_from_slice(b",\n{\"type\":\"Feature\",\"geometry\":");
+        match lonlat {
+            Some((lon, lat)) => {
+                out.extend_from_slice(b"{\"type\":\"Point\",\"coordinates\":[");
+                push_fixed(out, lon, LONLAT_DECIMALS);
+                out.push(b',');
+                push_fixed(out, lat, LONLAT_DECIMALS);
+                out.extend_from_slice(b"]}");
+            }
+            None => out.extend_from_slice(b"null"),
+        }
+        out.extend_from_slice(b",\"properties\":");
+        out.extend_from_slice(&self.props);
+        out.push(b'}');
     }
 }
 
@@ -100,8 +152,6 @@ impl ExportBuf {
 /// (named so that [`super::atomic::remove_stale_partials`] removes them after a killed run).
 pub struct ExportParts {
     files: [(PathBuf, std::io::BufWriter<std::fs::File>); 2],
-    to_lonlat: Transformer,
-    text: Vec<u8>,
 }
 
 /// The part paths of job `k` in `dir`: failing, unreduced. They carry this process's id, so
@@ -115,44 +165,22 @@ pub fn part_paths(dir: &Path, k: usize) -> [PathBuf; 2] {
 }
 
 impl ExportParts {
-    /// Creates job `k`'s parts in `dir`, for soundings in `crs`.
-    pub fn create(dir: &Path, k: usize, crs: &str) -> Result<ExportParts, IoError> {
-        let to_lonlat = Transformer::new(crs, "EPSG:4326")
-            .map_err(|e| IoError::content(super::error::Position::file(dir), e.to_string()))?;
+    /// Creates job `k`'s parts in `dir`.
+    pub fn create(dir: &Path, k: usize) -> Result<ExportParts, IoError> {
         let [a, b] = part_paths(dir, k);
         let open = |p: PathBuf| -> Result<(PathBuf, std::io::BufWriter<std::fs::File>), IoError> {
             let f = std::fs::File::create(&p).map_err(|e| IoError::file(&p, e))?;
-            Ok((p, std::io::BufWriter::new(f)))
+            Ok((p, std::io::BufWriter::with_capacity(256 * 1024, f)))
         };
         Ok(ExportParts {
             files: [open(a)?, open(b)?],
-            to_lonlat,
-            text: Vec::new(),
         })
     }
 
-    /// Writes a chunk's rows: each feature preceded by `,\n` ([`join_parts`] drops the first).
+    /// Writes a chunk's features.
     pub fn write(&mut self, buf: &ExportBuf) -> Result<(), IoError> {
-        for &(kind, at, a, b) in &buf.rows {
-            self.text.clear();
-            self.text
-                .extend_from_slice(b",\n{\"type\":\"Feature\",\"geometry\":");
-            match at.and_then(|(x, y)| self.to_lonlat.convert(x, y).ok()) {
-                Some((lon, lat)) => {
-                    self.text
-                        .extend_from_slice(b"{\"type\":\"Point\",\"coordinates\":[");
-                    push_fixed(&mut self.text, lon, LONLAT_DECIMALS);
-                    self.text.push(b',');
-                    push_fixed(&mut self.text, lat, LONLAT_DECIMALS);
-                    self.text.extend_from_slice(b"]}");
-                }
-                None => self.text.extend_from_slice(b"null"),
-            }
-            self.text.extend_from_slice(b",\"properties\":");
-            self.text.extend_from_slice(&buf.props[a..b]);
-            self.text.push(b'}');
-            let (p, w) = &mut self.files[usize::from(kind == ExportKind::Unreduced)];
-            w.write_all(&self.text).map_err(|e| IoError::file(p, e))?;
+        for ((p, w), bytes) in self.files.iter_mut().zip([&buf.failing, &buf.unreduced]) {
+            w.write_all(bytes).map_err(|e| IoError::file(p, e))?;
         }
         Ok(())
     }
@@ -233,16 +261,16 @@ mod tests {
         // The first part empty: the first feature written comes from a later part, and has no
         // comma before it.
         for (k, rows) in [0usize, 2, 0, 1].iter().enumerate() {
-            let mut parts = ExportParts::create(d.path(), k, "EPSG:4326").unwrap();
+            let mut parts = ExportParts::create(d.path(), k).unwrap();
             let mut b = ExportBuf::default();
             for r in 0..*rows {
-                let s = b.begin("a \"b\".csv", r as u64 + 2, "L1", "reduced");
+                b.begin("a \"b\".csv", r as u64 + 2, "L1", "reduced");
                 b.num_prop("u95_tvu_m", 0.31234, 4);
-                b.end(ExportKind::Failing, Some((-36.5, 12.25)), s);
+                b.end(ExportKind::Failing, Some((-36.5, 12.25)), "EPSG:4326");
             }
-            let s = b.begin("a.csv", 9, "L2", "bad_input");
+            b.begin("a.csv", 9, "L2", "bad_input");
             b.str_prop("status_detail", "field 'depth': expected a number");
-            b.end(ExportKind::Unreduced, None, s);
+            b.end(ExportKind::Unreduced, None, "EPSG:4326");
             parts.write(&b).unwrap();
             parts.finish().unwrap();
         }
@@ -252,6 +280,12 @@ mod tests {
         assert_eq!(feats.len(), 3);
         assert_eq!(feats[0]["geometry"]["coordinates"][0], -36.5);
         assert_eq!(feats[0]["properties"]["file"], "a \"b\".csv");
+        let mut v = Vec::new();
+        push_json_str(&mut v, "L\u{1}\\x");
+        assert_eq!(v, br#""L\u0001\\x""#);
+        v.clear();
+        push_json_str(&mut v, "plain é");
+        assert_eq!(v, "\"plain é\"".as_bytes());
         assert_eq!(feats[2]["properties"]["u95_tvu_m"], 0.3123);
         let u: serde_json::Value = serde_json::from_slice(&std::fs::read(u).unwrap()).unwrap();
         let feats = u["features"].as_array().unwrap();

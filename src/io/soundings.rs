@@ -39,7 +39,48 @@ pub struct ChunkReader<R: Read> {
     started: bool,
 }
 
+/// A reader that can compute the SHA-256 of every byte read through it, so that a file read
+/// once for its soundings also gives its provenance hash.
+pub struct HashingReader<R: Read> {
+    inner: R,
+    hasher: Option<sha2::Sha256>,
+}
+
+impl<R: Read> HashingReader<R> {
+    /// Wraps `inner`; hashes only when `hash` is true.
+    pub fn new(inner: R, hash: bool) -> Self {
+        use sha2::Digest;
+        HashingReader {
+            inner,
+            hasher: hash.then(sha2::Sha256::new),
+        }
+    }
+
+    /// The SHA-256 (hex) of what was read, when hashing.
+    pub fn sha256_hex(self) -> Option<String> {
+        use sha2::Digest;
+        self.hasher
+            .map(|h| h.finalize().iter().map(|b| format!("{b:02x}")).collect())
+    }
+}
+
+impl<R: Read> Read for HashingReader<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        use sha2::Digest;
+        let n = self.inner.read(buf)?;
+        if let Some(h) = self.hasher.as_mut() {
+            h.update(&buf[..n]);
+        }
+        Ok(n)
+    }
+}
+
 impl<R: Read> ChunkReader<R> {
+    /// The reader it wraps.
+    pub fn into_inner(self) -> R {
+        self.inner
+    }
+
     /// Wraps a reader; line numbering starts at `first_line`.
     pub fn new(inner: R, first_line: u64) -> Self {
         ChunkReader {
@@ -778,6 +819,24 @@ mod tests {
                 u_depth: None,
             },
         }
+    }
+
+    #[test]
+    fn a_hashing_reader_gives_the_hash_of_every_byte_even_a_stripped_bom() {
+        let mut text = Vec::from(&b"\xEF\xBB\xBFh\r\n"[..]);
+        for i in 0..300_000 {
+            text.extend_from_slice(format!("{i},x\n").as_bytes());
+        }
+        let mut r = ChunkReader::new(HashingReader::new(&text[..], true), 1);
+        while r.next_chunk(Vec::new()).unwrap().is_some() {}
+        let got = r.into_inner().sha256_hex().unwrap();
+        use sha2::Digest;
+        let want: String = sha2::Sha256::digest(&text)
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect();
+        assert_eq!(got, want);
+        assert!(HashingReader::new(&text[..], false).sha256_hex().is_none());
     }
 
     #[test]

@@ -272,7 +272,8 @@ fn provenance(
     extra_inputs: &[&Path],
 ) -> Result<Provenance, IoError> {
     let p = &loaded.project;
-    let inputs = crate::run::provenance::input_files(loaded, extra_inputs, None)?;
+    let soundings: Vec<(&Path, Option<&str>)> = extra_inputs.iter().map(|p| (*p, None)).collect();
+    let inputs = crate::run::provenance::input_files(loaded, &soundings, None)?;
     let zones: Vec<serde_json::Value> = loaded
         .zones
         .iter()

@@ -24,11 +24,12 @@ use crate::io::error::IoError;
 
 /// Every input file of a run with its SHA-256, in a fixed order: the project file, the zoning,
 /// each gauge's record and constants file, each virtual gauge's constants (a continuous tide),
-/// the given soundings files, and the correction file applied (an apply run). A datums file is
+/// the given soundings files (with their hash when the caller already has it), and the
+/// correction file applied (an apply run). A datums file is
 /// not read by a reduction and is not listed.
 pub fn input_files(
     loaded: &Loaded,
-    soundings: &[&std::path::Path],
+    soundings: &[(&std::path::Path, Option<&str>)],
     correction_file: Option<&std::path::Path>,
 ) -> Result<Vec<crate::compute::qa_report::InputFile>, IoError> {
     use crate::compute::qa_report::InputFile;
@@ -59,8 +60,16 @@ pub fn input_files(
             )?);
         }
     }
-    for f in soundings {
-        out.push(one("soundings".into(), f)?);
+    // A soundings file's hash taken as the run read it, when given (one read, not two).
+    for (f, known) in soundings {
+        match known {
+            Some(h) => out.push(InputFile {
+                role: "soundings".into(),
+                path: f.display().to_string(),
+                sha256: (*h).to_string(),
+            }),
+            None => out.push(one("soundings".into(), f)?),
+        }
     }
     if let Some(c) = correction_file {
         out.push(one("correction file".into(), c)?);

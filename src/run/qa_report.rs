@@ -128,10 +128,11 @@ pub fn build_qa_report(
             }
         }
     }
-    let mut soundings: Vec<&std::path::Path> = Vec::new();
-    for f in &run.files {
-        soundings.push(f.input.as_path());
-    }
+    let soundings: Vec<(&std::path::Path, Option<&str>)> = run
+        .files
+        .iter()
+        .map(|f| (f.input.as_path(), f.input_sha256.as_deref()))
+        .collect();
     let inputs =
         crate::run::provenance::input_files(loaded, &soundings, run.correction_file.as_deref())?;
     let map_gauges = loaded

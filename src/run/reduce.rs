@@ -173,6 +173,9 @@ pub struct FileSummary {
     /// QA counts, when uncertainty was computed.
     #[serde(skip)]
     pub qa: Option<QaAccumulator>,
+    /// The input's SHA-256 (hex), taken as it was read, when the run makes a QA report.
+    #[serde(skip)]
+    pub input_sha256: Option<String>,
 }
 
 impl FileSummary {
@@ -299,6 +302,8 @@ struct FileCtx<'a> {
     gauge_ids: Vec<&'a str>,
     loaded: &'a Loaded,
     group: usize,
+    /// Whether failing and unreduced rows go to the GeoJSON exports.
+    exporting: bool,
     /// Width of a QA map cell in the group's CRS units.
     map_cell: f64,
     /// The line the QA counts put a row on that names none: the file's name when the file has
@@ -525,14 +530,15 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         .chain(std::iter::once(loaded.project.spec.zoning.as_path()))
         .collect();
     // With the QA counts, the failing and unreduced soundings are exported as GeoJSON.
-    let exporting =
-        loaded.uncertainty.is_some() && !matches!(opts.kind, RunKind::SoundingCorrectors);
+    let exporting = loaded.project.spec.output.geojson_exports
+        && loaded.uncertainty.is_some()
+        && !matches!(opts.kind, RunKind::SoundingCorrectors);
     let files: Result<Vec<FileSummary>, IoError> = jobs
         .par_iter()
         .enumerate()
         .map(|(k, (gi, group, input, out))| {
             let parts = if exporting {
-                Some(ExportParts::create(&opts.out_dir, k, &group.crs)?)
+                Some(ExportParts::create(&opts.out_dir, k)?)
             } else {
                 None
             };
@@ -720,7 +726,12 @@ fn reduce_file(
     mut parts: Option<ExportParts>,
 ) -> Result<FileSummary, IoError> {
     let file = File::open(input).map_err(|e| IoError::file(input, e))?;
-    let mut reader = ChunkReader::new(file, 1);
+    // The QA report's provenance gives every soundings file's SHA-256: taken as it is read.
+    let hash_input = loaded.uncertainty.is_some() && !matches!(kind, RunKind::SoundingCorrectors);
+    let mut reader = ChunkReader::new(
+        crate::io::soundings::HashingReader::new(file, hash_input),
+        1,
+    );
     let first = reader
         .next_chunk(Vec::new())
         .map_err(|e| IoError::file(input, e))?;
@@ -755,6 +766,7 @@ fn reduce_file(
         loaded,
         group: group_index,
         map_cell: map_cell_width(&loaded.zoning, &group.crs),
+        exporting: parts.is_some(),
         no_line,
     };
     let mut sink = AtomicFile::create(out, inputs)?;
@@ -806,6 +818,7 @@ fn reduce_file(
         per_zone: vec![[0; N_STATUS]; loaded.zones.len()],
         time_range_s: None,
         qa: None,
+        input_sha256: None,
     };
     let mut counts = [0u64; N_STATUS];
     let batch = CHUNKS_PER_THREAD * rayon::current_num_threads().max(1);
@@ -816,23 +829,25 @@ fn reduce_file(
     let (out_tx, out_rx) = std::sync::mpsc::sync_channel::<Vec<u8>>(batch);
     let (used_tx, used_rx) = std::sync::mpsc::channel::<Vec<u8>>();
     let (spare_tx, spare_rx) = std::sync::mpsc::channel::<Vec<u8>>();
+    let mut input_sha256: Option<String> = None;
     let written: Result<AtomicFile, IoError> = std::thread::scope(|scope| {
-        scope.spawn(move || {
+        // The reader gives the file's SHA-256 when it has read it all.
+        let hashed = scope.spawn(move || -> Option<String> {
             if chunk_tx.send(Ok(first)).is_err() {
-                return;
+                return None;
             }
             loop {
                 let buf = spare_rx.try_recv().unwrap_or_default();
                 match reader.next_chunk(buf) {
                     Ok(Some(c)) => {
                         if chunk_tx.send(Ok(c)).is_err() {
-                            return;
+                            return None;
                         }
                     }
-                    Ok(None) => return,
+                    Ok(None) => return reader.into_inner().sha256_hex(),
                     Err(e) => {
                         let _ = chunk_tx.send(Err(e));
-                        return;
+                        return None;
                     }
                 }
             }
@@ -925,6 +940,7 @@ fn reduce_file(
         drop(out_tx);
         drop(chunk_rx);
         let sink = writer.join().expect("writer thread does not panic")?;
+        input_sha256 = hashed.join().expect("reader thread does not panic");
         match read_error.or(export_error) {
             Some(e) => Err(e),
             None => Ok(sink),
@@ -936,6 +952,7 @@ fn reduce_file(
     }
     sink.commit()?;
     summary.rows_by_status = StatusCounts(counts);
+    summary.input_sha256 = input_sha256;
     Ok(summary)
 }
 
@@ -1470,12 +1487,12 @@ fn process_chunk(
         } else {
             write_reduced_tail(&mut o.bytes, ctx, zone, tide, status, &detail, unc_cols);
         }
-        if o.qa.is_some() {
+        if o.qa.is_some() && ctx.exporting {
             let failing = unc_cols.is_some_and(|(_, within)| !within);
             let unreduced = status.index() >= crate::compute::qa::FIRST_UNREDUCED_STATUS;
             if failing || unreduced {
                 let e = &mut o.exports;
-                let start = e.begin(&ctx.source_name, line_no, row_line, status.as_str());
+                e.begin(&ctx.source_name, line_no, row_line, status.as_str());
                 if let Some(t) = row_t {
                     let mut s = String::with_capacity(24);
                     crate::io::timefmt::push_utc(&mut s, t);
@@ -1506,7 +1523,11 @@ fn process_chunk(
                 } else {
                     ExportKind::Failing
                 };
-                e.end(kind, row_at, start);
+                e.end(
+                    kind,
+                    row_at,
+                    &ctx.loaded.project.spec.soundings[ctx.group].crs,
+                );
             }
         }
         if let Some(q) = o.qa.as_mut() {

@@ -923,9 +923,18 @@ fn the_page_has_every_section_and_every_row() {
         report["provenance"]["inputs"].as_array().unwrap().len()
     );
     assert_eq!(rows("table.budget"), n("zones") + 1);
-    // Every input file's SHA-256 is on the page.
+    // Every input file's SHA-256 is on the page, and is the file's (computed here with the
+    // sha2 crate; the soundings files' hashes are taken as the run reads them).
     for i in report["provenance"]["inputs"].as_array().unwrap() {
-        assert!(html.contains(i["sha256"].as_str().unwrap()));
+        let h = i["sha256"].as_str().unwrap();
+        assert!(html.contains(h));
+        use sha2::Digest;
+        let bytes = std::fs::read(i["path"].as_str().unwrap()).unwrap();
+        let want: String = sha2::Sha256::digest(&bytes)
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect();
+        assert_eq!(h, want, "{}", i["role"]);
     }
     let roles: Vec<&str> = report["provenance"]["inputs"]
         .as_array()
@@ -1004,4 +1013,58 @@ fn the_page_has_every_section_and_every_row() {
     assert!(print.contains("h2 {") && print.contains("break-after: avoid"));
     assert!(print.contains("break-inside: avoid"));
     assert!(page.contains("qualified hydrographic review"));
+}
+
+/// `[output] geojson_exports = false` writes no exports and removes those an earlier run left;
+/// the report says it wrote none.
+#[test]
+fn exports_can_be_turned_off() {
+    let d = tempfile::tempdir().unwrap();
+    let demo = repo().join("zoning-demo");
+    // The demo's project with its inputs' paths made absolute, in a folder of its own.
+    let project = std::fs::read_to_string(demo.join("project.toml"))
+        .unwrap()
+        .replace("dir = \"out\"", "dir = \"out\"\ngeojson_exports = false")
+        .replace(
+            "zoning = \"zoning.geojson\"",
+            &format!("zoning = \"{}\"", demo.join("zoning.geojson").display()),
+        )
+        .replace(
+            "record = \"gauges/",
+            &format!("record = \"{}/gauges/", demo.display()),
+        )
+        .replace("\"soundings/", &format!("\"{}/soundings/", demo.display()));
+    let p = d.path().join("project.toml");
+    std::fs::write(&p, project).unwrap();
+    let out = d.path().join("out");
+    std::fs::create_dir_all(&out).unwrap();
+    std::fs::write(
+        out.join("failing-soundings.geojson"),
+        "left by an earlier run",
+    )
+    .unwrap();
+    let o = ebbwise(&[
+        "reduce",
+        p.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--no-progress",
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("exports (GeoJSON): not written ([output] geojson_exports = false)")
+    );
+    assert!(!out.join("failing-soundings.geojson").exists());
+    assert!(!out.join("unreduced-soundings.geojson").exists());
+    let report: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("qa-report.json")).unwrap()).unwrap();
+    assert_eq!(report["exports"], serde_json::json!([]));
+    // No part file is left either.
+    let left: Vec<_> = std::fs::read_dir(&out)
+        .unwrap()
+        .filter_map(Result::ok)
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with('.'))
+        .collect();
+    assert!(left.is_empty(), "{left:?}");
 }
