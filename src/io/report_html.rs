@@ -1159,7 +1159,7 @@ fn count_headings(o: &mut String, first: &str, extra: &[&str]) {
         // The status words may break after their underscores, to keep the table narrow.
         let _ = write!(o, "<th>{}</th>", h.replace('_', "_<wbr>"));
     }
-    o.push_str("<th>judged</th><th>within, of judged</th><th>within, of all</th><th>drying heights</th><th>worst U95/allowed</th><th>P95 U95/allowed</th>");
+    o.push_str("<th>judged</th><th>within, of judged</th><th>within, of all</th><th>drying heights</th><th>worst U95/<wbr>allowed</th><th>P95 U95/<wbr>allowed</th>");
 }
 
 /// Defaulted inputs as the zone table names them: `gauge A: u_gauge_m` → `A u_gauge_m`.
@@ -1447,7 +1447,7 @@ svg .tick {{ font-size: 11px; fill: #2c3e50; }} svg .axis {{ font-size: 12px; fi
 svg .steplabel {{ font-size: 11px; font-weight: bold; fill: #111; paint-order: stroke; stroke: #fff; stroke-width: 3px; stroke-linejoin: round; }}
 svg .zlabel {{ font-size: 13px; font-weight: bold; fill: #12324d; text-anchor: middle; paint-order: stroke; stroke: #fff; stroke-width: 4px; stroke-linejoin: round; }}
 h2 {{ margin-top: 28px; border-bottom: 2px solid #12324d; padding-bottom: 3px; font-size: 18px; }}
-.wide {{ overflow-x: auto; }} table.counts {{ font-size: 12px; }} table.counts td, table.counts th {{ padding: 3px 6px; }} table.counts td {{ white-space: nowrap; }}
+.wide {{ overflow-x: auto; }} table.counts {{ font-size: 12px; }} table.counts td, table.counts th {{ padding: 3px 5px; }} table.counts td {{ white-space: nowrap; }} table.lines {{ font-size: 11.5px; }}
 table.sortable th {{ cursor: pointer; }} table.sortable th::after {{ content: " ⇅"; color: #8a99a8; font-size: 10px; }}
 td.mark, span.mark {{ color: #b35900; font-weight: bold; }} table.counts td.defaults {{ white-space: normal; min-width: 180px; text-align: left; }} td.left {{ text-align: left; }}
 table.lines td:nth-child(-n+3) {{ white-space: nowrap; }} table.counts th {{ vertical-align: bottom; }} code.hash {{ font-size: 11px; word-break: break-all; }}
