@@ -556,6 +556,35 @@ fn clock_ticks(t0: f64, t1: f64) -> Vec<f64> {
     out
 }
 
+/// A small panel's axis labels (`y_label` up the left, `UTC` below) and its UTC clock ticks over
+/// `[t0, t1]`; `frame` is (width, height, left, right, top, bottom margins), `x` the time scale.
+fn panel_axes(
+    out: &mut String,
+    y_label: &str,
+    (w, h, ml, mr, mt, mb): (f64, f64, f64, f64, f64, f64),
+    (t0, t1): (f64, f64),
+    x: &dyn Fn(f64) -> f64,
+) {
+    let _ = write!(
+        out,
+        r#"<text x="11" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 11 {0})">{y_label}</text><text x="{1}" y="{2}" class="axis" text-anchor="middle">UTC</text>"#,
+        (mt + h - mb) / 2.0,
+        (ml + w - mr) / 2.0,
+        h - 3.0
+    );
+    for t in clock_ticks(t0, t1) {
+        let _ = write!(
+            out,
+            r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4}</text>"##,
+            x(t),
+            h - mb,
+            h - mb + 4.0,
+            h - mb + 15.0,
+            clock(t)
+        );
+    }
+}
+
 /// The instants where a zone's series has no tide, as (from, to) runs of the grid.
 fn tide_gaps(s: &crate::compute::qa_report::ZoneTideSeries) -> Vec<(f64, f64)> {
     let mut gaps = Vec::new();
@@ -689,24 +718,13 @@ fn tide_panels(r: &QaReport, out: &mut String) {
                 fmt_tick(*v, ys)
             );
         }
-        let _ = write!(
+        panel_axes(
             out,
-            r#"<text x="11" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 11 {0})">above chart datum (m)</text><text x="{1}" y="{2}" class="axis" text-anchor="middle">UTC</text>"#,
-            (mt + h - mb) / 2.0,
-            (ml + w - mr) / 2.0,
-            h - 3.0
+            "above chart datum (m)",
+            (w, h, ml, mr, mt, mb),
+            (t0, t1),
+            &x,
         );
-        for t in clock_ticks(t0, t1) {
-            let _ = write!(
-                out,
-                r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4}</text>"##,
-                x(t),
-                h - mb,
-                h - mb + 4.0,
-                h - mb + 15.0,
-                clock(t)
-            );
-        }
         // Band and line, split where there is no tide.
         let mut runs: Vec<Vec<(f64, f64, f64)>> = vec![Vec::new()];
         for ((t, v), u) in s.times_s.iter().zip(&s.tide_m).zip(&s.u95_tide_m) {
@@ -835,24 +853,7 @@ fn difference_panels(r: &QaReport, out: &mut String) {
                 fmt_tick(*v, ys)
             );
         }
-        let _ = write!(
-            out,
-            r#"<text x="11" y="{0}" class="axis" text-anchor="middle" transform="rotate(-90 11 {0})">a − b (m)</text><text x="{1}" y="{2}" class="axis" text-anchor="middle">UTC</text>"#,
-            (mt + h - mb) / 2.0,
-            (ml + w - mr) / 2.0,
-            h - 3.0
-        );
-        for t in clock_ticks(t0, t1) {
-            let _ = write!(
-                out,
-                r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#555"/><text x="{0:.1}" y="{3}" class="tick" text-anchor="middle">{4}</text>"##,
-                x(t),
-                h - mb,
-                h - mb + 4.0,
-                h - mb + 15.0,
-                clock(t)
-            );
-        }
+        panel_axes(out, "a − b (m)", (w, h, ml, mr, mt, mb), (t0, t1), &x);
         // The line breaks where the differences are more than three of their usual steps apart
         // (a gap in either record), and the gap is shaded and labelled.
         let mut steps: Vec<f64> = d.series.windows(2).map(|w| w[1].0 - w[0].0).collect();
@@ -1074,16 +1075,6 @@ fn push_qc(o: &mut String, r: &QaReport) {
     o.push_str("</table>");
 }
 
-/// The status words of the count columns, in status order, with their headings.
-const STATUS_HEADINGS: [&str; 6] = [
-    "reduced",
-    "gap_filled",
-    "outside_zoning",
-    "no_gauge_data",
-    "gauge_flagged",
-    "bad_input",
-];
-
 /// Every sounding of the run by status, and the exports of the failing and unreduced ones.
 fn push_status_table(o: &mut String, r: &QaReport) {
     o.push_str(r#"<table class="status"><thead><tr><th>status</th><th>soundings</th><th>share of all</th></tr></thead><tbody>"#);
@@ -1155,9 +1146,9 @@ fn count_headings(o: &mut String, first: &str, extra: &[&str]) {
         let _ = write!(o, "<th>{h}</th>");
     }
     o.push_str("<th>all</th>");
-    for h in STATUS_HEADINGS {
+    for st in crate::compute::reduce::SoundingStatus::ALL {
         // The status words may break after their underscores, to keep the table narrow.
-        let _ = write!(o, "<th>{}</th>", h.replace('_', "_<wbr>"));
+        let _ = write!(o, "<th>{}</th>", st.as_str().replace('_', "_<wbr>"));
     }
     o.push_str("<th>judged</th><th>within, of judged</th><th>within, of all</th><th>drying heights</th><th>worst U95/<wbr>allowed</th><th>P95 U95/<wbr>allowed</th>");
 }

@@ -151,3 +151,20 @@ pub const MINI_ZONING: &str = r#"{"type":"FeatureCollection","features":[
 {"type":"Feature","properties":{"zone":"Z2","gauge":"g1","time_corrector_min":6,"range_ratio":0.5,"mean_level_above_datum_m":1.5},
  "geometry":{"type":"Polygon","coordinates":[[[10.01,50.0],[10.02,50.0],[10.02,50.01],[10.01,50.01],[10.01,50.0]]]}}
 ]}"#;
+
+/// The demo's `project.toml` with its zoning, gauge records and soundings files as absolute
+/// paths, so that a changed copy can be written in any folder.
+pub fn demo_project_with_absolute_paths() -> String {
+    let demo = repo().join("zoning-demo");
+    std::fs::read_to_string(demo.join("project.toml"))
+        .unwrap()
+        .replace(
+            "zoning = \"zoning.geojson\"",
+            &format!("zoning = \"{}\"", demo.join("zoning.geojson").display()),
+        )
+        .replace(
+            "record = \"gauges/",
+            &format!("record = \"{}/gauges/", demo.display()),
+        )
+        .replace("\"soundings/", &format!("\"{}/soundings/", demo.display()))
+}

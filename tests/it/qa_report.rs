@@ -726,26 +726,21 @@ fn every_sounding_is_in_the_report_as_the_reduced_files_have_it() {
         let mine = check(l, &|r| r.line == id);
         line_total += mine.len();
         // Its files, zones crossed and time span.
-        let files: std::collections::BTreeSet<&str> = mine.iter().map(|r| r.file).collect();
-        let listed: std::collections::BTreeSet<&str> = l["files"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .map(|f| f.as_str().unwrap())
-            .collect();
-        assert_eq!(files, listed, "{id}");
-        let zones: std::collections::BTreeSet<&str> = mine
+        let listed = |k: &str| -> std::collections::BTreeSet<String> {
+            l[k].as_array()
+                .unwrap()
+                .iter()
+                .map(|f| f.as_str().unwrap().to_string())
+                .collect()
+        };
+        let files = mine.iter().map(|r| r.file.to_string()).collect();
+        assert_eq!(listed("files"), files, "{id}");
+        let zones = mine
             .iter()
             .filter(|r| !r.zone.is_empty())
-            .map(|r| r.zone.as_str())
+            .map(|r| r.zone.clone())
             .collect();
-        let crossed: std::collections::BTreeSet<&str> = l["zones_crossed"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .map(|f| f.as_str().unwrap())
-            .collect();
-        assert_eq!(zones, crossed, "{id}");
+        assert_eq!(listed("zones_crossed"), zones, "{id}");
         let ms = |v: &serde_json::Value| {
             chrono::DateTime::parse_from_rfc3339(v.as_str().unwrap())
                 .unwrap()
@@ -1020,20 +1015,9 @@ fn the_page_has_every_section_and_every_row() {
 #[test]
 fn exports_can_be_turned_off() {
     let d = tempfile::tempdir().unwrap();
-    let demo = repo().join("zoning-demo");
     // The demo's project with its inputs' paths made absolute, in a folder of its own.
-    let project = std::fs::read_to_string(demo.join("project.toml"))
-        .unwrap()
-        .replace("dir = \"out\"", "dir = \"out\"\ngeojson_exports = false")
-        .replace(
-            "zoning = \"zoning.geojson\"",
-            &format!("zoning = \"{}\"", demo.join("zoning.geojson").display()),
-        )
-        .replace(
-            "record = \"gauges/",
-            &format!("record = \"{}/gauges/", demo.display()),
-        )
-        .replace("\"soundings/", &format!("\"{}/soundings/", demo.display()));
+    let project = super::demo_project_with_absolute_paths()
+        .replace("dir = \"out\"", "dir = \"out\"\ngeojson_exports = false");
     let p = d.path().join("project.toml");
     std::fs::write(&p, project).unwrap();
     let out = d.path().join("out");
