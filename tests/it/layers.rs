@@ -226,6 +226,48 @@ fn anyhow_stays_in_the_binaries() {
     }
 }
 
+/// The command-line programs' dependencies are optional, behind the default `cli` feature, and
+/// the library (outside its unit tests) names none of them: a library user who builds with
+/// `default-features = false` builds none of them.
+#[test]
+fn the_cli_dependencies_stay_behind_the_cli_feature() {
+    let cli_only = [
+        "clap",
+        "indicatif",
+        "rand",
+        "rand_chacha",
+        "rand_distr",
+        "anyhow",
+    ];
+    let manifest: toml::Value =
+        toml::from_str(&std::fs::read_to_string(repo().join("Cargo.toml")).unwrap()).unwrap();
+    let cli: Vec<&str> = manifest["features"]["cli"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_str().unwrap())
+        .collect();
+    assert_eq!(manifest["features"]["default"][0].as_str(), Some("cli"));
+    for dep in cli_only {
+        assert_eq!(
+            manifest["dependencies"][dep]["optional"].as_bool(),
+            Some(true),
+            "{dep} is not optional"
+        );
+        assert!(
+            cli.contains(&format!("dep:{dep}").as_str()),
+            "{dep} not in the cli feature"
+        );
+    }
+    for bin in manifest["bin"].as_array().unwrap() {
+        assert_eq!(bin["required-features"][0].as_str(), Some("cli"), "{bin:?}");
+    }
+    let names: Vec<String> = cli_only.iter().map(|d| format!("{d}::")).collect();
+    let names: Vec<&str> = names.iter().map(String::as_str).collect();
+    let found = naming(&library_files(), &names, false);
+    assert!(found.is_empty(), "{found:#?}");
+}
+
 #[test]
 fn the_library_returns_no_string_errors() {
     for f in library_files() {
