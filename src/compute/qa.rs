@@ -622,11 +622,14 @@ impl QaAccumulator {
 
     /// The map's cells in a fixed order (by key).
     pub fn sorted_cells(&self) -> Vec<(CellKey, MapCell)> {
-        let mut all = self.cells.clone();
+        let mut v: Vec<(CellKey, MapCell)> = self.cells.iter().map(|(k, c)| (*k, *c)).collect();
+        // The pending cell merges into its entry, or is one more.
         if let Some((k, c)) = &self.pending {
-            all.entry(*k).or_default().merge(c);
+            match v.iter_mut().find(|(key, _)| key == k) {
+                Some((_, cell)) => cell.merge(c),
+                None => v.push((*k, *c)),
+            }
         }
-        let mut v: Vec<(CellKey, MapCell)> = all.into_iter().collect();
         v.sort_by_key(|(k, _)| *k);
         v
     }

@@ -111,6 +111,15 @@ impl ExportBuf {
         push_json_str(&mut self.props, v);
     }
 
+    /// Adds a time property, ISO 8601 UTC as the reduced files write it (`key`: letters, digits
+    /// and `_`).
+    pub fn time_prop(&mut self, key: &str, t_s: f64) {
+        push_key(&mut self.props, key);
+        self.props.push(b'"');
+        super::timefmt::push_utc_bytes(&mut self.props, t_s);
+        self.props.push(b'"');
+    }
+
     /// Adds a number property with `decimals` decimals (`key`: letters, digits and `_`).
     pub fn num_prop(&mut self, key: &str, v: f64, decimals: u32) {
         push_key(&mut self.props, key);
@@ -266,6 +275,7 @@ mod tests {
             for r in 0..*rows {
                 b.begin("a \"b\".csv", r as u64 + 2, "L1", "reduced");
                 b.num_prop("u95_tvu_m", 0.31234, 4);
+                b.time_prop("time_utc", 1_781_422_420.75);
                 b.end(ExportKind::Failing, Some((-36.5, 12.25)), "EPSG:4326");
             }
             b.begin("a.csv", 9, "L2", "bad_input");
@@ -287,6 +297,10 @@ mod tests {
         push_json_str(&mut v, "plain é");
         assert_eq!(v, "\"plain é\"".as_bytes());
         assert_eq!(feats[2]["properties"]["u95_tvu_m"], 0.3123);
+        assert_eq!(
+            feats[0]["properties"]["time_utc"],
+            "2026-06-14T07:33:40.750Z"
+        );
         let u: serde_json::Value = serde_json::from_slice(&std::fs::read(u).unwrap()).unwrap();
         let feats = u["features"].as_array().unwrap();
         assert_eq!(feats.len(), 4);

@@ -1494,9 +1494,7 @@ fn process_chunk(
                 let e = &mut o.exports;
                 e.begin(&ctx.source_name, line_no, row_line, status.as_str());
                 if let Some(t) = row_t {
-                    let mut s = String::with_capacity(24);
-                    crate::io::timefmt::push_utc(&mut s, t);
-                    e.str_prop("time_utc", &s);
+                    e.time_prop("time_utc", t);
                 }
                 if let Some(z) = zone {
                     e.str_prop("zone", ctx.zone_ids[z]);

@@ -26,8 +26,7 @@ fn reduce_demo(extra: &[&str]) -> (tempfile::TempDir, String) {
 #[test]
 fn json_report_is_schema_valid_and_consistent() {
     let (out, err) = reduce_demo(&[]);
-    let report: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let report = report_of(out.path());
     let schema: serde_json::Value =
         serde_json::from_slice(&std::fs::read(repo().join("docs/qa-report.schema.json")).unwrap())
             .unwrap();
@@ -112,6 +111,11 @@ fn json_report_is_schema_valid_and_consistent() {
     assert!(!report["failing_zones"].as_array().unwrap().is_empty());
 }
 
+/// The QA report a run wrote into `out`.
+fn report_of(out: &std::path::Path) -> serde_json::Value {
+    serde_json::from_slice(&std::fs::read(out.join("qa-report.json")).unwrap()).unwrap()
+}
+
 /// One reduced row of the demo's reduced files, as written.
 struct WrittenRow {
     zone: String,
@@ -153,8 +157,7 @@ fn units(text: &str) -> u64 {
 #[test]
 fn report_counts_are_the_rows_verdicts() {
     let (out, _) = reduce_demo(&[]);
-    let report: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let report = report_of(out.path());
     let rows = reduced_rows(out.path());
     let chosen = report["chosen_order"]["name"].as_str().unwrap();
     let check = |g: &serde_json::Value, pick: &dyn Fn(&WrittenRow) -> bool| {
@@ -223,8 +226,7 @@ fn nearest_rank(values: &mut [f64], p: usize) -> f64 {
 #[test]
 fn percentiles_are_within_their_bound() {
     let (out, _) = reduce_demo(&[]);
-    let report: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let report = report_of(out.path());
     let rows = reduced_rows(out.path());
     let ratio = |r: &WrittenRow| units(&r.u95_tvu) as f64 / units(&r.allowed_u95_tvu) as f64;
     let bound = 2f64.powi(-12);
@@ -384,8 +386,7 @@ fn html_report_has_its_plots_and_no_outside_resources() {
     assert!(html.contains("qualified hydrographic review"));
     // The page shows the JSON's numbers: each zone row of the "Zones" table (the table after
     // the histogram) has the zone's share within, to 0.1 %, and its P95 ratio, to 0.001.
-    let report: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let report = report_of(out.path());
     // The verdict counts every sounding of the day, and says what was judged and whose rule
     // the acceptance share is (IHO S-44 Ed. 6.1.0 applies the TVU limit per sounding; orders
     // 1a and 1b share it).
@@ -643,8 +644,7 @@ const STATUSES: [&str; 6] = [
 #[test]
 fn every_sounding_is_in_the_report_as_the_reduced_files_have_it() {
     let (out, _) = reduce_demo(&[]);
-    let report: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let report = report_of(out.path());
     let rows = any_rows(out.path());
     let mut groups_checked = 0;
     let mut check = |g: &serde_json::Value, pick: &dyn Fn(&AnyRow) -> bool| {
@@ -867,8 +867,7 @@ fn every_sounding_is_in_the_report_as_the_reduced_files_have_it() {
 fn the_page_has_every_section_and_every_row() {
     let (out, _) = reduce_demo(&[]);
     let html = std::fs::read_to_string(out.path().join("qa-report.html")).unwrap();
-    let report: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.path().join("qa-report.json")).unwrap()).unwrap();
+    let report = report_of(out.path());
     let doc = scraper::Html::parse_document(&html);
     let sel = |s: &str| scraper::Selector::parse(s).unwrap();
     let headings: Vec<String> = doc.select(&sel("h2")).map(|h| h.text().collect()).collect();
