@@ -349,7 +349,7 @@ pub fn warn_if_stale(ebbwise: &Path) {
             if p.is_dir() {
                 stack.push(p);
             } else if let Ok(t) = e.metadata().and_then(|m| m.modified()) {
-                if newest.as_ref().map_or(true, |(n, _)| t > *n) {
+                if newest.as_ref().is_none_or(|(n, _)| t > *n) {
                     newest = Some((t, p));
                 }
             }

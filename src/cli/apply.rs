@@ -6,7 +6,7 @@ use ebbwise::io::atomic::write_atomic;
 use ebbwise::run::correctors::apply_corrections;
 use ebbwise::run::load::load;
 
-use super::common::{load_project_or_report, out_folder, print_findings};
+use super::common::{load_project_or_report, out_folder, print_findings, FormatArg};
 use super::reduce::{print_run_summary, write_qa_report};
 use super::{Outcome, Reported};
 
@@ -36,11 +36,17 @@ pub struct Args {
     /// change a tide or its uncertainty; the differences are written into apply-summary.json.
     #[arg(long)]
     accept_changed_inputs: bool,
+    /// Format of the applied files (overrides the project's `[output] format`).
+    #[arg(long, value_enum)]
+    format: Option<FormatArg>,
 }
 
 pub fn run(a: Args) -> anyhow::Result<Outcome> {
     let out = out_folder(a.out)?;
-    let project = load_project_or_report(&a.project, "apply")?;
+    let mut project = load_project_or_report(&a.project, "apply")?;
+    if let Some(f) = a.format {
+        project.spec.output.format = f.format();
+    }
     let mut loaded = match load(project, a.order.as_deref()) {
         Ok(l) => l,
         Err(findings) => {

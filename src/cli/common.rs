@@ -246,3 +246,22 @@ pub fn sink<'a>(out: &'a DataOut, stdout: &'a mut Stdout) -> ebbwise::io::atomic
         DataOut::Stdout => ebbwise::io::atomic::Sink::Stream(stdout),
     }
 }
+
+/// `--format`: the format of a run's per-sounding files.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+pub enum FormatArg {
+    /// Comma-separated text.
+    Csv,
+    /// Apache Parquet (typed columns).
+    Parquet,
+}
+
+impl FormatArg {
+    /// The format the library names.
+    pub fn format(self) -> ebbwise::io::project::TableFormat {
+        match self {
+            FormatArg::Csv => ebbwise::io::project::TableFormat::Csv,
+            FormatArg::Parquet => ebbwise::io::project::TableFormat::Parquet,
+        }
+    }
+}

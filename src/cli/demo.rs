@@ -26,7 +26,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
             if given { "" } else { " (the default, ./zoning-demo/project.toml)" }
         );
     }
-    let (summary, out_dir) = reduce_and_report(&project, None, true, None, false)?;
+    let (summary, out_dir) = reduce_and_report(&project, None, true, None, false, None)?;
     let outcome = Outcome::of_reduction(&summary);
     eprintln!(
         "Demo survey reduced. Results in {}/{}",

@@ -13,9 +13,10 @@ use ebbwise::run::qa_report::build_qa_report;
 use ebbwise::run::reduce::{reduce_project, run_outputs, ReduceOptions, RunKind, RunSummary};
 use ebbwise::CAUTION;
 
-use super::common::{load_project_or_report, out_folder, print_findings};
+use super::common::{load_project_or_report, out_folder, print_findings, FormatArg};
 use super::progress::TerminalBar;
 use super::{Outcome, Reported};
+use ebbwise::io::project::TableFormat;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
@@ -38,6 +39,9 @@ pub struct Args {
     /// project has an `[uncertainty]` section.
     #[arg(long)]
     no_uncertainty: bool,
+    /// Format of the reduced files (overrides the project's `[output] format`).
+    #[arg(long, value_enum)]
+    format: Option<FormatArg>,
 }
 
 pub fn run(a: Args) -> anyhow::Result<Outcome> {
@@ -55,6 +59,7 @@ pub fn run(a: Args) -> anyhow::Result<Outcome> {
         !a.no_progress,
         a.order.as_deref(),
         a.no_uncertainty,
+        a.format.map(FormatArg::format),
     )?;
     Ok(Outcome::of_reduction(&summary))
 }
@@ -67,8 +72,12 @@ pub fn reduce_and_report(
     progress: bool,
     order: Option<&str>,
     no_uncertainty: bool,
+    format: Option<TableFormat>,
 ) -> anyhow::Result<(RunSummary, PathBuf)> {
-    let project = load_project_or_report(project_path, "reduce")?;
+    let mut project = load_project_or_report(project_path, "reduce")?;
+    if let Some(f) = format {
+        project.spec.output.format = f;
+    }
     let out_dir = out.unwrap_or_else(|| project.spec.output.dir.clone());
     let name = project.spec.name.clone();
     let loaded = match load(project, order) {

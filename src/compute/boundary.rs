@@ -198,7 +198,7 @@ pub fn boundary_steps(
                     let d = y - x;
                     ss += d * d;
                     n += 1;
-                    if max.map_or(true, |m| d.abs() > m.0.abs()) {
+                    if max.is_none_or(|m| d.abs() > m.0.abs()) {
                         max = Some((d, *t));
                     }
                 }

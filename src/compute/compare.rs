@@ -217,7 +217,7 @@ pub fn window_drift(t_s: &[f64], d: &[f64], window_days: f64) -> Option<WindowDr
                 })
                 .sum();
             let u = (rss / (n - 2.0).max(1.0) / sxx).sqrt();
-            if best.map_or(true, |b| rate.abs() > b.rate_m_per_day.abs()) {
+            if best.is_none_or(|b| rate.abs() > b.rate_m_per_day.abs()) {
                 best = Some(WindowDrift {
                     from_s: start,
                     until_s: start + w_s,

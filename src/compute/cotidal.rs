@@ -276,7 +276,7 @@ impl Field {
                 let mut best: Option<(f64, usize, usize, f64, f64)> = None;
                 for &(a, b) in &self.hull {
                     let (wa, wb, d2) = self.on_segment(a, b, x_m, y_m);
-                    if best.map_or(true, |x| d2 < x.0) {
+                    if best.is_none_or(|x| d2 < x.0) {
                         best = Some((d2, a, b, wa, wb));
                     }
                 }

@@ -192,7 +192,7 @@ pub fn gauge_relation(
     for (ca, ha, ga) in &ka.constituents {
         if let Some((_, hb, gb)) = kb.constituents.iter().find(|(cb, _, _)| cb.name == ca.name) {
             let size = ha.min(*hb);
-            if *hb > 0.0 && best.map_or(true, |b| size > b.0) {
+            if *hb > 0.0 && best.is_none_or(|b| size > b.0) {
                 best = Some((size, *ha, *ga, *hb, *gb, ca.speed_deg_per_h));
             }
         }
@@ -618,10 +618,7 @@ pub fn fill_series(
             if grid.iter().any(|&t| r.at(t).is_none()) {
                 continue;
             }
-            if best
-                .as_ref()
-                .map_or(true, |&(_, _, m)| fit.misfit_rms_m < m)
-            {
+            if best.as_ref().is_none_or(|&(_, _, m)| fit.misfit_rms_m < m) {
                 best = Some((r, fit, fit.misfit_rms_m));
             }
         }

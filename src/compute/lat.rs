@@ -205,10 +205,10 @@ fn block_extremes(
         let left = (i > 0).then(|| h[i - 1 - lo]);
         let right = (i + 1 < n).then(|| h[i + 1 - lo]);
         // A missing neighbour (an end of the span) does not disqualify.
-        if left.map_or(true, |a| v <= a) && right.map_or(true, |c| v <= c) {
+        if left.is_none_or(|a| v <= a) && right.is_none_or(|c| v <= c) {
             e.minima.push((i, v));
         }
-        if left.map_or(true, |a| v >= a) && right.map_or(true, |c| v >= c) {
+        if left.is_none_or(|a| v >= a) && right.is_none_or(|c| v >= c) {
             e.maxima.push((i, v));
         }
         e.min_m = e.min_m.min(v);

@@ -49,7 +49,7 @@ impl SoundingStatus {
     ];
 
     /// The word written in the `status` column.
-    pub fn as_str(self) -> &'static str {
+    pub const fn as_str(self) -> &'static str {
         match self {
             SoundingStatus::Reduced => "reduced",
             SoundingStatus::GapFilled => "gap_filled",

@@ -402,7 +402,7 @@ pub fn level_tests(means: &[(f64, f64)], slow: &SlowModel) -> LevelTests {
             continue;
         }
         let gain = sy * sy / xx;
-        if best.map_or(true, |b| gain > b.1) {
+        if best.is_none_or(|b| gain > b.1) {
             best = Some((k, gain, sy / xx, xx));
         }
     }

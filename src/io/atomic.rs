@@ -109,6 +109,19 @@ impl AtomicFile {
     }
 }
 
+/// For writers that take any `std::io::Write` (the Parquet writer): every write goes through
+/// [`AtomicFile::write_all`], so the background syncs happen as for any other output.
+impl Write for AtomicFile {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        AtomicFile::write_all(self, buf).map_err(|e| std::io::Error::other(e.to_string()))?;
+        Ok(buf.len())
+    }
+
+    fn flush(&mut self) -> std::io::Result<()> {
+        Ok(())
+    }
+}
+
 impl Drop for AtomicFile {
     fn drop(&mut self) {
         if self.writer.is_some() {

@@ -21,6 +21,13 @@ pub fn is_wgs84_lonlat(crs: &str) -> bool {
     c == "EPSG:4326" || c == "OGC:CRS84" || c == "CRS:84"
 }
 
+/// Whether two CRS names (`AUTHORITY:CODE`) name the same CRS: equal ignoring case and
+/// spaces, or both WGS 84 longitude and latitude.
+pub fn same_crs_name(a: &str, b: &str) -> bool {
+    let norm = |s: &str| s.trim().to_ascii_uppercase().replace(' ', "");
+    norm(a) == norm(b) || (is_wgs84_lonlat(a) && is_wgs84_lonlat(b))
+}
+
 /// Why a CRS cannot be used or a point cannot be transformed.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]

@@ -58,7 +58,7 @@ impl GaugeRecord {
             if !h.is_finite() || conflicting.binary_search_by(|c| c.total_cmp(&t)).is_ok() {
                 continue;
             }
-            if s.times_s.last().map_or(true, |&p| t > p) {
+            if s.times_s.last().is_none_or(|&p| t > p) {
                 s.times_s.push(t);
                 s.heights_m.push(h);
             }

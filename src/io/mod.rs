@@ -22,6 +22,7 @@
 //! * [`error`] — the positioned error type and validation findings.
 
 pub mod atomic;
+pub mod columnar;
 pub mod constants;
 pub mod correctors_file;
 pub mod cotidal_map;
@@ -30,6 +31,7 @@ pub mod datums_file;
 pub mod error;
 pub mod gauge_csv;
 pub mod numfmt;
+pub mod parquet_file;
 pub mod project;
 pub mod qc_svg;
 pub mod report_html;

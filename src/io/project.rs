@@ -646,6 +646,40 @@ pub struct OutputSpec {
     /// reads `within_order` from the reduced files can turn them off.
     #[serde(default = "yes")]
     pub geojson_exports: bool,
+    /// Format of the per-sounding outputs (reduced, applied): `csv` (default) or `parquet`.
+    /// The command line's `--format` overrides it for one run.
+    #[serde(default)]
+    pub format: TableFormat,
+}
+
+/// Format of a per-sounding table ebbwise writes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum TableFormat {
+    /// Comma-separated text, one line per sounding.
+    #[default]
+    Csv,
+    /// Apache Parquet: typed columns, compressed.
+    Parquet,
+}
+
+impl TableFormat {
+    /// The file name extension (without the dot).
+    pub fn extension(self) -> &'static str {
+        match self {
+            TableFormat::Csv => "csv",
+            TableFormat::Parquet => "parquet",
+        }
+    }
+
+    /// Reads `csv` or `parquet`.
+    pub fn parse(s: &str) -> Option<Self> {
+        match s {
+            "csv" => Some(TableFormat::Csv),
+            "parquet" => Some(TableFormat::Parquet),
+            _ => None,
+        }
+    }
 }
 
 fn yes() -> bool {
@@ -657,6 +691,7 @@ impl Default for OutputSpec {
         OutputSpec {
             dir: default_out_dir(),
             geojson_exports: true,
+            format: TableFormat::Csv,
         }
     }
 }

@@ -483,6 +483,17 @@ impl SoundingLayout {
                 ),
             ));
         }
+        Self::from_names(spec, names, naive_offset, path)
+    }
+
+    /// Resolves the column mapping of `spec` against the column names `names` (a CSV file's
+    /// header, or a Parquet file's schema).
+    pub fn from_names(
+        spec: &SoundingsSpec,
+        names: Vec<String>,
+        naive_offset: Option<FixedOffset>,
+        path: &Path,
+    ) -> Result<Self, IoError> {
         let find = |key: &str, want: &str| -> Result<usize, IoError> {
             if let Some(n) = want.strip_prefix('#') {
                 let i: usize = n.parse().map_err(|_| {
@@ -575,6 +586,81 @@ impl SoundingLayout {
         self.line.is_some()
     }
 
+    /// The indices of the mapped columns.
+    pub fn mapped_columns(&self) -> MappedColumns {
+        MappedColumns {
+            time: self.time,
+            x: self.x,
+            y: self.y,
+            depth: self.depth,
+            line: self.line,
+            u_depth: self.u_depth,
+        }
+    }
+
+    /// Whether times are Unix seconds (`time_format = "unix_s"`).
+    pub fn time_is_unix_s(&self) -> bool {
+        self.time_format == TimeFormat::UnixS
+    }
+
+    /// The naive-time offset (local time to UTC) the project gives, if any.
+    pub fn naive_offset(&self) -> Option<FixedOffset> {
+        self.naive_offset
+    }
+
+    /// What each column holds for its typed (Parquet) form: the mapped time a timestamp, the
+    /// mapped coordinates, depth and depth uncertainty numbers, every other column text.
+    pub fn text_kinds(&self) -> Vec<crate::io::columnar::TextKind> {
+        use crate::io::columnar::TextKind;
+        (0..self.column_names.len())
+            .map(|i| {
+                if i == self.time {
+                    TextKind::Time
+                } else if i == self.x || i == self.y || i == self.depth || Some(i) == self.u_depth {
+                    TextKind::Number
+                } else {
+                    TextKind::Text
+                }
+            })
+            .collect()
+    }
+
+    /// The value of number column `i` of a parsed row as the file wrote it (the depth with the
+    /// file's sign), when `i` is a mapped number column.
+    pub fn written_number(&self, i: usize, v: &SoundingValues) -> Option<f64> {
+        if i == self.x {
+            Some(v.x)
+        } else if i == self.y {
+            Some(v.y)
+        } else if i == self.depth {
+            Some(match self.depth_sign {
+                DepthSign::PositiveUp => -v.depth_m,
+                _ => v.depth_m,
+            })
+        } else if Some(i) == self.u_depth {
+            v.u_depth_m
+        } else {
+            None
+        }
+    }
+
+    /// A time text read as the layout's time format says, or why it cannot be.
+    pub fn time_text_checked(&self, s: &str) -> Result<f64, RowProblem> {
+        parse_time(s, self.time_format, self.naive_offset).map_err(|m| RowProblem {
+            field: self.column_names[self.time].clone(),
+            message: if s.len() > 60 {
+                format!("expected a time, found '{}'", clip(s))
+            } else {
+                m.to_string()
+            },
+        })
+    }
+
+    /// A time field read on its own (for a row that cannot be parsed as a whole).
+    pub fn time_text(&self, s: &str) -> Option<f64> {
+        parse_time(s, self.time_format, self.naive_offset).ok()
+    }
+
     /// The position of a row that cannot be parsed as a whole, when its x and y fields read as
     /// finite numbers: so that an unreadable row can still be placed on a map.
     pub fn position_text(&self, line: &str, fields: &Fields) -> Option<(f64, f64)> {
@@ -664,6 +750,40 @@ impl SoundingLayout {
                     m.to_string()
                 },
             })?;
+        let x = number(self.x, "a coordinate")?;
+        let y = number(self.y, "a coordinate")?;
+        let depth = number(self.depth, "a depth in metres")?;
+        let line_id = match self.line {
+            Some(i) => get(i)?,
+            None => "",
+        };
+        let u_depth = match self.u_depth {
+            Some(i) => Some(number(i, "a standard uncertainty in metres")?),
+            None => None,
+        };
+        self.check(
+            RawValues {
+                t_s,
+                x,
+                y,
+                depth,
+                line_id,
+                u_depth,
+            },
+            |i| clip(fields.get(line, i).unwrap_or("")),
+        )
+    }
+
+    /// Checks a row's values read from its fields (or typed columns) and gives the sounding:
+    /// a plausible time, coordinates within the geographic range when the CRS is geographic,
+    /// a plausible depth (turned positive down) and depth uncertainty. `written(i)` gives the
+    /// value of column `i` as the file holds it, for the messages.
+    pub fn check<'a>(
+        &self,
+        raw: RawValues<'a>,
+        written: impl Fn(usize) -> String,
+    ) -> Result<SoundingValues<'a>, RowProblem> {
+        let t_s = raw.t_s;
         if !(MIN_PLAUSIBLE_TIME_S..MAX_PLAUSIBLE_TIME_S).contains(&t_s) {
             let plausible = |t: f64| (MIN_PLAUSIBLE_TIME_S..MAX_PLAUSIBLE_TIME_S).contains(&t);
             let hint = if plausible(t_s / 1000.0) {
@@ -678,12 +798,11 @@ impl SoundingLayout {
                 field: self.column_names[self.time].clone(),
                 message: format!(
                     "time '{}' is outside the plausible span 1980-01-01 to 2100-01-01{hint}",
-                    clip(t_txt)
+                    written(self.time)
                 ),
             });
         }
-        let x = number(self.x, "a coordinate")?;
-        let y = number(self.y, "a coordinate")?;
+        let (x, y) = (raw.x, raw.y);
         if let Some(crs) = &self.geographic_crs {
             for (i, v, what, lim) in [
                 (self.x, x, "longitude", 180.0),
@@ -699,13 +818,13 @@ impl SoundingLayout {
                         field: self.column_names[i].clone(),
                         message: format!(
                             "'{}' cannot be a {what} in {crs} (beyond ±{lim}°){hint}",
-                            clip(get(i)?)
+                            written(i)
                         ),
                     });
                 }
             }
         }
-        let mut depth_m = number(self.depth, "a depth in metres")?;
+        let mut depth_m = raw.depth;
         if self.depth_sign == DepthSign::PositiveUp {
             depth_m = -depth_m;
         }
@@ -714,17 +833,12 @@ impl SoundingLayout {
                 field: self.column_names[self.depth].clone(),
                 message: format!(
                     "'{}' is not a plausible depth in metres (beyond ±{MAX_PLAUSIBLE_DEPTH_M} m)",
-                    clip(get(self.depth)?)
+                    written(self.depth)
                 ),
             });
         }
-        let line_id = match self.line {
-            Some(i) => get(i)?,
-            None => "",
-        };
-        let u_depth_m = match self.u_depth {
-            Some(i) => {
-                let u = number(i, "a standard uncertainty in metres")?;
+        let u_depth_m = match (self.u_depth, raw.u_depth) {
+            (Some(i), Some(u)) => {
                 if u < 0.0 {
                     return Err(RowProblem {
                         field: self.column_names[i].clone(),
@@ -736,23 +850,57 @@ impl SoundingLayout {
                         field: self.column_names[i].clone(),
                         message: format!(
                             "'{}' is not a plausible standard uncertainty of a depth in metres (above {MAX_PLAUSIBLE_U_DEPTH_M} m): a no-data value?",
-                            clip(get(i)?)
+                            written(i)
                         ),
                     });
                 }
                 Some(u)
             }
-            None => None,
+            _ => None,
         };
         Ok(SoundingValues {
             t_s,
             x,
             y,
             depth_m,
-            line_id,
+            line_id: raw.line_id,
             u_depth_m,
         })
     }
+}
+
+/// The column indices a layout maps.
+#[derive(Debug, Clone, Copy)]
+pub struct MappedColumns {
+    /// Time.
+    pub time: usize,
+    /// Easting or longitude.
+    pub x: usize,
+    /// Northing or latitude.
+    pub y: usize,
+    /// Depth.
+    pub depth: usize,
+    /// Survey line.
+    pub line: Option<usize>,
+    /// Depth uncertainty.
+    pub u_depth: Option<usize>,
+}
+
+/// A row's values as read, before [`SoundingLayout::check`]: the depth with the file's sign.
+#[derive(Debug, Clone, Copy)]
+pub struct RawValues<'a> {
+    /// UTC seconds.
+    pub t_s: f64,
+    /// Easting or longitude.
+    pub x: f64,
+    /// Northing or latitude.
+    pub y: f64,
+    /// The depth as written (sign as the group's `depth_sign`).
+    pub depth: f64,
+    /// Survey line ("" when none).
+    pub line_id: &'a str,
+    /// Depth standard uncertainty, when mapped.
+    pub u_depth: Option<f64>,
 }
 
 /// Appends one field to a CSV line held in a `String`, quoting it when needed.

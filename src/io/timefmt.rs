@@ -268,7 +268,7 @@ fn utc_digits(buf: &mut [u8; 32], t_s: f64) -> Option<usize> {
             n += 1;
         }
     }
-    let (mut frac, width) = if sub_us % 1000 == 0 {
+    let (mut frac, width) = if sub_us.is_multiple_of(1000) {
         (sub_us / 1000, 3)
     } else {
         (sub_us, 6)

@@ -342,7 +342,7 @@ pub fn boundary_steps_from(
     let ids: Vec<String> = zones.iter().map(|z| z.id.clone()).collect();
     let within: Vec<bool> = times_s
         .iter()
-        .map(|t| period.map_or(true, |(a, b)| *t >= a && *t <= b))
+        .map(|t| period.is_none_or(|(a, b)| *t >= a && *t <= b))
         .collect();
     let tides: Vec<Vec<Option<f64>>> = tides
         .iter()

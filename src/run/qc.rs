@@ -619,7 +619,7 @@ fn run_comparisons(
     };
     let plans: Vec<_> = plans
         .into_iter()
-        .filter(|p| only.map_or(true, |o| p.4.iter().any(|&g| loaded.gauges[g].id == o)))
+        .filter(|p| only.is_none_or(|o| p.4.iter().any(|&g| loaded.gauges[g].id == o)))
         .collect();
     {
         use rayon::prelude::*;
@@ -676,7 +676,7 @@ pub fn qc_project(
     let plans = planned_comparisons(loaded);
     let n_plans = plans
         .iter()
-        .filter(|p| only.map_or(true, |o| p.4.iter().any(|&g| loaded.gauges[g].id == o)))
+        .filter(|p| only.is_none_or(|o| p.4.iter().any(|&g| loaded.gauges[g].id == o)))
         .count();
     let results = run_comparisons(loaded, plans, only);
     let mut comparisons = Vec::new();

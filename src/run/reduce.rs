@@ -21,13 +21,20 @@ use crate::compute::reduce::{
 use crate::compute::uncertainty::{judge_as_written, u_tvu_m, K95};
 use crate::compute::zoning::FeedState;
 use crate::io::atomic::{remove_stale_partials, AtomicFile};
+use crate::io::columnar::{ReducedColumns, TextColumns, TextKind};
 use crate::io::error::{IoError, Position};
 use crate::io::numfmt::{push_fixed, round_to, HEIGHT_DECIMALS, UNCERTAINTY_DECIMALS};
-use crate::io::project::{Delimiter, SoundingsSpec};
+use crate::io::parquet_file::{ParquetOut, PROVENANCE_KEY};
+use crate::io::project::{Delimiter, SoundingsSpec, TableFormat};
 use crate::io::sounding_export::{
     ExportBuf, ExportKind, ExportParts, FAILING_FILE, UNREDUCED_FILE,
 };
-use crate::io::soundings::{lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout};
+use crate::io::soundings::{
+    lines_of, push_csv_field, Chunk, ChunkReader, Fields, SoundingLayout, SoundingValues,
+};
+use arrow_array::RecordBatch;
+use arrow_schema::SchemaRef;
+use std::sync::Arc;
 
 /// Columns ebbwise appends to every input row, in order.
 pub const APPENDED_COLUMNS: [&str; 5] = [
@@ -309,11 +316,48 @@ struct FileCtx<'a> {
     /// The line the QA counts put a row on that names none: the file's name when the file has
     /// no line column, else `(no line in FILE)`.
     no_line: String,
+    /// Whether the group's CRS is WGS 84 longitude and latitude.
+    lonlat: bool,
+    /// Whether the output is columnar (Parquet).
+    columnar: bool,
+    /// The output's schema, when columnar.
+    schema: Option<SchemaRef>,
+    /// A Parquet input's GeoParquet geometry column that x and y come from, if any.
+    geometry: Option<usize>,
+    /// The input's own columns (a Parquet layout names two more when x and y come from a
+    /// geometry).
+    input_columns: usize,
 }
+
+impl FileCtx<'_> {
+    /// Builders of the columns appended to each row, for `rows` rows.
+    fn reduced_columns(&self, rows: usize) -> ReducedColumns {
+        ReducedColumns::new(
+            &self.zone_ids,
+            &STATUS_WORDS,
+            self.unc.is_some(),
+            UNCERTAINTY_COLUMNS,
+            rows,
+        )
+    }
+}
+
+/// The status words by status index (the `status` column's dictionary).
+const STATUS_WORDS: [&str; N_STATUS] = {
+    let mut w = [""; N_STATUS];
+    let mut i = 0;
+    while i < N_STATUS {
+        w[i] = SoundingStatus::ALL[i].as_str();
+        i += 1;
+    }
+    w
+};
 
 #[derive(Default)]
 struct ChunkOut {
     bytes: Vec<u8>,
+    /// The rows as typed columns, when the output is columnar.
+    batch: Option<RecordBatch>,
     counts: [u64; N_STATUS],
     per_zone: Vec<[u64; N_STATUS]>,
     examples: Vec<RowExample>,
@@ -328,6 +372,68 @@ struct ChunkOut {
 }
 
 const EXAMPLES_PER_STATUS: usize = 5;
+
+/// Where a file's rows are written.
+enum Sink {
+    Csv(AtomicFile),
+    Parquet(Box<ParquetOut>),
+}
+
+/// One chunk's rows on their way to the writer.
+enum Payload {
+    Bytes(Vec<u8>),
+    Batch(RecordBatch),
+}
+
+/// What a Parquet output says of where it comes from (its key-value metadata, under
+/// [`PROVENANCE_KEY`]): the run's inputs with their SHA-256, the tide model and the order.
+pub(crate) struct Provenance {
+    head: serde_json::Map<String, serde_json::Value>,
+    inputs: Vec<crate::compute::qa_report::InputFile>,
+}
+
+impl Provenance {
+    fn of(loaded: &Loaded, kind: RunKind, tide_model: &str) -> Result<Self, IoError> {
+        let correction_file = match kind {
+            RunKind::Apply(_, p) => Some(p),
+            _ => None,
+        };
+        let inputs = super::provenance::input_files(loaded, &[], correction_file)?;
+        let mut head = serde_json::Map::new();
+        head.insert("ebbwise_version".into(), env!("CARGO_PKG_VERSION").into());
+        head.insert(
+            "project_file".into(),
+            loaded.project.path.display().to_string().into(),
+        );
+        head.insert("tide_model".into(), tide_model.into());
+        head.insert(
+            "order".into(),
+            match &loaded.uncertainty {
+                Some(u) => u.orders[u.chosen].name.clone().into(),
+                None => serde_json::Value::Null,
+            },
+        );
+        head.insert("caution".into(), crate::CAUTION.into());
+        Ok(Provenance { head, inputs })
+    }
+
+    /// The JSON text, with the soundings file `input` (and its SHA-256 when taken) last.
+    fn json_with(&self, input: &Path, sha256: Option<&str>) -> String {
+        let mut m = self.head.clone();
+        let mut inputs: Vec<serde_json::Value> = self
+            .inputs
+            .iter()
+            .map(|i| serde_json::json!({"role": i.role, "path": i.path, "sha256": i.sha256}))
+            .collect();
+        inputs.push(serde_json::json!({
+            "role": "soundings",
+            "path": input.display().to_string(),
+            "sha256": sha256,
+        }));
+        m.insert("inputs".into(), inputs.into());
+        serde_json::Value::Object(m).to_string()
+    }
+}
 
 /// Width of a QA map cell in `crs` units: the zoning's extent there over
 /// [`MAP_CELLS_ACROSS`](crate::compute::qa::MAP_CELLS_ACROSS) (its longer side), so that one
@@ -364,11 +470,26 @@ fn map_cell_width(zoning: &crate::io::zoning_geojson::ZoningSpec, crs: &str) -> 
 /// Output file name for an input file: `<stem>.reduced.csv` (or `.correctors.csv`,
 /// `.applied.csv`).
 pub fn output_name(input: &Path, suffix: &str) -> String {
+    output_name_as(input, suffix, TableFormat::Csv)
+}
+
+/// Output file name for an input file in `format`: `<stem>.reduced.csv`, `<stem>.reduced.parquet`
+/// (or `.correctors.…`, `.applied.…`).
+pub fn output_name_as(input: &Path, suffix: &str, format: TableFormat) -> String {
     let stem = input
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_else(|| "soundings".into());
-    format!("{stem}.{suffix}.csv")
+    format!("{stem}.{suffix}.{}", format.extension())
+}
+
+/// The format a run of `kind` writes its per-sounding files in: the project's `[output]
+/// format`; per-sounding correction files are CSV.
+pub fn table_format(project: &crate::io::project::Project, kind: RunKind) -> TableFormat {
+    match kind {
+        RunKind::SoundingCorrectors => TableFormat::Csv,
+        _ => project.spec.output.format,
+    }
 }
 
 /// Every file a streaming run of `kind` writes into `out_dir` (on all the project's soundings
@@ -391,7 +512,11 @@ pub fn run_outputs(
             if only_files.is_some_and(|only| !only.iter().any(|o| same_file(o, f))) {
                 continue;
             }
-            let path = out_dir.join(output_name(f, kind.suffix()));
+            let path = out_dir.join(output_name_as(
+                f,
+                kind.suffix(),
+                table_format(project, kind),
+            ));
             out.push(PlannedOutput {
                 path: path.clone(),
                 what: format!("{what} of {}", f.display()),
@@ -478,7 +603,11 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                     continue;
                 }
             }
-            let out = opts.out_dir.join(output_name(f, opts.kind.suffix()));
+            let out = opts.out_dir.join(output_name_as(
+                f,
+                opts.kind.suffix(),
+                table_format(&loaded.project, opts.kind),
+            ));
             jobs.push((gi, group, f, out));
         }
     }
@@ -529,6 +658,15 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         )
         .chain(std::iter::once(loaded.project.spec.zoning.as_path()))
         .collect();
+    let tide_model_name = match (&loaded.field, opts.kind) {
+        (_, RunKind::Apply(..)) => "correction_file",
+        (Some(f), _) => f.setup.mode.as_str(),
+        (None, _) => "zoning",
+    };
+    let provenance = match table_format(&loaded.project, opts.kind) {
+        TableFormat::Parquet => Some(Provenance::of(loaded, opts.kind, tide_model_name)?),
+        TableFormat::Csv => None,
+    };
     // With the QA counts, the failing and unreduced soundings are exported as GeoJSON.
     let exporting = loaded.project.spec.output.geojson_exports
         && loaded.uncertainty.is_some()
@@ -604,6 +742,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
                 &inputs,
                 opts.progress,
                 parts,
+                provenance.as_ref(),
             )
         })
         .collect();
@@ -683,11 +822,7 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
         project: loaded.project.path.clone(),
         qc_ran: loaded.project.spec.qc.enabled,
         interpolation: loaded.interp.name(),
-        tide_model: match (&loaded.field, opts.kind) {
-            (_, RunKind::Apply(..)) => "correction_file",
-            (Some(f), _) => f.setup.mode.as_str(),
-            (None, _) => "zoning",
-        },
+        tide_model: tide_model_name,
         rows_by_status: StatusCounts(totals),
         files,
         zones,
@@ -712,6 +847,144 @@ pub fn same_file(a: &Path, b: &Path) -> bool {
     }
 }
 
+/// Where a file's rows come from, for the three stages of [`stream_file`]: CSV text in chunks
+/// of lines, or a Parquet file in record batches.
+trait RowSource: Send {
+    type Item: Send + Sync;
+    /// The next item, `None` at the end.
+    fn next_item(&mut self) -> Result<Option<Self::Item>, IoError>;
+    /// Takes back an item the workers are done with (a chunk's buffer is reused).
+    fn reuse(&mut self, _item: Self::Item) {}
+    /// Bytes of input an item stands for (the progress).
+    fn item_bytes(item: &Self::Item) -> u64;
+    /// The input's SHA-256 after the last item, when it is hashed.
+    fn finish(self) -> Result<Option<String>, IoError>;
+}
+
+struct CsvSource {
+    path: PathBuf,
+    reader: ChunkReader<crate::io::soundings::HashingReader<File>>,
+    first: Option<Chunk>,
+    spare: Vec<Vec<u8>>,
+}
+
+impl RowSource for CsvSource {
+    type Item = Chunk;
+    fn next_item(&mut self) -> Result<Option<Chunk>, IoError> {
+        if let Some(c) = self.first.take() {
+            return Ok(Some(c));
+        }
+        let buf = self.spare.pop().unwrap_or_default();
+        self.reader
+            .next_chunk(buf)
+            .map_err(|e| IoError::file(&self.path, e))
+    }
+    fn reuse(&mut self, item: Chunk) {
+        self.spare.push(item.data);
+    }
+    fn item_bytes(item: &Chunk) -> u64 {
+        item.data.len() as u64
+    }
+    fn finish(self) -> Result<Option<String>, IoError> {
+        Ok(self.reader.into_inner().sha256_hex())
+    }
+}
+
+/// A record batch of a Parquet soundings file and the 1-based row number of its first row.
+struct RowBatch {
+    first_row: u64,
+    batch: RecordBatch,
+    /// The share of the file's bytes its rows stand for (the progress).
+    bytes: u64,
+}
+
+struct ParquetSource {
+    path: PathBuf,
+    reader: crate::io::parquet_file::ParquetSoundings,
+    next_row: u64,
+    bytes_per_row: f64,
+    hash: bool,
+}
+
+impl RowSource for ParquetSource {
+    type Item = RowBatch;
+    fn next_item(&mut self) -> Result<Option<RowBatch>, IoError> {
+        Ok(self.reader.next_batch()?.map(|batch| {
+            let first_row = self.next_row;
+            self.next_row += batch.num_rows() as u64;
+            let bytes = (batch.num_rows() as f64 * self.bytes_per_row) as u64;
+            RowBatch {
+                first_row,
+                batch,
+                bytes,
+            }
+        }))
+    }
+    fn item_bytes(item: &RowBatch) -> u64 {
+        item.bytes
+    }
+    fn finish(self) -> Result<Option<String>, IoError> {
+        // The reader seeks about the file; its hash is taken in one more read.
+        if self.hash {
+            crate::io::correctors_file::sha256_file(&self.path).map(Some)
+        } else {
+            Ok(None)
+        }
+    }
+}
+
+/// A Parquet soundings file's column names for the layout, and the GeoParquet geometry
+/// column x and y are read from: when the file has one and the group's `x` and `y` name no
+/// column of the file, two names `<geometry>.x` and `<geometry>.y` follow the file's own, and
+/// the returned mapping points x and y at them.
+fn parquet_layout(
+    group: &SoundingsSpec,
+    src: &crate::io::parquet_file::ParquetSoundings,
+    naive_offset: Option<chrono::FixedOffset>,
+    input: &Path,
+) -> Result<(SoundingLayout, Option<usize>), IoError> {
+    let mut names = src.names();
+    let mut spec = group.clone();
+    let mut geometry = None;
+    let named = |c: &str| c.starts_with('#') || names.iter().any(|n| n == c);
+    if let Some(g) = src.geometry() {
+        if !named(&group.columns.x) && !named(&group.columns.y) {
+            match &g.crs {
+                Some(c) if crate::io::crs::same_crs_name(c, &group.crs) => {}
+                found => {
+                    return Err(IoError::content(
+                        Position::file(input).field(g.name.as_str()),
+                        format!(
+                            "the GeoParquet geometry's CRS is {} but the group's crs is {}: positions would be read in the wrong CRS",
+                            found.as_deref().unwrap_or("not given by an id"),
+                            group.crs
+                        ),
+                    ));
+                }
+            }
+            let (xn, yn) = (format!("{}.x", g.name), format!("{}.y", g.name));
+            spec.columns.x = xn.clone();
+            spec.columns.y = yn.clone();
+            names.push(xn);
+            names.push(yn);
+            geometry = Some(g.index);
+        }
+    }
+    let layout = SoundingLayout::from_names(&spec, names, naive_offset, input)?;
+    // The mapped columns' types, checked once for the file (not per batch).
+    let empty = RecordBatch::new_empty(Arc::clone(src.schema()));
+    crate::io::columnar::BatchView::new(
+        &empty,
+        &layout.mapped_columns(),
+        &layout.column_names,
+        geometry,
+        naive_offset.map(|o| -f64::from(o.local_minus_utc())),
+        layout.time_is_unix_s(),
+    )
+    .map_err(|p| IoError::content(Position::file(input).field(p.column), p.message))?;
+    Ok((layout, geometry))
+}
+
 #[allow(clippy::too_many_arguments)]
 fn reduce_file(
     loaded: &Loaded,
@@ -723,42 +996,25 @@ fn reduce_file(
     model: &dyn TideModel,
     inputs: &[&Path],
     progress: Option<&dyn Progress>,
-    mut parts: Option<ExportParts>,
+    parts: Option<ExportParts>,
+    provenance: Option<&Provenance>,
 ) -> Result<FileSummary, IoError> {
-    let file = File::open(input).map_err(|e| IoError::file(input, e))?;
-    // The QA report's provenance gives every soundings file's SHA-256: taken as it is read.
-    let hash_input = loaded.uncertainty.is_some() && !matches!(kind, RunKind::SoundingCorrectors);
-    let mut reader = ChunkReader::new(
-        crate::io::soundings::HashingReader::new(file, hash_input),
-        1,
-    );
-    let first = reader
-        .next_chunk(Vec::new())
-        .map_err(|e| IoError::file(input, e))?;
-    let Some(mut first) = first else {
-        return Err(IoError::content(Position::file(input), "the file is empty"));
-    };
-    let first_line_text: Option<String> = lines_of(&first)
-        .next()
-        .map(|(_, l)| String::from_utf8_lossy(l).into_owned());
-    let layout = SoundingLayout::resolve(
-        group,
-        first_line_text.as_deref(),
-        loaded.project.naive_offset,
-        input,
-    )?;
+    // The QA report's provenance gives every soundings file's SHA-256, and so does a Parquet
+    // output's: taken as it is read.
+    let hash_input = (loaded.uncertainty.is_some() || provenance.is_some())
+        && !matches!(kind, RunKind::SoundingCorrectors);
     let source_name = input
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
-    let no_line = if layout.has_line_column() {
-        format!("(no line in {source_name})")
-    } else {
-        source_name.clone()
-    };
-    let ctx = FileCtx {
+    let file_ctx = |layout: SoundingLayout| FileCtx {
         kind,
-        source_name,
+        no_line: if layout.has_line_column() {
+            format!("(no line in {source_name})")
+        } else {
+            source_name.clone()
+        },
+        source_name: source_name.clone(),
         unc: loaded.uncertainty.as_ref(),
         layout,
         zone_ids: loaded.zones.iter().map(|z| z.id.as_str()).collect(),
@@ -767,14 +1023,148 @@ fn reduce_file(
         group: group_index,
         map_cell: map_cell_width(&loaded.zoning, &group.crs),
         exporting: parts.is_some(),
-        no_line,
+        lonlat: crate::io::crs::is_wgs84_lonlat(&group.crs),
+        columnar: provenance.is_some(),
+        schema: None,
+        geometry: None,
+        input_columns: 0,
     };
-    let mut sink = AtomicFile::create(out, inputs)?;
+    if crate::io::parquet_file::is_parquet(input) {
+        if matches!(kind, RunKind::SoundingCorrectors) {
+            return Err(IoError::content(
+                Position::file(input),
+                "per-sounding correction files are made from CSV soundings files only; reduce a Parquet file with `ebbwise reduce`",
+            ));
+        }
+        let src = crate::io::parquet_file::ParquetSoundings::open(
+            input,
+            crate::io::parquet_file::READ_BATCH_ROWS,
+        )?;
+        let (layout, geometry) = parquet_layout(group, &src, loaded.project.naive_offset, input)?;
+        let mut ctx = file_ctx(layout);
+        if !ctx.columnar {
+            let empty = RecordBatch::new_empty(Arc::clone(src.schema()));
+            crate::io::columnar::RowText::new(&empty)
+                .map_err(|p| IoError::content(Position::file(input).field(p.column), p.message))?;
+        }
+        ctx.geometry = geometry;
+        ctx.input_columns = src.schema().fields().len();
+        let input_fields: Vec<arrow_schema::Field> = src
+            .schema()
+            .fields()
+            .iter()
+            .map(|f| f.as_ref().clone())
+            .collect();
+        let file_bytes = std::fs::metadata(input).map(|m| m.len()).unwrap_or(0);
+        let rows = src.rows().max(1);
+        let source = ParquetSource {
+            path: input.to_path_buf(),
+            reader: src,
+            next_row: 1,
+            bytes_per_row: file_bytes as f64 / rows as f64,
+            hash: hash_input,
+        };
+        let sink = open_sink(&mut ctx, out, inputs, input_fields)?;
+        let ctx = ctx;
+        stream_file(
+            &ctx,
+            source,
+            sink,
+            |b: &RowBatch, buf| process_batch(b, &ctx, model, buf),
+            input,
+            out,
+            progress,
+            parts,
+            provenance,
+        )
+    } else {
+        let file = File::open(input).map_err(|e| IoError::file(input, e))?;
+        let mut reader = ChunkReader::new(
+            crate::io::soundings::HashingReader::new(file, hash_input),
+            1,
+        );
+        let first = reader
+            .next_chunk(Vec::new())
+            .map_err(|e| IoError::file(input, e))?;
+        let Some(mut first) = first else {
+            return Err(IoError::content(Position::file(input), "the file is empty"));
+        };
+        let first_line_text: Option<String> = lines_of(&first)
+            .next()
+            .map(|(_, l)| String::from_utf8_lossy(l).into_owned());
+        let layout = SoundingLayout::resolve(
+            group,
+            first_line_text.as_deref(),
+            loaded.project.naive_offset,
+            input,
+        )?;
+        let mut ctx = file_ctx(layout);
+        ctx.input_columns = ctx.layout.column_names.len();
+        let input_fields = TextColumns::new(&ctx.layout.column_names, &ctx.layout.text_kinds(), 0)
+            .fields()
+            .to_vec();
+        let sink = open_sink(&mut ctx, out, inputs, input_fields)?;
+        let ctx = ctx;
+        if group.header {
+            // Drop the header line from the first chunk.
+            let cut = first
+                .data
+                .iter()
+                .position(|&c| c == b'\n')
+                .map(|i| i + 1)
+                .unwrap_or(first.data.len());
+            first.data.drain(..cut);
+            first.first_line += 1;
+            if let Some(p) = progress {
+                p.advance(cut as u64);
+            }
+        }
+        let source = CsvSource {
+            path: input.to_path_buf(),
+            reader,
+            first: Some(first),
+            spare: Vec::new(),
+        };
+        stream_file(
+            &ctx,
+            source,
+            sink,
+            |c: &Chunk, buf| process_chunk(c, &ctx, model, buf),
+            input,
+            out,
+            progress,
+            parts,
+            provenance,
+        )
+    }
+}
+
+/// Opens a file's output: a Parquet file whose columns are `input_fields` and the appended
+/// ones (the schema kept in `ctx`), or a CSV file with its header written.
+fn open_sink(
+    ctx: &mut FileCtx,
+    out: &Path,
+    inputs: &[&Path],
+    input_fields: Vec<arrow_schema::Field>,
+) -> Result<Sink, IoError> {
+    if ctx.columnar {
+        let mut fields = input_fields;
+        fields.extend(ctx.reduced_columns(0).fields());
+        let schema: SchemaRef = Arc::new(arrow_schema::Schema::new(fields));
+        ctx.schema = Some(Arc::clone(&schema));
+        return Ok(Sink::Parquet(Box::new(ParquetOut::create(
+            out, inputs, schema,
+        )?)));
+    }
+    let mut f = AtomicFile::create(out, inputs)?;
     let mut header = Vec::new();
-    if let RunKind::SoundingCorrectors = kind {
+    if let RunKind::SoundingCorrectors = ctx.kind {
         header.extend_from_slice(SOUNDING_CORRECTOR_COLUMNS.join(",").as_bytes());
     } else {
-        for (i, name) in ctx.layout.column_names.iter().enumerate() {
+        for (i, name) in ctx.layout.column_names[..ctx.input_columns]
+            .iter()
+            .enumerate()
+        {
             if i > 0 {
                 header.push(b',');
             }
@@ -792,21 +1182,26 @@ fn reduce_file(
         }
     }
     header.push(b'\n');
-    sink.write_all(&header)?;
-    if group.header {
-        // Drop the header line from the first chunk.
-        let cut = first
-            .data
-            .iter()
-            .position(|&c| c == b'\n')
-            .map(|i| i + 1)
-            .unwrap_or(first.data.len());
-        first.data.drain(..cut);
-        first.first_line += 1;
-        if let Some(p) = progress {
-            p.advance(cut as u64);
-        }
-    }
+    f.write_all(&header)?;
+    Ok(Sink::Csv(f))
+}
+
+/// Streams a file's rows through three overlapping stages: a reader thread takes items from
+/// `source`, the rayon pool processes a batch of items (`process`), a writer thread writes the
+/// previous batch's output. Channels are bounded, so memory stays bounded whatever the file's
+/// size; output order is input order. Then commits the output.
+#[allow(clippy::too_many_arguments)]
+fn stream_file<S: RowSource>(
+    ctx: &FileCtx,
+    mut source: S,
+    mut sink: Sink,
+    process: impl Fn(&S::Item, Vec<u8>) -> ChunkOut + Sync,
+    input: &Path,
+    out: &Path,
+    progress: Option<&dyn Progress>,
+    mut parts: Option<ExportParts>,
+    provenance: Option<&Provenance>,
+) -> Result<FileSummary, IoError> {
     let mut summary = FileSummary {
         input: input.to_path_buf(),
         output: out.to_path_buf(),
@@ -815,60 +1210,62 @@ fn reduce_file(
         parsed_rows: 0,
         negative_depths: 0,
         examples: Vec::new(),
-        per_zone: vec![[0; N_STATUS]; loaded.zones.len()],
+        per_zone: vec![[0; N_STATUS]; ctx.zone_ids.len()],
         time_range_s: None,
         qa: None,
         input_sha256: None,
     };
     let mut counts = [0u64; N_STATUS];
     let batch = CHUNKS_PER_THREAD * rayon::current_num_threads().max(1);
-    // Three stages overlap: a reader thread cuts chunks, the rayon pool processes a batch of
-    // chunks, a writer thread writes the previous batch's output. Channels are bounded, so memory
-    // stays bounded whatever the file's size.
-    let (chunk_tx, chunk_rx) = std::sync::mpsc::sync_channel::<std::io::Result<Chunk>>(batch);
-    let (out_tx, out_rx) = std::sync::mpsc::sync_channel::<Vec<u8>>(batch);
+    let (item_tx, item_rx) = std::sync::mpsc::sync_channel::<Result<S::Item, IoError>>(batch);
+    let (out_tx, out_rx) = std::sync::mpsc::sync_channel::<Payload>(batch);
     let (used_tx, used_rx) = std::sync::mpsc::channel::<Vec<u8>>();
-    let (spare_tx, spare_rx) = std::sync::mpsc::channel::<Vec<u8>>();
+    let (spare_tx, spare_rx) = std::sync::mpsc::channel::<S::Item>();
     let mut input_sha256: Option<String> = None;
-    let written: Result<AtomicFile, IoError> = std::thread::scope(|scope| {
+    let written: Result<Sink, IoError> = std::thread::scope(|scope| {
         // The reader gives the file's SHA-256 when it has read it all.
-        let hashed = scope.spawn(move || -> Option<String> {
-            if chunk_tx.send(Ok(first)).is_err() {
-                return None;
-            }
+        let hashed = scope.spawn(move || -> Result<Option<String>, IoError> {
             loop {
-                let buf = spare_rx.try_recv().unwrap_or_default();
-                match reader.next_chunk(buf) {
+                while let Ok(it) = spare_rx.try_recv() {
+                    source.reuse(it);
+                }
+                match source.next_item() {
                     Ok(Some(c)) => {
-                        if chunk_tx.send(Ok(c)).is_err() {
-                            return None;
+                        if item_tx.send(Ok(c)).is_err() {
+                            return Ok(None);
                         }
                     }
-                    Ok(None) => return reader.into_inner().sha256_hex(),
+                    Ok(None) => return source.finish(),
                     Err(e) => {
-                        let _ = chunk_tx.send(Err(e));
-                        return None;
+                        let _ = item_tx.send(Err(e));
+                        return Ok(None);
                     }
                 }
             }
         });
-        let writer = scope.spawn(move || -> Result<AtomicFile, IoError> {
-            for bytes in out_rx {
-                sink.write_all(&bytes)?;
-                let _ = used_tx.send(bytes);
+        let writer = scope.spawn(move || -> Result<Sink, IoError> {
+            for payload in out_rx {
+                match (&mut sink, payload) {
+                    (Sink::Csv(f), Payload::Bytes(bytes)) => {
+                        f.write_all(&bytes)?;
+                        let _ = used_tx.send(bytes);
+                    }
+                    (Sink::Parquet(p), Payload::Batch(b)) => p.write(&b)?,
+                    _ => unreachable!("a chunk's output is in the file's format"),
+                }
             }
             Ok(sink)
         });
-        let mut pending: Vec<Chunk> = Vec::with_capacity(batch);
+        let mut pending: Vec<S::Item> = Vec::with_capacity(batch);
         let mut done = false;
         let mut read_error = None;
         let mut export_error = None;
         while !done {
             while pending.len() < batch {
-                match chunk_rx.recv() {
+                match item_rx.recv() {
                     Ok(Ok(c)) => pending.push(c),
                     Ok(Err(e)) => {
-                        read_error = Some(IoError::file(input, e));
+                        read_error = Some(e);
                         done = true;
                         break;
                     }
@@ -887,18 +1284,22 @@ fn reduce_file(
             let outs: Vec<ChunkOut> = pending
                 .par_iter()
                 .zip(buffers)
-                .map(|(c, buf)| process_chunk(c, &ctx, model, buf))
+                .map(|(c, buf)| process(c, buf))
                 .collect();
             for (c, o) in pending.drain(..).zip(outs) {
-                if out_tx.send(o.bytes).is_err() {
+                let payload = match o.batch {
+                    Some(b) => Payload::Batch(b),
+                    None => Payload::Bytes(o.bytes),
+                };
+                if out_tx.send(payload).is_err() {
                     // The writer stopped on an error: it is reported below.
                     done = true;
                     break;
                 }
                 if let Some(p) = progress {
-                    p.advance(c.data.len() as u64);
+                    p.advance(S::item_bytes(&c));
                 }
-                let _ = spare_tx.send(c.data);
+                let _ = spare_tx.send(c);
                 add_counts(&mut counts, &o.counts);
                 for (acc, zc) in summary.per_zone.iter_mut().zip(&o.per_zone) {
                     add_counts(acc, zc);
@@ -938,41 +1339,151 @@ fn reduce_file(
             }
         }
         drop(out_tx);
-        drop(chunk_rx);
+        drop(item_rx);
         let sink = writer.join().expect("writer thread does not panic")?;
-        input_sha256 = hashed.join().expect("reader thread does not panic");
+        let hash = hashed.join().expect("reader thread does not panic");
         match read_error.or(export_error) {
             Some(e) => Err(e),
-            None => Ok(sink),
+            None => {
+                input_sha256 = hash?;
+                Ok(sink)
+            }
         }
     });
     let sink = written?;
     if let Some(p) = parts {
         p.finish()?;
     }
-    sink.commit()?;
+    match sink {
+        Sink::Csv(f) => {
+            f.commit()?;
+        }
+        Sink::Parquet(p) => {
+            let prov = provenance.expect("a Parquet output has its provenance");
+            p.commit(&[(
+                PROVENANCE_KEY.to_string(),
+                prov.json_with(input, input_sha256.as_deref()),
+            )])?;
+        }
+    }
     summary.rows_by_status = StatusCounts(counts);
     summary.input_sha256 = input_sha256;
     Ok(summary)
 }
 
+/// A batch of a Parquet soundings file's rows, as [`process_chunk`] does a chunk of CSV lines:
+/// the file's own columns pass through as they are (Parquet output) or as text (CSV output).
+fn process_batch(rb: &RowBatch, ctx: &FileCtx, model: &dyn TideModel, bytes: Vec<u8>) -> ChunkOut {
+    let batch = &rb.batch;
+    let rows = batch.num_rows();
+    let mut o = ChunkOut::start(ctx, bytes, rows * 64);
+    let m = ctx.layout.mapped_columns();
+    let naive = ctx
+        .layout
+        .naive_offset()
+        .map(|off| -f64::from(off.local_minus_utc()));
+    let view = crate::io::columnar::BatchView::new(
+        batch,
+        &m,
+        &ctx.layout.column_names,
+        ctx.geometry,
+        naive,
+        ctx.layout.time_is_unix_s(),
+    );
+    let mut reduced = ctx.schema.as_ref().map(|_| ctx.reduced_columns(rows));
+    // Checked when the file was opened (every batch has the file's schema).
+    let text = if ctx.columnar {
+        None
+    } else {
+        crate::io::columnar::RowText::new(batch).ok()
+    };
+    let mut w = RowWork::default();
+    for r in 0..rows {
+        let line_no = rb.first_row + r as u64;
+        w.detail.clear();
+        let mut facts = RowFacts {
+            line: &ctx.no_line,
+            t_s: None,
+            at: None,
+        };
+        let parsed = match &view {
+            Err(p) => {
+                // Checked when the file was opened; kept for a batch that differs.
+                w.detail.push_str("field '");
+                w.detail.push_str(&p.column);
+                w.detail.push_str("': ");
+                w.detail.push_str(&p.message);
+                None
+            }
+            Ok(v) => match v
+                .row(r, &m, &ctx.layout)
+                .and_then(|raw| ctx.layout.check(raw, |i| v.written(i, r)))
+            {
+                Ok(values) => Some(values),
+                Err(p) => {
+                    if let Some(l) = v.line_text(r).filter(|l| !l.is_empty()) {
+                        facts.line = l;
+                    }
+                    facts.at = v.position(r);
+                    w.detail.push_str("field '");
+                    w.detail.push_str(&p.field);
+                    w.detail.push_str("': ");
+                    w.detail.push_str(&p.message);
+                    None
+                }
+            },
+        };
+        let ev = match &parsed {
+            None => RowEval::bad_input(),
+            Some(v) => {
+                if !v.line_id.is_empty() {
+                    facts.line = v.line_id;
+                }
+                facts.t_s = Some(v.t_s);
+                facts.at = Some((v.x, v.y));
+                o.parsed(v);
+                evaluate(ctx, model, v, &mut w)
+            }
+        };
+        match (reduced.as_mut(), text.as_ref()) {
+            (Some(red), _) => red.push(
+                ev.zone,
+                ev.tide,
+                ev.status.index(),
+                &w.detail,
+                ev.unc_cols.as_ref(),
+            ),
+            (None, Some(t)) => {
+                t.push_row(&mut o.bytes, r);
+                write_reduced_tail(&mut o.bytes, ctx, &ev, &w.detail);
+            }
+            (None, None) => unreachable!("a file's columns have text forms, checked on opening"),
+        }
+        account(&mut o, ctx, line_no, &facts, &ev, &w);
+    }
+    if let (Some(mut red), Some(schema)) = (reduced, &ctx.schema) {
+        let mut arrays: Vec<arrow_array::ArrayRef> = batch.columns().to_vec();
+        arrays.extend(red.finish());
+        o.batch = Some(
+            RecordBatch::try_new(Arc::clone(schema), arrays)
+                .expect("the columns are built to the file's schema"),
+        );
+    }
+    if let Some(q) = o.qa.as_mut() {
+        q.set_file(&ctx.source_name);
+    }
+    o
+}
+
 /// Appends zone, tide, reduced depth, status, detail (and the uncertainty columns when this run
 /// computes them) to a reduced-output row, and ends the row.
-fn write_reduced_tail(
-    b: &mut Vec<u8>,
-    ctx: &FileCtx,
-    zone: Option<usize>,
-    tide: Option<(f64, f64)>,
-    status: SoundingStatus,
-    detail: &str,
-    unc_cols: Option<([f64; 10], bool)>,
-) {
+fn write_reduced_tail(b: &mut Vec<u8>, ctx: &FileCtx, ev: &RowEval, detail: &str) {
     b.push(b',');
-    if let Some(z) = zone {
+    if let Some(z) = ev.zone {
         push_csv_field(b, ctx.zone_ids[z]);
     }
     b.push(b',');
-    if let Some((t, d)) = tide {
+    if let Some((t, d)) = ev.tide {
         push_fixed(b, t, HEIGHT_DECIMALS);
         b.push(b',');
         push_fixed(b, d, HEIGHT_DECIMALS);
@@ -980,11 +1491,11 @@ fn write_reduced_tail(
         b.push(b',');
     }
     b.push(b',');
-    b.extend_from_slice(status.as_str().as_bytes());
+    b.extend_from_slice(ev.status.as_str().as_bytes());
     b.push(b',');
     push_csv_field(b, detail);
     if ctx.unc.is_some() {
-        match unc_cols {
+        match ev.unc_cols {
             Some((vals, within)) => {
                 for x in vals {
                     b.push(b',');
@@ -998,6 +1509,8 @@ fn write_reduced_tail(
     b.push(b'\n');
 }
 
+/// Writes one row of a per-sounding correction file: `key` is the row's (time, line) when it
+/// could be read.
 #[allow(clippy::too_many_arguments)]
 fn write_corrector_row(
     b: &mut Vec<u8>,
@@ -1005,20 +1518,17 @@ fn write_corrector_row(
     line_no: u64,
     fields: &Fields,
     line: &str,
-    key: Option<(f64, String)>,
-    zone: Option<usize>,
-    tide: Option<(f64, f64)>,
-    unc_cols: Option<([f64; 10], bool)>,
-    status: SoundingStatus,
+    key: Option<(f64, &str)>,
+    ev: &RowEval,
     fill_detail: &str,
 ) {
     use std::io::Write;
     // line, time: parsed when the row could be read, else the raw fields (or empty).
-    match &key {
+    match key {
         Some((t, l)) => {
             push_csv_field(b, l);
             b.push(b',');
-            crate::io::timefmt::push_utc_bytes(b, *t);
+            crate::io::timefmt::push_utc_bytes(b, t);
         }
         None => {
             let raw_line = ctx
@@ -1033,20 +1543,20 @@ fn write_corrector_row(
     b.push(b',');
     push_csv_field(b, &ctx.source_name);
     let _ = write!(b, ",{line_no},");
-    if let Some(z) = zone {
+    if let Some(z) = ev.zone {
         push_csv_field(b, ctx.zone_ids[z]);
     }
     b.push(b',');
-    if let Some((t, _)) = tide {
+    if let Some((t, _)) = ev.tide {
         push_fixed(b, t, HEIGHT_DECIMALS);
     }
     b.push(b',');
-    if let Some((vals, _)) = unc_cols {
+    if let Some((vals, _)) = ev.unc_cols {
         push_fixed(b, vals[5], UNCERTAINTY_DECIMALS);
     }
     b.push(b',');
-    b.extend_from_slice(status.as_str().as_bytes());
-    match unc_cols {
+    b.extend_from_slice(ev.status.as_str().as_bytes());
+    match ev.unc_cols {
         Some((vals, _)) => {
             for x in &vals[..5] {
                 b.push(b',');
@@ -1169,47 +1679,418 @@ pub(crate) fn gap_filled_detail(
     any
 }
 
-fn process_chunk(
-    chunk: &Chunk,
-    ctx: &FileCtx,
-    model: &dyn TideModel,
-    mut bytes: Vec<u8>,
-) -> ChunkOut {
-    let n_cols = ctx.layout.column_names.len();
-    bytes.clear();
-    let factor = if ctx.loaded.uncertainty.is_some() {
-        3
-    } else {
-        2
-    };
-    bytes.reserve(chunk.data.len() * factor + 1024);
-    let mut o = ChunkOut {
-        bytes,
-        per_zone: vec![[0; N_STATUS]; ctx.zone_ids.len()],
-        t_min: f64::INFINITY,
-        t_max: f64::NEG_INFINITY,
-        ..Default::default()
-    };
-    let unc = ctx.unc;
-    let corrector_rows = matches!(ctx.kind, RunKind::SoundingCorrectors);
-    if let (Some(u), false) = (unc, corrector_rows) {
-        o.qa = Some(QaAccumulator::new(
-            u.orders.len(),
-            u.chosen,
-            ctx.zone_ids.len(),
-        ));
+/// A worker's scratch space for its rows, reused from row to row.
+#[derive(Default)]
+struct RowWork {
+    scratch: Scratch,
+    labels: FillLabels,
+    /// The row's `status_detail`.
+    detail: String,
+    /// The row's verdict per order (with uncertainty).
+    within: Vec<bool>,
+}
+
+/// What the reduction made of one row, before it is written and counted.
+#[derive(Debug, Clone, Copy)]
+struct RowEval {
+    status: SoundingStatus,
+    zone: Option<usize>,
+    /// Applied tide and reduced depth, metres.
+    tide: Option<(f64, f64)>,
+    /// The ten uncertainty values of the output (budget, u_tvu, U95, allowed) and the verdict.
+    unc_cols: Option<([f64; 10], bool)>,
+    /// U95 / allowed and the six variances of the budget, when judged.
+    judged: Option<(f64, [f64; 6])>,
+    drying: bool,
+}
+
+impl RowEval {
+    fn bad_input() -> Self {
+        RowEval {
+            status: SoundingStatus::BadInput,
+            zone: None,
+            tide: None,
+            unc_cols: None,
+            judged: None,
+            drying: false,
+        }
     }
-    let mut within: Vec<bool> = Vec::with_capacity(unc.map_or(0, |u| u.orders.len()));
+}
+
+/// What the QA counts and the exports take of a row besides its outcome: its line (the file's
+/// name when the file has no line column), time and position.
+struct RowFacts<'r> {
+    line: &'r str,
+    t_s: Option<f64>,
+    at: Option<(f64, f64)>,
+}
+
+/// The tide, reduced depth, uncertainty and status of one readable sounding; the words of its
+/// `status_detail` go to `w.detail`, its verdict per order to `w.within`.
+fn evaluate(ctx: &FileCtx, model: &dyn TideModel, v: &SoundingValues, w: &mut RowWork) -> RowEval {
+    let unc = ctx.unc;
+    let detail = &mut w.detail;
+    let scratch = &mut w.scratch;
+    let mut ev = RowEval::bad_input();
+    let q = Query {
+        x: v.x,
+        y: v.y,
+        t_s: v.t_s,
+        line: v.line_id,
+    };
+    scratch.clear();
+    ev.status = match model.tide_at(&q, scratch) {
+        TideOutcome::Tide {
+            zone: z,
+            tide_m,
+            u: tide_u,
+            filled,
+        } => {
+            ev.zone = Some(z);
+            let tide_m = applied_tide_m(tide_m);
+            let reduced = reduce_depth(v.depth_m, tide_m);
+            ev.drying = reduced < 0.0;
+            ev.tide = Some((tide_m, reduced));
+            // The tide's budget, as the model gives it. Propagated as written (4 decimals),
+            // like the tide: a change of at most 0.05 mm that makes a reduction from a
+            // correction file, which holds the written values, give the same TVU, verdicts and
+            // QA report.
+            let budget = unc.and(tide_u).map(|b| {
+                let r = |x: f64| round_to(x, UNCERTAINTY_DECIMALS);
+                let comps = b.parts_m.map(r);
+                (comps, comps.map(|x| x * x), r(b.u_tide_m))
+            });
+            if let (Some(u), Some((comps, bv, u_tide))) = (unc, budget) {
+                let u_snd = v
+                    .u_depth_m
+                    .unwrap_or_else(|| u.sounding_model.u_m(v.depth_m));
+                let u_tvu = u_tvu_m(u_snd, u_tide);
+                let u95 = K95 * u_tvu;
+                let allowed = u.orders[u.chosen].tvu_max95_m(reduced);
+                // Judged on the values as the columns write them, so that `within_order` and
+                // the QA counts agree with what a reader sees (every order at the decimals of
+                // the columns).
+                let verdict = judge_as_written(u95, allowed, UNCERTAINTY_DECIMALS);
+                w.within.clear();
+                w.within.extend(u.orders.iter().enumerate().map(|(k, o)| {
+                    if k == u.chosen {
+                        verdict.within
+                    } else {
+                        judge_as_written(u95, o.tvu_max95_m(reduced), UNCERTAINTY_DECIMALS).within
+                    }
+                }));
+                let var = [u_snd * u_snd, bv[0], bv[1], bv[2], bv[3], bv[4]];
+                ev.judged = Some((verdict.ratio, var));
+                ev.unc_cols = Some((
+                    [
+                        comps[0], comps[1], comps[2], comps[3], comps[4], u_tide, u_snd, u_tvu,
+                        u95, allowed,
+                    ],
+                    verdict.within,
+                ));
+            }
+            // A correction file says itself whether its tide was filled; a tide from the
+            // gauges is told by the states it used.
+            let gap_filled = match &filled {
+                Some(d) => {
+                    detail.push_str(d);
+                    true
+                }
+                None => {
+                    gap_filled_detail(&ctx.loaded.gauges, &scratch.states, detail, &mut w.labels)
+                }
+            };
+            if gap_filled {
+                SoundingStatus::GapFilled
+            } else {
+                SoundingStatus::Reduced
+            }
+        }
+        TideOutcome::Outside => {
+            detail.push_str("position is outside every zone");
+            // A common mistake: x and y (longitude and latitude) swapped.
+            if let TideOutcome::Tide { zone: z, .. } | TideOutcome::NoData { zone: z, .. } = model
+                .tide_at(
+                    &Query {
+                        x: v.y,
+                        y: v.x,
+                        ..q
+                    },
+                    scratch,
+                )
+            {
+                detail.push_str(" (with x and y swapped it would be in zone '");
+                detail.push_str(ctx.zone_ids[z]);
+                if ctx.loaded.zoning_looks_swapped {
+                    // The gauges say the zoning, not the soundings, is swapped.
+                    detail.push_str("': the zoning file's positions look swapped; GeoJSON positions are [longitude, latitude])");
+                } else {
+                    detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
+                }
+            } else if !ctx.lonlat {
+                // Degrees given to a projected CRS: read as longitude and latitude, the position
+                // would lie in a zone.
+                if let Some(id) = zone_at_lonlat(&ctx.loaded.zoning, v.x, v.y) {
+                    detail.push_str(
+                        " (read as longitude and latitude in degrees it would be in zone '",
+                    );
+                    detail.push_str(id);
+                    detail.push_str("': the values look geographic; is the group's crs right?)");
+                }
+            }
+            SoundingStatus::OutsideZoning
+        }
+        TideOutcome::Unbridged {
+            zone: z,
+            from_s,
+            to_s,
+            step_s,
+            step_from,
+        } => {
+            ev.zone = z;
+            use std::fmt::Write;
+            let file = match ctx.kind {
+                RunKind::Apply(_, path) => path.display().to_string(),
+                _ => String::new(),
+            };
+            let _ = write!(
+                detail,
+                "the correction file {} has no row between {} and {} ({} min apart), longer than its step of {} min ({}): the tide is not interpolated across it",
+                file,
+                crate::io::timefmt::utc_label(from_s),
+                crate::io::timefmt::utc_label(to_s),
+                crate::io::numfmt::round_to((to_s - from_s) / 60.0, 3),
+                crate::io::numfmt::round_to(step_s / 60.0, 3),
+                match step_from {
+                    crate::compute::reduce::StepSource::Sidecar => "stated by its sidecar",
+                    crate::compute::reduce::StepSource::Series =>
+                        "the most common interval of its rows; no sidecar states it",
+                }
+            );
+            SoundingStatus::NoGaugeData
+        }
+        TideOutcome::NoCorrection {
+            zone: z,
+            why,
+            flagged,
+        } => {
+            ev.zone = z;
+            detail.push_str(why);
+            if flagged {
+                SoundingStatus::GaugeFlagged
+            } else {
+                SoundingStatus::NoGaugeData
+            }
+        }
+        TideOutcome::NoData { zone: z, why } => {
+            ev.zone = Some(z);
+            use std::fmt::Write;
+            let _ = write!(
+                detail,
+                "gauge '{}' has no level at {}: {}",
+                ctx.gauge_ids[why.gauge],
+                crate::io::timefmt::utc_label(why.at_s),
+                why.why
+            );
+            let fill = &ctx.loaded.gauges[why.gauge].series.fill;
+            if let Some(r) = fill.refused_at(why.at_s) {
+                let _ = write!(detail, "; not gap-filled: {}", r.why);
+            }
+            if matches!(why.why, crate::compute::series::NoLevel::Flagged { .. }) {
+                SoundingStatus::GaugeFlagged
+            } else {
+                SoundingStatus::NoGaugeData
+            }
+        }
+    };
+    ev
+}
+
+/// Counts a row: its status per file and zone, an example when it is not reduced, the QA
+/// counts and, when it fails or is not reduced, its feature in the exports.
+fn account(
+    o: &mut ChunkOut,
+    ctx: &FileCtx,
+    line_no: u64,
+    facts: &RowFacts,
+    ev: &RowEval,
+    w: &RowWork,
+) {
+    let status = ev.status;
+    let detail = &w.detail;
+    if o.qa.is_some() && ctx.exporting {
+        let failing = ev.unc_cols.is_some_and(|(_, within)| !within);
+        let unreduced = status.index() >= crate::compute::qa::FIRST_UNREDUCED_STATUS;
+        if failing || unreduced {
+            let e = &mut o.exports;
+            e.begin(&ctx.source_name, line_no, facts.line, status.as_str());
+            if let Some(t) = facts.t_s {
+                e.time_prop("time_utc", t);
+            }
+            if let Some(z) = ev.zone {
+                e.str_prop("zone", ctx.zone_ids[z]);
+            }
+            if let Some((t, d)) = ev.tide {
+                e.num_prop("tide_m", t, HEIGHT_DECIMALS);
+                e.num_prop("reduced_depth_m", d, HEIGHT_DECIMALS);
+            }
+            if let (Some((vals, _)), Some((ratio, _))) = (ev.unc_cols, ev.judged) {
+                e.num_prop("u95_tvu_m", vals[8], UNCERTAINTY_DECIMALS);
+                e.num_prop("allowed_u95_tvu_m", vals[9], UNCERTAINTY_DECIMALS);
+                // Rounded up, as the report's ratios are: a failing sounding never reads 1.000.
+                e.num_prop(
+                    "ratio",
+                    crate::compute::qa::round_up(ratio, crate::compute::qa::RATIO_DECIMALS),
+                    3,
+                );
+            }
+            if !detail.is_empty() {
+                e.str_prop("status_detail", detail);
+            }
+            let kind = if unreduced {
+                ExportKind::Unreduced
+            } else {
+                ExportKind::Failing
+            };
+            e.end(
+                kind,
+                facts.at,
+                &ctx.loaded.project.spec.soundings[ctx.group].crs,
+            );
+        }
+    }
+    if let Some(q) = o.qa.as_mut() {
+        q.add(&QaRow {
+            zone: ev.zone,
+            line: facts.line,
+            t_s: facts.t_s,
+            status: status.index(),
+            at: facts.at.map(|(x, y)| (ctx.group, x, y, ctx.map_cell)),
+            drying: ev.drying,
+            judged: ev.judged.map(|(ratio, var_m2)| Judged {
+                within: &w.within,
+                ratio,
+                var_m2,
+            }),
+        });
+    }
+    if let Some(z) = ev.zone {
+        o.per_zone[z][status.index()] += 1;
+    }
+    o.counts[status.index()] += 1;
+    if status != SoundingStatus::Reduced
+        && status != SoundingStatus::GapFilled
+        && o.examples.len() < 4 * EXAMPLES_PER_STATUS
+    {
+        o.examples.push(RowExample {
+            line: line_no,
+            status: status.as_str(),
+            detail: detail.clone(),
+        });
+    }
+}
+
+impl ChunkOut {
+    /// An empty output for a chunk of `ctx`'s file, writing into `bytes` (CSV).
+    fn start(ctx: &FileCtx, mut bytes: Vec<u8>, input_len: usize) -> Self {
+        bytes.clear();
+        if !ctx.columnar {
+            let factor = if ctx.unc.is_some() { 3 } else { 2 };
+            bytes.reserve(input_len * factor + 1024);
+        }
+        let mut o = ChunkOut {
+            bytes,
+            per_zone: vec![[0; N_STATUS]; ctx.zone_ids.len()],
+            t_min: f64::INFINITY,
+            t_max: f64::NEG_INFINITY,
+            ..Default::default()
+        };
+        if let (Some(u), false) = (ctx.unc, matches!(ctx.kind, RunKind::SoundingCorrectors)) {
+            o.qa = Some(QaAccumulator::new(
+                u.orders.len(),
+                u.chosen,
+                ctx.zone_ids.len(),
+            ));
+        }
+        o
+    }
+
+    /// Takes a readable sounding's time for the file's span and counts it.
+    fn parsed(&mut self, v: &SoundingValues) {
+        self.parsed += 1;
+        if v.depth_m < 0.0 {
+            self.negative += 1;
+        }
+        self.t_min = self.t_min.min(v.t_s);
+        self.t_max = self.t_max.max(v.t_s);
+    }
+}
+
+/// Adds the note of a row with more fields than the header (allowed, not copied) to `detail`.
+fn note_extra_fields(detail: &mut String, fields: usize, header: usize) {
+    if !detail.is_empty() {
+        detail.push_str("; ");
+    }
+    use std::fmt::Write;
+    let _ = write!(
+        detail,
+        "row has {fields} fields, header {header}: extra fields not copied"
+    );
+}
+
+/// A CSV row's own fields into the typed columns: the mapped time and numbers from the parsed
+/// row when it could be read (else each field read on its own), every other field as text.
+fn push_text_row(
+    cols: &mut TextColumns,
+    layout: &SoundingLayout,
+    line: &str,
+    fields: &Fields,
+    parsed: Option<&SoundingValues>,
+) {
+    for i in 0..cols.len() {
+        let text = fields.get(line, i);
+        match cols.kind(i) {
+            TextKind::Time => {
+                let t = match parsed {
+                    Some(v) => Some(v.t_s),
+                    None => text.and_then(|s| layout.time_text(s)),
+                };
+                cols.push_time(i, t);
+            }
+            TextKind::Number => {
+                let x = match parsed {
+                    Some(v) => layout.written_number(i, v),
+                    None => text
+                        .and_then(|s| s.parse::<f64>().ok())
+                        .filter(|x| x.is_finite()),
+                };
+                cols.push_number(i, x);
+            }
+            TextKind::Text => cols.push_text(i, text),
+        }
+    }
+}
+
+fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel, bytes: Vec<u8>) -> ChunkOut {
+    let n_cols = ctx.layout.column_names.len();
+    let mut o = ChunkOut::start(ctx, bytes, chunk.data.len());
+    let corrector_rows = matches!(ctx.kind, RunKind::SoundingCorrectors);
+    // Parquet output: the rows go into typed columns instead of text.
+    let mut columns = ctx.schema.as_ref().map(|_| {
+        let rows = chunk.data.len() / 48 + 16;
+        (
+            TextColumns::new(&ctx.layout.column_names, &ctx.layout.text_kinds(), rows),
+            ctx.reduced_columns(rows),
+        )
+    });
+    let mut w = RowWork::default();
     let mut fields = Fields::default();
-    let mut scratch = Scratch::default();
-    let mut labels = FillLabels::default();
-    let mut detail = String::new();
     for (line_no, raw) in lines_of(chunk) {
         if raw.iter().all(|c| c.is_ascii_whitespace()) {
             o.blank += 1;
             continue;
         }
-        detail.clear();
+        w.detail.clear();
         let owned;
         let (line, utf8_ok) = match std::str::from_utf8(raw) {
             Ok(s) => (s, true),
@@ -1219,23 +2100,14 @@ fn process_chunk(
             }
         };
         fields.split(line, ctx.layout.delimiter);
-        if !corrector_rows {
-            write_input_fields(&mut o.bytes, line, &fields, ctx, n_cols);
-        }
-        let mut key: Option<(f64, String)> = None;
-        let mut zone: Option<usize> = None;
-        let mut tide = None;
-        let mut unc_cols: Option<([f64; 10], bool)> = None;
-        // What the QA counts take of the row: its line (the file's name when the file has no
-        // line column), time, position and judgement.
-        let mut row_line: &str = &ctx.no_line;
-        let mut row_t: Option<f64> = None;
-        let mut row_at: Option<(f64, f64)> = None;
-        let mut judged: Option<(f64, [f64; 6])> = None;
-        let mut drying = false;
-        let status = if !utf8_ok {
-            detail.push_str("the line is not valid UTF-8 text");
-            SoundingStatus::BadInput
+        let mut facts = RowFacts {
+            line: &ctx.no_line,
+            t_s: None,
+            at: None,
+        };
+        let parsed = if !utf8_ok {
+            w.detail.push_str("the line is not valid UTF-8 text");
+            None
         } else {
             match ctx.layout.parse(line, &fields) {
                 Err(p) => {
@@ -1244,319 +2116,76 @@ fn process_chunk(
                         .line_text(line, &fields)
                         .filter(|l| !l.is_empty())
                     {
-                        row_line = l;
+                        facts.line = l;
                     }
-                    row_at = ctx.layout.position_text(line, &fields);
-                    detail.push_str("field '");
-                    detail.push_str(&p.field);
-                    detail.push_str("': ");
-                    detail.push_str(&p.message);
-                    SoundingStatus::BadInput
+                    facts.at = ctx.layout.position_text(line, &fields);
+                    w.detail.push_str("field '");
+                    w.detail.push_str(&p.field);
+                    w.detail.push_str("': ");
+                    w.detail.push_str(&p.message);
+                    None
                 }
-                Ok(v) => {
-                    if !v.line_id.is_empty() {
-                        row_line = v.line_id;
-                    }
-                    row_t = Some(v.t_s);
-                    row_at = Some((v.x, v.y));
-                    o.parsed += 1;
-                    if v.depth_m < 0.0 {
-                        o.negative += 1;
-                    }
-                    o.t_min = o.t_min.min(v.t_s);
-                    o.t_max = o.t_max.max(v.t_s);
-                    if corrector_rows {
-                        key = Some((v.t_s, v.line_id.to_string()));
-                    }
-                    let q = Query {
-                        x: v.x,
-                        y: v.y,
-                        t_s: v.t_s,
-                        line: v.line_id,
-                    };
-                    scratch.clear();
-                    match model.tide_at(&q, &mut scratch) {
-                        TideOutcome::Tide {
-                            zone: z,
-                            tide_m,
-                            u: tide_u,
-                            filled,
-                        } => {
-                            zone = Some(z);
-                            let tide_m = applied_tide_m(tide_m);
-                            let reduced = reduce_depth(v.depth_m, tide_m);
-                            drying = reduced < 0.0;
-                            tide = Some((tide_m, reduced));
-                            // The tide's budget, as the model gives it. Propagated as written
-                            // (4 decimals), like the tide: a change of at most 0.05 mm that
-                            // makes a reduction from a correction file, which holds the written
-                            // values, give the same TVU, verdicts and QA report.
-                            let budget = unc.and(tide_u).map(|b| {
-                                let w = |x: f64| round_to(x, UNCERTAINTY_DECIMALS);
-                                let comps = b.parts_m.map(w);
-                                (comps, comps.map(|x| x * x), w(b.u_tide_m))
-                            });
-                            if let (Some(u), Some((comps, bv, u_tide))) = (unc, budget) {
-                                let u_snd = v
-                                    .u_depth_m
-                                    .unwrap_or_else(|| u.sounding_model.u_m(v.depth_m));
-                                let u_tvu = u_tvu_m(u_snd, u_tide);
-                                let u95 = K95 * u_tvu;
-                                let allowed = u.orders[u.chosen].tvu_max95_m(reduced);
-                                // Judged on the values as the columns write them, so that
-                                // `within_order` and the QA counts agree with what a reader
-                                // sees (every order at the decimals of the columns).
-                                let verdict = judge_as_written(u95, allowed, UNCERTAINTY_DECIMALS);
-                                within.clear();
-                                within.extend(u.orders.iter().enumerate().map(|(k, o)| {
-                                    if k == u.chosen {
-                                        verdict.within
-                                    } else {
-                                        judge_as_written(
-                                            u95,
-                                            o.tvu_max95_m(reduced),
-                                            UNCERTAINTY_DECIMALS,
-                                        )
-                                        .within
-                                    }
-                                }));
-                                let var = [u_snd * u_snd, bv[0], bv[1], bv[2], bv[3], bv[4]];
-                                judged = Some((verdict.ratio, var));
-                                unc_cols = Some((
-                                    [
-                                        comps[0], comps[1], comps[2], comps[3], comps[4], u_tide,
-                                        u_snd, u_tvu, u95, allowed,
-                                    ],
-                                    verdict.within,
-                                ));
-                            }
-                            // A correction file says itself whether its tide was filled; a
-                            // tide from the gauges is told by the states it used.
-                            let gap_filled = match &filled {
-                                Some(d) => {
-                                    detail.push_str(d);
-                                    true
-                                }
-                                None => gap_filled_detail(
-                                    &ctx.loaded.gauges,
-                                    &scratch.states,
-                                    &mut detail,
-                                    &mut labels,
-                                ),
-                            };
-                            if gap_filled {
-                                SoundingStatus::GapFilled
-                            } else {
-                                SoundingStatus::Reduced
-                            }
-                        }
-                        TideOutcome::Outside => {
-                            detail.push_str("position is outside every zone");
-                            // A common mistake: x and y (longitude and latitude) swapped.
-                            if let TideOutcome::Tide { zone: z, .. }
-                            | TideOutcome::NoData { zone: z, .. } = model.tide_at(
-                                &Query {
-                                    x: v.y,
-                                    y: v.x,
-                                    ..q
-                                },
-                                &mut scratch,
-                            ) {
-                                detail.push_str(" (with x and y swapped it would be in zone '");
-                                detail.push_str(ctx.zone_ids[z]);
-                                if ctx.loaded.zoning_looks_swapped {
-                                    // The gauges say the zoning, not the soundings, is swapped.
-                                    detail.push_str("': the zoning file's positions look swapped; GeoJSON positions are [longitude, latitude])");
-                                } else {
-                                    detail.push_str("': check the column mapping, x = longitude or easting, y = latitude or northing)");
-                                }
-                            } else if !ctx.layout.is_lonlat() {
-                                // Degrees given to a projected CRS: read as longitude and
-                                // latitude, the position would lie in a zone.
-                                if let Some(id) = zone_at_lonlat(&ctx.loaded.zoning, v.x, v.y) {
-                                    detail.push_str(" (read as longitude and latitude in degrees it would be in zone '");
-                                    detail.push_str(id);
-                                    detail.push_str(
-                                        "': the values look geographic; is the group's crs right?)",
-                                    );
-                                }
-                            }
-                            SoundingStatus::OutsideZoning
-                        }
-                        TideOutcome::Unbridged {
-                            zone: z,
-                            from_s,
-                            to_s,
-                            step_s,
-                            step_from,
-                        } => {
-                            zone = z;
-                            use std::fmt::Write;
-                            let file = match ctx.kind {
-                                RunKind::Apply(_, path) => path.display().to_string(),
-                                _ => String::new(),
-                            };
-                            let _ = write!(
-                                detail,
-                                "the correction file {} has no row between {} and {} ({} min apart), longer than its step of {} min ({}): the tide is not interpolated across it",
-                                file,
-                                crate::io::timefmt::utc_label(from_s),
-                                crate::io::timefmt::utc_label(to_s),
-                                crate::io::numfmt::round_to((to_s - from_s) / 60.0, 3),
-                                crate::io::numfmt::round_to(step_s / 60.0, 3),
-                                match step_from {
-                                    crate::compute::reduce::StepSource::Sidecar =>
-                                        "stated by its sidecar",
-                                    crate::compute::reduce::StepSource::Series =>
-                                        "the most common interval of its rows; no sidecar states it",
-                                }
-                            );
-                            SoundingStatus::NoGaugeData
-                        }
-                        TideOutcome::NoCorrection {
-                            zone: z,
-                            why,
-                            flagged,
-                        } => {
-                            zone = z;
-                            detail.push_str(why);
-                            if flagged {
-                                SoundingStatus::GaugeFlagged
-                            } else {
-                                SoundingStatus::NoGaugeData
-                            }
-                        }
-                        TideOutcome::NoData { zone: z, why } => {
-                            zone = Some(z);
-                            use std::fmt::Write;
-                            let _ = write!(
-                                detail,
-                                "gauge '{}' has no level at {}: {}",
-                                ctx.gauge_ids[why.gauge],
-                                crate::io::timefmt::utc_label(why.at_s),
-                                why.why
-                            );
-                            let fill = &ctx.loaded.gauges[why.gauge].series.fill;
-                            if let Some(r) = fill.refused_at(why.at_s) {
-                                let _ = write!(detail, "; not gap-filled: {}", r.why);
-                            }
-                            if matches!(why.why, crate::compute::series::NoLevel::Flagged { .. }) {
-                                SoundingStatus::GaugeFlagged
-                            } else {
-                                SoundingStatus::NoGaugeData
-                            }
-                        }
-                    }
+                Ok(v) => Some(v),
+            }
+        };
+        let ev = match &parsed {
+            None => RowEval::bad_input(),
+            Some(v) => {
+                if !v.line_id.is_empty() {
+                    facts.line = v.line_id;
                 }
+                facts.t_s = Some(v.t_s);
+                facts.at = Some((v.x, v.y));
+                o.parsed(v);
+                evaluate(ctx, model, v, &mut w)
             }
         };
         // What a per-sounding correction file carries in its `status_detail`: how a
         // `gap_filled` tide was filled (not the notes about the soundings row, which `apply`
         // makes again from the row).
-        let fill_detail_len = if status == SoundingStatus::GapFilled {
-            detail.len()
+        let fill_detail_len = if ev.status == SoundingStatus::GapFilled {
+            w.detail.len()
         } else {
             0
         };
         if fields.len() > n_cols && ctx.layout.extra_fields_allowed() {
-            if !detail.is_empty() {
-                detail.push_str("; ");
-            }
-            use std::fmt::Write;
-            let _ = write!(
-                detail,
-                "row has {} fields, header {}: extra fields not copied",
-                fields.len(),
-                n_cols
-            );
+            note_extra_fields(&mut w.detail, fields.len(), n_cols);
         }
-        if corrector_rows {
-            write_corrector_row(
+        match columns.as_mut() {
+            Some((input, reduced)) => {
+                push_text_row(input, &ctx.layout, line, &fields, parsed.as_ref());
+                reduced.push(
+                    ev.zone,
+                    ev.tide,
+                    ev.status.index(),
+                    &w.detail,
+                    ev.unc_cols.as_ref(),
+                );
+            }
+            None if corrector_rows => write_corrector_row(
                 &mut o.bytes,
                 ctx,
                 line_no,
                 &fields,
                 line,
-                key,
-                zone,
-                tide,
-                unc_cols,
-                status,
-                &detail[..fill_detail_len],
-            );
-        } else {
-            write_reduced_tail(&mut o.bytes, ctx, zone, tide, status, &detail, unc_cols);
-        }
-        if o.qa.is_some() && ctx.exporting {
-            let failing = unc_cols.is_some_and(|(_, within)| !within);
-            let unreduced = status.index() >= crate::compute::qa::FIRST_UNREDUCED_STATUS;
-            if failing || unreduced {
-                let e = &mut o.exports;
-                e.begin(&ctx.source_name, line_no, row_line, status.as_str());
-                if let Some(t) = row_t {
-                    e.time_prop("time_utc", t);
-                }
-                if let Some(z) = zone {
-                    e.str_prop("zone", ctx.zone_ids[z]);
-                }
-                if let Some((t, d)) = tide {
-                    e.num_prop("tide_m", t, HEIGHT_DECIMALS);
-                    e.num_prop("reduced_depth_m", d, HEIGHT_DECIMALS);
-                }
-                if let (Some((vals, _)), Some((ratio, _))) = (unc_cols, judged) {
-                    e.num_prop("u95_tvu_m", vals[8], UNCERTAINTY_DECIMALS);
-                    e.num_prop("allowed_u95_tvu_m", vals[9], UNCERTAINTY_DECIMALS);
-                    // Rounded up, as the report's ratios are: a failing sounding never reads 1.000.
-                    e.num_prop(
-                        "ratio",
-                        crate::compute::qa::round_up(ratio, crate::compute::qa::RATIO_DECIMALS),
-                        3,
-                    );
-                }
-                if !detail.is_empty() {
-                    e.str_prop("status_detail", &detail);
-                }
-                let kind = if unreduced {
-                    ExportKind::Unreduced
-                } else {
-                    ExportKind::Failing
-                };
-                e.end(
-                    kind,
-                    row_at,
-                    &ctx.loaded.project.spec.soundings[ctx.group].crs,
-                );
+                parsed.as_ref().map(|v| (v.t_s, v.line_id)),
+                &ev,
+                &w.detail[..fill_detail_len],
+            ),
+            None => {
+                write_input_fields(&mut o.bytes, line, &fields, ctx, n_cols);
+                write_reduced_tail(&mut o.bytes, ctx, &ev, &w.detail);
             }
         }
-        if let Some(q) = o.qa.as_mut() {
-            q.add(&QaRow {
-                zone,
-                line: row_line,
-                t_s: row_t,
-                status: status.index(),
-                at: row_at.map(|(x, y)| (ctx.group, x, y, ctx.map_cell)),
-                drying,
-                judged: judged.map(|(ratio, var_m2)| Judged {
-                    within: &within,
-                    ratio,
-                    var_m2,
-                }),
-            });
-        }
-        if let Some(z) = zone {
-            o.per_zone[z][status.index()] += 1;
-        }
-        o.counts[status.index()] += 1;
-        if status != SoundingStatus::Reduced
-            && status != SoundingStatus::GapFilled
-            && o.examples.len() < 4 * EXAMPLES_PER_STATUS
-        {
-            o.examples.push(RowExample {
-                line: line_no,
-                status: status.as_str(),
-                detail: detail.clone(),
-            });
-        }
+        account(&mut o, ctx, line_no, &facts, &ev, &w);
+    }
+    if let (Some((mut input, mut reduced)), Some(schema)) = (columns, &ctx.schema) {
+        let mut arrays = input.finish();
+        arrays.extend(reduced.finish());
+        o.batch = Some(
+            RecordBatch::try_new(Arc::clone(schema), arrays)
+                .expect("the columns are built to the file's schema"),
+        );
     }
     if let Some(q) = o.qa.as_mut() {
         q.set_file(&ctx.source_name);

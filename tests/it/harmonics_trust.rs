@@ -48,7 +48,7 @@ fn constants(names: Option<&[&str]>) -> HarmonicConstants {
         z0_m: 2.5,
         constituents: TRUTH
             .iter()
-            .filter(|(n, _, _)| names.map_or(true, |l| l.contains(n)))
+            .filter(|(n, _, _)| names.is_none_or(|l| l.contains(n)))
             .map(|(n, h, g)| (constituent(n).unwrap(), *h, *g))
             .collect(),
     }
