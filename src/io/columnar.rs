@@ -742,46 +742,77 @@ impl<'b> BatchView<'b> {
 }
 
 /// A record batch's rows as CSV text (for a CSV output of a Parquet input): every value as
-/// Arrow's display writes it (times ISO 8601), a null as an empty field.
+/// Arrow's display writes it, times as ISO 8601 UTC (`2026-06-14T07:30:00.250Z`, to the
+/// millisecond or, when finer, the microsecond), a null as an empty field.
 pub struct RowText<'b> {
-    formatters: Vec<arrow_cast::display::ArrayFormatter<'b>>,
+    columns: Vec<ColumnText<'b>>,
+}
+
+enum ColumnText<'b> {
+    /// A timestamp column: its values and units per second (time zone whatever: an instant).
+    Time(arrow_array::Int64Array, i64),
+    Display(arrow_cast::display::ArrayFormatter<'b>),
 }
 
 impl<'b> RowText<'b> {
-    /// The formatters of `batch`'s columns, or the first column whose type has no text form.
+    /// The text forms of `batch`'s columns, or the first column whose type has none.
     pub fn new(batch: &'b arrow_array::RecordBatch) -> Result<Self, ColumnProblem> {
+        use arrow_array::cast::AsArray;
+        use arrow_array::types::*;
         let opts = arrow_cast::display::FormatOptions::default();
         let schema = batch.schema();
-        let formatters = batch
+        let columns = batch
             .columns()
             .iter()
             .zip(schema.fields())
-            .map(|(c, f)| {
-                arrow_cast::display::ArrayFormatter::try_new(c.as_ref(), &opts).map_err(|e| {
-                    ColumnProblem {
+            .map(|(c, f)| -> Result<ColumnText<'b>, ColumnProblem> {
+                if let DataType::Timestamp(unit, _) = c.data_type() {
+                    let (raw, per_s): (arrow_array::Int64Array, i64) = match unit {
+                        TimeUnit::Second => (c.as_primitive::<TimestampSecondType>().reinterpret_cast(), 1),
+                        TimeUnit::Millisecond => (c.as_primitive::<TimestampMillisecondType>().reinterpret_cast(), 1_000),
+                        TimeUnit::Microsecond => (c.as_primitive::<TimestampMicrosecondType>().reinterpret_cast(), 1_000_000),
+                        TimeUnit::Nanosecond => (c.as_primitive::<TimestampNanosecondType>().reinterpret_cast(), 1_000_000_000),
+                    };
+                    return Ok(ColumnText::Time(raw, per_s));
+                }
+                arrow_cast::display::ArrayFormatter::try_new(c.as_ref(), &opts)
+                    .map(ColumnText::Display)
+                    .map_err(|e| ColumnProblem {
                         column: f.name().clone(),
                         message: format!(
                             "a {} column cannot be written as CSV text ({e}); write Parquet (--format parquet)",
                             f.data_type()
                         ),
-                    }
-                })
+                    })
             })
             .collect::<Result<Vec<_>, _>>()?;
-        Ok(RowText { formatters })
+        Ok(RowText { columns })
     }
 
     /// Appends row `r`'s fields, comma-separated and quoted where needed.
     pub fn push_row(&self, out: &mut Vec<u8>, r: usize) {
+        use arrow_array::Array;
         use std::fmt::Write;
         let mut s = String::new();
-        for (i, f) in self.formatters.iter().enumerate() {
+        for (i, c) in self.columns.iter().enumerate() {
             if i > 0 {
                 out.push(b',');
             }
-            s.clear();
-            let _ = write!(s, "{}", f.value(r));
-            crate::io::soundings::push_csv_field(out, &s);
+            match c {
+                ColumnText::Time(a, per_s) => {
+                    if !a.is_null(r) {
+                        let v = a.value(r);
+                        let t_s = v.div_euclid(*per_s) as f64
+                            + v.rem_euclid(*per_s) as f64 / *per_s as f64;
+                        crate::io::timefmt::push_utc_bytes(out, t_s);
+                    }
+                }
+                ColumnText::Display(f) => {
+                    s.clear();
+                    let _ = write!(s, "{}", f.value(r));
+                    crate::io::soundings::push_csv_field(out, &s);
+                }
+            }
         }
     }
 }

@@ -19,6 +19,7 @@ mod layers;
 mod one_bad_row;
 mod output_table;
 mod outputs;
+mod parquet;
 mod properties;
 mod provenance;
 mod qa_report;
