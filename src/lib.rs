@@ -10,6 +10,9 @@
 //!   data in, plain data out; no files, no printing.
 //! * [`io`] — readers and writers: project file, gauge records, zonings, soundings, times, CRSs.
 //! * [`run`] — one function per command, joining the two (used by the CLI in `src/main.rs`).
+//! * [`pipeline`] — the reduction for processing pipelines: a project loaded once, Arrow record
+//!   batches in and out, and the tide at one point. **This is the library's stable surface**;
+//!   the other modules are the program's internals and may change between releases.
 //!
 //! Conventions: heights positive up, depths positive down, metres, UTC. Names carry units
 //! (`_m`, `_min`, `_s`) and uncertainty level (`u_` standard, `u95_` 95 %).
@@ -22,6 +25,7 @@
 
 pub mod compute;
 pub mod io;
+pub mod pipeline;
 pub mod run;
 
 /// Exit status: everything worked and every sounding was reduced / no check failed.

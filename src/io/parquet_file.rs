@@ -25,8 +25,8 @@ use rayon::prelude::*;
 use super::atomic::AtomicFile;
 use super::error::IoError;
 
-/// Rows per row group of the files ebbwise writes.
-pub const ROW_GROUP_ROWS: usize = 64 * 1024;
+/// Rows per row group of the files ebbwise writes (a few MiB of encoded columns held at once).
+pub const ROW_GROUP_ROWS: usize = 32 * 1024;
 
 /// The key of the provenance in a file's key-value metadata (a JSON object).
 pub const PROVENANCE_KEY: &str = "ebbwise.provenance";
@@ -187,7 +187,7 @@ impl ParquetOut {
 }
 
 /// Rows per record batch read from a Parquet soundings file (one worker's share).
-pub const READ_BATCH_ROWS: usize = 8 * 1024;
+pub const READ_BATCH_ROWS: usize = 4 * 1024;
 
 /// Whether `path` names a Parquet file: by its extension (`.parquet`, `.parq`, `.pq`).
 pub fn is_parquet(path: &Path) -> bool {

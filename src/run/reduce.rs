@@ -327,6 +327,8 @@ struct FileCtx<'a> {
     /// The input's own columns (a Parquet layout names two more when x and y come from a
     /// geometry).
     input_columns: usize,
+    /// Whether the QA counts are kept (a file's run with uncertainty; not a pipeline's batch).
+    qa: bool,
 }
 
 impl FileCtx<'_> {
@@ -560,6 +562,89 @@ pub fn run_outputs(
     out
 }
 
+/// Each soundings group's zone locator (in its CRS) and, under a continuous tide, the field's
+/// plane there.
+pub(crate) struct GroupPlanes {
+    pub(crate) locators: Vec<crate::compute::locate::ZoneLocator>,
+    pub(crate) planes: Vec<crate::compute::continuous::PlaneField>,
+}
+
+impl GroupPlanes {
+    /// Built for every group of `loaded`; the planes only when `with_field` (a reduction or
+    /// per-sounding correctors, not an apply run) and the project has a continuous tide.
+    pub(crate) fn of(loaded: &Loaded, with_field: bool) -> Result<Self, IoError> {
+        let at =
+            |gi: usize| Position::file(&loaded.project.path).field(format!("soundings[{gi}].crs"));
+        let mut locators = Vec::new();
+        for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
+            let loc = locator_for_crs(&loaded.zoning, &group.crs)
+                .map_err(|m| IoError::content(at(gi), m))?;
+            locators.push(loc);
+        }
+        let mut planes = Vec::new();
+        if let (Some(f), true) = (&loaded.field, with_field) {
+            for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
+                let pf = crate::run::fields::plane_field(&f.stations, &group.crs)
+                    .map_err(|e| IoError::content(at(gi), e.to_string()))?;
+                planes.push(pf);
+            }
+        }
+        Ok(GroupPlanes { locators, planes })
+    }
+}
+
+/// The tide model of a reduction of group `gi`'s soundings: the zoning, or the continuous field
+/// (`[tide_field]`).
+pub(crate) enum ReductionModel<'a> {
+    Zoning(DiscreteZoning<'a>),
+    Field(crate::compute::continuous::ContinuousTide<'a>),
+}
+
+impl TideModel for ReductionModel<'_> {
+    fn tide_at(&self, q: &Query, s: &mut Scratch) -> TideOutcome {
+        match self {
+            ReductionModel::Zoning(z) => z.tide_at(q, s),
+            ReductionModel::Field(f) => f.tide_at(q, s),
+        }
+    }
+}
+
+/// The reduction's tide model for group `gi`, on its locator (and plane).
+pub(crate) fn reduction_model<'a>(
+    loaded: &'a Loaded,
+    gi: usize,
+    locators: &'a [crate::compute::locate::ZoneLocator],
+    planes: &'a [crate::compute::continuous::PlaneField],
+) -> ReductionModel<'a> {
+    let renormalise =
+        loaded.project.spec.gap_fill.enabled && loaded.project.spec.gap_fill.renormalise_feeds;
+    match &loaded.field {
+        None => ReductionModel::Zoning(DiscreteZoning {
+            zones: &loaded.zones,
+            gauges: &loaded.gauges,
+            locator: &locators[gi],
+            interp: loaded.interp.as_ref(),
+            renormalise,
+            unc: loaded.uncertainty.as_ref().map(|u| u.gauge_tide_u()),
+        }),
+        Some(f) => ReductionModel::Field(crate::compute::continuous::ContinuousTide {
+            setup: &f.setup,
+            plane: &planes[gi],
+            gauges: &loaded.gauges,
+            locator: &locators[gi],
+            interp: loaded.interp.as_ref(),
+            renormalise,
+            unc: loaded
+                .uncertainty
+                .as_ref()
+                .map(|u| crate::compute::continuous::ContinuousU {
+                    gauge_u: &u.gauge_u,
+                    rates: &u.gauge_rates,
+                }),
+        }),
+    }
+}
+
 /// Reduces every soundings file of a loaded project.
 pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummary, IoError> {
     if let Some(only) = &opts.only_files {
@@ -611,29 +696,10 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
             jobs.push((gi, group, f, out));
         }
     }
-    let mut locators = Vec::new();
-    for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
-        let loc = locator_for_crs(&loaded.zoning, &group.crs).map_err(|m| {
-            IoError::content(
-                Position::file(&loaded.project.path).field(format!("soundings[{gi}].crs")),
-                m,
-            )
-        })?;
-        locators.push(loc);
-    }
-    // The continuous tide in each group's plane (reduce and per-sounding correctors only).
-    let mut planes = Vec::new();
-    if let (Some(f), RunKind::Reduce | RunKind::SoundingCorrectors) = (&loaded.field, opts.kind) {
-        for (gi, group) in loaded.project.spec.soundings.iter().enumerate() {
-            let pf = crate::run::fields::plane_field(&f.stations, &group.crs).map_err(|e| {
-                IoError::content(
-                    Position::file(&loaded.project.path).field(format!("soundings[{gi}].crs")),
-                    e.to_string(),
-                )
-            })?;
-            planes.push(pf);
-        }
-    }
+    let GroupPlanes { locators, planes } = GroupPlanes::of(
+        loaded,
+        matches!(opts.kind, RunKind::Reduce | RunKind::SoundingCorrectors),
+    )?;
     let total_bytes: u64 = jobs
         .iter()
         .map(|(_, _, f, _)| std::fs::metadata(f).map(|m| m.len()).unwrap_or(0))
@@ -680,39 +746,14 @@ pub fn reduce_project(loaded: &Loaded, opts: &ReduceOptions) -> Result<RunSummar
             } else {
                 None
             };
-            let zoning = DiscreteZoning {
-                zones: &loaded.zones,
-                gauges: &loaded.gauges,
-                locator: &locators[*gi],
-                interp: loaded.interp.as_ref(),
-                renormalise: loaded.project.spec.gap_fill.enabled
-                    && loaded.project.spec.gap_fill.renormalise_feeds,
-                unc: loaded.uncertainty.as_ref().map(|u| u.gauge_tide_u()),
-            };
             let series_model;
             let located;
-            let continuous;
+            let reduction;
             let model: &dyn TideModel = match opts.kind {
-                RunKind::Reduce | RunKind::SoundingCorrectors => match &loaded.field {
-                    None => &zoning,
-                    Some(f) => {
-                        continuous = crate::compute::continuous::ContinuousTide {
-                            setup: &f.setup,
-                            plane: &planes[*gi],
-                            gauges: &loaded.gauges,
-                            locator: &locators[*gi],
-                            interp: loaded.interp.as_ref(),
-                            renormalise: zoning.renormalise,
-                            unc: loaded.uncertainty.as_ref().map(|u| {
-                                crate::compute::continuous::ContinuousU {
-                                    gauge_u: &u.gauge_u,
-                                    rates: &u.gauge_rates,
-                                }
-                            }),
-                        };
-                        &continuous
-                    }
-                },
+                RunKind::Reduce | RunKind::SoundingCorrectors => {
+                    reduction = reduction_model(loaded, *gi, &locators, &planes);
+                    &reduction
+                }
                 RunKind::Apply(ApplyModel::Zones(series, step_s, step_from), _) => {
                     series_model = crate::compute::correctors::ZoneSeriesModel {
                         locator: &locators[*gi],
@@ -1028,6 +1069,7 @@ fn reduce_file(
         schema: None,
         geometry: None,
         input_columns: 0,
+        qa: true,
     };
     if crate::io::parquet_file::is_parquet(input) {
         if matches!(kind, RunKind::SoundingCorrectors) {
@@ -2005,7 +2047,11 @@ impl ChunkOut {
             t_max: f64::NEG_INFINITY,
             ..Default::default()
         };
-        if let (Some(u), false) = (ctx.unc, matches!(ctx.kind, RunKind::SoundingCorrectors)) {
+        if let (Some(u), false, true) = (
+            ctx.unc,
+            matches!(ctx.kind, RunKind::SoundingCorrectors),
+            ctx.qa,
+        ) {
             o.qa = Some(QaAccumulator::new(
                 u.orders.len(),
                 u.chosen,
@@ -2191,4 +2237,169 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel, bytes: Vec
         q.set_file(&ctx.source_name);
     }
     o
+}
+
+/// What a pipeline's reduction needs of a loaded project for one soundings group, made once:
+/// the group's planes, its map cell width and the layout of a single point.
+pub(crate) struct BatchSetup {
+    pub(crate) group: usize,
+    pub(crate) planes: GroupPlanes,
+    point_layout: SoundingLayout,
+}
+
+impl BatchSetup {
+    /// For soundings group `group` of `loaded`.
+    pub(crate) fn new(loaded: &Loaded, group: usize) -> Result<Self, IoError> {
+        let planes = GroupPlanes::of(loaded, true)?;
+        let mut spec = loaded.project.spec.soundings[group].clone();
+        spec.columns = crate::io::project::ColumnMap {
+            time: "time".into(),
+            x: "x".into(),
+            y: "y".into(),
+            depth: "depth".into(),
+            line: None,
+            u_depth: None,
+        };
+        spec.depth_sign = crate::io::project::DepthSign::PositiveDown;
+        let point_layout = SoundingLayout::from_names(
+            &spec,
+            ["time", "x", "y", "depth"].map(String::from).to_vec(),
+            None,
+            &loaded.project.path,
+        )?;
+        Ok(BatchSetup {
+            group,
+            planes,
+            point_layout,
+        })
+    }
+
+    fn ctx<'a>(&self, loaded: &'a Loaded, layout: SoundingLayout) -> FileCtx<'a> {
+        let input_columns = layout.column_names.len();
+        FileCtx {
+            kind: RunKind::Reduce,
+            source_name: String::from("(record batch)"),
+            unc: loaded.uncertainty.as_ref(),
+            no_line: String::from("(no line)"),
+            layout,
+            zone_ids: loaded.zones.iter().map(|z| z.id.as_str()).collect(),
+            gauge_ids: loaded.gauges.iter().map(|g| g.id.as_str()).collect(),
+            loaded,
+            group: self.group,
+            map_cell: 1.0,
+            exporting: false,
+            lonlat: crate::io::crs::is_wgs84_lonlat(&loaded.project.spec.soundings[self.group].crs),
+            columnar: true,
+            schema: None,
+            geometry: None,
+            input_columns,
+            qa: false,
+        }
+    }
+
+    /// Reduces one record batch of the group's soundings: the batch's columns followed by the
+    /// reduction's (as a Parquet output's), and the rows per status.
+    pub(crate) fn reduce(
+        &self,
+        loaded: &Loaded,
+        batch: &RecordBatch,
+    ) -> Result<(RecordBatch, StatusCounts), IoError> {
+        let at = Path::new("(record batch)");
+        let names: Vec<String> = batch
+            .schema()
+            .fields()
+            .iter()
+            .map(|f| f.name().clone())
+            .collect();
+        let group = &loaded.project.spec.soundings[self.group];
+        let layout = SoundingLayout::from_names(group, names, loaded.project.naive_offset, at)?;
+        crate::io::columnar::BatchView::new(
+            batch,
+            &layout.mapped_columns(),
+            &layout.column_names,
+            None,
+            layout
+                .naive_offset()
+                .map(|o| -f64::from(o.local_minus_utc())),
+            layout.time_is_unix_s(),
+        )
+        .map_err(|p| IoError::content(Position::file(at).field(p.column), p.message))?;
+        let mut ctx = self.ctx(loaded, layout);
+        let mut fields: Vec<arrow_schema::Field> = batch
+            .schema()
+            .fields()
+            .iter()
+            .map(|f| f.as_ref().clone())
+            .collect();
+        fields.extend(ctx.reduced_columns(0).fields());
+        ctx.schema = Some(Arc::new(arrow_schema::Schema::new(fields)));
+        let model = reduction_model(
+            loaded,
+            self.group,
+            &self.planes.locators,
+            &self.planes.planes,
+        );
+        let o = process_batch(
+            &RowBatch {
+                first_row: 1,
+                batch: batch.clone(),
+                bytes: 0,
+            },
+            &ctx,
+            &model,
+            Vec::new(),
+        );
+        let out = o.batch.expect("a columnar batch gives a record batch");
+        Ok((out, StatusCounts(o.counts)))
+    }
+
+    /// The tide at one point and time (x, y in the group's CRS; UTC seconds): the reduction of
+    /// a sounding of depth 0 there.
+    pub(crate) fn point(&self, loaded: &Loaded, x: f64, y: f64, t_s: f64) -> PointOutcome {
+        let ctx = self.ctx(loaded, self.point_layout.clone());
+        let model = reduction_model(
+            loaded,
+            self.group,
+            &self.planes.locators,
+            &self.planes.planes,
+        );
+        let mut w = RowWork::default();
+        let raw = crate::io::soundings::RawValues {
+            t_s,
+            x,
+            y,
+            depth: 0.0,
+            line_id: "",
+            u_depth: Some(0.0),
+        };
+        let layout = &self.point_layout;
+        let ev = match layout.check(raw, |i| match i {
+            0 => t_s.to_string(),
+            1 => x.to_string(),
+            2 => y.to_string(),
+            _ => String::new(),
+        }) {
+            Ok(v) => evaluate(&ctx, &model, &v, &mut w),
+            Err(p) => {
+                w.detail = format!("'{}': {}", p.field, p.message);
+                RowEval::bad_input()
+            }
+        };
+        PointOutcome {
+            status: ev.status,
+            zone: ev.zone.map(|z| loaded.zones[z].id.clone()),
+            tide_m: ev.tide.map(|(t, _)| t),
+            u_tide_m: ev.unc_cols.map(|(v, _)| v[5]),
+            detail: w.detail,
+        }
+    }
+}
+
+/// What [`BatchSetup::point`] found.
+pub(crate) struct PointOutcome {
+    pub(crate) status: SoundingStatus,
+    pub(crate) zone: Option<String>,
+    pub(crate) tide_m: Option<f64>,
+    pub(crate) u_tide_m: Option<f64>,
+    pub(crate) detail: String,
 }

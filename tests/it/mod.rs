@@ -20,6 +20,7 @@ mod one_bad_row;
 mod output_table;
 mod outputs;
 mod parquet;
+mod pipeline;
 mod properties;
 mod provenance;
 mod qa_report;

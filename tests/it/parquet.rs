@@ -436,7 +436,9 @@ fn nulls_in_a_parquet_file_are_bad_input_rows_and_a_wrong_crs_or_type_stops_the_
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
     let err = stderr(&o);
     assert!(
-        err.contains("text.parquet") && err.contains("field 'easting'") && err.contains("a number column"),
+        err.contains("text.parquet")
+            && err.contains("field 'easting'")
+            && err.contains("a number column"),
         "{err}"
     );
 }
