@@ -72,7 +72,7 @@ const EBBWISE_PEAK_RSS_TARGET_MIB: f64 = 50.0;
 
 const USAGE: &str = "usage: cargo bench --bench reduce_throughput \
     [-- [--soundings N] [--runs K] [--wait-idle SECONDS] [--retries R] \
-    [--demo-project FILE.toml] [--uncertainty]]";
+    [--demo-project FILE.toml] [--uncertainty] [--format csv|parquet] [--no-exports]]";
 
 fn main() -> ExitCode {
     let args: Vec<String> = std::env::args().skip(1).collect();
@@ -96,6 +96,8 @@ fn main() -> ExitCode {
     let mut variant = Variant {
         demo_project: "project.toml".into(),
         uncertainty: false,
+        format: "csv".into(),
+        no_exports: false,
     };
     let mut it = args.iter();
     while let Some(a) = it.next() {
@@ -123,6 +125,11 @@ fn main() -> ExitCode {
                 _ => return usage_error("--demo-project needs a project file name in zoning-demo/ (e.g. continuous.toml)"),
             },
             "--uncertainty" => variant.uncertainty = true,
+            "--no-exports" => variant.no_exports = true,
+            "--format" => match it.next().map(String::as_str) {
+                Some(f @ ("csv" | "parquet")) => variant.format = f.to_string(),
+                _ => return usage_error("--format needs csv or parquet"),
+            },
             "-h" | "--help" => {
                 println!("{USAGE}");
                 return ExitCode::SUCCESS;
@@ -140,6 +147,10 @@ struct Variant {
     demo_project: String,
     /// Keep `[uncertainty]` (the budget columns and the QA report).
     uncertainty: bool,
+    /// ebbwise's output format: `csv` or `parquet` (`--format`).
+    format: String,
+    /// `[output] geojson_exports = false`.
+    no_exports: bool,
 }
 
 impl Variant {
@@ -152,6 +163,9 @@ impl Variant {
         }
         if self.uncertainty {
             s.push_str("-u");
+        }
+        if self.no_exports {
+            s.push_str("-noexp");
         }
         s
     }
@@ -439,6 +453,9 @@ fn write_project(
     );
     let mut output = toml::Table::new();
     output.insert("dir".into(), toml::Value::String("out".into()));
+    if variant.no_exports {
+        output.insert("geojson_exports".into(), toml::Value::Boolean(false));
+    }
     doc.insert("output".into(), toml::Value::Table(output));
     let body = toml::to_string(&doc).map_err(|e| format!("cannot write the project: {e}"))?;
     let text = format!(
@@ -571,6 +588,15 @@ fn run_measured(cmd: &mut Command, log: &Path) -> Result<Measured, String> {
 }
 
 /// Lines in a file: line ends, plus one for a last line without an end.
+/// Rows of a Parquet file, from its footer.
+fn parquet_rows(path: &Path) -> Result<u64, String> {
+    use parquet::file::reader::FileReader;
+    let f = fs::File::open(path).map_err(|e| format!("{}: {e}", path.display()))?;
+    let r = parquet::file::reader::SerializedFileReader::new(f)
+        .map_err(|e| format!("{}: {e}", path.display()))?;
+    Ok(r.metadata().file_metadata().num_rows().max(0) as u64)
+}
+
 fn count_lines(path: &Path) -> Result<u64, String> {
     let mut f = File::open(path).map_err(|e| format!("{}: {e}", path.display()))?;
     let mut buf = vec![0u8; IO_BUFFER_BYTES];
@@ -752,13 +778,16 @@ fn run_ebbwise_once(
     ebbwise_csv: &Path,
     ebbwise_log: &Path,
     n: u64,
+    format: &str,
 ) -> Result<(Measured, f64, String), String> {
     let mut cmd = Command::new(ebbwise);
     cmd.arg("reduce")
         .arg(project)
         .arg("--out")
         .arg(ebbwise_out)
-        .arg("--no-progress");
+        .arg("--no-progress")
+        .arg("--format")
+        .arg(format);
     let r = run_measured(&mut cmd, ebbwise_log)?;
     // 0: all reduced; 1: some rows not reduced (expected: the demo's gauge gap and the
     // overshooting line); anything else means ebbwise could not run.
@@ -770,8 +799,13 @@ fn run_ebbwise_once(
             tail(ebbwise_log, 30)
         ));
     }
-    let lines = count_lines(ebbwise_csv)
-        .map_err(|e| format!("ebbwise's output is missing or unreadable: {e}"))?;
+    // A Parquet output has no header line: its footer's row count, plus one, stands for it.
+    let lines = if format == "parquet" {
+        parquet_rows(ebbwise_csv)? + 1
+    } else {
+        count_lines(ebbwise_csv)
+            .map_err(|e| format!("ebbwise's output is missing or unreadable: {e}"))?
+    };
     if lines != n + 1 {
         return Err(format!(
             "ebbwise wrote {lines} lines to {}, expected {} (header + one per sounding)",
@@ -839,7 +873,7 @@ fn bench(
     let ebbwise_out = dir.join("out-ebbwise");
     let ebbwise_csv = ebbwise_out.join(
         csv.file_stem()
-            .map(|s| format!("{}.reduced.csv", s.to_string_lossy()))
+            .map(|s| format!("{}.reduced.{}", s.to_string_lossy(), variant.format))
             .unwrap_or_default(),
     );
     let base_out = dir.join("out-baseline.csv");
@@ -925,6 +959,7 @@ fn bench(
                         &ebbwise_csv,
                         &ebbwise_log,
                         n,
+                        &variant.format,
                     )?;
                     out_mib.1 = size_mib;
                     statuses = st;
@@ -1051,9 +1086,15 @@ fn bench(
             if r.disturbed() { " (disturbed)" } else { "" },
         ));
     }
-    let md_path = paths
-        .data_root
-        .join(format!("results-n{n}{}.md", variant.suffix()));
+    let md_path = paths.data_root.join(format!(
+        "results-n{n}{}{}.md",
+        variant.suffix(),
+        if variant.format == "parquet" {
+            "-parquet"
+        } else {
+            ""
+        }
+    ));
     fs::write(&md_path, &md).map_err(|e| format!("{}: {e}", md_path.display()))?;
     println!();
     println!("{md}");
