@@ -179,6 +179,17 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
             }
         };
         for path in &group.files {
+            if crate::io::parquet_file::is_parquet(path) {
+                check_parquet(
+                    &mut report,
+                    group,
+                    project.naive_offset,
+                    path,
+                    locator.as_ref(),
+                    &mut t_range,
+                );
+                continue;
+            }
             let file = match File::open(path) {
                 Ok(f) => f,
                 Err(e) => {
@@ -324,6 +335,101 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
     }
     finish(&mut report);
     report
+}
+
+/// Checks a Parquet soundings file as a CSV one is: its mapping and column types, every row
+/// (the first unreadable ones listed), its time span and the rows outside every zone.
+fn check_parquet(
+    report: &mut CheckReport,
+    group: &crate::io::project::SoundingsSpec,
+    naive_offset: Option<chrono::FixedOffset>,
+    path: &std::path::Path,
+    locator: Option<&crate::compute::locate::ZoneLocator>,
+    t_range: &mut Option<(f64, f64)>,
+) {
+    use crate::io::parquet_file::{ParquetSoundings, READ_BATCH_ROWS};
+    let opened = ParquetSoundings::open(path, READ_BATCH_ROWS).and_then(|src| {
+        let (layout, geometry) =
+            crate::run::reduce::parquet_layout(group, &src, naive_offset, path)?;
+        Ok((src, layout, geometry))
+    });
+    let (mut src, layout, geometry) = match opened {
+        Ok(x) => x,
+        Err(e) => {
+            report.findings.push(e.into());
+            return;
+        }
+    };
+    let m = layout.mapped_columns();
+    let naive_s = naive_offset.map(|o| -f64::from(o.local_minus_utc()));
+    let (mut problems, mut outside, mut first_outside, mut row) = (0usize, 0u64, None, 0u64);
+    loop {
+        let batch = match src.next_batch() {
+            Ok(Some(b)) => b,
+            Ok(None) => break,
+            Err(e) => {
+                report.findings.push(e.into());
+                break;
+            }
+        };
+        let view = match crate::io::columnar::BatchView::new(
+            &batch,
+            &m,
+            &layout.column_names,
+            geometry,
+            naive_s,
+            layout.time_is_unix_s(),
+        ) {
+            Ok(v) => v,
+            Err(p) => {
+                report.findings.push(Finding::error(
+                    Position::file(path).field(p.column),
+                    p.message,
+                ));
+                break;
+            }
+        };
+        for r in 0..batch.num_rows() {
+            row += 1;
+            report.sounding_rows += 1;
+            match view
+                .row(r, &m, &layout)
+                .and_then(|raw| layout.check(raw, |i| view.written(i, r)))
+            {
+                Err(p) => {
+                    problems += 1;
+                    if problems <= ROW_PROBLEMS_LISTED {
+                        report.findings.push(Finding::error(
+                            Position::file(path).line(row).field(p.field),
+                            p.message,
+                        ));
+                    }
+                }
+                Ok(v) => {
+                    *t_range = Some(match *t_range {
+                        None => (v.t_s, v.t_s),
+                        Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
+                    });
+                    if locator.is_some_and(|l| l.locate(v.x, v.y).is_none()) {
+                        outside += 1;
+                        first_outside.get_or_insert(row);
+                    }
+                }
+            }
+        }
+    }
+    if problems > ROW_PROBLEMS_LISTED {
+        report.findings.push(Finding::error(
+            Position::file(path),
+            format!("{} more unreadable rows", problems - ROW_PROBLEMS_LISTED),
+        ));
+    }
+    if outside > 0 {
+        report.findings.push(Finding::warning(
+            Position::file(path).line(first_outside.unwrap_or(0)),
+            format!("{outside} sounding(s) lie outside every zone (first on this row)"),
+        ));
+    }
 }
 
 fn uncovered_area_m2(

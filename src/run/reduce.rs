@@ -978,7 +978,7 @@ impl RowSource for ParquetSource {
 /// column x and y are read from: when the file has one and the group's `x` and `y` name no
 /// column of the file, two names `<geometry>.x` and `<geometry>.y` follow the file's own, and
 /// the returned mapping points x and y at them.
-fn parquet_layout(
+pub(crate) fn parquet_layout(
     group: &SoundingsSpec,
     src: &crate::io::parquet_file::ParquetSoundings,
     naive_offset: Option<chrono::FixedOffset>,

@@ -382,6 +382,17 @@ fn nulls_in_a_parquet_file_are_bad_input_rows_and_a_wrong_crs_or_type_stops_the_
     }
     let (_, demo_rows) = read_csv(&demo_csv);
     assert_eq!(rows.len(), demo_rows.len(), "no row dropped");
+    // `ebbwise check` reads the Parquet file too, naming the 1-based row and the column.
+    let c = ebbwise(&["check", project.to_str().unwrap()]);
+    let err = stderr(&c);
+    for row in [5, 10] {
+        let want = format!("launch-a.parquet:{row}: field 'depth_m': missing (null)");
+        assert!(err.contains(&want), "{want} not in:\n{err}");
+    }
+    assert!(
+        err.contains(&format!("{} sounding rows read", 99_890)),
+        "{err}"
+    );
     // GeoParquet points in another CRS than the group's: refused, naming both.
     let geo = dir.path().join("geo.parquet");
     launch_a_as_parquet(&demo_csv, &geo, Some(32629), &[]);
