@@ -22,5 +22,7 @@ def reduce_table(reducer, table):
 
     batches = [reducer.reduce(b) for b in table.to_batches()]
     if not batches:
-        raise ValueError("the table has no rows to reduce")
+        # No rows (an empty row group): the reduced table's columns, no rows.
+        empty = pa.RecordBatch.from_pylist([], schema=table.schema)
+        batches = [reducer.reduce(empty)]
     return pa.Table.from_batches(batches)

@@ -18,6 +18,7 @@ local regulations and licensed practice take precedence.
 import argparse
 import glob
 import os
+import uuid
 
 import pyarrow.parquet as pq
 
@@ -53,9 +54,15 @@ def reduce_partition(project, group, path, row_group, out_dir):
     table = pq.ParquetFile(path).read_row_group(row_group)
     reduced = ebbwise.reduce_table(reducer, table)
     final = os.path.join(out_dir, partition_name(path, row_group))
-    temp = os.path.join(out_dir, "." + os.path.basename(final) + ".partial")
-    pq.write_table(reduced, temp)
-    os.replace(temp, final)
+    # A name of its own per attempt (a retried or speculative task may run twice at once); an
+    # attempt that fails removes its temporary file.
+    temp = os.path.join(out_dir, f".{os.path.basename(final)}.{uuid.uuid4().hex}.partial")
+    try:
+        pq.write_table(reduced, temp)
+        os.replace(temp, final)
+    finally:
+        if os.path.exists(temp):
+            os.remove(temp)
     statuses = {}
     for s in reduced.column("status").to_pylist():
         statuses[s] = statuses.get(s, 0) + 1

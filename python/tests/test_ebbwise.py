@@ -91,6 +91,10 @@ class BindingsTest(unittest.TestCase):
             self.assertEqual(reducer.order, "special")
             got = ebbwise.reduce_table(reducer, pq.read_table(src))
             assert_same_rows(self, got, want, "bindings")
+            # An empty row group reduces to an empty table of the reduced columns.
+            empty = ebbwise.reduce_table(reducer, pq.read_table(src).slice(0, 0))
+            self.assertEqual(empty.num_rows, 0)
+            self.assertEqual(empty.schema.names, want.schema.names)
             # The input's columns come back as the same buffers: not copied.
             batch = table.to_batches(max_chunksize=1000)[0]
             out = reducer.reduce(batch)

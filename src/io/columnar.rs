@@ -455,6 +455,25 @@ enum Coord {
     Point(arrow_array::ArrayRef, bool),
 }
 
+/// Row `r` of a WKB column (binary or large binary), when not null.
+fn wkb_at(g: &arrow_array::ArrayRef, r: usize) -> Option<&[u8]> {
+    use arrow_array::Array;
+    if g.is_null(r) {
+        return None;
+    }
+    match g.data_type() {
+        DataType::Binary => g
+            .as_any()
+            .downcast_ref::<arrow_array::BinaryArray>()
+            .map(|b| b.value(r)),
+        DataType::LargeBinary => g
+            .as_any()
+            .downcast_ref::<arrow_array::LargeBinaryArray>()
+            .map(|b| b.value(r)),
+        _ => None,
+    }
+}
+
 /// Why a batch's column cannot be read as its mapping says: the column and what is wrong.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ColumnProblem {
@@ -639,18 +658,7 @@ impl<'b> BatchView<'b> {
                     if g.is_null(r) {
                         return Err(missing(i));
                     }
-                    let bytes: &[u8] = match g.data_type() {
-                        DataType::Binary => g
-                            .as_any()
-                            .downcast_ref::<arrow_array::BinaryArray>()
-                            .map(|b| b.value(r)),
-                        DataType::LargeBinary => g
-                            .as_any()
-                            .downcast_ref::<arrow_array::LargeBinaryArray>()
-                            .map(|b| b.value(r)),
-                        _ => None,
-                    }
-                    .unwrap_or(&[]);
+                    let bytes: &[u8] = wkb_at(g, r).unwrap_or(&[]);
                     let (x, y) =
                         crate::io::parquet_file::wkb_point(bytes).ok_or_else(|| RowProblem {
                             field: self.names[i].clone(),
@@ -689,10 +697,22 @@ impl<'b> BatchView<'b> {
         })
     }
 
-    /// Column `i`'s value in row `r` as text, for a message.
+    /// Column `i`'s value in row `r` as text, for a message (for x or y read from a geometry,
+    /// the point's coordinate).
     pub fn written(&self, i: usize, r: usize) -> String {
         if i >= self.batch.num_columns() {
-            return String::new();
+            let c = if i == self.batch.num_columns() {
+                &self.x
+            } else {
+                &self.y
+            };
+            return match c {
+                Coord::Point(g, is_y) => wkb_at(g, r)
+                    .and_then(crate::io::parquet_file::wkb_point)
+                    .map(|(x, y)| if *is_y { y } else { x }.to_string())
+                    .unwrap_or_default(),
+                Coord::Value(_) => String::new(),
+            };
         }
         let opts = arrow_cast::display::FormatOptions::default();
         arrow_cast::display::ArrayFormatter::try_new(self.batch.column(i).as_ref(), &opts)
@@ -723,11 +743,7 @@ impl<'b> BatchView<'b> {
             let v = match c {
                 Coord::Value(a) => (!a.is_null(r)).then(|| a.value(r))?,
                 Coord::Point(g, is_y) => {
-                    let b = g.as_any().downcast_ref::<arrow_array::BinaryArray>()?;
-                    if b.is_null(r) {
-                        return None;
-                    }
-                    let (x, y) = crate::io::parquet_file::wkb_point(b.value(r))?;
+                    let (x, y) = crate::io::parquet_file::wkb_point(wkb_at(g, r)?)?;
                     if *is_y {
                         y
                     } else {
@@ -749,8 +765,9 @@ pub struct RowText<'b> {
 }
 
 enum ColumnText<'b> {
-    /// A timestamp column: its values and units per second (time zone whatever: an instant).
-    Time(arrow_array::Int64Array, i64),
+    /// A timestamp column: its values, units per second, and whether it has a time zone (an
+    /// instant, written in UTC with `Z`) or not (a naive time, written as it is, without `Z`).
+    Time(arrow_array::Int64Array, i64, bool),
     Display(arrow_cast::display::ArrayFormatter<'b>),
 }
 
@@ -766,14 +783,14 @@ impl<'b> RowText<'b> {
             .iter()
             .zip(schema.fields())
             .map(|(c, f)| -> Result<ColumnText<'b>, ColumnProblem> {
-                if let DataType::Timestamp(unit, _) = c.data_type() {
+                if let DataType::Timestamp(unit, tz) = c.data_type() {
                     let (raw, per_s): (arrow_array::Int64Array, i64) = match unit {
                         TimeUnit::Second => (c.as_primitive::<TimestampSecondType>().reinterpret_cast(), 1),
                         TimeUnit::Millisecond => (c.as_primitive::<TimestampMillisecondType>().reinterpret_cast(), 1_000),
                         TimeUnit::Microsecond => (c.as_primitive::<TimestampMicrosecondType>().reinterpret_cast(), 1_000_000),
                         TimeUnit::Nanosecond => (c.as_primitive::<TimestampNanosecondType>().reinterpret_cast(), 1_000_000_000),
                     };
-                    return Ok(ColumnText::Time(raw, per_s));
+                    return Ok(ColumnText::Time(raw, per_s, tz.is_some()));
                 }
                 arrow_cast::display::ArrayFormatter::try_new(c.as_ref(), &opts)
                     .map(ColumnText::Display)
@@ -799,12 +816,15 @@ impl<'b> RowText<'b> {
                 out.push(b',');
             }
             match c {
-                ColumnText::Time(a, per_s) => {
+                ColumnText::Time(a, per_s, zoned) => {
                     if !a.is_null(r) {
                         let v = a.value(r);
                         let t_s = v.div_euclid(*per_s) as f64
                             + v.rem_euclid(*per_s) as f64 / *per_s as f64;
                         crate::io::timefmt::push_utc_bytes(out, t_s);
+                        if !*zoned && out.last() == Some(&b'Z') {
+                            out.pop();
+                        }
                     }
                 }
                 ColumnText::Display(f) => {

@@ -1012,6 +1012,39 @@ pub(crate) fn parquet_layout(
         }
     }
     let layout = SoundingLayout::from_names(&spec, names, naive_offset, input)?;
+    // Only x and y may be the geometry's; every other mapping names a column of the file.
+    let own = src.schema().fields().len();
+    let m = layout.mapped_columns();
+    for (key, i) in [
+        ("time", Some(m.time)),
+        ("depth", Some(m.depth)),
+        ("line", m.line),
+        ("u_depth", m.u_depth),
+    ] {
+        if let Some(i) = i.filter(|&i| i >= own) {
+            return Err(IoError::content(
+                Position::file(input).field(format!("columns.{key}")),
+                format!(
+                    "'{}' is not a column of the file (it has {own}): only x and y can come from the geometry",
+                    layout.column_names[i]
+                ),
+            ));
+        }
+    }
+    if let Some(g) = geometry {
+        let t = src.schema().field(g).data_type().clone();
+        if !matches!(
+            t,
+            arrow_schema::DataType::Binary | arrow_schema::DataType::LargeBinary
+        ) {
+            return Err(IoError::content(
+                Position::file(input).field(src.schema().field(g).name().as_str()),
+                format!(
+                    "the GeoParquet geometry column is {t}; ebbwise reads WKB in a binary column"
+                ),
+            ));
+        }
+    }
     // The mapped columns' types, checked once for the file (not per batch).
     let empty = RecordBatch::new_empty(Arc::clone(src.schema()));
     crate::io::columnar::BatchView::new(
@@ -2312,6 +2345,14 @@ impl BatchSetup {
             .map(|f| f.name().clone())
             .collect();
         let group = &loaded.project.spec.soundings[self.group];
+        // A caller's batch, possibly imported from another process's memory: its columns must
+        // match its schema (a non-nullable field holding nulls would break the output's).
+        RecordBatch::try_new(batch.schema(), batch.columns().to_vec()).map_err(|e| {
+            IoError::content(
+                Position::file(at),
+                format!("the batch does not match its own schema: {e}"),
+            )
+        })?;
         let layout = SoundingLayout::from_names(group, names, loaded.project.naive_offset, at)?;
         crate::io::columnar::BatchView::new(
             batch,

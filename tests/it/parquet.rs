@@ -410,6 +410,30 @@ fn nulls_in_a_parquet_file_are_bad_input_rows_and_a_wrong_crs_or_type_stops_the_
         err.contains("geo.parquet") && err.contains("EPSG:32629") && err.contains("EPSG:32724"),
         "{err}"
     );
+    // With x and y from the geometry, another mapping beyond the file's columns is refused
+    // (not read out of bounds).
+    let geo_ok = dir.path().join("geo-ok.parquet");
+    launch_a_as_parquet(&demo_csv, &geo_ok, Some(32724), &[]);
+    let project = project_reading(dir.path(), &geo_ok);
+    let beyond = std::fs::read_to_string(&project)
+        .unwrap()
+        .replace("depth = \"depth_m\"", "depth = \"#5\"");
+    assert!(beyond.contains("depth = \"#5\""));
+    let beyond_project = dir.path().join("beyond.toml");
+    std::fs::write(&beyond_project, beyond).unwrap();
+    let o = ebbwise(&[
+        "reduce",
+        beyond_project.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--no-progress",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("only x and y can come from the geometry"),
+        "{}",
+        stderr(&o)
+    );
     // Columns of text where numbers are mapped: refused for the file, naming the first.
     let (h, r) = read_csv(&demo_csv);
     let cols: Vec<ArrayRef> = (0..h.len())
