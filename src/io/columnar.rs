@@ -691,9 +691,9 @@ impl<'b> BatchView<'b> {
             t_s,
             x,
             y,
-            depth,
+            depth_as_written_m: depth,
             line_id,
-            u_depth,
+            u_depth_m: u_depth,
         })
     }
 

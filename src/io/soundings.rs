@@ -766,9 +766,9 @@ impl SoundingLayout {
                 t_s,
                 x,
                 y,
-                depth,
+                depth_as_written_m: depth,
                 line_id,
-                u_depth,
+                u_depth_m: u_depth,
             },
             |i| clip(fields.get(line, i).unwrap_or("")),
         )
@@ -824,7 +824,7 @@ impl SoundingLayout {
                 }
             }
         }
-        let mut depth_m = raw.depth;
+        let mut depth_m = raw.depth_as_written_m;
         if self.depth_sign == DepthSign::PositiveUp {
             depth_m = -depth_m;
         }
@@ -837,7 +837,7 @@ impl SoundingLayout {
                 ),
             });
         }
-        let u_depth_m = match (self.u_depth, raw.u_depth) {
+        let u_depth_m = match (self.u_depth, raw.u_depth_m) {
             (Some(i), Some(u)) => {
                 if u < 0.0 {
                     return Err(RowProblem {
@@ -895,12 +895,12 @@ pub struct RawValues<'a> {
     pub x: f64,
     /// Northing or latitude.
     pub y: f64,
-    /// The depth as written (sign as the group's `depth_sign`).
-    pub depth: f64,
+    /// The depth as written, metres (sign as the group's `depth_sign`).
+    pub depth_as_written_m: f64,
     /// Survey line ("" when none).
     pub line_id: &'a str,
-    /// Depth standard uncertainty, when mapped.
-    pub u_depth: Option<f64>,
+    /// Standard uncertainty (1 sigma) of the depth, metres, when mapped.
+    pub u_depth_m: Option<f64>,
 }
 
 /// Appends one field to a CSV line held in a `String`, quoting it when needed.

@@ -254,20 +254,9 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                     };
                     fields.split(line, lay.delimiter);
                     match lay.parse(line, &fields) {
-                        Err(p) => {
-                            problems += 1;
-                            if problems <= ROW_PROBLEMS_LISTED {
-                                report.findings.push(Finding::error(
-                                    Position::file(path).line(n).field(p.field),
-                                    p.message,
-                                ));
-                            }
-                        }
+                        Err(p) => list_row_problem(&mut report.findings, &mut problems, path, n, p),
                         Ok(v) => {
-                            t_range = Some(match t_range {
-                                None => (v.t_s, v.t_s),
-                                Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
-                            });
+                            widen(&mut t_range, v.t_s);
                             let Some(locator) = &locator else {
                                 continue;
                             };
@@ -289,12 +278,7 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
                     break;
                 }
             }
-            if problems > ROW_PROBLEMS_LISTED {
-                report.findings.push(Finding::error(
-                    Position::file(path),
-                    format!("{} more unreadable rows", problems - ROW_PROBLEMS_LISTED),
-                ));
-            }
+            more_problems(&mut report.findings, problems, path);
             if outside > 0 {
                 report.findings.push(Finding::warning(
                     Position::file(path).line(first_outside.unwrap_or(0)),
@@ -335,6 +319,42 @@ pub fn check_project(project_path: &std::path::Path) -> CheckReport {
     }
     finish(&mut report);
     report
+}
+
+/// Counts an unreadable row and lists it when it is one of the first
+/// [`ROW_PROBLEMS_LISTED`] of its file (`row`: its line, or a Parquet file's 1-based row).
+fn list_row_problem(
+    findings: &mut Vec<Finding>,
+    problems: &mut usize,
+    path: &std::path::Path,
+    row: u64,
+    p: crate::io::soundings::RowProblem,
+) {
+    *problems += 1;
+    if *problems <= ROW_PROBLEMS_LISTED {
+        findings.push(Finding::error(
+            Position::file(path).line(row).field(p.field),
+            p.message,
+        ));
+    }
+}
+
+/// Says how many unreadable rows of a file were not listed.
+fn more_problems(findings: &mut Vec<Finding>, problems: usize, path: &std::path::Path) {
+    if problems > ROW_PROBLEMS_LISTED {
+        findings.push(Finding::error(
+            Position::file(path),
+            format!("{} more unreadable rows", problems - ROW_PROBLEMS_LISTED),
+        ));
+    }
+}
+
+/// Widens the soundings' time span to take `t_s`.
+fn widen(range: &mut Option<(f64, f64)>, t_s: f64) {
+    *range = Some(match *range {
+        None => (t_s, t_s),
+        Some((a, b)) => (a.min(t_s), b.max(t_s)),
+    });
 }
 
 /// Checks a Parquet soundings file as a CSV one is: its mapping and column types, every row
@@ -396,20 +416,9 @@ fn check_parquet(
                 .row(r, &m, &layout)
                 .and_then(|raw| layout.check(raw, |i| view.written(i, r)))
             {
-                Err(p) => {
-                    problems += 1;
-                    if problems <= ROW_PROBLEMS_LISTED {
-                        report.findings.push(Finding::error(
-                            Position::file(path).line(row).field(p.field),
-                            p.message,
-                        ));
-                    }
-                }
+                Err(p) => list_row_problem(&mut report.findings, &mut problems, path, row, p),
                 Ok(v) => {
-                    *t_range = Some(match *t_range {
-                        None => (v.t_s, v.t_s),
-                        Some((a, b)) => (a.min(v.t_s), b.max(v.t_s)),
-                    });
+                    widen(t_range, v.t_s);
                     if locator.is_some_and(|l| l.locate(v.x, v.y).is_none()) {
                         outside += 1;
                         first_outside.get_or_insert(row);
@@ -418,12 +427,7 @@ fn check_parquet(
             }
         }
     }
-    if problems > ROW_PROBLEMS_LISTED {
-        report.findings.push(Finding::error(
-            Position::file(path),
-            format!("{} more unreadable rows", problems - ROW_PROBLEMS_LISTED),
-        ));
-    }
+    more_problems(&mut report.findings, problems, path);
     if outside > 0 {
         report.findings.push(Finding::warning(
             Position::file(path).line(first_outside.unwrap_or(0)),

@@ -1484,10 +1484,7 @@ fn process_batch(rb: &RowBatch, ctx: &FileCtx, model: &dyn TideModel, bytes: Vec
         let parsed = match &view {
             Err(p) => {
                 // Checked when the file was opened; kept for a batch that differs.
-                w.detail.push_str("field '");
-                w.detail.push_str(&p.column);
-                w.detail.push_str("': ");
-                w.detail.push_str(&p.message);
+                note_problem(&mut w.detail, &p.column, &p.message);
                 None
             }
             Ok(v) => match v
@@ -1500,26 +1497,12 @@ fn process_batch(rb: &RowBatch, ctx: &FileCtx, model: &dyn TideModel, bytes: Vec
                         facts.line = l;
                     }
                     facts.at = v.position(r);
-                    w.detail.push_str("field '");
-                    w.detail.push_str(&p.field);
-                    w.detail.push_str("': ");
-                    w.detail.push_str(&p.message);
+                    note_problem(&mut w.detail, &p.field, &p.message);
                     None
                 }
             },
         };
-        let ev = match &parsed {
-            None => RowEval::bad_input(),
-            Some(v) => {
-                if !v.line_id.is_empty() {
-                    facts.line = v.line_id;
-                }
-                facts.t_s = Some(v.t_s);
-                facts.at = Some((v.x, v.y));
-                o.parsed(v);
-                evaluate(ctx, model, v, &mut w)
-            }
-        };
+        let ev = row_outcome(ctx, model, parsed.as_ref(), &mut facts, &mut o, &mut w);
         match (reduced.as_mut(), text.as_ref()) {
             (Some(red), _) => red.push(
                 ev.zone,
@@ -2105,6 +2088,37 @@ impl ChunkOut {
     }
 }
 
+/// `field 'NAME': MESSAGE`, the `status_detail` of a row that cannot be read.
+fn note_problem(detail: &mut String, field: &str, message: &str) {
+    detail.push_str("field '");
+    detail.push_str(field);
+    detail.push_str("': ");
+    detail.push_str(message);
+}
+
+/// The outcome of a row, whatever file it came from: `bad_input` when it could not be read
+/// (its detail already written), else its reduction, with its line, time and position taken
+/// for the QA counts and its time for the file's span.
+fn row_outcome<'r>(
+    ctx: &FileCtx,
+    model: &dyn TideModel,
+    parsed: Option<&SoundingValues<'r>>,
+    facts: &mut RowFacts<'r>,
+    o: &mut ChunkOut,
+    w: &mut RowWork,
+) -> RowEval {
+    let Some(v) = parsed else {
+        return RowEval::bad_input();
+    };
+    if !v.line_id.is_empty() {
+        facts.line = v.line_id;
+    }
+    facts.t_s = Some(v.t_s);
+    facts.at = Some((v.x, v.y));
+    o.parsed(v);
+    evaluate(ctx, model, v, w)
+}
+
 /// Adds the note of a row with more fields than the header (allowed, not copied) to `detail`.
 fn note_extra_fields(detail: &mut String, fields: usize, header: usize) {
     if !detail.is_empty() {
@@ -2198,27 +2212,13 @@ fn process_chunk(chunk: &Chunk, ctx: &FileCtx, model: &dyn TideModel, bytes: Vec
                         facts.line = l;
                     }
                     facts.at = ctx.layout.position_text(line, &fields);
-                    w.detail.push_str("field '");
-                    w.detail.push_str(&p.field);
-                    w.detail.push_str("': ");
-                    w.detail.push_str(&p.message);
+                    note_problem(&mut w.detail, &p.field, &p.message);
                     None
                 }
                 Ok(v) => Some(v),
             }
         };
-        let ev = match &parsed {
-            None => RowEval::bad_input(),
-            Some(v) => {
-                if !v.line_id.is_empty() {
-                    facts.line = v.line_id;
-                }
-                facts.t_s = Some(v.t_s);
-                facts.at = Some((v.x, v.y));
-                o.parsed(v);
-                evaluate(ctx, model, v, &mut w)
-            }
-        };
+        let ev = row_outcome(ctx, model, parsed.as_ref(), &mut facts, &mut o, &mut w);
         // What a per-sounding correction file carries in its `status_detail`: how a
         // `gap_filled` tide was filled (not the notes about the soundings row, which `apply`
         // makes again from the row).
@@ -2409,9 +2409,9 @@ impl BatchSetup {
             t_s,
             x,
             y,
-            depth: 0.0,
+            depth_as_written_m: 0.0,
             line_id: "",
-            u_depth: Some(0.0),
+            u_depth_m: Some(0.0),
         };
         let layout = &self.point_layout;
         let ev = match layout.check(raw, |i| match i {
@@ -2422,7 +2422,7 @@ impl BatchSetup {
         }) {
             Ok(v) => evaluate(&ctx, &model, &v, &mut w),
             Err(p) => {
-                w.detail = format!("'{}': {}", p.field, p.message);
+                note_problem(&mut w.detail, &p.field, &p.message);
                 RowEval::bad_input()
             }
         };

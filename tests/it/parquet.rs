@@ -323,6 +323,19 @@ fn project_reading(dir: &Path, parquet: &Path) -> std::path::PathBuf {
     p
 }
 
+/// `ebbwise reduce` on `project`, which must stop before reducing (exit 2): its stderr.
+fn refused(project: &Path, out: &Path) -> String {
+    let o = ebbwise(&[
+        "reduce",
+        project.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--no-progress",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    stderr(&o)
+}
+
 /// The appended columns (zone onwards) of a reduced CSV, row by row.
 fn appended(path: &Path) -> Vec<Vec<String>> {
     let (header, rows) = read_csv(path);
@@ -397,15 +410,7 @@ fn nulls_in_a_parquet_file_are_bad_input_rows_and_a_wrong_crs_or_type_stops_the_
     let geo = dir.path().join("geo.parquet");
     launch_a_as_parquet(&demo_csv, &geo, Some(32629), &[]);
     let project = project_reading(dir.path(), &geo);
-    let o = ebbwise(&[
-        "reduce",
-        project.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--no-progress",
-    ]);
-    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
-    let err = stderr(&o);
+    let err = refused(&project, &out);
     assert!(
         err.contains("geo.parquet") && err.contains("EPSG:32629") && err.contains("EPSG:32724"),
         "{err}"
@@ -421,18 +426,10 @@ fn nulls_in_a_parquet_file_are_bad_input_rows_and_a_wrong_crs_or_type_stops_the_
     assert!(beyond.contains("depth = \"#5\""));
     let beyond_project = dir.path().join("beyond.toml");
     std::fs::write(&beyond_project, beyond).unwrap();
-    let o = ebbwise(&[
-        "reduce",
-        beyond_project.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--no-progress",
-    ]);
-    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = refused(&beyond_project, &out);
     assert!(
-        stderr(&o).contains("only x and y can come from the geometry"),
-        "{}",
-        stderr(&o)
+        err.contains("only x and y can come from the geometry"),
+        "{err}"
     );
     // Columns of text where numbers are mapped: refused for the file, naming the first.
     let (h, r) = read_csv(&demo_csv);
@@ -461,15 +458,7 @@ fn nulls_in_a_parquet_file_are_bad_input_rows_and_a_wrong_crs_or_type_stops_the_
         .unwrap();
     w.close().unwrap();
     let project = project_reading(dir.path(), &text);
-    let o = ebbwise(&[
-        "reduce",
-        project.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--no-progress",
-    ]);
-    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
-    let err = stderr(&o);
+    let err = refused(&project, &out);
     assert!(
         err.contains("text.parquet")
             && err.contains("field 'easting'")
