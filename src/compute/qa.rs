@@ -7,8 +7,9 @@
 //!
 //! A survey (zone, line) *meets* an order when the share of its soundings whose U95 TVU is within
 //! the order's allowed TVU is at least the acceptance share (95 % by default: common practice).
-//! Percentiles come from [`QuantileSketch`]es: never below the exact percentile, at most
-//! [`RELATIVE_ERROR`](super::quantile::RELATIVE_ERROR) above it.
+//! The U95/allowed percentiles come from [`QuantileSketch`]es: never below the exact
+//! percentile, at most [`RELATIVE_ERROR`](super::quantile::RELATIVE_ERROR) above it. The budget
+//! shares' percentiles are exact at the report's [`SHARE_DECIMALS`] (`ShareCounts`).
 
 use std::collections::{BTreeMap, BTreeSet, HashMap};
 
@@ -194,13 +195,75 @@ const SHARE_UNITS: f64 = 1e9;
 pub struct BudgetQa {
     n: u64,
     share_sum: [u64; 6],
-    /// Percentile sketches of each component's share: kept for the survey and zones, not for
-    /// lines ([`BudgetQa::without_percentiles`]), whose budget gives means and metres only (a
-    /// survey of thousands of lines would otherwise hold six sketches per line).
-    share_sketch: Option<Box<[QuantileSketch; 6]>>,
+    /// Counts of each component's share as the report writes its percentile (rounded up to
+    /// [`SHARE_DECIMALS`]): kept for the survey and zones, not for lines
+    /// ([`BudgetQa::without_percentiles`]), whose budget gives means and metres only (a survey
+    /// of thousands of lines would otherwise hold six histograms per line).
+    share_counts: Option<ShareCounts>,
     /// Sum of each component's variance, in units of [`VARIANCE_UNIT_M2`] (integers, so that
     /// the total does not depend on the order of adding).
     var_sum: [u128; 6],
+}
+
+/// Share bins: a share (0–1) rounded up to [`SHARE_DECIMALS`] is one of `0, 0.001, …, 1`.
+const SHARE_BINS: usize = 1001;
+
+/// Each budget component's shares, counted by their value rounded up to [`SHARE_DECIMALS`]
+/// (bin `k` holds the shares `s` with `round_up(s) = k / 1000`). Rounding up never lowers a
+/// value and keeps the order of any two, so the nearest-rank percentile of the rounded shares
+/// is the rounded exact percentile: the report's p95 share is exact, not an estimate, and
+/// adding a share is one increment. The bins are allocated at the first share (a chunk's
+/// accumulator holds them only for the zones it met).
+#[derive(Debug, Clone, Default)]
+struct ShareCounts(Option<Box<[[u64; SHARE_BINS]; 6]>>);
+
+impl ShareCounts {
+    /// The bin of `share`: its value rounded up to [`SHARE_DECIMALS`], in units of the last
+    /// decimal (by [`round_up`]'s rule), held to 0–1000.
+    fn bin(share: f64) -> usize {
+        let k = (round_up(share, SHARE_DECIMALS) * 10f64.powi(SHARE_DECIMALS)).round();
+        if k > 0.0 {
+            (k as usize).min(SHARE_BINS - 1)
+        } else {
+            0
+        }
+    }
+    fn bins(&mut self) -> &mut [[u64; SHARE_BINS]; 6] {
+        self.0.get_or_insert_with(|| Box::new([[0; SHARE_BINS]; 6]))
+    }
+    fn add(&mut self, shares: &[f64; 6]) {
+        let bins = self.bins();
+        for (b, s) in bins.iter_mut().zip(shares) {
+            b[Self::bin(*s)] += 1;
+        }
+    }
+    fn merge(&mut self, o: &ShareCounts) {
+        if let Some(ob) = &o.0 {
+            for (a, b) in self.bins().iter_mut().zip(ob.iter()) {
+                for (x, y) in a.iter_mut().zip(b.iter()) {
+                    *x += y;
+                }
+            }
+        }
+    }
+    /// Component `k`'s `p`-th percentile (nearest rank), rounded up to [`SHARE_DECIMALS`];
+    /// `None` when no share was counted.
+    fn percentile(&self, k: usize, p: u32) -> Option<f64> {
+        let bins = &self.0.as_ref()?[k];
+        let n: u64 = bins.iter().sum();
+        if n == 0 {
+            return None;
+        }
+        let rank = ((u128::from(p.min(100)) * u128::from(n)).div_ceil(100)).max(1) as u64;
+        let mut cum = 0;
+        for (i, c) in bins.iter().enumerate() {
+            cum += c;
+            if cum >= rank {
+                return Some(i as f64 / 10f64.powi(SHARE_DECIMALS));
+            }
+        }
+        None
+    }
 }
 
 /// Unit of the summed variances: 1e-12 m² (a standard uncertainty of 1 µm).
@@ -244,7 +307,7 @@ impl Default for BudgetQa {
         BudgetQa {
             n: 0,
             share_sum: [0; 6],
-            share_sketch: Some(Box::default()),
+            share_counts: Some(ShareCounts::default()),
             var_sum: [0; 6],
         }
     }
@@ -254,7 +317,7 @@ impl BudgetQa {
     /// A budget that keeps no percentile of the shares (a line's).
     pub fn without_percentiles() -> Self {
         BudgetQa {
-            share_sketch: None,
+            share_counts: None,
             ..Default::default()
         }
     }
@@ -274,9 +337,9 @@ impl BudgetQa {
             // Saturating: a sum that reaches the top stays there, never wraps to a small one.
             self.var_sum[k] = self.var_sum[k].saturating_add(u128::from(u.var[k]));
             self.share_sum[k] += u.share[k];
-            if let Some(sk) = self.share_sketch.as_mut() {
-                sk[k].add(u.shares[k]);
-            }
+        }
+        if let Some(c) = self.share_counts.as_mut() {
+            c.add(&u.shares);
         }
     }
     fn merge(&mut self, o: &BudgetQa) {
@@ -285,10 +348,8 @@ impl BudgetQa {
             self.var_sum[k] = self.var_sum[k].saturating_add(o.var_sum[k]);
             self.share_sum[k] += o.share_sum[k];
         }
-        if let (Some(a), Some(b)) = (self.share_sketch.as_mut(), o.share_sketch.as_ref()) {
-            for k in 0..6 {
-                a[k].merge(&b[k]);
-            }
+        if let (Some(a), Some(b)) = (self.share_counts.as_mut(), o.share_counts.as_ref()) {
+            a.merge(b);
         }
     }
     fn mean_share(&self, k: usize) -> f64 {
@@ -314,9 +375,9 @@ impl BudgetQa {
                 component: name,
                 mean_share: round_nearest(self.mean_share(k), SHARE_DECIMALS),
                 p95_share: self
-                    .share_sketch
+                    .share_counts
                     .as_ref()
-                    .map(|sk| round_up(sk[k].percentile(95).unwrap_or(0.0), SHARE_DECIMALS)),
+                    .map(|c| c.percentile(k, 95).unwrap_or(0.0)),
                 rms_m: round_nearest(self.rms_m(k), METRE_DECIMALS),
             })
             .collect();
@@ -817,6 +878,59 @@ mod tests {
         assert_eq!(ls.components[4].mean_share, 0.292);
         assert_eq!(ls.components[0].rms_m, 0.05);
         assert_eq!(s.dominant_component, "timing");
+    }
+
+    #[test]
+    fn p95_shares_equal_the_exact_nearest_rank_percentile_rounded_up() {
+        // Checked against the definition (nearest rank, ⌈0.95·n⌉-th smallest, then rounded up to
+        // 0.001): sorting every share. Shares land on and beside bin edges (0.25 exactly, 1/3,
+        // 0 and 1) as well as at random.
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(17);
+        let mut whole = BudgetQa::default();
+        let mut parts = [BudgetQa::default(), BudgetQa::default()];
+        let mut shares: Vec<[f64; 6]> = Vec::new();
+        for i in 0..5000 {
+            let mut v = [0.0; 6];
+            for x in v.iter_mut() {
+                *x = match rng.gen_range(0..6) {
+                    0 => 0.0,
+                    1 => 0.01,
+                    _ => rng.gen_range(0.0..0.02),
+                };
+            }
+            if v.iter().sum::<f64>() == 0.0 {
+                v[5] = 0.01;
+            }
+            let total: f64 = v.iter().sum();
+            let mut sh = [0.0; 6];
+            for k in 0..6 {
+                sh[k] = v[k] / total;
+            }
+            shares.push(sh);
+            whole.add(&v);
+            parts[i % 2].add(&v);
+        }
+        let [mut a, b] = parts;
+        a.merge(&b);
+        let (sw, sa) = (whole.summary(), a.summary());
+        for k in 0..6 {
+            let mut col: Vec<f64> = shares.iter().map(|s| s[k]).collect();
+            col.sort_by(f64::total_cmp);
+            let rank = (95 * col.len()).div_ceil(100);
+            let exact = round_up(col[rank - 1], SHARE_DECIMALS);
+            assert_eq!(sw.components[k].p95_share, Some(exact), "component {k}");
+            assert_eq!(
+                sa.components[k].p95_share,
+                Some(exact),
+                "merged, component {k}"
+            );
+        }
+        // The bins of values at and just above a bin edge.
+        assert_eq!(ShareCounts::bin(0.25), 250);
+        assert_eq!(ShareCounts::bin(0.250_000_1), 251);
+        assert_eq!(ShareCounts::bin(0.0), 0);
+        assert_eq!(ShareCounts::bin(1.0), 1000);
     }
 
     #[test]
